@@ -1,0 +1,32 @@
+"""The package's exception hierarchy.
+
+One root class, :class:`CableTheoryError`; each subclass also inherits the builtin
+exception a caller would expect, so ``except ValueError`` keeps working.
+Messages name the field, the value and what was expected, on one line.
+"""
+
+from __future__ import annotations
+
+
+class CableTheoryError(Exception):
+    """Root of every error raised on purpose by cabletheory."""
+
+
+class InputError(CableTheoryError, ValueError):
+    """A user-supplied value is malformed, out of range or of the wrong kind."""
+
+
+class UnitKindError(InputError):
+    """A quantity carries a unit of the wrong physical kind (e.g. a capacitance for Rm)."""
+
+
+class FileFormatError(InputError):
+    """A data file (morphology, simulator output ...) cannot be read as documented."""
+
+
+class MissingFileError(CableTheoryError, FileNotFoundError):
+    """A file named by the user does not exist or is not readable."""
+
+
+class ConvergenceError(CableTheoryError, ArithmeticError):
+    """A root or series did not meet its stated accuracy; the message says by how much."""
