@@ -19,10 +19,14 @@ Numerically stable forms are used throughout: hyperbolic functions are written w
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 __all__ = [
+    "CableSummary",
+    "Cylinder",
     "ac_length_constant",
     "axial_resistance_per_length",
     "electrotonic_length",
@@ -35,6 +39,7 @@ __all__ = [
     "membrane_resistance_per_length",
     "membrane_time_constant",
     "segments_needed",
+    "summarise",
     "semi_infinite_input_conductance",
     "semi_infinite_input_resistance",
     "transfer_impedance",
@@ -419,3 +424,140 @@ def transfer_impedance(semi_infinite_resistance: ArrayLike, electrotonic_length:
     q = wavenumber(frequency, time_constant)
     return np.asarray(semi_infinite_resistance) * _green(q, electrotonic_length, end_conductance_ratio,
                                                          position, source)
+
+
+# --------------------------------------------------------------------------------------
+# parameter and result objects
+# --------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class Cylinder:
+    """A uniform passive cylinder in SI units; input is applied at its origin (X = 0).
+
+    ``length = inf`` is a semi-infinite cable. ``end_conductance`` is the conductance (S)
+    from the far end to rest: 0 sealed, ``inf`` killed (short-circuited to rest).
+    """
+
+    membrane_resistivity: float  # Rm, Ω·m²
+    axial_resistivity: float  # Ri, Ω·m
+    membrane_capacitance: float  # Cm, F/m²
+    diameter: float  # d, m
+    length: float  # ℓ, m (inf: semi-infinite)
+    end_conductance: float = 0.0  # G_end, S (0 sealed, inf killed)
+
+    def __post_init__(self) -> None:
+        for name in ("membrane_resistivity", "axial_resistivity", "membrane_capacitance", "diameter"):
+            value = getattr(self, name)
+            if not (np.isfinite(value) and value > 0):
+                raise ValueError(f"{name} must be finite and positive, got {value!r}")
+        if not self.length > 0:
+            raise ValueError(f"length must be positive (inf for semi-infinite), got {self.length!r}")
+        if not self.end_conductance >= 0:
+            raise ValueError(f"end_conductance must be >= 0 (inf for killed), got {self.end_conductance!r}")
+
+    @property
+    def length_constant(self) -> float:
+        return float(length_constant(self.membrane_resistivity, self.axial_resistivity, self.diameter))
+
+    @property
+    def time_constant(self) -> float:
+        return float(membrane_time_constant(self.membrane_resistivity, self.membrane_capacitance))
+
+    @property
+    def semi_infinite_input_resistance(self) -> float:
+        return float(semi_infinite_input_resistance(self.membrane_resistivity, self.axial_resistivity,
+                                                    self.diameter))
+
+    @property
+    def electrotonic_length(self) -> float:
+        return float(electrotonic_length(self.length, self.length_constant))
+
+    @property
+    def end_conductance_ratio(self) -> float:
+        """Rall's B = G_end / G∞ (0 sealed, inf killed)."""
+        return float(self.end_conductance * self.semi_infinite_input_resistance)
+
+
+@dataclass(frozen=True, slots=True)
+class CableSummary:
+    """Steady-state (and optionally sinusoidal) results for a :class:`Cylinder`, all SI."""
+
+    cylinder: Cylinder
+    length_constant: float
+    membrane_time_constant: float
+    electrotonic_length: float
+    membrane_resistance_per_length: float
+    axial_resistance_per_length: float
+    membrane_capacitance_per_length: float
+    semi_infinite_input_resistance: float
+    semi_infinite_input_conductance: float
+    end_conductance_ratio: float
+    input_resistance: float
+    input_conductance: float
+    far_end_voltage_ratio: float
+    positions: Array  # m, where the profile is evaluated
+    voltage_ratio: Array  # V(x)/V(0)
+    transfer_resistance: Array  # Ω, from the origin to each position
+    frequency: float | None = None  # Hz
+    input_impedance: complex | None = None  # Ω
+    transfer_impedance: NDArray[np.complex128] | None = None  # Ω, at each position
+    ac_length_constant: float | None = None  # m
+    segments_needed: int | None = None
+    segment_fraction: float = 0.1
+    advice_frequency: float = 100.0  # Hz
+
+
+def summarise(cylinder: Cylinder, positions: ArrayLike = (), frequency: float | None = None,
+              segment_fraction: float = 0.1, advice_frequency: float = 100.0) -> CableSummary:
+    """Evaluate every closed form of this module for one cylinder.
+
+    ``positions`` are physical distances from the origin (m), each in [0, ℓ].
+    Segment advice uses λ at ``advice_frequency`` (default 100 Hz, common practice) and is
+    omitted for a semi-infinite cable.
+    """
+    lam = cylinder.length_constant
+    tau = cylinder.time_constant
+    r_inf = cylinder.semi_infinite_input_resistance
+    L = cylinder.electrotonic_length
+    b = cylinder.end_conductance_ratio
+    x = np.atleast_1d(np.asarray(positions, dtype=float))
+    if np.any(x < 0) or np.any(x > cylinder.length):
+        raise ValueError("positions must lie between 0 and the cable's length")
+    X = x / lam
+    z_in = z_x = lam_f = None
+    if frequency is not None:
+        z_in = complex(input_impedance(r_inf, L, b, frequency, tau))
+        z_x = transfer_impedance(r_inf, L, b, frequency, tau, X)
+        lam_f = float(ac_length_constant(lam, frequency, tau))
+    n_seg = None
+    if np.isfinite(cylinder.length):
+        n_seg = int(segments_needed(cylinder.length, ac_length_constant(lam, advice_frequency, tau),
+                                    segment_fraction))
+    r_in = float(input_resistance(r_inf, L, b))
+    return CableSummary(
+        cylinder=cylinder,
+        length_constant=lam,
+        membrane_time_constant=tau,
+        electrotonic_length=L,
+        membrane_resistance_per_length=float(membrane_resistance_per_length(cylinder.membrane_resistivity,
+                                                                            cylinder.diameter)),
+        axial_resistance_per_length=float(axial_resistance_per_length(cylinder.axial_resistivity,
+                                                                      cylinder.diameter)),
+        membrane_capacitance_per_length=float(membrane_capacitance_per_length(cylinder.membrane_capacitance,
+                                                                              cylinder.diameter)),
+        semi_infinite_input_resistance=r_inf,
+        semi_infinite_input_conductance=1.0 / r_inf,
+        end_conductance_ratio=b,
+        input_resistance=r_in,
+        input_conductance=1.0 / r_in,
+        far_end_voltage_ratio=float(far_end_voltage_ratio(L, b)),
+        positions=x,
+        voltage_ratio=voltage_ratio(X, L, b),
+        transfer_resistance=transfer_resistance(r_inf, L, b, X),
+        frequency=frequency,
+        input_impedance=z_in,
+        transfer_impedance=z_x,
+        ac_length_constant=lam_f,
+        segments_needed=n_seg,
+        segment_fraction=segment_fraction,
+        advice_frequency=advice_frequency,
+    )

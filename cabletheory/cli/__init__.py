@@ -1,0 +1,80 @@
+"""Command line: ``cabletheory <command> ...``.
+
+Each command lives in its own module of this package and exposes
+``register(subparsers) -> None``, which adds its parser and sets ``run=<function>``;
+the function takes the parsed arguments and returns an exit status. Modules import
+only the standard library and the core at top level; sympy, scipy, textual and
+matplotlib are imported inside the functions that need them, so that start-up is fast.
+
+Errors the user can fix (:class:`~cabletheory.errors.CableTheoryError`) print one line
+to stderr and give exit status 2, never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+from .. import __version__
+from ..errors import CableTheoryError, InputError
+
+# command name -> module in this package (order is the order of ``--help``)
+COMMANDS: dict[str, str] = {
+    "cable": "cable",
+    "charge": "charge",
+    "derive": "derive",
+    "tree": "tree",
+    "reference": "reference",
+    "compare": "compare",
+    "advise": "advise",
+    "demo": "demo",
+    "ui": "ui",
+}
+
+
+class _Parser(argparse.ArgumentParser):
+    """An ArgumentParser whose errors become one-line :class:`InputError`s."""
+
+    def error(self, message: str):  # type: ignore[override]
+        raise InputError(f"{self.prog}: {message}")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="cabletheory",
+        description="Closed-form answers for passive neuronal cables (passive, linear, uniform membrane).",
+    )
+    parser.add_argument("--version", action="version", version=f"cabletheory {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for module_name in COMMANDS.values():
+        try:
+            module = importlib.import_module(f"{__name__}.{module_name}")
+        except ModuleNotFoundError as exc:
+            if exc.name != f"{__name__}.{module_name}":
+                raise
+            continue  # command not built yet
+        module.register(sub)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; return the exit status (0 ok, 1 check failed, 2 bad input)."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+        if getattr(args, "run", None) is None:
+            parser.print_help()
+            return 2
+        return int(args.run(args))
+    except CableTheoryError as exc:
+        print(f"cabletheory: error: {exc}", file=sys.stderr)
+        return 2
+    except BrokenPipeError:  # e.g. piped into `head`
+        return 0
+
+
+def entry() -> None:
+    """Console-script entry point."""
+    sys.exit(main())
