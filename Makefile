@@ -1,0 +1,35 @@
+# Set-up and everyday commands. Needs only python3 (3.11+), pip and make.
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+BASE   := $(VENV)/.installed-base
+TESTS  := $(VENV)/.installed-test
+
+.PHONY: demo test bench lint clean
+
+demo: $(BASE)            ## install and run the main job on bundled data
+	$(BIN)/cabletheory demo
+
+test: $(TESTS)           ## install with test extras and run every test
+	$(BIN)/python -m pytest -q
+
+bench: $(BASE)           ## speed and memory figures (not part of the tests)
+	$(BIN)/python benchmarks/run_all.py
+
+lint: $(TESTS)
+	$(BIN)/ruff check cabletheory tests benchmarks worked scripts
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+
+$(BASE): pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e .
+	touch $@
+
+$(TESTS): pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e ".[test]"
+	touch $@ $(BASE)
+
+clean:
+	rm -rf $(VENV) build *.egg-info .pytest_cache .hypothesis

@@ -1,0 +1,186 @@
+"""``cabletheory cable``: steady-state and sinusoidal closed forms for one uniform cylinder."""
+
+from __future__ import annotations
+
+import argparse
+import math
+
+import numpy as np
+
+from .. import PASSIVE_CAVEAT
+from ..cable import CableSummary, summarise
+from ..errors import InputError
+from ..units import format_quantity, parse_quantity, parse_series
+from .common import add_cable_options, dump_json, echo_cylinder, quantity, read_cylinder, table
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    parser = subparsers.add_parser(
+        "cable",
+        help="length constant, time constant, input resistance and impedance of one cylinder",
+        description="Steady-state and sinusoidal closed forms for one uniform passive cylinder with input "
+                    "at its origin (X = 0) and a sealed, killed or leaky far end.",
+        epilog=PASSIVE_CAVEAT,
+    )
+    add_cable_options(parser)
+    parser.add_argument("--frequency", metavar="F",
+                        help="also give the impedance and AC length constant at this frequency (bare: Hz)")
+    parser.add_argument("--at", metavar="POSITIONS",
+                        help="distances from the origin for the voltage profile: a list '0, 100, 200 um' "
+                             "or a range '0:500:50 um' (bare: µm)")
+    parser.add_argument("--segment-fraction", default="0.1", metavar="FRACTION",
+                        help="segment advice: largest segment as a fraction of λ at the advice frequency "
+                             "(default 0.1)")
+    parser.add_argument("--advice-frequency", default="100 Hz", metavar="F",
+                        help="segment advice: frequency whose λ sets the segment size (default 100 Hz)")
+    parser.add_argument("--digits", type=int, default=4, choices=range(2, 13), metavar="N",
+                        help="significant digits in the human-readable output (default 4)")
+    parser.add_argument("--json", action="store_true", help="print one JSON object with SI values")
+    parser.set_defaults(run=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    cylinder = read_cylinder(args)
+    frequency = None
+    if args.frequency is not None:
+        frequency = parse_quantity(args.frequency, "frequency", "--frequency", allow_zero=True)
+    fraction = parse_quantity(args.segment_fraction, "dimensionless", "--segment-fraction")
+    if fraction > 1:
+        raise InputError(f"--segment-fraction: {args.segment_fraction!r} exceeds 1; expected e.g. 0.1")
+    advice_frequency = parse_quantity(args.advice_frequency, "frequency", "--advice-frequency")
+    positions: list[float] = []
+    if args.at is not None:
+        positions = parse_series(args.at, "length", "--at")
+        beyond = [p for p in positions if p > cylinder.length]
+        if beyond:
+            raise InputError(f"--at: {format_quantity(beyond[0], 'length')} lies beyond the cable's length "
+                             f"{format_quantity(cylinder.length, 'length')}")
+    summary = summarise(cylinder, positions, frequency, fraction, advice_frequency)
+    print(dump_json(as_json(summary)) if args.json else as_text(summary, args.digits))
+    return 0
+
+
+def as_json(s: CableSummary) -> dict:
+    """The summary as one JSON object; every quantity is ``{"value": SI, "unit": SI unit}``."""
+    c = s.cylinder
+    out: dict = {
+        "inputs": {
+            "membrane_resistivity": quantity(c.membrane_resistivity, "membrane_resistivity"),
+            "axial_resistivity": quantity(c.axial_resistivity, "axial_resistivity"),
+            "membrane_capacitance": quantity(c.membrane_capacitance, "membrane_capacitance"),
+            "diameter": quantity(c.diameter, "length"),
+            "length": quantity(c.length, "length"),
+            "end_conductance": quantity(c.end_conductance, "conductance"),
+        },
+        "length_constant": quantity(s.length_constant, "length"),
+        "membrane_time_constant": quantity(s.membrane_time_constant, "time"),
+        "electrotonic_length": quantity(s.electrotonic_length, "dimensionless"),
+        "membrane_resistance_per_length": {"value": s.membrane_resistance_per_length, "unit": "ohm*m"},
+        "axial_resistance_per_length": {"value": s.axial_resistance_per_length, "unit": "ohm/m"},
+        "membrane_capacitance_per_length": {"value": s.membrane_capacitance_per_length, "unit": "F/m"},
+        "semi_infinite_input_resistance": quantity(s.semi_infinite_input_resistance, "resistance"),
+        "semi_infinite_input_conductance": quantity(s.semi_infinite_input_conductance, "conductance"),
+        "end_conductance_ratio": quantity(s.end_conductance_ratio, "dimensionless"),
+        "input_resistance": quantity(s.input_resistance, "resistance"),
+        "input_conductance": quantity(s.input_conductance, "conductance"),
+        "far_end_voltage_ratio": quantity(s.far_end_voltage_ratio, "dimensionless"),
+        "segment_advice": {
+            "segments": s.segments_needed,
+            "fraction_of_length_constant": s.segment_fraction,
+            "frequency": quantity(s.advice_frequency, "frequency"),
+        },
+        "assumptions": PASSIVE_CAVEAT,
+    }
+    if s.positions.size:
+        out["profile"] = {
+            "positions": quantity(s.positions, "length"),
+            "electrotonic_positions": quantity(s.positions / s.length_constant, "dimensionless"),
+            "voltage_ratio": quantity(s.voltage_ratio, "dimensionless"),
+            "transfer_resistance": quantity(s.transfer_resistance, "resistance"),
+        }
+    if s.frequency is not None and s.input_impedance is not None and s.ac_length_constant is not None:
+        out["frequency"] = quantity(s.frequency, "frequency")
+        out["input_impedance_magnitude"] = quantity(abs(s.input_impedance), "resistance")
+        out["input_impedance_phase"] = quantity(math.atan2(s.input_impedance.imag, s.input_impedance.real),
+                                                "angle")
+        out["ac_length_constant"] = quantity(s.ac_length_constant, "length")
+        if s.transfer_impedance is not None and s.positions.size:
+            out["profile"]["transfer_impedance_magnitude"] = quantity(np.abs(s.transfer_impedance), "resistance")
+            out["profile"]["transfer_impedance_phase"] = quantity(np.angle(s.transfer_impedance), "angle")
+    return out
+
+
+def _end_label(s: CableSummary) -> str:
+    if math.isinf(s.cylinder.length):
+        return "semi-infinite"
+    if s.cylinder.end_conductance == 0:
+        return "sealed end"
+    return "killed end" if math.isinf(s.cylinder.end_conductance) else "leaky end"
+
+
+def as_text(s: CableSummary, digits: int = 4) -> str:
+    """A readable report: inputs echoed with units, results with units, the profile, the caveat."""
+
+    def fmt(value: float, kind: str) -> str:
+        return format_quantity(value, kind, digits)
+
+    def per_length(value: float, unit_label: str, scale: float) -> str:
+        return f"{fmt(value * scale, 'dimensionless')} {unit_label}"
+
+    blocks = [table(echo_cylinder(s.cylinder), "Inputs")]
+    rows = [
+        ("length constant λ", fmt(s.length_constant, "length")),
+        ("membrane time constant τm", fmt(s.membrane_time_constant, "time")),
+        ("electrotonic length L = ℓ/λ", fmt(s.electrotonic_length, "dimensionless")),
+        ("membrane resistance × length r_m", per_length(s.membrane_resistance_per_length, "MΩ·cm", 1e-4)),
+        ("axial resistance per length r_i", per_length(s.axial_resistance_per_length, "MΩ/cm", 1e-8)),
+        ("membrane capacitance per length c_m", per_length(s.membrane_capacitance_per_length, "pF/cm", 1e10)),
+        ("semi-infinite input resistance R∞", fmt(s.semi_infinite_input_resistance, "resistance")),
+        ("semi-infinite input conductance G∞", fmt(s.semi_infinite_input_conductance, "conductance")),
+    ]
+    if not math.isinf(s.cylinder.length) and 0 < s.cylinder.end_conductance < math.inf:
+        rows.append(("end conductance ratio B = G_end/G∞", fmt(s.end_conductance_ratio, "dimensionless")))
+    rows += [
+        (f"input resistance R_in ({_end_label(s)})", fmt(s.input_resistance, "resistance")),
+        ("input conductance G_in", fmt(s.input_conductance, "conductance")),
+        ("far-end voltage ratio V(ℓ)/V(0)", fmt(s.far_end_voltage_ratio, "dimensionless")),
+    ]
+    blocks.append(table(rows, "Steady state (input at the origin)"))
+    if s.frequency is not None and s.input_impedance is not None and s.ac_length_constant is not None:
+        z = s.input_impedance
+        phase = math.degrees(math.atan2(z.imag, z.real))
+        blocks.append(table([
+            ("input impedance |Z_in|", fmt(abs(z), "resistance")),
+            ("input impedance phase", f"{fmt(phase, 'dimensionless')}°"),
+            ("AC length constant λ_f", fmt(s.ac_length_constant, "length")),
+        ], f"Sinusoidal input at {fmt(s.frequency, 'frequency')}"))
+    if s.positions.size:
+        blocks.append(_profile_table(s, digits))
+    if s.segments_needed is not None:
+        blocks.append(
+            f"Segment advice: {s.segments_needed} equal segments keep each within "
+            f"{s.segment_fraction:g} λ at {fmt(s.advice_frequency, 'frequency')} (a rule of common practice, "
+            f"not an error bound).")
+    blocks.append(f"Note: {PASSIVE_CAVEAT}")
+    return "\n\n".join(blocks)
+
+
+def _profile_table(s: CableSummary, digits: int) -> str:
+    header = ["x", "X = x/λ", "V(x)/V(0)", "transfer R"]
+    if s.transfer_impedance is not None:
+        header += ["|transfer Z|", "phase"]
+    lines = []
+    for i, x in enumerate(s.positions):
+        row = [format_quantity(x, "length", digits) if x > 0 else "0",
+               format_quantity(x / s.length_constant, "dimensionless", digits),
+               format_quantity(s.voltage_ratio[i], "dimensionless", digits),
+               format_quantity(s.transfer_resistance[i], "resistance", digits)]
+        if s.transfer_impedance is not None:
+            z = complex(s.transfer_impedance[i])
+            row += [format_quantity(abs(z), "resistance", digits),
+                    f"{format_quantity(math.degrees(math.atan2(z.imag, z.real)), 'dimensionless', digits)}°"]
+        lines.append(row)
+    widths = [max(len(h), *(len(r[j]) for r in lines)) for j, h in enumerate(header)]
+    out = ["Profile (input at the origin)", "-" * 29, "  " + "  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
+    out += ["  " + "  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in lines]
+    return "\n".join(out)
