@@ -127,6 +127,8 @@ def parse_quantity(text: str | float, kind: str, field: str, *, allow_inf: bool 
 
 
 def _parse_with_units(raw: str, k: Kind, field: str) -> float:
+    import tokenize
+
     import pint
 
     ureg = registry()
@@ -134,7 +136,7 @@ def _parse_with_units(raw: str, k: Kind, field: str) -> float:
     try:
         quantity = ureg.Quantity(text)
     except (pint.PintError, ValueError, TypeError, AttributeError, SyntaxError, KeyError,
-            AssertionError, IndexError, ZeroDivisionError) as exc:
+            AssertionError, IndexError, ZeroDivisionError, tokenize.TokenError) as exc:
         detail = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         raise InputError(f"{field}: cannot read {raw!r} ({detail}); expected a {k.name} "
                          f"such as {k.example}") from None

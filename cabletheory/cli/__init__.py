@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import re
 import sys
 from collections.abc import Sequence
 
@@ -32,6 +33,9 @@ COMMANDS: dict[str, str] = {
     "demo": "demo",
     "ui": "ui",
 }
+
+
+_NEGATIVE = re.compile(r"^-(\d|\.\d|inf)")
 
 
 class _Parser(argparse.ArgumentParser):
@@ -59,11 +63,23 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _attach_negative_values(argv: Sequence[str]) -> list[str]:
+    """``--diameter -2um`` -> ``--diameter=-2um`` so that a negative value reaches its check
+    (argparse would otherwise read it as an unknown option)."""
+    out: list[str] = []
+    for token in argv:
+        if out and out[-1].startswith("--") and "=" not in out[-1] and _NEGATIVE.match(token):
+            out[-1] = f"{out[-1]}={token}"
+        else:
+            out.append(token)
+    return out
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status (0 ok, 1 check failed, 2 bad input)."""
     parser = build_parser()
     try:
-        args = parser.parse_args(argv)
+        args = parser.parse_args(_attach_negative_values(sys.argv[1:] if argv is None else argv))
         if getattr(args, "run", None) is None:
             parser.print_help()
             return 2
