@@ -1,0 +1,235 @@
+"""The sparse compartmental reference discretisation against exact cable results.
+
+Check values come from ../shared/reference/checks.md with their provenance tags; the orders
+of accuracy are standard numerical analysis (three-point difference: second order in Δx
+[CP]; backward Euler first and Crank–Nicolson second order in Δt, Crank & Nicolson 1947).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from cabletheory import compartment as cp
+from cabletheory.cable import Cylinder, input_resistance
+from cabletheory.errors import InputError
+
+UM = 1e-6
+MOHM = 1e6
+# demo cable of checks.md §1: Rm 20 000 Ω·cm², Ri 200 Ω·cm, Cm 1 µF/cm², d 2 µm, ℓ 500 µm (SI below)
+RM, RI, CM = 2.0, 2.0, 0.01
+
+
+def demo_cable(end: float = 0.0, length: float = 500 * UM) -> Cylinder:
+    return Cylinder(RM, RI, CM, 2 * UM, length, end)
+
+
+def observed_orders(errors: list[float]) -> np.ndarray:
+    """log2 of successive error ratios for grids refined by 2."""
+    e = np.abs(np.asarray(errors))
+    return np.log2(e[:-1] / e[1:])
+
+
+# ---------------------------------------------------------------------------------------------
+# steady state
+# ---------------------------------------------------------------------------------------------
+@pytest.mark.parametrize(
+    ("end_ratio", "expected_mohm"),
+    [
+        (0.0, 739.3466931),  # sealed, R∞ coth L (Rall 1959) [COMP], checks.md §1
+        (math.inf, 274.0830103),  # killed, R∞ tanh L [COMP], checks.md §1
+        (0.5, 529.5528737),  # leaky B = 0.5 [COMP], checks.md §1 (Rall 1959/1977 [MEM])
+        (1.0, 450.1581581),  # B = 1 equals R∞ exactly [COMP], checks.md §1
+    ],
+)
+def test_input_resistance_converges_at_second_order(end_ratio: float, expected_mohm: float) -> None:
+    """R_in at node 0 tends to the closed form with error ∝ Δx² (checks.md §1 values)."""
+    r_inf = demo_cable().semi_infinite_input_resistance
+    cylinder = demo_cable(end=end_ratio / r_inf)
+    # the closed form in cable.py agrees with the vetted value first
+    assert float(input_resistance(r_inf, cylinder.electrotonic_length, end_ratio)) == pytest.approx(
+        expected_mohm * MOHM, rel=1e-9)
+    errors = []
+    for n in (5, 10, 20, 40):
+        r = cp.node_input_resistance(cp.discretise_cable(cylinder, n))
+        errors.append(r - expected_mohm * MOHM)
+    orders = observed_orders(errors)
+    assert orders == pytest.approx(2.0, abs=0.05)
+    assert abs(errors[-1]) / (expected_mohm * MOHM) < 2e-4
+
+
+def test_steady_profile_matches_sealed_attenuation() -> None:
+    """V(L/2)/V(0), V(L)/V(0) of the sealed demo cable: 0.8433766820, 0.7932781817 [COMP] checks.md §1."""
+    cylinder = demo_cable()
+    c = cp.discretise_cable(cylinder, 400)
+    current = np.zeros(c.size)
+    current[0] = 100e-12
+    v = cp.steady_state(c, current)
+    ratio = cp.sample(c, v, [250 * UM, 500 * UM]) / v[0]
+    assert ratio == pytest.approx([0.8433766820, 0.7932781817], rel=1e-5)
+    # V(0) = I R_in = 73.93466931 mV for 100 pA [COMP], checks.md §1
+    assert v[0] == pytest.approx(73.93466931e-3, rel=1e-5)
+
+
+def demo_tree(segments: int, soma_area: float | None = None) -> cp.Compartments:
+    """Three-order 3/2-rule tree of checks.md §3.1 (invented numbers)."""
+    d0 = 4.0
+    d1, d2 = d0 * 2 ** (-2 / 3), d0 * 4 ** (-2 / 3)
+    parents = [-1, 0, 0, 1, 1, 2, 2]
+    lengths = np.array([300, 300, 300, 200, 200, 200, 200]) * UM
+    diameters = np.array([d0, d1, d1, d2, d2, d2, d2]) * UM
+    return cp.discretise_tree(parents, lengths, diameters, RM, RI, CM, segments, soma_area=soma_area)
+
+
+def test_branched_tree_input_resistance_converges() -> None:
+    """Root input resistance of the checks.md §3.1 tree: 209.5027757 MΩ [COMP] (Rall 1959 equiv. cylinder)."""
+    errors = [cp.node_input_resistance(demo_tree(n)) - 209.5027757 * MOHM for n in (3, 6, 12, 24)]
+    assert observed_orders(errors) == pytest.approx(2.0, abs=0.05)
+    assert abs(errors[-1]) < 2e-4 * 209.5027757 * MOHM
+
+
+def test_tree_with_soma_gives_rho_and_rn() -> None:
+    """20-µm spherical soma: ρ = 7.596794008 and R_N = 185.1329030 MΩ [COMP], checks.md §3.1."""
+    soma_area = math.pi * (20 * UM) ** 2
+    r_n = [cp.node_input_resistance(demo_tree(n, soma_area)) for n in (6, 12, 24)]
+    assert observed_orders([r - 185.1329030 * MOHM for r in r_n]) == pytest.approx(2.0, abs=0.1)
+    assert r_n[-1] == pytest.approx(185.1329030 * MOHM, rel=1e-4)
+    g_s = soma_area / RM
+    g_d = 1.0 / cp.node_input_resistance(demo_tree(24))
+    assert g_d / g_s == pytest.approx(7.596794008, rel=1e-4)
+
+
+def test_tip_input_resistance_and_reciprocity() -> None:
+    """Input at one tip: R_tip = 403.0239523 MΩ, transfer tip→root 136.2391908 MΩ [COMP], checks.md §3.1."""
+    c = demo_tree(40)
+    tip = int(cp.section_nodes(c, 3)[-1])
+    assert cp.node_input_resistance(c, tip) == pytest.approx(403.0239523 * MOHM, rel=2e-4)
+    unit_tip = np.zeros(c.size)
+    unit_tip[tip] = 1.0
+    unit_root = np.zeros(c.size)
+    unit_root[0] = 1.0
+    v = cp.steady_state(c, np.column_stack([unit_tip, unit_root]))
+    assert v[0, 0] == pytest.approx(v[tip, 1], rel=1e-12)  # reciprocity (Rall & Rinzel 1973)
+    assert v[0, 0] == pytest.approx(136.2391908 * MOHM, rel=2e-4)
+
+
+# ---------------------------------------------------------------------------------------------
+# time course: exact sealed-cable charging at X = 0, L = 1 (checks.md §2.5, from Rall 1969's series)
+# ---------------------------------------------------------------------------------------------
+CHARGING_T = np.array([0.1, 0.5, 1.0])
+CHARGING_L1 = np.array([0.2629635738, 0.5374585210, 0.7198225011])  # [COMP] checks.md §2.5
+
+
+def charging_error(segments: int, steps_per_tau: int, scheme: str) -> np.ndarray:
+    cylinder = demo_cable(length=demo_cable().length_constant)  # L = 1
+    tau = cylinder.time_constant
+    final = cylinder.semi_infinite_input_resistance / math.tanh(1.0)  # V(0,∞)/I = R∞ coth L
+    c = cp.discretise_cable(cylinder, segments)
+    current = np.zeros(c.size)
+    current[0] = 1.0
+    v = cp.integrate(c, current, CHARGING_T * tau, scheme=scheme, step=tau / steps_per_tau)
+    return v[:, 0] / final - CHARGING_L1
+
+
+def test_backward_euler_is_first_order_in_time() -> None:
+    """Backward Euler: error ∝ Δt (standard numerical analysis; Crank & Nicolson 1947 discuss both)."""
+    errors = [charging_error(400, m, "backward-euler") for m in (20, 40, 80)]
+    orders = np.log2(np.abs(errors[0] / errors[1])), np.log2(np.abs(errors[1] / errors[2]))
+    assert np.all(np.abs(np.array(orders) - 1.0) < 0.06)
+
+
+def test_crank_nicolson_is_second_order_in_time() -> None:
+    """Crank–Nicolson: error ∝ Δt² (Crank & Nicolson 1947); backward-Euler start (Rannacher 1984 [MEM])."""
+    errors = [charging_error(1600, m, "crank-nicolson") for m in (40, 80, 160)]
+    orders = np.log2(np.abs(errors[1] / errors[2]))
+    assert np.all(np.abs(orders - 2.0) < 0.1)
+    assert np.max(np.abs(errors[2])) < 2e-4
+
+
+def test_time_course_is_second_order_in_space() -> None:
+    """With a tiny Δt the remaining error falls as Δx² (three-point difference, [CP])."""
+    errors = [charging_error(n, 2000, "crank-nicolson") for n in (10, 20, 40)]
+    orders = np.log2(np.abs(errors[0] / errors[1])), np.log2(np.abs(errors[1] / errors[2]))
+    assert np.all(np.abs(np.array(orders) - 2.0) < 0.05)
+
+
+def test_voltage_clamp_relaxes_with_the_clamped_time_constant() -> None:
+    """Clamp at X = 0, sealed far end, L = 1: slowest τ = 0.2884004391 τm, steady ratio 1/cosh L.
+
+    checks.md §2.2 (Rall 1969 [PUB 3]; [COMP]) and §1 (1/cosh 1 = 0.6480542737).
+    """
+    cylinder = demo_cable(length=demo_cable().length_constant)
+    tau = cylinder.time_constant
+    c = cp.discretise_cable(cylinder, 200)
+    times = np.array([1.0, 1.5, 6.0]) * tau
+    v = cp.integrate(c, np.zeros(c.size), times, step=tau / 400, clamp=(0, 0.01))
+    assert v[:, 0] == pytest.approx(0.01, rel=1e-12)
+    far = v[:, -1]
+    assert far[-1] / 0.01 == pytest.approx(0.6480542737, rel=1e-4)
+    rate = np.log((far[-1] - far[0]) / (far[-1] - far[1])) / 0.5  # per τm
+    assert rate == pytest.approx(3.467401100, rel=1e-3)
+
+
+def test_callable_current_matches_constant_current() -> None:
+    cylinder = demo_cable()
+    c = cp.discretise_cable(cylinder, 20)
+    current = np.zeros(c.size)
+    current[0] = 1e-10
+    times = np.linspace(0, 0.02, 5)
+    a = cp.integrate(c, current, times, step=1e-4)
+    b = cp.integrate(c, lambda t: current, times, step=1e-4)
+    assert a == pytest.approx(b, rel=1e-12)
+    assert np.all(a[0] == 0.0)  # rest at t = 0
+    # long times reach the steady state
+    late = cp.integrate(c, current, [1.0], step=1e-3, scheme="backward-euler")
+    assert late[0] == pytest.approx(cp.steady_state(c, current), rel=1e-9)
+
+
+# ---------------------------------------------------------------------------------------------
+# conservation properties and input checks
+# ---------------------------------------------------------------------------------------------
+@settings(derandomize=True, deadline=None, max_examples=25)
+@given(d=st.floats(0.2, 10), length=st.floats(10, 3000), n=st.integers(1, 60),
+       end=st.floats(0, 5), soma=st.floats(0, 2000))
+def test_membrane_totals_are_conserved(d: float, length: float, n: int, end: float, soma: float) -> None:
+    """Σ capacitance = Cm × membrane area, and the row sums of G are the leaks to rest."""
+    cylinder = Cylinder(RM, RI, CM, d * UM, length * UM, end * 1e-9)
+    c = cp.discretise_cable(cylinder, n, soma_area=soma * UM**2)
+    area = math.pi * d * UM * length * UM + soma * UM**2
+    assert c.capacitance.sum() == pytest.approx(CM * area, rel=1e-12)
+    assert c.conductance.sum() == pytest.approx(area / RM + end * 1e-9, rel=1e-9)
+    assert abs(c.conductance - c.conductance.T).max() == 0.0
+    assert c.distance[-1] == pytest.approx(length * UM, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "message"),
+    [
+        ({"segments": 0}, "segments"),
+        ({"segments": 2.5}, "segments"),
+        ({"parents": [-1, 1]}, "parent"),
+        ({"lengths": [1e-4, -1e-4]}, "lengths"),
+        ({"end_conductances": [1e-9, 0.0]}, "children"),
+        ({"soma_area": -1.0}, "soma_area"),
+    ],
+)
+def test_bad_tree_input_is_rejected(kwargs: dict, message: str) -> None:
+    args = {"parents": [-1, 0], "lengths": [1e-4, 1e-4], "diameters": [1e-6, 1e-6], "segments": 4}
+    args.update(kwargs)
+    with pytest.raises(InputError, match=message):
+        cp.discretise_tree(args.pop("parents"), args.pop("lengths"), args.pop("diameters"), RM, RI, CM,
+                           args.pop("segments"), **args)
+
+
+def test_bad_integration_input_is_rejected() -> None:
+    c = cp.discretise_cable(demo_cable(), 4)
+    with pytest.raises(InputError, match="does not divide"):
+        cp.integrate(c, np.zeros(c.size), [1.5e-3], step=1e-3)
+    with pytest.raises(InputError, match="scheme"):
+        cp.integrate(c, np.zeros(c.size), [1e-3], step=1e-3, scheme="forward-euler")
+    with pytest.raises(InputError, match="semi-infinite"):
+        cp.discretise_cable(demo_cable(length=math.inf), 4)
