@@ -39,9 +39,9 @@ __all__ = [
     "membrane_resistance_per_length",
     "membrane_time_constant",
     "segments_needed",
-    "summarise",
     "semi_infinite_input_conductance",
     "semi_infinite_input_resistance",
+    "summarise",
     "transfer_impedance",
     "transfer_resistance",
     "voltage_ratio",
@@ -352,7 +352,7 @@ def far_end_voltage_ratio(electrotonic_length: ArrayLike, end_conductance_ratio:
     Rall W (1959); Rall & Rinzel (1973) Biophys. J. 13:648.
     """
     L = np.asarray(electrotonic_length, dtype=float)
-    w_sealed, w_killed = _split_ratio(end_conductance_ratio)
+    w_sealed, _ = _split_ratio(end_conductance_ratio)
     # 1/(cosh L + B sinh L) = 2 e^{-L} / [(1 + e^{-2L}) + B (1 - e^{-2L})], divided by max(1, B)
     return 2.0 * np.exp(-L) * w_sealed / _far_factor(np.complex128(1.0), L, end_conductance_ratio).real
 

@@ -201,7 +201,7 @@ def parse_series(text: str, kind: str, field: str, *, allow_zero: bool = True,
             raise InputError(f"{field}: step in {raw!r} must be positive")
         if stop < start:
             raise InputError(f"{field}: range {raw!r} ends before it starts")
-        count = int(math.floor((stop - start) / step * (1 + 1e-12))) + 1
+        count = math.floor((stop - start) / step * (1 + 1e-12)) + 1
         if count > max_points:
             raise InputError(f"{field}: range {raw!r} has {count} points; at most {max_points} allowed")
         values = [start + i * step for i in range(count)]

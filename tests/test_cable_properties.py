@@ -97,7 +97,8 @@ def _sealed_or_leaky_mp(L, b, f, tau, x):
         q = mpmath.sqrt(1 + 2j * mpmath.pi * f * tau)
         bq = mpmath.mpf(b) / q
         z_in = (1 / q) * (1 + bq * mpmath.tanh(q * L)) / (bq + mpmath.tanh(q * L))
-        ratio = (mpmath.cosh(q * (L - x)) + bq * mpmath.sinh(q * (L - x))) / (mpmath.cosh(q * L) + bq * mpmath.sinh(q * L))
+        ratio = ((mpmath.cosh(q * (L - x)) + bq * mpmath.sinh(q * (L - x)))
+                 / (mpmath.cosh(q * L) + bq * mpmath.sinh(q * L)))
         return complex(z_in), complex(ratio)
 
 

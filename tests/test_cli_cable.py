@@ -21,7 +21,8 @@ def run(capsys, argv):
 
 def test_human_output_echoes_inputs_and_gives_units(capsys):
     status, out, err = run(capsys, ISSUE_EXAMPLE)
-    assert status == 0 and err == ""
+    assert status == 0
+    assert err == ""
     # λ = √(Rm d / 4Ri) = √(2 Ω·m² · 2e-6 m / 4 Ω·m) = 1 mm exactly; τm = Rm Cm = 20 ms (Rall 1969)
     assert "length constant λ                    1.000 mm" in out
     assert "membrane time constant τm            20.00 ms" in out
@@ -101,7 +102,8 @@ def test_bad_input_gives_one_line_and_status_2(capsys, change, message):
     status, out, err = run(capsys, argv)
     assert status == 2
     assert out == ""
-    assert err.count("\n") == 1 and err.startswith("cabletheory: error: ")
+    assert err.count("\n") == 1
+    assert err.startswith("cabletheory: error: ")
     assert message in err
     assert "Traceback" not in err
 
@@ -109,7 +111,8 @@ def test_bad_input_gives_one_line_and_status_2(capsys, change, message):
 def test_missing_required_option(capsys):
     status, _, err = run(capsys, ["cable", "--Rm", "20000", "--diameter", "2", "--length", "5"])
     assert status == 2
-    assert "--Ri" in err and err.count("\n") == 1
+    assert "--Ri" in err
+    assert err.count("\n") == 1
 
 
 def test_console_script_exit_status(tmp_path):

@@ -181,6 +181,7 @@ def _profile_table(s: CableSummary, digits: int) -> str:
                     f"{format_quantity(math.degrees(math.atan2(z.imag, z.real)), 'dimensionless', digits)}°"]
         lines.append(row)
     widths = [max(len(h), *(len(r[j]) for r in lines)) for j, h in enumerate(header)]
-    out = ["Profile (input at the origin)", "-" * 29, "  " + "  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
+    title = "Profile (input at the origin)"
+    out = [title, "-" * len(title), "  " + "  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
     out += ["  " + "  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in lines]
     return "\n".join(out)
