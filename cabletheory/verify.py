@@ -944,3 +944,82 @@ def run_spacings(recordings: Sequence[Recording], parse: QuantityParser) -> tupl
             if key in r.metadata:
                 out[i] = parse(r.metadata[key], kind, f"{r.name}: '# {key}' line")
     return dx, dt
+
+
+# ======================================================================================
+# a small exact case of our own: sealed cylinder, current step at the origin
+# ======================================================================================
+def sealed_step_voltage(cylinder: cb.Cylinder, amplitude: float, times: ArrayLike, positions: ArrayLike,
+                        tolerance: float = 1e-12) -> tuple[Array, Array]:
+    r"""Exact voltage of a finite sealed cylinder after a current step at X = 0.
+
+    .. math:: \frac{V(X,T)}{I R_\infty} = \frac{\cosh(L-X)}{\sinh L} - \frac{1}{L}\Big[e^{-T}
+              + 2\sum_{n\ge1} \frac{\cos(k_n X)\, e^{-(1+k_n^2)T}}{1+k_n^2}\Big], \quad k_n = n\pi/L
+
+    (eigenfunction series of Rall 1969, Biophys. J. 9:1483; at X = 0 this is the charging
+    curve of checks.md §2.5). Truncation: the terms beyond N are bounded by
+    :math:`\frac{2}{L}\sum_{n>N} e^{-(1+k_n^2)T}/k_n^2 \le \frac{2L}{\pi^2 N} e^{-(1+k_{N+1}^2)T}`,
+    and N grows until that bound, times :math:`|I| R_\infty`, is below ``tolerance`` (V).
+
+    Parameters
+    ----------
+    cylinder : finite cylinder (its end conductance is ignored: sealed)
+    amplitude : I, A
+    times, positions : equal-shape arrays, s (>= 0) and m (in [0, ℓ])
+    tolerance : V, bound on the truncation error of each value
+
+    Returns
+    -------
+    (voltage, bound), both V, shaped like ``times``.
+    """
+    t = np.asarray(times, dtype=float)
+    x = np.asarray(positions, dtype=float)
+    L = cylinder.electrotonic_length
+    T = t / cylinder.time_constant
+    X = x / cylinder.length_constant
+    scale = abs(amplitude) * cylinder.semi_infinite_input_resistance
+    # steady part cosh(L-X)/sinh L, written with exp(-2·) (no overflow for long cables)
+    steady = np.exp(-X) * (1 + np.exp(-2 * (L - X))) / (1 - np.exp(-2 * L))
+    voltage = np.zeros(t.shape)
+    bound = np.zeros(t.shape)
+    live = T > 0  # at T = 0 the cable is at rest exactly
+    Tl, Xl = T[live], X[live]
+    total = np.exp(-Tl)
+    tail = np.full(Tl.shape, np.inf)
+    active = np.ones(Tl.shape, dtype=bool)
+    n0, chunk = 0, 64
+    while np.any(active):
+        if n0 > 10_000_000:
+            raise ConvergenceError(f"series did not reach {tolerance:.3g} V at the earliest times")
+        n = np.arange(n0 + 1, n0 + chunk + 1)
+        k = n * np.pi / L
+        ta, xa = Tl[active, None], Xl[active, None]
+        total[active] += np.sum(2 * np.cos(k * xa) * np.exp(-(1 + k * k) * ta) / (1 + k * k), axis=1)
+        last = n0 + chunk
+        tail[active] = scale * 2 / (np.pi**2 * last) * np.exp(-(1 + ((last + 1) * np.pi / L) ** 2) * Tl[active])
+        active &= tail > tolerance
+        n0, chunk = last, min(chunk * 2, 65536)
+    voltage[live] = amplitude * cylinder.semi_infinite_input_resistance * (steady[live] - total / L)
+    bound[live] = tail + 1e-15 * scale * np.maximum(1.0, 1.0 / L)  # truncation plus rounding
+    return voltage, bound
+
+
+def sealed_step_case(cylinder: cb.Cylinder, amplitude: float, tolerance: float = 1e-12) -> ExactCase:
+    """:func:`sealed_step_voltage` as an :class:`ExactCase` (current step at the origin, sealed end)."""
+
+    def evaluate(times: Array, positions: Array) -> tuple[Array, Array]:
+        return sealed_step_voltage(cylinder, amplitude, times, positions, tolerance)
+
+    params = {
+        "membrane_resistivity": (cylinder.membrane_resistivity, "ohm*m**2"),
+        "axial_resistivity": (cylinder.axial_resistivity, "ohm*m"),
+        "membrane_capacitance": (cylinder.membrane_capacitance, "F/m**2"),
+        "diameter": (cylinder.diameter, "m"),
+        "length": (cylinder.length, "m"),
+        "end_conductance": (0.0, "S"),
+        "stimulus_amplitude": (amplitude, "A"),
+        "stimulus_site": (0.0, "m"),
+    }
+    return ExactCase(evaluate=evaluate, description="finite cylinder, sealed far end, current step at the origin",
+                     method="eigenfunction series (Rall 1969) truncated by its tail bound",
+                     parameters=params, length=cylinder.length)

@@ -1,0 +1,144 @@
+"""``cabletheory reference``: an exact solution on a grid, to CSV, JSON or NPZ, with metadata."""
+
+from __future__ import annotations
+
+import argparse
+import math
+from pathlib import Path
+
+import numpy as np
+
+from .. import PASSIVE_CAVEAT
+from ..errors import InputError, MissingFileError
+from ..units import format_quantity, parse_quantity, parse_series
+from ..verify import ExactCase, Recording, read_recording, reference_csv, reference_json, reference_npz, reference_table
+from .common import add_cable_options, read_cylinder, write_atomically
+
+FORMATS = ("csv", "json", "npz")
+
+
+def add_case_options(parser: argparse.ArgumentParser) -> None:
+    """Cable and stimulus options shared by ``reference`` and ``compare``."""
+    add_cable_options(parser, length_required=False)
+    group = parser.add_argument_group("stimulus (applied at the origin, X = 0)")
+    group.add_argument("--stimulus", default="step", choices=["step"],
+                       help="current step switched on at t = 0 and held (default)")
+    group.add_argument("--amplitude", default="100 pA", metavar="I",
+                       help="injected current, e.g. '100 pA' (bare: pA; default 100 pA)")
+    group.add_argument("--exact-tolerance", default="1e-9 mV", metavar="V",
+                       help="bound on the exact solution's own error (default 1e-9 mV)")
+
+
+def build_case(args: argparse.Namespace) -> ExactCase:
+    """The exact case the options describe."""
+    from ..verify import sealed_step_case
+
+    cylinder = read_cylinder(args)
+    amplitude = parse_quantity(args.amplitude, "current", "--amplitude", allow_negative=True)
+    tolerance = parse_quantity(args.exact_tolerance, "voltage", "--exact-tolerance")
+    if not math.isfinite(cylinder.length):
+        raise InputError("--length: give a finite length for this case")
+    if cylinder.end_conductance != 0:
+        raise InputError("--end: only a sealed far end is available for exact time courses in this version")
+    return sealed_step_case(cylinder, amplitude, tolerance)
+
+
+def parser_for_quantities(text: str, kind: str, where: str) -> float:
+    """The :data:`~cabletheory.verify.QuantityParser` the command line gives the core."""
+    return parse_quantity(text, kind, where, allow_zero=True, allow_negative=True)
+
+
+def read_run(path: str, args: argparse.Namespace) -> Recording:
+    """Read one simulator output file with the layout options of ``args``."""
+    p = Path(path)
+    if not p.is_file():
+        raise MissingFileError(f"{path}: no such file")
+    try:
+        text = p.read_text(encoding="utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError(f"{path}: not a UTF-8 text file") from None
+    rest: float | str = 0.0
+    if getattr(args, "rest", None):
+        rest = "first" if args.rest.strip().lower() == "first" else parse_quantity(
+            args.rest, "voltage", "--rest", allow_zero=True, allow_negative=True)
+    onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) \
+        if getattr(args, "onset", None) else 0.0
+    site = parse_quantity(args.site, "length", "--site", allow_zero=True) if getattr(args, "site", None) else None
+    return read_recording(text, path, parser_for_quantities, time_unit=args.time_unit,
+                          position_unit=args.position_unit, voltage_unit=args.voltage_unit,
+                          resting_potential=rest, time_offset=onset, site=site)
+
+
+def add_layout_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("reading simulator files (see docs/verify.md for the layouts)")
+    group.add_argument("--time-unit", metavar="UNIT", help="unit of the time column if its header has none "
+                                                          "(default ms)")
+    group.add_argument("--position-unit", metavar="UNIT", help="unit of positions if not declared (default µm)")
+    group.add_argument("--voltage-unit", metavar="UNIT", help="unit of voltages if not declared (default mV)")
+    group.add_argument("--rest", metavar="V",
+                       help="resting potential to subtract, e.g. '-65 mV', or 'first' to use each site's "
+                            "first sample (default 0: the file already holds deviations from rest)")
+    group.add_argument("--onset", metavar="T", help="stimulus onset in the file's clock (default 0)")
+    group.add_argument("--site", metavar="X", help="position of the only voltage column of a wide table "
+                                                   "whose header does not say it")
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    parser = subparsers.add_parser(
+        "reference",
+        help="exact solution on a grid, to CSV/JSON/NPZ with metadata (to check a simulator)",
+        description="Write the exact voltage of a passive cable case on a grid of times and positions, with "
+                    "every parameter, the method, the tool version and the error bound of the values.",
+        epilog=PASSIVE_CAVEAT,
+    )
+    add_case_options(parser)
+    grid = parser.add_argument_group("grid")
+    grid.add_argument("--times", metavar="RANGE", help="times since onset: '0:20:0.5 ms' or '1, 2, 5 ms'")
+    grid.add_argument("--positions", metavar="RANGE", help="recording positions: '0:500:100 um' or '0, 250 um'")
+    grid.add_argument("--like", metavar="FILE",
+                      help="take the times and positions of an existing simulator output file instead")
+    add_layout_options(parser)
+    parser.add_argument("--output", "-o", metavar="FILE",
+                        help="file to write (.csv, .json or .npz); default: CSV to standard output")
+    parser.add_argument("--format", choices=FORMATS, help="file format (default: from the file name)")
+    parser.set_defaults(run=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    case = build_case(args)
+    inputs: list[str] = []
+    if args.like:
+        if args.times or args.positions:
+            raise InputError("give either --like FILE or --times/--positions, not both")
+        recording = read_run(args.like, args)
+        inputs.append(args.like)
+        if recording.layout == "wide":
+            times = np.unique(recording.times)
+            positions = recording.sites
+            layout = "wide"
+        else:
+            times, positions, layout = recording.times, recording.positions, "long"
+        if np.any(times < 0):
+            raise InputError(f"{args.like}: times before the onset; give --onset")
+    else:
+        if not (args.times and args.positions):
+            raise InputError("give --times and --positions (or --like FILE)")
+        times = np.array(parse_series(args.times, "time", "--times"))
+        positions = np.array(parse_series(args.positions, "length", "--positions"))
+        layout = "wide"
+    table = reference_table(case, times, positions, layout=layout)
+    fmt = args.format or (Path(args.output).suffix.lstrip(".").lower() if args.output else "csv")
+    if fmt not in FORMATS:
+        raise InputError(f"--output: cannot tell the format of {args.output!r}; use .csv, .json or .npz or "
+                         "give --format")
+    data: str | bytes = {"csv": reference_csv, "json": reference_json, "npz": reference_npz}[fmt](table)
+    if args.output is None:
+        if isinstance(data, bytes):
+            raise InputError("NPZ is binary; give --output FILE.npz")
+        print(data, end="")
+        return 0
+    write_atomically(args.output, data, protected=inputs)
+    print(f"wrote {args.output} ({fmt.upper()}, {table.times.size} times × {table.positions.size} positions"
+          f"{'' if layout == 'wide' else ' paired'}; largest error bound "
+          f"{format_quantity(table.largest_bound, 'voltage')})")
+    return 0
