@@ -1,0 +1,178 @@
+"""``cabletheory compare``: a simulator's recorded output against the exact solution."""
+
+from __future__ import annotations
+
+import argparse
+
+import numpy as np
+
+from .. import PASSIVE_CAVEAT
+from ..compartment import SCHEMES
+from ..errors import InputError
+from ..units import format_quantity, parse_quantity, parse_series
+from ..verify import Comparison, Convergence, ExactCase, Recording, compare, convergence, run_spacings
+from .advise import parse_relative
+from .common import dump_json, quantity, write_atomically
+from .reference import add_case_options, add_layout_options, build_case, parser_for_quantities, read_run
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    parser = subparsers.add_parser(
+        "compare",
+        help="errors of a simulator's output against the exact solution, and observed orders",
+        description="Read one or more simulator output files (long or wide CSV, see docs/verify.md), evaluate "
+                    "the exact solution at exactly the recorded points and report max/RMS absolute and "
+                    "relative errors, where and when the worst error occurs, and a verdict against "
+                    "--tolerance. With several runs, estimate the observed order of convergence in space "
+                    "and time. Exit status: 0 every run within tolerance, 1 some run outside it, 2 bad input.",
+        epilog=PASSIVE_CAVEAT,
+    )
+    parser.add_argument("runs", nargs="+", metavar="RUN.csv", help="simulator output files, coarse to fine")
+    add_case_options(parser)
+    add_layout_options(parser)
+    check = parser.add_argument_group("verdict and convergence")
+    check.add_argument("--tolerance", default="1%", metavar="TOL",
+                       help="largest acceptable error: a voltage such as '10 uV' or a percentage of the peak "
+                            "exact voltage such as '1%%' (default 1%%)")
+    check.add_argument("--dx", metavar="LIST", help="segment length of each run, e.g. '50, 25, 12.5 um' "
+                                                   "(or '# dx = 25 um' in each file)")
+    check.add_argument("--dt", metavar="LIST", help="time step of each run, e.g. '0.1, 0.05 ms' "
+                                                   "(or '# dt = 0.05 ms' in each file)")
+    check.add_argument("--scheme", choices=list(SCHEMES), default="crank-nicolson",
+                       help="the simulator's time scheme, for the expected orders (default crank-nicolson)")
+    parser.add_argument("--report", metavar="FILE", help="also write the results as JSON to FILE (atomically)")
+    parser.add_argument("--json", action="store_true", help="print JSON instead of text")
+    parser.set_defaults(run=run)
+
+
+def _tolerance(text: str) -> tuple[float, bool]:
+    raw = text.strip()
+    if raw.endswith("%"):
+        return parse_relative(raw, "--tolerance"), True
+    try:
+        return parse_quantity(raw, "voltage", "--tolerance"), False
+    except InputError:
+        pass
+    return parse_relative(raw, "--tolerance"), True  # a bare fraction such as 0.01
+
+
+def _list(text: str | None, kind: str, field: str, count: int) -> np.ndarray:
+    if not text:
+        return np.full(count, np.nan)
+    values = np.array(parse_series(text, kind, field, allow_zero=False))
+    if values.size != count:
+        raise InputError(f"{field}: {values.size} values for {count} runs")
+    return values
+
+
+def run(args: argparse.Namespace) -> int:
+    tolerance, relative = _tolerance(args.tolerance)
+    case = build_case(args)
+    recordings = [read_run(path, args) for path in args.runs]
+    results = [compare(r, case, tolerance, relative=relative) for r in recordings]
+    order: Convergence | None = None
+    if len(recordings) > 1:
+        file_dx, file_dt = run_spacings(recordings, parser_for_quantities)
+        dx = _list(args.dx, "length", "--dx", len(recordings))
+        dt = _list(args.dt, "time", "--dt", len(recordings))
+        dx = np.where(np.isnan(dx), file_dx, dx)
+        dt = np.where(np.isnan(dt), file_dt, dt)
+        if np.any(np.isfinite(dx)) or np.any(np.isfinite(dt)):
+            order = convergence([c.max_abs_error for c in results], dx, dt, args.scheme)
+    if args.report:
+        write_atomically(args.report, dump_json(as_json(case, recordings, results, order)), protected=args.runs)
+    if args.json:
+        print(dump_json(as_json(case, recordings, results, order)))
+    else:
+        print(as_text(case, recordings, results, order))
+    return 0 if all(c.passed for c in results) else 1
+
+
+def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparison],
+            order: Convergence | None) -> dict:
+    runs = []
+    for r, c in zip(recordings, results, strict=True):
+        runs.append({
+            "file": r.name,
+            "layout": r.layout,
+            "samples": c.samples,
+            "units": dict(r.units),
+            "assumed_units": list(r.assumed),
+            "resting_potential": quantity(r.resting_potential, "voltage"),
+            "time_offset": quantity(r.time_offset, "time"),
+            "max_abs_error": quantity(c.max_abs_error, "voltage"),
+            "rms_abs_error": quantity(c.rms_abs_error, "voltage"),
+            "max_rel_error": c.max_rel_error,
+            "rms_rel_error": c.rms_rel_error,
+            "peak_exact_voltage": quantity(c.scale, "voltage"),
+            "worst": {"time": quantity(c.worst_time, "time"), "position": quantity(c.worst_position, "length"),
+                      "line": c.worst_line, "simulated": quantity(c.worst_simulated, "voltage"),
+                      "exact": quantity(c.worst_exact, "voltage")},
+            "sites": quantity(c.sites, "length"),
+            "site_max_abs_error": quantity(c.site_max_abs_error, "voltage"),
+            "tolerance": c.tolerance if c.relative else quantity(c.tolerance, "voltage"),
+            "tolerance_is_relative": c.relative,
+            "passed": c.passed,
+            "exact_error_bound": quantity(c.reference_bound, "voltage"),
+        })
+    out: dict = {
+        "case": case.description,
+        "method": case.method,
+        "parameters": {k: {"value": v, "unit": u} for k, (v, u) in case.parameters.items()},
+        "runs": runs,
+        "assumptions": PASSIVE_CAVEAT,
+    }
+    if order is not None:
+        out["convergence"] = {
+            "scheme": order.scheme,
+            "spacings": quantity(order.spacings, "length"),
+            "steps": quantity(order.steps, "time"),
+            "estimates": [{"axis": e.axis, "observed": e.observed, "expected": e.expected,
+                           "runs": list(e.runs), "verdict": e.verdict, "note": e.note}
+                          for e in order.estimates],
+        }
+    return out
+
+
+def _x(x: float) -> str:
+    return "0 µm" if x == 0 else format_quantity(x, "length")
+
+
+def _v(x: float) -> str:
+    return format_quantity(x, "voltage", 3)
+
+
+def as_text(case: ExactCase, recordings: list[Recording], results: list[Comparison],
+            order: Convergence | None) -> str:
+    lines = [f"Exact case: {case.description}", f"  method: {case.method}"]
+    for r, c in zip(recordings, results, strict=True):
+        sites = r.sites
+        assumed = f" (assumed: {', '.join(r.assumed)})" if r.assumed else ""
+        lines += [
+            "",
+            f"{r.name}: {r.layout} table, {c.samples} samples at {sites.size} site(s); units time "
+            f"{r.units['time']}, position {r.units['position']}, voltage {r.units['voltage']}{assumed}",
+        ]
+        if r.resting_potential or r.time_offset:
+            lines.append(f"  subtracted: resting potential {_v(r.resting_potential)}, "
+                         f"onset {format_quantity(r.time_offset, 'time')}")
+        pct = (f"{c.max_rel_error * 100:.3g} %", f"{c.rms_rel_error * 100:.3g} %")
+        lines += [
+            f"  max error  {_v(c.max_abs_error)} at {_x(c.worst_position)}, "
+            f"{format_quantity(c.worst_time, 'time')} (line {c.worst_line}: simulated "
+            f"{_v(c.worst_simulated)}, exact {_v(c.worst_exact)})",
+            f"  RMS error  {_v(c.rms_abs_error)}",
+            f"  relative   max {pct[0]}, RMS {pct[1]} of the peak exact voltage {_v(c.scale)}",
+            f"  exact values accurate to {_v(c.reference_bound)}",
+        ]
+        limit = f"{c.tolerance * 100:.3g} % of the peak" if c.relative else _v(c.tolerance)
+        lines.append(f"  verdict    {'PASS' if c.passed else 'FAIL'} (tolerance {limit})")
+    if order is not None:
+        lines += ["", f"Observed order of convergence ({order.scheme}):"]
+        for e in order.estimates:
+            lines.append(f"  {e.axis:<6} {e.observed:.2f}, expected {e.expected:g}: {e.verdict} "
+                         f"(runs {', '.join(str(i + 1) for i in e.runs)}); {e.note}")
+    elif len(recordings) > 1:
+        lines += ["", "No order estimated: give each run's --dx and/or --dt (or '# dx = ...' lines)."]
+    lines += ["", PASSIVE_CAVEAT]
+    return "\n".join(lines)
