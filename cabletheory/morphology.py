@@ -317,6 +317,9 @@ def _quantities(tokens: list[str], source: str, number: int, fields: tuple[str, 
         token = tokens[k]
         match = _NUMBER.match(token)
         if not match:
+            if values and token.isalpha() and _NUMBER.fullmatch(tokens[k - 1]):
+                raise FileFormatError(f"{source}:{number}: unknown unit {token!r} after {tokens[k - 1]!r}; "
+                                      f"expected one of {' '.join(_LENGTH_UNITS)}")
             raise FileFormatError(f"{source}:{number}: {field} {token!r} is not a number; expected e.g. "
                                   "'300', '300um' or '300 um'")
         unit = token[match.end():]
