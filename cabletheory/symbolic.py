@@ -48,6 +48,7 @@ __all__ = [
     "Derivation",
     "derive",
     "symbol",
+    "to_ascii",
     "to_numeric",
 ]
 
@@ -154,6 +155,9 @@ class Derivation:
     impulse_coefficient : φ(X)φ(X0)/N(α), the mode weight of a unit charge injected at X0
     laplace : Laplace transform of V(X, T) for a unit step at the origin
     laplace_point_source : Laplace transform of V(X, T) for a unit impulse of current at X0
+    soma_relation : for ``soma_parameter="rho"``, the derived ``Eq(ρ∞, ρ·G∞/G_D)``
+    shown_as : the equivalent ρ∞ derivation, which is shorter to read; text and LaTeX show it
+        together with ``soma_relation`` (the fields above are in ρ, for numeric use)
     """
 
     origin: str
@@ -175,6 +179,8 @@ class Derivation:
     impulse_coefficient: Any
     laplace: Any
     laplace_point_source: Any
+    soma_relation: Any = None
+    shown_as: Derivation | None = None
 
     def parts(self, part: str = "all") -> list[tuple[str, Any]]:
         """(label, sympy Eq) pairs for ``part`` in ``PARTS`` or ``"all"``, in reading order."""
@@ -182,6 +188,9 @@ class Derivation:
 
         if part != "all" and part not in PARTS:
             raise InputError(f"part: {part!r} is not one of {', '.join((*PARTS, 'all'))}")
+        if self.shown_as is not None:
+            out = self.shown_as.parts(part)
+            return [*out[:3], ("Rall's ρ = G_D/G_S gives ρ∞ = G∞/G_S as", self.soma_relation), *out[3:]]
         X, X0, T, s, a = (_symbol(n) for n in ("X", "X0", "T", "s", "alpha"))
         V, U, phi = sp.Function("V"), sp.Function("V̂"), sp.Function("φ")
         out: list[tuple[str, Any]] = [
@@ -225,7 +234,8 @@ class Derivation:
         for label, eq in self.parts(part):
             shown = _display(eq, for_latex=False, unicode=unicode)
             lines += ["", f"{label}:", sp.pretty(shown, use_unicode=unicode, wrap_line=False)]
-        return "\n".join(lines) + "\n"
+        text = "\n".join(lines) + "\n"
+        return text if unicode else to_ascii(text)
 
     def latex(self, part: str = "all") -> str:
         """LaTeX (``sympy.latex``) of ``part``: one ``% label`` comment line and one equation each."""
@@ -261,6 +271,18 @@ class Derivation:
                 for label, eq in self.parts(part)
             ],
         }
+
+
+_ASCII = {"τm": "tau_m", "λ": "lambda", "τ": "tau", "ρ": "rho", "α": "alpha", "φ": "phi", "∞": "inf", "√": "sqrt",
+          "·": "*", "²": "^2", "−": "-", "∂": "d", "→": "->", "Σ": "sum", "≥": ">=", "≤": "<=",
+          "ℓ": "l", "₀": "0", "ₙ": "_n", "ₘ": "m", "V̂": "V^", "Ω": "ohm", "µ": "u"}
+
+
+def to_ascii(text: str) -> str:
+    """Spell Greek letters and symbols of ``text`` in ASCII (for terminals without Unicode)."""
+    for k, v in _ASCII.items():
+        text = text.replace(k, v)
+    return text.encode("ascii", "replace").decode("ascii")
 
 
 def _display(expr: Any, *, for_latex: bool, unicode: bool) -> Any:
@@ -441,6 +463,8 @@ def _basis(general: Any, X: Any, functions: Sequence[Any], ode: Any, f: Any) -> 
 def _derive(origin: str, end: str, soma_parameter: str | None) -> Derivation:
     import sympy as sp
 
+    if soma_parameter == "rho":
+        return _rho_form(_derive(origin, end, "rho_inf"))
     P = _Problem(origin, end)
     X, T, L = P.X, P.T, P.L
     X0, a, s, q = (_symbol(n) for n in ("X0", "alpha", "s", "q"))
@@ -564,23 +588,40 @@ def _derive(origin: str, end: str, soma_parameter: str | None) -> Derivation:
         "laplace": laplace, "laplace_point_source": laplace_point_source,
         "origin_condition": origin_condition,
     }
-    if soma_parameter == "rho":
-        # ρ∞ = G∞/G_S = ρ · G∞/G_D, and G∞/G_D is the derived steady input resistance
-        # (in units of R∞) of the same cylinder with a current input at a sealed origin
-        rho = _symbol("rho")
-        r_in = _derive("current", end, None).steady_state.subs(X, 0)
-        fields = {k: (None if v is None else _tidy(v.subs(rho_inf, rho * r_in)))
-                  for k, v in fields.items()}
-        fields["eigenvalue_equation"] = _clean_equation(fields["eigenvalue_equation"], a)
-        assumptions.append("ρ = G_D/G_S, G_D the steady input conductance of the cylinder")
-        name += " (parameter ρ = G_D/G_S)"
-    elif soma_parameter == "rho_inf":
+    if soma_parameter == "rho_inf":
         assumptions.append("ρ∞ = G∞/G_S")
         name += " (parameter ρ∞ = G∞/G_S)"
     return Derivation(
         origin=origin, end=end, soma_parameter=soma_parameter, name=name,
         assumptions=tuple(assumptions), equation=equation, end_condition=end_condition, **fields,
     )
+
+
+_SYMBOLIC_FIELDS = ("steady_state", "point_source", "eigenfunction", "eigenvalue_equation", "zero_mode",
+                    "mode_norm", "coefficient", "zero_mode_coefficient", "impulse_coefficient", "laplace",
+                    "laplace_point_source", "origin_condition")
+
+
+def _rho_form(base: Derivation) -> Derivation:
+    """Re-express a soma derivation through Rall's ρ = G_D/G_S instead of ρ∞ = G∞/G_S.
+
+    ρ∞ = G∞/G_S = ρ · G∞/G_D, and G∞/G_D is the derived steady input resistance (in units
+    of R∞) of the same cylinder with a current input at a sealed origin.
+    """
+    import dataclasses
+
+    import sympy as sp
+
+    X, a, rho, rho_inf = (_symbol(n) for n in ("X", "alpha", "rho", "rho_inf"))
+    r_in = _derive("current", base.end, None).steady_state.subs(X, 0)
+    fields = {k: (None if getattr(base, k) is None else _tidy(getattr(base, k).subs(rho_inf, rho * r_in)))
+              for k in _SYMBOLIC_FIELDS}
+    fields["eigenvalue_equation"] = _clean_equation(fields["eigenvalue_equation"], a)
+    assumptions = [*base.assumptions[:-1], "ρ = G_D/G_S, G_D the steady input conductance of the cylinder"]
+    return dataclasses.replace(
+        base, **fields, soma_parameter="rho",
+        name=base.name.replace("(parameter ρ∞ = G∞/G_S)", "(parameter ρ = G_D/G_S)"),
+        assumptions=tuple(assumptions), soma_relation=sp.Eq(rho_inf, _tidy(rho * r_in)), shown_as=base)
 
 
 def _tidy(expr: Any, *, deep: bool = False) -> Any:
