@@ -93,6 +93,8 @@ def _tree_arrays(args: argparse.Namespace) -> tuple[np.ndarray, np.ndarray, np.n
 
 def run(args: argparse.Namespace) -> int:
     target = parse_relative(args.target, "--target")
+    if not 1e-9 <= target < 1:
+        raise InputError(f"--target: {args.target!r} must lie between 1e-7 % and 100 % (e.g. 1%)")
     rule_fraction = parse_quantity(args.rule_fraction, "dimensionless", "--rule-fraction")
     rule_frequency = parse_quantity(args.rule_frequency, "frequency", "--rule-frequency")
     frequency = parse_quantity(args.frequency, "frequency", "--frequency")
@@ -138,10 +140,16 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _exact_time_course(cylinder, soma_diameter, site):  # pragma: no cover - replaced when transient lands
-    from ..verify import exact_step_course
+def _exact_time_course(cylinder, soma_diameter, site):
+    """Exact voltage at ``site`` for a 1 A step at the origin (sealed end, no soma in this version)."""
+    from ..verify import sealed_step_voltage
 
-    return exact_step_course(cylinder, math.pi * soma_diameter**2 if soma_diameter else 0.0, site)
+    if soma_diameter or cylinder.end_conductance != 0:
+        raise InputError("time-course advice is available for a sealed cable without a soma in this version")
+    where = cylinder.length if site is None else site
+    if not 0 <= where <= cylinder.length:
+        raise InputError(f"--site: {format_quantity(where, 'length')} lies outside the cable")
+    return lambda t: sealed_step_voltage(cylinder, 1.0, t, np.full(np.shape(t), where))[0]
 
 
 def as_json(a: Advice) -> dict:

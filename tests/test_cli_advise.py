@@ -1,0 +1,54 @@
+"""``cabletheory advise``: segment advice for a cable and a tree, against exact values."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from cabletheory.cli import main
+
+CABLE = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "500"]
+
+
+def test_cable_advice_json(capsys) -> None:
+    """Sealed demo cable: exact R_in 739.3466931 MΩ; rule of thumb 19 segments (checks.md §1, §1.1)."""
+    assert main(["advise", *CABLE, "--target", "0.1%", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["relative_error"] <= 1e-3
+    assert data["rule_of_thumb"]["segments"] == [19]
+    assert data["rule_of_thumb"]["relative_error"] < data["relative_error"]
+
+
+def test_attenuation_advice_text(capsys) -> None:
+    """Far-end attenuation 1/cosh L = 0.7932781817 (checks.md §1 [COMP])."""
+    assert main(["advise", *CABLE, "--quantity", "attenuation", "--target", "1e-4"]) == 0
+    out = capsys.readouterr().out
+    assert "exact V(site)/V(0)" in out
+    assert "0.793278" in out
+    assert "passive" in out
+
+
+def test_tree_advice(capsys) -> None:
+    """checks.md §3.1 tree, |Z_root(100 Hz)| = 44.86760779 MΩ [COMP]."""
+    argv = ["advise", "--Rm", "20000", "--Ri", "200", "--parents=-1,0,0,1,1,2,2",
+            "--lengths", "300,300,300,200,200,200,200 um",
+            "--diameters", "4,2.519842100,2.519842100,1.587401052,1.587401052,1.587401052,1.587401052 um",
+            "--quantity", "impedance", "--target", "0.5%"]
+    assert main(argv) == 0
+    out = capsys.readouterr().out
+    assert "exact |Z|              44.87 MΩ" in out
+    assert "Segments per section" in out
+
+
+@pytest.mark.parametrize(
+    ("argv", "fragment"),
+    [
+        (["--target", "150%"], "--target"),
+        (["--target", "0.1%", "--parents=-1,0", "--lengths", "1,2", "--diameters", "1"], "either"),
+        (["--quantity", "time-course", "--target", "1%", "--site", "900um"], "site"),
+    ],
+)
+def test_bad_advice_requests(argv: list[str], fragment: str, capsys) -> None:
+    assert main(["advise", *CABLE, *argv]) == 2
+    assert fragment in capsys.readouterr().err

@@ -1,0 +1,82 @@
+"""``cabletheory compare``: exit statuses, reports, bad input (nothing written), known errors."""
+
+from __future__ import annotations
+
+import json
+import pathlib
+
+import numpy as np
+import pytest
+
+from cabletheory import verify as vf
+from cabletheory.cable import Cylinder
+from cabletheory.cli import main
+
+UM, MS = 1e-6, 1e-3
+CASE_ARGS = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "500", "--amplitude", "100pA"]
+DEMO = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM)
+
+
+def write_run(path: pathlib.Path, offset_uv: float = 0.0, rest_mv: float = 0.0) -> pathlib.Path:
+    """Exact solution (Rall 1969 series) plus a known constant offset, absolute potentials."""
+    times = np.arange(1, 21) * 0.5 * MS
+    sites = np.array([0.0, 250.0, 500.0]) * UM
+    tt, xx = np.meshgrid(times, sites, indexing="ij")
+    v = vf.sealed_step_voltage(DEMO, 100e-12, tt.ravel(), xx.ravel())[0].reshape(tt.shape)
+    lines = ["time (ms),V at 0 um (mV),V at 250 um (mV),V at 500 um (mV)"]
+    lines += [f"{t / MS:.6f}," + ",".join(f"{(x * 1e3 + offset_uv * 1e-3 + rest_mv):.12f}" for x in row)
+              for t, row in zip(times, v, strict=True)]
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+def test_known_offset_is_reported_and_judged(tmp_path, capsys) -> None:
+    """A +7 µV offset on the exact solution: max and RMS error 7 µV; 10 µV passes, 5 µV fails."""
+    run = write_run(tmp_path / "run.csv", offset_uv=7.0, rest_mv=-65.0)
+    report = tmp_path / "report.json"
+    assert main(["compare", str(run), *CASE_ARGS, "--rest", "-65 mV", "--tolerance", "10 uV",
+                 "--report", str(report)]) == 0
+    data = json.loads(report.read_text())
+    result = data["runs"][0]
+    assert result["max_abs_error"]["value"] == pytest.approx(7e-6, rel=1e-6)
+    assert result["rms_abs_error"]["value"] == pytest.approx(7e-6, rel=1e-6)
+    assert result["passed"] is True
+    assert "max error  7.00 µV" in capsys.readouterr().out
+    assert main(["compare", str(run), *CASE_ARGS, "--rest", "-65 mV", "--tolerance", "5 uV"]) == 1
+    capsys.readouterr()
+    # 'first' needs a sample at or before the onset; this file starts after it
+    assert main(["compare", str(run), *CASE_ARGS, "--rest", "first", "--tolerance", "1%"]) == 2
+    assert "line 2: the first sample at this site is after the stimulus onset" in capsys.readouterr().err
+
+
+def test_bad_input_exits_2_and_writes_nothing(tmp_path, capsys) -> None:
+    bad = tmp_path / "bad.csv"
+    bad.write_text("time (ms),V at 0 um (mV)\n0,1\n1,nan\n", encoding="utf-8")
+    report = tmp_path / "report.json"
+    assert main(["compare", str(bad), *CASE_ARGS, "--report", str(report)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("cabletheory: error: ")
+    assert "bad.csv, line 3, column 2" in err
+    assert err.count("\n") == 1
+    assert not report.exists()
+    assert main(["compare", str(tmp_path / "missing.csv"), *CASE_ARGS]) == 2
+
+
+def test_report_never_overwrites_an_input(tmp_path) -> None:
+    run = write_run(tmp_path / "run.csv")
+    before = run.read_bytes()
+    assert main(["compare", str(run), *CASE_ARGS, "--report", str(run)]) == 2
+    assert run.read_bytes() == before
+
+
+def test_several_runs_give_an_order(tmp_path, capsys) -> None:
+    """Errors ∝ Δx² by construction (offsets 16, 4, 1 µV at Δx 50, 25, 12.5 µm): observed order 2."""
+    runs = [str(write_run(tmp_path / f"r{i}.csv", offset_uv=o)) for i, o in enumerate((16.0, 4.0, 1.0))]
+    status = main(["compare", *runs, *CASE_ARGS, "--tolerance", "2 uV", "--dx", "50, 25, 12.5 um",
+                   "--dt", "0.01, 0.01, 0.01 ms", "--json"])
+    assert status == 1  # the two coarse runs miss 2 µV
+    data = json.loads(capsys.readouterr().out)
+    (estimate,) = data["convergence"]["estimates"]
+    assert estimate["axis"] == "space"
+    assert estimate["observed"] == pytest.approx(2.0, abs=1e-3)
+    assert estimate["verdict"] == "matches"
