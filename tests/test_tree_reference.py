@@ -1,0 +1,201 @@
+"""Trees against outside references: published conditions, vetted values, an independent solver.
+
+* Rall (1959, 1964): a tree obeying the 3/2 rule with every tip at the same electrotonic
+  distance has exactly the input resistance of its equivalent cylinder, R∞·coth L (sealed) or
+  R∞·tanh L (killed).
+* The demo tree of the reference sheet (trunk 4 µm × 300 µm, daughters 4·2^(−2/3) µm × 300 µm,
+  granddaughters 4·4^(−2/3) µm × 200 µm; Rm 20 kΩ·cm², Ri 200 Ω·cm): [COMP] values
+  (10 significant digits, exact evaluation of Rall's formulas, confirmed there by an independent
+  branched-tree solver); formula sources Rall 1959/1964 and, for ρ, Rall 1969.
+* scipy.sparse: the compartmental steady state of cabletheory.compartment (a finite-volume
+  discretisation solved with scipy.sparse.linalg.splu, no closed form involved) converges to
+  the exact input resistance at second order.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from cabletheory.cable import input_conductance, semi_infinite_input_conductance
+from cabletheory.compartment import discretise_tree, node_input_resistance
+from cabletheory.morphology import SectionList, read_swc
+from cabletheory.tree import (
+    Tolerances,
+    Tree,
+    analyse_tree,
+    build_tree,
+    exact_input_conductances,
+    tree_from_sections,
+)
+
+RM = 2.0  # Ω·m² = 20 kΩ·cm²
+RI = 2.0  # Ω·m = 200 Ω·cm
+CM = 0.01  # F/m² = 1 µF/cm²
+UM = 1e-6
+DATA = Path(__file__).resolve().parent.parent / "cabletheory" / "data" / "morphologies"
+
+
+def sections_tree(parents, lengths, diameters, soma_diameter=None, end_diameters=None) -> Tree:
+    n = len(parents)
+    d = np.asarray(diameters, dtype=float)
+    return tree_from_sections(SectionList(
+        source="test", names=tuple(f"s{i}" for i in range(n)), parents=np.asarray(parents, dtype=np.int64),
+        lengths=np.asarray(lengths, dtype=float), diameters=d,
+        end_diameters=d if end_diameters is None else np.asarray(end_diameters, dtype=float),
+        lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=soma_diameter))
+
+
+def demo(granddaughter_1=200.0, daughter_scale=1.0, soma=None) -> Tree:
+    """The reference sheet's §3.1 tree (µm in, SI out)."""
+    d0, d1, d2 = 4.0, 4.0 * 2 ** (-2 / 3) * daughter_scale, 4.0 * 4 ** (-2 / 3)
+    parents = [-1, 0, 0, 1, 1, 2, 2]
+    lengths = np.array([300, 300, 300, granddaughter_1, 200, 200, 200]) * UM
+    diameters = np.array([d0, d1, d1, d2, d2, d2, d2]) * UM
+    return sections_tree(parents, lengths, diameters, None if soma is None else soma * UM)
+
+
+# --------------------------------------------------------------------------------------
+# reference sheet §3.1, [COMP] (Rall 1959, 1964; ρ: Rall 1969)
+# --------------------------------------------------------------------------------------
+@pytest.mark.parametrize(("tree_kwargs", "expected_mohm"), [
+    ({}, 209.5027757),  # R_in(root) = R∞ coth L_eq
+    ({"granddaughter_1": 240.0}, 207.7253383),  # one granddaughter 20 % longer
+    ({"daughter_scale": 1.2}, 194.7746655),  # both daughters 20 % thicker, GR = 0.7607257743
+    ({"soma": 20.0}, 185.1329030),  # with a 20 µm spherical soma: R_N = 1/(G_S + G_D)
+])
+def test_demo_tree_input_resistance(tree_kwargs, expected_mohm):
+    """[COMP] reference sheet §3.1; formula sources Rall 1959/1964 (R_in), Rall 1969 (soma)."""
+    report = analyse_tree(demo(**tree_kwargs), RM, RI, CM)
+    assert report.input_resistance / 1e6 == pytest.approx(expected_mohm, rel=1e-9)
+
+
+def test_demo_tree_reduction():
+    """[COMP] reference sheet §3.1: L_eq, area, R∞, ρ, G_S, G_D (Rall 1959/1964, 1969)."""
+    report = analyse_tree(demo(soma=20.0), RM, RI, CM)
+    cyl = report.equivalent_cylinder
+    assert report.reducible
+    assert report.reasons == ()
+    assert cyl.electrotonic_length == pytest.approx(0.9954565254, rel=1e-9)
+    assert cyl.diameter == pytest.approx(4e-6, rel=1e-12)
+    assert cyl.length == pytest.approx(995.4565254e-6, rel=1e-9)
+    assert cyl.membrane_area == pytest.approx(12509.27563e-12, rel=1e-9)
+    assert report.membrane_area == pytest.approx(12509.27563e-12, rel=1e-9)
+    assert cyl.semi_infinite_input_resistance / 1e6 == pytest.approx(159.1549431, rel=1e-9)
+    assert report.conductance_ratio == pytest.approx(7.596794008, rel=1e-9)
+    assert report.soma_conductance == pytest.approx(0.6283185307e-9, rel=1e-9)
+    assert report.dendritic_input_conductance == pytest.approx(4.773206449e-9, rel=1e-9)
+    assert report.reduced_input_resistance / 1e6 == pytest.approx(185.1329030, rel=1e-9)
+    np.testing.assert_allclose(report.tips.electrotonic_distances, 0.9954565254, rtol=1e-9)
+    np.testing.assert_allclose(report.branch_points.ratios, 1.0, rtol=1e-12)
+    assert report.membrane_time_constant == pytest.approx(0.020, rel=1e-12)
+
+
+def test_violations_are_found_and_named():
+    """The sensitivity cases of reference sheet §3.1 break Rall's conditions; the audit says where."""
+    thick = analyse_tree(demo(daughter_scale=1.2), RM, RI, CM)
+    assert not thick.reducible
+    ratios = {v.id: v.value for v in thick.violations if v.kind == "branch_ratio"}
+    # at the trunk the daughters are too thick: ratio 1/GR with GR = 0.7607257743 from the sheet;
+    # at each daughter the (unchanged) granddaughters are now too thin: ratio = GR
+    assert ratios == pytest.approx({"s0": 1 / 0.7607257743, "s1": 0.7607257743, "s2": 0.7607257743},
+                                   rel=1e-9)
+    assert "3/2 rule: 3 of 3 branch points" in thick.reasons[0]
+    assert thick.difference_percent == pytest.approx(
+        100 * (thick.reduced_input_resistance - thick.input_resistance) / thick.input_resistance, rel=1e-12)
+    assert thick.difference_percent > 1.0  # the cylinder overstates R_in: the tree is leakier near the root
+
+    longer = analyse_tree(demo(granddaughter_1=240.0), RM, RI, CM)
+    assert not longer.reducible
+    tips = [v for v in longer.violations if v.kind == "tip_distance"]
+    assert tips[0].id == "s3"
+    assert longer.tip_distance_max - longer.tip_distance_min == pytest.approx(40e-6 / 629.9605249e-6, rel=1e-8)
+    relaxed = analyse_tree(demo(granddaughter_1=240.0), RM, RI, CM, tolerances=Tolerances(tip_spread=0.07))
+    assert relaxed.reducible
+
+
+# --------------------------------------------------------------------------------------
+# Rall 1959: a conforming tree equals its equivalent cylinder to 1e-12
+# --------------------------------------------------------------------------------------
+def conforming_tree(seed: int, depth: int = 5, target: float = 1.3, stems: int = 3) -> Tree:
+    """Uneven 3/2-rule splits, random section lengths, every tip at X = target."""
+    rng = np.random.default_rng(seed)
+    parents, lengths, diameters = [], [], []
+    stack = [(-1, d, target, depth) for d in rng.uniform(1.0, 3.0, stems) * UM]
+    while stack:
+        parent, d, remaining, levels = stack.pop()
+        dx = remaining if levels == 0 else remaining * rng.uniform(0.1, 0.5)
+        lam = math.sqrt(RM * d / (4 * RI))
+        parents.append(parent)
+        lengths.append(dx * lam)
+        diameters.append(d)
+        me = len(parents) - 1
+        if levels:
+            shares = rng.dirichlet(np.ones(rng.integers(2, 4)))
+            for share in shares:
+                stack.append((me, (share * d**1.5) ** (2 / 3), remaining - dx, levels - 1))
+    # parents must precede children: the stack order already guarantees it
+    return sections_tree(parents, lengths, diameters)
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3, 4])
+@pytest.mark.parametrize("killed", [False, True])
+def test_conforming_tree_equals_equivalent_cylinder(seed, killed):
+    """Rall (1959): R_in = R∞ coth L (sealed tips) or R∞ tanh L (killed tips), to 1e-12."""
+    tree = conforming_tree(seed)
+    report = analyse_tree(tree, RM, RI, CM, killed_tips=killed)
+    cyl = report.equivalent_cylinder
+    assert report.reducible, report.reasons
+    assert cyl.electrotonic_length == pytest.approx(1.3, rel=1e-12)
+    r_inf = cyl.semi_infinite_input_resistance
+    expected = r_inf * (math.tanh(1.3) if killed else 1.0 / math.tanh(1.3))
+    assert report.input_resistance == pytest.approx(expected, rel=1e-12)
+    assert report.reduced_input_resistance == pytest.approx(expected, rel=1e-12)
+
+
+def test_one_step_is_cable_input_conductance():
+    """The recursion step is cable.input_conductance with B = G_load/G∞ (Rall 1959)."""
+    d, ell, load = 1.5e-6, 180e-6, 0.8e-9
+    tree = sections_tree([-1, 0], [ell, 1e-6], [d, 1e-6])
+    g_in, _ = exact_input_conductances(tree, RM, RI)
+    g_inf = float(semi_infinite_input_conductance(RM, RI, d))
+    lam = math.sqrt(RM * d / (4 * RI))
+    expected = float(input_conductance(g_inf, ell / lam, g_in[1] / g_inf))
+    assert g_in[0] == pytest.approx(expected, rel=1e-14)
+    del load
+
+
+# --------------------------------------------------------------------------------------
+# independent solver: sparse compartmental steady state
+# --------------------------------------------------------------------------------------
+def _compartmental(tree: Tree, segments: int) -> float:
+    c = discretise_tree(tree.parents, tree.lengths, tree.distal_diameters, RM, RI, CM, segments,
+                        soma_area=tree.soma_area)
+    return node_input_resistance(c, 0)
+
+
+@pytest.mark.parametrize("tree_kwargs", [{}, {"daughter_scale": 1.2, "soma": 20.0}])
+def test_compartmental_solve_converges_to_exact(tree_kwargs):
+    """scipy.sparse steady state converges at second order to the exact tips-inward result."""
+    tree = demo(**tree_kwargs)
+    exact = analyse_tree(tree, RM, RI, CM).input_resistance
+    errors = [abs(_compartmental(tree, n) - exact) / exact for n in (4, 8, 16, 32)]
+    orders = [math.log2(a / b) for a, b in itertools.pairwise(errors)]
+    assert errors[-1] < 1e-4
+    assert all(1.9 < p < 2.1 for p in orders), orders
+
+
+def test_compartmental_solve_of_the_bundled_nonconforming_cell():
+    """The realistic demo cell (outline soma, 5 stems): second-order convergence to the exact value."""
+    tree = build_tree(read_swc(DATA / "lumenia_pv7_interneuron.swc"))
+    report = analyse_tree(tree, RM, RI, CM)
+    assert not report.reducible
+    errors = [abs(_compartmental(report.tree, n) - report.input_resistance) / report.input_resistance
+              for n in (1, 2, 4)]
+    assert errors[-1] < 1e-5
+    assert math.log2(errors[0] / errors[1]) > 1.9
+    assert math.log2(errors[1] / errors[2]) > 1.9
