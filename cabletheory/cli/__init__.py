@@ -45,14 +45,18 @@ class _Parser(argparse.ArgumentParser):
         raise InputError(f"{self.prog}: {message}")
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The full parser, or with ``only`` a known command, a parser holding just that command
+    (so that running one command does not import every other command's modules)."""
     parser = _Parser(
         prog="cabletheory",
         description="Closed-form answers for passive neuronal cables (passive, linear, uniform membrane).",
     )
     parser.add_argument("--version", action="version", version=f"cabletheory {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    for module_name in COMMANDS.values():
+    names = [only] if only in COMMANDS else list(COMMANDS)
+    for name in names:
+        module_name = COMMANDS[name]
         try:
             module = importlib.import_module(f"{__name__}.{module_name}")
         except ModuleNotFoundError as exc:
@@ -77,9 +81,10 @@ def _attach_negative_values(argv: Sequence[str]) -> list[str]:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status (0 ok, 1 check failed, 2 bad input)."""
-    parser = build_parser()
+    arguments = _attach_negative_values(sys.argv[1:] if argv is None else argv)
+    parser = build_parser(arguments[0] if arguments else None)
     try:
-        args = parser.parse_args(_attach_negative_values(sys.argv[1:] if argv is None else argv))
+        args = parser.parse_args(arguments)
         if getattr(args, "run", None) is None:
             parser.print_help()
             return 2
