@@ -1,0 +1,152 @@
+"""The app: a view bar, four views, the caveat and a status line. No arithmetic here."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import ClassVar
+
+from rich.style import Style
+from rich.text import Text
+from textual.app import App, ComposeResult
+from textual.binding import Binding, BindingType
+from textual.widgets import ContentSwitcher, Static
+
+from .. import PASSIVE_CAVEAT
+from .dialogs import HelpScreen, OpenScreen, SaveScreen
+from .export import export
+from .keys import GLOBAL_KEYS, VIEWS, key_label
+
+__all__ = ["CableApp"]
+
+
+STATUS_KEYS = (("f1", "all keys"), ("ctrl+t", "next view"), ("ctrl+s", "save results"), ("ctrl+g", "save plot"),
+               ("ctrl+o", "open file"), ("ctrl+q", "quit"))
+
+
+class ViewBar(Static):
+    """The view names with their keys; the current one highlighted; click to switch."""
+
+    def show(self, current: str) -> None:
+        text = Text()
+        text.append(" cabletheory ", style="bold #0d1b24 on #5cc8d6")
+        text.append("  ")
+        for number, (view, (title, _)) in enumerate(VIEWS.items(), start=2):
+            label = f" F{number} {title} "
+            style = "bold #0d1b24 on #f2b84b" if view == current else "#c9d1d9"
+            text.append(label, style=Style.parse(style) + Style(meta={"@click": f"app.show_view('{view}')"}))
+            text.append(" ")
+        text.append("   F1 keys", style="dim")
+        self.update(text)
+
+
+class CableApp(App[None]):
+    """``cabletheory ui``: cylinder, charging, tree and check views of passive cables."""
+
+    CSS_PATH = "app.tcss"
+    TITLE = "cabletheory"
+    ENABLE_COMMAND_PALETTE = False
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding(k.key, k.action, k.description, priority=True, show=False) for k in GLOBAL_KEYS]
+
+    def __init__(self, *, view: str = "cylinder", swc: str | None = None) -> None:
+        super().__init__()
+        if view not in VIEWS:
+            raise ValueError(f"unknown view {view!r}")
+        self.start_view = "tree" if swc and view == "cylinder" else view
+        self.swc = swc
+
+    def compose(self) -> ComposeResult:
+        from .charging_view import ChargingView
+        from .check_view import CheckView
+        from .cylinder_view import CylinderView
+        from .tree_view import TreeView
+
+        yield ViewBar(id="view-bar")
+        with ContentSwitcher(initial=self.start_view, id="views"):
+            yield CylinderView(id="cylinder")
+            yield ChargingView(id="charging")
+            yield TreeView(id="tree", swc=self.swc)
+            yield CheckView(id="check")
+        yield Static(f"⚠ {PASSIVE_CAVEAT}", id="caveat")
+        yield Static("", id="status")
+
+    def on_mount(self) -> None:
+        self.query_one(ViewBar).show(self.start_view)
+        self.set_status("")
+
+    # -- views ------------------------------------------------------------------------------
+    @property
+    def current_view(self) -> str:
+        return self.query_one("#views", ContentSwitcher).current or "cylinder"
+
+    def action_show_view(self, view: str) -> None:
+        self.query_one("#views", ContentSwitcher).current = view
+        self.query_one(ViewBar).show(view)
+        self.set_status("")
+        self.call_after_refresh(self._focus_first, view)
+
+    def _focus_first(self, view: str) -> None:
+        container = self.query_one(f"#{view}")
+        focusable = [w for w in container.query("*") if w.focusable]
+        if focusable:
+            focusable[0].focus()
+
+    def action_next_view(self) -> None:
+        views = list(VIEWS)
+        self.action_show_view(views[(views.index(self.current_view) + 1) % len(views)])
+
+    def action_toggle_help(self) -> None:
+        if isinstance(self.screen, HelpScreen):
+            self.screen.dismiss(None)
+        else:
+            self.push_screen(HelpScreen(self.current_view))
+
+    # -- export ---------------------------------------------------------------------------------
+    def _view_widget(self):
+        return self.query_one(f"#{self.current_view}")
+
+    def action_export_data(self) -> None:
+        self._export("json", "Save inputs and results as (.json, .csv or .md)")
+
+    def action_export_plot(self) -> None:
+        self._export("svg", "Save the plot as (.png or .svg)")
+
+    def _export(self, suffix: str, title: str) -> None:
+        view = self._view_widget()
+        report = view.report
+        if report is None:
+            self.set_status("Nothing to save yet: the view has no valid result.", error=True)
+            return
+        protected = getattr(view, "input_files", ())
+
+        def write(path: str) -> Path:
+            return export(report, path, protected=protected)
+
+        def done(written: str | None) -> None:
+            if written:
+                self.set_status(f"Saved {written}")
+
+        self.push_screen(SaveScreen(title, f"{report.view}.{suffix}", write), done)
+
+    # -- files ------------------------------------------------------------------------------------
+    def action_open_file(self) -> None:
+        view = self._view_widget()
+        opener = getattr(view, "open_path", None)
+        if opener is None:
+            self.set_status("This view opens no files; F4 (tree) reads SWC, F5 (check) reads CSV.", error=True)
+            return
+
+        def done(path: str | None) -> None:
+            if path:
+                opener(path)
+
+        self.push_screen(OpenScreen(view.open_title, view.open_folder, view.open_suggestion), done)
+
+    # -- status line ----------------------------------------------------------------------------
+    def set_status(self, message: str, *, error: bool = False) -> None:
+        """One line at the bottom: the last thing that happened (or the main keys)."""
+        if not message:
+            keys = " · ".join(f"{key_label(key)} {what}" for key, what in STATUS_KEYS)
+            self.query_one("#status", Static).update(Text(keys, style="dim"))
+            return
+        self.query_one("#status", Static).update(Text(message, style="bold #ff6b6b" if error else "#9bd36a"))

@@ -1,0 +1,91 @@
+"""The cylinder view: one uniform cable, its constants, input resistance and V(X) profile."""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.widgets import Input, Label, RadioButton, RadioSet, Static
+
+from ..errors import InputError
+from .format import cable_report, cable_summary
+from .forms import CABLE_FIELDS, END_CHOICES, read_cylinder_form
+from .report import Report
+from .widgets import CurvePlot, QuantityField, QuantityList
+
+_FIELDS = {spec.name: spec for spec in CABLE_FIELDS}
+
+
+class CylinderView(Vertical):
+    """Inputs on the left (checked as you type), results and the profile plot on the right."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [Binding("ctrl+b", "next_end", "next far-end condition")]
+
+    report: Report | None = None
+
+    def compose(self) -> ComposeResult:
+        with Horizontal(classes="columns"):
+            with VerticalScroll(classes="form", id="cylinder-form", can_focus=False):
+                yield Static("uniform cylinder · input at X = 0", classes="form-title")
+                for name in ("Rm", "Ri", "Cm", "diameter", "length"):
+                    yield QuantityField(_FIELDS[name])
+                yield Label("far end  (ctrl+b cycles)", classes="group-label")
+                with RadioSet(id="end", compact=True):
+                    for key, label in END_CHOICES.items():
+                        yield RadioButton(label, value=key == "sealed", id=f"end-{key}", compact=True)
+                yield QuantityField(_FIELDS["end_conductance"])
+                yield QuantityField(_FIELDS["frequency"])
+                yield Static("bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS, Hz\nlength 'inf': semi-infinite",
+                             classes="hint")
+            with Vertical(classes="output"):
+                yield QuantityList(id="cylinder-results", classes="results")
+                yield CurvePlot(id="cylinder-plot")
+
+    def on_mount(self) -> None:
+        self.refresh_results()
+
+    @property
+    def end_choice(self) -> str:
+        pressed = self.query_one("#end", RadioSet).pressed_button
+        return (pressed.id or "end-sealed").removeprefix("end-") if pressed is not None else "sealed"
+
+    def on_input_changed(self, event: Input.Changed) -> None:
+        event.stop()
+        self.refresh_results()
+
+    def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
+        event.stop()
+        self.refresh_results()
+
+    def action_next_end(self) -> None:
+        keys = list(END_CHOICES)
+        following = keys[(keys.index(self.end_choice) + 1) % len(keys)]
+        self.query_one(f"#end-{following}", RadioButton).value = True
+
+    def refresh_results(self) -> None:
+        """Read the form; flag bad fields at the field; show fresh results when all are good."""
+        end = self.end_choice
+        fields = {f.spec.name: f for f in self.query(QuantityField)}
+        fields["end_conductance"].display = end == "leaky"
+        texts = {name: field.input.value for name, field in fields.items()}
+        cylinder, frequency, errors = read_cylinder_form(texts, end)
+        for name, field in fields.items():
+            field.flag(errors.get(name))
+        results = self.query_one("#cylinder-results", QuantityList)
+        if cylinder is None:
+            self.report = None
+            results.update(f"Results wait for valid inputs ({len(errors)} field"
+                           f"{'s' if len(errors) > 1 else ''} flagged).")
+            self.query_one(CurvePlot).spec = None
+            return
+        try:
+            report = cable_report(cable_summary(cylinder, frequency))
+        except InputError as exc:
+            self.report = None
+            results.update(str(exc))
+            return
+        self.report = report
+        results.show(report.results)
+        self.query_one(CurvePlot).spec = report.plot

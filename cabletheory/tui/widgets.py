@@ -1,0 +1,89 @@
+"""Small widgets shared by the views: a braille curve plot, a quantity list, a labelled field."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.containers import Horizontal, Vertical
+from textual.reactive import reactive
+from textual.widget import Widget
+from textual.widgets import Input, Label, Static
+
+from .forms import FieldSpec
+from .plot import draw
+from .report import PlotSpec, Row, row_text
+
+# curve colours, in drawing order (chosen for contrast on a dark background)
+PALETTE = ("#f2b84b", "#5cc8d6", "#d77ac4", "#9bd36a", "#f07f5f", "#a7a7f0")
+
+
+class CurvePlot(Widget):
+    """A braille plot of a :class:`PlotSpec` that fills its box; the y label is the border title."""
+
+    spec: reactive[PlotSpec | None] = reactive(None, layout=False)
+
+    def watch_spec(self, spec: PlotSpec | None) -> None:
+        self.border_title = spec.y_label if spec is not None else ""
+        self.border_subtitle = spec.title if spec is not None else ""
+
+    def render(self) -> Text:
+        spec = self.spec
+        width, height = self.content_size.width, self.content_size.height
+        if spec is None or not spec.series or width < 12 or height < 5:
+            return Text("no curve yet", style="dim")
+        picture = draw(spec, width, height - 1)
+        out = Text(no_wrap=True, overflow="crop")
+        for line, owners in zip(picture.rows, picture.owners, strict=True):
+            for char, owner in zip(line, owners, strict=True):
+                out.append(char, style=PALETTE[owner % len(PALETTE)] if owner >= 0 else "")
+            out.append("\n")
+        out.append(f"{spec.x_label}   ", style="bold")
+        for index, label in enumerate(picture.legend):
+            out.append("━━ ", style=PALETTE[index % len(PALETTE)])
+            out.append(f"{label}  ")
+        return out
+
+
+class QuantityList(Static):
+    """Label-value lines for a sequence of :class:`Row`; flagged rows are highlighted."""
+
+    def show(self, rows: Sequence[Row], notes: Sequence[str] = ()) -> None:
+        width = max((len(row.label) for row in rows), default=0)
+        text = Text(no_wrap=False)
+        for row in rows:
+            style = "bold #ff6b6b" if row.flag else ""
+            text.append(row.label.ljust(width + 2), style="#9aa5b1" if not row.flag else style)
+            text.append(row_text(row), style=style or "bold")
+            text.append("\n")
+        for note in notes:
+            text.append(f"{note}\n", style="italic")
+        self.update(text)
+
+
+class QuantityField(Vertical):
+    """A field: label, a one-line input, and the message of its current problem (if any)."""
+
+    DEFAULT_CLASSES = "field"
+
+    def __init__(self, spec: FieldSpec, *, label: str | None = None, value: str | None = None) -> None:
+        super().__init__(id=f"field-{spec.name}")
+        self.spec = spec
+        self._label = label or spec.label
+        self._value = spec.default if value is None else value
+
+    def compose(self) -> ComposeResult:
+        with Horizontal(classes="field-row"):
+            yield Label(self._label, classes="field-label")
+            yield Input(self._value, placeholder=self.spec.placeholder, id=self.spec.name, compact=True)
+        yield Static("", classes="field-message")
+
+    @property
+    def input(self) -> Input:
+        return self.query_one(Input)
+
+    def flag(self, message: str | None) -> None:
+        """Show ``message`` under the field and mark it, or clear both (``None``)."""
+        self.query_one(".field-message", Static).update(message or "")
+        self.set_class(bool(message), "bad")

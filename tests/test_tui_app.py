@@ -1,0 +1,238 @@
+"""Behaviour of the terminal app, driven by keys and clicks through textual's Pilot.
+
+Each test runs the app headless with ``App.run_test`` inside ``asyncio.run`` (no async plugin
+needed). Expected numbers are the demo-cable [COMP] values of shared/reference/checks.md §1.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import json
+from collections.abc import Awaitable, Callable
+
+import pytest
+
+pytest.importorskip("textual")
+
+from textual.widgets import Input, RadioButton
+
+from cabletheory import PASSIVE_CAVEAT
+from cabletheory.tui.app import CableApp
+from cabletheory.tui.dialogs import HelpScreen, SaveScreen
+from cabletheory.tui.keys import GLOBAL_KEYS, VIEW_KEYS, key_label
+from cabletheory.tui.widgets import QuantityField
+
+SIZE = (120, 36)
+
+
+def drive(script: Callable[[CableApp, object], Awaitable[None]], **app_options) -> CableApp:
+    """Run ``script(app, pilot)`` against a headless app and return the app afterwards."""
+    app = CableApp(**app_options)
+
+    async def main() -> None:
+        async with app.run_test(size=SIZE) as pilot:
+            await pilot.pause()
+            await script(app, pilot)
+
+    asyncio.run(main())
+    return app
+
+
+def text_of(app, selector: str) -> str:
+    return str(app.query_one(selector).render())
+
+
+async def type_into(pilot, app: CableApp, field: str, text: str) -> None:
+    """Focus a field, clear it with keys and type ``text`` key by key."""
+    box = app.query_one(f"#{field}", Input)
+    box.focus()
+    await pilot.press("end", "ctrl+u")
+    await pilot.press(*text)
+    await pilot.pause()
+
+
+# -- shell ---------------------------------------------------------------------------------------------
+def test_starts_on_the_cylinder_view_with_caveat_and_results():
+    async def script(app, pilot):
+        assert app.current_view == "cylinder"
+        assert PASSIVE_CAVEAT in text_of(app, "#caveat")
+        results = text_of(app, "#cylinder-results")
+        assert "707.1 µm" in results  # λ, checks.md §1
+        assert "739.3 MΩ" in results  # R∞ coth L, sealed
+        assert app.focused is app.query_one("#Rm")  # focus starts on the first field
+
+    drive(script)
+
+
+def test_function_keys_and_ctrl_t_switch_views():
+    async def script(app, pilot):
+        seen = []
+        for key in ("f3", "f4", "f5", "f2"):
+            await pilot.press(key)
+            seen.append(app.current_view)
+        assert seen == ["charging", "tree", "check", "cylinder"]
+        await pilot.press("ctrl+t")
+        assert app.current_view == "charging"
+
+    drive(script)
+
+
+def test_clicking_a_view_name_switches_view():
+    async def script(app, pilot):
+        bar = str(app.query_one("#view-bar").render())
+        column = bar.index("F4 Tree")
+        await pilot.click("#view-bar", offset=(column + 1, 0))
+        await pilot.pause()
+        assert app.current_view == "tree"
+
+    drive(script)
+
+
+def test_help_panel_lists_every_key_and_closes_with_escape():
+    async def script(app, pilot):
+        await pilot.press("f1")
+        assert isinstance(app.screen, HelpScreen)
+        shown = str(app.screen.query_one("#help-text").render())
+        for key in (*GLOBAL_KEYS, *VIEW_KEYS["cylinder"]):
+            assert key_label(key.key) in shown
+            assert key.description in shown
+        await pilot.press("escape")
+        assert not isinstance(app.screen, HelpScreen)
+        await pilot.press("f1", "f1")  # F1 toggles
+        assert not isinstance(app.screen, HelpScreen)
+
+    drive(script)
+
+
+# -- cylinder view ---------------------------------------------------------------------------------------
+def test_typing_a_wrong_unit_flags_the_field_and_fixing_it_restores_results():
+    async def script(app, pilot):
+        await type_into(pilot, app, "Rm", "5uF")
+        field = app.query_one("#field-Rm", QuantityField)
+        assert field.has_class("bad")
+        message = text_of(app, "#field-Rm .field-message")
+        assert message == "Rm: '5uF' is a capacitance, expected a specific membrane resistance such as 20 kΩ·cm²"
+        assert "wait for valid inputs" in text_of(app, "#cylinder-results")
+        assert app.query_one("#cylinder").report is None
+        await type_into(pilot, app, "Rm", "40000")  # bare number: Ω·cm²
+        assert not field.has_class("bad")
+        # λ ∝ √Rm: doubling Rm multiplies 707.1 µm by √2 -> 1.000 mm (λ = √(Rm d / 4 Ri))
+        assert "1.000 mm" in text_of(app, "#cylinder-results")
+
+    drive(script)
+
+
+def test_results_follow_each_keystroke():
+    async def script(app, pilot):
+        await type_into(pilot, app, "diameter", "8")
+        # λ ∝ √d: 707.1 µm × 2 = 1.414 mm
+        assert "1.414 mm" in text_of(app, "#cylinder-results")
+
+    drive(script)
+
+
+def test_ctrl_b_cycles_the_far_end_and_the_leaky_end_asks_for_a_conductance():
+    async def script(app, pilot):
+        view = app.query_one("#cylinder")
+        conductance = app.query_one("#field-end_conductance")
+        assert not conductance.display
+        await pilot.press("ctrl+b")
+        await pilot.pause()
+        assert view.end_choice == "killed"
+        assert "274.1 MΩ" in text_of(app, "#cylinder-results")  # R∞ tanh L, checks.md §1 [COMP]
+        await pilot.press("ctrl+b")
+        await pilot.pause()
+        assert view.end_choice == "leaky"
+        assert conductance.display
+        # B = 1: G_end = G∞ = 1/450.158 MΩ gives R_in = R∞ for every L (checks.md §1 [COMP])
+        await type_into(pilot, app, "end_conductance", "2.2214411 nS")
+        results = text_of(app, "#cylinder-results")
+        assert "Rin input resistance (leaky)" in results
+        assert "450.2 MΩ" in results
+        await pilot.press("ctrl+b")
+        await pilot.pause()
+        assert view.end_choice == "sealed"
+        assert not conductance.display
+
+    drive(script)
+
+
+def test_clicking_a_radio_button_chooses_the_end():
+    async def script(app, pilot):
+        await pilot.click("#end-killed")
+        await pilot.pause()
+        assert app.query_one("#end-killed", RadioButton).value
+        assert "Rin input resistance (killed)" in text_of(app, "#cylinder-results")
+
+    drive(script)
+
+
+def test_blank_frequency_drops_the_sinusoidal_rows():
+    async def script(app, pilot):
+        assert "phase at f" in text_of(app, "#cylinder-results")
+        await type_into(pilot, app, "frequency", "")
+        assert "phase at f" not in text_of(app, "#cylinder-results")
+        assert len(app.query_one("#cylinder-plot").spec.series) == 1
+
+    drive(script)
+
+
+def test_tab_moves_through_the_fields_in_reading_order():
+    async def script(app, pilot):
+        order = [app.focused.id]
+        for _ in range(5):
+            await pilot.press("tab")
+            order.append(app.focused.id)
+        assert order == ["Rm", "Ri", "Cm", "diameter", "length", "end"]
+
+    drive(script)
+
+
+# -- export ---------------------------------------------------------------------------------------------------
+@pytest.mark.parametrize("suffix", ["json", "csv", "md", "svg"])
+def test_export_writes_the_file_the_user_names(tmp_path, suffix):
+    target = tmp_path / f"cable.{suffix}"
+
+    async def script(app, pilot):
+        await pilot.press("ctrl+g" if suffix == "svg" else "ctrl+s")
+        assert isinstance(app.screen, SaveScreen)
+        box = app.screen.query_one("#save-path", Input)
+        box.value = str(target)
+        await pilot.press("enter")
+        await pilot.pause()
+        assert not isinstance(app.screen, SaveScreen)
+        assert f"Saved {target}" in text_of(app, "#status")
+
+    drive(script)
+    content = target.read_text(encoding="utf-8")
+    if suffix == "json":
+        assert json.loads(content)["results"]["input_resistance"]["unit"] == "ohm"
+    elif suffix == "svg":
+        assert "<svg" in content
+    else:
+        assert "input_resistance" in content or "input resistance" in content
+
+
+def test_export_with_a_bad_name_keeps_the_dialog_open_with_a_message(tmp_path):
+    async def script(app, pilot):
+        await pilot.press("ctrl+s")
+        app.screen.query_one("#save-path", Input).value = str(tmp_path / "table.xlsx")
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, SaveScreen)
+        assert "no known suffix" in text_of(app.screen, "#save-message")
+        await pilot.press("escape")
+        assert not isinstance(app.screen, SaveScreen)
+
+    drive(script)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_export_without_a_valid_result_says_so():
+    async def script(app, pilot):
+        await type_into(pilot, app, "length", "-1")
+        await pilot.press("ctrl+s")
+        assert not isinstance(app.screen, SaveScreen)
+        assert "Nothing to save yet" in text_of(app, "#status")
+
+    drive(script)

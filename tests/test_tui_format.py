@@ -1,0 +1,295 @@
+"""The terminal app's plain helpers (forms, reports, braille plot, export), tested without an App.
+
+Reference values for the demo cable (d = 2 µm, Rm = 20 kΩ·cm², Ri = 200 Ω·cm, Cm = 1 µF/cm²,
+ℓ = 500 µm) are the [COMP] values of shared/reference/checks.md §1 and §1.1 (formulas: Rall 1959;
+Rall & Rinzel 1973; Koch 1999 ch. 2 [MEM]).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+
+import numpy as np
+import pytest
+
+from cabletheory import PASSIVE_CAVEAT
+from cabletheory.errors import InputError
+from cabletheory.tui import export, plot
+from cabletheory.tui.format import cable_report, cable_summary, profile_positions
+from cabletheory.tui.forms import CABLE_FIELDS, read_cylinder_form, read_form
+from cabletheory.tui.keys import GLOBAL_KEYS, VIEW_KEYS, key_label
+from cabletheory.tui.report import Column, PlotSpec, Report, Row, Series, Table, cell_text, row_text
+
+DEMO = {"Rm": "20 kΩ·cm²", "Ri": "200 Ω·cm", "Cm": "1 µF/cm²", "diameter": "2 µm", "length": "500 µm",
+        "frequency": "100 Hz"}
+
+
+def demo_report(end: str = "sealed", **changes: str) -> Report:
+    cylinder, frequency, errors = read_cylinder_form({**DEMO, **changes}, end)
+    assert not errors
+    assert cylinder is not None
+    return cable_report(cable_summary(cylinder, frequency))
+
+
+def result(report: Report, key: str) -> float:
+    return next(float(r.value) for r in report.results if r.key == key)
+
+
+# -- forms ----------------------------------------------------------------------------------------
+def test_form_defaults_are_the_demo_cable():
+    cylinder, frequency, errors = read_cylinder_form({}, "sealed")
+    assert errors == {}
+    assert cylinder is not None
+    assert (cylinder.membrane_resistivity, cylinder.axial_resistivity, cylinder.membrane_capacitance) == (
+        pytest.approx(2.0), pytest.approx(2.0), pytest.approx(0.01))
+    assert (cylinder.diameter, cylinder.length, cylinder.end_conductance) == (
+        pytest.approx(2e-6), pytest.approx(5e-4), 0.0)
+    assert frequency == pytest.approx(100.0)
+
+
+def test_wrong_unit_is_reported_per_field_with_the_unit_boundary_message():
+    cylinder, _, errors = read_cylinder_form({**DEMO, "Rm": "1uF/cm^2", "diameter": "-2"}, "sealed")
+    assert cylinder is None
+    assert errors == {
+        "Rm": "Rm: '1uF/cm^2' is a specific membrane capacitance, expected a specific membrane resistance "
+              "such as 20 kΩ·cm²",
+        "diameter": "diameter: '-2' is negative; expected a positive length such as 500 µm",
+    }
+
+
+def test_end_conductance_is_read_only_for_a_leaky_end():
+    # a nonsense end conductance does not matter while the end is sealed or killed
+    for end in ("sealed", "killed"):
+        assert read_cylinder_form({**DEMO, "end_conductance": "oops"}, end)[2] == {}
+    cylinder, _, errors = read_cylinder_form({**DEMO, "end_conductance": "oops"}, "leaky")
+    assert cylinder is None
+    assert set(errors) == {"end_conductance"}
+    cylinder, _, _ = read_cylinder_form({**DEMO, "end_conductance": "0.5"}, "leaky")
+    assert cylinder is not None
+    assert cylinder.end_conductance == pytest.approx(0.5e-9)
+    assert read_cylinder_form({}, "killed")[0].end_conductance == math.inf
+
+
+def test_blank_frequency_means_steady_state_only_and_blank_required_field_is_flagged():
+    _cylinder, frequency, errors = read_cylinder_form({**DEMO, "frequency": " "}, "sealed")
+    assert errors == {}
+    assert frequency is None
+    assert "empty value" in read_cylinder_form({**DEMO, "Ri": ""}, "sealed")[2]["Ri"]
+
+
+def test_read_form_series_field():
+    from cabletheory.tui.forms import FieldSpec
+
+    spec = FieldSpec("times", "times", "time", "0:2:0.5 ms", series=True)
+    form = read_form([spec], {})
+    assert form.ok
+    assert form.values["times"] == pytest.approx([0, 5e-4, 1e-3, 1.5e-3, 2e-3])
+    assert not read_form([spec], {"times": "1, 2, 3 mV"}).ok
+
+
+def test_every_cable_field_default_is_valid():
+    assert read_form(CABLE_FIELDS, {}).ok
+
+
+# -- cable report: the values shown are the core's, checked against external values --------------
+def test_cable_report_matches_reference_values():
+    """checks.md §1 [COMP]: λ = 707.1067812 µm, R∞ = 450.1581581 MΩ, R_in sealed = 739.3466931 MΩ,
+    V(L)/V(0) = 0.7932781817; §1.1 at 100 Hz: λ_f = 271.1023147 µm, |Z_in| = 120.8122622 MΩ,
+    arg = −41.97365288°, |V(L)/V(0)| = 0.3240784218."""
+    report = demo_report()
+    assert result(report, "length_constant") == pytest.approx(707.1067812e-6, rel=1e-9)
+    assert result(report, "semi_infinite_input_resistance") == pytest.approx(450.1581581e6, rel=1e-9)
+    assert result(report, "input_resistance") == pytest.approx(739.3466931e6, rel=1e-9)
+    assert result(report, "far_end_voltage_ratio") == pytest.approx(0.7932781817, rel=1e-9)
+    assert result(report, "ac_length_constant") == pytest.approx(271.1023147e-6, rel=1e-9)
+    assert result(report, "input_impedance_magnitude") == pytest.approx(120.8122622e6, rel=1e-9)
+    assert math.degrees(result(report, "input_impedance_phase")) == pytest.approx(-41.97365288, rel=1e-9)
+    profile = report.tables[0]
+    columns = {c.key: np.asarray(c.values) for c in profile.columns}
+    assert columns["voltage_ratio"][-1] == pytest.approx(0.7932781817, rel=1e-9)
+    assert columns["ac_voltage_ratio"][-1] == pytest.approx(0.3240784218, rel=1e-9)
+    # the sealed profile at X = L/2 (checks.md §1 [COMP]): 0.8433766820
+    middle = len(columns["voltage_ratio"]) // 2
+    assert columns["voltage_ratio"][middle] == pytest.approx(0.8433766820, rel=1e-9)
+
+
+@pytest.mark.parametrize(("end", "changes", "expected"), [
+    ("killed", {}, 274.0830103e6),  # R∞ tanh L, checks.md §1 [COMP]
+    ("leaky", {"end_conductance": f"{0.5 / 450.1581581e6!r} S"}, 529.5528737e6),  # B = 0.5 [COMP]
+    ("leaky", {"end_conductance": f"{1.0 / 450.1581581e6!r} S"}, 450.1581581e6),  # B = 1 gives R∞
+])
+def test_end_conditions_change_input_resistance(end, changes, expected):
+    report = demo_report(end, **changes)
+    assert result(report, "input_resistance") == pytest.approx(expected, rel=1e-8)
+    labels = " ".join(r.label for r in report.results)
+    assert end in labels
+    if end == "leaky":
+        assert result(report, "end_conductance_ratio") == pytest.approx(
+            float(changes["end_conductance"].split()[0]) * 450.1581581e6, rel=1e-8)
+
+
+def test_semi_infinite_cable_is_shown_over_five_length_constants():
+    report = demo_report(length="inf", frequency="")
+    length_row = next(r for r in report.inputs if r.key == "length")
+    assert row_text(length_row) == "semi-infinite"
+    x = np.asarray(report.plot.series[0].x)
+    assert x[-1] == pytest.approx(5.0)
+    assert np.asarray(report.plot.series[0].y) == pytest.approx(np.exp(-x), rel=1e-12)  # e^-X
+    assert len(report.plot.series) == 1  # no frequency, no AC curve
+    assert not any(r.key == "segments_needed" for r in report.results)
+
+
+def test_profile_positions_span_the_cable():
+    cylinder, _, _ = read_cylinder_form(DEMO, "sealed")
+    x = profile_positions(cylinder, 11)
+    assert x[0] == 0
+    assert x[-1] == pytest.approx(5e-4)
+    assert len(x) == 11
+
+
+def test_row_and_cell_text():
+    assert row_text(Row("a", "λ", 7.071067811865475e-4, "length")) == "707.1 µm"
+    assert row_text(Row("a", "n", 19)) == "19"
+    assert row_text(Row("a", "x", None)) == "—"
+    assert row_text(Row("a", "x", "sealed")) == "sealed"
+    assert row_text(Row("a", "x", 0.5, None, "ohm*m")) == "0.5000 ohm*m"
+    assert cell_text(math.inf, "resistance") == "∞"
+
+
+# -- braille plot -----------------------------------------------------------------------------------
+def test_canvas_puts_dots_in_the_right_cells():
+    canvas = plot.Canvas(2, 1, (0.0, 1.0), (0.0, 1.0))
+    canvas.line([0.0], [1.0])  # top-left dot: bit 0x01
+    canvas.line([1.0], [0.0], curve=1)  # bottom-right dot of the right cell: bit 0x80
+    assert canvas.text_rows() == [chr(0x2801) + chr(0x2880)]
+    assert canvas.owner == [[0, 1]]
+
+
+def test_a_line_is_continuous_and_nan_breaks_it():
+    canvas = plot.Canvas(10, 2, (0.0, 1.0), (0.0, 1.0))
+    canvas.line([0.0, 1.0], [0.0, 1.0])
+    dots = sum(bin(b).count("1") for row in canvas.bits for b in row)
+    assert dots == 20  # a diagonal over 20 dot columns and 8 rows touches every column once
+    broken = plot.Canvas(10, 2, (0.0, 1.0), (0.0, 1.0))
+    broken.line([0.0, 0.5, 1.0], [0.0, math.nan, 1.0])
+    assert sum(bin(b).count("1") for row in broken.bits for b in row) == 2
+
+
+def test_draw_has_axes_ticks_and_legend():
+    spec = PlotSpec("t", "X", "V", (Series("a", np.linspace(0, 2, 21), np.linspace(1, 0, 21)),
+                                   Series("b", np.linspace(0, 2, 21), np.linspace(0, 1, 21))))
+    picture = plot.draw(spec, 50, 12)
+    assert len(picture.rows) == 12
+    assert all(len(r) == len(o) for r, o in zip(picture.rows, picture.owners, strict=True))
+    assert picture.rows[0].lstrip().startswith("1┤")
+    assert "0┤" in picture.rows[-3]
+    assert picture.rows[-2].lstrip().startswith("└┬")
+    assert picture.rows[-1].split()[0] == "0"
+    assert picture.rows[-1].split()[-1] == "2"
+    assert picture.legend == ("a", "b")
+    owners = {o for row in picture.owners for o in row}
+    assert owners == {-1, 0, 1}
+
+
+@pytest.mark.parametrize(("low", "high", "expected"), [
+    (0.0, 1.0, [0.0, 0.25, 0.5, 0.75, 1.0]),
+    (0.0, 0.7071, [0.0, 0.2, 0.4, 0.6]),
+    (-3.0, 3.0, [-2.0, 0.0, 2.0]),  # step 1.5 rounds up to 2
+    (2.0, 2.0, [2.0]),
+])
+def test_nice_ticks(low, high, expected):
+    assert plot.nice_ticks(low, high, 5) == pytest.approx(expected)
+
+
+def test_log_axis_plots_exponents():
+    spec = PlotSpec("t", "t", "err", (Series("e", np.arange(4.0), np.array([1e-2, 1e-4, 0.0, 1e-6])),),
+                    y_log=True)
+    picture = plot.draw(spec, 40, 10)
+    assert any(row.lstrip().startswith("1e-2") for row in picture.rows)
+
+
+# -- export -------------------------------------------------------------------------------------------
+def test_json_export_is_si_with_units():
+    data = json.loads(export.to_json(demo_report()))
+    assert data["view"] == "cylinder"
+    assert data["inputs"]["membrane_resistivity"] == {"value": pytest.approx(2.0), "unit": "ohm*m**2"}
+    assert data["inputs"]["end_conductance"] == {"value": 0.0, "unit": "S"}
+    assert data["results"]["input_resistance"] == {"value": pytest.approx(739.3466931e6, rel=1e-9),
+                                                   "unit": "ohm"}
+    assert data["results"]["electrotonic_length"]["unit"] == ""
+    assert data["results"]["segments_needed"] == 19
+    profile = data["tables"]["profile"]
+    assert profile["position"]["unit"] == "m"
+    assert len(profile["position"]["value"]) == 41
+    assert data["assumptions"] == PASSIVE_CAVEAT
+
+
+def test_json_export_writes_infinity_as_text():
+    data = json.loads(export.to_json(demo_report("killed")))
+    assert data["inputs"]["end_conductance"] == {"value": "inf", "unit": "S"}
+
+
+def test_csv_export_is_a_tidy_table():
+    rows = list(csv.DictReader(io.StringIO(export.to_csv(demo_report()))))
+    assert list(rows[0]) == ["section", "quantity", "index", "value", "unit"]
+    by_key = {(r["section"], r["quantity"], r["index"]): r for r in rows}
+    assert float(by_key["results", "input_resistance", ""]["value"]) == pytest.approx(739.3466931e6, rel=1e-9)
+    assert by_key["results", "input_resistance", ""]["unit"] == "ohm"
+    assert float(by_key["profile", "position", "40"]["value"]) == pytest.approx(5e-4)
+    assert by_key["profile", "voltage_ratio", "0"]["value"] == "1.0"
+
+
+def test_markdown_export_has_caveat_and_tables():
+    text = export.to_markdown(demo_report())
+    assert text.startswith("# Single cylinder")
+    assert f"> {PASSIVE_CAVEAT}" in text
+    assert "| λ   length constant | 707.1 µm |" in text
+    assert "| \\|Z\\| input impedance at f | 120.8 MΩ |" in text
+    assert "## Profile (input at the origin)" in text
+
+
+def test_export_picks_format_by_suffix_and_refuses_unknown(tmp_path):
+    report = demo_report()
+    for suffix in (".json", ".csv", ".md"):
+        written = export.export(report, tmp_path / f"out{suffix}")
+        assert written.read_text(encoding="utf-8").strip()
+    with pytest.raises(InputError, match="no known suffix"):
+        export.export(report, tmp_path / "out.xlsx")
+    assert not (tmp_path / "out.xlsx").exists()
+    with pytest.raises(InputError, match="does not exist"):
+        export.export(report, tmp_path / "missing" / "out.json")
+    (tmp_path / "input.csv").write_text("keep me")
+    with pytest.raises(InputError, match="also an input file"):
+        export.export(report, tmp_path / "input.csv", protected=[tmp_path / "input.csv"])
+    assert (tmp_path / "input.csv").read_text() == "keep me"
+
+
+def test_plot_export_svg_and_png(tmp_path):
+    report = demo_report()
+    svg = export.export(report, tmp_path / "plot.svg").read_text()
+    assert svg.lstrip().startswith("<?xml")
+    assert "<svg" in svg
+    png = export.export(report, tmp_path / "plot.png").read_bytes()
+    assert png.startswith(b"\x89PNG\r\n\x1a\n")
+    empty = Report("x", "x", (), (), (Table("t", "t", (Column("a", "a", [1.0]),)),))
+    with pytest.raises(InputError, match="no plot"):
+        export.export(empty, tmp_path / "none.svg")
+
+
+# -- keys -------------------------------------------------------------------------------------------------
+def test_every_key_is_unique_within_its_scope():
+    global_keys = [k.key for k in GLOBAL_KEYS]
+    assert len(global_keys) == len(set(global_keys))
+    for keys in VIEW_KEYS.values():
+        names = [k.key for k in keys]
+        assert len(names) == len(set(names))
+        assert not set(names) & set(global_keys)
+
+
+def test_key_labels():
+    assert key_label("ctrl+s") == "^S"
+    assert key_label("f1") == "F1"
+    assert key_label("escape,q") == "escape"

@@ -1,0 +1,52 @@
+"""Appearance of each view, compared with reviewed SVG snapshots (pytest-textual-snapshot).
+
+Regenerate with ``pytest tests/test_tui_snapshots.py --snapshot-update`` and look at the new
+SVGs in tests/__snapshots__/ before committing them. The terminal size is fixed and the
+cursor does not blink, so the pictures are deterministic.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+pytest.importorskip("textual")
+
+from textual.widgets import Input
+
+from cabletheory.tui.app import CableApp
+
+SIZE = (120, 36)
+
+
+async def steady(pilot) -> None:
+    """Stop the input cursors blinking and let workers finish, so the picture is stable."""
+    for box in pilot.app.query(Input):
+        box.cursor_blink = False
+    await pilot.app.workers.wait_for_complete()
+    await pilot.pause()
+
+
+def test_cylinder_view(snap_compare):
+    """The demo dendrite: constants, input resistance, steady and 100 Hz profiles."""
+    assert snap_compare(CableApp(), terminal_size=SIZE, run_before=steady)
+
+
+def test_cylinder_view_flags_a_wrong_unit(snap_compare):
+    """Rm typed as a capacitance: the field is red with its one-line message, results wait."""
+
+    async def wrong_unit(pilot) -> None:
+        box = pilot.app.query_one("#Rm", Input)
+        box.value = "5uF"
+        await steady(pilot)
+
+    assert snap_compare(CableApp(), terminal_size=SIZE, run_before=wrong_unit)
+
+
+def test_cylinder_view_leaky_end(snap_compare):
+    """The leaky end shows its conductance field and the end conductance ratio B."""
+    assert snap_compare(CableApp(), terminal_size=SIZE, press=["ctrl+b", "ctrl+b"], run_before=steady)
+
+
+def test_help_panel(snap_compare):
+    """F1 lists the keys of every view and of this one."""
+    assert snap_compare(CableApp(), terminal_size=SIZE, press=["f1"], run_before=steady)
