@@ -192,11 +192,11 @@ class Derivation:
             out = self.shown_as.parts(part)
             return [*out[:3], ("Rall's ρ = G_D/G_S gives ρ∞ = G∞/G_S as", self.soma_relation), *out[3:]]
         X, X0, T, s, a = (_symbol(n) for n in ("X", "X0", "T", "s", "alpha"))
-        V, U, phi = sp.Function("V"), sp.Function("V̂"), sp.Function("φ")
+        V, U, phi = sp.Function("V"), sp.Function("V̂"), sp.Function("phi")
         out: list[tuple[str, Any]] = [
             ("cable equation", self.equation),
-            ("condition at the origin", self.origin_condition),
-            ("condition at the far end", self.end_condition),
+            ("condition at the origin, X = 0", self.origin_condition),
+            ("condition at the far end, X = L", self.end_condition),
         ]
         if part in ("steady", "all"):
             out.append(("steady state, unit step at the origin", sp.Eq(V(X, sp.oo), self.steady_state)))
@@ -208,7 +208,7 @@ class Derivation:
         if part in ("modes", "all"):
             out.append(("eigenfunction", sp.Eq(phi(X), self.eigenfunction)))
             out.append(("eigenvalue equation (α_n > 0 are its roots)", sp.Eq(self.eigenvalue_equation, 0)))
-            out.append(("time constants", sp.Eq(sp.Symbol("τ_n") / sp.Symbol("τ_m"), 1 / (1 + a**2))))
+            out.append(("time constants", sp.Eq(sp.Symbol("tau_n") / sp.Symbol("tau_m"), 1 / (1 + a**2))))
             if self.zero_mode is not None:
                 out.append(("zero mode α_0 = 0 (time constant τm)", sp.Eq(phi(X), self.zero_mode)))
             out.append(("mode norm (orthogonality integral)", sp.Eq(sp.Symbol("N"), self.mode_norm)))
@@ -239,13 +239,11 @@ class Derivation:
 
     def latex(self, part: str = "all") -> str:
         """LaTeX (``sympy.latex``) of ``part``: one ``% label`` comment line and one equation each."""
-        import sympy as sp
 
         lines = [f"% {self.name}"]
         lines += [f"% assumption: {a}" for a in self.assumptions]
         for label, eq in self.parts(part):
-            lines += [f"% {label}", sp.latex(_display(eq, for_latex=True, unicode=True),
-                                               symbol_names=_latex_names())]
+            lines += [f"% {label}", _latex(eq)]
         return "\n".join(lines) + "\n"
 
     def as_json(self, part: str = "all") -> dict[str, Any]:
@@ -264,8 +262,7 @@ class Derivation:
                     "label": label,
                     "text": sp.pretty(_display(eq, for_latex=False, unicode=True), use_unicode=True,
                                       wrap_line=False),
-                    "latex": sp.latex(_display(eq, for_latex=True, unicode=True),
-                                      symbol_names=_latex_names()),
+                    "latex": _latex(eq),
                     "sympy": sp.srepr(eq),
                 }
                 for label, eq in self.parts(part)
@@ -295,6 +292,13 @@ def _display(expr: Any, *, for_latex: bool, unicode: bool) -> Any:
         rho_inf = _symbol("rho_inf")
         shown = shown.subs(rho_inf, sp.Symbol("ρ_∞" if unicode else "rho_inf", positive=True))
     return shown
+
+
+def _latex(expr: Any) -> str:
+    import sympy as sp
+
+    text = sp.latex(_display(expr, for_latex=True, unicode=True), symbol_names=_latex_names())
+    return text.replace(r"\operatorname{V̂}", r"\hat{V}")
 
 
 @functools.cache
@@ -570,9 +574,8 @@ def _derive(origin: str, end: str, soma_parameter: str | None) -> Derivation:
         sp.Piecewise((left.subs(sol), X <= X0), (right.subs(sol), True))).subs(q, sp.sqrt(s + 1))
 
     # ---- time-domain statement of the problem, for display -----------------------------
-    drive_text = sp.Symbol("I(T)") if origin != "clamp" else sp.Symbol("V_c(T)")
-    origin_condition = sp.Eq(P.origin_expr.subs(X, 0), drive_text) if origin == "clamp" else \
-        sp.Eq(P.origin_expr, drive_text)
+    drive_text = sp.Function("I")(T) if origin != "clamp" else sp.Function("V_c")(T)
+    origin_condition = sp.Eq(P.origin_expr, drive_text)
     end_condition = sp.Eq(P.end_expr, 0)
     equation = sp.Eq(sp.Derivative(P.V, T), sp.Derivative(P.V, (X, 2)) - P.V)
 
