@@ -205,7 +205,85 @@ def _swc_integer(token: str, field: str, source: str, number: int) -> int:
 
 
 def parse_swc(text: str, source: str = "<swc>") -> SwcPoints:
-    """Parse SWC text; ``source`` names the file in error messages."""
+    """Parse SWC text; ``source`` names the file in error messages.
+
+    Well-formed files take a vectorised path; anything it cannot accept is parsed again line
+    by line, which finds the first problem and names its line.
+    """
+    fast = _parse_swc_fast(text)
+    if fast is not None:
+        ids, types, coords, parent_ids, lines = fast
+        index = {point_id: i for i, point_id in enumerate(ids.tolist())}
+        parents = [index[p] if p >= 0 else -1 for p in parent_ids.tolist()]
+        return _ordered_points(source, ids.tolist(), types.tolist(), coords, parents, lines.tolist())
+    return _parse_swc_lines(text, source)
+
+
+def _parse_swc_fast(text: str) -> tuple[NDArray, NDArray, NDArray, NDArray, NDArray] | None:
+    """All points as arrays, or None if any line is not plainly valid (then the slow path reports)."""
+    rows: list[str] = []
+    numbers: list[int] = []
+    for number, raw in enumerate(text.splitlines(), start=1):
+        content = raw.split("#", 1)[0] if "#" in raw else raw
+        if content.strip():
+            rows.append(content)
+            numbers.append(number)
+    if not rows:
+        return None
+    tokens: list[str] = []
+    for row in rows:
+        fields = row.split()
+        if len(fields) != 7:
+            return None
+        tokens += fields
+    try:
+        table = np.array(tokens, dtype=float).reshape(-1, 7)
+    except ValueError:
+        return None
+    if not np.all(np.isfinite(table)):
+        return None
+    integral = table[:, [0, 1, 6]]
+    if np.any(integral != np.round(integral)):
+        return None
+    ids = table[:, 0].astype(np.int64)
+    types = table[:, 1].astype(np.int64)
+    parents = table[:, 6].astype(np.int64)
+    radii = table[:, 5]
+    if (np.any(ids < 0) or np.any(parents < -1) or np.any(parents == ids) or np.any(radii < 0)
+            or np.any((radii <= 0) & (types != 1)) or np.count_nonzero(parents == -1) != 1):
+        return None
+    ordered = np.sort(ids)
+    if np.any(ordered[1:] == ordered[:-1]):
+        return None
+    known = parents[parents >= 0]
+    if not np.all(ordered[np.minimum(np.searchsorted(ordered, known), ordered.size - 1)] == known):
+        return None
+    return ids, types, table[:, 2:6], parents, np.asarray(numbers, dtype=np.int64)
+
+
+def _ordered_points(source: str, ids: list[int], types: list[int], coords, parents: list[int],
+                    lines: list[int]) -> SwcPoints:
+    """Reorder so that parents come first (checking roots and cycles) and convert to SI."""
+    order = _topological_order(parents, lines, [str(i) for i in ids], source, "point")
+    position_in_order = np.empty(len(order), dtype=np.int64)
+    position_in_order[order] = np.arange(len(order))
+    order_arr = np.asarray(order, dtype=np.int64)
+    raw_parents = np.asarray(parents, dtype=np.int64)[order_arr]
+    new_parents = np.where(raw_parents >= 0, position_in_order[np.maximum(raw_parents, 0)], -1)
+    c = np.asarray(coords, dtype=float)[order_arr] * MICROMETRE
+    return SwcPoints(
+        source=source,
+        ids=np.asarray(ids, dtype=np.int64)[order_arr],
+        types=np.asarray(types, dtype=np.int64)[order_arr],
+        positions=c[:, :3].copy(),
+        radii=c[:, 3].copy(),
+        parents=new_parents,
+        lines=np.asarray(lines, dtype=np.int64)[order_arr],
+    )
+
+
+def _parse_swc_lines(text: str, source: str) -> SwcPoints:
+    """Line-by-line SWC parser that names the line of the first problem."""
     ids: list[int] = []
     types: list[int] = []
     coords: list[tuple[float, float, float, float]] = []
@@ -268,24 +346,7 @@ def parse_swc(text: str, source: str = "<swc>") -> SwcPoints:
         else:
             raise FileFormatError(f"{source}:{lines[i]}: parent {p} of point {ids[i]} is not defined "
                                   "anywhere in the file")
-    order = _topological_order(parents, lines, [str(i) for i in ids], source, "point")
-    position_in_order = np.empty(len(order), dtype=np.int64)
-    position_in_order[order] = np.arange(len(order))
-    order_arr = np.asarray(order, dtype=np.int64)
-    raw_parents = np.asarray(parents, dtype=np.int64)[order_arr]
-    new_parents = np.where(raw_parents >= 0, position_in_order[np.maximum(raw_parents, 0)], -1)
-    c = np.asarray(coords, dtype=float)[order_arr] * MICROMETRE
-    soma_radius = c[:, 3]
-    types_arr = np.asarray(types, dtype=np.int64)[order_arr]
-    return SwcPoints(
-        source=source,
-        ids=np.asarray(ids, dtype=np.int64)[order_arr],
-        types=types_arr,
-        positions=c[:, :3].copy(),
-        radii=soma_radius.copy(),
-        parents=new_parents,
-        lines=np.asarray(lines, dtype=np.int64)[order_arr],
-    )
+    return _ordered_points(source, ids, types, coords, parents, lines)
 
 
 def _is_float(token: str) -> bool:

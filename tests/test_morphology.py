@@ -174,3 +174,16 @@ def test_format_is_sniffed_when_the_extension_is_unknown(tmp_path):
     tree.write_text(GOOD_TREE)
     assert type(read_morphology(swc)).__name__ == "SwcPoints"
     assert type(read_morphology(tree)).__name__ == "SectionList"
+
+
+def test_vectorised_and_line_by_line_parsers_agree():
+    """The fast path for well-formed files gives exactly what the line-by-line parser gives."""
+    from pathlib import Path
+
+    from cabletheory.morphology import _parse_swc_lines
+
+    path = Path(__file__).resolve().parent.parent / "cabletheory" / "data" / "morphologies"
+    text = (path / "lumenia_pv7_interneuron.swc").read_text()
+    fast, slow = parse_swc(text, "x"), _parse_swc_lines(text, "x")
+    for name in ("ids", "types", "positions", "radii", "parents", "lines"):
+        np.testing.assert_array_equal(getattr(fast, name), getattr(slow, name))
