@@ -32,7 +32,7 @@ sympy is imported inside the functions, never at module import.
 from __future__ import annotations
 
 import functools
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -189,9 +189,9 @@ class Derivation:
         if part != "all" and part not in PARTS:
             raise InputError(f"part: {part!r} is not one of {', '.join((*PARTS, 'all'))}")
         if self.shown_as is not None:
-            out = self.shown_as.parts(part)
-            return [*out[:3], ("Rall's ρ = G_D/G_S gives ρ∞ = G∞/G_S as", self.soma_relation), *out[3:]]
-        X, X0, T, s, a = (_symbol(n) for n in ("X", "X0", "T", "s", "alpha"))
+            shown = self.shown_as.parts(part)
+            return [*shown[:3], ("Rall's ρ = G_D/G_S gives ρ∞ = G∞/G_S as", self.soma_relation), *shown[3:]]
+        X, s, a = (_symbol(n) for n in ("X", "s", "alpha"))
         V, U, phi = sp.Function("V"), sp.Function("V̂"), sp.Function("phi")
         out: list[tuple[str, Any]] = [
             ("cable equation", self.equation),
@@ -220,7 +220,6 @@ class Derivation:
                         sp.Eq(sp.Symbol("g_n"), self.impulse_coefficient)))
         if part in ("laplace", "all"):
             out.append(("Laplace domain, unit step at the origin", sp.Eq(U(X, s), self.laplace)))
-        del T, X0
         return out
 
     def text(self, part: str = "all", *, unicode: bool = True) -> str:
@@ -617,8 +616,9 @@ def _rho_form(base: Derivation) -> Derivation:
 
     X, a, rho, rho_inf = (_symbol(n) for n in ("X", "alpha", "rho", "rho_inf"))
     r_in = _derive("current", base.end, None).steady_state.subs(X, 0)
-    fields = {k: (None if getattr(base, k) is None else _tidy(getattr(base, k).subs(rho_inf, rho * r_in)))
-              for k in _SYMBOLIC_FIELDS}
+    fields: dict[str, Any] = {
+        k: (None if getattr(base, k) is None else _tidy(getattr(base, k).subs(rho_inf, rho * r_in)))
+        for k in _SYMBOLIC_FIELDS}
     fields["eigenvalue_equation"] = _clean_equation(fields["eigenvalue_equation"], a)
     assumptions = [*base.assumptions[:-1], "ρ = G_D/G_S, G_D the steady input conductance of the cylinder"]
     return dataclasses.replace(
@@ -698,8 +698,3 @@ def _zero_mode(P: _Problem, phi: Any, X: Any, L: Any, a: Any) -> Any:
     mode = sp.expand(general.subs(dict(zip(consts, null[0], strict=True))))
     return _tidy(mode / mode.subs(X, 0))
 
-
-def derivations(cases: Iterable[tuple[str, str]] | None = None) -> list[Derivation]:
-    """Derive several (origin, end) cases (all nine by default; a soma uses ρ)."""
-    chosen = cases if cases is not None else [(o, e) for o in ORIGINS for e in ENDS]
-    return [derive(o, e) for o, e in chosen]
