@@ -862,10 +862,10 @@ def analyse_tree(tree: Tree, membrane_resistivity: float, axial_resistivity: flo
             name = labels[first[s]] if first[s] == last[s] else f"{labels[first[s]]}–{labels[last[s]]}"
             violations.append(Violation("section_diameter", name, float(change[s]), tol.branch_ratio,
                                         int(t.lines[first[s]])))
-        worst = violations[-bad_sec.size]
+        worst_section = violations[-bad_sec.size]
         reasons.append(f"diameter changes: d^3/2 varies by more than {100 * tol.branch_ratio:g} % along "
-                       f"{bad_sec.size} of {n_sec} unbranched sections (worst: section {worst.id}, "
-                       f"{100 * worst.value:.3g} %)")
+                       f"{bad_sec.size} of {n_sec} unbranched sections (worst: section {worst_section.id}, "
+                       f"{100 * worst_section.value:.3g} %)")
     spread = float(tip_x.max() - tip_x.min())
     if spread > tol.tip_spread:
         mid = 0.5 * (float(tip_x.max()) + float(tip_x.min()))
