@@ -194,3 +194,23 @@ def test_nothing_is_written_on_bad_input(capsys, tmp_path):
     status, _, _ = run(capsys, ["tree", str(bad), *MEMBRANE, "--plot", str(target)])
     assert status == 2
     assert not target.exists()
+
+
+def test_without_soma_the_output_says_so(capsys, tmp_path):
+    """No soma: input at the root point, soma membrane excluded, and both text and JSON say so.
+
+    A single sealed cylinder, the reference sheet's §1 demo cable (d = 2 µm, ℓ = 500 µm,
+    Rm 20 kΩ·cm², Ri 200 Ω·cm): R_in = R∞ coth L = 739.3466931 MΩ [COMP] (Rall 1959).
+    """
+    path = tmp_path / "stick.swc"
+    path.write_text("1 3 0 0 0 1 -1\n2 3 250 0 0 1 1\n3 3 500 0 0 1 2\n")
+    status, out, _ = run(capsys, ["tree", str(path), *MEMBRANE])
+    assert status == 0
+    assert "not included (the file has no soma)" in out
+    assert "input at the root point 1" in out
+    _, out, _ = run(capsys, ["tree", str(path), *MEMBRANE, "--json"])
+    data = json.loads(out)
+    assert data["soma"] is None
+    assert data["input_resistance_includes_soma"] is False
+    assert data["conductance_ratio"] is None
+    assert data["input_resistance"]["value"] == pytest.approx(739.3466931e6, rel=1e-9)
