@@ -1,0 +1,303 @@
+r"""High-precision (mpmath) evaluation of the transient solutions of :mod:`cabletheory.transient`.
+
+The same closed forms, image sums and eigen-series are evaluated point by point with
+``mpmath`` at a chosen number of decimal digits (``mp.workdps``): eigenvalues are re-solved
+with ``mpmath.findroot`` in a bracket around the float root, erfc is mpmath's, and the alpha
+convolution is differentiated with ``mpmath.diff`` at raised precision. Truncation counts come
+from the same rigorous tail bounds as the float path. It is slow (a few ms per point) and meant
+for checks, the benchmark and ``charge(..., precision=digits)``.
+
+All quantities are dimensionless: X = x/λ, T = t/τm, L = ℓ/λ, voltage in units of
+:math:`IR_\infty` (current) or of the clamp step.
+
+References
+----------
+Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444; Rall W (1969) Biophys. J. 9:1483.
+"""
+
+from __future__ import annotations
+
+import math
+
+import mpmath as mp
+import numpy as np
+
+from . import eigen
+from .errors import ConvergenceError
+
+__all__ = [
+    "clamp_grid",
+    "clamp_value",
+    "current_grid",
+    "current_value",
+    "eigenvalues",
+    "point_source_alpha",
+    "point_source_step",
+    "semi_infinite_clamp",
+]
+
+MAX_PRECISE_MODES = 20_000
+
+
+def point_source_step(distance, T):
+    r"""mpmath :math:`\tfrac14[e^{-d}\mathrm{erfc}(d/2\sqrt T - \sqrt T) - e^{d}\mathrm{erfc}(d/2\sqrt T + \sqrt T)]`.
+
+    Hodgkin & Rushton (1946); 0 for T ≤ 0.
+    """
+    d, T = mp.mpf(abs(distance)), mp.mpf(T)
+    if T <= 0:
+        return mp.mpf(0)
+    root = mp.sqrt(T)
+    u = d / (2 * root)
+    return (mp.exp(-d) * mp.erfc(u - root) - mp.exp(d) * mp.erfc(u + root)) / 4
+
+
+def semi_infinite_clamp(distance, T):
+    r"""mpmath clamp response of a semi-infinite cable; 0 for T ≤ 0.
+
+    .. math:: \tfrac12[e^{-d}\mathrm{erfc}(d/2\sqrt T - \sqrt T) + e^{d}\mathrm{erfc}(d/2\sqrt T + \sqrt T)]
+    """
+    d, T = mp.mpf(abs(distance)), mp.mpf(T)
+    if T <= 0:
+        return mp.mpf(0)
+    root = mp.sqrt(T)
+    u = d / (2 * root)
+    return (mp.exp(-d) * mp.erfc(u - root) + mp.exp(d) * mp.erfc(u + root)) / 2
+
+
+def point_source_alpha(distance, T, time_to_peak):
+    r"""mpmath alpha-current response of an infinite cable, :math:`V/(I_{peak}R_\infty)`.
+
+    .. math:: \frac{e}{2a}e^{-T}\frac{\partial}{\partial b}\Phi(b),\quad
+              \Phi = \frac{e^{bT}}{2\sqrt b}\left[e^{-d\sqrt b}\mathrm{erfc}(u - \sqrt{bT})
+              - e^{d\sqrt b}\mathrm{erfc}(u + \sqrt{bT})\right],\ b = 1 - 1/a
+
+    (derivative by ``mpmath.diff`` with 30 guard digits).
+    """
+    d, T, a = mp.mpf(abs(distance)), mp.mpf(T), mp.mpf(time_to_peak)
+    if T <= 0:
+        return mp.mpf(0)
+    root = mp.sqrt(T)
+    u = d / (2 * root)
+
+    def phi(b):
+        r = mp.sqrt(b)
+        return mp.exp(b * T) / (2 * r) * (mp.exp(-d * r) * mp.erfc(u - r * root)
+                                          - mp.exp(d * r) * mp.erfc(u + r * root))
+
+    b0 = 1 - 1 / a
+    with mp.extradps(30):
+        derivative = mp.diff(phi, b0)
+        if isinstance(derivative, mp.mpc):
+            derivative = derivative.real
+        return mp.e / (2 * a) * mp.exp(-T) * derivative
+
+
+def _weights(B):
+    B = mp.mpf(B) if not math.isinf(B) else mp.inf
+    return (mp.mpf(1), B) if B <= 1 else (1 / B, mp.mpf(1))
+
+
+def eigenvalues(L, B, count, origin="sealed", soma_ratio=0.0):
+    """The first ``count`` eigenvalues in mpmath, refined from the verified float roots."""
+    floats = eigen._eigenvalues(float(L), float(B), count, origin, float(soma_ratio))
+    L = mp.mpf(L)
+    y = mp.mpf(soma_ratio)
+    w_s, w_k = _weights(B)
+
+    def f(a):
+        if origin == "sealed":
+            return (w_k - w_s * y * a * a) * mp.cos(a * L) - a * (w_s + y * w_k) * mp.sin(a * L)
+        return w_s * mp.cos(a * L) + w_k * mp.sin(a * L) / a
+
+    out = []
+    for a in floats:
+        if a == 0.0:
+            out.append(mp.mpf(0))
+            continue
+        delta = 1e-9 * max(1.0, a)
+        lo, hi = mp.mpf(a - delta), mp.mpf(a + delta)
+        if mp.sign(f(lo)) == mp.sign(f(hi)):
+            raise ConvergenceError(f"no sign change around the float root {a!r}")
+        out.append(mp.findroot(f, (lo, hi), solver="anderson"))
+    return out
+
+
+def _steady(X, X0, L, B, y):
+    near, far = min(X, X0), max(X, X0)
+    w_s, w_k = _weights(B)
+    if mp.isinf(L):
+        return (mp.cosh(near) + y * mp.sinh(near)) * mp.exp(-far) / (1 + y)
+    psi = w_s * mp.cosh(L - far) + w_k * mp.sinh(L - far)
+    wr = y * (w_s * mp.cosh(L) + w_k * mp.sinh(L)) + w_s * mp.sinh(L) + w_k * mp.cosh(L)
+    return (mp.cosh(near) + y * mp.sinh(near)) * psi / wr
+
+
+def _alpha_mode(mu, T, a):
+    """∫_0^T (s/a) e^{1-s/a} e^{-μ(T-s)} ds in mpmath."""
+    c = 1 / a
+    k = mu - c
+    if abs(k * T) < mp.mpf(10) ** (-mp.mp.dps // 3):
+        return mp.e / a * T * T * mp.exp(-c * T) * (mp.mpf(1) / 2 - k * T / 6)
+    z = k * T
+    return mp.e / a * T * T * (mp.exp(-c * T) * (z - 1) + mp.exp(-mu * T)) / (z * z)
+
+
+def _shape_value(kind, T, D, a):
+    if T <= 0:
+        return mp.mpf(0)
+    if kind == "step":
+        return mp.mpf(1)
+    if kind == "pulse":
+        return mp.mpf(1) if T <= D else mp.mpf(0)
+    return T / a * mp.exp(1 - T / a)
+
+
+def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=None):
+    """One value of :func:`cabletheory.transient.current_response` in mpmath (current mp.dps)."""
+    X, X0, T = mp.mpf(X), mp.mpf(X0), mp.mpf(T)
+    D, a = mp.mpf(D), mp.mpf(a) if a else mp.mpf(0)
+    if T <= 0:
+        return mp.mpf(0), 0.0
+
+    def kern(d, t):
+        if kind == "alpha":
+            return point_source_alpha(d, t, a)
+        v = point_source_step(d, t)
+        return v - point_source_step(d, t - D) if kind == "pulse" else v
+
+    if infinite:
+        return kern(X - X0, T), 0.0
+    if math.isinf(L):
+        return kern(X - X0, T) + kern(X + X0, T), 0.0
+    Lm = mp.mpf(L)
+    # images for sealed/killed ends when few reflections suffice
+    if y == 0 and (B == 0 or math.isinf(B)):
+        sign = 1 if B == 0 else -1
+        from .transient import _image_tail
+
+        tf = float(T)
+        K = 1
+        factor = 2 if kind == "pulse" else 1
+        while K <= 12 and factor * float(_image_tail(np.float64(K), np.float64(tf), float(L))) > tol:
+            K += 1
+        if K <= 12:
+            total = mp.mpf(0)
+            for k in range(-K, K + 1):
+                s = sign ** abs(k)
+                total += s * (kern(X - X0 - 2 * k * Lm, T) + kern(X + X0 - 2 * k * Lm, T))
+            return total, float(_image_tail(np.float64(K), np.float64(tf), float(L)))
+    from .transient import _current_bound, _Shape
+
+    bound = _current_bound(_Shape(kind, float(D), float(a)), float(L))
+    tf = np.array([float(T)])
+    n = 1
+    while float(bound(n, tf)[0]) > tol:
+        n *= 2
+        if n > MAX_PRECISE_MODES:
+            raise ConvergenceError(f"precise eigen-series needs more than {MAX_PRECISE_MODES} modes at T = {T}")
+    key = (float(L), float(B), float(y), n)
+    if _cache is not None and key in _cache:
+        alphas = _cache[key]
+    else:
+        alphas = eigenvalues(L, B, n, "sealed", y)
+        if _cache is not None:
+            _cache[key] = alphas
+    ym = mp.mpf(y)
+    total = mp.mpf(0)
+    f = _shape_value(kind, T, D, a)
+    g = _steady(X, X0, Lm, B, ym)
+    for al in alphas:
+        mu = 1 + al * al
+        if al == 0:
+            norm = Lm + ym
+        else:
+            norm = Lm / 2 * (1 + (ym * al) ** 2) + (1 - (ym * al) ** 2) * mp.sin(2 * al * Lm) / (4 * al) \
+                + ym * mp.cos(al * Lm) ** 2
+        shape_x = mp.cos(al * X) - ym * al * mp.sin(al * X)
+        shape_x0 = mp.cos(al * X0) - ym * al * mp.sin(al * X0)
+        r = shape_x * shape_x0 / norm
+        if kind == "step":
+            total += r * mp.exp(-mu * T) / mu
+        elif kind == "pulse":
+            # before the end of the pulse a step; after it the difference of two steps (no steady state)
+            total += r * (mp.exp(-mu * T) if T <= D else mp.exp(-mu * T) - mp.exp(-mu * (T - D))) / mu
+        else:
+            total += r * (f / mu - _alpha_mode(mu, T, a))
+    return f * g - total, float(bound(n, tf)[0])
+
+
+def clamp_value(X, T, L, B, tol, infinite=False, source=0.0, _cache=None):
+    """One value of :func:`cabletheory.transient.clamp_response` in mpmath (current mp.dps)."""
+    X, T = mp.mpf(X), mp.mpf(T)
+    if T <= 0:
+        return mp.mpf(0), 0.0
+    if infinite:
+        return semi_infinite_clamp(X - mp.mpf(source), T), 0.0
+    if math.isinf(L):
+        return semi_infinite_clamp(X, T), 0.0
+    Lm = mp.mpf(L)
+    from .transient import _clamp_image_tail
+
+    if B == 0 or math.isinf(B):
+        sigma = 1 if B == 0 else -1
+        K = 1
+        while K <= 12 and float(_clamp_image_tail(np.float64(K), np.float64(float(T)), float(L))) > tol:
+            K += 1
+        if K <= 12:
+            total = mp.mpf(0)
+            for k in range(K):
+                total += (-sigma) ** k * (semi_infinite_clamp(X + 2 * k * Lm, T)
+                                          + sigma * semi_infinite_clamp(2 * Lm - X + 2 * k * Lm, T))
+            return total, float(_clamp_image_tail(np.float64(K), np.float64(float(T)), float(L)))
+    tf = np.array([float(T)])
+    n = 1
+    while float(eigen.tail_bound(n, tf, float(L), kind="clamp", origin="clamped")[0]) > tol:
+        n *= 2
+        if n > MAX_PRECISE_MODES:
+            raise ConvergenceError(f"precise eigen-series needs more than {MAX_PRECISE_MODES} modes at T = {T}")
+    key = ("clamp", float(L), float(B), n)
+    if _cache is not None and key in _cache:
+        alphas = _cache[key]
+    else:
+        alphas = eigenvalues(L, B, n, "clamped")
+        if _cache is not None:
+            _cache[key] = alphas
+    w_s, w_k = _weights(B)
+    steady = (w_s * mp.cosh(Lm - X) + w_k * mp.sinh(Lm - X)) / (w_s * mp.cosh(Lm) + w_k * mp.sinh(Lm))
+    total = mp.mpf(0)
+    for al in alphas:
+        mu = 1 + al * al
+        norm = Lm / 2 - mp.sin(2 * al * Lm) / (4 * al)
+        total += al * mp.sin(al * X) / (mu * norm) * mp.exp(-mu * T)
+    return steady - total, float(eigen.tail_bound(n, tf, float(L), kind="clamp", origin="clamped")[0])
+
+
+def current_grid(X, X0, T, L, B, y, kind, D, a, tol, digits, infinite=False):
+    """:func:`current_value` on the grid T × X at ``digits`` decimal digits; float arrays out."""
+    out = np.zeros((len(T), len(X)))
+    bound = np.zeros_like(out)
+    cache: dict = {}
+    with mp.workdps(int(digits)):
+        for i, t in enumerate(T):
+            for j, x in enumerate(X):
+                v, b = current_value(float(x), float(X0), float(t), float(L), float(B), float(y), kind, D, a, tol,
+                                     infinite=infinite, _cache=cache)
+                out[i, j] = float(v)
+                bound[i, j] = b
+    return out, bound, f"mpmath at {int(digits)} digits (images or eigen-series per point)"
+
+
+def clamp_grid(X, T, L, B, tol, digits, infinite=False, source=0.0):
+    """:func:`clamp_value` on the grid T × X at ``digits`` decimal digits; float arrays out."""
+    out = np.zeros((len(T), len(X)))
+    bound = np.zeros_like(out)
+    cache: dict = {}
+    with mp.workdps(int(digits)):
+        for i, t in enumerate(T):
+            for j, x in enumerate(X):
+                v, b = clamp_value(float(x), float(t), float(L), float(B), tol, infinite=infinite, source=source,
+                                   _cache=cache)
+                out[i, j] = float(v)
+                bound[i, j] = b
+    return out, bound, f"mpmath at {int(digits)} digits (images or eigen-series per point)"
