@@ -135,10 +135,10 @@ def test_semi_infinite_cable_is_shown_over_five_length_constants():
     report = demo_report(length="inf", frequency="")
     length_row = next(r for r in report.inputs if r.key == "length")
     assert row_text(length_row) == "semi-infinite"
-    x = np.asarray(report.plot.series[0].x)
+    x = np.asarray(report.plots[0].series[0].x)
     assert x[-1] == pytest.approx(5.0)
-    assert np.asarray(report.plot.series[0].y) == pytest.approx(np.exp(-x), rel=1e-12)  # e^-X
-    assert len(report.plot.series) == 1  # no frequency, no AC curve
+    assert np.asarray(report.plots[0].series[0].y) == pytest.approx(np.exp(-x), rel=1e-12)  # e^-X
+    assert len(report.plots[0].series) == 1  # no frequency, no AC curve
     assert not any(r.key == "segments_needed" for r in report.results)
 
 
@@ -293,3 +293,95 @@ def test_key_labels():
     assert key_label("ctrl+s") == "^S"
     assert key_label("f1") == "F1"
     assert key_label("escape,q") == "escape"
+
+
+# -- charging report: the exact transients, checked against external values ------------------------
+LAMBDA = "707.1067811865476 µm"  # the demo cable's λ, so that L = 1
+
+
+def charging(model: str = "cylinder", stimulus: str = "step", **texts: str) -> Report:
+    from cabletheory.tui.format import charging_report
+    from cabletheory.tui.forms import read_charging_form
+
+    setup, errors = read_charging_form(texts, model, stimulus)
+    assert errors == {}
+    return charging_report(setup)
+
+
+def test_charging_sealed_cylinder_matches_rall_series():
+    """checks.md §2.5 [COMP] (Rall 1969 series): sealed cylinder, L = 1, current step at X = 0,
+    V(0, T = 1)/V(0, ∞) = 0.7198225011; V(0, ∞) = I R∞ coth L; τ0/τ1 = 1 + π² (§2.1)."""
+    report = charging(length=LAMBDA, span="20 ms", watch="0 µm")
+    table = {c.key: np.asarray(c.values) for c in report.tables[0].columns}
+    final = result(report, next(r.key for r in report.results if r.key.startswith("final_voltage")))
+    r_inf = 450.1581581e6  # checks.md §1 [COMP]
+    assert final == pytest.approx(100e-12 * r_inf / math.tanh(1.0), rel=1e-9)
+    assert table["time"][-1] == pytest.approx(0.02)
+    assert table["voltage_at_0"][-1] / final == pytest.approx(0.7198225011, rel=1e-8)
+    assert result(report, "time_constant_0") / result(report, "time_constant_1") == pytest.approx(
+        10.86960440, rel=1e-8)
+    assert result(report, "error_bound") < 1e-9
+    assert {p.x_label for p in report.plots} == {"t (ms)", "X = x/λ"}
+
+
+def test_charging_infinite_cable_is_erf_sqrt_t():
+    """checks.md §2.4 [COMP] (Hodgkin & Rushton 1946): V(0, T = 1)/V(0, ∞) = erf(1) = 0.8427007929."""
+    report = charging("infinite", span="20 ms", watch="0 µm")
+    table = {c.key: np.asarray(c.values) for c in report.tables[0].columns}
+    final = 100e-12 * 450.1581581e6 / 2  # doubly infinite cable injected mid-way: R∞/2 [CP]
+    assert table["voltage_at_0"][-1] / final == pytest.approx(0.8427007929, rel=1e-8)
+    assert row_text(next(r for r in report.results if r.key == "time_constants")).startswith("none")
+    x = np.asarray(report.plots[1].series[0].x)
+    assert x[0] == pytest.approx(-5.0)
+    assert x[-1] == pytest.approx(5.0)
+
+
+def test_charging_ball_and_stick_time_constants():
+    """checks.md §2.3 [COMP]: ball and stick with L = 1, ρ = 5: τ0/τ1 = 8.537785309."""
+    from cabletheory.cable import Cylinder
+    from cabletheory.transient import BallAndStick
+
+    cylinder = Cylinder(2.0, 2.0, 0.01, 2e-6, 707.1067811865476e-6)
+    soma = BallAndStick.with_conductance_ratio(cylinder, 5.0).soma_diameter
+    report = charging("ball", length=LAMBDA, soma=f"{soma!r} m")
+    assert result(report, "conductance_ratio") == pytest.approx(5.0, rel=1e-9)
+    assert result(report, "time_constant_0") / result(report, "time_constant_1") == pytest.approx(
+        8.537785309, rel=1e-8)
+
+
+@pytest.mark.parametrize(("model", "stimulus", "texts", "field"), [
+    ("cylinder", "step", {"watch": "0, 900 µm"}, "watch"),
+    ("cylinder", "step", {"site": "600 µm"}, "site"),
+    ("cylinder", "step", {"end": "leaky"}, "end"),
+    ("ball", "step", {"length": "inf"}, "length"),
+    ("cylinder", "pulse", {"duration": "2 mV"}, "duration"),
+    ("cylinder", "clamp", {"clamp": "10 pA"}, "clamp"),
+])
+def test_charging_form_flags_the_wrong_field(model, stimulus, texts, field):
+    from cabletheory.tui.forms import read_charging_form
+
+    setup, errors = read_charging_form(texts, model, stimulus)
+    assert setup is None
+    assert set(errors) == {field}
+
+
+def test_charging_fields_follow_the_choices():
+    from cabletheory.tui.forms import charging_fields_used
+
+    assert {"soma"} & charging_fields_used("ball", "step")
+    assert not {"soma", "clamp", "duration"} & charging_fields_used("cylinder", "step")
+    assert {"clamp"} <= charging_fields_used("cylinder", "clamp")
+    assert "site" not in charging_fields_used("cylinder", "clamp")  # a clamp sits at the origin
+    assert "site" in charging_fields_used("infinite", "clamp")
+    assert not {"length", "end"} & charging_fields_used("infinite", "alpha")
+
+
+def test_charging_export_has_both_plots(tmp_path):
+    report = charging(stimulus="pulse")
+    assert len(report.plots) == 2
+    svg = export.export(report, tmp_path / "charging.svg").read_text()
+    assert svg.count("V(t) at the chosen positions") == 1
+    assert "V(X) at the chosen times" in svg
+    data = json.loads(export.to_json(report))
+    assert data["tables"]["time_course"]["time"]["unit"] == "s"
+    assert data["results"]["error_bound"]["unit"] == "V"

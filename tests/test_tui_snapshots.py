@@ -50,3 +50,18 @@ def test_cylinder_view_leaky_end(snap_compare):
 def test_help_panel(snap_compare):
     """F1 lists the keys of every view and of this one."""
     assert snap_compare(CableApp(), terminal_size=SIZE, press=["f1"], run_before=steady)
+
+
+def test_charging_view(snap_compare):
+    """F3: a current step into the sealed demo dendrite: time constants, error bound, V(t) and V(X)."""
+    assert snap_compare(CableApp(view="charging"), terminal_size=SIZE, run_before=steady)
+
+
+def test_charging_view_ball_and_stick_alpha(snap_compare):
+    """An alpha current into a ball and stick: the soma field appears, ρ is listed."""
+
+    async def choose(pilot) -> None:
+        await pilot.press("ctrl+b", "ctrl+n", "ctrl+n")
+        await steady(pilot)
+
+    assert snap_compare(CableApp(view="charging"), terminal_size=SIZE, run_before=choose)

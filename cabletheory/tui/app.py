@@ -73,6 +73,7 @@ class CableApp(App[None]):
     def on_mount(self) -> None:
         self.query_one(ViewBar).show(self.start_view)
         self.set_status("")
+        self._focus_first(self.start_view)
 
     # -- views ------------------------------------------------------------------------------
     @property

@@ -1,16 +1,160 @@
-"""The charging view (being built)."""
+"""The charging view: exact voltage transients after a current or voltage-clamp stimulus."""
 
 from __future__ import annotations
 
-from textual.containers import Vertical
-from textual.widgets import Static
+from typing import ClassVar
+
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.widgets import Input, Label, RadioButton, RadioSet, Static
+from textual.worker import get_current_worker
+
+from ..errors import CableTheoryError
+from .format import charging_report
+from .forms import (
+    CHARGING_FIELDS,
+    MODEL_CHOICES,
+    STIMULUS_CHOICES,
+    ChargingSetup,
+    charging_fields_used,
+    read_charging_form,
+)
+from .report import Report
+from .widgets import CurvePlot, QuantityField, QuantityList
+
+PREFIX = "ch-"
+_GROUPS = (("cable", ("Rm", "Ri", "Cm", "diameter", "length", "end", "soma")),
+           ("stimulus", ("current", "clamp", "duration", "time_to_peak", "site")),
+           ("curves", ("span", "watch", "moments")))
+_SPECS = {spec.name: spec for spec in CHARGING_FIELDS}
 
 
 class ChargingView(Vertical):
-    report = None
+    """Model and stimulus on the left; time constants, error bound, V(t) and V(X) on the right.
 
-    def __init__(self, *, id: str, **kwargs) -> None:
-        super().__init__(id=id)
+    The solver runs in a worker thread; the result panel says "computing" meanwhile.
+    """
 
-    def compose(self):
-        yield Static("coming soon")
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("ctrl+b", "next_model", "next model"),
+        Binding("ctrl+n", "next_stimulus", "next stimulus"),
+        Binding("ctrl+r", "run", "compute again now"),
+    ]
+
+    report: Report | None = None
+
+    def compose(self) -> ComposeResult:
+        with Horizontal(classes="columns"):
+            with VerticalScroll(classes="form", id="charging-form", can_focus=False):
+                yield Static("exact transients", classes="form-title")
+                yield Label("model  (ctrl+b cycles)", classes="group-label")
+                with RadioSet(id="ch-model", compact=True):
+                    for key, label in MODEL_CHOICES.items():
+                        yield RadioButton(label, value=key == "cylinder", id=f"model-{key}", compact=True)
+                for name in _GROUPS[0][1]:
+                    yield QuantityField(_SPECS[name], prefix=PREFIX)
+                yield Label("stimulus  (ctrl+n cycles)", classes="group-label")
+                with RadioSet(id="ch-stimulus", compact=True):
+                    for key, label in STIMULUS_CHOICES.items():
+                        yield RadioButton(label, value=key == "step", id=f"stimulus-{key}", compact=True)
+                for name in _GROUPS[1][1]:
+                    yield QuantityField(_SPECS[name], prefix=PREFIX)
+                yield Label("curves", classes="group-label")
+                for name in _GROUPS[2][1]:
+                    yield QuantityField(_SPECS[name], prefix=PREFIX)
+                yield Static("lists: '0, 250, 500 µm'; ranges: '0:500:100 µm'\nlength 'inf': semi-infinite cylinder\n"
+                             "infinite cable: positions on both sides of the input", classes="hint")
+            with Vertical(classes="output"):
+                yield QuantityList(id="charging-results", classes="results")
+                with Horizontal(classes="plots"):
+                    yield CurvePlot(id="charging-time-plot")
+                    yield CurvePlot(id="charging-space-plot")
+
+    def on_mount(self) -> None:
+        self.refresh_results()
+
+    def _choice(self, radio_id: str, prefix: str, default: str) -> str:
+        pressed = self.query_one(f"#{radio_id}", RadioSet).pressed_button
+        return (pressed.id or "").removeprefix(prefix) if pressed is not None else default
+
+    @property
+    def model_choice(self) -> str:
+        return self._choice("ch-model", "model-", "cylinder")
+
+    @property
+    def stimulus_choice(self) -> str:
+        return self._choice("ch-stimulus", "stimulus-", "step")
+
+    def on_input_changed(self, event: Input.Changed) -> None:
+        event.stop()
+        self.refresh_results()
+
+    def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
+        event.stop()
+        self.refresh_results()
+
+    def _cycle(self, choices: dict[str, str], current: str, prefix: str) -> None:
+        keys = list(choices)
+        following = keys[(keys.index(current) + 1) % len(keys)]
+        self.query_one(f"#{prefix}{following}", RadioButton).value = True
+
+    def action_next_model(self) -> None:
+        self._cycle(MODEL_CHOICES, self.model_choice, "model-")
+
+    def action_next_stimulus(self) -> None:
+        self._cycle(STIMULUS_CHOICES, self.stimulus_choice, "stimulus-")
+
+    def action_run(self) -> None:
+        self.refresh_results()
+
+    def refresh_results(self) -> None:
+        """Check the form at once; hand a valid set-up to the solver worker."""
+        model, stimulus = self.model_choice, self.stimulus_choice
+        used = charging_fields_used(model, stimulus)
+        fields = {f.spec.name: f for f in self.query(QuantityField)}
+        for name, field in fields.items():
+            field.display = name in used
+        setup, errors = read_charging_form({n: f.input.value for n, f in fields.items()}, model, stimulus)
+        for name, field in fields.items():
+            field.flag(errors.get(name))
+        results = self.query_one("#charging-results", QuantityList)
+        if setup is None:
+            self.workers.cancel_group(self, "solve")
+            self.report = None
+            self._busy(False)
+            results.update(f"Results wait for valid inputs ({len(errors)} field"
+                           f"{'s' if len(errors) > 1 else ''} flagged).")
+            for plot in self.query(CurvePlot):
+                plot.spec = None
+            return
+        self._busy(True)
+        self.solve(setup)
+
+    def _busy(self, busy: bool) -> None:
+        results = self.query_one("#charging-results", QuantityList)
+        results.border_subtitle = "computing…" if busy else ""
+        self.query_one(".plots").loading = busy
+
+    @work(exclusive=True, thread=True, group="solve")
+    def solve(self, setup: ChargingSetup) -> None:
+        worker = get_current_worker()
+        try:
+            report: Report | str = charging_report(setup)
+        except CableTheoryError as exc:
+            report = str(exc)
+        if not worker.is_cancelled:
+            self.app.call_from_thread(self._show, report)
+
+    def _show(self, report: Report | str) -> None:
+        self._busy(False)
+        results = self.query_one("#charging-results", QuantityList)
+        if isinstance(report, str):
+            self.report = None
+            results.update(report)
+            return
+        self.report = report
+        results.show(report.results)
+        self.query_one("#charging-time-plot", CurvePlot).spec = report.plots[0]
+        self.query_one("#charging-space-plot", CurvePlot).spec = report.plots[1]

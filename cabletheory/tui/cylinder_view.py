@@ -88,4 +88,4 @@ class CylinderView(Vertical):
             return
         self.report = report
         results.show(report.results)
-        self.query_one(CurvePlot).spec = report.plot
+        self.query_one(CurvePlot).spec = report.plots[0]

@@ -16,7 +16,7 @@ from __future__ import annotations
 import csv
 import io
 import math
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -128,25 +128,29 @@ def _json_cell(value: Any) -> Any:
     return value.item() if isinstance(value, np.generic) else value
 
 
-def plot_bytes(spec: PlotSpec, fmt: str) -> bytes:
-    """The plot as PNG or SVG bytes, drawn by matplotlib with its non-interactive Agg backend."""
-    import matplotlib
+def plot_bytes(specs: Sequence[PlotSpec], fmt: str, caveat: str = "") -> bytes:
+    """The plots (one panel each, stacked) as PNG or SVG bytes, drawn by matplotlib's Agg backend.
 
-    matplotlib.use("Agg", force=True)
+    matplotlib's object interface is used (no pyplot), so nothing global changes.
+    """
     from matplotlib.figure import Figure
 
-    figure = Figure(figsize=(7.0, 4.2), layout="constrained")
-    axes = figure.add_subplot()
-    for series in spec.series:
-        axes.plot(np.asarray(series.x, dtype=float), np.asarray(series.y, dtype=float), label=series.label)
-    if spec.y_log:
-        axes.set_yscale("log")
-    axes.set_title(spec.title)
-    axes.set_xlabel(spec.x_label)
-    axes.set_ylabel(spec.y_label)
-    axes.grid(True, alpha=0.3)
-    if len(spec.series) > 1:
-        axes.legend()
+    figure = Figure(figsize=(7.0, 1.0 + 3.4 * len(specs)), layout="constrained")
+    for index, spec in enumerate(specs, start=1):
+        axes = figure.add_subplot(len(specs), 1, index)
+        for series in spec.series:
+            axes.plot(np.asarray(series.x, dtype=float), np.asarray(series.y, dtype=float), label=series.label,
+                      drawstyle="steps-post" if spec.steps else "default")
+        if spec.y_log:
+            axes.set_yscale("log")
+        axes.set_title(spec.title)
+        axes.set_xlabel(spec.x_label)
+        axes.set_ylabel(spec.y_label)
+        axes.grid(True, alpha=0.3)
+        if len(spec.series) > 1:
+            axes.legend()
+    if caveat:
+        figure.suptitle(caveat, fontsize=7, wrap=True)
     buffer = io.BytesIO()
     metadata = {"Date": None} if fmt == "svg" else {}
     figure.savefig(buffer, format=fmt, metadata=metadata)
@@ -167,7 +171,8 @@ def export(report: Report, path: str | Path, *, protected: Iterable[str | Path] 
         text = {".json": to_json, ".csv": to_csv}.get(suffix, lambda r: to_markdown(r, digits))(report)
         return write_atomically(target, text, protected=protected)
     if suffix in PLOT_FORMATS:
-        if report.plot is None or not report.plot.series:
+        specs = [spec for spec in report.plots if spec.series]
+        if not specs:
             raise InputError(f"export: the {report.view} view has no plot yet; nothing to draw")
-        return write_atomically(target, plot_bytes(report.plot, suffix[1:]), protected=protected)
+        return write_atomically(target, plot_bytes(specs, suffix[1:], report.caveat), protected=protected)
     raise InputError(f"export: {str(path)!r} has no known suffix; use .json, .csv, .md, .png or .svg")

@@ -12,9 +12,11 @@ import numpy as np
 
 from ..cable import CableSummary, Cylinder, summarise
 from ..cli.common import end_description
+from ..units import format_quantity
+from .forms import MODEL_CHOICES, STIMULUS_CHOICES, ChargingSetup
 from .report import Column, PlotSpec, Report, Row, Series, Table
 
-__all__ = ["cable_report", "cable_summary", "profile_positions"]
+__all__ = ["cable_report", "cable_summary", "charging_report", "profile_positions"]
 
 PROFILE_POINTS = 41
 SEMI_INFINITE_SPAN = 5.0  # a semi-infinite cable is shown over 0 ≤ X ≤ 5 (e^-5 < 1 %)
@@ -29,6 +31,11 @@ def profile_positions(cylinder: Cylinder, points: int = PROFILE_POINTS) -> np.nd
 def cable_summary(cylinder: Cylinder, frequency: float | None) -> CableSummary:
     """The core's summary with the profile the view plots."""
     return summarise(cylinder, profile_positions(cylinder), frequency)
+
+
+def distance_text(x: float) -> str:
+    """A distance for labels: '250.0 µm', and '0 µm' rather than '0 m' at the origin."""
+    return "0 µm" if x == 0 else format_quantity(x, "length")
 
 
 def _end_text(cylinder: Cylinder) -> str:
@@ -92,4 +99,105 @@ def cable_report(s: CableSummary) -> Report:
     plot = PlotSpec("Voltage along the cable, input at X = 0", "X = x/λ", "V(X)/V(0)", tuple(series))
     title = "Single cylinder: steady state" + (f" and {s.frequency:g} Hz" if s.frequency is not None else "")
     return Report("cylinder", title, tuple(inputs), tuple(results),
-                  (Table("profile", "Profile (input at the origin)", tuple(columns)),), plot)
+                  (Table("profile", "Profile (input at the origin)", tuple(columns)),), (plot,))
+
+
+# ---------------------------------------------------------------------------------------------
+# charging view (exact transients)
+# ---------------------------------------------------------------------------------------------
+def _stimulus_rows(setup: ChargingSetup) -> list[Row]:
+    s = setup.stimulus
+    rows = [Row("stimulus", "stimulus", STIMULUS_CHOICES[setup.stimulus_choice])]
+    if setup.stimulus_choice == "clamp":
+        rows.append(Row("clamp_amplitude", "clamp step", s.amplitude, "voltage"))
+    elif setup.stimulus_choice == "alpha":
+        rows += [Row("peak_current", "peak current", s.peak, "current"),
+                 Row("time_to_peak", "time to peak", s.time_to_peak, "time")]
+    else:
+        rows.append(Row("current", "current", s.amplitude, "current"))
+        if setup.stimulus_choice == "pulse":
+            rows.append(Row("duration", "pulse length", s.duration, "time"))
+    rows.append(Row("stimulus_position", "stimulus at", s.position, "length"))
+    return rows
+
+
+def _model_rows(setup: ChargingSetup) -> list[Row]:
+    from ..transient import BallAndStick, InfiniteCable
+
+    m = setup.model
+    cylinder = m.cylinder if isinstance(m, BallAndStick) else m
+    rows = [
+        Row("model", "model", MODEL_CHOICES[setup.model_choice]),
+        Row("membrane_resistivity", "Rm", cylinder.membrane_resistivity, "membrane_resistivity"),
+        Row("axial_resistivity", "Ri", cylinder.axial_resistivity, "axial_resistivity"),
+        Row("membrane_capacitance", "Cm", cylinder.membrane_capacitance, "membrane_capacitance"),
+        Row("diameter", "diameter", cylinder.diameter, "length"),
+    ]
+    if not isinstance(m, InfiniteCable):
+        rows += [Row("length", "length", cylinder.length, "length",
+                     shown="semi-infinite" if math.isinf(cylinder.length) else None),
+                 Row("end_conductance", "far end", cylinder.end_conductance, "conductance",
+                     shown=_end_text(cylinder))]
+    if isinstance(m, BallAndStick):
+        rows.append(Row("soma_diameter", "soma diameter", m.soma_diameter, "length"))
+    return rows
+
+
+def charging_report(setup: ChargingSetup, tolerance: float = 1e-10) -> Report:
+    """Run the exact solver twice (V(t) at the watched sites, V(X) at the chosen moments) and
+    arrange the time constants, the error bound and both families of curves."""
+    from ..transient import BallAndStick, InfiniteCable, charge
+
+    m = setup.model
+    over_time = charge(m, setup.stimulus, setup.times, setup.watch, tolerance=tolerance)
+    over_space = charge(m, setup.stimulus, setup.moments, setup.positions, tolerance=tolerance)
+    lam, tau = over_time.length_constant, over_time.membrane_time_constant
+    results = [
+        Row("length_constant", "λ   length constant", lam, "length"),
+        Row("membrane_time_constant", "τm  membrane time constant", tau, "time"),
+    ]
+    cylinder = m.cylinder if isinstance(m, BallAndStick) else m
+    if not isinstance(m, InfiniteCable) and math.isfinite(cylinder.length):
+        results.append(Row("electrotonic_length", "L   electrotonic length", cylinder.length / lam,
+                           "dimensionless"))
+    if isinstance(m, BallAndStick):
+        results.append(Row("conductance_ratio", "ρ   dendrite/soma conductance", m.conductance_ratio,
+                           "dimensionless"))
+    if over_time.time_constants.size:
+        for n, value in enumerate(over_time.time_constants):
+            label = f"τ{n}  {'slowest ' if n == 0 else ''}time constant"
+            results.append(Row(f"time_constant_{n}", label, float(value), "time"))
+    else:
+        results.append(Row("time_constants", "time constants", "none: an unbounded cable has a continuum"))
+    if over_time.steady_state is not None:
+        for x, v in zip(setup.watch, over_time.steady_state, strict=True):
+            results.append(Row(f"final_voltage_{len(results)}", f"final V at {distance_text(x)}",
+                               float(v), "voltage"))
+    bound = max(over_time.error_bound, over_space.error_bound)
+    results += [
+        Row("error_bound", "error bound of every value", bound, "voltage"),
+        Row("method", "method", over_time.method),
+    ]
+    watch_labels = [f"x = {distance_text(x)}" for x in setup.watch]
+    moment_labels = [f"t = {format_quantity(t, 'time')}" for t in setup.moments]
+    t = np.asarray(over_time.times)
+    X = np.asarray(over_space.positions) / lam
+    time_plot = PlotSpec("V(t) at the chosen positions", "t (ms)", "V (mV)", tuple(
+        Series(label, t * 1e3, over_time.voltage[:, j] * 1e3) for j, label in enumerate(watch_labels)))
+    space_plot = PlotSpec("V(X) at the chosen times", "X = x/λ", "V (mV)", tuple(
+        Series(label, X, over_space.voltage[i, :] * 1e3) for i, label in enumerate(moment_labels)))
+    tables = (
+        Table("time_course", "V(t) at the chosen positions", (
+            Column("time", "t", t, "time"),
+            *(Column(f"voltage_at_{j}", f"V at {label[4:]}", over_time.voltage[:, j], "voltage")
+              for j, label in enumerate(watch_labels)))),
+        Table("profile", "V(X) at the chosen times", (
+            Column("position", "x", over_space.positions, "length"),
+            Column("electrotonic_position", "X", X, "dimensionless"),
+            *(Column(f"voltage_at_{i}", f"V at {label[4:]}", over_space.voltage[i, :], "voltage")
+              for i, label in enumerate(moment_labels)))),
+    )
+    notes = (*over_time.notes, f"requested tolerance {tolerance:g} of the reference voltage")
+    title = f"Charging: {STIMULUS_CHOICES[setup.stimulus_choice]} into a {MODEL_CHOICES[setup.model_choice]}"
+    return Report("charging", title, tuple(_model_rows(setup) + _stimulus_rows(setup)), tuple(results),
+                  tables, (time_plot, space_plot), notes)

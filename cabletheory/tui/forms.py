@@ -12,9 +12,11 @@ import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
-from ..cable import Cylinder
+import numpy as np
+
+from ..cable import Cylinder, length_constant
 from ..errors import InputError
-from ..units import parse_quantity, parse_series
+from ..units import format_quantity, parse_quantity, parse_series
 
 __all__ = ["END_CHOICES", "FieldSpec", "FormResult", "read_cylinder_form", "read_form"]
 
@@ -120,3 +122,148 @@ def read_cylinder_form(texts: Mapping[str, str], end: str) -> tuple[Cylinder | N
                         float(v["diameter"]), float(v["length"]), end_conductance)  # type: ignore[arg-type]
     frequency = v["frequency"]
     return cylinder, (None if frequency is None else float(frequency)), errors  # type: ignore[arg-type]
+
+
+def read_end(text: str, label: str = "far end") -> float:
+    """'sealed' -> 0, 'killed' -> inf, else a conductance to rest in S (bare numbers in nS)."""
+    word = text.strip().lower()
+    if word == "sealed":
+        return 0.0
+    if word == "killed":
+        return math.inf
+    try:
+        return parse_quantity(text, "conductance", label, allow_zero=True, allow_inf=True)
+    except InputError as exc:
+        raise InputError(f"{label}: {text.strip()!r} is not 'sealed', 'killed' or a conductance such as "
+                         f"0.5 nS ({str(exc).removeprefix(label + ': ')})") from None
+
+
+# ---------------------------------------------------------------------------------------------
+# the charging (transient) form
+# ---------------------------------------------------------------------------------------------
+MODEL_CHOICES: dict[str, str] = {
+    "cylinder": "cylinder",
+    "ball": "ball and stick",
+    "infinite": "infinite cable",
+}
+STIMULUS_CHOICES: dict[str, str] = {
+    "step": "current step",
+    "pulse": "current pulse",
+    "alpha": "alpha current",
+    "clamp": "voltage-clamp step",
+}
+
+CHARGING_FIELDS: tuple[FieldSpec, ...] = (
+    FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
+    FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
+    FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
+    FieldSpec("diameter", "diameter", "length", "2 µm"),
+    FieldSpec("length", "length", "length", "500 µm", allow_inf=True),
+    FieldSpec("end", "far end", "conductance", "sealed", placeholder="sealed, killed or e.g. 0.5 nS"),
+    FieldSpec("soma", "soma diameter", "length", "20 µm"),
+    FieldSpec("current", "current", "current", "100 pA", allow_negative=True),
+    FieldSpec("clamp", "clamp step", "voltage", "10 mV", allow_negative=True),
+    FieldSpec("duration", "pulse length", "time", "1 ms"),
+    FieldSpec("time_to_peak", "time to peak", "time", "0.5 ms"),
+    FieldSpec("site", "stimulus at", "length", "0 µm", allow_zero=True, allow_negative=True),
+    FieldSpec("span", "V(t) until", "time", "60 ms"),
+    FieldSpec("watch", "V(t) at", "length", "0, 250, 500 µm", series=True, allow_negative=True, max_points=8),
+    FieldSpec("moments", "V(X) at", "time", "1, 5, 20 ms", series=True, max_points=8),
+)
+# fields that only some choices use
+_FIELD_USE = {
+    "length": lambda model, stimulus: model != "infinite",
+    "end": lambda model, stimulus: model != "infinite",
+    "soma": lambda model, stimulus: model == "ball",
+    "current": lambda model, stimulus: stimulus != "clamp",
+    "clamp": lambda model, stimulus: stimulus == "clamp",
+    "duration": lambda model, stimulus: stimulus == "pulse",
+    "time_to_peak": lambda model, stimulus: stimulus == "alpha",
+    "site": lambda model, stimulus: stimulus != "clamp" or model == "infinite",
+}
+TIME_POINTS = 241  # samples of each V(t) curve
+PROFILE_POINTS = 61  # samples of each V(X) curve
+PROFILE_SPAN = 5.0  # V(X) of a semi-infinite or infinite cable is shown over 5 λ
+
+
+def charging_fields_used(model: str, stimulus: str) -> set[str]:
+    """Names of the charging fields that the chosen model and stimulus read."""
+    return {s.name for s in CHARGING_FIELDS if _FIELD_USE.get(s.name, lambda m, st: True)(model, stimulus)}
+
+
+@dataclass(frozen=True, slots=True)
+class ChargingSetup:
+    """Everything one transient computation needs, in SI."""
+
+    model: object  # cable.Cylinder, transient.BallAndStick or transient.InfiniteCable
+    stimulus: object  # transient.CurrentStep, CurrentPulse, AlphaCurrent or VoltageStep
+    model_choice: str
+    stimulus_choice: str
+    times: tuple[float, ...]  # s, for V(t)
+    watch: tuple[float, ...]  # m, positions of the V(t) curves
+    positions: tuple[float, ...]  # m, for V(X)
+    moments: tuple[float, ...]  # s, times of the V(X) curves
+    end: str  # the far-end text as typed ("sealed", "killed", "0.5 nS")
+
+
+def read_charging_form(texts: Mapping[str, str], model: str, stimulus: str
+                       ) -> tuple[ChargingSetup | None, dict[str, str]]:
+    """The transient set-up of the charging form, or the messages of the fields that are wrong."""
+    from .. import transient as tr  # numpy only; scipy is imported by the solver when it runs
+
+    if model not in MODEL_CHOICES or stimulus not in STIMULUS_CHOICES:
+        raise ValueError(f"unknown choice {model!r}/{stimulus!r}")
+    used = charging_fields_used(model, stimulus)
+    form = read_form([s for s in CHARGING_FIELDS if s.name in used and s.name != "end"], texts)
+    errors = dict(form.errors)
+    end_text = texts.get("end", "sealed")
+    end = 0.0
+    if model != "infinite":
+        try:
+            end = read_end(end_text)
+        except InputError as exc:
+            errors["end"] = str(exc)
+    if errors:
+        return None, errors
+    v = form.values
+    rm, ri, cm, d = (float(v[k]) for k in ("Rm", "Ri", "Cm", "diameter"))  # type: ignore[arg-type]
+    length = math.inf if model == "infinite" else float(v["length"])  # type: ignore[arg-type]
+    if model == "ball" and not math.isfinite(length):
+        errors["length"] = "length: a ball and stick needs a finite length"
+    if model == "ball" and end != 0:
+        errors["end"] = "far end: the ball and stick has a sealed far end here"
+    site = float(v.get("site") or 0.0)  # type: ignore[arg-type]
+    lam = float(length_constant(rm, ri, d))  # sizes the V(X) span of an unbounded cable
+    top = length if math.isfinite(length) else PROFILE_SPAN * lam
+    low = -top if model == "infinite" else 0.0
+    if model != "infinite" and not 0 <= site <= length:
+        errors["site"] = f"stimulus at: {format_quantity(site, 'length')} lies outside the cable (0 to its length)"
+    watch = [float(x) for x in v["watch"]]  # type: ignore[union-attr]
+    if model != "infinite":
+        outside = [x for x in watch if x < 0 or x > length]
+        if outside:
+            errors["watch"] = (f"V(t) at: {format_quantity(outside[0], 'length')} lies outside the cable "
+                               "(0 to its length)")
+    if errors:
+        return None, errors
+    cylinder = Cylinder(rm, ri, cm, d, length if model != "infinite" else 1.0, end)
+    model_object: object
+    if model == "cylinder":
+        model_object = cylinder
+    elif model == "ball":
+        model_object = tr.BallAndStick(cylinder, float(v["soma"]))  # type: ignore[arg-type]
+    else:
+        model_object = tr.InfiniteCable(rm, ri, cm, d)
+    if stimulus == "step":
+        stim: object = tr.CurrentStep(float(v["current"]), site)  # type: ignore[arg-type]
+    elif stimulus == "pulse":
+        stim = tr.CurrentPulse(float(v["current"]), float(v["duration"]), site)  # type: ignore[arg-type]
+    elif stimulus == "alpha":
+        stim = tr.AlphaCurrent(float(v["current"]), float(v["time_to_peak"]), site)  # type: ignore[arg-type]
+    else:
+        stim = tr.VoltageStep(float(v["clamp"]), site if model == "infinite" else 0.0)  # type: ignore[arg-type]
+    span = float(v["span"])  # type: ignore[arg-type]
+    times = tuple(np.linspace(0.0, span, TIME_POINTS).tolist())
+    positions = tuple(np.linspace(low, top, PROFILE_POINTS).tolist())
+    return ChargingSetup(model_object, stim, model, stimulus, times, tuple(watch), positions,
+                         tuple(float(t) for t in v["moments"]), end_text.strip()), {}  # type: ignore[union-attr]

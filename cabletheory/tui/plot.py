@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .report import PlotSpec
+from .report import PlotSpec, Series
 
 __all__ = ["Canvas", "Picture", "draw", "nice_ticks", "tick_label"]
 
@@ -148,11 +148,11 @@ def draw(spec: PlotSpec, width: int, height: int) -> Picture:
     x-axis label. The y axis label and the legend are returned separately (the widget
     shows them in its border and beneath). ``y_log`` plots log10 of |y|.
     """
-    series = spec.series
+    series = tuple(_as_steps(s) for s in spec.series) if spec.steps else spec.series
     ys = [_y_values(s.y, spec.y_log) for s in series]
     x_low, x_high = _finite_range([s.x for s in series], include_zero=False)
     y_low, y_high = _finite_range(ys, include_zero=not spec.y_log)
-    y_ticks = nice_ticks(y_low, y_high, max(2, min(5, height // 3)))
+    y_ticks = nice_ticks(y_low, y_high, max(3, min(6, (height - 2) // 2)))
     if y_ticks:
         y_low, y_high = min(y_low, y_ticks[0]), max(y_high, y_ticks[-1])
     y_labels = [(_log_label(t) if spec.y_log else tick_label(t)) for t in y_ticks]
@@ -182,6 +182,16 @@ def draw(spec: PlotSpec, width: int, height: int) -> Picture:
         owners.append((-1,) * len(row))
     legend = tuple(s.label for s in series)
     return Picture(tuple(rows), tuple(owners), legend)
+
+
+def _as_steps(series: Series) -> Series:
+    """A step function (y[i] on x[i] ≤ X < x[i+1]) as the corners of its staircase."""
+    x, y = np.asarray(series.x, dtype=float), np.asarray(series.y, dtype=float)
+    if x.size < 2:
+        return series
+    xs = np.repeat(x, 2)[1:]
+    ys = np.repeat(y, 2)[:-1]
+    return Series(series.label, xs, ys)
 
 
 def _y_values(y: np.ndarray, log: bool) -> np.ndarray:

@@ -80,6 +80,7 @@ class PlotSpec:
     y_label: str
     series: tuple[Series, ...]
     y_log: bool = False
+    steps: bool = False  # a step function: y[i] holds from x[i] to x[i + 1]
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -91,7 +92,7 @@ class Report:
     inputs: tuple[Row, ...]
     results: tuple[Row, ...]
     tables: tuple[Table, ...] = ()
-    plot: PlotSpec | None = None
+    plots: tuple[PlotSpec, ...] = ()
     notes: tuple[str, ...] = ()
     caveat: str = field(default=PASSIVE_CAVEAT)
 

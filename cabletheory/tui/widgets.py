@@ -33,17 +33,40 @@ class CurvePlot(Widget):
         width, height = self.content_size.width, self.content_size.height
         if spec is None or not spec.series or width < 12 or height < 5:
             return Text("no curve yet", style="dim")
-        picture = draw(spec, width, height - 1)
+        legend = legend_lines(spec.x_label, [s.label for s in spec.series], width)
+        picture = draw(spec, width, height - len(legend))
         out = Text(no_wrap=True, overflow="crop")
         for line, owners in zip(picture.rows, picture.owners, strict=True):
             for char, owner in zip(line, owners, strict=True):
                 out.append(char, style=PALETTE[owner % len(PALETTE)] if owner >= 0 else "")
             out.append("\n")
-        out.append(f"{spec.x_label}   ", style="bold")
-        for index, label in enumerate(picture.legend):
-            out.append("━━ ", style=PALETTE[index % len(PALETTE)])
-            out.append(f"{label}  ")
+        for number, items in enumerate(legend):
+            if number:
+                out.append("\n")
+            for index, item in items:
+                if index < 0:
+                    out.append(item, style="bold")
+                else:
+                    out.append("━━ ", style=PALETTE[index % len(PALETTE)])
+                    out.append(item)
         return out
+
+
+def legend_lines(x_label: str, labels: Sequence[str], width: int) -> list[list[tuple[int, str]]]:
+    """The x-axis label then each curve's swatch and label, packed into lines of ``width``.
+
+    Items are ``(curve index, text)``; index -1 is the axis label.
+    """
+    lines: list[list[tuple[int, str]]] = [[(-1, f"{x_label}   ")]]
+    used = len(x_label) + 3
+    for index, label in enumerate(labels):
+        size = len(label) + 5  # "━━ " + label + two spaces
+        if used + size > width and used > 0:
+            lines.append([])
+            used = 0
+        lines[-1].append((index, f"{label}  "))
+        used += size
+    return lines
 
 
 class QuantityList(Static):
@@ -67,16 +90,19 @@ class QuantityField(Vertical):
 
     DEFAULT_CLASSES = "field"
 
-    def __init__(self, spec: FieldSpec, *, label: str | None = None, value: str | None = None) -> None:
-        super().__init__(id=f"field-{spec.name}")
+    def __init__(self, spec: FieldSpec, *, prefix: str = "", label: str | None = None,
+                 value: str | None = None) -> None:
+        super().__init__(id=f"field-{prefix}{spec.name}")
         self.spec = spec
+        self.prefix = prefix
         self._label = label or spec.label
         self._value = spec.default if value is None else value
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="field-row"):
             yield Label(self._label, classes="field-label")
-            yield Input(self._value, placeholder=self.spec.placeholder, id=self.spec.name, compact=True)
+            yield Input(self._value, placeholder=self.spec.placeholder, id=f"{self.prefix}{self.spec.name}",
+                        compact=True)
         yield Static("", classes="field-message")
 
     @property
