@@ -587,8 +587,10 @@ class Stem:
     tip_distance_min: float
     tip_distance_max: float
     worst_ratio: float  # the branch ratio farthest from 1 (1.0 if it has no branch point)
+    worst_section_change: float  # largest relative change of d^{3/2} along one of its sections
     input_conductance: float  # S, exact, this stem alone
     membrane_area: float  # m²
+    reducible: bool  # this stem alone meets the conditions within the tolerances
 
 
 @dataclass(frozen=True, slots=True)
@@ -831,14 +833,20 @@ def analyse_tree(tree: Tree, membrane_resistivity: float, axial_resistivity: flo
     stem_area = np.bincount(stem_of, weights=areas, minlength=n)
     tip_stem = stem_of[tip_idx]
     bp_stem = stem_of[bp]
+    first = np.full(n_sec, n, dtype=np.int64)
+    np.minimum.at(first, section, np.arange(n))
+    section_stem = stem_of[first]
     for s in stems_idx.tolist():
         mine = tip_x[tip_stem == s]
         rs = ratios[bp_stem == s]
         worst = float(rs[np.argmax(np.abs(rs - 1.0))]) if rs.size else 1.0
+        worst_change = float(change[section_stem == s].max())
+        ok = (abs(worst - 1.0) <= tol.branch_ratio and worst_change <= tol.branch_ratio
+              and float(mine.max() - mine.min()) <= tol.tip_spread)
         stems.append(Stem(id=labels[s], type=int(t.types[s]), diameter=float(d0[s]), tips=int(mine.size),
                           tip_distance_min=float(mine.min()), tip_distance_max=float(mine.max()),
-                          worst_ratio=worst, input_conductance=float(g_in[s]),
-                          membrane_area=float(stem_area[s])))
+                          worst_ratio=worst, worst_section_change=worst_change,
+                          input_conductance=float(g_in[s]), membrane_area=float(stem_area[s]), reducible=ok))
 
     # verdict
     violations: list[Violation] = []
@@ -854,9 +862,7 @@ def analyse_tree(tree: Tree, membrane_resistivity: float, axial_resistivity: flo
                        f"{ratios[k]:.4g})")
     bad_sec = np.flatnonzero(change > tol.branch_ratio)
     if bad_sec.size:
-        first = np.full(n_sec, n, dtype=np.int64)
         last = np.full(n_sec, -1, dtype=np.int64)
-        np.minimum.at(first, section, np.arange(n))
         np.maximum.at(last, section, np.arange(n))
         for s in bad_sec[np.argsort(-change[bad_sec], kind="stable")].tolist():
             name = labels[first[s]] if first[s] == last[s] else f"{labels[first[s]]}–{labels[last[s]]}"

@@ -199,3 +199,22 @@ def test_compartmental_solve_of_the_bundled_nonconforming_cell():
     assert errors[-1] < 1e-5
     assert math.log2(errors[0] / errors[1]) > 1.9
     assert math.log2(errors[1] / errors[2]) > 1.9
+
+
+def test_each_stem_is_judged_on_its_own():
+    """Two stems: one obeys the 3/2 rule, the other has daughters as thick as their parent."""
+    d, half = 2e-6, 2e-6 * 2 ** (-2 / 3)
+    lam = math.sqrt(RM * d / (4 * RI))
+    lam_half = math.sqrt(RM * half / (4 * RI))
+    parents = [-1, 0, 0, -1, 3, 3]
+    lengths = [0.4 * lam, 0.6 * lam_half, 0.6 * lam_half, 0.4 * lam, 0.6 * lam, 0.6 * lam]
+    diameters = [d, half, half, d, d, d]
+    report = analyse_tree(sections_tree(parents, lengths, diameters), RM, RI)
+    assert [s.reducible for s in report.stems] == [True, False]
+    assert report.stems[1].worst_ratio == pytest.approx(2.0, rel=1e-12)
+    assert report.stems[0].tip_distance_max == pytest.approx(1.0, rel=1e-12)
+    assert report.stems[1].tip_distance_min == pytest.approx(1.0, rel=1e-12)  # equal X, wrong diameters
+    assert not report.reducible
+    assert report.reasons[0].startswith("3/2 rule: 1 of 2 branch points")
+    assert sum(s.input_conductance for s in report.stems) == pytest.approx(report.dendritic_input_conductance,
+                                                                          rel=1e-14)

@@ -156,8 +156,9 @@ def as_json(r: TreeReport, file_format: str = "SWC", points: int = 0) -> dict:
         "stems": [
             {"id": _id(r, s.id), "type": s.type, "diameter": quantity(s.diameter, "length"), "tips": s.tips,
              "tip_distance_min": s.tip_distance_min, "tip_distance_max": s.tip_distance_max,
-             "worst_ratio": s.worst_ratio, "input_conductance": quantity(s.input_conductance, "conductance"),
-             "membrane_area": quantity(s.membrane_area, "area")}
+             "worst_ratio": s.worst_ratio, "worst_section_change": s.worst_section_change,
+             "input_conductance": quantity(s.input_conductance, "conductance"),
+             "membrane_area": quantity(s.membrane_area, "area"), "reducible": s.reducible}
             for s in r.stems],
         "reducible": r.reducible,
         "reasons": list(r.reasons),
@@ -246,10 +247,12 @@ def as_text(r: TreeReport, file_format: str = "SWC", points: int = 0, digits: in
     ]
     blocks.append(table(audit, "Audit of Rall's conditions"))
     blocks.append(_columns(
-        ["stem", "type", "diameter", "tips", "tip X min", "tip X max", "worst ratio", "input conductance"],
+        ["stem", "type", "diameter", "tips", "tip X min", "tip X max", "worst ratio", "input conductance",
+         "alone"],
         [[s.id, SWC_TYPES.get(s.type, str(s.type)) if file_format == "SWC" else "-", fmt(s.diameter, "length"),
           str(s.tips), num(s.tip_distance_min), num(s.tip_distance_max), num(s.worst_ratio),
-          fmt(s.input_conductance, "conductance")] for s in r.stems],
+          fmt(s.input_conductance, "conductance"), "reducible" if s.reducible else "not reducible"]
+         for s in r.stems],
         "Stem dendrites"))
     if r.reducible:
         verdict = ["Verdict: REDUCIBLE to an equivalent cylinder within the tolerances."]
