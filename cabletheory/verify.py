@@ -56,10 +56,12 @@ __all__ = [
     "advise_tree",
     "compare",
     "convergence",
+    "json_number",
     "read_recording",
     "reference_csv",
     "reference_json",
     "reference_npz",
+    "transient_case",
     "tree_input_admittance",
 ]
 
@@ -147,7 +149,7 @@ def _unit_factor(parse: QuantityParser, declared: str | None, option: str | None
 def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: str | None = None,
                    position_unit: str | None = None, voltage_unit: str | None = None,
                    resting_potential: float | str = 0.0, time_offset: float = 0.0,
-                   site: float | None = None) -> Recording:
+                   site: float | None = None, allow_negative_positions: bool = False) -> Recording:
     """Read a simulator's CSV output (long or wide layout, see docs/verify.md).
 
     Parameters
@@ -162,6 +164,8 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
     time_offset : s to subtract from every time (the stimulus onset in the file's clock)
     site : position (m) of the only site when a wide table has a single voltage column named
         like "voltage (mV)" rather than by its position
+    allow_negative_positions : accept positions below 0 (an infinite cable, recorded on both
+        sides of its input); otherwise a negative position is an error
 
     Raises
     ------
@@ -244,7 +248,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
         lines = np.array([ln for ln, _ in rows], dtype=np.int64)
         columns = np.full(lines.size, vc + 1, dtype=np.int64)
         layout = "long"
-        if np.any(x < 0):
+        if np.any(x < 0) and not allow_negative_positions:
             k = int(np.argmax(x < 0))
             raise FileFormatError(f"{_where(name, int(lines[k]), pc + 1, header[pc])}: negative position")
         # time must increase at each site, in file order
@@ -289,7 +293,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
                 else:
                     x_assumed = x_assumed or position_unit is None
                     position = float(pos_text) * parse(f"1 {x_unit}", "length", where)
-            if position < 0:
+            if position < 0 and not allow_negative_positions:
                 raise FileFormatError(f"{where}: negative position")
             factor, v_unit_seen, assumed_here = _unit_factor(parse, units[col], voltage_unit, "voltage", where,
                                                              "--voltage-unit")
@@ -353,7 +357,8 @@ class ExactCase:
     description: str
     method: str
     parameters: Mapping[str, tuple[float, str]] = field(default_factory=dict)
-    length: float = math.inf  # m, positions must lie in [0, length]
+    length: float = math.inf  # m, positions must lie in [start, length]
+    start: float = 0.0  # m; -inf for an infinite cable (positions on both sides of the input)
 
 
 @dataclass(frozen=True, slots=True)
@@ -405,6 +410,11 @@ def compare(recording: Recording, exact: ExactCase, tolerance: float, *, relativ
         raise FileFormatError(f"{recording.name}, line {int(recording.lines[k])}: position "
                               f"{recording.positions[k]:.6g} m lies beyond the cable's length "
                               f"{exact.length:.6g} m")
+    before = recording.positions < exact.start
+    if np.any(before):
+        k = int(np.argmax(before))
+        raise FileFormatError(f"{recording.name}, line {int(recording.lines[k])}: position "
+                              f"{recording.positions[k]:.6g} m lies before the cable's origin")
     positions = np.minimum(recording.positions, exact.length)
     after = recording.times >= 0
     v_exact = np.zeros(recording.times.size)
@@ -853,7 +863,7 @@ def reference_table(exact: ExactCase, times: ArrayLike, positions: ArrayLike, *,
         raise InputError("a reference table needs at least one time and one position")
     if np.any(t < 0):
         raise InputError("reference times must be >= 0 (time since the stimulus onset)")
-    if np.any(x < 0) or np.any(x > exact.length * (1 + 1e-12)):
+    if np.any(x < exact.start) or np.any(x > exact.length * (1 + 1e-12)):
         raise InputError(f"reference positions must lie between 0 and the cable's length {exact.length!r} m")
     if layout == "wide":
         tt, xx = np.meshgrid(t, x, indexing="ij")
@@ -887,6 +897,12 @@ def _fmt(x: float) -> str:
     return repr(float(x))
 
 
+def _fmt_grid(x: float) -> str:
+    """A time or position after unit conversion: 15 significant digits drop the rounding noise of
+    the conversion (199.99999999999997 -> 200.0) and keep far more than any grid needs."""
+    return repr(float(f"{float(x):.15g}"))
+
+
 def reference_csv(table: ReferenceTable) -> str:
     """CSV text: ``#`` metadata lines, then ``time (ms),V at <x> um (mV),...`` (wide) or
     ``time (ms),position (um),voltage (mV),bound (mV)`` (long). Full double precision."""
@@ -895,14 +911,22 @@ def reference_csv(table: ReferenceTable) -> str:
         out.write(f"# {line}\n")
     writer = csv.writer(out, lineterminator="\n")
     if table.layout == "wide":
-        writer.writerow(["time (ms)"] + [f"V at {_fmt(x * 1e6)} um (mV)" for x in table.positions])
+        writer.writerow(["time (ms)"] + [f"V at {_fmt_grid(x * 1e6)} um (mV)" for x in table.positions])
         for i, t in enumerate(table.times):
-            writer.writerow([_fmt(t * 1e3)] + [_fmt(v * 1e3) for v in table.voltage[i]])
+            writer.writerow([_fmt_grid(t * 1e3)] + [_fmt(v * 1e3) for v in table.voltage[i]])
     else:
         writer.writerow(["time (ms)", "position (um)", "voltage (mV)", "bound (mV)"])
         for t, x, v, b in zip(table.times, table.positions, table.voltage, table.bound, strict=True):
-            writer.writerow([_fmt(t * 1e3), _fmt(x * 1e6), _fmt(v * 1e3), _fmt(b * 1e3)])
+            writer.writerow([_fmt_grid(t * 1e3), _fmt_grid(x * 1e6), _fmt(v * 1e3), _fmt(b * 1e3)])
     return out.getvalue()
+
+
+def json_number(value: float) -> float | str:
+    """A parameter value for JSON: the number, or "inf" / "-inf" / "nan" (JSON has no literal for them)."""
+    v = float(value)
+    if math.isfinite(v):
+        return v
+    return "nan" if math.isnan(v) else ("inf" if v > 0 else "-inf")
 
 
 def reference_json(table: ReferenceTable) -> str:
@@ -913,7 +937,8 @@ def reference_json(table: ReferenceTable) -> str:
         "method": table.method,
         "assumes": table.caveat,
         "layout": table.layout,
-        "parameters": {name: {"value": value, "unit": unit} for name, (value, unit) in table.parameters.items()},
+        "parameters": {name: {"value": json_number(value), "unit": unit}
+                       for name, (value, unit) in table.parameters.items()},
         "times": {"value": table.times.tolist(), "unit": "s"},
         "positions": {"value": table.positions.tolist(), "unit": "m"},
         "voltage": {"value": table.voltage.tolist(), "unit": "V"},
@@ -1023,3 +1048,140 @@ def sealed_step_case(cylinder: cb.Cylinder, amplitude: float, tolerance: float =
     return ExactCase(evaluate=evaluate, description="finite cylinder, sealed far end, current step at the origin",
                      method="eigenfunction series (Rall 1969) truncated by its tail bound",
                      parameters=params, length=cylinder.length)
+
+
+# ======================================================================================
+# every case of cabletheory.transient as an exact case
+# ======================================================================================
+GRID_FACTOR = 4  # paired points are evaluated on their full time × site grid while it has at most
+# this many times as many points (plus GRID_SLACK); otherwise site by site
+GRID_SLACK = 4096
+
+
+def _um(x: float) -> str:
+    return f"{x * 1e6:.6g} µm"
+
+
+def _ms(t: float) -> str:
+    return f"{t * 1e3:.6g} ms"
+
+
+def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase:
+    """Any time course of :func:`cabletheory.transient.charge` as an :class:`ExactCase`.
+
+    Parameters
+    ----------
+    model : :class:`~cabletheory.cable.Cylinder` (finite with a sealed, killed or leaky far
+        end; ``length = inf`` for a semi-infinite cable), :class:`~cabletheory.transient.BallAndStick`
+        or :class:`~cabletheory.transient.InfiniteCable`
+    stimulus : :class:`~cabletheory.transient.CurrentStep`, ``CurrentPulse``, ``AlphaCurrent``
+        (at ``position``, m) or ``VoltageStep`` (clamp at the origin; anywhere on an infinite cable)
+    tolerance : V, bound asked for the truncation error of each exact value. It is passed to
+        :func:`~cabletheory.transient.charge` relative to the stimulus's reference voltage, and
+        kept between 1e-13 (the rounding allowance of transient.py) and 1e-2 of it; the bound
+        actually achieved is what ``evaluate`` returns.
+
+    Returns
+    -------
+    ExactCase whose ``evaluate(times, positions)`` returns the exact voltage (V from rest) at
+    each (time, position) pair and the error bound of the :class:`~cabletheory.transient.Response`
+    it came from. Times at or before the onset give exactly 0.
+
+    References
+    ----------
+    Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444; Rall W (1969) Biophys. J. 9:1483
+    (the methods of :mod:`cabletheory.transient`).
+    """
+    from . import transient as tr
+
+    if not (math.isfinite(tolerance) and tolerance > 0):
+        raise InputError(f"exact tolerance must be a positive voltage, got {tolerance!r}")
+    infinite = isinstance(model, tr.InfiniteCable)
+    ball = isinstance(model, tr.BallAndStick)
+    cylinder = model.cylinder if ball else model
+    params: dict[str, tuple[float, str]] = {
+        "membrane_resistivity": (model.membrane_resistivity if infinite else cylinder.membrane_resistivity,
+                                 "ohm*m**2"),
+        "axial_resistivity": (model.axial_resistivity if infinite else cylinder.axial_resistivity, "ohm*m"),
+        "membrane_capacitance": (model.membrane_capacitance if infinite else cylinder.membrane_capacitance,
+                                 "F/m**2"),
+        "diameter": (model.diameter if infinite else cylinder.diameter, "m"),
+    }
+    if infinite:
+        shape = "infinite cable"
+        length, start = math.inf, -math.inf
+    else:
+        length, start = cylinder.length, 0.0
+        params["length"] = (cylinder.length, "m")
+        if math.isinf(cylinder.length):
+            shape = "semi-infinite cylinder, sealed origin"
+        else:
+            params["end_conductance"] = (cylinder.end_conductance, "S")
+            params["end_conductance_ratio"] = (cylinder.end_conductance_ratio, "1")
+            g = cylinder.end_conductance
+            end = ("sealed" if g == 0 else "killed" if math.isinf(g)
+                   else f"leaky (B = {cylinder.end_conductance_ratio:.4g})")
+            shape = f"finite cylinder, {end} far end"
+        if ball:
+            params["soma_diameter"] = (model.soma_diameter, "m")
+            params["conductance_ratio"] = (model.conductance_ratio, "1")
+            shape = f"ball and stick (soma {_um(model.soma_diameter)}, rho = {model.conductance_ratio:.4g}); " + shape
+    params["length_constant"] = ((model if infinite else cylinder).length_constant, "m")
+    params["membrane_time_constant"] = ((model if infinite else cylinder).time_constant, "s")
+    where = "the origin" if stimulus.position == 0 and not infinite else f"x = {_um(stimulus.position)}"
+    if isinstance(stimulus, tr.VoltageStep):
+        what = f"voltage-clamp step at {where}"
+        params["stimulus_amplitude"] = (stimulus.amplitude, "V")
+    elif isinstance(stimulus, tr.CurrentPulse):
+        what = f"current pulse of {_ms(stimulus.duration)} at {where}"
+        params["stimulus_amplitude"] = (stimulus.amplitude, "A")
+        params["pulse_duration"] = (stimulus.duration, "s")
+    elif isinstance(stimulus, tr.AlphaCurrent):
+        what = f"alpha current peaking at {_ms(stimulus.time_to_peak)} at {where}"
+        params["stimulus_amplitude"] = (stimulus.peak, "A")
+        params["time_to_peak"] = (stimulus.time_to_peak, "s")
+    elif isinstance(stimulus, tr.CurrentStep):
+        what = f"current step at {where}"
+        params["stimulus_amplitude"] = (stimulus.amplitude, "A")
+    else:
+        raise InputError(f"unknown stimulus {type(stimulus).__name__}")
+    params["stimulus_site"] = (stimulus.position, "m")
+    # the tolerance of transient.charge is relative to its reference voltage; a probe at t = 0 gives it
+    probe = tr.charge(model, stimulus, [0.0], [0.0 if infinite else stimulus.position], modes=0)
+    reference = probe.reference_voltage
+    relative = min(max(tolerance / reference, 1e-13), 1e-2) if reference > 0 else 1e-10
+    params["exact_tolerance"] = (relative * reference, "V")
+    if infinite or math.isinf(length):
+        image = ("" if infinite or isinstance(stimulus, tr.VoltageStep)
+                 else "; source and its image in the sealed origin")
+        method = f"closed form (Hodgkin & Rushton 1946 erfc solutions, scaled erfc{image})"
+    else:
+        method = ("images of the infinite-cable solution at early times, eigen-series with the steady state "
+                  "subtracted at later times (Rall 1969), chosen per time"
+                  + ("; a leaky end bracketed between sealed and killed" if 0 < cylinder.end_conductance < math.inf
+                     else ""))
+    method += f"; truncation error of each value <= {relative * reference:.2g} V"
+
+    def evaluate(times: Array, positions: Array) -> tuple[Array, Array]:
+        t = np.asarray(times, dtype=float).ravel()
+        x = np.asarray(positions, dtype=float).ravel()
+        voltage = np.zeros(t.size)
+        bound = np.zeros(t.size)
+        if t.size == 0:
+            return voltage, bound
+        unique_t, ti = np.unique(t, return_inverse=True)
+        unique_x, xi = np.unique(x, return_inverse=True)
+        if unique_t.size * unique_x.size <= GRID_FACTOR * t.size + GRID_SLACK:
+            r = tr.charge(model, stimulus, unique_t, unique_x, tolerance=relative, modes=0)
+            voltage[:] = r.voltage[ti, xi]
+            bound[:] = r.error_bound
+        else:
+            for j, position in enumerate(unique_x):
+                at = np.flatnonzero(xi == j)
+                r = tr.charge(model, stimulus, t[at], [position], tolerance=relative, modes=0)
+                voltage[at] = r.voltage[:, 0]
+                bound[at] = r.error_bound
+        return voltage.reshape(np.shape(times)), bound.reshape(np.shape(times))
+
+    return ExactCase(evaluate=evaluate, description=f"{shape}, {what}", method=method, parameters=params,
+                     length=length, start=start)

@@ -10,7 +10,7 @@ from .. import PASSIVE_CAVEAT
 from ..compartment import SCHEMES
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
-from ..verify import Comparison, Convergence, ExactCase, Recording, compare, convergence, run_spacings
+from ..verify import Comparison, Convergence, ExactCase, Recording, compare, convergence, json_number, run_spacings
 from .advise import parse_relative
 from .common import dump_json, quantity, write_atomically
 from .reference import add_case_options, add_layout_options, build_case, parser_for_quantities, read_run
@@ -118,7 +118,7 @@ def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparis
     out: dict = {
         "case": case.description,
         "method": case.method,
-        "parameters": {k: {"value": v, "unit": u} for k, (v, u) in case.parameters.items()},
+        "parameters": {k: {"value": json_number(v), "unit": u} for k, (v, u) in case.parameters.items()},
         "runs": runs,
         "assumptions": PASSIVE_CAVEAT,
     }
