@@ -77,6 +77,7 @@ class SwcPoints:
     radii : m
     parents : index (into these arrays) of each point's parent; -1 for the root (index 0)
     lines : line number of each point in the file
+    reordered : how many points came before their parent in the file (allowed; reordered)
     """
 
     source: str
@@ -86,6 +87,7 @@ class SwcPoints:
     radii: NDArray[np.float64]
     parents: NDArray[np.int64]
     lines: NDArray[np.int64]
+    reordered: int = 0  # points that came before their parent in the file
 
     def __len__(self) -> int:
         return int(self.ids.size)
@@ -279,6 +281,7 @@ def _ordered_points(source: str, ids: list[int], types: list[int], coords, paren
         radii=c[:, 3].copy(),
         parents=new_parents,
         lines=np.asarray(lines, dtype=np.int64)[order_arr],
+        reordered=int(np.count_nonzero(np.asarray(parents, dtype=np.int64) > np.arange(len(parents)))),
     )
 
 

@@ -305,6 +305,8 @@ def tree_from_swc(points: SwcPoints, *, taper: bool = False, types: set[int] | N
         notes.append("types kept: " + ", ".join(f"{t} ({SWC_NAMES.get(t, 'custom')})" for t in sorted(types)))
     if dropped_by_type:
         notes.append(f"{dropped_by_type} point(s) left out by type selection")
+    if points.reordered:
+        notes.append(f"{points.reordered} point(s) came before their parent in the file and were reordered")
     return Tree(source=points.source, labels=tuple(str(i) for i in points.ids[idx].tolist()),
                 parents=seg_parents, lengths=delta, proximal_diameters=proximal, distal_diameters=distal,
                 types=points.types[idx].copy(), lines=points.lines[idx].copy(), soma_area=area,

@@ -43,6 +43,8 @@ def test_child_before_parent_is_reordered():
     assert points.ids.tolist() == [1, 2, 3]
     assert points.parents.tolist() == [-1, 0, 1]
     assert points.lines.tolist() == [3, 2, 1]
+    assert points.reordered == 2
+    assert parse_swc(GOOD_SWC).reordered == 0
 
 
 def test_integral_floats_and_comments_after_data_are_accepted():

@@ -123,3 +123,8 @@ def test_bundled_demo_tree_file():
     assert report.reducible
     assert report.input_resistance / 1e6 == pytest.approx(185.1329030, rel=1e-9)
     assert report.conductance_ratio == pytest.approx(7.596794008, rel=1e-9)
+
+
+def test_reordering_is_reported():
+    tree = tree_from_swc(parse_swc("3 3 20 0 0 1 2\n2 3 10 0 0 1 1\n1 1 0 0 0 5 -1\n"))
+    assert any("2 point(s) came before their parent" in note for note in tree.notes)
