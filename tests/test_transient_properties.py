@@ -100,7 +100,8 @@ def test_tiny_and_huge_times_stay_finite():
     """T = 1e-12 and T = 1e4 and long cables (L = 200) give finite values; T = 0 gives exactly 0."""
     for L, B in ((200.0, 0.0), (1.0, 0.5), (0.5, math.inf)):
         v, bound, _ = current_response([0.0, 0.5], 0.0, [0.0, 1e-12, 1e-6, 1e4], L, B)
-        assert np.all(np.isfinite(v)) and np.all(bound <= 1e-10)
+        assert np.all(np.isfinite(v))
+        assert np.all(bound <= 1e-10)
         assert v[0].tolist() == [0.0, 0.0]
         np.testing.assert_allclose(v[-1], steady_green(np.array([0.0, 0.5]), 0.0, L, B), rtol=1e-12)
 
