@@ -1054,8 +1054,9 @@ def sealed_step_case(cylinder: cb.Cylinder, amplitude: float, tolerance: float =
 # every case of cabletheory.transient as an exact case
 # ======================================================================================
 GRID_FACTOR = 4  # paired points are evaluated on their full time × site grid while it has at most
-# this many times as many points (plus GRID_SLACK); otherwise site by site
+# this many times as many points (plus GRID_SLACK); otherwise in blocks
 GRID_SLACK = 4096
+SCATTER_BLOCK = 256  # points per block when the pairs are scattered (each block: at most 256² values)
 
 
 def _um(x: float) -> str:
@@ -1175,11 +1176,14 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
             r = tr.charge(model, stimulus, unique_t, unique_x, tolerance=relative, modes=0)
             voltage[:] = r.voltage[ti, xi]
             bound[:] = r.error_bound
-        else:
-            for j, position in enumerate(unique_x):
-                at = np.flatnonzero(xi == j)
-                r = tr.charge(model, stimulus, t[at], [position], tolerance=relative, modes=0)
-                voltage[at] = r.voltage[:, 0]
+        else:  # scattered pairs: blocks of neighbouring positions, each on its own small grid
+            order = np.argsort(x, kind="stable")
+            for begin in range(0, order.size, SCATTER_BLOCK):
+                at = order[begin:begin + SCATTER_BLOCK]
+                bt, bti = np.unique(t[at], return_inverse=True)
+                bx, bxi = np.unique(x[at], return_inverse=True)
+                r = tr.charge(model, stimulus, bt, bx, tolerance=relative, modes=0)
+                voltage[at] = r.voltage[bti, bxi]
                 bound[at] = r.error_bound
         return voltage.reshape(np.shape(times)), bound.reshape(np.shape(times))
 
