@@ -80,3 +80,81 @@ def test_several_runs_give_an_order(tmp_path, capsys) -> None:
     assert estimate["axis"] == "space"
     assert estimate["observed"] == pytest.approx(2.0, abs=1e-3)
     assert estimate["verdict"] == "matches"
+
+
+# ---------------------------------------------------------------------------------------------
+# every stimulus and model: files whose error is known by construction (transient.charge plus a
+# known perturbation), read through the command line
+# ---------------------------------------------------------------------------------------------
+def _transient_cases() -> dict:
+    from cabletheory import transient as tr
+
+    soma = 20 * UM
+    base = ["--Rm", "20000", "--Ri", "200", "--diameter", "2"]
+    return {
+        "pulse, killed end": (Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM, float("inf")),
+                              tr.CurrentPulse(200e-12, 1 * MS, 200 * UM),
+                              [*base, "--length", "500", "--end", "killed", "--stimulus", "pulse", "--current",
+                               "200 pA", "--duration", "1 ms", "--at", "200 um"]),
+        "alpha, leaky end": (Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM, 1e-9),
+                             tr.AlphaCurrent(50e-12, 0.5 * MS, 100 * UM),
+                             [*base, "--length", "500", "--end", "1 nS", "--stimulus", "alpha", "--current", "50pA",
+                              "--time-to-peak", "0.5 ms", "--at", "100 um"]),
+        "voltage clamp, semi-infinite": (Cylinder(2.0, 2.0, 0.01, 2 * UM, float("inf")), tr.VoltageStep(10e-3),
+                                         [*base, "--length", "inf", "--voltage", "10 mV"]),
+        "ball and stick, step at the soma": (tr.BallAndStick(DEMO, soma), tr.CurrentStep(100e-12, 0.0),
+                                             [*base, "--length", "500", "--soma-diameter", "20 um"]),
+        "infinite, alpha at 0": (tr.InfiniteCable(2.0, 2.0, 0.01, 2 * UM), tr.AlphaCurrent(100e-12, 1 * MS),
+                                 [*base, "--infinite", "--stimulus", "alpha", "--time-to-peak", "1ms"]),
+    }
+
+
+@pytest.mark.parametrize("name", ["pulse, killed end", "alpha, leaky end", "voltage clamp, semi-infinite",
+                                  "ball and stick, step at the soma", "infinite, alpha at 0"])
+def test_known_spike_in_every_transient_case(tmp_path, capsys, name: str) -> None:
+    """Exact values (transient.charge: Hodgkin & Rushton 1946, Rall 1969) plus 1 µV everywhere and +6 µV
+    at one sample: max error 7 µV there, RMS √((N-1)·1 + 49)/√N µV; 8 µV passes, 6.5 µV fails."""
+    from cabletheory import transient as tr
+
+    model, stimulus, args = _transient_cases()[name]
+    times = np.arange(1, 17) * 0.5 * MS
+    sites = np.array([-250.0, 0.0, 250.0, 500.0]) * UM if name.startswith("infinite") else \
+        np.array([0.0, 250.0, 500.0]) * UM
+    v = tr.charge(model, stimulus, times, sites).voltage + 1e-6
+    v[5, 1] += 6e-6  # 3 ms, second site
+    header = "time (ms)," + ",".join(f"V at {x / UM:g} um (mV)" for x in sites)
+    rows = [f"{t / MS:g}," + ",".join(repr(float(u * 1e3)) for u in row) for t, row in zip(times, v, strict=True)]
+    run = tmp_path / "run.csv"
+    run.write_text("\n".join([header, *rows]) + "\n", encoding="utf-8")
+    assert main(["compare", str(run), *args, "--tolerance", "8 uV", "--json"]) == 0
+    result = json.loads(capsys.readouterr().out)["runs"][0]
+    n = v.size
+    assert result["max_abs_error"]["value"] == pytest.approx(7e-6, rel=1e-6)
+    assert result["rms_abs_error"]["value"] == pytest.approx(np.sqrt((n - 1 + 49) / n) * 1e-6, rel=1e-6)
+    assert result["worst"]["time"]["value"] == pytest.approx(3 * MS)
+    assert result["worst"]["position"]["value"] == pytest.approx(sites[1])
+    assert result["worst"]["line"] == 7
+    assert main(["compare", str(run), *args, "--tolerance", "6.5 uV"]) == 1
+    out = capsys.readouterr().out
+    assert "max error  7.00 µV" in out
+    assert "verdict    FAIL" in out
+
+
+@pytest.mark.parametrize(("extra", "message"), [
+    (["--length", "500", "--stimulus", "pulse"], "--stimulus pulse needs --duration"),
+    (["--length", "500", "--time-to-peak", "1ms"], "--time-to-peak applies to --stimulus alpha"),
+    (["--infinite", "--length", "500"], "an infinite cable has no --length"),
+    (["--length", "inf", "--soma-diameter", "20"], "a ball and stick needs a finite --length"),
+    (["--length", "500", "--voltage", "5mV", "--at", "100um"], "a voltage clamp on a cylinder"),
+    (["--length", "500", "--at", "501um"], "--at: 501.0 µm lies beyond the cable's end"),
+])
+def test_bad_case_options_give_one_line(tmp_path, capsys, extra: list[str], message: str) -> None:
+    run = write_run(tmp_path / "run.csv")
+    report = tmp_path / "report.json"
+    assert main(["compare", str(run), "--Rm", "20000", "--Ri", "200", "--diameter", "2", *extra,
+                 "--report", str(report)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("cabletheory: error: ")
+    assert message in err
+    assert err.count("\n") == 1
+    assert not report.exists()

@@ -53,3 +53,103 @@ def test_bad_reference_requests(tmp_path, capsys) -> None:
     assert not (tmp_path / "x.csv").exists()
     assert main(["reference", *L1, "--times", "1 ms", "--positions", "0", "--output", str(tmp_path / "x.txt")]) == 2
     assert "cabletheory: error:" in capsys.readouterr().err
+
+
+# ---------------------------------------------------------------------------------------------
+# every model and stimulus of the transient capability
+# ---------------------------------------------------------------------------------------------
+BASE = ["--Rm", "20000", "--Ri", "200", "--diameter", "2"]
+LAMBDA_UM = 707.1067811865476  # λ of the demo cable, checks.md §1
+
+
+def table_of(tmp_path, args: list[str]) -> dict:
+    out = tmp_path / "ref.json"
+    assert main(["reference", *BASE, *args, "--output", str(out)]) == 0
+    return json.loads(out.read_text())
+
+
+def test_ball_and_stick_soma_matches_rall_values(tmp_path) -> None:
+    """L = 1, ρ = 5 (soma diameter from ρ = G_D/G_S, G_D = G∞ tanh L): soma V/V∞ = 0.2124536900,
+    0.5166979813, 0.7082003630 at T = 0.1, 0.5, 1 (checks.md §2.3 [COMP]; Rall 1969)."""
+    g_d = math.tanh(1.0) / R_INF
+    g_s = g_d / 5.0
+    soma_um = math.sqrt(g_s * 2.0 / math.pi) * 1e6  # G_S = π d² / Rm
+    data = table_of(tmp_path, ["--length", f"{LAMBDA_UM!r}um", "--soma-diameter", f"{soma_um!r} um",
+                               "--current", "1 nA", "--times", "2, 10, 20 ms", "--positions", "0 um"])
+    v = np.array(data["voltage"]["value"])[:, 0]
+    assert v * (g_d + g_s) / 1e-9 == pytest.approx([0.2124536900, 0.5166979813, 0.7082003630], abs=1e-9)
+    assert data["parameters"]["conductance_ratio"]["value"] == pytest.approx(5.0, rel=1e-9)
+    assert data["case"].startswith("ball and stick")
+
+
+def test_infinite_cable_off_centre_input(tmp_path) -> None:
+    """Input at 100 µm of an infinite cable; sites 100 ± λ: V/V(0,∞) = 0.2336124405 at T = 1, the
+    injection site erf(1) = 0.8427007929 (Hodgkin & Rushton 1946; checks.md §2.4 [COMP])."""
+    sites = f"{100 - LAMBDA_UM!r}, 100, {100 + LAMBDA_UM!r} um"
+    data = table_of(tmp_path, ["--infinite", "--at", "100 um", "--current", "1nA", "--times", "20 ms",
+                               "--positions", sites])
+    v = np.array(data["voltage"]["value"])[0] / (0.5e-9 * R_INF)
+    assert v == pytest.approx([0.2336124405, 0.8427007929, 0.2336124405], abs=1e-9)
+    assert data["parameters"]["stimulus_site"]["value"] == pytest.approx(100e-6)
+
+
+def test_pulse_alpha_and_clamp_tables(tmp_path) -> None:
+    """Pulse = difference of steps (checks.md §2.5: S(0.5) - S(0.1) for a 0.4 τm pulse, L = 1); clamp
+    far end 1/cosh 1 = 0.6480542737 at late times (checks.md §1); an alpha current's voltage starts at
+    0, rises and, with nothing injected after it, decays (Rall 1967 [MEM])."""
+    length = ["--length", f"{LAMBDA_UM!r}um"]
+    pulse = table_of(tmp_path, [*length, "--stimulus", "pulse", "--duration", "8 ms", "--current", "1nA",
+                                "--times", "2, 10 ms", "--positions", "0"])
+    assert np.array(pulse["voltage"]["value"])[:, 0] / FINAL == pytest.approx(
+        [0.2629635738, 0.5374585210 - 0.2629635738], abs=1e-9)
+    clamp = table_of(tmp_path, [*length, "--voltage", "-10 mV", "--times", "1 s", "--positions",
+                                f"{LAMBDA_UM!r} um"])
+    assert clamp["voltage"]["value"][0][0] == pytest.approx(-10e-3 * 0.6480542737, rel=1e-9)
+    assert "voltage-clamp step" in clamp["case"]
+    alpha = table_of(tmp_path, [*length, "--end", "killed", "--stimulus", "alpha", "--time-to-peak", "1 ms",
+                                "--at", "300 um", "--times", "0:200:2 ms", "--positions", "300 um"])
+    v = np.array(alpha["voltage"]["value"])[:, 0]
+    assert v[0] == 0.0
+    assert 0 < np.argmax(v) < 10
+    assert abs(v[-1]) < 1e-6 * v.max()
+    assert alpha["parameters"]["time_to_peak"] == {"value": 1e-3, "unit": "s"}
+
+
+def test_semi_infinite_csv_header(tmp_path, capsys) -> None:
+    """Semi-infinite cable (--length inf), step at 100 µm; the CSV header names clean positions."""
+    assert main(["reference", *BASE, "--length", "inf", "--at", "100um", "--times", "0:2:1 ms",
+                 "--positions", "0, 0.2, 500 um"]) == 0
+    out = capsys.readouterr().out
+    assert "# case: semi-infinite cylinder, sealed origin, current step at x = 100 µm" in out
+    assert "# length: inf m" in out
+    assert "time (ms),V at 0.0 um (mV),V at 0.2 um (mV),V at 500.0 um (mV)" in out
+    assert "\n0.0,0.0,0.0,0.0\n" in out
+
+
+@pytest.mark.parametrize(("extra", "message"), [
+    (["--length", "500", "--positions", "-10, 0 um"], "--positions"),
+    (["--length", "500", "--stimulus", "alpha"], "--stimulus alpha needs --time-to-peak"),
+    (["--length", "500", "--duration", "1ms", "--stimulus", "alpha", "--time-to-peak", "1ms"],
+     "--duration applies to --stimulus pulse, not alpha"),
+    (["--length", "500", "--stimulus", "clamp"], "--stimulus clamp needs --voltage"),
+    (["--length", "500", "--voltage", "5 mV", "--current", "5 pA"], "--current: a voltage clamp"),
+    (["--length", "500", "--stimulus", "step", "--voltage", "5 mV"], "--voltage applies to a voltage clamp"),
+    (["--infinite", "--soma-diameter", "20um"], "--soma-diameter"),
+    (["--infinite", "--end", "killed"], "--end: an infinite cable has no far end"),
+    (["--length", "inf", "--end", "2 nS"], "--end: a semi-infinite cable"),
+    (["--positions", "0"], "--length: give the cable length"),
+    (["--length", "500", "--at", "-5 um"], "--at"),
+    (["--length", "500", "--stimulus", "pulse", "--duration", "-1 ms"], "--duration"),
+    (["--length", "500", "--stimulus", "wave"], "invalid choice"),
+])
+def test_bad_option_combinations(tmp_path, capsys, extra: list[str], message: str) -> None:
+    out = tmp_path / "x.csv"
+    args = ["reference", *BASE, "--times", "1 ms", *extra, "--output", str(out)]
+    if "--positions" not in extra:
+        args += ["--positions", "0"]
+    assert main(args) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("cabletheory: error: ")
+    assert message in err
+    assert err.count("\n") == 1
+    assert not out.exists()
