@@ -1129,7 +1129,9 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
             shape = f"ball and stick (soma {_um(model.soma_diameter)}, rho = {model.conductance_ratio:.4g}); " + shape
     params["length_constant"] = ((model if infinite else cylinder).length_constant, "m")
     params["membrane_time_constant"] = ((model if infinite else cylinder).time_constant, "s")
-    where = "the origin" if stimulus.position == 0 and not infinite else f"x = {_um(stimulus.position)}"
+    where = f"x = {_um(stimulus.position)}"
+    if stimulus.position == 0 and not infinite:
+        where = "the soma" if ball else "the origin"
     if isinstance(stimulus, tr.VoltageStep):
         what = f"voltage-clamp step at {where}"
         params["stimulus_amplitude"] = (stimulus.amplitude, "V")
