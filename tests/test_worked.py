@@ -46,3 +46,71 @@ def test_worked_example_output_is_as_documented(folder):
 )
 def test_single_cable_numbers_match_outside_values(line):
     assert line in (ROOT / "worked" / "single_cable" / "expected.txt").read_text(encoding="utf-8")
+
+
+def _json(argv):
+    import json
+
+    from cabletheory.cli import main
+
+    return argv, json.loads(_capture(main, [*argv, "--json"]))
+
+
+def _capture(function, argv):
+    import contextlib
+    import io
+
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        assert function(argv) == 0
+    return out.getvalue()
+
+
+def _load_argv(folder):
+    import importlib.util
+
+    spec = importlib.util.spec_from_file_location(f"worked_{folder}", ROOT / "worked" / folder / "run.py")
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module.ARGV
+
+
+@pytest.mark.parametrize(
+    ("time_ms", "fraction"),
+    # checks.md §2.3, soma voltage for a current step, L = 1, ρ = 5, V(T)/V(∞) [COMP]; eigen-series and
+    # Talbot inversion agree there (ball and stick: Rall 1969; Durand 1984 [MEM])
+    [(2.0, 0.2124536900), (10.0, 0.5166979813), (20.0, 0.7082003630), (40.0, 0.8926645328)],
+)
+def test_ball_and_stick_example_matches_published_charging(time_ms, fraction):
+    _, data = _json(_load_argv("ball_and_stick_charging"))
+    times = data["times"]["value"]
+    voltage = data["voltage"]["value"]
+    final = data["steady_state"]["value"][0]
+    # the example's 17.4539 µm soma gives ρ = 5 to 6 digits, hence rtol 2e-5
+    assert voltage[times.index(pytest.approx(time_ms * 1e-3))][0] / final == pytest.approx(fraction, rel=2e-5)
+
+
+def test_ball_and_stick_example_time_constants():
+    """checks.md §2.3: L = 1, ρ = 5 gives τ0/τ1 = 8.537785309 [COMP, Rall 1969 eigenvalue equation]."""
+    _, data = _json(_load_argv("ball_and_stick_charging"))
+    tau = data["time_constants"]["value"]
+    assert tau[0] == pytest.approx(0.020, rel=1e-12)
+    assert tau[0] / tau[1] == pytest.approx(8.537785309, rel=2e-5)
+
+
+def test_tree_example_matches_the_reference_tree():
+    """checks.md §3.1 demo tree [COMP] (Rall 1959/1964 equivalent cylinder): L_eq = 0.9954565254,
+    ρ = 7.596794008, R_N = 185.1329030 MΩ with the 20 µm soma, dendrites alone 209.5027757 MΩ."""
+    import os
+
+    cwd = os.getcwd()
+    os.chdir(ROOT)
+    try:
+        _, data = _json(_load_argv("tree_reduction"))
+    finally:
+        os.chdir(cwd)
+    assert data["reducible"] is True
+    assert data["equivalent_cylinder"]["electrotonic_length"]["value"] == pytest.approx(0.9954565254, rel=1e-9)
+    assert data["equivalent_cylinder"]["diameter"]["value"] == pytest.approx(4e-6, rel=1e-12)
+    assert data["input_resistance"]["value"] == pytest.approx(185.1329030e6, rel=1e-9)
+    assert data["reduced_input_resistance"]["value"] == pytest.approx(185.1329030e6, rel=1e-9)
