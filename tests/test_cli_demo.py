@@ -10,11 +10,12 @@ def test_demo_runs_every_step(capsys):
     out, err = capsys.readouterr()
     assert status == 0, err
     assert err == ""
-    assert out.count("=== step ") >= 5
+    assert out.count("=== step ") >= 6
     # the steps tell a story with both outcomes: a reducible tree and one that is not,
     # a coarse simulator run that fails and a refined one that passes
     assert "Verdict: REDUCIBLE" in out
     assert "Verdict: NOT reducible" in out
     assert "FAIL (tolerance 20.0 µV)" in out
     assert "PASS (tolerance 20.0 µV)" in out
+    assert "Equalising time constants" in out
     assert "passive, linear, uniform membrane" in out

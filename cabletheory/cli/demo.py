@@ -30,6 +30,10 @@ def steps() -> list[tuple[str, list[str]]]:
          "how far does a steady signal from the soma reach, and what does it look like at 100 Hz?",
          ["cable", "--Rm", "20 kΩ·cm²", "--Ri", "200 Ω·cm", "--Cm", "1 µF/cm²", "--diameter", "2 µm",
           "--length", "500 µm", "--end", "sealed", "--frequency", "100 Hz", "--at", "0:500:125 µm"]),
+        ("The same dendrite with its 20 µm soma: after a 100 pA step at the soma, how fast do the soma and the "
+         "dendrite's tip charge, and which time constants would peeling the soma's curve reveal?",
+         ["charge", *DENDRITE, "--soma-diameter", "20 µm", "--current", "100 pA", "--times", "0:40:5 ms",
+          "--positions", "0, 250, 500 µm", "--modes", "3"]),
         ("A reconstructed wide-field interneuron (invented, type LW-1) grown to Rall's rules: does it collapse "
          "into one equivalent cylinder, and what is it?",
          ["tree", _data("morphologies/lumenia_lw1_conforming.swc"), "--Rm", "20 kΩ·cm²", "--Ri", "150 Ω·cm"]),
