@@ -793,6 +793,9 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
         t = np.asarray(times, dtype=float)
         v_exact = np.asarray(exact_time_course(t), dtype=float)
         peak = float(np.max(np.abs(v_exact)))
+        if not peak > 0:
+            raise InputError(f"the exact voltage at the site ({where!r} m) stays at rest (a killed end?), so a "
+                             "relative error means nothing there; choose another --site")
         exact = complex(peak)
         # Δt so small that the Crank–Nicolson error is far below the spatial one (checked below)
         step = _fine_step(t, tau)

@@ -47,8 +47,21 @@ def test_tree_advice(capsys) -> None:
         (["--target", "150%"], "--target"),
         (["--target", "0.1%", "--parents=-1,0", "--lengths", "1,2", "--diameters", "1"], "either"),
         (["--quantity", "time-course", "--target", "1%", "--site", "900um"], "site"),
+        (["--quantity", "time-course", "--target", "1%", "--end", "killed"], "--site: a killed end stays at rest"),
     ],
 )
 def test_bad_advice_requests(argv: list[str], fragment: str, capsys) -> None:
     assert main(["advise", *CABLE, *argv]) == 2
     assert fragment in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("extra", [["--end", "killed", "--site", "250um"], ["--end", "1nS"],
+                                   ["--soma-diameter", "20um"]])
+def test_time_course_advice_for_any_end_and_a_soma(extra: list[str], capsys) -> None:
+    """Exact time course from cabletheory.transient (Rall 1969 series / images): the advised count meets
+    1 % and, at second order in Δx ([CP]), lies below the rule of thumb's 19 segments (checks.md §1.1)."""
+    assert main(["advise", *CABLE, *extra, "--quantity", "time-course", "--target", "1%", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["relative_error"] <= 0.01
+    (n,) = data["segments"]
+    assert 4 <= n < data["rule_of_thumb"]["segments"][0] == 19

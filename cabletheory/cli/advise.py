@@ -141,15 +141,22 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _exact_time_course(cylinder, soma_diameter, site):
-    """Exact voltage at ``site`` for a 1 A step at the origin (sealed end, no soma in this version)."""
-    from ..verify import sealed_step_voltage
+    """Exact voltage at ``site`` for a 1 A step at the origin (any far end; a soma makes it a ball and
+    stick), from :mod:`cabletheory.transient`."""
+    from .. import transient as tr
 
-    if soma_diameter or cylinder.end_conductance != 0:
-        raise InputError("time-course advice is available for a sealed cable without a soma in this version")
     where = cylinder.length if site is None else site
     if not 0 <= where <= cylinder.length:
         raise InputError(f"--site: {format_quantity(where, 'length')} lies outside the cable")
-    return lambda t: sealed_step_voltage(cylinder, 1.0, t, np.full(np.shape(t), where))[0]
+    if math.isinf(cylinder.end_conductance) and where >= cylinder.length:
+        raise InputError("--site: a killed end stays at rest, so a relative error means nothing there; "
+                         "choose a --site inside the cable")
+    model = tr.BallAndStick(cylinder, soma_diameter) if soma_diameter else cylinder
+
+    def course(t):
+        return tr.charge(model, tr.CurrentStep(1.0), t, [where], modes=0).voltage[:, 0]
+
+    return course
 
 
 def as_json(a: Advice) -> dict:
