@@ -65,3 +65,34 @@ def test_charging_view_ball_and_stick_alpha(snap_compare):
         await steady(pilot)
 
     assert snap_compare(CableApp(view="charging"), terminal_size=SIZE, run_before=choose)
+
+
+def test_tree_view_conforming_demo(snap_compare):
+    """F4 on the bundled conforming interneuron: every branch point ✓, verdict reducible."""
+    assert snap_compare(CableApp(view="tree"), terminal_size=SIZE, run_before=steady)
+
+
+def test_tree_view_failing_morphology(snap_compare):
+    """The bundled PV-7 interneuron: failures in red, NOT reducible with reasons, tapering profile."""
+    from cabletheory.tui.forms import bundled_morphologies
+
+    swc = str(bundled_morphologies() / "lumenia_pv7_interneuron.swc")
+    assert snap_compare(CableApp(view="tree", swc=swc), terminal_size=SIZE, run_before=steady)
+
+
+def test_check_view_coarse_run(snap_compare):
+    """F5 with the coarse simulator run of worked/simulator_check: flagged, worst point, error over time."""
+    from pathlib import Path
+
+    csv = Path(__file__).resolve().parent.parent / "worked" / "simulator_check" / "coarse.csv"
+
+    async def relative_path(pilot) -> None:
+        # show a short, machine-independent path in the file field
+        await steady(pilot)
+        box = pilot.app.query_one("#ck-file", Input)
+        box.value = "worked/simulator_check/coarse.csv"
+        box.cursor_position = 0
+        await pilot.pause()
+
+    app = CableApp(view="check", simulation=str(csv))
+    assert snap_compare(app, terminal_size=SIZE, run_before=relative_path)

@@ -21,8 +21,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     )
     parser.add_argument("swc", nargs="?", metavar="SWC",
                         help="an SWC morphology to open in the tree view")
+    parser.add_argument("--check", metavar="CSV",
+                        help="a simulator's output (CSV) to compare in the check view")
     parser.add_argument("--view", choices=VIEW_NAMES, default=None,
-                        help="view shown first (default: cylinder, or tree when SWC is given)")
+                        help="view shown first (default: cylinder; tree when SWC is given; check with --check)")
     parser.set_defaults(run=run)
 
 
@@ -33,10 +35,16 @@ def run(args: argparse.Namespace) -> int:
         if not path.is_file():
             raise MissingFileError(f"SWC: {swc!r} does not exist or is not a file")
         swc = str(path)
-    view = args.view or ("tree" if swc else "cylinder")
+    check = args.check
+    if check is not None:
+        path = Path(check).expanduser()
+        if not path.is_file():
+            raise MissingFileError(f"--check: {check!r} does not exist or is not a file")
+        check = str(path)
+    view = args.view or ("tree" if swc else "check" if check else "cylinder")
     if view not in VIEW_NAMES:  # pragma: no cover - argparse checks choices
         raise InputError(f"--view: unknown view {view!r}")
     from ..tui.app import CableApp  # textual is imported here, never at start-up
 
-    CableApp(view=view, swc=swc).run()
+    CableApp(view=view, swc=swc, simulation=check).run()
     return 0

@@ -48,12 +48,13 @@ class CableApp(App[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding(k.key, k.action, k.description, priority=True, show=False) for k in GLOBAL_KEYS]
 
-    def __init__(self, *, view: str = "cylinder", swc: str | None = None) -> None:
+    def __init__(self, *, view: str = "cylinder", swc: str | None = None, simulation: str | None = None) -> None:
         super().__init__()
         if view not in VIEWS:
             raise ValueError(f"unknown view {view!r}")
-        self.start_view = "tree" if swc and view == "cylinder" else view
+        self.start_view = view
         self.swc = swc
+        self.simulation = simulation
 
     def compose(self) -> ComposeResult:
         from .charging_view import ChargingView
@@ -66,7 +67,7 @@ class CableApp(App[None]):
             yield CylinderView(id="cylinder")
             yield ChargingView(id="charging")
             yield TreeView(id="tree", swc=self.swc)
-            yield CheckView(id="check")
+            yield CheckView(id="check", file=self.simulation)
         yield Static(f"⚠ {PASSIVE_CAVEAT}", id="caveat")
         yield Static("", id="status")
 
@@ -74,6 +75,12 @@ class CableApp(App[None]):
         self.query_one(ViewBar).show(self.start_view)
         self.set_status("")
         self._focus_first(self.start_view)
+        self._activate(self.start_view)
+
+    def _activate(self, view: str) -> None:
+        activate = getattr(self.query_one(f"#{view}"), "activate", None)
+        if activate is not None:
+            activate()
 
     # -- views ------------------------------------------------------------------------------
     @property
@@ -83,6 +90,7 @@ class CableApp(App[None]):
     def action_show_view(self, view: str) -> None:
         self.query_one("#views", ContentSwitcher).current = view
         self.query_one(ViewBar).show(view)
+        self._activate(view)
         self.set_status("")
         self.call_after_refresh(self._focus_first, view)
 

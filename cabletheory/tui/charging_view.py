@@ -44,6 +44,7 @@ class ChargingView(Vertical):
     ]
 
     report: Report | None = None
+    active = False  # the solver first runs when the view is shown
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="columns"):
@@ -72,8 +73,11 @@ class ChargingView(Vertical):
                     yield CurvePlot(id="charging-time-plot")
                     yield CurvePlot(id="charging-space-plot")
 
-    def on_mount(self) -> None:
-        self.refresh_results()
+    def activate(self) -> None:
+        """Called when the view is shown; the first time, solve the form's defaults."""
+        if not self.active:
+            self.active = True
+            self.refresh_results()
 
     def _choice(self, radio_id: str, prefix: str, default: str) -> str:
         pressed = self.query_one(f"#{radio_id}", RadioSet).pressed_button
@@ -89,11 +93,13 @@ class ChargingView(Vertical):
 
     def on_input_changed(self, event: Input.Changed) -> None:
         event.stop()
-        self.refresh_results()
+        if self.active:
+            self.refresh_results()
 
     def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
         event.stop()
-        self.refresh_results()
+        if self.active:
+            self.refresh_results()
 
     def _cycle(self, choices: dict[str, str], current: str, prefix: str) -> None:
         keys = list(choices)
@@ -107,6 +113,7 @@ class ChargingView(Vertical):
         self._cycle(STIMULUS_CHOICES, self.stimulus_choice, "stimulus-")
 
     def action_run(self) -> None:
+        self.active = True
         self.refresh_results()
 
     def refresh_results(self) -> None:

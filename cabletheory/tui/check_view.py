@@ -1,16 +1,158 @@
-"""The check view (being built)."""
+"""The check view: a simulator's recorded voltages against the exact solution."""
 
 from __future__ import annotations
 
-from textual.containers import Vertical
-from textual.widgets import Static
+from pathlib import Path
+from typing import ClassVar
+
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.widgets import Input, Label, RadioButton, RadioSet, Static
+from textual.worker import get_current_worker
+
+from ..errors import CableTheoryError
+from .format import analyse_check, check_report
+from .forms import CHECK_FIELDS, CheckSetup, read_check_form
+from .report import Report
+from .widgets import CurvePlot, QuantityField, QuantityList
+
+PREFIX = "ck-"
+_SPECS = {spec.name: spec for spec in CHECK_FIELDS}
 
 
 class CheckView(Vertical):
-    report = None
+    """Simulator file and exact case on the left; verdict, worst point and error plot on the right."""
 
-    def __init__(self, *, id: str, **kwargs) -> None:
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("ctrl+r", "run", "compare again"),
+        Binding("ctrl+b", "next_axis", "error over time or over space"),
+    ]
+
+    report: Report | None = None
+    open_title = "Open a simulator's output (CSV: long or wide layout)"
+
+    def __init__(self, *, id: str, file: str | None = None) -> None:
         super().__init__(id=id)
+        self.initial_file = file or ""
 
-    def compose(self):
-        yield Static("coming soon")
+    @property
+    def open_folder(self) -> Path:
+        return Path.cwd()
+
+    @property
+    def open_suggestion(self) -> str:
+        return self.query_one(f"#{PREFIX}file", Input).value
+
+    @property
+    def input_files(self) -> tuple[str, ...]:
+        return (self.query_one(f"#{PREFIX}file", Input).value,)
+
+    def compose(self) -> ComposeResult:
+        with Horizontal(classes="columns"):
+            with VerticalScroll(classes="form", id="check-form", can_focus=False):
+                yield Static("simulator against the exact answer", classes="form-title")
+                yield QuantityField(_SPECS["file"], prefix=PREFIX, value=self.initial_file)
+                yield Label("the simulated cable", classes="group-label")
+                for name in ("Rm", "Ri", "Cm", "diameter", "length", "end"):
+                    yield QuantityField(_SPECS[name], prefix=PREFIX)
+                yield Label("stimulus and file", classes="group-label")
+                for name in ("current", "rest", "onset", "tolerance"):
+                    yield QuantityField(_SPECS[name], prefix=PREFIX)
+                yield Label("error plotted  (ctrl+b switches)", classes="group-label")
+                with RadioSet(id="ck-axis", compact=True):
+                    yield RadioButton("over time, at each site", value=True, id="axis-time", compact=True)
+                    yield RadioButton("over space, largest per site", id="axis-space", compact=True)
+                yield Static("The file holds the simulator's voltages at one or more sites (long or wide "
+                             "CSV, see docs/verify.md); the exact answer is a current step at the origin.",
+                             classes="hint")
+            with Vertical(classes="output"):
+                yield QuantityList(id="check-results", classes="results")
+                yield CurvePlot(id="check-plot")
+
+    def on_mount(self) -> None:
+        if self.initial_file:
+            self.refresh_results()
+        else:
+            self.query_one("#check-results", QuantityList).update(
+                "Open a simulator's output: type its path in the file field and press enter, or press ctrl+o.")
+
+    def open_path(self, path: str) -> None:
+        self.query_one(f"#{PREFIX}file", Input).value = path
+        self.refresh_results()
+
+    @property
+    def axis(self) -> str:
+        pressed = self.query_one("#ck-axis", RadioSet).pressed_button
+        return "space" if pressed is not None and pressed.id == "axis-space" else "time"
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        self.refresh_results()
+
+    def on_input_changed(self, event: Input.Changed) -> None:
+        event.stop()
+        if event.input.id == f"{PREFIX}file":
+            self.query_one(f"#field-{PREFIX}file", QuantityField).flag(None)
+            return  # a file is opened with enter, not at every keystroke
+        if self.query_one(f"#{PREFIX}file", Input).value.strip():
+            self.refresh_results()
+
+    def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
+        event.stop()
+        self._show_plot()
+
+    def action_next_axis(self) -> None:
+        target = "axis-time" if self.axis == "space" else "axis-space"
+        self.query_one(f"#{target}", RadioButton).value = True
+
+    def action_run(self) -> None:
+        self.refresh_results()
+
+    def refresh_results(self) -> None:
+        fields = {f.spec.name: f for f in self.query(QuantityField)}
+        setup, errors = read_check_form({n: f.input.value for n, f in fields.items()})
+        for name, field in fields.items():
+            field.flag(errors.get(name))
+        if setup is None:
+            self.workers.cancel_group(self, "compare")
+            self._clear(f"Results wait for valid inputs ({len(errors)} field{'s' if len(errors) > 1 else ''} "
+                        "flagged).")
+            return
+        self._busy(True)
+        self.compare(setup)
+
+    def _clear(self, message: str) -> None:
+        self._busy(False)
+        self.report = None
+        self.query_one("#check-results", QuantityList).update(message)
+        self.query_one(CurvePlot).spec = None
+
+    def _busy(self, busy: bool) -> None:
+        self.query_one("#check-results", QuantityList).border_subtitle = "comparing…" if busy else ""
+        self.query_one(CurvePlot).loading = busy
+
+    @work(exclusive=True, thread=True, group="compare")
+    def compare(self, setup: CheckSetup) -> None:
+        worker = get_current_worker()
+        try:
+            result: Report | str = check_report(setup, analyse_check(setup))
+        except CableTheoryError as exc:
+            result = str(exc)
+        if not worker.is_cancelled:
+            self.app.call_from_thread(self._show, result)
+
+    def _show(self, result: Report | str) -> None:
+        self._busy(False)
+        if isinstance(result, str):
+            self.query_one(f"#field-{PREFIX}file", QuantityField).flag(result)
+            self._clear("The file could not be compared; see the message under the file field.")
+            return
+        self.report = result
+        self.query_one("#check-results", QuantityList).show(result.results, result.notes[:1])
+        self._show_plot()
+
+    def _show_plot(self) -> None:
+        if self.report is not None:
+            self.query_one(CurvePlot).spec = self.report.plots[0 if self.axis == "time" else 1]

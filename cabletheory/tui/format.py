@@ -7,16 +7,31 @@ values with their kinds); units and prefixes are added when the report is shown 
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from ..cable import CableSummary, Cylinder, summarise
 from ..cli.common import end_description
 from ..units import format_quantity
-from .forms import MODEL_CHOICES, STIMULUS_CHOICES, ChargingSetup
+from .forms import (
+    EXACT_TOLERANCE,
+    MODEL_CHOICES,
+    STIMULUS_CHOICES,
+    ChargingSetup,
+    CheckSetup,
+    TreeSetup,
+    parse_file_quantity,
+)
 from .report import Column, PlotSpec, Report, Row, Series, Table
 
-__all__ = ["cable_report", "cable_summary", "charging_report", "profile_positions"]
+if TYPE_CHECKING:  # pragma: no cover
+    from ..tree import TreeReport
+    from ..verify import Comparison, ExactCase, Recording
+
+__all__ = ["analyse_check", "analyse_file", "cable_report", "cable_summary", "charging_report", "check_report",
+           "profile_positions", "tree_outline", "tree_report"]
 
 PROFILE_POINTS = 41
 SEMI_INFINITE_SPAN = 5.0  # a semi-infinite cable is shown over 0 ≤ X ≤ 5 (e^-5 < 1 %)
@@ -200,4 +215,272 @@ def charging_report(setup: ChargingSetup, tolerance: float = 1e-10) -> Report:
     notes = (*over_time.notes, f"requested tolerance {tolerance:g} of the reference voltage")
     title = f"Charging: {STIMULUS_CHOICES[setup.stimulus_choice]} into a {MODEL_CHOICES[setup.model_choice]}"
     return Report("charging", title, tuple(_model_rows(setup) + _stimulus_rows(setup)), tuple(results),
+                  tables, (time_plot, space_plot), notes)
+
+
+# ---------------------------------------------------------------------------------------------
+# tree view (3/2 audit, equivalent cylinder)
+# ---------------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class OutlineNode:
+    """One line of the tree outline: the root, a stem, a branch point or a tip."""
+
+    key: str  # unique id for the widget
+    parent: int  # index of the parent line in the outline (-1 for the root)
+    text: str
+    flag: bool  # departs from Rall's conditions beyond the tolerance
+
+
+def analyse_file(setup: TreeSetup) -> TreeReport:
+    """Read the morphology, build the tree and audit it (the worker's job)."""
+    from ..morphology import read_morphology
+    from ..tree import Tolerances, analyse_tree, build_tree
+
+    morphology = read_morphology(setup.path)
+    tree = build_tree(morphology)
+    tolerances = Tolerances(branch_ratio=setup.branch_ratio_tolerance, tip_spread=setup.tip_spread_tolerance)
+    return analyse_tree(tree, setup.membrane_resistivity, setup.axial_resistivity, setup.membrane_capacitance,
+                        tolerances=tolerances, killed_tips=setup.killed_tips)
+
+
+def tree_outline(r: TreeReport) -> list[OutlineNode]:
+    """Root, stems, branch points (with their 3/2 ratio) and tips (with their X), as a hierarchy.
+
+    The parent of each line is its nearest ancestor that is itself a line; unbranched runs
+    of segments between them are not listed.
+    """
+    from ..tree import SWC_NAMES
+
+    t = r.tree
+    parents = np.asarray(t.parents)
+    n = len(t)
+    children = np.bincount(parents[parents >= 0], minlength=n)
+    bad = {(v.kind, v.id) for v in r.violations}
+    ratio = dict(zip(r.branch_points.ids, r.branch_points.ratios.tolist(), strict=True))
+    bp_x = dict(zip(r.branch_points.ids, r.branch_points.electrotonic_distances.tolist(), strict=True))
+    tip_x = dict(zip(r.tips.ids, r.tips.electrotonic_distances.tolist(), strict=True))
+    stems = {s.id: s for s in r.stems}
+    nodes = [OutlineNode("root", -1, f"{t.root_label} (input site)", False)]
+    line_of = [-1] * n  # outline line of the nearest listed ancestor-or-self of each segment
+    for i in range(n):
+        p = int(parents[i])
+        above = 0 if p < 0 else line_of[p]
+        label = t.labels[i]
+        text = None
+        flag = False
+        if p < 0:
+            s = stems[label]
+            text = (f"stem {label} · {SWC_NAMES.get(s.type, f'type {s.type}')} · "
+                    f"d {format_quantity(s.diameter, 'length', 3)}")
+            if children[i] != 1:  # the stem's first segment is also a branch point or a tip
+                nodes.append(OutlineNode(f"stem-{label}", above, text, False))
+                above = len(nodes) - 1
+                text = None
+        if text is None and children[i] >= 2:
+            flag = ("branch_ratio", label) in bad
+            text = f"{'✗' if flag else '✓'} {label}  ratio {ratio[label]:.3f}  X {bp_x[label]:.3f}"
+        elif text is None and children[i] == 0:
+            flag = ("tip_distance", label) in bad
+            text = f"{'✗' if flag else '•'} tip {label}  X {tip_x[label]:.3f}"
+        if text is None:
+            line_of[i] = above
+            continue
+        nodes.append(OutlineNode(f"seg-{label}", above, text, flag))
+        line_of[i] = len(nodes) - 1
+    return nodes
+
+
+def tree_report(r: TreeReport) -> Report:
+    """Verdict with reasons, equivalent cylinder, exact and reduced input resistance, tables, plot."""
+    t, c = r.tree, r.equivalent_cylinder
+    inputs = [
+        Row("file", "file", t.source),
+        Row("membrane_resistivity", "Rm", r.membrane_resistivity, "membrane_resistivity"),
+        Row("axial_resistivity", "Ri", r.axial_resistivity, "axial_resistivity"),
+        Row("membrane_capacitance", "Cm", r.membrane_capacitance, "membrane_capacitance"),
+        Row("tips", "tips", "killed" if r.killed_tips else "sealed"),
+        Row("branch_ratio_tolerance", "ratio tolerance", r.tolerances.branch_ratio),
+        Row("tip_spread_tolerance", "tip spread tolerance (λ)", r.tolerances.tip_spread),
+    ]
+    verdict = "reducible" if r.reducible else "NOT reducible"
+    results = [
+        Row("verdict", "verdict", verdict, flag=not r.reducible),
+        Row("branch_points", "branch points", len(r.branch_points.ids),
+            flag=any(v.kind == "branch_ratio" for v in r.violations)),
+        Row("tips", "tips", len(r.tips.ids)),
+        Row("tip_distance_range", "tip X range",
+            f"{r.tip_distance_min:.4g} – {r.tip_distance_max:.4g}",
+            flag=any(v.kind == "tip_distance" for v in r.violations)),
+        Row("equivalent_diameter", "equivalent cylinder d", c.diameter, "length"),
+        Row("equivalent_length", "equivalent cylinder ℓ", c.length, "length"),
+        Row("equivalent_electrotonic_length", "equivalent cylinder L", c.electrotonic_length, "dimensionless"),
+        Row("input_resistance", "Rin exact (whole tree)", r.input_resistance, "resistance"),
+        Row("reduced_input_resistance", "Rin reduced model", r.reduced_input_resistance, "resistance"),
+        Row("difference_percent", "reduced − exact", r.difference_percent, None, "%",
+            shown=f"{r.difference_percent:+.3g} %"),
+    ]
+    if r.conductance_ratio is not None:
+        results.append(Row("conductance_ratio", "ρ = G_D/G_S", r.conductance_ratio,
+                           "dimensionless"))
+    results.append(Row("membrane_area", "dendritic area", r.membrane_area, "area"))
+    bp, tips = r.branch_points, r.tips
+    bad = {(v.kind, v.id) for v in r.violations}
+    tables = (
+        Table("branch_points", "Branch points", (
+            Column("id", "branch point", list(bp.ids)),
+            Column("ratio", "Σd_child^3/2 / d_parent^3/2", bp.ratios, "dimensionless"),
+            Column("electrotonic_distance", "X", bp.electrotonic_distances, "dimensionless"),
+            Column("parent_diameter", "parent d", bp.parent_diameters, "length"),
+            Column("outside_tolerance", "outside tolerance", [("branch_ratio", i) in bad for i in bp.ids]),
+            Column("line", "line", bp.lines.tolist()))),
+        Table("tips", "Tips", (
+            Column("id", "tip", list(tips.ids)),
+            Column("electrotonic_distance", "X", tips.electrotonic_distances, "dimensionless"),
+            Column("path_length", "path length", tips.path_lengths, "length"),
+            Column("stem", "stem", list(tips.stems)),
+            Column("outside_tolerance", "outside tolerance", [("tip_distance", i) in bad for i in tips.ids]),
+            Column("line", "line", tips.lines.tolist()))),
+    )
+    cable = r.equivalent_cable
+    x = np.asarray(cable.positions)
+    profile = Series("tree", x, np.asarray(cable.equivalent_diameters) * 1e6)
+    cylinder = Series("equivalent cylinder", np.array([0.0, c.electrotonic_length]),
+                      np.array([c.diameter, 0.0]) * 1e6)
+    plot = PlotSpec("Equivalent cable: (Σ d^3/2)^2/3 against X", "X from the input site", "d (µm)",
+                    (profile, cylinder), steps=True)
+    notes = tuple(r.reasons) + tuple(r.notes)
+    return Report("tree", f"Tree: {t.source}", tuple(inputs), tuple(results), tables, (plot,), notes)
+
+
+# ---------------------------------------------------------------------------------------------
+# check view (a simulator's output against the exact solution)
+# ---------------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class CheckAnalysis:
+    """What the worker computes: the recording, the exact case, the comparison, per-sample errors."""
+
+    recording: Recording
+    case: ExactCase
+    comparison: Comparison
+    errors: np.ndarray  # V, simulated − exact at every sample
+
+
+def exact_case(setup: CheckSetup) -> ExactCase:
+    """The exact answer for a current step at the origin of the form's cylinder.
+
+    A sealed far end uses :func:`cabletheory.verify.sealed_step_case`; killed and leaky ends
+    use :func:`cabletheory.transient.charge` through a thin adapter that evaluates the same
+    (time, position) pairs.
+    """
+    from ..verify import ExactCase, sealed_step_case
+
+    c = setup.cylinder
+    if c.end_conductance == 0:
+        return sealed_step_case(c, setup.current, EXACT_TOLERANCE)
+    from ..transient import CurrentStep, charge
+
+    def evaluate(times: np.ndarray, positions: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        t_values, t_index = np.unique(times, return_inverse=True)
+        x_values, x_index = np.unique(positions, return_inverse=True)
+        response = charge(c, CurrentStep(setup.current), t_values, x_values, tolerance=1e-10)
+        values = response.voltage[t_index, x_index]
+        return values, np.full(values.shape, response.error_bound)
+
+    return ExactCase(evaluate=evaluate, description=f"finite cylinder, {_end_text(c)} far end, current step "
+                                                   "at the origin",
+                     method="cabletheory.transient.charge (images and eigen-series with tail bounds)",
+                     length=c.length)
+
+
+def analyse_check(setup: CheckSetup) -> CheckAnalysis:
+    """Read the simulator file, build the exact case and compare them (the worker's job)."""
+    from ..errors import InputError
+    from ..verify import compare, read_recording
+
+    try:
+        text = setup.path.read_text(encoding="utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError(f"{setup.path}: not a UTF-8 text file") from None
+    except OSError as exc:
+        raise InputError(f"{setup.path}: cannot be read ({exc.strerror})") from None
+    recording = read_recording(text, str(setup.path), parse_file_quantity, resting_potential=setup.rest,
+                               time_offset=setup.onset)
+    case = exact_case(setup)
+    comparison = compare(recording, case, setup.tolerance, relative=setup.relative)
+    exact = np.zeros(recording.times.size)
+    after = recording.times >= 0  # before the onset the exact answer is rest (as in verify.compare)
+    if np.any(after):
+        exact[after] = case.evaluate(recording.times[after],
+                                     np.minimum(recording.positions[after], setup.cylinder.length))[0]
+    return CheckAnalysis(recording, case, comparison, recording.voltage - exact)
+
+
+def _voltage_scale(largest: float) -> tuple[float, str]:
+    """Factor and unit label for plotting voltages of this size (V -> mV, µV or nV)."""
+    for factor, unit in ((1e3, "mV"), (1e6, "µV")):
+        if largest * factor >= 1:
+            return factor, unit
+    return 1e9, "nV"
+
+
+def check_report(setup: CheckSetup, a: CheckAnalysis) -> Report:
+    """Verdict, error summary, the worst point, and the error over time (per site) and over space."""
+    c, rec = a.comparison, a.recording
+    cylinder = setup.cylinder
+    inputs = [
+        Row("file", "simulator output", rec.name),
+        Row("membrane_resistivity", "Rm", cylinder.membrane_resistivity, "membrane_resistivity"),
+        Row("axial_resistivity", "Ri", cylinder.axial_resistivity, "axial_resistivity"),
+        Row("membrane_capacitance", "Cm", cylinder.membrane_capacitance, "membrane_capacitance"),
+        Row("diameter", "diameter", cylinder.diameter, "length"),
+        Row("length", "length", cylinder.length, "length"),
+        Row("end_conductance", "far end", cylinder.end_conductance, "conductance", shown=_end_text(cylinder)),
+        Row("current", "current step at the origin", setup.current, "current"),
+        Row("resting_potential", "resting V subtracted", rec.resting_potential, "voltage",
+            shown="each site's first sample" if setup.rest == "first" else None),
+        Row("onset", "step onset in the file's clock", setup.onset, "time"),
+        Row("tolerance", "tolerance", c.tolerance, None if setup.relative else "voltage",
+            shown=f"{100 * c.tolerance:g} % of the peak exact voltage" if setup.relative else None),
+    ]
+    results = [
+        Row("verdict", "verdict", "within tolerance" if c.passed else "FLAGGED: error above tolerance",
+            flag=not c.passed),
+        Row("samples", "samples compared", c.samples),
+        Row("max_abs_error", "largest |error|", c.max_abs_error, "voltage", flag=not c.passed),
+        Row("rms_abs_error", "rms error", c.rms_abs_error, "voltage"),
+        Row("max_rel_error", "largest |error| / peak", c.max_rel_error, None, shown=f"{100 * c.max_rel_error:.3g} %"),
+        Row("worst_time", "worst point: time after onset", c.worst_time, "time"),
+        Row("worst_position", "worst point: position", c.worst_position, "length",
+            shown=distance_text(c.worst_position)),
+        Row("worst_line", "worst point: file line", c.worst_line),
+        Row("worst_simulated", "worst point: simulated V", c.worst_simulated, "voltage"),
+        Row("worst_exact", "worst point: exact V", c.worst_exact, "voltage"),
+        Row("reference_bound", "exact solution's own error bound", c.reference_bound, "voltage"),
+    ]
+    sites = np.asarray(c.sites)
+    factor, unit = _voltage_scale(float(np.max(np.abs(a.errors), initial=0.0)))
+    over_time = []
+    for site in sites:
+        mine = rec.positions == site
+        order = np.argsort(rec.times[mine], kind="stable")
+        over_time.append(Series(f"x = {distance_text(float(site))}", rec.times[mine][order] * 1e3,
+                                a.errors[mine][order] * factor))
+    time_plot = PlotSpec("Simulated − exact over time, at each site", "t after onset (ms)", f"error ({unit})",
+                         tuple(over_time))
+    space_plot = PlotSpec("Largest |simulated − exact| at each site", "x (µm)", f"|error| ({unit})",
+                          (Series("largest |error|", sites * 1e6, np.asarray(c.site_max_abs_error) * factor),))
+    tables = (
+        Table("samples", "Every sample", (
+            Column("time", "t after onset", rec.times, "time"),
+            Column("position", "x", rec.positions, "length"),
+            Column("simulated", "simulated V", rec.voltage, "voltage"),
+            Column("error", "simulated − exact", a.errors, "voltage"),
+            Column("line", "line", rec.lines.tolist()))),
+        Table("sites", "Largest error at each site", (
+            Column("position", "x", sites, "length"),
+            Column("max_abs_error", "largest |error|", c.site_max_abs_error, "voltage"))),
+    )
+    notes = (f"exact case: {a.case.description}; {a.case.method}",
+             *(f"assumed unit: {u}" for u in rec.assumed))
+    return Report("check", f"Check: {rec.name} against the exact solution", tuple(inputs), tuple(results),
                   tables, (time_plot, space_plot), notes)

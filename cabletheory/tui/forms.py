@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 
@@ -267,3 +268,141 @@ def read_charging_form(texts: Mapping[str, str], model: str, stimulus: str
     positions = tuple(np.linspace(low, top, PROFILE_POINTS).tolist())
     return ChargingSetup(model_object, stim, model, stimulus, times, tuple(watch), positions,
                          tuple(float(t) for t in v["moments"]), end_text.strip()), {}  # type: ignore[union-attr]
+
+
+# ---------------------------------------------------------------------------------------------
+# the tree form
+# ---------------------------------------------------------------------------------------------
+def bundled_morphologies() -> Path:
+    """The folder of the bundled (invented) demo morphologies."""
+    from importlib import resources
+
+    return Path(str(resources.files("cabletheory") / "data" / "morphologies"))
+
+
+DEMO_SWC = "lumenia_lw1_conforming.swc"
+
+TREE_FIELDS: tuple[FieldSpec, ...] = (
+    FieldSpec("file", "file", "dimensionless", "", placeholder="path to .swc or .tree (enter opens)"),
+    FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
+    FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
+    FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
+    FieldSpec("ratio_tolerance", "ratio tolerance", "dimensionless", "0.05", allow_zero=True),
+    FieldSpec("tip_tolerance", "tip spread (λ)", "dimensionless", "0.05", allow_zero=True),
+)
+
+
+@dataclass(frozen=True, slots=True)
+class TreeSetup:
+    path: Path
+    membrane_resistivity: float  # Ω·m²
+    axial_resistivity: float  # Ω·m
+    membrane_capacitance: float  # F/m²
+    branch_ratio_tolerance: float
+    tip_spread_tolerance: float
+    killed_tips: bool
+
+
+def read_tree_form(texts: Mapping[str, str], tips: str) -> tuple[TreeSetup | None, dict[str, str]]:
+    """The file and membrane of the tree form, or the messages of the fields that are wrong.
+
+    The file is only checked for existence here; reading it is the worker's job.
+    """
+    if tips not in ("sealed", "killed"):
+        raise ValueError(f"unknown tip condition {tips!r}")
+    form = read_form([s for s in TREE_FIELDS if s.name != "file"], texts)
+    errors = dict(form.errors)
+    text = texts.get("file", "").strip()
+    path = Path(text).expanduser()
+    if not text:
+        errors["file"] = "file: empty; give the path of an SWC file (ctrl+o picks one)"
+    elif not path.is_file():
+        errors["file"] = f"file: {text!r} does not exist or is not a file"
+    for name in ("ratio_tolerance", "tip_tolerance"):
+        value = form.values.get(name)
+        if name not in errors and value is not None and float(value) >= 1:  # type: ignore[arg-type]
+            errors[name] = f"{name.replace('_', ' ')}: {texts.get(name)!r} is too large; expected e.g. 0.05"
+    if errors:
+        return None, errors
+    v = form.values
+    return TreeSetup(path, float(v["Rm"]), float(v["Ri"]), float(v["Cm"]),  # type: ignore[arg-type]
+                     float(v["ratio_tolerance"]), float(v["tip_tolerance"]), tips == "killed"), {}  # type: ignore[arg-type]
+
+
+# ---------------------------------------------------------------------------------------------
+# the check (verification) form
+# ---------------------------------------------------------------------------------------------
+# Defaults: the invented Tidewater Station simulator check (worked/simulator_check).
+CHECK_FIELDS: tuple[FieldSpec, ...] = (
+    FieldSpec("file", "file", "dimensionless", "", placeholder="simulator CSV (enter opens)"),
+    FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
+    FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
+    FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
+    FieldSpec("diameter", "diameter", "length", "2 µm"),
+    FieldSpec("length", "length", "length", "500 µm"),
+    FieldSpec("end", "far end", "conductance", "sealed", placeholder="sealed, killed or e.g. 0.5 nS"),
+    FieldSpec("current", "current step", "current", "100 pA", allow_negative=True),
+    FieldSpec("rest", "resting V", "voltage", "-62 mV", allow_zero=True, allow_negative=True,
+              placeholder="e.g. -65 mV, 0, or 'first'"),
+    FieldSpec("onset", "step onset", "time", "1 ms", allow_zero=True, allow_negative=True),
+    FieldSpec("tolerance", "tolerance", "voltage", "20 µV", placeholder="e.g. 20 µV or 1 %"),
+)
+EXACT_TOLERANCE = 1e-12  # V, bound on the exact solution's own truncation error
+
+
+@dataclass(frozen=True, slots=True)
+class CheckSetup:
+    path: Path
+    cylinder: Cylinder
+    current: float  # A, step at the origin
+    rest: float | str  # V, or "first"
+    onset: float  # s, in the file's clock
+    tolerance: float  # V, or a fraction of the peak exact voltage when ``relative``
+    relative: bool
+
+
+def parse_file_quantity(text: str, kind: str, where: str) -> float:
+    """The quantity parser :func:`cabletheory.verify.read_recording` needs (any sign allowed)."""
+    return parse_quantity(text, kind, where, allow_zero=True, allow_negative=True)
+
+
+def read_check_form(texts: Mapping[str, str]) -> tuple[CheckSetup | None, dict[str, str]]:
+    """The simulator file, the exact case and the tolerance of the check form, or messages."""
+    texts = {**{s.name: s.default for s in CHECK_FIELDS}, **texts}
+    plain = [s for s in CHECK_FIELDS if s.name not in ("file", "end", "rest", "tolerance")]
+    form = read_form(plain, texts)
+    errors = dict(form.errors)
+    text = texts.get("file", "").strip()
+    if not text:
+        errors["file"] = "file: empty; give the path of the simulator's CSV output (ctrl+o picks one)"
+    elif not Path(text).expanduser().is_file():
+        errors["file"] = f"file: {text!r} does not exist or is not a file"
+    end = 0.0
+    try:
+        end = read_end(texts.get("end", "sealed"))
+    except InputError as exc:
+        errors["end"] = str(exc)
+    rest_text = texts.get("rest", "0").strip()
+    rest: float | str = "first"
+    if rest_text.lower() != "first":
+        try:
+            rest = parse_quantity(rest_text, "voltage", "resting V", allow_zero=True, allow_negative=True)
+        except InputError as exc:
+            errors["rest"] = str(exc)
+    tolerance_text = texts.get("tolerance", "20 µV").strip()
+    relative = tolerance_text.endswith("%")
+    tolerance = 0.0
+    try:
+        if relative:
+            tolerance = parse_quantity(tolerance_text[:-1], "dimensionless", "tolerance") / 100.0
+        else:
+            tolerance = parse_quantity(tolerance_text, "voltage", "tolerance")
+    except InputError as exc:
+        errors["tolerance"] = str(exc) + " (or a percentage such as 1 %)"
+    if errors:
+        return None, errors
+    v = form.values
+    cylinder = Cylinder(float(v["Rm"]), float(v["Ri"]), float(v["Cm"]),  # type: ignore[arg-type]
+                        float(v["diameter"]), float(v["length"]), end)  # type: ignore[arg-type]
+    return CheckSetup(Path(text).expanduser(), cylinder, float(v["current"]), rest,  # type: ignore[arg-type]
+                      float(v["onset"]), tolerance, relative), {}  # type: ignore[arg-type]

@@ -123,6 +123,8 @@ def tick_label(value: float) -> str:
     """Short tick text: '0', '0.25', '1.5e-05', '200'."""
     if value == 0:
         return "0"
+    if 1e-3 <= abs(value) < 1e5:
+        return np.format_float_positional(value, precision=3, unique=True, fractional=False, trim="-")
     text = f"{value:.3g}"
     return text.replace("e-0", "e-").replace("e+0", "e").replace("e+", "e")
 

@@ -1,0 +1,235 @@
+"""Tree and check views driven through Pilot: open a bundled morphology, open simulator output, export.
+
+Reference values: the demo tree of shared/reference/checks.md §3.1 [COMP] (Rall 1959, 1964:
+equivalent cylinder; exact branched-tree solver) and the simulator check of
+worked/simulator_check (its expected.txt, from ``cabletheory compare``).
+"""
+
+from __future__ import annotations
+
+import asyncio
+import json
+from pathlib import Path
+
+import pytest
+
+pytest.importorskip("textual")
+
+from textual.widgets import Input, Tree
+
+from cabletheory.tui.app import CableApp
+from cabletheory.tui.dialogs import OpenScreen, SaveScreen
+from cabletheory.tui.forms import bundled_morphologies
+
+SIZE = (120, 36)
+ROOT = Path(__file__).resolve().parent.parent
+SIMULATOR = ROOT / "worked" / "simulator_check"
+PV7 = bundled_morphologies() / "lumenia_pv7_interneuron.swc"
+DEMO_TREE = bundled_morphologies() / "lumenia_demo.tree"
+
+
+def drive(script, **options) -> CableApp:
+    app = CableApp(**options)
+
+    async def main() -> None:
+        async with app.run_test(size=SIZE) as pilot:
+            await settle(app, pilot)
+            await script(app, pilot)
+
+    asyncio.run(main())
+    return app
+
+
+async def settle(app, pilot) -> None:
+    await pilot.pause()
+    await app.workers.wait_for_complete()
+    await pilot.pause()
+
+
+def text_of(node, selector: str) -> str:
+    return str(node.query_one(selector).render())
+
+
+def outline_labels(app) -> list[str]:
+    tree = app.query_one("#tree-outline", Tree)
+    labels = []
+
+    def walk(node) -> None:
+        labels.append(str(node.label))
+        for child in node.children:
+            walk(child)
+
+    walk(tree.root)
+    return labels
+
+
+# -- tree view -----------------------------------------------------------------------------------------
+def test_tree_view_reads_the_bundled_demo_when_first_shown():
+    async def script(app, pilot):
+        assert app.query_one("#tree").report is None  # nothing is read before the view is shown
+        await pilot.press("f4")
+        await settle(app, pilot)
+        results = text_of(app, "#tree-results")
+        assert "verdict                 reducible" in results
+        labels = outline_labels(app)
+        assert labels[0] == "soma (point 1) (input site)"
+        assert sum(label.startswith("✓") for label in labels) == 17  # every branch point passes
+        assert sum("tip" in label for label in labels) == 20
+        assert not any(label.startswith("✗") for label in labels)
+        assert len(app.query_one("#tree-plot").spec.series) == 2
+
+    drive(script)
+
+
+def test_tree_view_opens_a_file_from_the_dialog_and_highlights_failures():
+    async def script(app, pilot):
+        await pilot.press("f4")
+        await settle(app, pilot)
+        await pilot.press("ctrl+o")
+        assert isinstance(app.screen, OpenScreen)
+        box = app.screen.query_one("#open-path", Input)
+        box.value = str(PV7)
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert not isinstance(app.screen, OpenScreen)
+        results = text_of(app, "#tree-results")
+        assert "NOT reducible" in results
+        assert "3/2 rule: 29 of 33 branch points" in results
+        labels = outline_labels(app)
+        assert sum(label.startswith("✗") for label in labels) > 20
+        flagged = [n for n in app.query_one("#tree-outline", Tree).root.children[0].children
+                   if str(n.label).startswith("✗")]
+        assert all("bold" in str(n.label.style) for n in flagged)
+
+    drive(script)
+
+
+def test_tree_view_exact_and_reduced_input_resistance_of_the_demo_tree(tmp_path):
+    """checks.md §3.1 [COMP]: with a 20 µm soma, R_N = 185.1329030 MΩ and ρ = 7.596794008, the same
+    for the whole tree and for soma + equivalent cylinder (L = 0.9954565254)."""
+    target = tmp_path / "tree.json"
+
+    async def script(app, pilot):
+        app.query_one("#tree").open_path(str(DEMO_TREE))
+        await settle(app, pilot)
+        results = text_of(app, "#tree-results")
+        assert "185.1 MΩ" in results
+        await pilot.press("ctrl+s")
+        app.screen.query_one("#save-path", Input).value = str(target)
+        await pilot.press("enter")
+        await pilot.pause()
+        assert not isinstance(app.screen, SaveScreen)
+
+    drive(script, view="tree")
+    data = json.loads(target.read_text(encoding="utf-8"))
+    assert data["results"]["input_resistance"]["value"] == pytest.approx(185.1329030e6, rel=1e-8)
+    assert data["results"]["reduced_input_resistance"]["value"] == pytest.approx(185.1329030e6, rel=1e-8)
+    assert data["results"]["conductance_ratio"]["value"] == pytest.approx(7.596794008, rel=1e-8)
+    assert data["results"]["equivalent_electrotonic_length"]["value"] == pytest.approx(0.9954565254, rel=1e-9)
+    assert data["tables"]["tips"]["id"] == ["left.a", "left.b", "right.a", "right.b"]
+
+
+def test_tree_view_flags_a_missing_file_and_a_bad_membrane_value():
+    async def script(app, pilot):
+        await pilot.press("f4")
+        await settle(app, pilot)
+        box = app.query_one("#tr-file", Input)
+        box.value = "no/such/file.swc"
+        box.focus()
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert "does not exist" in text_of(app, "#field-tr-file .field-message")
+        assert app.query_one("#tree").report is None
+        app.query_one("#tr-file", Input).value = str(PV7)
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert app.query_one("#tree").report is not None
+        app.query_one("#tr-Ri", Input).value = "200 µF/cm²"
+        await settle(app, pilot)
+        assert "is a specific membrane capacitance" in text_of(app, "#field-tr-Ri .field-message")
+        assert app.query_one("#tree").report is None
+
+    drive(script)
+
+
+def test_tree_view_killed_tips_lower_the_input_resistance():
+    async def script(app, pilot):
+        app.query_one("#tree").open_path(str(DEMO_TREE))
+        await settle(app, pilot)
+        sealed = app.query_one("#tree").report
+        await pilot.click("#tips-killed")
+        await settle(app, pilot)
+        killed = app.query_one("#tree").report
+        value = {r.key: r.value for r in sealed.results}["input_resistance"]
+        assert {r.key: r.value for r in killed.results}["input_resistance"] < value
+
+    drive(script, view="tree")
+
+
+# -- check view ----------------------------------------------------------------------------------------
+def test_check_view_flags_the_coarse_run_and_passes_the_refined_one():
+    """worked/simulator_check/expected.txt: coarse run max error 1.47 mV at 0 µm, 250 µs (line 11),
+    refined run 14.5 µV; tolerance 20 µV."""
+
+    async def script(app, pilot):
+        assert "Open a simulator's output" in text_of(app, "#check-results")
+        await pilot.press("ctrl+o")
+        app.screen.query_one("#open-path", Input).value = str(SIMULATOR / "coarse.csv")
+        await pilot.press("enter")
+        await settle(app, pilot)
+        results = text_of(app, "#check-results")
+        assert "FLAGGED" in results
+        assert "1.468 mV" in results
+        assert "worst point: file line            11" in results
+        assert app.query_one("#check-plot").spec.x_label == "t after onset (ms)"
+        await pilot.press("ctrl+b")
+        await pilot.pause()
+        assert app.query_one("#check-plot").spec.x_label == "x (µm)"
+        app.query_one("#check").open_path(str(SIMULATOR / "refined.csv"))
+        await settle(app, pilot)
+        results = text_of(app, "#check-results")
+        assert "within tolerance" in results
+        assert "14.47 µV" in results
+
+    drive(script, view="check")
+
+
+def test_check_view_tolerance_field_and_plot_export(tmp_path):
+    target = tmp_path / "errors.png"
+
+    async def script(app, pilot):
+        app.query_one("#check").open_path(str(SIMULATOR / "coarse.csv"))
+        await settle(app, pilot)
+        app.query_one("#ck-tolerance", Input).value = "5 %"  # relative: 4.4 % of the peak passes
+        await settle(app, pilot)
+        assert "within tolerance" in text_of(app, "#check-results")
+        app.query_one("#ck-tolerance", Input).value = "5 pA"
+        await settle(app, pilot)
+        assert "is a current" in text_of(app, "#field-ck-tolerance .field-message")
+        app.query_one("#ck-tolerance", Input).value = "20 µV"
+        await settle(app, pilot)
+        await pilot.press("ctrl+g")
+        app.screen.query_one("#save-path", Input).value = str(target)
+        await pilot.press("enter")
+        await pilot.pause()
+
+    drive(script, view="check")
+    assert target.read_bytes().startswith(b"\x89PNG")
+
+
+def test_check_view_refuses_to_overwrite_the_simulator_file(tmp_path):
+    source = tmp_path / "run.csv"
+    source.write_bytes((SIMULATOR / "coarse.csv").read_bytes())
+
+    async def script(app, pilot):
+        app.query_one("#check").open_path(str(source))
+        await settle(app, pilot)
+        await pilot.press("ctrl+s")
+        app.screen.query_one("#save-path", Input).value = str(source)
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, SaveScreen)
+        assert "also an input file" in text_of(app.screen, "#save-message")
+
+    drive(script, view="check")
+    assert source.read_bytes() == (SIMULATOR / "coarse.csv").read_bytes()
