@@ -153,3 +153,12 @@ def test_bad_option_combinations(tmp_path, capsys, extra: list[str], message: st
     assert message in err
     assert err.count("\n") == 1
     assert not out.exists()
+
+
+def test_charge_spelling_of_the_stimulus(tmp_path) -> None:
+    """'--shape pulse' (the charge command's spelling) is the same option as '--stimulus pulse'."""
+    args = ["--length", "500", "--duration", "1ms", "--at", "200um", "--times", "0.5, 2 ms", "--positions", "0, 200"]
+    one = table_of(tmp_path, [*args, "--shape", "pulse"])
+    two = table_of(tmp_path, [*args, "--stimulus", "pulse"])
+    assert one["voltage"] == two["voltage"]
+    assert "current pulse of 1 ms at x = 200 µm" in one["case"]

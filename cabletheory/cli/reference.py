@@ -36,8 +36,9 @@ def add_case_options(parser: argparse.ArgumentParser) -> None:
     model.add_argument("--infinite", action="store_true",
                        help="infinite cable (no --length, --end or soma); positions may be negative")
     group = parser.add_argument_group("stimulus")
-    group.add_argument("--stimulus", choices=list(STIMULI), metavar="SHAPE",
-                       help="step, pulse, alpha or clamp (default step; clamp when --voltage is given)")
+    group.add_argument("--stimulus", "--shape", dest="stimulus", choices=list(STIMULI), metavar="SHAPE",
+                       help="step, pulse, alpha or clamp (default step; clamp when --voltage is given); "
+                            "--shape is the same option, as in 'cabletheory charge'")
     group.add_argument("--current", "--amplitude", dest="current", metavar="I",
                        help=f"current of a step or pulse, peak of an alpha current (bare: pA; default "
                             f"{DEFAULT_CURRENT}); --amplitude is the same option")
