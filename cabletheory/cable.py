@@ -27,6 +27,7 @@ from numpy.typing import ArrayLike, NDArray
 __all__ = [
     "CableSummary",
     "Cylinder",
+    "UniformMembrane",
     "ac_length_constant",
     "axial_resistance_per_length",
     "electrotonic_length",
@@ -429,8 +430,45 @@ def transfer_impedance(semi_infinite_resistance: ArrayLike, electrotonic_length:
 # --------------------------------------------------------------------------------------
 # parameter and result objects
 # --------------------------------------------------------------------------------------
+class UniformMembrane:
+    """Derived constants shared by every uniform cable description.
+
+    Subclasses are frozen dataclasses with the fields ``membrane_resistivity`` (Ω·m²),
+    ``axial_resistivity`` (Ω·m), ``membrane_capacitance`` (F/m²) and ``diameter`` (m).
+    """
+
+    __slots__ = ()
+    membrane_resistivity: float
+    axial_resistivity: float
+    membrane_capacitance: float
+    diameter: float
+
+    def _check_membrane(self) -> None:
+        """Raise ValueError unless Rm, Ri, Cm and d are finite and positive."""
+        for name in ("membrane_resistivity", "axial_resistivity", "membrane_capacitance", "diameter"):
+            value = getattr(self, name)
+            if not (np.isfinite(value) and value > 0):
+                raise ValueError(f"{name} must be finite and positive, got {value!r}")
+
+    @property
+    def length_constant(self) -> float:
+        """λ in m (:func:`length_constant`)."""
+        return float(length_constant(self.membrane_resistivity, self.axial_resistivity, self.diameter))
+
+    @property
+    def time_constant(self) -> float:
+        """τm in s (:func:`membrane_time_constant`)."""
+        return float(membrane_time_constant(self.membrane_resistivity, self.membrane_capacitance))
+
+    @property
+    def semi_infinite_input_resistance(self) -> float:
+        """R∞ in Ω (:func:`semi_infinite_input_resistance`)."""
+        return float(semi_infinite_input_resistance(self.membrane_resistivity, self.axial_resistivity,
+                                                    self.diameter))
+
+
 @dataclass(frozen=True, slots=True)
-class Cylinder:
+class Cylinder(UniformMembrane):
     """A uniform passive cylinder in SI units; input is applied at its origin (X = 0).
 
     ``length = inf`` is a semi-infinite cable. ``end_conductance`` is the conductance (S)
@@ -445,27 +483,11 @@ class Cylinder:
     end_conductance: float = 0.0  # G_end, S (0 sealed, inf killed)
 
     def __post_init__(self) -> None:
-        for name in ("membrane_resistivity", "axial_resistivity", "membrane_capacitance", "diameter"):
-            value = getattr(self, name)
-            if not (np.isfinite(value) and value > 0):
-                raise ValueError(f"{name} must be finite and positive, got {value!r}")
+        self._check_membrane()
         if not self.length > 0:
             raise ValueError(f"length must be positive (inf for semi-infinite), got {self.length!r}")
         if not self.end_conductance >= 0:
             raise ValueError(f"end_conductance must be >= 0 (inf for killed), got {self.end_conductance!r}")
-
-    @property
-    def length_constant(self) -> float:
-        return float(length_constant(self.membrane_resistivity, self.axial_resistivity, self.diameter))
-
-    @property
-    def time_constant(self) -> float:
-        return float(membrane_time_constant(self.membrane_resistivity, self.membrane_capacitance))
-
-    @property
-    def semi_infinite_input_resistance(self) -> float:
-        return float(semi_infinite_input_resistance(self.membrane_resistivity, self.axial_resistivity,
-                                                    self.diameter))
 
     @property
     def electrotonic_length(self) -> float:

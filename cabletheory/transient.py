@@ -45,7 +45,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from . import eigen
-from .cable import Cylinder, length_constant, membrane_time_constant, semi_infinite_input_resistance
+from .cable import Cylinder, UniformMembrane
 from .errors import ConvergenceError, InputError
 
 __all__ = [
@@ -222,7 +222,7 @@ class BallAndStick:
 
 
 @dataclass(frozen=True, slots=True)
-class InfiniteCable:
+class InfiniteCable(UniformMembrane):
     """A doubly infinite uniform cylinder; positions are distances along it (m, any sign)."""
 
     membrane_resistivity: float  # Rm, Ω·m²
@@ -231,29 +231,16 @@ class InfiniteCable:
     diameter: float  # d, m
 
     def __post_init__(self) -> None:
-        for name in ("membrane_resistivity", "axial_resistivity", "membrane_capacitance", "diameter"):
-            value = getattr(self, name)
-            if not (math.isfinite(value) and value > 0):
-                raise InputError(f"{name} must be finite and positive, got {value!r}")
+        try:
+            self._check_membrane()
+        except ValueError as exc:
+            raise InputError(str(exc)) from None
 
     @classmethod
     def like(cls, cylinder: Cylinder) -> InfiniteCable:
         """The infinite cable with the membrane, cytoplasm and diameter of ``cylinder``."""
         return cls(cylinder.membrane_resistivity, cylinder.axial_resistivity, cylinder.membrane_capacitance,
                    cylinder.diameter)
-
-    @property
-    def length_constant(self) -> float:
-        return float(length_constant(self.membrane_resistivity, self.axial_resistivity, self.diameter))
-
-    @property
-    def time_constant(self) -> float:
-        return float(membrane_time_constant(self.membrane_resistivity, self.membrane_capacitance))
-
-    @property
-    def semi_infinite_input_resistance(self) -> float:
-        return float(semi_infinite_input_resistance(self.membrane_resistivity, self.axial_resistivity,
-                                                    self.diameter))
 
 
 Model = Cylinder | BallAndStick | InfiniteCable
