@@ -141,8 +141,8 @@ def test_known_spike_in_every_transient_case(tmp_path, capsys, name: str) -> Non
 
 
 @pytest.mark.parametrize(("extra", "message"), [
-    (["--length", "500", "--stimulus", "pulse"], "--stimulus pulse needs --duration"),
-    (["--length", "500", "--time-to-peak", "1ms"], "--time-to-peak applies to --stimulus alpha"),
+    (["--length", "500", "--stimulus", "pulse"], "--shape pulse needs --duration"),
+    (["--length", "500", "--time-to-peak", "1ms"], "--time-to-peak applies to --shape alpha"),
     (["--infinite", "--length", "500"], "an infinite cable has no --length"),
     (["--length", "inf", "--soma-diameter", "20"], "a ball and stick needs a finite --length"),
     (["--length", "500", "--voltage", "5mV", "--at", "100um"], "a voltage clamp on a cylinder"),

@@ -128,10 +128,10 @@ def test_semi_infinite_csv_header(tmp_path, capsys) -> None:
 
 @pytest.mark.parametrize(("extra", "message"), [
     (["--length", "500", "--positions", "-10, 0 um"], "--positions"),
-    (["--length", "500", "--stimulus", "alpha"], "--stimulus alpha needs --time-to-peak"),
+    (["--length", "500", "--stimulus", "alpha"], "--shape alpha needs --time-to-peak"),
     (["--length", "500", "--duration", "1ms", "--stimulus", "alpha", "--time-to-peak", "1ms"],
-     "--duration applies to --stimulus pulse, not alpha"),
-    (["--length", "500", "--stimulus", "clamp"], "--stimulus clamp needs --voltage"),
+     "--duration applies to --shape pulse, not alpha"),
+    (["--length", "500", "--stimulus", "clamp"], "--shape clamp needs --voltage"),
     (["--length", "500", "--voltage", "5 mV", "--current", "5 pA"], "--current: a voltage clamp"),
     (["--length", "500", "--stimulus", "step", "--voltage", "5 mV"], "--voltage applies to a voltage clamp"),
     (["--infinite", "--soma-diameter", "20um"], "--soma-diameter"),

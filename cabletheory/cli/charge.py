@@ -15,16 +15,14 @@ from ..transient import (
     AlphaCurrent,
     BallAndStick,
     CurrentPulse,
-    CurrentStep,
     InfiniteCable,
     Response,
     VoltageStep,
     charge,
 )
 from ..units import format_quantity, parse_quantity, parse_series
-from .common import add_cable_options, dump_json, echo_cylinder, quantity, read_cylinder, table, write_atomically
-
-SHAPES = ("step", "pulse", "alpha")
+from .case import add_case_options, read_model, read_stimulus
+from .common import dump_json, echo_cylinder, quantity, table, write_atomically
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -36,22 +34,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                     "truncation error of every value.",
         epilog=PASSIVE_CAVEAT,
     )
-    add_cable_options(parser, length_required=False)
-    cell = parser.add_argument_group("cell")
-    cell.add_argument("--infinite", action="store_true",
-                      help="a doubly infinite cable (no --length); positions may be negative")
-    cell.add_argument("--soma-diameter", metavar="D",
-                      help="add a spherical soma of this diameter at the origin, same Rm and Cm (bare: µm)")
-    stim = parser.add_argument_group("stimulus (starts at t = 0)")
-    kind = stim.add_mutually_exclusive_group(required=True)
-    kind.add_argument("--current", metavar="I", help="injected current, e.g. 100pA (bare: pA); peak for alpha")
-    kind.add_argument("--voltage", metavar="V", help="voltage-clamp step at the origin, e.g. 10mV (bare: mV)")
-    stim.add_argument("--at", default="0", metavar="X",
-                      help="where the stimulus is applied, distance from the origin (bare: µm; default 0)")
-    stim.add_argument("--shape", default="step", choices=SHAPES,
-                      help="current shape: step (default), pulse of --duration, alpha with --time-to-peak")
-    stim.add_argument("--duration", metavar="T", help="pulse duration, e.g. 0.5ms (bare: ms)")
-    stim.add_argument("--time-to-peak", metavar="T", help="alpha current: time to its peak, e.g. 1ms (bare: ms)")
+    add_case_options(parser, default_current=None)
     out = parser.add_argument_group("output")
     out.add_argument("--times", metavar="TIMES",
                      help="times after onset: a list '0, 1, 5 ms' or a range '0:20:2 ms' (bare: ms; "
@@ -75,64 +58,12 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.set_defaults(run=run)
 
 
-def _model(args: argparse.Namespace):
-    if args.infinite:
-        if args.length is not None:
-            raise InputError("--infinite: give no --length (an infinite cable has none)")
-        if args.soma_diameter is not None:
-            raise InputError("--soma-diameter: a soma needs a finite cylinder, not --infinite")
-        if args.end != "sealed":
-            raise InputError("--end: an infinite cable has no end")
-        return InfiniteCable(
-            membrane_resistivity=parse_quantity(args.Rm, "membrane_resistivity", "--Rm"),
-            axial_resistivity=parse_quantity(args.Ri, "axial_resistivity", "--Ri"),
-            membrane_capacitance=parse_quantity(args.Cm, "membrane_capacitance", "--Cm"),
-            diameter=parse_quantity(args.diameter, "length", "--diameter"),
-        )
-    if args.length is None:
-        raise InputError("--length: required (e.g. 500um, or 'inf' for a semi-infinite cable; or use --infinite)")
-    cylinder = read_cylinder(args)
-    if args.soma_diameter is None:
-        return cylinder
-    soma = parse_quantity(args.soma_diameter, "length", "--soma-diameter")
-    if math.isinf(cylinder.length):
-        raise InputError("--soma-diameter: a ball and stick needs a finite --length")
-    return BallAndStick(cylinder, soma)
-
-
-def _stimulus(args: argparse.Namespace, infinite: bool):
-    at = parse_quantity(args.at, "length", "--at", allow_zero=True, allow_negative=infinite)
-    if args.voltage is not None:
-        if args.shape != "step":
-            raise InputError(f"--shape {args.shape}: a voltage clamp is a step")
-        if at != 0 and not infinite:
-            raise InputError("--at: a voltage clamp on a cylinder is applied at the origin (--at 0)")
-        return VoltageStep(parse_quantity(args.voltage, "voltage", "--voltage", allow_negative=True), at)
-    current = parse_quantity(args.current, "current", "--current", allow_negative=True)
-    if args.shape != "pulse" and args.duration is not None:
-        raise InputError("--duration: only for --shape pulse")
-    if args.shape != "alpha" and args.time_to_peak is not None:
-        raise InputError("--time-to-peak: only for --shape alpha")
-    if args.shape == "pulse":
-        if args.duration is None:
-            raise InputError("--duration: required for --shape pulse, e.g. 0.5ms")
-        return CurrentPulse(current, parse_quantity(args.duration, "time", "--duration"), at)
-    if args.shape == "alpha":
-        if args.time_to_peak is None:
-            raise InputError("--time-to-peak: required for --shape alpha, e.g. 1ms")
-        return AlphaCurrent(current, parse_quantity(args.time_to_peak, "time", "--time-to-peak"), at)
-    return CurrentStep(current, at)
-
-
 def run(args: argparse.Namespace) -> int:
-    model = _model(args)
+    model = read_model(args)
     infinite = isinstance(model, InfiniteCable)
-    stimulus = _stimulus(args, infinite)
+    stimulus = read_stimulus(args, model)
     cylinder = model.cylinder if isinstance(model, BallAndStick) else model
     length = math.inf if infinite else cylinder.length
-    if not infinite and stimulus.position > length:
-        raise InputError(f"--at: {format_quantity(stimulus.position, 'length')} lies beyond the cable's length "
-                         f"{format_quantity(length, 'length')}")
     tau = cylinder.time_constant
     default_times = list(np.linspace(0.0, 2 * tau, 11))
     times = default_times if args.times is None else parse_series(args.times, "time", "--times")

@@ -12,8 +12,9 @@ from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
 from ..verify import Comparison, Convergence, ExactCase, Recording, compare, convergence, json_number, run_spacings
 from .advise import parse_relative
+from .case import add_case_options
 from .common import dump_json, quantity, write_atomically
-from .reference import add_case_options, add_layout_options, build_case, parser_for_quantities, read_run
+from .reference import add_exact_tolerance, add_layout_options, build_case, parser_for_quantities, read_run
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -29,6 +30,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     )
     parser.add_argument("runs", nargs="+", metavar="RUN.csv", help="simulator output files, coarse to fine")
     add_case_options(parser)
+    add_exact_tolerance(parser)
     add_layout_options(parser)
     check = parser.add_argument_group("verdict and convergence")
     check.add_argument("--tolerance", default="1%", metavar="TOL",
