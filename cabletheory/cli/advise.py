@@ -11,7 +11,16 @@ from .. import PASSIVE_CAVEAT
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
 from ..verify import OUTPUTS, Advice, advise_cable, advise_tree
-from .common import DEFAULT_CM, dump_json, echo_cylinder, parse_end, quantity, read_cylinder, table
+from .common import (
+    add_membrane_options,
+    dump_json,
+    echo_cylinder,
+    parse_end,
+    quantity,
+    read_cylinder,
+    read_membrane,
+    table,
+)
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -26,9 +35,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         epilog=PASSIVE_CAVEAT,
     )
     group = parser.add_argument_group("cable (bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS)")
-    group.add_argument("--Rm", required=True, metavar="R", help="specific membrane resistance, e.g. '20 kΩ·cm²'")
-    group.add_argument("--Ri", required=True, metavar="R", help="axial resistivity, e.g. '200 Ω·cm'")
-    group.add_argument("--Cm", default=DEFAULT_CM, metavar="C", help=f"membrane capacitance (default {DEFAULT_CM})")
+    add_membrane_options(group)
     group.add_argument("--diameter", metavar="D", help="cable diameter, e.g. 2um")
     group.add_argument("--length", metavar="LEN", help="cable length, e.g. 500um (finite)")
     group.add_argument("--end", default="sealed", metavar="END",
@@ -107,9 +114,7 @@ def run(args: argparse.Namespace) -> int:
             raise InputError("give either --diameter/--length (one cable) or a tree, not both")
         parents, lengths, diameters, file_soma, label = _tree_arrays(args)
         soma_diameter = soma_diameter if soma_diameter is not None else file_soma
-        rm = parse_quantity(args.Rm, "membrane_resistivity", "--Rm")
-        ri = parse_quantity(args.Ri, "axial_resistivity", "--Ri")
-        cm = parse_quantity(args.Cm, "membrane_capacitance", "--Cm")
+        rm, ri, cm = read_membrane(args)
         end = parse_end(args.end)
         tips = np.setdiff1d(np.arange(parents.size), parents[parents >= 0])
         ends = np.zeros(parents.size)

@@ -20,14 +20,26 @@ from ..units import format_quantity, parse_quantity, si_unit
 DEFAULT_CM = "1 µF/cm²"
 
 
-def add_cable_options(parser: argparse.ArgumentParser, *, length_required: bool = True) -> None:
-    """--Rm --Ri --Cm --diameter --length --end, shared by every command about one cylinder."""
-    group = parser.add_argument_group("cable (bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS)")
+def add_membrane_options(group: argparse._ActionsContainer) -> None:
+    """--Rm --Ri (required) and --Cm (default 1 µF/cm²): the membrane and cytoplasm, uniform."""
     group.add_argument("--Rm", required=True, metavar="R",
-                       help="specific membrane resistance, e.g. '20 kΩ·cm²' or 20000")
+                       help="specific membrane resistance, uniform, e.g. '20 kΩ·cm²' or 20000")
     group.add_argument("--Ri", required=True, metavar="R", help="axial resistivity, e.g. '150 Ω·cm' or 150")
     group.add_argument("--Cm", default=DEFAULT_CM, metavar="C",
                        help=f"specific membrane capacitance (default {DEFAULT_CM})")
+
+
+def read_membrane(args: argparse.Namespace) -> tuple[float, float, float]:
+    """(Rm in Ω·m², Ri in Ω·m, Cm in F/m²) from the membrane options, each checked."""
+    return (parse_quantity(args.Rm, "membrane_resistivity", "--Rm"),
+            parse_quantity(args.Ri, "axial_resistivity", "--Ri"),
+            parse_quantity(args.Cm, "membrane_capacitance", "--Cm"))
+
+
+def add_cable_options(parser: argparse.ArgumentParser, *, length_required: bool = True) -> None:
+    """--Rm --Ri --Cm --diameter --length --end, shared by every command about one cylinder."""
+    group = parser.add_argument_group("cable (bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS)")
+    add_membrane_options(group)
     group.add_argument("--diameter", required=True, metavar="D", help="cylinder diameter, e.g. 2um")
     group.add_argument("--length", required=length_required, metavar="LEN",
                        help="cylinder length, e.g. 500um; 'inf' for a semi-infinite cable")
@@ -51,10 +63,11 @@ def parse_end(text: str) -> float:
 
 def read_cylinder(args: argparse.Namespace) -> Cylinder:
     """Build the :class:`Cylinder` from parsed cable options (every value checked, in SI)."""
+    membrane_resistivity, axial_resistivity, membrane_capacitance = read_membrane(args)
     return Cylinder(
-        membrane_resistivity=parse_quantity(args.Rm, "membrane_resistivity", "--Rm"),
-        axial_resistivity=parse_quantity(args.Ri, "axial_resistivity", "--Ri"),
-        membrane_capacitance=parse_quantity(args.Cm, "membrane_capacitance", "--Cm"),
+        membrane_resistivity=membrane_resistivity,
+        axial_resistivity=axial_resistivity,
+        membrane_capacitance=membrane_capacitance,
         diameter=parse_quantity(args.diameter, "length", "--diameter"),
         length=parse_quantity(args.length, "length", "--length", allow_inf=True),
         end_conductance=parse_end(args.end),

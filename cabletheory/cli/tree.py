@@ -13,7 +13,7 @@ from ..errors import InputError
 from ..morphology import SWC_TYPES, SectionList, read_morphology
 from ..tree import Tolerances, TreeReport, analyse_tree, build_tree, sample_profile
 from ..units import format_quantity, parse_quantity
-from .common import DEFAULT_CM, dump_json, quantity, table, write_atomically
+from .common import add_membrane_options, dump_json, quantity, read_membrane, table, write_atomically
 
 _TYPE_NAMES = {"soma": 1, "axon": 2, "basal": 3, "apical": 4}
 _DEFAULT_TOLERANCE = Tolerances()
@@ -31,11 +31,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     )
     parser.add_argument("file", metavar="FILE", help="morphology: .swc, or a section list (.tree)")
     group = parser.add_argument_group("membrane (bare numbers: Ω·cm², Ω·cm, µF/cm²)")
-    group.add_argument("--Rm", required=True, metavar="R",
-                       help="specific membrane resistance, uniform, e.g. '20 kΩ·cm²' or 20000")
-    group.add_argument("--Ri", required=True, metavar="R", help="axial resistivity, e.g. '200 Ω·cm' or 200")
-    group.add_argument("--Cm", default=DEFAULT_CM, metavar="C",
-                       help=f"specific membrane capacitance, for τm (default {DEFAULT_CM})")
+    add_membrane_options(group)
     geometry = parser.add_argument_group("geometry")
     geometry.add_argument("--taper", action="store_true",
                           help="SWC: treat each segment as a frustum from its parent point's diameter to its "
@@ -86,9 +82,7 @@ def _tolerance(text: str, field: str) -> float:
 
 
 def run(args: argparse.Namespace) -> int:
-    rm = parse_quantity(args.Rm, "membrane_resistivity", "--Rm")
-    ri = parse_quantity(args.Ri, "axial_resistivity", "--Ri")
-    cm = parse_quantity(args.Cm, "membrane_capacitance", "--Cm")
+    rm, ri, cm = read_membrane(args)
     tolerances = Tolerances(branch_ratio=_tolerance(args.ratio_tolerance, "--ratio-tolerance"),
                             tip_spread=_tolerance(args.tip_tolerance, "--tip-tolerance"))
     if args.bins < 1 or args.bins > 1000:
