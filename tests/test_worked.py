@@ -91,11 +91,15 @@ def test_ball_and_stick_example_matches_published_charging(time_ms, fraction):
 
 
 def test_ball_and_stick_example_time_constants():
-    """checks.md §2.3: L = 1, ρ = 5 gives τ0/τ1 = 8.537785309 [COMP, Rall 1969 eigenvalue equation]."""
+    """checks.md §2.3: L = 1, ρ = 5 gives τ0/τ1 = 8.537785309, C0 = 0.7931077428 and
+    C1 = 0.1613066229 [COMP, Rall 1969 eigenvalue equation and residues]."""
     _, data = _json(_load_argv("ball_and_stick_charging"))
     tau = data["time_constants"]["value"]
     assert tau[0] == pytest.approx(0.020, rel=1e-12)
     assert tau[0] / tau[1] == pytest.approx(8.537785309, rel=2e-5)
+    text = (ROOT / "worked" / "ball_and_stick_charging" / "expected.txt").read_text(encoding="utf-8")
+    assert "τ0  20.00 ms  (τm/τ0 = 1.000)  C0 = 0.7931" in text
+    assert "τ1  2.343 ms  (τm/τ1 = 8.538)  C1 = 0.1613" in text
 
 
 def test_tree_example_matches_the_reference_tree():

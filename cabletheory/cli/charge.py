@@ -218,10 +218,17 @@ def as_text(model, stimulus, r: Response, digits: int = 4) -> str:
     if r.time_constants.size:
         rows = [(f"τ{n}", f"{fmt(tc, 'time')}  (τm/τ{n} = {fmt(r.membrane_time_constant / tc, 'dimensionless')})")
                 for n, tc in enumerate(r.time_constants)]
-        if r.positions.size == 1 and np.all(np.isfinite(r.coefficients[:, 0])):
-            rows = [(label, f"{value}  C{n} = {fmt(r.coefficients[n, 0], 'dimensionless')}")
+        # coefficients at the stimulus site when it is reported, else at the first position
+        at_site = np.flatnonzero(np.isclose(r.positions, stimulus.position, rtol=0.0, atol=1e-12))
+        column = int(at_site[0]) if at_site.size else 0
+        title = "Equalising time constants (slowest first)"
+        if r.coefficients.size and np.all(np.isfinite(r.coefficients[:, column])):
+            x = r.positions[column]
+            where = format_quantity(x, "length", digits) if x else "0"
+            title += f" and coefficients C_n of the step response at {where}"
+            rows = [(label, f"{value}  C{n} = {fmt(r.coefficients[n, column], 'dimensionless')}")
                     for n, (label, value) in enumerate(rows)]
-        blocks.append(table(rows, "Equalising time constants (slowest first; C_n of the step response)"))
+        blocks.append(table(rows, title))
     blocks.append(f"Error bound: every voltage above is within {fmt(r.error_bound, 'voltage')} of the exact "
                   f"solution ({r.method}).")
     for note in r.notes:
