@@ -385,3 +385,26 @@ def test_charging_export_has_both_plots(tmp_path):
     data = json.loads(export.to_json(report))
     assert data["tables"]["time_course"]["time"]["unit"] == "s"
     assert data["results"]["error_bound"]["unit"] == "V"
+
+
+# -- the ui command ----------------------------------------------------------------------------------
+def test_ui_command_is_registered_without_importing_textual():
+    import subprocess
+    import sys
+
+    code = ("import sys; from cabletheory.cli import build_parser; p = build_parser(); "
+            "a = p.parse_args(['ui', '--view', 'charging']); "
+            "print(a.view, callable(a.run), 'textual' in sys.modules)")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.split() == ["charging", "True", "False"]
+
+
+@pytest.mark.parametrize("argv", [["ui", "no/such.swc"], ["ui", "--check", "no/such.csv"], ["ui", "--view", "x"]])
+def test_ui_command_bad_arguments_give_one_line_and_status_2(capsys, argv):
+    from cabletheory.cli import main
+
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("cabletheory: error: ")
+    assert err.count("\n") == 1

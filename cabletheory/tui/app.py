@@ -9,6 +9,7 @@ from rich.style import Style
 from rich.text import Text
 from textual.app import App, ComposeResult
 from textual.binding import Binding, BindingType
+from textual.widget import Widget
 from textual.widgets import ContentSwitcher, Static
 
 from .. import PASSIVE_CAVEAT
@@ -42,7 +43,7 @@ class ViewBar(Static):
 class CableApp(App[None]):
     """``cabletheory ui``: cylinder, charging, tree and check views of passive cables."""
 
-    CSS_PATH = "app.tcss"
+    CSS_PATH = Path(__file__).with_name("app.tcss")
     TITLE = "cabletheory"
     ENABLE_COMMAND_PALETTE = False
     BINDINGS: ClassVar[list[BindingType]] = [
@@ -57,19 +58,28 @@ class CableApp(App[None]):
         self.simulation = simulation
 
     def compose(self) -> ComposeResult:
-        from .charging_view import ChargingView
-        from .check_view import CheckView
-        from .cylinder_view import CylinderView
-        from .tree_view import TreeView
-
         yield ViewBar(id="view-bar")
         with ContentSwitcher(initial=self.start_view, id="views"):
-            yield CylinderView(id="cylinder")
-            yield ChargingView(id="charging")
-            yield TreeView(id="tree", swc=self.swc)
-            yield CheckView(id="check", file=self.simulation)
+            yield self._make_view(self.start_view)  # the others are built when first shown
         yield Static(f"⚠ {PASSIVE_CAVEAT}", id="caveat")
         yield Static("", id="status")
+
+    def _make_view(self, view: str) -> Widget:
+        if view == "cylinder":
+            from .cylinder_view import CylinderView
+
+            return CylinderView(id="cylinder")
+        if view == "charging":
+            from .charging_view import ChargingView
+
+            return ChargingView(id="charging")
+        if view == "tree":
+            from .tree_view import TreeView
+
+            return TreeView(id="tree", swc=self.swc)
+        from .check_view import CheckView
+
+        return CheckView(id="check", file=self.simulation)
 
     def on_mount(self) -> None:
         self.query_one(ViewBar).show(self.start_view)
@@ -87,8 +97,11 @@ class CableApp(App[None]):
     def current_view(self) -> str:
         return self.query_one("#views", ContentSwitcher).current or "cylinder"
 
-    def action_show_view(self, view: str) -> None:
-        self.query_one("#views", ContentSwitcher).current = view
+    async def action_show_view(self, view: str) -> None:
+        switcher = self.query_one("#views", ContentSwitcher)
+        if not switcher.query_children(f"#{view}"):
+            await switcher.mount(self._make_view(view))
+        switcher.current = view
         self.query_one(ViewBar).show(view)
         self._activate(view)
         self.set_status("")
@@ -100,9 +113,9 @@ class CableApp(App[None]):
         if focusable:
             focusable[0].focus()
 
-    def action_next_view(self) -> None:
+    async def action_next_view(self) -> None:
         views = list(VIEWS)
-        self.action_show_view(views[(views.index(self.current_view) + 1) % len(views)])
+        await self.action_show_view(views[(views.index(self.current_view) + 1) % len(views)])
 
     def action_toggle_help(self) -> None:
         if isinstance(self.screen, HelpScreen):

@@ -24,6 +24,7 @@ class CylinderView(Vertical):
     BINDINGS: ClassVar[list[BindingType]] = [Binding("ctrl+b", "next_end", "next far-end condition")]
 
     report: Report | None = None
+    _last: tuple | None = None  # the inputs of the results on screen
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="columns"):
@@ -44,7 +45,9 @@ class CylinderView(Vertical):
                 yield CurvePlot(id="cylinder-plot")
 
     def on_mount(self) -> None:
-        self.refresh_results()
+        # paint the form first; reading units the first time loads pint's registry (~0.2 s)
+        self.query_one("#cylinder-results", QuantityList).update("computing…")
+        self.call_after_refresh(self.refresh_results)
 
     @property
     def end_choice(self) -> str:
@@ -70,6 +73,10 @@ class CylinderView(Vertical):
         fields = {f.spec.name: f for f in self.query(QuantityField)}
         fields["end_conductance"].display = end == "leaky"
         texts = {name: field.input.value for name, field in fields.items()}
+        key = (end, *sorted(texts.items()))
+        if key == self._last:
+            return  # nothing changed (inputs announce their first value when mounted)
+        self._last = key
         cylinder, frequency, errors = read_cylinder_form(texts, end)
         for name, field in fields.items():
             field.flag(errors.get(name))

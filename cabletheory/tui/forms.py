@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
@@ -60,10 +61,21 @@ def read_field(spec: FieldSpec, text: str) -> float | list[float] | None:
     if not text.strip() and spec.blank_ok:
         return None
     if spec.series:
-        return parse_series(text, spec.kind, spec.label, allow_zero=True,
-                            allow_negative=spec.allow_negative, max_points=spec.max_points)
+        return list(_read_series(spec, text))
+    return _read_quantity(spec, text)
+
+
+# The views re-read every field at each keystroke; remembering good values keeps that cheap.
+@lru_cache(maxsize=512)
+def _read_quantity(spec: FieldSpec, text: str) -> float:
     return parse_quantity(text, spec.kind, spec.label, allow_inf=spec.allow_inf,
                           allow_zero=spec.allow_zero, allow_negative=spec.allow_negative)
+
+
+@lru_cache(maxsize=128)
+def _read_series(spec: FieldSpec, text: str) -> tuple[float, ...]:
+    return tuple(parse_series(text, spec.kind, spec.label, allow_zero=True,
+                              allow_negative=spec.allow_negative, max_points=spec.max_points))
 
 
 def read_form(specs: Sequence[FieldSpec], texts: Mapping[str, str]) -> FormResult:

@@ -1,0 +1,80 @@
+"""Start-up of the terminal app: wall time from launching Python to the first painted screen.
+
+Goal (issue 6): `cabletheory ui` shows its first screen in under a second on the bundled demo
+data. Each run starts a fresh interpreter that imports the app and runs it headless
+(textual's ``App.run_test``, 120 × 36 cells); the parent notes when the child reports its first
+frame (the first screen update textual hands to its output), and when the view's first result is on screen (the cylinder
+is computed at once; the tree view reads and audits the bundled SWC in a worker).
+Median of interleaved runs, so that machine load affects every case alike.
+"""
+
+from __future__ import annotations
+
+import statistics
+import subprocess
+import sys
+import time
+
+RUNS = 7
+GOAL = 1.0  # s, to first paint
+
+CHILD = r"""
+import asyncio, sys
+from cabletheory.tui.app import CableApp
+
+class Timed(CableApp):
+    painted = False
+
+    def _display(self, screen, renderable):  # textual calls this with each frame it would draw
+        if renderable is not None and not self.painted:
+            self.painted = True
+            print("painted", flush=True)
+        super()._display(screen, renderable)
+
+async def main():
+    app = Timed(view=sys.argv[1])
+    async with app.run_test(size=(120, 36)) as pilot:
+        await pilot.pause()
+        await app.workers.wait_for_complete()
+        await pilot.pause()
+        assert app.query_one(f"#{sys.argv[1]}").report is not None, "no result on screen"
+        print("result", flush=True)
+
+asyncio.run(main())
+"""
+
+CASES = {"cylinder view": "cylinder", "tree view, bundled SWC": "tree"}
+
+
+def one_run(view: str) -> tuple[float, float]:
+    start = time.perf_counter()
+    child = subprocess.Popen([sys.executable, "-c", CHILD, view], stdout=subprocess.PIPE, text=True)
+    assert child.stdout is not None
+    marks = {}
+    for line in child.stdout:
+        marks[line.strip()] = time.perf_counter() - start
+    if child.wait() != 0 or set(marks) != {"painted", "result"}:
+        raise SystemExit(f"ui_start: the {view} view did not start cleanly")
+    return marks["painted"], marks["result"]
+
+
+def main() -> int:
+    painted: dict[str, list[float]] = {name: [] for name in CASES}
+    result: dict[str, list[float]] = {name: [] for name in CASES}
+    for _ in range(RUNS):
+        for name, view in CASES.items():
+            p, r = one_run(view)
+            painted[name].append(p)
+            result[name].append(r)
+    print(f"terminal app start-up, median of {RUNS} interleaved runs (fresh interpreter each)")
+    worst = 0.0
+    for name in CASES:
+        p, r = statistics.median(painted[name]), statistics.median(result[name])
+        worst = max(worst, p)
+        print(f"  {name:24s} first paint {p * 1e3:7.1f} ms   first result {r * 1e3:7.1f} ms")
+    print(f"  goal: first paint <= {GOAL * 1e3:.0f} ms; verdict: {'met' if worst <= GOAL else 'NOT met'}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
