@@ -50,6 +50,8 @@ __all__ = [
 ]
 
 Array = NDArray[np.float64]
+# q = √(1 + iωτm): a complex scalar or array (exactly 1 in the steady state)
+Wavenumber = np.complex128 | NDArray[np.complex128]
 
 
 # --------------------------------------------------------------------------------------
@@ -235,7 +237,7 @@ def _split_ratio(ratio: ArrayLike) -> tuple[NDArray, NDArray]:
     return w_sealed, w_killed
 
 
-def _decay(q: NDArray, u: ArrayLike) -> tuple[NDArray, NDArray]:
+def _decay(q: Wavenumber, u: ArrayLike) -> tuple[NDArray, NDArray]:
     """Return ``(exp(-2qu), 1 - exp(-2qu))`` for u ≥ 0, exact at u = inf and accurate near 0."""
     u = np.asarray(u, dtype=float)
     infinite = np.isinf(u)
@@ -243,14 +245,14 @@ def _decay(q: NDArray, u: ArrayLike) -> tuple[NDArray, NDArray]:
     return np.where(infinite, 0.0, np.exp(arg)), np.where(infinite, 1.0, -np.expm1(arg))
 
 
-def _far_factor(q: NDArray, u: ArrayLike, ratio: ArrayLike) -> NDArray:
+def _far_factor(q: Wavenumber, u: ArrayLike, ratio: ArrayLike) -> NDArray:
     r"""``[cosh(qu) + (B/q) sinh(qu)] * 2 e^{-qu}``, times ``1/max(1,|B|)``; u ≥ 0 may be inf."""
     w_sealed, w_killed = _split_ratio(ratio)
     e, one_minus_e = _decay(q, u)
     return w_sealed * (1.0 + e) + w_killed / q * one_minus_e
 
 
-def _green(q: NDArray, electrotonic_length: ArrayLike, ratio: ArrayLike, position: ArrayLike,
+def _green(q: Wavenumber, electrotonic_length: ArrayLike, ratio: ArrayLike, position: ArrayLike,
            source: ArrayLike) -> NDArray:
     r"""Dimensionless Green's function :math:`g = V(X)\,/\,(I R_\infty)` (times q for AC).
 
@@ -338,7 +340,7 @@ def voltage_ratio(position: ArrayLike, electrotonic_length: ArrayLike,
     return _ratio(np.complex128(1.0), position, electrotonic_length, end_conductance_ratio).real
 
 
-def _ratio(q: NDArray, position: ArrayLike, electrotonic_length: ArrayLike, ratio: ArrayLike) -> NDArray:
+def _ratio(q: Wavenumber, position: ArrayLike, electrotonic_length: ArrayLike, ratio: ArrayLike) -> NDArray:
     # V(X)/V(0) = g(X, 0) / g(0, 0)
     return _green(q, electrotonic_length, ratio, position, 0.0) / _green(q, electrotonic_length, ratio, 0.0, 0.0)
 

@@ -566,13 +566,13 @@ class _Plan:
         return "; ".join(self.parts) if self.parts else "closed form"
 
 
-def _image_tail(K: Array, T: Array, L: float) -> Array:
+def _image_tail(K: Array | float, T: Array, L: float) -> Array:
     """Bound on the point-source images with |k| > K (k-th reflection pair at distance ≥ 2KL)."""
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
         return np.where(T > 0, 4 * np.exp(-(K * L) ** 2 / T) * (np.sqrt(T / np.pi) + T / (4 * L)), 0.0)
 
 
-def _clamp_image_tail(K: Array, T: Array, L: float) -> Array:
+def _clamp_image_tail(K: Array | float, T: Array, L: float) -> Array:
     """Bound on the clamp images with k ≥ K (distances ≥ 2KL)."""
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
         return np.where(T > 0, 2 * np.exp(-(K * L) ** 2 / T) * (1 + np.sqrt(T) / (L * np.sqrt(np.pi))), 0.0)
@@ -712,7 +712,10 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
     sign = 1.0 if w_k == 0 else -1.0
     Tl = T[live]
     mode_bound = _current_bound(shp, L)
-    n_need, _ = _modes_needed(Tl, tol, L, mode_bound) if (tol := float(tolerance)) > 0 else (None, None)
+    tol = float(tolerance)
+    if not 0 < tol < 1:
+        raise InputError(f"tolerance must lie in (0, 1), got {tolerance!r}")
+    n_need, _ = _modes_needed(Tl, tol, L, mode_bound)
     use_eigen = np.ones(Tl.size, dtype=bool)
     if images_exact or leaky:
         tails = [_image_tail]

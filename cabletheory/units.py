@@ -81,7 +81,7 @@ def registry() -> pint.UnitRegistry:
     """The package's single pint registry (built once; pint caches its parse on disk)."""
     import pint
 
-    ureg = pint.UnitRegistry(cache_folder=":auto:")
+    ureg: pint.UnitRegistry = pint.UnitRegistry(cache_folder=":auto:")
     return ureg
 
 
@@ -134,7 +134,7 @@ def _parse_with_units(raw: str, k: Kind, field: str) -> float:
     ureg = registry()
     text = _normalise(raw)
     try:
-        quantity = ureg.Quantity(text)
+        quantity: pint.Quantity = ureg.Quantity(text)
     except (pint.PintError, ValueError, TypeError, AttributeError, SyntaxError, KeyError,
             AssertionError, IndexError, ZeroDivisionError, tokenize.TokenError) as exc:
         detail = str(exc).splitlines()[0] if str(exc) else type(exc).__name__

@@ -542,10 +542,10 @@ def convergence(errors: ArrayLike, spacings: ArrayLike, steps: ArrayLike, scheme
                                            verdict, note))
     if not estimates and np.all(np.isfinite(dx)) and np.all(np.isfinite(dt)) and np.unique(dx).size >= 2:
         k = _slope(dx, dt) if np.unique(dt).size >= 2 else 0.0
-        expected = min(p_space, p_time * k) if k > 0 else p_space
+        joint_expected = min(p_space, p_time * k) if k > 0 else p_space
         observed = _slope(dx, e)
-        verdict, note = _verdict(observed, expected)
-        estimates.append(OrderEstimate("joint", observed, float(expected), tuple(range(e.size)), verdict,
+        verdict, note = _verdict(observed, joint_expected)
+        estimates.append(OrderEstimate("joint", observed, float(joint_expected), tuple(range(e.size)), verdict,
                                        f"Δx and Δt refined together (Δt ∝ Δx^{k:.2g}); {note}"))
     if not estimates:
         raise InputError("cannot estimate an order: give each run's Δx and/or Δt (they must differ "
