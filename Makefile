@@ -10,7 +10,9 @@ TESTS  := $(VENV)/.installed-test
 demo: $(BASE)            ## install and run the main job on bundled data
 	$(BIN)/cabletheory demo
 
-test: $(TESTS)           ## install with test extras and run every test
+test: $(TESTS)           ## install with test extras, lint, type-check the core, run every test
+	$(BIN)/ruff check cabletheory tests benchmarks worked scripts
+	$(BIN)/mypy
 	$(BIN)/python -m pytest -q
 
 bench: $(BASE)           ## speed and memory figures (not part of the tests)
@@ -18,6 +20,7 @@ bench: $(BASE)           ## speed and memory figures (not part of the tests)
 
 lint: $(TESTS)
 	$(BIN)/ruff check cabletheory tests benchmarks worked scripts
+	$(BIN)/mypy
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
