@@ -81,7 +81,7 @@ def test_blank_frequency_means_steady_state_only_and_blank_required_field_is_fla
 
 
 def test_read_form_series_field():
-    from cabletheory.tui.forms import FieldSpec
+    from cabletheory.tui.fields import FieldSpec
 
     spec = FieldSpec("times", "times", "time", "0:2:0.5 ms", series=True)
     form = read_form([spec], {})
@@ -366,7 +366,7 @@ def test_charging_form_flags_the_wrong_field(model, stimulus, texts, field):
 
 
 def test_charging_fields_follow_the_choices():
-    from cabletheory.tui.forms import charging_fields_used
+    from cabletheory.tui.fields import charging_fields_used
 
     assert {"soma"} & charging_fields_used("ball", "step")
     assert not {"soma", "clamp", "duration"} & charging_fields_used("cylinder", "step")

@@ -74,7 +74,7 @@ def test_tree_view_conforming_demo(snap_compare):
 
 def test_tree_view_failing_morphology(snap_compare):
     """The bundled PV-7 interneuron: failures in red, NOT reducible with reasons, tapering profile."""
-    from cabletheory.tui.forms import bundled_morphologies
+    from cabletheory.tui.fields import bundled_morphologies
 
     swc = str(bundled_morphologies() / "lumenia_pv7_interneuron.swc")
     assert snap_compare(CableApp(view="tree", swc=swc), terminal_size=SIZE, run_before=steady)

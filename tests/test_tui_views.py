@@ -19,7 +19,7 @@ from textual.widgets import Input, Tree
 
 from cabletheory.tui.app import CableApp
 from cabletheory.tui.dialogs import OpenScreen, SaveScreen
-from cabletheory.tui.forms import bundled_morphologies
+from cabletheory.tui.fields import bundled_morphologies
 
 SIZE = (120, 36)
 ROOT = Path(__file__).resolve().parent.parent

@@ -13,8 +13,6 @@ from textual.widget import Widget
 from textual.widgets import ContentSwitcher, Static
 
 from .. import PASSIVE_CAVEAT
-from .dialogs import HelpScreen, OpenScreen, SaveScreen
-from .export import export
 from .keys import GLOBAL_KEYS, VIEWS, key_label
 
 __all__ = ["CableApp"]
@@ -85,7 +83,7 @@ class CableApp(App[None]):
         self.query_one(ViewBar).show(self.start_view)
         self.set_status("")
         self._focus_first(self.start_view)
-        self._activate(self.start_view)
+        self.call_after_refresh(self._activate, self.start_view)  # first frame before the first result
 
     def _activate(self, view: str) -> None:
         activate = getattr(self.query_one(f"#{view}"), "activate", None)
@@ -118,6 +116,8 @@ class CableApp(App[None]):
         await self.action_show_view(views[(views.index(self.current_view) + 1) % len(views)])
 
     def action_toggle_help(self) -> None:
+        from .dialogs import HelpScreen
+
         if isinstance(self.screen, HelpScreen):
             self.screen.dismiss(None)
         else:
@@ -134,6 +134,9 @@ class CableApp(App[None]):
         self._export("svg", "Save the plot as (.png or .svg)")
 
     def _export(self, suffix: str, title: str) -> None:
+        from .dialogs import SaveScreen
+        from .export import export
+
         view = self._view_widget()
         report = view.report
         if report is None:
@@ -152,6 +155,8 @@ class CableApp(App[None]):
 
     # -- files ------------------------------------------------------------------------------------
     def action_open_file(self) -> None:
+        from .dialogs import OpenScreen
+
         view = self._view_widget()
         opener = getattr(view, "open_path", None)
         if opener is None:

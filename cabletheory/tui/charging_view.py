@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 
 from textual import work
 from textual.app import ComposeResult
@@ -11,18 +11,12 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 from textual.worker import get_current_worker
 
-from ..errors import CableTheoryError
-from .format import charging_report
-from .forms import (
-    CHARGING_FIELDS,
-    MODEL_CHOICES,
-    STIMULUS_CHOICES,
-    ChargingSetup,
-    charging_fields_used,
-    read_charging_form,
-)
-from .report import Report
+from .fields import CHARGING_FIELDS, MODEL_CHOICES, STIMULUS_CHOICES, charging_fields_used
 from .widgets import CurvePlot, QuantityField, QuantityList
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .forms import ChargingSetup
+    from .report import Report
 
 PREFIX = "ch-"
 _GROUPS = (("cable", ("Rm", "Ri", "Cm", "diameter", "length", "end", "soma")),
@@ -118,6 +112,8 @@ class ChargingView(Vertical):
 
     def refresh_results(self) -> None:
         """Check the form at once; hand a valid set-up to the solver worker."""
+        from .forms import read_charging_form
+
         model, stimulus = self.model_choice, self.stimulus_choice
         used = charging_fields_used(model, stimulus)
         fields = {f.spec.name: f for f in self.query(QuantityField)}
@@ -146,6 +142,9 @@ class ChargingView(Vertical):
 
     @work(exclusive=True, thread=True, group="solve")
     def solve(self, setup: ChargingSetup) -> None:
+        from ..errors import CableTheoryError
+        from .format import charging_report
+
         worker = get_current_worker()
         try:
             report: Report | str = charging_report(setup)

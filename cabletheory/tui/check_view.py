@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 
 from textual import work
 from textual.app import ComposeResult
@@ -12,11 +12,12 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 from textual.worker import get_current_worker
 
-from ..errors import CableTheoryError
-from .format import analyse_check, check_report
-from .forms import CHECK_FIELDS, CheckSetup, read_check_form
-from .report import Report
+from .fields import CHECK_FIELDS
 from .widgets import CurvePlot, QuantityField, QuantityList
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .forms import CheckSetup
+    from .report import Report
 
 PREFIX = "ck-"
 _SPECS = {spec.name: spec for spec in CHECK_FIELDS}
@@ -111,6 +112,8 @@ class CheckView(Vertical):
         self.refresh_results()
 
     def refresh_results(self) -> None:
+        from .forms import read_check_form
+
         fields = {f.spec.name: f for f in self.query(QuantityField)}
         setup, errors = read_check_form({n: f.input.value for n, f in fields.items()})
         for name, field in fields.items():
@@ -135,6 +138,9 @@ class CheckView(Vertical):
 
     @work(exclusive=True, thread=True, group="compare")
     def compare(self, setup: CheckSetup) -> None:
+        from ..errors import CableTheoryError
+        from .format import analyse_check, check_report
+
         worker = get_current_worker()
         try:
             result: Report | str = check_report(setup, analyse_check(setup))

@@ -2,18 +2,18 @@
 
 from __future__ import annotations
 
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 
-from ..errors import InputError
-from .format import cable_report, cable_summary
-from .forms import CABLE_FIELDS, END_CHOICES, read_cylinder_form
-from .report import Report
+from .fields import CABLE_FIELDS, END_CHOICES
 from .widgets import CurvePlot, QuantityField, QuantityList
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .report import Report
 
 _FIELDS = {spec.name: spec for spec in CABLE_FIELDS}
 
@@ -25,6 +25,7 @@ class CylinderView(Vertical):
 
     report: Report | None = None
     _last: tuple | None = None  # the inputs of the results on screen
+    _ready = False  # inputs announce their first value when mounted; compute after the first frame
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="columns"):
@@ -47,7 +48,11 @@ class CylinderView(Vertical):
     def on_mount(self) -> None:
         # paint the form first; reading units the first time loads pint's registry (~0.2 s)
         self.query_one("#cylinder-results", QuantityList).update("computing…")
-        self.call_after_refresh(self.refresh_results)
+        self.call_after_refresh(self._start)
+
+    def _start(self) -> None:
+        self._ready = True
+        self.refresh_results()
 
     @property
     def end_choice(self) -> str:
@@ -56,11 +61,13 @@ class CylinderView(Vertical):
 
     def on_input_changed(self, event: Input.Changed) -> None:
         event.stop()
-        self.refresh_results()
+        if self._ready:
+            self.refresh_results()
 
     def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
         event.stop()
-        self.refresh_results()
+        if self._ready:
+            self.refresh_results()
 
     def action_next_end(self) -> None:
         keys = list(END_CHOICES)
@@ -69,6 +76,10 @@ class CylinderView(Vertical):
 
     def refresh_results(self) -> None:
         """Read the form; flag bad fields at the field; show fresh results when all are good."""
+        from ..errors import InputError
+        from .format import cable_report, cable_summary
+        from .forms import read_cylinder_form
+
         end = self.end_choice
         fields = {f.spec.name: f for f in self.query(QuantityField)}
         fields["end_conductance"].display = end == "leaky"

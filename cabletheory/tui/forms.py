@@ -19,29 +19,22 @@ import numpy as np
 from ..cable import Cylinder, length_constant
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
+from .fields import (
+    CABLE_FIELDS,
+    CHARGING_FIELDS,
+    CHECK_FIELDS,
+    END_CHOICES,
+    MODEL_CHOICES,
+    PROFILE_POINTS,
+    PROFILE_SPAN,
+    STIMULUS_CHOICES,
+    TIME_POINTS,
+    TREE_FIELDS,
+    FieldSpec,
+    charging_fields_used,
+)
 
 __all__ = ["END_CHOICES", "FieldSpec", "FormResult", "read_cylinder_form", "read_form"]
-
-
-@dataclass(frozen=True, slots=True)
-class FieldSpec:
-    """One text field: ``name`` (id), ``label`` (used in messages), kind of quantity, default text.
-
-    ``series=True`` reads a list or range (``'0, 5, 10 ms'``, ``'0:500:50 um'``); ``blank_ok``
-    lets an empty field mean "not given" (value ``None``).
-    """
-
-    name: str
-    label: str
-    kind: str
-    default: str
-    allow_inf: bool = False
-    allow_zero: bool = False
-    allow_negative: bool = False
-    blank_ok: bool = False
-    series: bool = False
-    placeholder: str = ""
-    max_points: int = 200
 
 
 @dataclass(frozen=True, slots=True)
@@ -93,26 +86,6 @@ def read_form(specs: Sequence[FieldSpec], texts: Mapping[str, str]) -> FormResul
 # ---------------------------------------------------------------------------------------------
 # the single-cable form
 # ---------------------------------------------------------------------------------------------
-# far-end choices: id -> label shown in the selector
-END_CHOICES: dict[str, str] = {
-    "sealed": "sealed (no current leaves)",
-    "killed": "killed (held at rest)",
-    "leaky": "leaky (conductance to rest)",
-}
-
-# The defaults are the invented Tidewater Station demo dendrite (DEVELOPERS.md, demo scenario).
-CABLE_FIELDS: tuple[FieldSpec, ...] = (
-    FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
-    FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
-    FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
-    FieldSpec("diameter", "diameter", "length", "2 µm"),
-    FieldSpec("length", "length", "length", "500 µm", allow_inf=True),
-    FieldSpec("end_conductance", "end conductance", "conductance", "1 nS", allow_zero=True),
-    FieldSpec("frequency", "frequency", "frequency", "100 Hz", allow_zero=True, blank_ok=True,
-              placeholder="blank: steady state only"),
-)
-
-
 def read_cylinder_form(texts: Mapping[str, str], end: str) -> tuple[Cylinder | None, float | None,
                                                                      dict[str, str]]:
     """The :class:`Cylinder` and frequency (Hz, or None) of the single-cable form, or messages.
@@ -154,56 +127,6 @@ def read_end(text: str, label: str = "far end") -> float:
 # ---------------------------------------------------------------------------------------------
 # the charging (transient) form
 # ---------------------------------------------------------------------------------------------
-MODEL_CHOICES: dict[str, str] = {
-    "cylinder": "cylinder",
-    "ball": "ball and stick",
-    "infinite": "infinite cable",
-}
-STIMULUS_CHOICES: dict[str, str] = {
-    "step": "current step",
-    "pulse": "current pulse",
-    "alpha": "alpha current",
-    "clamp": "voltage-clamp step",
-}
-
-CHARGING_FIELDS: tuple[FieldSpec, ...] = (
-    FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
-    FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
-    FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
-    FieldSpec("diameter", "diameter", "length", "2 µm"),
-    FieldSpec("length", "length", "length", "500 µm", allow_inf=True),
-    FieldSpec("end", "far end", "conductance", "sealed", placeholder="sealed, killed or e.g. 0.5 nS"),
-    FieldSpec("soma", "soma diameter", "length", "20 µm"),
-    FieldSpec("current", "current", "current", "100 pA", allow_negative=True),
-    FieldSpec("clamp", "clamp step", "voltage", "10 mV", allow_negative=True),
-    FieldSpec("duration", "pulse length", "time", "1 ms"),
-    FieldSpec("time_to_peak", "time to peak", "time", "0.5 ms"),
-    FieldSpec("site", "stimulus at", "length", "0 µm", allow_zero=True, allow_negative=True),
-    FieldSpec("span", "V(t) until", "time", "60 ms"),
-    FieldSpec("watch", "V(t) at", "length", "0, 250, 500 µm", series=True, allow_negative=True, max_points=8),
-    FieldSpec("moments", "V(X) at", "time", "1, 5, 20 ms", series=True, max_points=8),
-)
-# fields that only some choices use
-_FIELD_USE = {
-    "length": lambda model, stimulus: model != "infinite",
-    "end": lambda model, stimulus: model != "infinite",
-    "soma": lambda model, stimulus: model == "ball",
-    "current": lambda model, stimulus: stimulus != "clamp",
-    "clamp": lambda model, stimulus: stimulus == "clamp",
-    "duration": lambda model, stimulus: stimulus == "pulse",
-    "time_to_peak": lambda model, stimulus: stimulus == "alpha",
-    "site": lambda model, stimulus: stimulus != "clamp" or model == "infinite",
-}
-TIME_POINTS = 241  # samples of each V(t) curve
-PROFILE_POINTS = 61  # samples of each V(X) curve
-PROFILE_SPAN = 5.0  # V(X) of a semi-infinite or infinite cable is shown over 5 λ
-
-
-def charging_fields_used(model: str, stimulus: str) -> set[str]:
-    """Names of the charging fields that the chosen model and stimulus read."""
-    return {s.name for s in CHARGING_FIELDS if _FIELD_USE.get(s.name, lambda m, st: True)(model, stimulus)}
-
-
 @dataclass(frozen=True, slots=True)
 class ChargingSetup:
     """Everything one transient computation needs, in SI."""
@@ -285,25 +208,6 @@ def read_charging_form(texts: Mapping[str, str], model: str, stimulus: str
 # ---------------------------------------------------------------------------------------------
 # the tree form
 # ---------------------------------------------------------------------------------------------
-def bundled_morphologies() -> Path:
-    """The folder of the bundled (invented) demo morphologies."""
-    from importlib import resources
-
-    return Path(str(resources.files("cabletheory") / "data" / "morphologies"))
-
-
-DEMO_SWC = "lumenia_lw1_conforming.swc"
-
-TREE_FIELDS: tuple[FieldSpec, ...] = (
-    FieldSpec("file", "file", "dimensionless", "", placeholder="path to .swc or .tree (enter opens)"),
-    FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
-    FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
-    FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
-    FieldSpec("ratio_tolerance", "ratio tolerance", "dimensionless", "0.05", allow_zero=True),
-    FieldSpec("tip_tolerance", "tip spread (λ)", "dimensionless", "0.05", allow_zero=True),
-)
-
-
 @dataclass(frozen=True, slots=True)
 class TreeSetup:
     path: Path
@@ -344,21 +248,6 @@ def read_tree_form(texts: Mapping[str, str], tips: str) -> tuple[TreeSetup | Non
 # ---------------------------------------------------------------------------------------------
 # the check (verification) form
 # ---------------------------------------------------------------------------------------------
-# Defaults: the invented Tidewater Station simulator check (worked/simulator_check).
-CHECK_FIELDS: tuple[FieldSpec, ...] = (
-    FieldSpec("file", "file", "dimensionless", "", placeholder="simulator CSV (enter opens)"),
-    FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
-    FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
-    FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
-    FieldSpec("diameter", "diameter", "length", "2 µm"),
-    FieldSpec("length", "length", "length", "500 µm"),
-    FieldSpec("end", "far end", "conductance", "sealed", placeholder="sealed, killed or e.g. 0.5 nS"),
-    FieldSpec("current", "current step", "current", "100 pA", allow_negative=True),
-    FieldSpec("rest", "resting V", "voltage", "-62 mV", allow_zero=True, allow_negative=True,
-              placeholder="e.g. -65 mV, 0, or 'first'"),
-    FieldSpec("onset", "step onset", "time", "1 ms", allow_zero=True, allow_negative=True),
-    FieldSpec("tolerance", "tolerance", "voltage", "20 µV", placeholder="e.g. 20 µV or 1 %"),
-)
 EXACT_TOLERANCE = 1e-12  # V, bound on the exact solution's own truncation error
 
 

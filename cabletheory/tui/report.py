@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .. import PASSIVE_CAVEAT
-from ..units import format_quantity, si_unit
+from ..units import KINDS, format_quantity, si_unit
 
 __all__ = ["Column", "PlotSpec", "Report", "Row", "Series", "Table", "cell_text", "row_text", "row_unit"]
 
@@ -121,12 +121,20 @@ def cell_text(value: float | int | str | None, kind: str | None, unit: str | Non
     if isinstance(value, str):
         return value
     if kind is not None:
+        if value == 0 and kind in KINDS and KINDS[kind].display is None and KINDS[kind].si != "dimensionless":
+            return f"0 {_pretty(KINDS[kind].customary)}"  # '0 µm', not '0 m'
         if not math.isfinite(float(value)):
             return "∞" if value > 0 else ("-∞" if value < 0 else "nan")
         text = format_quantity(float(value), kind, digits)
         return text.replace(" °", "°")
     text = _number(value, digits)
     return f"{text} {unit}" if unit else text
+
+
+def _pretty(unit: str) -> str:
+    """'um' -> 'µm', 'Mohm' -> 'MΩ' (customary units as people write them)."""
+    text = unit.replace("ohm", "Ω").replace("**2", "²").replace("**3", "³")
+    return "µ" + text[1:] if text.startswith("u") else text
 
 
 def row_unit(kind: str | None, unit: str | None = None) -> str:

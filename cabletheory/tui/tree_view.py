@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 
 from rich.text import Text
 from textual import work
@@ -13,11 +13,13 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, RadioButton, RadioSet, Static, Tree
 from textual.worker import get_current_worker
 
-from ..errors import CableTheoryError
-from .format import OutlineNode, analyse_file, tree_outline, tree_report
-from .forms import DEMO_SWC, TREE_FIELDS, TreeSetup, bundled_morphologies, read_tree_form
-from .report import Report
+from .fields import DEMO_SWC, TREE_FIELDS, bundled_morphologies
 from .widgets import CurvePlot, QuantityField, QuantityList
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .format import OutlineNode
+    from .forms import TreeSetup
+    from .report import Report
 
 PREFIX = "tr-"
 _SPECS = {spec.name: spec for spec in TREE_FIELDS}
@@ -117,6 +119,8 @@ class TreeView(Vertical):
         return "killed" if pressed is not None and pressed.id == "tips-killed" else "sealed"
 
     def refresh_results(self) -> None:
+        from .forms import read_tree_form
+
         fields = {f.spec.name: f for f in self.query(QuantityField)}
         setup, errors = read_tree_form({n: f.input.value for n, f in fields.items()}, self.tips_choice)
         for name, field in fields.items():
@@ -141,6 +145,9 @@ class TreeView(Vertical):
 
     @work(exclusive=True, thread=True, group="audit")
     def audit(self, setup: TreeSetup) -> None:
+        from ..errors import CableTheoryError
+        from .format import analyse_file, tree_outline, tree_report
+
         worker = get_current_worker()
         try:
             analysed = analyse_file(setup)

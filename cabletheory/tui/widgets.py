@@ -3,17 +3,18 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import TYPE_CHECKING
 
 from rich.text import Text
 from textual.app import ComposeResult
-from textual.containers import Horizontal, Vertical
 from textual.reactive import reactive
 from textual.widget import Widget
 from textual.widgets import Input, Label, Static
 
-from .forms import FieldSpec
-from .plot import draw
-from .report import PlotSpec, Row, row_text
+from .fields import FieldSpec
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .report import PlotSpec, Row
 
 # curve colours, in drawing order (chosen for contrast on a dark background)
 PALETTE = ("#f2b84b", "#5cc8d6", "#d77ac4", "#9bd36a", "#f07f5f", "#a7a7f0")
@@ -33,6 +34,8 @@ class CurvePlot(Widget):
         width, height = self.content_size.width, self.content_size.height
         if spec is None or not spec.series or width < 12 or height < 5:
             return Text("no curve yet", style="dim")
+        from .plot import draw  # numpy: not needed for the first, empty frame
+
         legend = legend_lines(spec.x_label, [s.label for s in spec.series], width)
         picture = draw(spec, width, height - len(legend))
         out = Text(no_wrap=True, overflow="crop")
@@ -73,6 +76,8 @@ class QuantityList(Static):
     """Label-value lines for a sequence of :class:`Row`; flagged rows are highlighted."""
 
     def show(self, rows: Sequence[Row], notes: Sequence[str] = ()) -> None:
+        from .report import row_text
+
         width = max((len(row.label) for row in rows), default=0)
         text = Text(no_wrap=False)
         for row in rows:
@@ -85,8 +90,9 @@ class QuantityList(Static):
         self.update(text)
 
 
-class QuantityField(Vertical):
-    """A field: label, a one-line input, and the message of its current problem (if any)."""
+class QuantityField(Widget):
+    """A field: label and one-line input side by side, and under them the message of its current
+    problem (made only when there is one; few widgets keep start-up quick)."""
 
     DEFAULT_CLASSES = "field"
 
@@ -99,11 +105,9 @@ class QuantityField(Vertical):
         self._value = spec.default if value is None else value
 
     def compose(self) -> ComposeResult:
-        with Horizontal(classes="field-row"):
-            yield Label(self._label, classes="field-label")
-            yield Input(self._value, placeholder=self.spec.placeholder, id=f"{self.prefix}{self.spec.name}",
-                        compact=True)
-        yield Static("", classes="field-message")
+        yield Label(self._label, classes="field-label")
+        yield Input(self._value, placeholder=self.spec.placeholder, id=f"{self.prefix}{self.spec.name}",
+                    compact=True)
 
     @property
     def input(self) -> Input:
@@ -111,5 +115,12 @@ class QuantityField(Vertical):
 
     def flag(self, message: str | None) -> None:
         """Show ``message`` under the field and mark it, or clear both (``None``)."""
-        self.query_one(".field-message", Static).update(message or "")
+        shown = self.query(".field-message")
+        if message:
+            if shown:
+                shown.first(Static).update(message)
+            else:
+                self.mount(Static(message, classes="field-message"))
+        elif shown:
+            shown.first(Static).update("")
         self.set_class(bool(message), "bad")
