@@ -25,6 +25,7 @@ from ..errors import CableTheoryError, InputError
 COMMANDS: dict[str, str] = {
     "cable": "cable",
     "charge": "charge",
+    "peel": "peel",
     "derive": "derive",
     "tree": "tree",
     "reference": "reference",
