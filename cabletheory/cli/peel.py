@@ -237,6 +237,11 @@ def as_json(inputs: dict[str, Any], e, properties) -> dict[str, Any]:
     }
 
 
+def _residual(value: float) -> str:
+    """Relative residual of the forward check; below 1e-12 it is rounding (and platform-dependent)."""
+    return "relative residual < 1e-12" if abs(value) < 1e-12 else f"relative residual {value:.1e}"
+
+
 def _rho_text(rho: float, fmt) -> str:
     return "∞ (no soma)" if math.isinf(rho) else fmt(rho)
 
@@ -292,8 +297,8 @@ def as_text(inputs: dict[str, Any], e, properties, digits: int = 4) -> str:
         tag = f" {i}" if len(e.solutions) > 1 else ""
         bas += [(f"solution{tag}: L", num(s.electrotonic_length)),
                 (f"solution{tag}: ρ = G_D/G_S", num(s.conductance_ratio)),
-                ("  check τ0/τ1 (forward)", f"{num(s.time_constant_ratio)}  residual {s.time_constant_residual:.1e}"),
-                ("  check C1/C0 (forward)", f"{num(s.coefficient_ratio)}  residual {s.coefficient_residual:.1e}")]
+                ("  check τ0/τ1 (forward)", f"{num(s.time_constant_ratio)}  {_residual(s.time_constant_residual)}"),
+                ("  check C1/C0 (forward)", f"{num(s.coefficient_ratio)}  {_residual(s.coefficient_residual)}")]
         tau2 = f"τ0/τ2 = {num(s.second_time_constant_ratio)}"
         if inputs["tau0"] is not None:
             tau2 += f", τ2 = {t(inputs['tau0'] / s.second_time_constant_ratio)}"
@@ -336,8 +341,9 @@ def _sensitivity_table(e, num) -> str:
                      num(p.cylinder_length), _solutions_text(list(p.solutions), e, num)])
     widths = [max(len(h), *(len(r[j]) for r in rows)) for j, h in enumerate(header)]
     title = f"Sensitivity: the estimates with τ1 and C1 changed by ±{pct}"
-    lines = [title, "-" * len(title), "  " + "  ".join(h.ljust(w) for h, w in zip(header, widths, strict=True))]
-    lines += ["  " + "  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)).rstrip() for r in rows]
+    lines = [title, "-" * len(title)]
+    lines += [("  " + "  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True))).rstrip()
+              for r in [header, *rows]]
     return "\n".join(lines)
 
 
