@@ -1,0 +1,137 @@
+"""The charging view driven through Pilot: the exact solver in a worker, keys, flagged fields, export.
+
+Expected numbers: the demo cable of shared/reference/checks.md §1 [COMP] (I R∞ coth L) and
+Rall (1969) for τ0 = τm of a sealed cylinder.
+"""
+
+from __future__ import annotations
+
+import asyncio
+
+import pytest
+
+pytest.importorskip("textual")
+
+from textual.widgets import Input
+
+from cabletheory.tui.app import CableApp
+
+SIZE = (120, 36)
+
+
+def drive(script, **options) -> CableApp:
+    app = CableApp(**options)
+
+    async def main() -> None:
+        async with app.run_test(size=SIZE) as pilot:
+            await pilot.pause()
+            await script(app, pilot)
+
+    asyncio.run(main())
+    return app
+
+
+def text_of(node, selector: str) -> str:
+    return str(node.query_one(selector).render())
+
+
+async def type_into(pilot, app, field: str, text: str) -> None:
+    box = app.query_one(f"#{field}", Input)
+    box.focus()
+    await pilot.press("end", "ctrl+u")
+    await pilot.press(*text)
+    await pilot.pause()
+
+
+async def settle(app, pilot) -> None:
+    """Let the solver workers finish and the screen catch up."""
+    await pilot.pause()
+    await app.workers.wait_for_complete()
+    await pilot.pause()
+
+
+def test_charging_view_solves_in_a_worker_and_lists_time_constants():
+    async def script(app, pilot):
+        await pilot.press("f3")
+        await settle(app, pilot)
+        view = app.query_one("#charging")
+        results = text_of(app, "#charging-results")
+        assert "τ0  slowest time constant" in results
+        assert "20.00 ms" in results  # τ0 = τm for a sealed cylinder (Rall 1969)
+        assert "error bound of every value" in results
+        assert "73.93 mV" in results  # I R∞ coth L for 100 pA (checks.md §1 [COMP])
+        assert view.report is not None
+        assert [len(p.spec.series) for p in app.query("#charging CurvePlot")] == [3, 3]
+        assert not app.query_one("#charging .plots").loading
+
+    drive(script)
+
+
+def test_charging_view_keys_switch_model_and_stimulus():
+    async def script(app, pilot):
+        await pilot.press("f3")
+        await settle(app, pilot)
+        view = app.query_one("#charging")
+        soma = app.query_one("#field-ch-soma")
+        assert not soma.display
+        await pilot.press("ctrl+b")
+        await settle(app, pilot)
+        assert view.model_choice == "ball"
+        assert soma.display
+        assert "ρ   dendrite/soma conductance" in text_of(app, "#charging-results")
+        await pilot.press("ctrl+n", "ctrl+n", "ctrl+n")
+        await settle(app, pilot)
+        assert view.stimulus_choice == "clamp"
+        assert app.query_one("#field-ch-clamp").display
+        assert not app.query_one("#field-ch-current").display
+        assert "clamp fixes the soma voltage" in " ".join(view.report.notes)
+
+    drive(script)
+
+
+def test_charging_view_flags_a_position_beyond_the_cable():
+    async def script(app, pilot):
+        await pilot.press("f3")
+        await settle(app, pilot)
+        await type_into(pilot, app, "ch-watch", "0, 900")
+        await settle(app, pilot)
+        assert app.query_one("#field-ch-watch").has_class("bad")
+        assert "900.0 µm lies outside the cable" in text_of(app, "#field-ch-watch .field-message")
+        assert app.query_one("#charging").report is None
+
+    drive(script)
+
+
+def test_charging_view_exports_csv(tmp_path):
+    target = tmp_path / "charging.csv"
+
+    async def script(app, pilot):
+        await pilot.press("f3")
+        await settle(app, pilot)
+        await pilot.press("ctrl+s")
+        app.screen.query_one("#save-path", Input).value = str(target)
+        await pilot.press("enter")
+        await pilot.pause()
+
+    drive(script)
+    lines = target.read_text(encoding="utf-8").splitlines()
+    assert lines[0] == "section,quantity,index,value,unit"
+    last_time = next(line for line in lines if line.startswith("time_course,time,240,"))
+    assert float(last_time.split(",")[3]) == pytest.approx(0.06)  # the "V(t) until" field
+    assert last_time.endswith(",s")
+
+
+def test_charging_view_shows_progress_while_the_worker_runs():
+    async def script(app, pilot):
+        await pilot.press("f3")
+        await settle(app, pilot)
+        view = app.query_one("#charging")
+        results = app.query_one("#charging-results")
+        view.refresh_results()
+        assert results.border_subtitle == "computing…"  # set before the worker is started
+        assert app.query_one("#charging .plots").loading
+        await settle(app, pilot)
+        assert results.border_subtitle == ""
+        assert not app.query_one("#charging .plots").loading
+
+    drive(script)
