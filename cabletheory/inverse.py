@@ -435,6 +435,8 @@ class PeelingEstimate:
         """
         if self.cylinder_index is None:
             return None
+        if not math.isfinite(self.cylinder_length_coefficients or math.nan):
+            return False  # C1/C0 >= 2: no sealed cylinder has it
         spread = (1.0 + self.uncertainty) / (1.0 - self.uncertainty)
         return 1.0 / spread <= self.cylinder_index <= spread
 

@@ -237,6 +237,13 @@ def test_neither_model_note():
     assert any("neither a sealed cylinder" in n for n in e.notes)
 
 
+def test_coefficient_ratio_beyond_any_cylinder_is_not_consistent():
+    """C1/C0 = 2τ1/τ0 < 2 for every sealed cylinder (Rall 1969), so C1/C0 >= 2 never agrees."""
+    e = inverse.estimate_from_peeling(1.05, 2.05, uncertainty=0.1)
+    assert math.isnan(e.cylinder_length_coefficients)
+    assert e.cylinder_consistent is False
+
+
 def test_second_time_constant_must_be_shorter():
     with pytest.raises(InputError, match="τ0/τ2"):
         inverse.estimate_from_peeling(10.0, second_time_constant_ratio=5.0)
