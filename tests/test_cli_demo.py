@@ -10,7 +10,7 @@ def test_demo_runs_every_step(capsys):
     out, err = capsys.readouterr()
     assert status == 0, err
     assert err == ""
-    assert out.count("=== step ") >= 6
+    assert out.count("=== step ") >= 7
     # the steps tell a story with both outcomes: a reducible tree and one that is not,
     # a coarse simulator run that fails and a refined one that passes
     assert "Verdict: REDUCIBLE" in out
@@ -18,4 +18,8 @@ def test_demo_runs_every_step(capsys):
     assert "FAIL (tolerance 20.0 µV)" in out
     assert "PASS (tolerance 20.0 µV)" in out
     assert "Equalising time constants" in out
+    # peeling step 2's charging curve recovers the 20 µm soma and the 2 µm x 500 µm dendrite of step 1
+    assert "soma diameter (sphere of that area)             20.00 µm" in out
+    assert "equivalent cylinder diameter                    2.000 µm" in out
+    assert "equivalent cylinder length ℓ = Lλ               500.0 µm" in out
     assert "passive, linear, uniform membrane" in out

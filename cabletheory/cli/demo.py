@@ -34,6 +34,11 @@ def steps() -> list[tuple[str, list[str]]]:
          "dendrite's tip charge, and which time constants would peeling the soma's curve reveal?",
          ["charge", *DENDRITE, "--soma-diameter", "20 µm", "--current", "100 pA", "--times", "0:40:5 ms",
           "--positions", "0, 250, 500 µm", "--modes", "3"]),
+        ("An experimenter who recorded only the soma's charging curve of that cell would peel τ0 = 20 ms, "
+         "τ1 = 1.621 ms and C1/C0 = 0.0984 from it, and measure R_N = 504.8 MΩ. Does Rall's inverse problem "
+         "give the cell back?",
+         ["peel", "--tau0", "20 ms", "--tau1", "1.621 ms", "--c1-over-c0", "0.0984", "--input-resistance",
+          "504.8 MΩ", "--Cm", "1 µF/cm²", "--Ri", "200 Ω·cm"]),
         ("A reconstructed wide-field interneuron (invented, type LW-1) grown to Rall's rules: does it collapse "
          "into one equivalent cylinder, and what is it?",
          ["tree", _data("morphologies/lumenia_lw1_conforming.swc"), "--Rm", "20 kΩ·cm²", "--Ri", "150 Ω·cm"]),
