@@ -408,3 +408,24 @@ def test_ui_command_bad_arguments_give_one_line_and_status_2(capsys, argv):
     err = capsys.readouterr().err
     assert err.startswith("cabletheory: error: ")
     assert err.count("\n") == 1
+
+
+@pytest.mark.parametrize("end", [0.0, math.inf, 1e-9])
+def test_check_exact_case_reaches_the_closed_form_steady_state(end):
+    """The check view's exact answer for every far end settles to I·R_in of cable.input_resistance
+    (R∞ coth L sealed, R∞ tanh L killed, Rall 1959) and is exactly 0 before the onset."""
+    from pathlib import Path
+
+    from cabletheory import cable
+    from cabletheory.tui.forms import CheckSetup
+    from cabletheory.tui.format import exact_case
+
+    cyl = cable.Cylinder(2.0, 2.0, 0.01, 2e-6, 500e-6, end)  # checks.md §1 demo cable
+    setup = CheckSetup(Path("unused.csv"), cyl, 1e-10, 0.0, 0.0, 2e-5, False)
+    values, bound = exact_case(setup).evaluate(np.array([-1e-3, 0.0, 1.0]), np.array([0.0, 0.0, 0.0]))
+    r_in = float(cable.input_resistance(cyl.semi_infinite_input_resistance, cyl.electrotonic_length,
+                                        cyl.end_conductance_ratio))
+    assert values[0] == 0.0
+    assert values[1] == 0.0
+    assert values[2] == pytest.approx(1e-10 * r_in, rel=1e-9)  # t = 50 τm: steady state
+    assert np.all(bound <= 1e-9 * abs(values[2]))

@@ -368,28 +368,17 @@ class CheckAnalysis:
 def exact_case(setup: CheckSetup) -> ExactCase:
     """The exact answer for a current step at the origin of the form's cylinder.
 
-    A sealed far end uses :func:`cabletheory.verify.sealed_step_case`; killed and leaky ends
-    use :func:`cabletheory.transient.charge` through a thin adapter that evaluates the same
-    (time, position) pairs.
+    A sealed far end uses :func:`cabletheory.verify.sealed_step_case` (Rall's series), killed
+    and leaky ends :func:`cabletheory.verify.transient_case` (the exact transients), as the
+    ``compare`` command does.
     """
-    from ..verify import ExactCase, sealed_step_case
+    from ..transient import CurrentStep
+    from ..verify import sealed_step_case, transient_case
 
     c = setup.cylinder
     if c.end_conductance == 0:
         return sealed_step_case(c, setup.current, EXACT_TOLERANCE)
-    from ..transient import CurrentStep, charge
-
-    def evaluate(times: np.ndarray, positions: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        t_values, t_index = np.unique(times, return_inverse=True)
-        x_values, x_index = np.unique(positions, return_inverse=True)
-        response = charge(c, CurrentStep(setup.current), t_values, x_values, tolerance=1e-10)
-        values = response.voltage[t_index, x_index]
-        return values, np.full(values.shape, response.error_bound)
-
-    return ExactCase(evaluate=evaluate, description=f"finite cylinder, {_end_text(c)} far end, current step "
-                                                   "at the origin",
-                     method="cabletheory.transient.charge (images and eigen-series with tail bounds)",
-                     length=c.length)
+    return transient_case(c, CurrentStep(setup.current), EXACT_TOLERANCE)
 
 
 def analyse_check(setup: CheckSetup) -> CheckAnalysis:
