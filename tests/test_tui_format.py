@@ -417,8 +417,8 @@ def test_check_exact_case_reaches_the_closed_form_steady_state(end):
     from pathlib import Path
 
     from cabletheory import cable
-    from cabletheory.tui.forms import CheckSetup
     from cabletheory.tui.format import exact_case
+    from cabletheory.tui.forms import CheckSetup
 
     cyl = cable.Cylinder(2.0, 2.0, 0.01, 2e-6, 500e-6, end)  # checks.md §1 demo cable
     setup = CheckSetup(Path("unused.csv"), cyl, 1e-10, 0.0, 0.0, 2e-5, False)
