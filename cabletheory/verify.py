@@ -56,6 +56,7 @@ __all__ = [
     "advise_tree",
     "compare",
     "convergence",
+    "exact_case",
     "json_number",
     "read_recording",
     "reference_csv",
@@ -1194,3 +1195,33 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
 
     return ExactCase(evaluate=evaluate, description=f"{shape}, {what}", method=method, parameters=params,
                      length=length, start=start)
+
+
+def exact_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase:
+    """The exact answer for a model and stimulus: the one rule that ``reference``, ``compare`` and
+    the terminal app's check view share.
+
+    A current step at the origin of a finite cylinder with a sealed far end uses the independent
+    eigenfunction series of :func:`sealed_step_case` (Rall 1969); every other case, the exact
+    transients of :mod:`cabletheory.transient` through :func:`transient_case`.
+
+    Parameters
+    ----------
+    model : :class:`~cabletheory.cable.Cylinder`, :class:`~cabletheory.transient.BallAndStick`
+        or :class:`~cabletheory.transient.InfiniteCable`
+    stimulus : a stimulus of :mod:`cabletheory.transient` (``CurrentStep``, ``CurrentPulse``,
+        ``AlphaCurrent``, ``VoltageStep``)
+    tolerance : V, bound asked for the truncation error of each exact value (positive, finite)
+
+    References
+    ----------
+    Rall W (1969) Biophys. J. 9:1483; Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444.
+    """
+    from . import transient as tr
+
+    if not (math.isfinite(tolerance) and tolerance > 0):
+        raise InputError(f"exact tolerance must be a positive voltage, got {tolerance!r}")
+    if (type(model) is cb.Cylinder and math.isfinite(model.length) and model.end_conductance == 0
+            and type(stimulus) is tr.CurrentStep and stimulus.position == 0):
+        return sealed_step_case(model, stimulus.amplitude, tolerance)
+    return transient_case(model, stimulus, tolerance)

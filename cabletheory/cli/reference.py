@@ -3,13 +3,11 @@
 from __future__ import annotations
 
 import argparse
-import math
 from pathlib import Path
 
 import numpy as np
 
 from .. import PASSIVE_CAVEAT
-from ..cable import Cylinder
 from ..errors import InputError, MissingFileError
 from ..units import format_quantity, parse_quantity, parse_series
 from ..verify import ExactCase, Recording, read_recording, reference_csv, reference_json, reference_npz, reference_table
@@ -25,22 +23,12 @@ def add_exact_tolerance(parser: argparse.ArgumentParser) -> None:
 
 
 def build_case(args: argparse.Namespace) -> ExactCase:
-    """The exact case the options describe.
-
-    A current step at the origin of a finite sealed cylinder uses the independent series of
-    :func:`~cabletheory.verify.sealed_step_case`; every other case the exact transients of
-    :mod:`cabletheory.transient` (:func:`~cabletheory.verify.transient_case`).
-    """
-    from .. import transient as tr
-    from ..verify import sealed_step_case, transient_case
+    """The exact case the options describe (the rule of :func:`cabletheory.verify.exact_case`)."""
+    from ..verify import exact_case
 
     tolerance = parse_quantity(args.exact_tolerance, "voltage", "--exact-tolerance")
     model = read_model(args)
-    stimulus = read_stimulus(args, model)
-    if (type(model) is Cylinder and math.isfinite(model.length) and model.end_conductance == 0
-            and type(stimulus) is tr.CurrentStep and stimulus.position == 0):
-        return sealed_step_case(model, stimulus.amplitude, tolerance)
-    return transient_case(model, stimulus, tolerance)
+    return exact_case(model, read_stimulus(args, model), tolerance)
 
 
 def allows_negative_positions(args: argparse.Namespace) -> bool:
