@@ -52,6 +52,7 @@ __all__ = [
     "OrderEstimate",
     "Recording",
     "ReferenceTable",
+    "StepAdvice",
     "advise_cable",
     "advise_tree",
     "compare",
@@ -568,6 +569,38 @@ OUTPUTS: dict[str, str] = {
 
 
 @dataclass(frozen=True, slots=True)
+class StepAdvice:
+    """The largest time step Δt for a time course, with the segments of the same advice.
+
+    The target is split: ``space_target`` (segments, Δt negligible) plus ``time_target`` (Δt,
+    measured against a time-converged solve with the same segments). The fully discrete error
+    is the sum of the two parts, so by the triangle inequality it stays within their sum, the
+    whole target; ``error`` is that total, measured against the exact course. Every error is
+    the maximum over the sample times, relative to the peak exact voltage.
+    """
+
+    scheme: str  # key of compartment.SCHEMES
+    order: int  # theoretical order in Δt (1 backward Euler, 2 Crank–Nicolson; Crank & Nicolson 1947)
+    space_target: float  # relative error budget given to the segments
+    time_target: float  # relative error budget given to the time step
+    step: float  # s, recommended Δt = output_spacing / divisions
+    divisions: int  # steps per output spacing
+    output_spacing: float  # s, the largest step that divides every sample time
+    last_time: float  # s, the end of the output window (the step is at t = 0)
+    samples: int  # number of sample times
+    time_error: float  # relative time error at ``step`` (against the time-converged solve)
+    error: float  # relative total error at (segments, step) against the exact course (verified)
+    limited_by_output: bool  # True: the output spacing itself meets the time budget
+    step_estimate: float | None  # s, if limited: Δt the order predicts for the budget (not verified)
+    reference_step: float  # s, Δt of the time-converged Crank–Nicolson solve
+    reference_error: float  # relative time error of that solve (Richardson estimate)
+    solves: int  # integrations spent on the time step (reference, search, rule)
+    rule_step: float  # s, the rule of thumb's fixed step
+    rule_error: float | None  # relative total error at (segments, rule_step); None if it does not
+    #                           divide the sample times
+
+
+@dataclass(frozen=True, slots=True)
 class Advice:
     """Segments per section for a target error in one output, beside the rule of thumb.
 
@@ -590,6 +623,7 @@ class Advice:
     site: float | None = None  # m, for "attenuation" and "time-course"
     frequency: float | None = None  # Hz, for "impedance"
     step: float | None = None  # s, Δt used for the time course (fine enough to be negligible)
+    time_step: StepAdvice | None = None  # for "time-course": the largest Δt for the time share
 
 
 def tree_input_admittance(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike,
@@ -738,10 +772,17 @@ def _check_target(target: float) -> None:
         raise InputError(f"target relative error must lie in [1e-9, 1), got {target!r}")
 
 
+SPACE_SHARE = 0.5  # fraction of a time-course target given to the segments; the rest goes to Δt
+RULE_STEP = 25e-6  # s: the fixed 25 µs step common in compartmental modelling [CP]
+REFERENCE_MARGIN = 50  # the time-converged reference may use 1/50 of the smaller share
+MAX_TIME_STEPS = 400_000  # time steps in one solve, at most
+
+
 def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: float | None = None,
                  frequency: float = 100.0, soma_area: float = 0.0, rule_fraction: float = 0.1,
                  rule_frequency: float = 100.0, exact_time_course: Callable[[Array], Array] | None = None,
-                 times: ArrayLike | None = None) -> Advice:
+                 times: ArrayLike | None = None, scheme: str = "crank-nicolson", space_share: float = SPACE_SHARE,
+                 rule_step: float = RULE_STEP) -> Advice:
     """Segments for one finite cylinder (input at its origin) to meet a target relative error.
 
     Parameters
@@ -755,6 +796,17 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
     rule_fraction, rule_frequency : the rule of thumb (0.1 λ at 100 Hz, [CP])
     exact_time_course : for "time-course", ``times -> exact V (V) at site`` for a 1 A step at
         the origin (from :mod:`cabletheory.transient`); ``times`` in s are where it is sampled
+    scheme : for "time-course", the time scheme whose Δt is advised (a key of
+        :data:`cabletheory.compartment.SCHEMES`)
+    space_share : for "time-course", the fraction of ``target`` given to the segments; the rest
+        goes to the time step (default one half each)
+    rule_step : s, for "time-course", the rule of thumb's fixed Δt (25 µs, [CP])
+
+    Notes
+    -----
+    For "time-course" the segments meet ``space_share * target`` with Δt negligible, and
+    :attr:`Advice.time_step` holds the largest Δt that keeps the time error within the rest
+    (see :class:`StepAdvice`).
     """
     if output not in OUTPUTS:
         raise InputError(f"output {output!r} is not one of {', '.join(OUTPUTS)}")
@@ -765,7 +817,9 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
     where = cylinder.length if site is None else float(site)
     if not 0 <= where <= cylinder.length:
         raise InputError(f"site {where!r} m lies outside the cable (0 to {cylinder.length!r} m)")
-    tau = cylinder.time_constant
+    rule_n, lam, lam_f = _rule(np.array([cylinder.length]), np.array([cylinder.diameter]), rm, ri, cmem,
+                               rule_fraction, rule_frequency)
+    space_target = target
     step = None
     if output in ("input-resistance", "impedance"):
         f = frequency if output == "impedance" else 0.0
@@ -791,44 +845,157 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
     else:  # time course
         if exact_time_course is None or times is None:
             raise InputError("the time-course advice needs the exact solution (cabletheory.transient)")
+        cp.expected_order(scheme)  # names the scheme in the error if it is unknown
+        if not (math.isfinite(space_share) and 0 < space_share < 1):
+            raise InputError(f"space share of the target must lie strictly between 0 and 1, got {space_share!r}")
+        if not (math.isfinite(rule_step) and rule_step > 0):
+            raise InputError(f"rule-of-thumb time step must be a finite positive time in s, got {rule_step!r}")
         t = np.asarray(times, dtype=float)
+        spacing = _output_spacing(t)
         v_exact = np.asarray(exact_time_course(t), dtype=float)
         peak = float(np.max(np.abs(v_exact)))
         if not peak > 0:
             raise InputError(f"the exact voltage at the site ({where!r} m) stays at rest (a killed end?), so a "
                              "relative error means nothing there; choose another --site")
         exact = complex(peak)
-        # Δt so small that the Crank–Nicolson error is far below the spatial one (checked below)
-        step = _fine_step(t, tau)
+        space_target = target * space_share
+        # a Crank–Nicolson Δt whose own time error is negligible beside both shares, found on a
+        # probe grid (the time error hardly depends on the segment count)
+        negligible = min(space_target, target - space_target) / REFERENCE_MARGIN
+        probe = cp.discretise_cable(cylinder, int(np.clip(rule_n[0], 8, 400)), soma_area=soma_area or None)
+        start = math.ceil(spacing / (cylinder.time_constant / 2000))  # first try: Δt near τm/2000
+        step = _time_converged(probe, where, t, spacing, start, peak, negligible)[1]
+        fine = step
 
         def error_at(n: NDArray[np.int64]) -> float:
             c = cp.discretise_cable(cylinder, int(n[0]), soma_area=soma_area or None)
-            current = np.zeros(c.size)
-            current[0] = 1.0
-            v = cp.integrate(c, current, t, step=step)
-            return float(np.max(np.abs(cp.sample(c, v, [where])[:, 0] - v_exact)) / peak)
+            return float(np.max(np.abs(_step_course(c, where, t, fine, "crank-nicolson") - v_exact))) / peak
 
-    rule_n, lam, lam_f = _rule(np.array([cylinder.length]), np.array([cylinder.diameter]), rm, ri, cmem,
-                               rule_fraction, rule_frequency)
     electrotonic = np.array([cylinder.electrotonic_length])
-    n, err = _search(error_at, electrotonic, target, 20_000 if output == "time-course" else MAX_SEGMENTS)
+    n, err = _search(error_at, electrotonic, space_target, 20_000 if output == "time-course" else MAX_SEGMENTS)
+    time_step = None
+    if output == "time-course":
+        c = cp.discretise_cable(cylinder, int(n[0]), soma_area=soma_area or None)
+        time_step, err, step = _advise_step(c, where, t, v_exact, peak, spacing, round(spacing / fine), scheme,
+                                            space_target, target - space_target, negligible, rule_step)
     return Advice(output=output, target=target, exact_value=exact, segments=n, error=err, rule_segments=rule_n,
                   rule_error=error_at(rule_n), rule_fraction=rule_fraction, rule_frequency=rule_frequency,
                   length_constants=lam, ac_length_constants=lam_f, electrotonic_lengths=electrotonic,
                   site=where if output in ("attenuation", "time-course") else None,
-                  frequency=frequency if output == "impedance" else None, step=step)
+                  frequency=frequency if output == "impedance" else None, step=step, time_step=time_step)
 
 
-def _fine_step(times: Array, tau: float) -> float:
-    """A Δt dividing every sample time, at most τm/2000 (CN error then ~1e-7 of the peak)."""
+def _output_spacing(times: Array) -> float:
+    """The largest Δt that divides every sample time (s): their greatest common step."""
+    if times.ndim != 1 or times.size == 0 or not np.all(np.isfinite(times)):
+        raise InputError("the time course needs a list of finite sample times")
+    if np.any(times < 0) or np.any(np.diff(times) < 0):
+        raise InputError("sample times of the time course must be >= 0 (the step is at t = 0) and increasing")
     positive = times[times > 0]
     if positive.size == 0:
         raise InputError("the time course needs at least one time after the onset")
     # greatest common step of the sample times, on a 1e-12 s lattice
     ticks = np.rint(positive / 1e-12).astype(np.int64)
-    base = int(np.gcd.reduce(ticks)) * 1e-12
-    divisions = max(1, math.ceil(base / (tau / 2000)))
-    return base / divisions
+    spacing = int(np.gcd.reduce(ticks)) * 1e-12
+    if positive[-1] / spacing > MAX_TIME_STEPS:
+        raise InputError(f"the sample times share no step coarser than {spacing:.3g} s over {positive[-1]:.3g} s; "
+                         "give evenly spaced times such as '0:2:0.05 ms'")
+    return spacing
+
+
+def _divides(step: float, times: Array) -> bool:
+    counts = np.rint(times / step)
+    return bool(np.all(np.abs(counts * step - times) <= 1e-6 * step + 1e-12 * np.abs(times)))
+
+
+def _step_course(c: cp.Compartments, where: float, times: Array, step: float, scheme: str) -> Array:
+    """Voltage (V) at ``where`` for a 1 A step at node 0, by ``compartment.integrate`` at Δt = ``step``."""
+    if times[-1] / step > MAX_TIME_STEPS:
+        raise ConvergenceError(f"a time step of {step:.3g} s needs more than {MAX_TIME_STEPS} steps over "
+                               f"{times[-1]:.3g} s; ask for a looser target or a shorter time course")
+    current = np.zeros(c.size)
+    current[0] = 1.0
+    return cp.sample(c, cp.integrate(c, current, times, scheme=scheme, step=step), [where])[:, 0]
+
+
+def _time_converged(c: cp.Compartments, where: float, times: Array, spacing: float, divisions: int, peak: float,
+                    tolerance: float) -> tuple[Array, float, float, int]:
+    """A Crank–Nicolson solve whose own time error is at most ``tolerance`` (relative to ``peak``).
+
+    The error of the solve at Δt = h is estimated by Richardson's rule for a second-order
+    method, :math:`|V_h - V_{2h}| / (2^2 - 1)`; h = ``spacing / divisions`` (first try; made
+    even and refined until the estimate is within ``tolerance``). Returns the course, h (s),
+    the estimate and the number of solves.
+    """
+    divisions = 2 * max(1, math.ceil(divisions / 2))
+    for solves in range(2, 20, 2):
+        h = spacing / divisions
+        course = _step_course(c, where, times, h, "crank-nicolson")
+        estimate = float(np.max(np.abs(course - _step_course(c, where, times, 2 * h, "crank-nicolson")))) / 3 / peak
+        if estimate <= tolerance:
+            return course, h, estimate, solves
+        # second order: the error falls as h²
+        divisions = 2 * math.ceil(divisions * math.sqrt(estimate / tolerance) * 1.1 / 2)
+    raise ConvergenceError(f"no Crank–Nicolson step reached a time error of {tolerance:.3g}")  # pragma: no cover
+
+
+def _advise_step(c: cp.Compartments, where: float, times: Array, v_exact: Array, peak: float, spacing: float,
+                 divisions: int, scheme: str, space_target: float, time_target: float, negligible: float,
+                 rule_step: float) -> tuple[StepAdvice, float, float]:
+    """The largest Δt = spacing/m (m a whole number) whose time error meets ``time_target``.
+
+    The time error of a run at Δt is its distance from a time-converged run with the same
+    segments. The scheme's order p (e ∝ Δt^p) predicts m from each measured error; the
+    prediction is measured, refined until it meets the budget, then coarsened by bisection on
+    m to the largest passing Δt (to 2 %). Returns the advice, the spatial error re-measured
+    with the reference, and the reference step.
+    """
+    order = cp.expected_order(scheme)[1]
+    reference, ref_step, ref_error, solves = _time_converged(c, where, times, spacing, divisions, peak, negligible)
+    space_error = float(np.max(np.abs(reference - v_exact))) / peak
+    tried: dict[int, tuple[float, Array]] = {}
+
+    def measure(m: int) -> float:
+        course = _step_course(c, where, times, spacing / m, scheme)
+        tried[m] = (float(np.max(np.abs(course - reference))) / peak, course)
+        return tried[m][0]
+
+    def predicted(m: int) -> int:  # divisions for the budget if e ∝ (spacing/m)^p
+        e = tried[m][0]
+        return math.ceil(m * (e / time_target) ** (1.0 / order)) if e > 0 else 1
+
+    m = 1
+    e = measure(m)
+    while e > time_target:
+        m = max(m + 1, math.ceil(predicted(m) * 1.02))
+        e = measure(m)
+    lo = max((k for k, (ek, _) in tried.items() if ek > time_target), default=0)  # largest failing m
+    first = True
+    while m - lo > 1 and m - lo > 0.02 * m:
+        guess = predicted(m) if first else (lo + m) // 2
+        first = False
+        guess = min(max(guess, lo + 1), m - 1)
+        if measure(guess) <= time_target:
+            m = guess
+        else:
+            lo = guess
+    time_error, course = tried[m]
+    total = float(np.max(np.abs(course - v_exact))) / peak  # the verification: against the exact course
+    e1 = tried[1][0]
+    limited = m == 1
+    estimate = spacing * (time_target / e1) ** (1.0 / order) if limited and e1 > 0 else None
+    rule_error = None
+    if _divides(rule_step, times):
+        rule = _step_course(c, where, times, rule_step, scheme)
+        rule_error = float(np.max(np.abs(rule - v_exact))) / peak
+        solves += 1
+    advice = StepAdvice(scheme=scheme, order=order, space_target=space_target, time_target=time_target,
+                        step=spacing / m, divisions=m, output_spacing=spacing, last_time=float(times[-1]),
+                        samples=int(times.size), time_error=time_error, error=total,
+                        limited_by_output=limited, step_estimate=estimate, reference_step=ref_step,
+                        reference_error=ref_error, solves=solves + len(tried), rule_step=rule_step,
+                        rule_error=rule_error)
+    return advice, space_error, ref_step
 
 
 # ======================================================================================

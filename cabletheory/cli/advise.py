@@ -8,9 +8,10 @@ import math
 import numpy as np
 
 from .. import PASSIVE_CAVEAT
+from ..compartment import SCHEMES
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
-from ..verify import OUTPUTS, Advice, advise_cable, advise_tree
+from ..verify import OUTPUTS, RULE_STEP, Advice, StepAdvice, advise_cable, advise_tree
 from .common import (
     add_membrane_options,
     dump_json,
@@ -57,6 +58,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.add_argument("--frequency", default="100 Hz", metavar="F", help="for impedance (default 100 Hz)")
     parser.add_argument("--times", default="0:2:0.05 ms", metavar="RANGE",
                         help="sample times for time-course, e.g. '0:2:0.05 ms' (default)")
+    parser.add_argument("--scheme", choices=list(SCHEMES), default=None,
+                        help="time-course only: the time scheme whose largest Δt is advised (default "
+                             "crank-nicolson)")
+    parser.add_argument("--rule-step", metavar="DT",
+                        help="time-course only: the rule of thumb's fixed time step (default 25 us)")
     parser.add_argument("--rule-fraction", default="0.1", metavar="FRACTION",
                         help="rule of thumb: segment length as a fraction of λ at --rule-frequency (default 0.1)")
     parser.add_argument("--rule-frequency", default="100 Hz", metavar="F",
@@ -104,6 +110,12 @@ def run(args: argparse.Namespace) -> int:
         raise InputError(f"--target: {args.target!r} must lie between 1e-7 % and 100 % (e.g. 1%)")
     rule_fraction = parse_quantity(args.rule_fraction, "dimensionless", "--rule-fraction")
     rule_frequency = parse_quantity(args.rule_frequency, "frequency", "--rule-frequency")
+    if args.quantity != "time-course":
+        for option, value in (("--scheme", args.scheme), ("--rule-step", args.rule_step)):
+            if value is not None:
+                raise InputError(f"{option}: only --quantity time-course has a time step to advise")
+    scheme = args.scheme or "crank-nicolson"
+    rule_step = RULE_STEP if args.rule_step is None else parse_quantity(args.rule_step, "time", "--rule-step")
     frequency = parse_quantity(args.frequency, "frequency", "--frequency")
     soma_diameter = None
     if args.soma_diameter:
@@ -137,7 +149,7 @@ def run(args: argparse.Namespace) -> int:
         advice = advise_cable(cylinder, args.quantity, target, site=site, frequency=frequency,
                               soma_area=math.pi * soma_diameter**2 if soma_diameter else 0.0,
                               rule_fraction=rule_fraction, rule_frequency=rule_frequency,
-                              exact_time_course=exact_course, times=times)
+                              exact_time_course=exact_course, times=times, scheme=scheme, rule_step=rule_step)
         inputs = echo_cylinder(cylinder)
     if soma_diameter:
         inputs.append(("soma diameter", format_quantity(soma_diameter, "length")))
@@ -186,7 +198,43 @@ def as_json(a: Advice) -> dict:
         out["site"] = quantity(a.site, "length")
     if a.frequency is not None:
         out["frequency"] = quantity(a.frequency, "frequency")
+    if a.time_step is not None:
+        out["space_target_relative_error"] = a.time_step.space_target
+        out["time_step"] = _step_json(a.time_step)
     return out
+
+
+SPLIT = ("{space} to the segments (measured with a negligible time step) and {time} to the time step (measured "
+         "against a time-converged run with the same segments); the two errors add to at most the target")
+
+
+def _step_json(s: StepAdvice) -> dict:
+    return {
+        "scheme": s.scheme,
+        "expected_order": s.order,
+        "budget_split": SPLIT.format(space=_percent(s.space_target), time=_percent(s.time_target)),
+        "space_target_relative_error": s.space_target,
+        "time_target_relative_error": s.time_target,
+        "step": quantity(s.step, "time"),
+        "output_spacing": quantity(s.output_spacing, "time"),
+        "window": quantity(s.last_time, "time"),
+        "sample_times": s.samples,
+        "steps_per_output_spacing": s.divisions,
+        "time_relative_error": s.time_error,
+        "relative_error": s.error,
+        "verified": "one solve with the advised segments and time step, compared with the exact course",
+        "limited_by_output_spacing": s.limited_by_output,
+        "step_estimate_without_output_limit": None if s.step_estimate is None else quantity(s.step_estimate, "time"),
+        "reference_step": quantity(s.reference_step, "time"),
+        "reference_time_relative_error": s.reference_error,
+        "solves": s.solves,
+        "rule_of_thumb": {
+            "step": quantity(s.rule_step, "time"),
+            "relative_error": s.rule_error,
+            "note": "a fixed step common in compartmental modelling (common practice), with the advised segments"
+                    if s.rule_error is not None else "the step does not divide the sample times; not compared",
+        },
+    }
 
 
 def _percent(x: float) -> str:
@@ -207,11 +255,20 @@ def as_text(a: Advice, inputs: list[tuple[str, str]]) -> str:
         rows.append(("exact |Z|", format_quantity(abs(a.exact_value), "resistance")))
     elif a.output == "attenuation":
         rows.append(("exact V(site)/V(0)", f"{a.exact_value.real:.6g}"))
+    elif a.time_step is not None:
+        s = a.time_step
+        rows += [("time window", f"0 to {format_quantity(s.last_time, 'time')}, {s.samples} sample times "
+                                 f"(common spacing {format_quantity(s.output_spacing, 'time')})"),
+                 ("exact peak V/I", f"{format_quantity(a.exact_value.real, 'resistance')} "
+                                    "(relative errors are per the peak voltage)")]
     blocks.append(table(rows, "Question"))
     n_sections = a.segments.size
+    share = a.time_step.space_target if a.time_step is not None else a.target
     if n_sections == 1:
+        need = ("needed for the target" if a.time_step is None
+                else f"needed for the space share ({_percent(share)})")
         rows = [
-            ("needed for the target", f"{int(a.segments[0])} segments, error {_percent(a.error)}"),
+            (need, f"{int(a.segments[0])} segments, error {_percent(a.error)}"),
             (f"rule of thumb ({a.rule_fraction:g} λ at {format_quantity(a.rule_frequency, 'frequency')})",
              f"{int(a.rule_segments[0])} segments, error {_percent(a.rule_error)}"),
             ("λ, λ at the rule frequency", f"{format_quantity(float(a.length_constants[0]), 'length')}, "
@@ -227,8 +284,42 @@ def as_text(a: Advice, inputs: list[tuple[str, str]]) -> str:
         lines.append(f"  total           {int(a.segments.sum()):8d} {int(a.rule_segments.sum()):15d}")
         lines.append(f"  error at the root: needed {_percent(a.error)}, rule of thumb {_percent(a.rule_error)}")
         blocks.append("\n".join(lines))
-    verdict = "meets" if a.rule_error <= a.target else "misses"
-    blocks.append(f"The rule of thumb {verdict} the target for this output. Segment counts assume equal "
+    verdict = "meets" if a.rule_error <= share else "misses"
+    goal = "the target" if a.time_step is None else "the space share"
+    blocks.append(f"The rule of thumb {verdict} {goal} for this output. Segment counts assume equal "
                   "segments with nodes at both ends (second order in Δx); errors were measured, not guessed.")
+    if a.time_step is not None:
+        blocks.append(_step_text(a.time_step, int(a.segments[0]), a.target))
     blocks.append(PASSIVE_CAVEAT)
     return "\n\n".join(blocks)
+
+
+def _step_text(s: StepAdvice, segments: int, target: float) -> str:
+    dt = format_quantity(s.step, "time")
+    spacing = format_quantity(s.output_spacing, "time")
+    largest = (f"{dt} = the output spacing" if s.divisions == 1
+               else f"{dt} = output spacing {spacing} / {s.divisions}")
+    rows = [
+        ("error budget", f"{_percent(s.space_target)} to the segments, {_percent(s.time_target)} to the time step"),
+        ("largest Δt", f"{largest}, time error {_percent(s.time_error)}"),
+    ]
+    if s.limited_by_output and s.step_estimate is not None:
+        rows.append(("coarser steps", f"about {format_quantity(s.step_estimate, 'time')} would do by the order "
+                                      "(not verified: Δt must divide the output times; give coarser --times)"))
+    rows += [
+        ("verified error", f"{_percent(s.error)} with {segments} segments and Δt {dt} (target {_percent(target)})"),
+        (f"rule of thumb ({format_quantity(s.rule_step, 'time')} step)",
+         f"error {_percent(s.rule_error)} with {segments} segments" if s.rule_error is not None
+         else "does not divide the output times; not compared"),
+        ("time-converged reference", f"Crank–Nicolson Δt {format_quantity(s.reference_step, 'time')}, own time "
+                                     f"error {s.reference_error * 100:.2g} % (Richardson estimate)"),
+    ]
+    title = f"Time step ({s.scheme}, order {s.order} in Δt)"
+    note = ("The target is split: " + SPLIT.format(space=_percent(s.space_target), time=_percent(s.time_target))
+            + ". The largest Δt was predicted from the scheme's order and measured; the verified error is one "
+              "solve with both, compared with the exact course.")
+    if s.rule_error is not None:
+        verdict = "meets" if s.rule_error <= target else "misses"
+        note += (f" The fixed {format_quantity(s.rule_step, 'time')} step common in compartmental modelling "
+                 f"{verdict} the target with these segments.")
+    return table(rows, title) + "\n\n" + note
