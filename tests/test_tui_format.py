@@ -410,21 +410,25 @@ def test_ui_command_bad_arguments_give_one_line_and_status_2(capsys, argv):
     assert err.count("\n") == 1
 
 
-@pytest.mark.parametrize("end", [0.0, math.inf, 1e-9])
-def test_check_exact_case_reaches_the_closed_form_steady_state(end):
-    """The check view's exact answer for every far end settles to I·R_in of cable.input_resistance
-    (R∞ coth L sealed, R∞ tanh L killed, Rall 1959) and is exactly 0 before the onset."""
-    from pathlib import Path
-
+@pytest.mark.parametrize("end", ["sealed", "killed", "1 nS"])
+def test_check_exact_case_reaches_the_closed_form_steady_state(end, tmp_path):
+    """The check form's exact answer (verify.exact_case of the form's model and stimulus) for every
+    far end settles to I·R_in of cable.input_resistance (R∞ coth L sealed, R∞ tanh L killed,
+    Rall 1959; checks.md §1 [COMP]) and is exactly 0 before the onset."""
     from cabletheory import cable
-    from cabletheory.tui.format import exact_case
-    from cabletheory.tui.forms import CheckSetup
+    from cabletheory.tui.forms import read_check_form
+    from cabletheory.verify import exact_case
 
-    cyl = cable.Cylinder(2.0, 2.0, 0.01, 2e-6, 500e-6, end)  # checks.md §1 demo cable
-    setup = CheckSetup(Path("unused.csv"), cyl, 1e-10, 0.0, 0.0, 2e-5, False)
-    values, bound = exact_case(setup).evaluate(np.array([-1e-3, 0.0, 1.0]), np.array([0.0, 0.0, 0.0]))
+    run = tmp_path / "run.csv"
+    run.write_text("time (ms),V at 0 um (mV)\n0,0\n", encoding="utf-8")
+    setup, errors = read_check_form({"file": str(run), "end": end})
+    assert errors == {}
+    cyl = setup.case.model
+    values, bound = exact_case(cyl, setup.case.stimulus, 1e-12).evaluate(np.array([-1e-3, 0.0, 1.0]),
+                                                                         np.zeros(3))
     r_in = float(cable.input_resistance(cyl.semi_infinite_input_resistance, cyl.electrotonic_length,
                                         cyl.end_conductance_ratio))
+    assert {"sealed": 739.3466931e6, "killed": 274.0830103e6}.get(end, r_in) == pytest.approx(r_in, rel=1e-9)
     assert values[0] == 0.0
     assert values[1] == 0.0
     assert values[2] == pytest.approx(1e-10 * r_in, rel=1e-9)  # t = 50 τm: steady state

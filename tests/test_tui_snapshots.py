@@ -96,3 +96,27 @@ def test_check_view_coarse_run(snap_compare):
 
     app = CableApp(view="check", simulation=str(csv))
     assert snap_compare(app, terminal_size=SIZE, run_before=relative_path)
+
+
+def test_check_view_killed_end_pulse(snap_compare, tmp_path):
+    """ctrl+n picks a current pulse; the far end is killed and the pulse enters at 200 µm. The file is
+    the exact answer plus 40 µV at one sample, which the view reports as the worst point."""
+    from test_tui_check import write_run
+
+    run = tmp_path / "killed_pulse.csv"
+    write_run(run)
+
+    async def choose(pilot) -> None:
+        await pilot.press("ctrl+n")
+        app = pilot.app
+        app.query_one("#ck-end", Input).value = "killed"
+        app.query_one("#ck-site", Input).value = "200 µm"
+        app.query_one("#check").open_path(str(run))
+        await pilot.pause()  # let the worker start
+        await steady(pilot)
+        box = app.query_one("#ck-file", Input)
+        box.value = "killed_pulse.csv"  # a machine-independent path on the picture
+        box.cursor_position = 0
+        await pilot.pause()
+
+    assert snap_compare(CableApp(view="check"), terminal_size=SIZE, run_before=choose)

@@ -182,7 +182,7 @@ def test_check_view_flags_the_coarse_run_and_passes_the_refined_one():
         assert "1.468 mV" in results
         assert "worst point: file line            11" in results
         assert app.query_one("#check-plot").spec.x_label == "t after onset (ms)"
-        await pilot.press("ctrl+b")
+        await pilot.press("ctrl+p")
         await pilot.pause()
         assert app.query_one("#check-plot").spec.x_label == "x (µm)"
         app.query_one("#check").open_path(str(SIMULATOR / "refined.csv"))

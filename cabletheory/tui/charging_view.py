@@ -8,20 +8,18 @@ from textual import work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
-from textual.widgets import Input, Label, RadioButton, RadioSet, Static
+from textual.widgets import Input, Label, RadioSet, Static
 from textual.worker import get_current_worker
 
-from .fields import CHARGING_FIELDS, MODEL_CHOICES, STIMULUS_CHOICES, charging_fields_used
-from .widgets import CurvePlot, QuantityField, QuantityList
+from .fields import CABLE_GROUP, CHARGING_FIELDS, MODEL_CHOICES, STIMULUS_CHOICES, STIMULUS_GROUP, charging_fields_used
+from .widgets import ChoiceSet, CurvePlot, QuantityField, QuantityList
 
 if TYPE_CHECKING:  # pragma: no cover
     from .forms import ChargingSetup
     from .report import Report
 
 PREFIX = "ch-"
-_GROUPS = (("cable", ("Rm", "Ri", "Cm", "diameter", "length", "end", "soma")),
-           ("stimulus", ("current", "clamp", "duration", "time_to_peak", "site")),
-           ("curves", ("span", "watch", "moments")))
+CURVE_GROUP = ("span", "watch", "moments")
 _SPECS = {spec.name: spec for spec in CHARGING_FIELDS}
 
 
@@ -45,19 +43,15 @@ class ChargingView(Vertical):
             with VerticalScroll(classes="form", id="charging-form", can_focus=False):
                 yield Static("exact transients", classes="form-title")
                 yield Label("model  (ctrl+b cycles)", classes="group-label")
-                with RadioSet(id="ch-model", compact=True):
-                    for key, label in MODEL_CHOICES.items():
-                        yield RadioButton(label, value=key == "cylinder", id=f"model-{key}", compact=True)
-                for name in _GROUPS[0][1]:
+                yield ChoiceSet(MODEL_CHOICES, "cylinder", id=f"{PREFIX}model")
+                for name in CABLE_GROUP:
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
                 yield Label("stimulus  (ctrl+n cycles)", classes="group-label")
-                with RadioSet(id="ch-stimulus", compact=True):
-                    for key, label in STIMULUS_CHOICES.items():
-                        yield RadioButton(label, value=key == "step", id=f"stimulus-{key}", compact=True)
-                for name in _GROUPS[1][1]:
+                yield ChoiceSet(STIMULUS_CHOICES, "step", id=f"{PREFIX}stimulus")
+                for name in STIMULUS_GROUP:
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
                 yield Label("curves", classes="group-label")
-                for name in _GROUPS[2][1]:
+                for name in CURVE_GROUP:
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
                 yield Static("lists: '0, 250, 500 µm'; ranges: '0:500:100 µm'\nlength 'inf': semi-infinite cylinder\n"
                              "infinite cable: positions on both sides of the input", classes="hint")
@@ -73,17 +67,13 @@ class ChargingView(Vertical):
             self.active = True
             self.refresh_results()
 
-    def _choice(self, radio_id: str, prefix: str, default: str) -> str:
-        pressed = self.query_one(f"#{radio_id}", RadioSet).pressed_button
-        return (pressed.id or "").removeprefix(prefix) if pressed is not None else default
-
     @property
     def model_choice(self) -> str:
-        return self._choice("ch-model", "model-", "cylinder")
+        return self.query_one(f"#{PREFIX}model", ChoiceSet).choice
 
     @property
     def stimulus_choice(self) -> str:
-        return self._choice("ch-stimulus", "stimulus-", "step")
+        return self.query_one(f"#{PREFIX}stimulus", ChoiceSet).choice
 
     def on_input_changed(self, event: Input.Changed) -> None:
         event.stop()
@@ -95,16 +85,11 @@ class ChargingView(Vertical):
         if self.active:
             self.refresh_results()
 
-    def _cycle(self, choices: dict[str, str], current: str, prefix: str) -> None:
-        keys = list(choices)
-        following = keys[(keys.index(current) + 1) % len(keys)]
-        self.query_one(f"#{prefix}{following}", RadioButton).value = True
-
     def action_next_model(self) -> None:
-        self._cycle(MODEL_CHOICES, self.model_choice, "model-")
+        self.query_one(f"#{PREFIX}model", ChoiceSet).cycle()
 
     def action_next_stimulus(self) -> None:
-        self._cycle(STIMULUS_CHOICES, self.stimulus_choice, "stimulus-")
+        self.query_one(f"#{PREFIX}stimulus", ChoiceSet).cycle()
 
     def action_run(self) -> None:
         self.active = True

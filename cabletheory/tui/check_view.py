@@ -12,8 +12,8 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 from textual.worker import get_current_worker
 
-from .fields import CHECK_FIELDS
-from .widgets import CurvePlot, QuantityField, QuantityList
+from .fields import CABLE_GROUP, CHECK_FIELDS, MODEL_CHOICES, STIMULUS_CHOICES, STIMULUS_GROUP, check_fields_used
+from .widgets import ChoiceSet, CurvePlot, QuantityField, QuantityList
 
 if TYPE_CHECKING:  # pragma: no cover
     from .forms import CheckSetup
@@ -24,11 +24,17 @@ _SPECS = {spec.name: spec for spec in CHECK_FIELDS}
 
 
 class CheckView(Vertical):
-    """Simulator file and exact case on the left; verdict, worst point and error plot on the right."""
+    """Simulator file and exact case on the left; verdict, worst point and error plot on the right.
+
+    The model and stimulus are chosen as in the charging view (same fields, same keys) and mean
+    what the ``compare`` command's case options mean.
+    """
 
     BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("ctrl+b", "next_model", "next model"),
+        Binding("ctrl+n", "next_stimulus", "next stimulus"),
+        Binding("ctrl+p", "next_axis", "error over time or over space"),
         Binding("ctrl+r", "run", "compare again"),
-        Binding("ctrl+b", "next_axis", "error over time or over space"),
     ]
 
     report: Report | None = None
@@ -55,24 +61,31 @@ class CheckView(Vertical):
             with VerticalScroll(classes="form", id="check-form", can_focus=False):
                 yield Static("simulator against the exact answer", classes="form-title")
                 yield QuantityField(_SPECS["file"], prefix=PREFIX, value=self.initial_file)
-                yield Label("the simulated cable", classes="group-label")
-                for name in ("Rm", "Ri", "Cm", "diameter", "length", "end"):
+                yield Label("model  (ctrl+b cycles)", classes="group-label")
+                yield ChoiceSet(MODEL_CHOICES, "cylinder", id=f"{PREFIX}model")
+                for name in CABLE_GROUP:
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
-                yield Label("stimulus and file", classes="group-label")
-                for name in ("current", "rest", "onset", "tolerance"):
+                yield Label("stimulus  (ctrl+n cycles)", classes="group-label")
+                yield ChoiceSet(STIMULUS_CHOICES, "step", id=f"{PREFIX}stimulus")
+                for name in STIMULUS_GROUP:
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
-                yield Label("error plotted  (ctrl+b switches)", classes="group-label")
+                yield Label("the file", classes="group-label")
+                for name in ("rest", "onset", "tolerance"):
+                    yield QuantityField(_SPECS[name], prefix=PREFIX)
+                yield Label("error plotted  (ctrl+p switches)", classes="group-label")
                 with RadioSet(id="ck-axis", compact=True):
                     yield RadioButton("over time, at each site", value=True, id="axis-time", compact=True)
                     yield RadioButton("over space, largest per site", id="axis-space", compact=True)
                 yield Static("The file holds the simulator's voltages at one or more sites (long or wide "
-                             "CSV, see docs/verify.md); the exact answer is a current step at the origin.",
+                             "CSV, see docs/verify.md); the exact answer is the case above, from rest, "
+                             "switched on at the onset.\nlength 'inf': semi-infinite cylinder",
                              classes="hint")
             with Vertical(classes="output"):
                 yield QuantityList(id="check-results", classes="results")
                 yield CurvePlot(id="check-plot")
 
     def on_mount(self) -> None:
+        self._show_fields()
         if self.initial_file:
             self.refresh_results()
         else:
@@ -100,9 +113,35 @@ class CheckView(Vertical):
         if self.query_one(f"#{PREFIX}file", Input).value.strip():
             self.refresh_results()
 
+    @property
+    def model_choice(self) -> str:
+        return self.query_one(f"#{PREFIX}model", ChoiceSet).choice
+
+    @property
+    def stimulus_choice(self) -> str:
+        return self.query_one(f"#{PREFIX}stimulus", ChoiceSet).choice
+
+    def _show_fields(self) -> set[str]:
+        """Show only the fields the chosen model and stimulus read; return their names."""
+        used = check_fields_used(self.model_choice, self.stimulus_choice)
+        for field in self.query(QuantityField):
+            field.display = field.spec.name in used
+        return used
+
     def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
         event.stop()
-        self._show_plot()
+        if event.radio_set.id == "ck-axis":
+            self._show_plot()
+            return
+        self._show_fields()
+        if self.query_one(f"#{PREFIX}file", Input).value.strip():
+            self.refresh_results()
+
+    def action_next_model(self) -> None:
+        self.query_one(f"#{PREFIX}model", ChoiceSet).cycle()
+
+    def action_next_stimulus(self) -> None:
+        self.query_one(f"#{PREFIX}stimulus", ChoiceSet).cycle()
 
     def action_next_axis(self) -> None:
         target = "axis-time" if self.axis == "space" else "axis-space"
@@ -114,8 +153,13 @@ class CheckView(Vertical):
     def refresh_results(self) -> None:
         from .forms import read_check_form
 
-        fields = {f.spec.name: f for f in self.query(QuantityField)}
-        setup, errors = read_check_form({n: f.input.value for n, f in fields.items()})
+        used = self._show_fields()
+        fields = {f.spec.name: f for f in self.query(QuantityField) if f.spec.name in used}
+        setup, errors = read_check_form({n: f.input.value for n, f in fields.items()}, self.model_choice,
+                                        self.stimulus_choice)
+        for field in self.query(QuantityField):
+            if field.spec.name not in used:
+                field.flag(None)
         for name, field in fields.items():
             field.flag(errors.get(name))
         if setup is None:

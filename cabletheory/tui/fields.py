@@ -9,8 +9,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-__all__ = ["CABLE_FIELDS", "CHARGING_FIELDS", "CHECK_FIELDS", "DEMO_SWC", "END_CHOICES", "MODEL_CHOICES",
-           "STIMULUS_CHOICES", "TREE_FIELDS", "FieldSpec", "bundled_morphologies", "charging_fields_used"]
+__all__ = ["CABLE_FIELDS", "CASE_FIELDS", "CHARGING_FIELDS", "CHECK_FIELDS", "DEMO_SWC", "END_CHOICES",
+           "MODEL_CHOICES", "STIMULUS_CHOICES", "TREE_FIELDS", "FieldSpec", "bundled_morphologies",
+           "charging_fields_used", "check_fields_used", "fields_used"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -66,7 +67,9 @@ STIMULUS_CHOICES: dict[str, str] = {
     "clamp": "voltage-clamp step",
 }
 
-CHARGING_FIELDS: tuple[FieldSpec, ...] = (
+# The cable, model and stimulus of an exact case: the charging and check views share these fields,
+# with the meaning of the command line's case options (cli/case.py).
+CASE_FIELDS: tuple[FieldSpec, ...] = (
     FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
     FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
     FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
@@ -79,6 +82,12 @@ CHARGING_FIELDS: tuple[FieldSpec, ...] = (
     FieldSpec("duration", "pulse length", "time", "1 ms"),
     FieldSpec("time_to_peak", "time to peak", "time", "0.5 ms"),
     FieldSpec("site", "stimulus at", "length", "0 µm", allow_zero=True, allow_negative=True),
+)
+CABLE_GROUP = ("Rm", "Ri", "Cm", "diameter", "length", "end", "soma")  # shown under the model choice
+STIMULUS_GROUP = ("current", "clamp", "duration", "time_to_peak", "site")  # under the stimulus choice
+
+CHARGING_FIELDS: tuple[FieldSpec, ...] = (
+    *CASE_FIELDS,
     FieldSpec("span", "V(t) until", "time", "60 ms"),
     FieldSpec("watch", "V(t) at", "length", "0, 250, 500 µm", series=True, allow_negative=True, max_points=8),
     FieldSpec("moments", "V(X) at", "time", "1, 5, 20 ms", series=True, max_points=8),
@@ -99,9 +108,19 @@ PROFILE_POINTS = 61  # samples of each V(X) curve
 PROFILE_SPAN = 5.0  # V(X) of a semi-infinite or infinite cable is shown over 5 λ
 
 
+def fields_used(specs: tuple[FieldSpec, ...], model: str, stimulus: str) -> set[str]:
+    """Names of the fields of ``specs`` that the chosen model and stimulus read."""
+    return {s.name for s in specs if _FIELD_USE.get(s.name, lambda m, st: True)(model, stimulus)}
+
+
 def charging_fields_used(model: str, stimulus: str) -> set[str]:
     """Names of the charging fields that the chosen model and stimulus read."""
-    return {s.name for s in CHARGING_FIELDS if _FIELD_USE.get(s.name, lambda m, st: True)(model, stimulus)}
+    return fields_used(CHARGING_FIELDS, model, stimulus)
+
+
+def check_fields_used(model: str, stimulus: str) -> set[str]:
+    """Names of the check fields that the chosen model and stimulus read."""
+    return fields_used(CHECK_FIELDS, model, stimulus)
 
 
 def bundled_morphologies() -> Path:
@@ -123,18 +142,13 @@ TREE_FIELDS: tuple[FieldSpec, ...] = (
 )
 
 
-# Defaults: the invented Tidewater Station simulator check (worked/simulator_check).
+# Defaults: the invented Tidewater Station simulator check (worked/simulator_check): a 100 pA step
+# at the origin of the sealed demo dendrite, switched on at 1 ms on a cell resting at -62 mV.
 CHECK_FIELDS: tuple[FieldSpec, ...] = (
     FieldSpec("file", "file", "dimensionless", "", placeholder="simulator CSV (enter opens)"),
-    FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
-    FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
-    FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
-    FieldSpec("diameter", "diameter", "length", "2 µm"),
-    FieldSpec("length", "length", "length", "500 µm"),
-    FieldSpec("end", "far end", "conductance", "sealed", placeholder="sealed, killed or e.g. 0.5 nS"),
-    FieldSpec("current", "current step", "current", "100 pA", allow_negative=True),
+    *CASE_FIELDS,
     FieldSpec("rest", "resting V", "voltage", "-62 mV", allow_zero=True, allow_negative=True,
               placeholder="e.g. -65 mV, 0, or 'first'"),
-    FieldSpec("onset", "step onset", "time", "1 ms", allow_zero=True, allow_negative=True),
+    FieldSpec("onset", "stimulus onset", "time", "1 ms", allow_zero=True, allow_negative=True),
     FieldSpec("tolerance", "tolerance", "voltage", "20 µV", placeholder="e.g. 20 µV or 1 %"),
 )

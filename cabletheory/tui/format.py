@@ -19,6 +19,7 @@ from .forms import (
     EXACT_TOLERANCE,
     MODEL_CHOICES,
     STIMULUS_CHOICES,
+    CaseSetup,
     ChargingSetup,
     CheckSetup,
     TreeSetup,
@@ -120,7 +121,7 @@ def cable_report(s: CableSummary) -> Report:
 # ---------------------------------------------------------------------------------------------
 # charging view (exact transients)
 # ---------------------------------------------------------------------------------------------
-def _stimulus_rows(setup: ChargingSetup) -> list[Row]:
+def _stimulus_rows(setup: CaseSetup) -> list[Row]:
     s = setup.stimulus
     rows = [Row("stimulus", "stimulus", STIMULUS_CHOICES[setup.stimulus_choice])]
     if setup.stimulus_choice == "clamp":
@@ -136,7 +137,7 @@ def _stimulus_rows(setup: ChargingSetup) -> list[Row]:
     return rows
 
 
-def _model_rows(setup: ChargingSetup) -> list[Row]:
+def _model_rows(setup: CaseSetup) -> list[Row]:
     from ..transient import BallAndStick, InfiniteCable
 
     m = setup.model
@@ -163,9 +164,10 @@ def charging_report(setup: ChargingSetup, tolerance: float = 1e-10) -> Report:
     arrange the time constants, the error bound and both families of curves."""
     from ..transient import BallAndStick, InfiniteCable, charge
 
-    m = setup.model
-    over_time = charge(m, setup.stimulus, setup.times, setup.watch, tolerance=tolerance)
-    over_space = charge(m, setup.stimulus, setup.moments, setup.positions, tolerance=tolerance)
+    case = setup.case
+    m = case.model
+    over_time = charge(m, case.stimulus, setup.times, setup.watch, tolerance=tolerance)
+    over_space = charge(m, case.stimulus, setup.moments, setup.positions, tolerance=tolerance)
     lam, tau = over_time.length_constant, over_time.membrane_time_constant
     results = [
         Row("length_constant", "λ   length constant", lam, "length"),
@@ -213,8 +215,8 @@ def charging_report(setup: ChargingSetup, tolerance: float = 1e-10) -> Report:
               for i, label in enumerate(moment_labels)))),
     )
     notes = (*over_time.notes, f"requested tolerance {tolerance:g} of the reference voltage")
-    title = f"Charging: {STIMULUS_CHOICES[setup.stimulus_choice]} into a {MODEL_CHOICES[setup.model_choice]}"
-    return Report("charging", title, tuple(_model_rows(setup) + _stimulus_rows(setup)), tuple(results),
+    title = f"Charging: {STIMULUS_CHOICES[case.stimulus_choice]} into a {MODEL_CHOICES[case.model_choice]}"
+    return Report("charging", title, tuple(_model_rows(case) + _stimulus_rows(case)), tuple(results),
                   tables, (time_plot, space_plot), notes)
 
 
@@ -365,26 +367,15 @@ class CheckAnalysis:
     errors: np.ndarray  # V, simulated − exact at every sample
 
 
-def exact_case(setup: CheckSetup) -> ExactCase:
-    """The exact answer for a current step at the origin of the form's cylinder.
-
-    A sealed far end uses :func:`cabletheory.verify.sealed_step_case` (Rall's series), killed
-    and leaky ends :func:`cabletheory.verify.transient_case` (the exact transients), as the
-    ``compare`` command does.
-    """
-    from ..transient import CurrentStep
-    from ..verify import sealed_step_case, transient_case
-
-    c = setup.cylinder
-    if c.end_conductance == 0:
-        return sealed_step_case(c, setup.current, EXACT_TOLERANCE)
-    return transient_case(c, CurrentStep(setup.current), EXACT_TOLERANCE)
-
-
 def analyse_check(setup: CheckSetup) -> CheckAnalysis:
-    """Read the simulator file, build the exact case and compare them (the worker's job)."""
+    """Read the simulator file, build the exact case and compare them (the worker's job).
+
+    The exact case is :func:`cabletheory.verify.exact_case` of the form's model and stimulus,
+    the rule the ``reference`` and ``compare`` commands use.
+    """
     from ..errors import InputError
-    from ..verify import compare, read_recording
+    from ..transient import InfiniteCable
+    from ..verify import compare, exact_case, read_recording
 
     try:
         text = setup.path.read_text(encoding="utf-8-sig")
@@ -392,15 +383,15 @@ def analyse_check(setup: CheckSetup) -> CheckAnalysis:
         raise InputError(f"{setup.path}: not a UTF-8 text file") from None
     except OSError as exc:
         raise InputError(f"{setup.path}: cannot be read ({exc.strerror})") from None
+    infinite = isinstance(setup.case.model, InfiniteCable)
     recording = read_recording(text, str(setup.path), parse_file_quantity, resting_potential=setup.rest,
-                               time_offset=setup.onset)
-    case = exact_case(setup)
+                               time_offset=setup.onset, allow_negative_positions=infinite)
+    case = exact_case(setup.case.model, setup.case.stimulus, EXACT_TOLERANCE)
     comparison = compare(recording, case, setup.tolerance, relative=setup.relative)
     exact = np.zeros(recording.times.size)
     after = recording.times >= 0  # before the onset the exact answer is rest (as in verify.compare)
     if np.any(after):
-        exact[after] = case.evaluate(recording.times[after],
-                                     np.minimum(recording.positions[after], setup.cylinder.length))[0]
+        exact[after] = case.evaluate(recording.times[after], np.minimum(recording.positions[after], case.length))[0]
     return CheckAnalysis(recording, case, comparison, recording.voltage - exact)
 
 
@@ -415,19 +406,15 @@ def _voltage_scale(largest: float) -> tuple[float, str]:
 def check_report(setup: CheckSetup, a: CheckAnalysis) -> Report:
     """Verdict, error summary, the worst point, and the error over time (per site) and over space."""
     c, rec = a.comparison, a.recording
-    cylinder = setup.cylinder
     inputs = [
         Row("file", "simulator output", rec.name),
-        Row("membrane_resistivity", "Rm", cylinder.membrane_resistivity, "membrane_resistivity"),
-        Row("axial_resistivity", "Ri", cylinder.axial_resistivity, "axial_resistivity"),
-        Row("membrane_capacitance", "Cm", cylinder.membrane_capacitance, "membrane_capacitance"),
-        Row("diameter", "diameter", cylinder.diameter, "length"),
-        Row("length", "length", cylinder.length, "length"),
-        Row("end_conductance", "far end", cylinder.end_conductance, "conductance", shown=_end_text(cylinder)),
-        Row("current", "current step at the origin", setup.current, "current"),
+        *_model_rows(setup.case),
+        *_stimulus_rows(setup.case),
+        Row("exact_case", "exact case", a.case.description),
+        Row("exact_method", "exact method", a.case.method),
         Row("resting_potential", "resting V subtracted", rec.resting_potential, "voltage",
             shown="each site's first sample" if setup.rest == "first" else None),
-        Row("onset", "step onset in the file's clock", setup.onset, "time"),
+        Row("onset", "stimulus onset in the file's clock", setup.onset, "time"),
         Row("tolerance", "tolerance", c.tolerance, None if setup.relative else "voltage",
             shown=f"{100 * c.tolerance:g} % of the peak exact voltage" if setup.relative else None),
     ]
@@ -471,5 +458,10 @@ def check_report(setup: CheckSetup, a: CheckAnalysis) -> Report:
     )
     notes = (f"exact case: {a.case.description}; {a.case.method}",
              *(f"assumed unit: {u}" for u in rec.assumed))
+    parameters = tuple(a.case.parameters.items())
+    tables += (Table("exact_case", "Parameters of the exact case (SI)", (
+        Column("name", "parameter", [name for name, _ in parameters]),
+        Column("value", "value", [value for _, (value, _unit) in parameters]),
+        Column("unit", "SI unit", [unit for _, (_value, unit) in parameters]))),)
     return Report("check", f"Check: {rec.name} against the exact solution", tuple(inputs), tuple(results),
                   tables, (time_plot, space_plot), notes)

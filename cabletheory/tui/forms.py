@@ -16,11 +16,12 @@ from pathlib import Path
 
 import numpy as np
 
-from ..cable import Cylinder, length_constant
+from ..cable import Cylinder
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
 from .fields import (
     CABLE_FIELDS,
+    CASE_FIELDS,
     CHARGING_FIELDS,
     CHECK_FIELDS,
     END_CHOICES,
@@ -31,10 +32,11 @@ from .fields import (
     TIME_POINTS,
     TREE_FIELDS,
     FieldSpec,
-    charging_fields_used,
+    fields_used,
 )
 
-__all__ = ["END_CHOICES", "FieldSpec", "FormResult", "read_cylinder_form", "read_form"]
+__all__ = ["END_CHOICES", "CaseSetup", "ChargingSetup", "CheckSetup", "FieldSpec", "FormResult", "read_case",
+           "read_charging_form", "read_check_form", "read_cylinder_form", "read_form", "read_tree_form"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -125,32 +127,57 @@ def read_end(text: str, label: str = "far end") -> float:
 
 
 # ---------------------------------------------------------------------------------------------
-# the charging (transient) form
+# the exact case (model and stimulus), shared by the charging and check forms
 # ---------------------------------------------------------------------------------------------
 @dataclass(frozen=True, slots=True)
-class ChargingSetup:
-    """Everything one transient computation needs, in SI."""
+class CaseSetup:
+    """A cable model and a stimulus in SI, with the choices and far-end text that made them.
+
+    The same combinations mean the same as the command line's case options (``cli/case.py``):
+    a cylinder (finite with a sealed, killed or leaky far end, or semi-infinite with length
+    ``inf``), a ball and stick (finite length, any far end) or an infinite cable; a current
+    step, pulse or alpha current anywhere on the cable, or a voltage clamp at the origin
+    (anywhere on an infinite cable).
+    """
 
     model: object  # cable.Cylinder, transient.BallAndStick or transient.InfiniteCable
     stimulus: object  # transient.CurrentStep, CurrentPulse, AlphaCurrent or VoltageStep
-    model_choice: str
-    stimulus_choice: str
-    times: tuple[float, ...]  # s, for V(t)
-    watch: tuple[float, ...]  # m, positions of the V(t) curves
-    positions: tuple[float, ...]  # m, for V(X)
-    moments: tuple[float, ...]  # s, times of the V(X) curves
+    model_choice: str  # a key of MODEL_CHOICES
+    stimulus_choice: str  # a key of STIMULUS_CHOICES
     end: str  # the far-end text as typed ("sealed", "killed", "0.5 nS")
 
+    @property
+    def length(self) -> float:
+        """m; inf for a semi-infinite or infinite cable."""
+        from .. import transient as tr
 
-def read_charging_form(texts: Mapping[str, str], model: str, stimulus: str
-                       ) -> tuple[ChargingSetup | None, dict[str, str]]:
-    """The transient set-up of the charging form, or the messages of the fields that are wrong."""
+        if isinstance(self.model, tr.InfiniteCable):
+            return math.inf
+        return float(self.model.cylinder.length if isinstance(self.model, tr.BallAndStick)
+                     else self.model.length)  # type: ignore[attr-defined]
+
+    @property
+    def length_constant(self) -> float:
+        """λ, m."""
+        from .. import transient as tr
+
+        m = self.model
+        return float((m.cylinder if isinstance(m, tr.BallAndStick) else m).length_constant)  # type: ignore[attr-defined]
+
+
+def read_case(texts: Mapping[str, str], model: str, stimulus: str) -> tuple[CaseSetup | None, dict[str, str]]:
+    """The model and stimulus the case fields describe, or the messages of the fields that are wrong.
+
+    ``model`` is a key of :data:`MODEL_CHOICES`, ``stimulus`` one of :data:`STIMULUS_CHOICES`;
+    only the fields these choices use are read. Combinations the command line refuses are
+    flagged at the field that makes them impossible (one line, never an exception).
+    """
     from .. import transient as tr  # numpy only; scipy is imported by the solver when it runs
 
     if model not in MODEL_CHOICES or stimulus not in STIMULUS_CHOICES:
         raise ValueError(f"unknown choice {model!r}/{stimulus!r}")
-    used = charging_fields_used(model, stimulus)
-    form = read_form([s for s in CHARGING_FIELDS if s.name in used and s.name != "end"], texts)
+    used = fields_used(CASE_FIELDS, model, stimulus)
+    form = read_form([s for s in CASE_FIELDS if s.name in used and s.name != "end"], texts)
     errors = dict(form.errors)
     end_text = texts.get("end", "sealed")
     end = 0.0
@@ -166,30 +193,19 @@ def read_charging_form(texts: Mapping[str, str], model: str, stimulus: str
     length = math.inf if model == "infinite" else float(v["length"])  # type: ignore[arg-type]
     if model == "ball" and not math.isfinite(length):
         errors["length"] = "length: a ball and stick needs a finite length"
-    if model == "ball" and end != 0:
-        errors["end"] = "far end: the ball and stick has a sealed far end here"
+    if model == "cylinder" and math.isinf(length) and end != 0:
+        errors["end"] = "far end: a semi-infinite cable (length inf) has no far end; leave it 'sealed'"
     site = float(v.get("site") or 0.0)  # type: ignore[arg-type]
-    lam = float(length_constant(rm, ri, d))  # sizes the V(X) span of an unbounded cable
-    top = length if math.isfinite(length) else PROFILE_SPAN * lam
-    low = -top if model == "infinite" else 0.0
     if model != "infinite" and not 0 <= site <= length:
         errors["site"] = f"stimulus at: {format_quantity(site, 'length')} lies outside the cable (0 to its length)"
-    watch = [float(x) for x in v["watch"]]  # type: ignore[union-attr]
-    if model != "infinite":
-        outside = [x for x in watch if x < 0 or x > length]
-        if outside:
-            errors["watch"] = (f"V(t) at: {format_quantity(outside[0], 'length')} lies outside the cable "
-                               "(0 to its length)")
     if errors:
         return None, errors
-    cylinder = Cylinder(rm, ri, cm, d, length if model != "infinite" else 1.0, end)
     model_object: object
-    if model == "cylinder":
-        model_object = cylinder
-    elif model == "ball":
-        model_object = tr.BallAndStick(cylinder, float(v["soma"]))  # type: ignore[arg-type]
-    else:
+    if model == "infinite":
         model_object = tr.InfiniteCable(rm, ri, cm, d)
+    else:
+        cylinder = Cylinder(rm, ri, cm, d, length, end)
+        model_object = cylinder if model == "cylinder" else tr.BallAndStick(cylinder, float(v["soma"]))  # type: ignore[arg-type]
     if stimulus == "step":
         stim: object = tr.CurrentStep(float(v["current"]), site)  # type: ignore[arg-type]
     elif stimulus == "pulse":
@@ -198,11 +214,49 @@ def read_charging_form(texts: Mapping[str, str], model: str, stimulus: str
         stim = tr.AlphaCurrent(float(v["current"]), float(v["time_to_peak"]), site)  # type: ignore[arg-type]
     else:
         stim = tr.VoltageStep(float(v["clamp"]), site if model == "infinite" else 0.0)  # type: ignore[arg-type]
+    return CaseSetup(model_object, stim, model, stimulus, end_text.strip()), {}
+
+
+# ---------------------------------------------------------------------------------------------
+# the charging (transient) form
+# ---------------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class ChargingSetup:
+    """Everything one transient computation needs, in SI."""
+
+    case: CaseSetup
+    times: tuple[float, ...]  # s, for V(t)
+    watch: tuple[float, ...]  # m, positions of the V(t) curves
+    positions: tuple[float, ...]  # m, for V(X)
+    moments: tuple[float, ...]  # s, times of the V(X) curves
+
+
+_CURVE_FIELDS = tuple(s for s in CHARGING_FIELDS if s.name not in {c.name for c in CASE_FIELDS})
+
+
+def read_charging_form(texts: Mapping[str, str], model: str, stimulus: str
+                       ) -> tuple[ChargingSetup | None, dict[str, str]]:
+    """The transient set-up of the charging form, or the messages of the fields that are wrong."""
+    case, errors = read_case(texts, model, stimulus)
+    curves = read_form(_CURVE_FIELDS, texts)
+    errors.update(curves.errors)
+    if case is None or errors:
+        return None, errors
+    v = curves.values
+    length = case.length
+    watch = [float(x) for x in v["watch"]]  # type: ignore[union-attr]
+    if model != "infinite":
+        outside = [x for x in watch if x < 0 or x > length]
+        if outside:
+            return None, {"watch": f"V(t) at: {format_quantity(outside[0], 'length')} lies outside the cable "
+                                   "(0 to its length)"}
+    top = length if math.isfinite(length) else PROFILE_SPAN * case.length_constant  # V(X) span
+    low = -top if model == "infinite" else 0.0
     span = float(v["span"])  # type: ignore[arg-type]
     times = tuple(np.linspace(0.0, span, TIME_POINTS).tolist())
     positions = tuple(np.linspace(low, top, PROFILE_POINTS).tolist())
-    return ChargingSetup(model_object, stim, model, stimulus, times, tuple(watch), positions,
-                         tuple(float(t) for t in v["moments"]), end_text.strip()), {}  # type: ignore[union-attr]
+    return ChargingSetup(case, times, tuple(watch), positions,
+                         tuple(float(t) for t in v["moments"])), {}  # type: ignore[union-attr]
 
 
 # ---------------------------------------------------------------------------------------------
@@ -254,10 +308,9 @@ EXACT_TOLERANCE = 1e-12  # V, bound on the exact solution's own truncation error
 @dataclass(frozen=True, slots=True)
 class CheckSetup:
     path: Path
-    cylinder: Cylinder
-    current: float  # A, step at the origin
+    case: CaseSetup
     rest: float | str  # V, or "first"
-    onset: float  # s, in the file's clock
+    onset: float  # s, the stimulus onset in the file's clock
     tolerance: float  # V, or a fraction of the peak exact voltage when ``relative``
     relative: bool
 
@@ -267,22 +320,25 @@ def parse_file_quantity(text: str, kind: str, where: str) -> float:
     return parse_quantity(text, kind, where, allow_zero=True, allow_negative=True)
 
 
-def read_check_form(texts: Mapping[str, str]) -> tuple[CheckSetup | None, dict[str, str]]:
-    """The simulator file, the exact case and the tolerance of the check form, or messages."""
+_FILE_FIELDS = ("file", "rest", "onset", "tolerance")
+
+
+def read_check_form(texts: Mapping[str, str], model: str = "cylinder", stimulus: str = "step"
+                    ) -> tuple[CheckSetup | None, dict[str, str]]:
+    """The simulator file, the exact case and the tolerance of the check form, or messages.
+
+    ``model`` and ``stimulus`` are the choices of :func:`read_case`, read with the same fields
+    as the charging form.
+    """
     texts = {**{s.name: s.default for s in CHECK_FIELDS}, **texts}
-    plain = [s for s in CHECK_FIELDS if s.name not in ("file", "end", "rest", "tolerance")]
-    form = read_form(plain, texts)
-    errors = dict(form.errors)
+    case, errors = read_case(texts, model, stimulus)
+    form = read_form([s for s in CHECK_FIELDS if s.name == "onset"], texts)
+    errors.update(form.errors)
     text = texts.get("file", "").strip()
     if not text:
         errors["file"] = "file: empty; give the path of the simulator's CSV output (ctrl+o picks one)"
     elif not Path(text).expanduser().is_file():
         errors["file"] = f"file: {text!r} does not exist or is not a file"
-    end = 0.0
-    try:
-        end = read_end(texts.get("end", "sealed"))
-    except InputError as exc:
-        errors["end"] = str(exc)
     rest_text = texts.get("rest", "0").strip()
     rest: float | str = "first"
     if rest_text.lower() != "first":
@@ -300,10 +356,7 @@ def read_check_form(texts: Mapping[str, str]) -> tuple[CheckSetup | None, dict[s
             tolerance = parse_quantity(tolerance_text, "voltage", "tolerance")
     except InputError as exc:
         errors["tolerance"] = str(exc) + " (or a percentage such as 1 %)"
-    if errors:
+    if case is None or errors:
         return None, errors
-    v = form.values
-    cylinder = Cylinder(float(v["Rm"]), float(v["Ri"]), float(v["Cm"]),  # type: ignore[arg-type]
-                        float(v["diameter"]), float(v["length"]), end)  # type: ignore[arg-type]
-    return CheckSetup(Path(text).expanduser(), cylinder, float(v["current"]), rest,  # type: ignore[arg-type]
-                      float(v["onset"]), tolerance, relative), {}  # type: ignore[arg-type]
+    return CheckSetup(Path(text).expanduser(), case, rest, float(form.values["onset"]),  # type: ignore[arg-type]
+                      tolerance, relative), {}

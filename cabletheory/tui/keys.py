@@ -42,8 +42,10 @@ VIEW_KEYS: dict[str, tuple[Key, ...]] = {
                  Key("ctrl+n", "next_stimulus", "next stimulus"),
                  Key("ctrl+r", "run", "compute again now")),
     "tree": (Key("ctrl+r", "run", "audit the tree again with the current membrane values"),),
-    "check": (Key("ctrl+r", "run", "compare again"),
-              Key("ctrl+b", "next_axis", "error plotted over time or over space")),
+    "check": (Key("ctrl+b", "next_model", "next model"),
+              Key("ctrl+n", "next_stimulus", "next stimulus"),
+              Key("ctrl+p", "next_axis", "error plotted over time or over space"),
+              Key("ctrl+r", "run", "compare again")),
 }
 
 MOVE_KEYS: tuple[tuple[str, str], ...] = (

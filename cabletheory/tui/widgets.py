@@ -1,4 +1,4 @@
-"""Small widgets shared by the views: a braille curve plot, a quantity list, a labelled field."""
+"""Small widgets shared by the views: a braille curve plot, a quantity list, a labelled field, a choice."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ from rich.text import Text
 from textual.app import ComposeResult
 from textual.reactive import reactive
 from textual.widget import Widget
-from textual.widgets import Input, Label, Static
+from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 
 from .fields import FieldSpec
 
@@ -124,3 +124,27 @@ class QuantityField(Widget):
         elif shown:
             shown.first(Static).update("")
         self.set_class(bool(message), "bad")
+
+
+class ChoiceSet(RadioSet):
+    """One choice out of ``choices`` (key -> label), e.g. the model or the stimulus of a case.
+
+    The buttons' ids are ``<id>-<key>``; :attr:`choice` is the key of the pressed one and
+    :meth:`cycle` presses the next (the views bind it to a key).
+    """
+
+    def __init__(self, choices: dict[str, str], default: str, *, id: str) -> None:
+        self.choices = choices
+        self.default = default
+        super().__init__(*(RadioButton(label, value=key == default, id=f"{id}-{key}", compact=True)
+                           for key, label in choices.items()), id=id, compact=True)
+
+    @property
+    def choice(self) -> str:
+        pressed = self.pressed_button
+        return (pressed.id or "").removeprefix(f"{self.id}-") if pressed is not None else self.default
+
+    def cycle(self) -> None:
+        keys = list(self.choices)
+        following = keys[(keys.index(self.choice) + 1) % len(keys)]
+        self.query_one(f"#{self.id}-{following}", RadioButton).value = True
