@@ -31,7 +31,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         description="How many equal segments a compartmental model needs so that one output is within a "
                     "target relative error, found by solving a reference discretisation (second order in "
                     "Δx) against the exact answer; shown beside the rule of thumb (segments no longer than "
-                    "a fraction of λ at 100 Hz) and the error that rule gives. For one cable use the cable "
+                    "a fraction of λ at 100 Hz) and the error that rule gives. For --quantity time-course also the "
+                    "largest time step of --scheme, with half the target given to the segments and half to "
+                    "the time step, verified against the exact course. For one cable use the cable "
                     "options; for a tree give --tree FILE (section list) or --parents/--lengths/--diameters.",
         epilog=PASSIVE_CAVEAT,
     )
