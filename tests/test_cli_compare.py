@@ -103,9 +103,11 @@ def _transient_cases() -> dict:
         "voltage clamp, semi-infinite": (Cylinder(2.0, 2.0, 0.01, 2 * UM, float("inf")), tr.VoltageStep(10e-3),
                                          [*base, "--length", "inf", "--voltage", "10 mV"]),
         "ball and stick, step at the soma": (tr.BallAndStick(DEMO, soma), tr.CurrentStep(100e-12, 0.0),
-                                             [*base, "--length", "500", "--soma-diameter", "20 um"]),
+                                             [*base, "--length", "500", "--soma-diameter", "20 um",
+                                              "--current", "100 pA"]),
         "infinite, alpha at 0": (tr.InfiniteCable(2.0, 2.0, 0.01, 2 * UM), tr.AlphaCurrent(100e-12, 1 * MS),
-                                 [*base, "--infinite", "--stimulus", "alpha", "--time-to-peak", "1ms"]),
+                                 [*base, "--infinite", "--stimulus", "alpha", "--time-to-peak", "1ms",
+                                  "--current", "100 pA"]),
     }
 
 

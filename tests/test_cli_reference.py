@@ -107,7 +107,8 @@ def test_pulse_alpha_and_clamp_tables(tmp_path) -> None:
     assert clamp["voltage"]["value"][0][0] == pytest.approx(-10e-3 * 0.6480542737, rel=1e-9)
     assert "voltage-clamp step" in clamp["case"]
     alpha = table_of(tmp_path, [*length, "--end", "killed", "--stimulus", "alpha", "--time-to-peak", "1 ms",
-                                "--at", "300 um", "--times", "0:200:2 ms", "--positions", "300 um"])
+                                "--current", "100pA", "--at", "300 um", "--times", "0:200:2 ms",
+                                "--positions", "300 um"])
     v = np.array(alpha["voltage"]["value"])[:, 0]
     assert v[0] == 0.0
     assert 0 < np.argmax(v) < 10
@@ -117,7 +118,7 @@ def test_pulse_alpha_and_clamp_tables(tmp_path) -> None:
 
 def test_semi_infinite_csv_header(tmp_path, capsys) -> None:
     """Semi-infinite cable (--length inf), step at 100 µm; the CSV header names clean positions."""
-    assert main(["reference", *BASE, "--length", "inf", "--at", "100um", "--times", "0:2:1 ms",
+    assert main(["reference", *BASE, "--length", "inf", "--at", "100um", "--current", "100pA", "--times", "0:2:1 ms",
                  "--positions", "0, 0.2, 500 um"]) == 0
     out = capsys.readouterr().out
     assert "# case: semi-infinite cylinder, sealed origin, current step at x = 100 µm" in out
@@ -147,6 +148,8 @@ def test_bad_option_combinations(tmp_path, capsys, extra: list[str], message: st
     args = ["reference", *BASE, "--times", "1 ms", *extra, "--output", str(out)]
     if "--positions" not in extra:
         args += ["--positions", "0"]
+    if "--voltage" not in extra and "--current" not in extra:
+        args += ["--current", "100pA"]
     assert main(args) == 2
     err = capsys.readouterr().err
     assert err.startswith("cabletheory: error: ")
@@ -157,8 +160,52 @@ def test_bad_option_combinations(tmp_path, capsys, extra: list[str], message: st
 
 def test_charge_spelling_of_the_stimulus(tmp_path) -> None:
     """'--shape pulse' (the charge command's spelling) is the same option as '--stimulus pulse'."""
-    args = ["--length", "500", "--duration", "1ms", "--at", "200um", "--times", "0.5, 2 ms", "--positions", "0, 200"]
+    args = ["--length", "500", "--duration", "1ms", "--current", "100pA", "--at", "200um",
+            "--times", "0.5, 2 ms", "--positions", "0, 200"]
     one = table_of(tmp_path, [*args, "--shape", "pulse"])
     two = table_of(tmp_path, [*args, "--stimulus", "pulse"])
     assert one["voltage"] == two["voltage"]
     assert "current pulse of 1 ms at x = 200 µm" in one["case"]
+
+
+@pytest.mark.parametrize("command", ["reference", "compare", "charge"])
+def test_the_stimulus_is_required_by_every_case_command(tmp_path, capsys, command: str) -> None:
+    """No silent default amplitude: charge, reference and compare read one command line alike, and
+    without --current/--voltage each says so in one line (status 2, nothing written)."""
+    sim = tmp_path / "sim.csv"
+    sim.write_text("time (ms),position (um),voltage (mV)\n2,0,1\n", encoding="utf-8")
+    out = tmp_path / "out.json"
+    extra = {"reference": ["--times", "1 ms", "--positions", "0", "--output", str(out)],
+             "compare": [str(sim), "--report", str(out)], "charge": ["--output", str(out)]}[command]
+    assert main([command, *BASE, "--length", "500", *extra]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("cabletheory: error: --current/--voltage: no stimulus given")
+    assert err.count("\n") == 1
+    assert not out.exists()
+
+
+def test_like_a_file_that_records_before_the_onset(tmp_path) -> None:
+    """A simulator file that records from before the stimulus (onset at 1 ms, rest -62 mV): the rows
+    at or before the onset are at rest (exactly 0), the table keeps the file's own clock, and the
+    values after the onset are the Rall (1969) series at the time since the onset (checks.md §2.5
+    [COMP]: V(0,T)/V(0,∞) = 0.2629635738 at T = 0.1, i.e. 2 ms after the onset)."""
+    sim = tmp_path / "sim.csv"
+    sim.write_text("time (ms),V at 0 um (mV)\n0,-62\n0.5,-62\n1,-62\n3,-60\n", encoding="utf-8")
+    out = tmp_path / "ref.json"
+    assert main(["reference", *L1, "--rest", "-62 mV", "--onset", "1 ms", "--like", str(sim),
+                 "--output", str(out)]) == 0
+    data = json.loads(out.read_text())
+    assert data["times"]["value"] == pytest.approx([0.0, 0.5e-3, 1e-3, 3e-3])
+    v = np.array(data["voltage"]["value"])[:, 0]
+    assert list(v[:3]) == [0.0, 0.0, 0.0]
+    assert v[3] / FINAL == pytest.approx(0.2629635738, abs=1e-9)
+    assert data["parameters"]["stimulus_onset"] == {"value": 1e-3, "unit": "s"}
+    # compare, reading the same file with the same options, finds exactly these values: feeding the
+    # reference back as a run (already from rest) gives no error
+    ref_csv = tmp_path / "ref.csv"
+    assert main(["reference", *L1, "--rest", "-62 mV", "--onset", "1 ms", "--like", str(sim),
+                 "--output", str(ref_csv)]) == 0
+    report = tmp_path / "report.json"
+    assert main(["compare", str(ref_csv), *L1, "--onset", "1 ms", "--tolerance", "1e-12 mV",
+                 "--report", str(report)]) == 0
+    assert json.loads(report.read_text())["runs"][0]["max_abs_error"]["value"] < 1e-15

@@ -22,13 +22,13 @@ STIMULI = {
     "alpha": "alpha-function current I(t/tp)e^(1-t/tp) peaking at --time-to-peak",
     "clamp": "voltage-clamp step of --voltage at t = 0 (at the origin; anywhere on an infinite cable)",
 }
-DEFAULT_CURRENT = "100 pA"
 
 
-def add_case_options(parser: argparse.ArgumentParser, *, default_current: str | None = DEFAULT_CURRENT) -> None:
+def add_case_options(parser: argparse.ArgumentParser) -> None:
     """Cable, model and stimulus options shared by ``charge``, ``reference`` and ``compare``.
 
-    With ``default_current=None`` a stimulus amplitude (``--current`` or ``--voltage``) is required.
+    The stimulus amplitude (``--current`` or ``--voltage``) is required by all three: there is no
+    default, so a forgotten amplitude is an error rather than a silent 100 pA.
     """
     add_cable_options(parser, length_required=False)
     model = parser.add_argument_group("model (default: the cylinder above, its origin sealed)")
@@ -39,11 +39,9 @@ def add_case_options(parser: argparse.ArgumentParser, *, default_current: str | 
     group = parser.add_argument_group("stimulus")
     group.add_argument("--shape", "--stimulus", dest="stimulus", choices=list(STIMULI), metavar="SHAPE",
                        help="step, pulse, alpha or clamp (default step; clamp when --voltage is given)")
-    default = f"default {default_current}" if default_current else "required unless --voltage"
     group.add_argument("--current", "--amplitude", dest="current", metavar="I",
-                       help=f"current of a step or pulse, peak of an alpha current (bare: pA; {default}); "
-                            "--amplitude is the same option")
-    parser.set_defaults(default_current=default_current)
+                       help="current of a step or pulse, peak of an alpha current (bare: pA; required unless "
+                            "--voltage); --amplitude is the same option")
     group.add_argument("--voltage", metavar="V", help="voltage-clamp step from rest, e.g. '10 mV' (bare: mV)")
     group.add_argument("--duration", metavar="T", help="pulse duration, e.g. '0.5 ms' (bare: ms)")
     group.add_argument("--time-to-peak", metavar="T", help="time to peak of an alpha current, e.g. '1 ms'")
@@ -118,10 +116,10 @@ def read_stimulus(args: argparse.Namespace, model: object):  # -> transient.Stim
                              "--infinite cable takes it elsewhere")
     if shape == "clamp":
         return tr.VoltageStep(parse_quantity(args.voltage, "voltage", "--voltage", allow_negative=True), site)
-    amplitude = args.current or getattr(args, "default_current", DEFAULT_CURRENT)
-    if amplitude is None:
-        raise InputError("--current: give the stimulus, e.g. '--current 100pA' (or '--voltage 10mV' for a clamp)")
-    current = parse_quantity(amplitude, "current", "--current", allow_negative=True)
+    if not args.current:
+        raise InputError("--current/--voltage: no stimulus given; add e.g. '--current 100pA' (or '--voltage 10mV' "
+                         "for a clamp)")
+    current = parse_quantity(args.current, "current", "--current", allow_negative=True)
     if shape == "pulse":
         return tr.CurrentPulse(current, parse_quantity(args.duration, "time", "--duration"), site)
     if shape == "alpha":

@@ -34,7 +34,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                     "truncation error of every value.",
         epilog=PASSIVE_CAVEAT,
     )
-    add_case_options(parser, default_current=None)
+    add_case_options(parser)
     out = parser.add_argument_group("output")
     out.add_argument("--times", metavar="TIMES",
                      help="times after onset: a list '0, 1, 5 ms' or a range '0:20:2 ms' (bare: ms; "

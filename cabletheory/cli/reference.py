@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 from pathlib import Path
 
 import numpy as np
@@ -10,7 +11,16 @@ import numpy as np
 from .. import PASSIVE_CAVEAT
 from ..errors import InputError, MissingFileError
 from ..units import format_quantity, parse_quantity, parse_series
-from ..verify import ExactCase, Recording, read_recording, reference_csv, reference_json, reference_npz, reference_table
+from ..verify import (
+    ExactCase,
+    Recording,
+    ReferenceTable,
+    read_recording,
+    reference_csv,
+    reference_json,
+    reference_npz,
+    reference_table,
+)
 from .case import add_case_options, read_model, read_stimulus
 from .common import write_atomically
 
@@ -77,6 +87,19 @@ def add_layout_options(parser: argparse.ArgumentParser) -> None:
                                                    "whose header does not say it")
 
 
+def on_file_clock(table: ReferenceTable, since_onset: np.ndarray, onset: float) -> ReferenceTable:
+    """The table with its times on the file's own clock (``onset`` s added) and every value at a time
+    before the onset at rest, exactly 0 (as :func:`cabletheory.verify.compare` treats them); the onset
+    is recorded as the ``stimulus_onset`` parameter so that a reader knows the clock."""
+    before = since_onset < 0
+    if table.layout == "wide":
+        before = np.broadcast_to(before[:, None], table.voltage.shape)
+    return dataclasses.replace(
+        table, times=since_onset + onset, voltage=np.where(before, 0.0, table.voltage),
+        bound=np.where(before, 0.0, table.bound),
+        parameters={**table.parameters, "stimulus_onset": (onset, "s")})
+
+
 def register(subparsers: argparse._SubParsersAction) -> None:
     parser = subparsers.add_parser(
         "reference",
@@ -91,7 +114,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     grid.add_argument("--times", metavar="RANGE", help="times since onset: '0:20:0.5 ms' or '1, 2, 5 ms'")
     grid.add_argument("--positions", metavar="RANGE", help="recording positions: '0:500:100 um' or '0, 250 um'")
     grid.add_argument("--like", metavar="FILE",
-                      help="take the times and positions of an existing simulator output file instead")
+                      help="take the times and positions of an existing simulator output file instead; the "
+                           "table keeps the file's own clock (onset at --onset, recorded as stimulus_onset) "
+                           "and rows at or before the onset are at rest (0)")
     add_layout_options(parser)
     parser.add_argument("--output", "-o", metavar="FILE",
                         help="file to write (.csv, .json or .npz); default: CSV to standard output")
@@ -102,6 +127,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     case = build_case(args)
     inputs: list[str] = []
+    onset = 0.0
     if args.like:
         if args.times or args.positions:
             raise InputError("give either --like FILE or --times/--positions, not both")
@@ -113,8 +139,7 @@ def run(args: argparse.Namespace) -> int:
             layout = "wide"
         else:
             times, positions, layout = recording.times, recording.positions, "long"
-        if np.any(times < 0):
-            raise InputError(f"{args.like}: times before the onset; give --onset")
+        onset = recording.time_offset
     else:
         if not (args.times and args.positions):
             raise InputError("give --times and --positions (or --like FILE)")
@@ -122,7 +147,7 @@ def run(args: argparse.Namespace) -> int:
         positions = np.array(parse_series(args.positions, "length", "--positions",
                                           allow_negative=allows_negative_positions(args)))
         layout = "wide"
-    table = reference_table(case, times, positions, layout=layout)
+    table = on_file_clock(reference_table(case, np.maximum(times, 0.0), positions, layout=layout), times, onset)
     fmt = args.format or (Path(args.output).suffix.lstrip(".").lower() if args.output else "csv")
     if fmt not in FORMATS:
         raise InputError(f"--output: cannot tell the format of {args.output!r}; use .csv, .json or .npz or "
