@@ -160,3 +160,12 @@ def test_bad_case_options_give_one_line(tmp_path, capsys, extra: list[str], mess
     assert message in err
     assert err.count("\n") == 1
     assert not report.exists()
+
+
+def test_worst_time_is_given_from_the_onset_and_on_the_file_clock(capsys) -> None:
+    """The Tidewater coarse run records from 0 with the stimulus at 1 ms: its worst point, 250 µs after
+    the onset, is the file's row at 1.25 ms (line 11)."""
+    coarse = "worked/simulator_check/coarse.csv"
+    main(["compare", coarse, *CASE_ARGS, "--rest", "-62 mV", "--onset", "1 ms", "--tolerance", "20 uV"])
+    out = capsys.readouterr().out
+    assert "at 0 µm, 250.0 µs after onset (1.250 ms in the file; line 11: simulated" in out

@@ -140,6 +140,17 @@ def _x(x: float) -> str:
     return "0 µm" if x == 0 else format_quantity(x, "length")
 
 
+def _when(since_onset: float, onset: float) -> str:
+    """The worst point's time, measured from the onset, and on the file's own clock when it differs;
+    ends with an open parenthesis that the caller closes after the line number."""
+    text = f"{format_quantity(since_onset, 'time')} after onset"
+    if since_onset < 0:
+        text = f"{format_quantity(-since_onset, 'time')} before onset"
+    if onset:
+        return f"{text} ({format_quantity(since_onset + onset, 'time', 4)} in the file; "
+    return f"{text} ("
+
+
 def _v(x: float) -> str:
     return format_quantity(x, "voltage", 3)
 
@@ -160,8 +171,8 @@ def as_text(case: ExactCase, recordings: list[Recording], results: list[Comparis
                          f"onset {format_quantity(r.time_offset, 'time')}")
         pct = (f"{c.max_rel_error * 100:.3g} %", f"{c.rms_rel_error * 100:.3g} %")
         lines += [
-            f"  max error  {_v(c.max_abs_error)} at {_x(c.worst_position)}, "
-            f"{format_quantity(c.worst_time, 'time')} (line {c.worst_line}: simulated "
+            f"  max error  {_v(c.max_abs_error)} at {_x(c.worst_position)}, {_when(c.worst_time, r.time_offset)}"
+            f"line {c.worst_line}: simulated "
             f"{_v(c.worst_simulated)}, exact {_v(c.worst_exact)})",
             f"  RMS error  {_v(c.rms_abs_error)}",
             f"  relative   max {pct[0]}, RMS {pct[1]} of the peak exact voltage {_v(c.scale)}",
