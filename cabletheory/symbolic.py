@@ -337,7 +337,9 @@ def to_numeric(expr: Any, variables: Sequence[Any], modules: str = "numpy") -> C
 
     if modules not in ("numpy", "mpmath"):
         raise InputError(f"modules: {modules!r} is not 'numpy' or 'mpmath'")
-    expr = sp.sympify(expr) if not isinstance(expr, sp.Basic) else expr
+    if not isinstance(expr, sp.Basic):
+        # never parse text: expressions come from :func:`derive`, not from users
+        raise InputError(f"to_numeric: expected a sympy expression, got {type(expr).__name__}")
     by_name = {_canonical_name(sym): sym for sym in expr.free_symbols}
     args = []
     for var in variables:

@@ -45,7 +45,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from . import eigen
-from .cable import Cylinder, UniformMembrane
+from .cable import Cylinder, UniformMembrane, voltage_ratio
 from .errors import ConvergenceError, InputError
 
 __all__ = [
@@ -479,24 +479,21 @@ def steady_green(position: ArrayLike, source: ArrayLike, electrotonic_length: fl
     near = np.minimum(x, x0)
     far = np.maximum(x, x0)
     w_s, w_k = _weights(end_conductance_ratio)
-    e_near = np.exp(-2 * near)
+    # e = exp(-2u) and 1 - e = -expm1(-2u): the latter keeps short cables (L -> 0) accurate
+    e_near, d_near = np.exp(-2 * near), -np.expm1(-2 * near)
     rest = np.inf if math.isinf(L) else L - far
-    e_rest = np.exp(-2 * np.asarray(rest))
-    e_l = math.exp(-2 * L)
-    phi = 0.5 * ((1 + e_near) + y * (1 - e_near))
-    psi = 0.5 * (w_s * (1 + e_rest) + w_k * (1 - e_rest))
-    wronskian = 0.5 * (y * (w_s * (1 + e_l) + w_k * (1 - e_l)) + (w_s * (1 - e_l) + w_k * (1 + e_l)))
+    e_rest, d_rest = np.exp(-2 * np.asarray(rest)), -np.expm1(-2 * np.asarray(rest))
+    e_l, d_l = math.exp(-2 * L), -math.expm1(-2 * L)
+    phi = 0.5 * ((1 + e_near) + y * d_near)
+    psi = 0.5 * (w_s * (1 + e_rest) + w_k * d_rest)
+    wronskian = 0.5 * (y * (w_s * (1 + e_l) + w_k * d_l) + (w_s * d_l + w_k * (1 + e_l)))
     return np.exp(near - far) * phi * psi / wronskian
 
 
 def _clamp_steady(position: Array, L: float, B: float) -> Array:
-    """V(X)/V(0) for a clamp at X = 0: (cosh(L-X) + B sinh(L-X))/(cosh L + B sinh L)."""
-    w_s, w_k = _weights(B)
-    if math.isinf(L):
-        return np.exp(-position)
-    e_rest = np.exp(-2 * (L - position))
-    e_l = math.exp(-2 * L)
-    return np.exp(-position) * (w_s * (1 + e_rest) + w_k * (1 - e_rest)) / (w_s * (1 + e_l) + w_k * (1 - e_l))
+    """V(X)/V(0) for a clamp at X = 0: (cosh(L-X) + B sinh(L-X))/(cosh L + B sinh L)
+    (:func:`cabletheory.cable.voltage_ratio`)."""
+    return voltage_ratio(position, L, B)
 
 
 # --------------------------------------------------------------------------------------
@@ -712,9 +709,9 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
     sign = 1.0 if w_k == 0 else -1.0
     Tl = T[live]
     mode_bound = _current_bound(shp, L)
-    tol = float(tolerance)
-    if not 0 < tol < 1:
-        raise InputError(f"tolerance must lie in (0, 1), got {tolerance!r}")
+    tol = float(tolerance)  # in units of the kernel's scale, so it may exceed 1
+    if not (math.isfinite(tol) and tol > 0):
+        raise InputError(f"tolerance must be finite and positive, got {tolerance!r}")
     n_need, _ = _modes_needed(Tl, tol, L, mode_bound)
     use_eigen = np.ones(Tl.size, dtype=bool)
     if images_exact or leaky:

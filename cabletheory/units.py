@@ -69,6 +69,10 @@ KINDS: dict[str, Kind] = {
     "temperature": Kind("temperature", "degC", "K", "degC", "°C", example="35 °C"),
 }
 
+# magnitudes (in SI units) the closed forms are evaluated for; far beyond any cell, well inside
+# the float range, so that products such as d^-1.5 or ℓ/λ cannot overflow
+SI_RANGE = (1e-24, 1e24)
+
 _NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$|^[+-]?(inf|infinity|nan)$", re.IGNORECASE)
 _SUPERSCRIPTS = str.maketrans({"²": "**2", "³": "**3", "⁻": "**-", "¹": "1"})
 # a unit name directly followed by an exponent digit: cm2 -> cm**2 (not 1e3: no word boundary)
@@ -173,6 +177,9 @@ def _check_range(value: float, k: Kind, field: str, raw: str, *, allow_inf: bool
         raise InputError(f"{field}: {raw!r} is negative; expected a positive {k.name} such as {k.example}")
     if value == 0 and not (allow_zero or allow_negative):
         raise InputError(f"{field}: {raw!r} is zero; expected a positive {k.name} such as {k.example}")
+    if value != 0 and math.isfinite(value) and not SI_RANGE[0] <= abs(value) <= SI_RANGE[1]:
+        raise InputError(f"{field}: {raw!r} is outside the range this tool computes with "
+                         f"({SI_RANGE[0]:g} to {SI_RANGE[1]:g} in SI units); expected a {k.name} such as {k.example}")
 
 
 _RANGE = re.compile(r"^\s*([^:]+):([^:]+):([^:]+?)\s*([A-Za-zµμΩ\u2126°][^:]*)?$")

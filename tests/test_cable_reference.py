@@ -26,7 +26,7 @@ TAU = cable.membrane_time_constant(RM, CM)
 @pytest.mark.parametrize(
     ("name", "value", "expected", "unit_scale"),
     [
-        # checks.md §1 [COMP]; λ formula Rall 1959 / Hodgkin & Rushton 1946
+        # checks.md §1 [COMP]; λ formula [PUB 1], [PUB 5], [CP] (Rall 1959; Hodgkin & Rushton 1946 [MEM])
         ("length constant (µm)", LAM, 707.1067812, 1e-6),
         # τm = Rm Cm, Rall 1969 abstract [PUB 3]
         ("time constant (ms)", TAU, 20.0, 1e-3),

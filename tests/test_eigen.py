@@ -50,7 +50,8 @@ def test_peeling_round_trip_and_coefficient_estimate():
     (1.0, math.inf, "clamped", [10.86960440, 40.47841760]),
 ])
 def test_killed_and_clamped_time_constants(L, B, origin, expected):
-    """τm/τn for killed ends and voltage clamp (Rall 1969 [PUB 3]; checks.md table 2.2 [COMP])."""
+    """τm/τn for killed ends and voltage clamp (checks.md table 2.2 [COMP]; Rall 1969 [PUB 3] derives these
+    time constants, its exact equations are recalled from memory [MEM])."""
     alpha = eigen.eigenvalues(L, B, len(expected), origin=origin)
     np.testing.assert_allclose(1 + alpha**2, expected, rtol=1e-9)
 

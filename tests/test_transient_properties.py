@@ -60,7 +60,7 @@ def test_pulse_is_the_difference_of_two_steps(L, T, X0, D):
 @settings(derandomize=True, deadline=None, max_examples=25)
 @given(L=lengths, T=times, a=fractions)
 def test_end_limits(L, T, a):
-    """B → 0 gives the sealed end, B → ∞ the killed end (Rall 1969; [CP])."""
+    """B → 0 gives the sealed end, B → ∞ the killed end (leaky-end forms: Rall 1959/1977 [MEM])."""
     X = [a * L]
     sealed, _, _ = current_response(X, 0.0, [T], L, 0.0)
     nearly_sealed, _, _ = current_response(X, 0.0, [T], L, 1e-9)

@@ -16,6 +16,7 @@ import argparse
 import importlib
 import re
 import sys
+import warnings
 from collections.abc import Sequence
 
 from .. import __version__
@@ -43,7 +44,8 @@ class _Parser(argparse.ArgumentParser):
     """An ArgumentParser whose errors become one-line :class:`InputError`s."""
 
     def error(self, message: str):  # type: ignore[override]
-        raise InputError(f"{self.prog}: {message}")
+        command = self.prog.removeprefix("cabletheory").strip()
+        raise InputError(f"{command}: {message}" if command else message)
 
 
 def build_parser(only: str | None = None) -> argparse.ArgumentParser:
@@ -89,9 +91,18 @@ def main(argv: Sequence[str] | None = None) -> int:
         if getattr(args, "run", None) is None:
             parser.print_help()
             return 2
-        return int(args.run(args))
+        with warnings.catch_warnings():
+            # a floating-point overflow or invalid operation means the inputs are outside what the
+            # formulas can evaluate: report it instead of printing inf or nan
+            warnings.simplefilter("error", RuntimeWarning)
+            return int(args.run(args))
     except CableTheoryError as exc:
         print(f"cabletheory: error: {exc}", file=sys.stderr)
+        return 2
+    except (OverflowError, FloatingPointError, RuntimeWarning) as exc:
+        detail = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        print(f"cabletheory: error: the inputs give numbers too large or too small to evaluate ({detail}); "
+              "check the magnitudes and units", file=sys.stderr)
         return 2
     except BrokenPipeError:  # e.g. piped into `head`
         return 0

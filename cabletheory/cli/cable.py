@@ -28,11 +28,12 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.add_argument("--at", metavar="POSITIONS",
                         help="distances from the origin for the voltage profile: a list '0, 100, 200 um' "
                              "or a range '0:500:50 um' (bare: µm)")
-    parser.add_argument("--segment-fraction", default="0.1", metavar="FRACTION",
-                        help="segment advice: largest segment as a fraction of λ at the advice frequency "
-                             "(default 0.1)")
-    parser.add_argument("--advice-frequency", default="100 Hz", metavar="F",
-                        help="segment advice: frequency whose λ sets the segment size (default 100 Hz)")
+    parser.add_argument("--rule-fraction", default="0.1", metavar="FRACTION",
+                        help="segment advice (rule of thumb): largest segment as a fraction of λ at the rule "
+                             "frequency (default 0.1)")
+    parser.add_argument("--rule-frequency", default="100 Hz", metavar="F",
+                        help="segment advice (rule of thumb): frequency whose λ sets the segment size "
+                             "(default 100 Hz)")
     parser.add_argument("--digits", type=int, default=4, choices=range(2, 13), metavar="N",
                         help="significant digits in the human-readable output (default 4)")
     parser.add_argument("--json", action="store_true", help="print one JSON object with SI values")
@@ -41,13 +42,15 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def run(args: argparse.Namespace) -> int:
     cylinder = read_cylinder(args)
+    if math.isinf(cylinder.length) and cylinder.end_conductance != 0:
+        raise InputError(f"--end: a semi-infinite cable (--length inf) has no far end; drop --end {args.end!r}")
     frequency = None
     if args.frequency is not None:
         frequency = parse_quantity(args.frequency, "frequency", "--frequency", allow_zero=True)
-    fraction = parse_quantity(args.segment_fraction, "dimensionless", "--segment-fraction")
+    fraction = parse_quantity(args.rule_fraction, "dimensionless", "--rule-fraction")
     if fraction > 1:
-        raise InputError(f"--segment-fraction: {args.segment_fraction!r} exceeds 1; expected e.g. 0.1")
-    advice_frequency = parse_quantity(args.advice_frequency, "frequency", "--advice-frequency")
+        raise InputError(f"--rule-fraction: {args.rule_fraction!r} exceeds 1; expected e.g. 0.1")
+    advice_frequency = parse_quantity(args.rule_frequency, "frequency", "--rule-frequency")
     positions: list[float] = []
     if args.at is not None:
         positions = parse_series(args.at, "length", "--at")
@@ -158,7 +161,8 @@ def as_text(s: CableSummary, digits: int = 4) -> str:
         blocks.append(_profile_table(s, digits))
     if s.segments_needed is not None:
         blocks.append(
-            f"Segment advice: {s.segments_needed} equal segments keep each within "
+            f"Segment advice: {s.segments_needed} equal segment{'s' if s.segments_needed != 1 else ''} keep"
+            f"{'s' if s.segments_needed == 1 else ''} each within "
             f"{s.segment_fraction:g} λ at {fmt(s.advice_frequency, 'frequency')} (a rule of common practice, "
             f"not an error bound).")
     blocks.append(f"Note: {PASSIVE_CAVEAT}")
