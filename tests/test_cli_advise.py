@@ -65,3 +65,62 @@ def test_time_course_advice_for_any_end_and_a_soma(extra: list[str], capsys) -> 
     assert data["relative_error"] <= 0.01
     (n,) = data["segments"]
     assert 4 <= n < data["rule_of_thumb"]["segments"][0] == 19
+
+
+# the checks.md §3.1 tree as SWC points (no soma: input at the root point); each segment's length is
+# the distance to its parent (300 µm trunk and daughters, 200 µm granddaughters)
+SWC_TREE = """# checks.md 3.1 tree
+1 3 0 0 0 2.0 -1
+2 3 300 0 0 2.0 1
+3 3 600 0 0 1.25992105 2
+4 3 300 300 0 1.25992105 2
+5 3 800 0 0 0.793700526 3
+6 3 600 200 0 0.793700526 3
+7 3 300 500 0 0.793700526 4
+8 3 500 300 0 0.793700526 4
+"""
+
+
+def test_tree_advice_reads_swc_as_the_tree_command_does(tmp_path, capsys) -> None:
+    """An SWC file is read as SWC (not as a section list): checks.md §3.1 tree, |Z_root(100 Hz)| =
+    44.86760779 MΩ [COMP], the same as the --parents/--lengths/--diameters form above."""
+    swc = tmp_path / "cell.swc"
+    swc.write_text(SWC_TREE, encoding="utf-8")
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(swc), "--quantity", "impedance",
+                 "--target", "0.5%"]) == 0
+    out = capsys.readouterr().out
+    assert "exact |Z|              44.87 MΩ" in out
+    assert "(7 SWC segments)" in out
+
+
+def test_tree_advice_on_the_bundled_swc(capsys) -> None:
+    """The bundled interneuron (SWC) is advisable; its soma (from the file) is lumped at the root."""
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree",
+                 "cabletheory/data/morphologies/lumenia_pv7_interneuron.swc", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["relative_error"] <= 0.01
+    assert len(data["segments"]) > 100
+
+
+@pytest.mark.parametrize(("extra", "message"), [
+    (["--quantity", "attenuation"], "--quantity: attenuation is not available for a tree; choose "
+                                    "input-resistance or impedance"),
+    (["--quantity", "time-course"], "--quantity: time-course is not available for a tree"),
+])
+def test_tree_quantity_errors_name_the_option(tmp_path, capsys, extra: list[str], message: str) -> None:
+    swc = tmp_path / "cell.swc"
+    swc.write_text(SWC_TREE, encoding="utf-8")
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(swc), *extra]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"cabletheory: error: {message}")
+    assert err.count("\n") == 1
+
+
+def test_tapered_tree_is_refused_in_one_line(tmp_path, capsys) -> None:
+    sections = tmp_path / "cell.tree"
+    sections.write_text("trunk root 300 4 2\n", encoding="utf-8")
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(sections)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("cabletheory: error: --tree: ")
+    assert "tapered" in err
+    assert err.count("\n") == 1

@@ -23,6 +23,8 @@ from .common import (
     table,
 )
 
+TREE_QUANTITIES = ("input-resistance", "impedance")
+
 
 def register(subparsers: argparse._SubParsersAction) -> None:
     parser = subparsers.add_parser(
@@ -34,7 +36,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                     "a fraction of λ at 100 Hz) and the error that rule gives. For --quantity time-course also the "
                     "largest time step of --scheme, with half the target given to the segments and half to "
                     "the time step, verified against the exact course. For one cable use the cable "
-                    "options; for a tree give --tree FILE (section list) or --parents/--lengths/--diameters.",
+                    "options; for a tree give --tree FILE (SWC or section list) or --parents/--lengths/--diameters.",
         epilog=PASSIVE_CAVEAT,
     )
     group = parser.add_argument_group("cable (bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS)")
@@ -45,7 +47,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                        help="far end of the cable, or of every tip of a tree: sealed, killed or a "
                             "conductance such as 0.5nS (default sealed)")
     tree = parser.add_argument_group("tree instead of one cable")
-    tree.add_argument("--tree", metavar="FILE", help="section list file (see docs/verify.md); tapers not allowed")
+    tree.add_argument("--tree", metavar="FILE",
+                      help="morphology read as the tree command reads it: SWC (segments as cylinders, axon left "
+                           "out, soma lumped) or a section list; tapered sections are not allowed")
     tree.add_argument("--parents", metavar="LIST", help="parent of each section, -1 for the root: '-1,0,0'")
     tree.add_argument("--lengths", metavar="LIST", help="section lengths: '300,300,300 um'")
     tree.add_argument("--diameters", metavar="LIST", help="section diameters: '4,2.52,2.52 um'")
@@ -82,16 +86,28 @@ def parse_relative(text: str, field: str) -> float:
 
 
 def _tree_arrays(args: argparse.Namespace) -> tuple[np.ndarray, np.ndarray, np.ndarray, float | None, str]:
+    """Sections of the tree (parents, lengths, diameters in SI), the soma area from the file (m², or
+    None) and a label. ``--tree`` is read as the ``tree`` command reads it (SWC or section list, told
+    apart by :func:`cabletheory.morphology.read_morphology`; SWC with its defaults: each segment a
+    cylinder with its own point's diameter, axon left out, soma lumped at the root)."""
     if args.tree:
-        from ..morphology import read_section_list
+        from ..morphology import SectionList, read_morphology
+        from ..tree import build_tree
 
-        sections = read_section_list(args.tree)
-        tapered = np.flatnonzero(~np.isclose(sections.diameters, sections.end_diameters, rtol=1e-12))
+        morphology = read_morphology(args.tree)
+        tree = build_tree(morphology)
+        tapered = np.flatnonzero(~np.isclose(tree.proximal_diameters, tree.distal_diameters, rtol=1e-12))
         if tapered.size:
-            raise InputError(f"{args.tree}: section {sections.names[tapered[0]]!r} is tapered; advice treats "
-                             "uniform cylinders only (split it into steps)")
-        return (sections.parents, sections.lengths, sections.diameters, sections.soma_diameter,
-                f"{args.tree} ({len(sections)} sections)")
+            raise InputError(f"--tree: {args.tree}: section {tree.labels[tapered[0]]!r} is tapered (a frustum); "
+                             "advice treats uniform cylinders only (split each taper into steps)")
+        short = np.flatnonzero(tree.lengths <= 0)
+        if short.size:
+            raise InputError(f"--tree: {args.tree}, line {int(tree.lines[short[0]])}: segment "
+                             f"{tree.labels[short[0]]!r} has zero length; advice needs every section longer "
+                             "than zero")
+        what = "sections" if isinstance(morphology, SectionList) else "SWC segments"
+        return (tree.parents, tree.lengths, tree.proximal_diameters, tree.soma_area,
+                f"{args.tree} ({len(tree)} {what})")
     if not (args.parents and args.lengths and args.diameters):
         raise InputError("a tree needs --parents, --lengths and --diameters together (or --tree FILE)")
     try:
@@ -126,19 +142,24 @@ def run(args: argparse.Namespace) -> int:
     if is_tree:
         if args.diameter or args.length:
             raise InputError("give either --diameter/--length (one cable) or a tree, not both")
-        parents, lengths, diameters, file_soma, label = _tree_arrays(args)
-        soma_diameter = soma_diameter if soma_diameter is not None else file_soma
+        if args.quantity not in TREE_QUANTITIES:
+            raise InputError(f"--quantity: {args.quantity} is not available for a tree; choose "
+                             f"{' or '.join(TREE_QUANTITIES)}")
+        parents, lengths, diameters, file_soma_area, label = _tree_arrays(args)
+        soma_area = math.pi * soma_diameter**2 if soma_diameter else (file_soma_area or 0.0)
         rm, ri, cm = read_membrane(args)
         end = parse_end(args.end)
         tips = np.setdiff1d(np.arange(parents.size), parents[parents >= 0])
         ends = np.zeros(parents.size)
         ends[tips] = end
         advice = advise_tree(parents, lengths, diameters, rm, ri, cm, args.quantity, target,
-                             end_conductances=ends, soma_area=math.pi * soma_diameter**2 if soma_diameter else 0.0,
+                             end_conductances=ends, soma_area=soma_area,
                              frequency=frequency, rule_fraction=rule_fraction, rule_frequency=rule_frequency)
         inputs = [("tree", label), ("Rm", format_quantity(rm, "membrane_resistivity")),
                   ("Ri", format_quantity(ri, "axial_resistivity")), ("Cm", format_quantity(cm, "membrane_capacitance")),
                   ("tips", args.end)]
+        if soma_area and not soma_diameter:
+            inputs.append(("soma area (from the file)", format_quantity(soma_area, "area")))
     else:
         if not (args.diameter and args.length):
             raise InputError("one cable needs --diameter and --length (or give a tree)")
