@@ -11,7 +11,7 @@ from .. import PASSIVE_CAVEAT
 from ..cable import CableSummary, summarise
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
-from .common import add_cable_options, dump_json, echo_cylinder, quantity, read_cylinder, table
+from .common import add_cable_options, dump_json, echo_cylinder, quantity, read_cylinder, table, whole_number
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -34,7 +34,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.add_argument("--rule-frequency", default="100 Hz", metavar="F",
                         help="segment advice (rule of thumb): frequency whose λ sets the segment size "
                              "(default 100 Hz)")
-    parser.add_argument("--digits", type=int, default=4, choices=range(2, 13), metavar="N",
+    parser.add_argument("--digits", type=whole_number(2, 12), default=4, metavar="N",
                         help="significant digits in the human-readable output (default 4)")
     parser.add_argument("--json", action="store_true", help="print one JSON object with SI values")
     parser.set_defaults(run=run)

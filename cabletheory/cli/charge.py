@@ -22,7 +22,7 @@ from ..transient import (
 )
 from ..units import format_quantity, parse_quantity, parse_series
 from .case import add_case_options, read_model, read_stimulus
-from .common import dump_json, echo_cylinder, quantity, table, write_atomically
+from .common import dump_json, echo_cylinder, quantity, table, whole_number, write_atomically
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -45,11 +45,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     out.add_argument("--tolerance", default="1e-10", metavar="REL",
                      help="truncation error allowed, relative to the final voltage at the stimulus site "
                           "(default 1e-10)")
-    out.add_argument("--precision", type=int, metavar="DIGITS", choices=range(16, 101),
+    out.add_argument("--precision", type=whole_number(16, 100), metavar="DIGITS",
                      help="evaluate with mpmath at this many digits instead of numpy (slow; for checks)")
-    out.add_argument("--modes", type=int, default=5, choices=range(0, 51), metavar="N",
+    out.add_argument("--modes", type=whole_number(0, 50), default=5, metavar="N",
                      help="time constants and coefficients to list (default 5)")
-    out.add_argument("--digits", type=int, default=4, choices=range(2, 16), metavar="N",
+    out.add_argument("--digits", type=whole_number(2, 15), default=4, metavar="N",
                      help="significant digits in the human-readable output (default 4)")
     fmt = out.add_mutually_exclusive_group()
     fmt.add_argument("--json", action="store_true", help="print one JSON object with SI values")

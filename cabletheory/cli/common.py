@@ -47,6 +47,22 @@ def add_cable_options(parser: argparse.ArgumentParser, *, length_required: bool 
                        help="far end: sealed, killed, or a conductance to rest such as 0.5nS (default sealed)")
 
 
+def whole_number(low: int, high: int):
+    """An argparse ``type`` accepting whole numbers from ``low`` to ``high`` with a one-line message
+    (``choices=range(...)`` would list every allowed value)."""
+
+    def convert(text: str) -> int:
+        try:
+            value = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+        if not low <= value <= high:
+            raise argparse.ArgumentTypeError(f"{value} is not between {low} and {high}")
+        return value
+
+    return convert
+
+
 def parse_end(text: str) -> float:
     """'sealed' -> 0, 'killed' -> inf, otherwise a conductance in S (bare numbers in nS)."""
     word = text.strip().lower()

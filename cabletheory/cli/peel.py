@@ -10,7 +10,7 @@ from typing import Any
 from .. import PASSIVE_CAVEAT
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity
-from .common import dump_json, quantity, table
+from .common import dump_json, quantity, table, whole_number
 
 MODEL_CAVEAT = ("The model is a passive, linear, uniform membrane on one equivalent cylinder sealed at its far end; "
                 "for the ball and stick, a lumped soma with the same τm as the dendrite.")
@@ -69,7 +69,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     out.add_argument("--uncertainty", default="5%", metavar="U",
                      help="relative uncertainty of τ1 and C1 for the sensitivity rows, e.g. 5%% or 0.05 "
                           "(default 5%%)")
-    out.add_argument("--digits", type=int, default=4, choices=range(2, 16), metavar="N",
+    out.add_argument("--digits", type=whole_number(2, 15), default=4, metavar="N",
                      help="significant digits in the human-readable output (default 4)")
     out.add_argument("--json", action="store_true", help="print one JSON object with SI values")
     parser.set_defaults(run=run)

@@ -13,7 +13,7 @@ from ..errors import InputError
 from ..morphology import SWC_TYPES, SectionList, read_morphology
 from ..tree import Tolerances, TreeReport, analyse_tree, build_tree, sample_profile
 from ..units import format_quantity, parse_quantity
-from .common import add_membrane_options, dump_json, quantity, read_membrane, table, write_atomically
+from .common import add_membrane_options, dump_json, quantity, read_membrane, table, whole_number, write_atomically
 
 _TYPE_NAMES = {"soma": 1, "axon": 2, "basal": 3, "apical": 4}
 _DEFAULT_TOLERANCE = Tolerances()
@@ -54,7 +54,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     out.add_argument("--show", type=int, default=10, metavar="N",
                      help="departures listed in the text report (default 10; --json lists all)")
     out.add_argument("--plot", metavar="FILE", help="also draw the equivalent-cable profile (.png or .svg)")
-    out.add_argument("--digits", type=int, default=4, choices=range(2, 13), metavar="N",
+    out.add_argument("--digits", type=whole_number(2, 12), default=4, metavar="N",
                      help="significant digits in the text report (default 4)")
     out.add_argument("--json", action="store_true", help="print one JSON object with SI values")
     parser.set_defaults(run=run)
@@ -271,7 +271,8 @@ def as_text(r: TreeReport, file_format: str = "SWC", points: int = 0, digits: in
         (f"exact, full tree (at the {site})", fmt(r.input_resistance, "resistance")),
         ("reduced model" + (" (soma + cylinder)" if r.soma_area is not None else " (cylinder)"),
          fmt(r.reduced_input_resistance, "resistance")),
-        ("difference (reduced − exact)", f"{r.difference_percent:+.3g} %"),
+        ("difference (reduced − exact)",
+         "0 % (equal to rounding)" if abs(r.difference_percent) < 1e-9 else f"{r.difference_percent:+.3g} %"),
     ]
     if r.soma_area is not None and r.soma_conductance is not None:
         rows += [
