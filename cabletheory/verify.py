@@ -363,6 +363,7 @@ class ExactCase:
     parameters: Mapping[str, tuple[float, str]] = field(default_factory=dict)
     length: float = math.inf  # m, positions must lie in [start, length]
     start: float = 0.0  # m; -inf for an infinite cable (positions on both sides of the input)
+    stimulus_shape: str = "step"  # the command line's word: step, pulse, alpha or clamp
 
 
 @dataclass(frozen=True, slots=True)
@@ -1025,6 +1026,7 @@ class ReferenceTable:
     parameters: Mapping[str, tuple[float, str]]
     version: str = __version__
     caveat: str = "passive, linear, uniform membrane"
+    stimulus_shape: str = "step"
 
     @property
     def largest_bound(self) -> float:
@@ -1054,7 +1056,7 @@ def reference_table(exact: ExactCase, times: ArrayLike, positions: ArrayLike, *,
         raise InputError(f"layout {layout!r}: expected 'wide' or 'long'")
     return ReferenceTable(times=t, positions=x, voltage=np.asarray(v, dtype=float), bound=np.asarray(b, dtype=float),
                           layout=layout, description=exact.description, method=exact.method,
-                          parameters=dict(exact.parameters))
+                          parameters=dict(exact.parameters), stimulus_shape=exact.stimulus_shape)
 
 
 def _meta_lines(table: ReferenceTable) -> list[str]:
@@ -1064,7 +1066,8 @@ def _meta_lines(table: ReferenceTable) -> list[str]:
         f"case: {table.description}",
         f"method: {table.method}",
         f"largest error bound: {table.largest_bound:.3e} V",
-        f"assumes: {table.caveat}",
+        f"assumptions: {table.caveat}",
+        f"stimulus_shape: {table.stimulus_shape}",
     ]
     lines += [f"{name}: {value!r} {unit}" for name, (value, unit) in table.parameters.items()]
     return lines
@@ -1106,16 +1109,38 @@ def json_number(value: float) -> float | str:
     return "nan" if math.isnan(v) else ("inf" if v > 0 else "-inf")
 
 
+STIMULUS_KEYS = {"stimulus_amplitude": "amplitude", "stimulus_position": "position", "pulse_duration": "duration",
+                 "time_to_peak": "time_to_peak", "stimulus_onset": "onset"}
+"""Parameters of an :class:`ExactCase` that describe the stimulus, and their key in a JSON ``stimulus``
+object (the keys ``charge --json`` uses too)."""
+
+
+def split_stimulus(parameters: Mapping[str, tuple[float, str]], shape: str
+                   ) -> tuple[dict[str, Any], dict[str, Any]]:
+    """JSON ``parameters`` (the cable and model) and ``stimulus`` (``shape``, ``amplitude``,
+    ``position`` and, where they apply, ``duration``, ``time_to_peak``, ``onset``) of a case."""
+    cable: dict[str, Any] = {}
+    stimulus: dict[str, Any] = {"shape": shape}
+    for name, (value, unit) in parameters.items():
+        entry = {"value": json_number(value), "unit": unit}
+        if name in STIMULUS_KEYS:
+            stimulus[STIMULUS_KEYS[name]] = entry
+        else:
+            cable[name] = entry
+    return cable, stimulus
+
+
 def reference_json(table: ReferenceTable) -> str:
     """JSON text; every quantity is ``{"value": SI, "unit": SI unit}``."""
+    parameters, stimulus = split_stimulus(table.parameters, table.stimulus_shape)
     obj: dict[str, Any] = {
         "tool": f"cabletheory {table.version}",
         "case": table.description,
         "method": table.method,
-        "assumes": table.caveat,
+        "assumptions": table.caveat,
         "layout": table.layout,
-        "parameters": {name: {"value": json_number(value), "unit": unit}
-                       for name, (value, unit) in table.parameters.items()},
+        "parameters": parameters,
+        "stimulus": stimulus,
         "times": {"value": table.times.tolist(), "unit": "s"},
         "positions": {"value": table.positions.tolist(), "unit": "m"},
         "voltage": {"value": table.voltage.tolist(), "unit": "V"},
@@ -1220,7 +1245,7 @@ def sealed_step_case(cylinder: cb.Cylinder, amplitude: float, tolerance: float =
         "length": (cylinder.length, "m"),
         "end_conductance": (0.0, "S"),
         "stimulus_amplitude": (amplitude, "A"),
-        "stimulus_site": (0.0, "m"),
+        "stimulus_position": (0.0, "m"),
     }
     return ExactCase(evaluate=evaluate, description="finite cylinder, sealed far end, current step at the origin",
                      method="eigenfunction series (Rall 1969) truncated by its tail bound",
@@ -1310,22 +1335,22 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
     if stimulus.position == 0 and not infinite:
         where = "the soma" if ball else "the origin"
     if isinstance(stimulus, tr.VoltageStep):
-        what = f"voltage-clamp step at {where}"
+        what, shape_word = f"voltage-clamp step at {where}", "clamp"
         params["stimulus_amplitude"] = (stimulus.amplitude, "V")
     elif isinstance(stimulus, tr.CurrentPulse):
-        what = f"current pulse of {_ms(stimulus.duration)} at {where}"
+        what, shape_word = f"current pulse of {_ms(stimulus.duration)} at {where}", "pulse"
         params["stimulus_amplitude"] = (stimulus.amplitude, "A")
         params["pulse_duration"] = (stimulus.duration, "s")
     elif isinstance(stimulus, tr.AlphaCurrent):
-        what = f"alpha current peaking at {_ms(stimulus.time_to_peak)} at {where}"
+        what, shape_word = f"alpha current peaking at {_ms(stimulus.time_to_peak)} at {where}", "alpha"
         params["stimulus_amplitude"] = (stimulus.peak, "A")
         params["time_to_peak"] = (stimulus.time_to_peak, "s")
     elif isinstance(stimulus, tr.CurrentStep):
-        what = f"current step at {where}"
+        what, shape_word = f"current step at {where}", "step"
         params["stimulus_amplitude"] = (stimulus.amplitude, "A")
     else:
         raise InputError(f"unknown stimulus {type(stimulus).__name__}")
-    params["stimulus_site"] = (stimulus.position, "m")
+    params["stimulus_position"] = (stimulus.position, "m")
     # the tolerance of transient.charge is relative to its reference voltage; a probe at t = 0 gives it
     probe = tr.charge(model, stimulus, [0.0], [0.0 if infinite else stimulus.position], modes=0)
     reference = probe.reference_voltage
@@ -1367,7 +1392,7 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
         return voltage.reshape(np.shape(times)), bound.reshape(np.shape(times))
 
     return ExactCase(evaluate=evaluate, description=f"{shape}, {what}", method=method, parameters=params,
-                     length=length, start=start)
+                     length=length, start=start, stimulus_shape=shape_word)
 
 
 def exact_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase:

@@ -46,7 +46,10 @@ def test_cylinder_worked_example_json(capsys):
     data = run_json(capsys, "--tau0", "20", "--tau1", "2")
     assert data["cylinder"]["electrotonic_length"] == {"value": pytest.approx(math.pi / 3, rel=1e-14),
                                                       "unit": "dimensionless"}
-    assert data["inputs"]["tau0"] == {"value": pytest.approx(0.020, rel=1e-15), "unit": "s"}
+    assert data["inputs"]["slowest_time_constant"] == {"value": pytest.approx(0.020, rel=1e-15), "unit": "s"}
+    assert data["inputs"]["first_time_constant"] == {"value": pytest.approx(0.002, rel=1e-15), "unit": "s"}
+    # words, not symbols, in every key (DEVELOPERS.md naming rules)
+    assert not {"tau0", "tau1", "tau2", "c0", "c1"} & set(data["inputs"])
     assert data["ball_and_stick"]["solutions"] == []
     assert data["membrane_properties"][0]["membrane_time_constant"]["value"] == pytest.approx(0.020)
     assert data["membrane_properties"][0]["conductance_ratio"]["value"] == "inf"
@@ -107,7 +110,8 @@ def test_json_keys_and_units(capsys):
     assert data["inputs"]["membrane_capacitance"] == {"value": pytest.approx(0.01), "unit": "F/m**2"}
     assert data["inputs"]["axial_resistivity"] == {"value": pytest.approx(1.0), "unit": "ohm*m"}
     assert [(p["changed"], p["factor"]) for p in data["sensitivity"]] == [
-        ("tau1", 0.95), ("tau1", 1.05), ("C1", 0.95), ("C1", 1.05)]
+        ("first_time_constant", 0.95), ("first_time_constant", 1.05), ("first_coefficient", 0.95),
+        ("first_coefficient", 1.05)]
     (props,) = data["membrane_properties"]
     assert props["membrane_resistivity"] == {"value": pytest.approx(2.0, rel=1e-12), "unit": "ohm*m**2",
                                              "needs": ["Cm"]}

@@ -90,7 +90,10 @@ def test_infinite_cable_off_centre_input(tmp_path) -> None:
                                "--positions", sites])
     v = np.array(data["voltage"]["value"])[0] / (0.5e-9 * R_INF)
     assert v == pytest.approx([0.2336124405, 0.8427007929, 0.2336124405], abs=1e-9)
-    assert data["parameters"]["stimulus_site"]["value"] == pytest.approx(100e-6)
+    assert data["stimulus"]["position"]["value"] == pytest.approx(100e-6)
+    assert data["stimulus"]["shape"] == "step"
+    assert data["assumptions"] == "passive, linear, uniform membrane"
+    assert "stimulus_position" not in data["parameters"]
 
 
 def test_pulse_alpha_and_clamp_tables(tmp_path) -> None:
@@ -113,7 +116,10 @@ def test_pulse_alpha_and_clamp_tables(tmp_path) -> None:
     assert v[0] == 0.0
     assert 0 < np.argmax(v) < 10
     assert abs(v[-1]) < 1e-6 * v.max()
-    assert alpha["parameters"]["time_to_peak"] == {"value": 1e-3, "unit": "s"}
+    assert alpha["stimulus"]["time_to_peak"] == {"value": 1e-3, "unit": "s"}
+    assert alpha["stimulus"]["shape"] == "alpha"
+    assert clamp["stimulus"]["shape"] == "clamp"
+    assert pulse["stimulus"]["duration"] == {"value": 8e-3, "unit": "s"}
 
 
 def test_semi_infinite_csv_header(tmp_path, capsys) -> None:
@@ -199,7 +205,7 @@ def test_like_a_file_that_records_before_the_onset(tmp_path) -> None:
     v = np.array(data["voltage"]["value"])[:, 0]
     assert list(v[:3]) == [0.0, 0.0, 0.0]
     assert v[3] / FINAL == pytest.approx(0.2629635738, abs=1e-9)
-    assert data["parameters"]["stimulus_onset"] == {"value": 1e-3, "unit": "s"}
+    assert data["stimulus"]["onset"] == {"value": 1e-3, "unit": "s"}
     # compare, reading the same file with the same options, finds exactly these values: feeding the
     # reference back as a run (already from rest) gives no error
     ref_csv = tmp_path / "ref.csv"
@@ -209,3 +215,27 @@ def test_like_a_file_that_records_before_the_onset(tmp_path) -> None:
     assert main(["compare", str(ref_csv), *L1, "--onset", "1 ms", "--tolerance", "1e-12 mV",
                  "--report", str(report)]) == 0
     assert json.loads(report.read_text())["runs"][0]["max_abs_error"]["value"] < 1e-15
+
+
+def test_one_stimulus_naming_in_charge_reference_and_compare(tmp_path, capsys) -> None:
+    """The same command line gives the same JSON "stimulus" object (the --shape word, amplitude,
+    position, duration) in charge, reference and compare, and every command says "assumptions"."""
+    case = [*BASE, "--length", "500", "--shape", "pulse", "--current", "200 pA", "--duration", "1 ms",
+            "--at", "100 um"]
+    assert main(["charge", *case, "--times", "2 ms", "--positions", "0", "--json"]) == 0
+    charged = json.loads(capsys.readouterr().out)
+    ref = table_of(tmp_path, [*case[len(BASE):], "--times", "2 ms", "--positions", "0"])
+    sim = tmp_path / "sim.csv"
+    sim.write_text("time (ms),V at 0 um (mV)\n2,0.1\n", encoding="utf-8")
+    report = tmp_path / "report.json"
+    main(["compare", str(sim), *case, "--report", str(report)])
+    compared = json.loads(report.read_text())
+    expected = {"shape": "pulse", "amplitude": {"value": pytest.approx(200e-12), "unit": "A"},
+                "position": {"value": pytest.approx(100e-6), "unit": "m"},
+                "duration": {"value": pytest.approx(1e-3), "unit": "s"}}
+    assert charged["inputs"]["stimulus"] == expected
+    assert {k: v for k, v in ref["stimulus"].items() if k != "onset"} == expected
+    assert compared["stimulus"] == expected
+    assert "assumptions" in charged
+    assert "assumptions" in ref
+    assert "assumptions" in compared

@@ -34,7 +34,9 @@ SERIES = "eigenfunction series (Rall 1969) truncated by its tail bound"  # seale
 def test_the_independent_series_only_for_a_sealed_step_at_the_origin(model, stimulus, independent_series):
     case = vf.exact_case(model, stimulus, 1e-12)
     assert (case.method == SERIES) is independent_series
-    assert case.parameters["stimulus_site"] == (stimulus.position, "m")
+    assert case.parameters["stimulus_position"] == (stimulus.position, "m")
+    assert case.stimulus_shape == {"CurrentStep": "step", "CurrentPulse": "pulse", "AlphaCurrent": "alpha",
+                                   "VoltageStep": "clamp"}[type(stimulus).__name__]
 
 
 def test_sealed_step_follows_the_rall_charging_curve():

@@ -164,7 +164,7 @@ def test_parameters_and_bad_tolerance() -> None:
     p = case.parameters
     assert p["end_conductance"] == (1e-9, "S")
     assert p["time_to_peak"] == (2 * MS, "s")
-    assert p["stimulus_site"] == (100 * UM, "m")
+    assert p["stimulus_position"] == (100 * UM, "m")
     assert "leaky" in case.description
     assert "alpha" in case.description
     semi = vf.transient_case(Cylinder(RM, RI, CM, D, math.inf), tr.VoltageStep(0.01))

@@ -103,6 +103,17 @@ def _model_name(model) -> str:
     return "semi-infinite cylinder" if math.isinf(model.length) else "finite cylinder"
 
 
+def _shape(stimulus) -> str:
+    """The command line's word for the stimulus (``--shape``)."""
+    if isinstance(stimulus, VoltageStep):
+        return "clamp"
+    if isinstance(stimulus, CurrentPulse):
+        return "pulse"
+    if isinstance(stimulus, AlphaCurrent):
+        return "alpha"
+    return "step"
+
+
 def _stimulus_rows(stimulus, digits: int = 4) -> list[tuple[str, str]]:
     def fmt(value: float, kind: str) -> str:
         return format_quantity(value, kind, digits)
@@ -142,16 +153,20 @@ def as_json(model, stimulus, r: Response) -> dict:
         }
         if isinstance(model, BallAndStick):
             cable["soma_diameter"] = quantity(model.soma_diameter, "length")
-    stim: dict = {"kind": type(stimulus).__name__, "position": quantity(stimulus.position, "length")}
+    # the keys of the "stimulus" object of reference and compare (cabletheory.verify.split_stimulus);
+    # an alpha current's amplitude is its peak
+    stim: dict = {"shape": _shape(stimulus)}
     if isinstance(stimulus, VoltageStep):
         stim["amplitude"] = quantity(stimulus.amplitude, "voltage")
     elif isinstance(stimulus, AlphaCurrent):
-        stim["peak"] = quantity(stimulus.peak, "current")
-        stim["time_to_peak"] = quantity(stimulus.time_to_peak, "time")
+        stim["amplitude"] = quantity(stimulus.peak, "current")
     else:
         stim["amplitude"] = quantity(stimulus.amplitude, "current")
-        if isinstance(stimulus, CurrentPulse):
-            stim["duration"] = quantity(stimulus.duration, "time")
+    stim["position"] = quantity(stimulus.position, "length")
+    if isinstance(stimulus, CurrentPulse):
+        stim["duration"] = quantity(stimulus.duration, "time")
+    if isinstance(stimulus, AlphaCurrent):
+        stim["time_to_peak"] = quantity(stimulus.time_to_peak, "time")
     out: dict = {
         "inputs": {"model": _model_name(model), "cable": cable, "stimulus": stim,
                    "tolerance": quantity(r.tolerance, "dimensionless"),

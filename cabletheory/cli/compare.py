@@ -10,7 +10,7 @@ from .. import PASSIVE_CAVEAT
 from ..compartment import SCHEMES
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
-from ..verify import Comparison, Convergence, ExactCase, Recording, compare, convergence, json_number, run_spacings
+from ..verify import Comparison, Convergence, ExactCase, Recording, compare, convergence, run_spacings, split_stimulus
 from .advise import parse_relative
 from .case import add_case_options
 from .common import dump_json, quantity, write_atomically
@@ -117,10 +117,12 @@ def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparis
             "passed": c.passed,
             "exact_error_bound": quantity(c.reference_bound, "voltage"),
         })
+    parameters, stimulus = split_stimulus(case.parameters, case.stimulus_shape)
     out: dict = {
         "case": case.description,
         "method": case.method,
-        "parameters": {k: {"value": json_number(v), "unit": u} for k, (v, u) in case.parameters.items()},
+        "parameters": parameters,
+        "stimulus": stimulus,
         "runs": runs,
         "assumptions": PASSIVE_CAVEAT,
     }

@@ -142,8 +142,9 @@ def read_inputs(args: argparse.Namespace) -> dict[str, Any]:
         raise InputError("--input-resistance/--Cm: the membrane properties need τ0; give --tau0")
     if ri is not None and (r_n is None or cm is None):
         raise InputError("--Ri: the cylinder's diameter and length need --input-resistance and --Cm as well")
-    return {"tau0": tau0, "tau1": tau1, "tau2": tau2, "time_constant_ratio": ratio,
-            "second_time_constant_ratio": ratio2, "c0": c0, "c1": c1, "coefficient_ratio": c_ratio,
+    return {"slowest_time_constant": tau0, "first_time_constant": tau1, "second_time_constant": tau2,
+            "time_constant_ratio": ratio, "second_time_constant_ratio": ratio2, "slowest_coefficient": c0,
+            "first_coefficient": c1, "coefficient_ratio": c_ratio,
             "input_resistance": r_n, "membrane_capacitance": cm, "axial_resistivity": ri,
             "uncertainty": uncertainty}
 
@@ -160,8 +161,9 @@ def run(args: argparse.Namespace) -> int:
     if not models:
         models = [(estimate.cylinder_length, math.inf)]
     properties = []
-    if inputs["tau0"] is not None:
-        properties = [membrane_properties(inputs["tau0"], L, rho, input_resistance=inputs["input_resistance"],
+    if inputs["slowest_time_constant"] is not None:
+        properties = [membrane_properties(inputs["slowest_time_constant"], L, rho,
+                                          input_resistance=inputs["input_resistance"],
                                           membrane_capacitance=inputs["membrane_capacitance"],
                                           axial_resistivity=inputs["axial_resistivity"]) for L, rho in models]
     if args.json:
@@ -174,6 +176,10 @@ def run(args: argparse.Namespace) -> int:
 # --------------------------------------------------------------------------------------
 # output
 # --------------------------------------------------------------------------------------
+CHANGED = {"tau1": "first_time_constant", "C1": "first_coefficient"}
+"""JSON name of the peeled value a sensitivity row changes (the naming of ``inputs``)."""
+
+
 def _maybe(value: float | None, kind: str) -> dict[str, Any] | None:
     return None if value is None else quantity(value, kind)
 
@@ -190,9 +196,10 @@ def _properties_json(p) -> dict[str, Any]:
 
 def as_json(inputs: dict[str, Any], e, properties) -> dict[str, Any]:
     """The estimate as one JSON object; every quantity is ``{"value": SI, "unit": SI unit}``."""
-    time_keys = ("tau0", "tau1", "tau2")
+    time_keys = ("slowest_time_constant", "first_time_constant", "second_time_constant")
     echo = {k: _maybe(inputs[k], "time") for k in time_keys}
-    for k in ("time_constant_ratio", "second_time_constant_ratio", "c0", "c1", "coefficient_ratio", "uncertainty"):
+    for k in ("time_constant_ratio", "second_time_constant_ratio", "slowest_coefficient", "first_coefficient",
+              "coefficient_ratio", "uncertainty"):
         echo[k] = _maybe(inputs[k], "dimensionless")
     echo["input_resistance"] = _maybe(inputs["input_resistance"], "resistance")
     echo["membrane_capacitance"] = _maybe(inputs["membrane_capacitance"], "membrane_capacitance")
@@ -224,7 +231,7 @@ def as_json(inputs: dict[str, Any], e, properties) -> dict[str, Any]:
             "solutions": solutions,
         },
         "sensitivity": [{
-            "changed": p.changed, "factor": p.factor,
+            "changed": CHANGED[p.changed], "factor": p.factor,
             "time_constant_ratio": quantity(p.time_constant_ratio, "dimensionless"),
             "coefficient_ratio": _maybe(p.coefficient_ratio, "dimensionless"),
             "cylinder_electrotonic_length": quantity(p.cylinder_length, "dimensionless"),
@@ -254,15 +261,15 @@ def as_text(inputs: dict[str, Any], e, properties, digits: int = 4) -> str:
         return format_quantity(value, "time", digits)
 
     echo = []
-    if inputs["tau0"] is not None:
-        echo.append(("τ0 (slowest, = τm)", t(inputs["tau0"])))
-    if inputs["tau1"] is not None:
-        echo.append(("τ1", t(inputs["tau1"])))
+    if inputs["slowest_time_constant"] is not None:
+        echo.append(("τ0 (slowest, = τm)", t(inputs["slowest_time_constant"])))
+    if inputs["first_time_constant"] is not None:
+        echo.append(("τ1", t(inputs["first_time_constant"])))
     echo.append(("τ0/τ1", num(inputs["time_constant_ratio"])))
-    if inputs["tau2"] is not None:
-        echo += [("τ2", t(inputs["tau2"])), ("τ0/τ2", num(inputs["second_time_constant_ratio"]))]
-    if inputs["c0"] is not None:
-        echo += [("C0", num(inputs["c0"])), ("C1", num(inputs["c1"]))]
+    if inputs["second_time_constant"] is not None:
+        echo += [("τ2", t(inputs["second_time_constant"])), ("τ0/τ2", num(inputs["second_time_constant_ratio"]))]
+    if inputs["slowest_coefficient"] is not None:
+        echo += [("C0", num(inputs["slowest_coefficient"])), ("C1", num(inputs["first_coefficient"]))]
     if inputs["coefficient_ratio"] is not None:
         echo.append(("C1/C0", num(inputs["coefficient_ratio"])))
     if inputs["input_resistance"] is not None:
@@ -300,14 +307,14 @@ def as_text(inputs: dict[str, Any], e, properties, digits: int = 4) -> str:
                 ("  check τ0/τ1 (forward)", f"{num(s.time_constant_ratio)}  {_residual(s.time_constant_residual)}"),
                 ("  check C1/C0 (forward)", f"{num(s.coefficient_ratio)}  {_residual(s.coefficient_residual)}")]
         tau2 = f"τ0/τ2 = {num(s.second_time_constant_ratio)}"
-        if inputs["tau0"] is not None:
-            tau2 += f", τ2 = {t(inputs['tau0'] / s.second_time_constant_ratio)}"
-        if inputs["tau2"] is not None:
-            tau2 += f" (peeled {t(inputs['tau2'])})"
+        if inputs["slowest_time_constant"] is not None:
+            tau2 += f", τ2 = {t(inputs['slowest_time_constant'] / s.second_time_constant_ratio)}"
+        if inputs["second_time_constant"] is not None:
+            tau2 += f" (peeled {t(inputs['second_time_constant'])})"
         bas.append(("  predicted", tau2))
         c0 = f"C0 = {num(s.coefficients[0])}"
-        if inputs["c0"] is not None:
-            c0 += f" (peeled {num(inputs['c0'])})"
+        if inputs["slowest_coefficient"] is not None:
+            c0 += f" (peeled {num(inputs['slowest_coefficient'])})"
         bas.append(("  predicted", c0))
     blocks.append(table(bas, "Ball and stick: lumped soma + sealed cylinder (Rall 1969)"))
 
