@@ -1059,18 +1059,22 @@ def reference_table(exact: ExactCase, times: ArrayLike, positions: ArrayLike, *,
                           parameters=dict(exact.parameters), stimulus_shape=exact.stimulus_shape)
 
 
-def _meta_lines(table: ReferenceTable) -> list[str]:
+def csv_header(title: str, description: str, method: str, largest_bound: float, caveat: str, stimulus_shape: str,
+               parameters: Mapping[str, tuple[float, str]]) -> str:
+    """The ``#`` comment lines that open every CSV the tool writes (``reference`` and ``charge --csv``):
+    the title, tool version, case, method, largest error bound (V), the assumptions, then every
+    parameter as ``name: SI value SI unit``."""
     lines = [
-        "cabletheory exact reference table",
-        f"tool: cabletheory {table.version}",
-        f"case: {table.description}",
-        f"method: {table.method}",
-        f"largest error bound: {table.largest_bound:.3e} V",
-        f"assumptions: {table.caveat}",
-        f"stimulus_shape: {table.stimulus_shape}",
+        title,
+        f"tool: cabletheory {__version__}",
+        f"case: {description}",
+        f"method: {method}",
+        f"largest error bound: {largest_bound:.3e} V",
+        f"assumptions: {caveat}",
+        f"stimulus_shape: {stimulus_shape}",
     ]
-    lines += [f"{name}: {value!r} {unit}" for name, (value, unit) in table.parameters.items()]
-    return lines
+    lines += [f"{name}: {value!r} {unit}" for name, (value, unit) in parameters.items()]
+    return "".join(f"# {line}\n" for line in lines)
 
 
 def _fmt(x: float) -> str:
@@ -1087,8 +1091,8 @@ def reference_csv(table: ReferenceTable) -> str:
     """CSV text: ``#`` metadata lines, then ``time (ms),V at <x> um (mV),...`` (wide) or
     ``time (ms),position (um),voltage (mV),bound (mV)`` (long). Full double precision."""
     out = io.StringIO()
-    for line in _meta_lines(table):
-        out.write(f"# {line}\n")
+    out.write(csv_header("cabletheory exact reference table", table.description, table.method, table.largest_bound,
+                         table.caveat, table.stimulus_shape, table.parameters))
     writer = csv.writer(out, lineterminator="\n")
     if table.layout == "wide":
         writer.writerow(["time (ms)"] + [f"V at {_fmt_grid(x * 1e6)} um (mV)" for x in table.positions])
@@ -1269,36 +1273,12 @@ def _ms(t: float) -> str:
     return f"{t * 1e3:.6g} ms"
 
 
-def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase:
-    """Any time course of :func:`cabletheory.transient.charge` as an :class:`ExactCase`.
-
-    Parameters
-    ----------
-    model : :class:`~cabletheory.cable.Cylinder` (finite with a sealed, killed or leaky far
-        end; ``length = inf`` for a semi-infinite cable), :class:`~cabletheory.transient.BallAndStick`
-        or :class:`~cabletheory.transient.InfiniteCable`
-    stimulus : :class:`~cabletheory.transient.CurrentStep`, ``CurrentPulse``, ``AlphaCurrent``
-        (at ``position``, m) or ``VoltageStep`` (clamp at the origin; anywhere on an infinite cable)
-    tolerance : V, bound asked for the truncation error of each exact value. It is passed to
-        :func:`~cabletheory.transient.charge` relative to the stimulus's reference voltage, and
-        kept between 1e-13 (the rounding allowance of transient.py) and 1e-2 of it; the bound
-        actually achieved is what ``evaluate`` returns.
-
-    Returns
-    -------
-    ExactCase whose ``evaluate(times, positions)`` returns the exact voltage (V from rest) at
-    each (time, position) pair and the error bound of the :class:`~cabletheory.transient.Response`
-    it came from. Times at or before the onset give exactly 0.
-
-    References
-    ----------
-    Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444; Rall W (1969) Biophys. J. 9:1483
-    (the methods of :mod:`cabletheory.transient`).
-    """
+def describe_case(model: Any, stimulus: Any) -> tuple[str, str, dict[str, tuple[float, str]]]:
+    """A case of :mod:`cabletheory.transient` in words and numbers: its description (model and
+    stimulus), the stimulus's command-line word (step, pulse, alpha, clamp) and its parameters as
+    ``name -> (SI value, SI unit)``, shared by :func:`transient_case` and ``charge --csv``."""
     from . import transient as tr
 
-    if not (math.isfinite(tolerance) and tolerance > 0):
-        raise InputError(f"exact tolerance must be a positive voltage, got {tolerance!r}")
     infinite = isinstance(model, tr.InfiniteCable)
     ball = isinstance(model, tr.BallAndStick)
     cylinder = model.cylinder if ball else model
@@ -1312,9 +1292,7 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
     }
     if infinite:
         shape = "infinite cable"
-        length, start = math.inf, -math.inf
     else:
-        length, start = cylinder.length, 0.0
         params["length"] = (cylinder.length, "m")
         if math.isinf(cylinder.length):
             shape = "semi-infinite cylinder, sealed origin"
@@ -1351,6 +1329,43 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
     else:
         raise InputError(f"unknown stimulus {type(stimulus).__name__}")
     params["stimulus_position"] = (stimulus.position, "m")
+    return f"{shape}, {what}", shape_word, params
+
+
+def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase:
+    """Any time course of :func:`cabletheory.transient.charge` as an :class:`ExactCase`.
+
+    Parameters
+    ----------
+    model : :class:`~cabletheory.cable.Cylinder` (finite with a sealed, killed or leaky far
+        end; ``length = inf`` for a semi-infinite cable), :class:`~cabletheory.transient.BallAndStick`
+        or :class:`~cabletheory.transient.InfiniteCable`
+    stimulus : :class:`~cabletheory.transient.CurrentStep`, ``CurrentPulse``, ``AlphaCurrent``
+        (at ``position``, m) or ``VoltageStep`` (clamp at the origin; anywhere on an infinite cable)
+    tolerance : V, bound asked for the truncation error of each exact value. It is passed to
+        :func:`~cabletheory.transient.charge` relative to the stimulus's reference voltage, and
+        kept between 1e-13 (the rounding allowance of transient.py) and 1e-2 of it; the bound
+        actually achieved is what ``evaluate`` returns.
+
+    Returns
+    -------
+    ExactCase whose ``evaluate(times, positions)`` returns the exact voltage (V from rest) at
+    each (time, position) pair and the error bound of the :class:`~cabletheory.transient.Response`
+    it came from. Times at or before the onset give exactly 0.
+
+    References
+    ----------
+    Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444; Rall W (1969) Biophys. J. 9:1483
+    (the methods of :mod:`cabletheory.transient`).
+    """
+    from . import transient as tr
+
+    if not (math.isfinite(tolerance) and tolerance > 0):
+        raise InputError(f"exact tolerance must be a positive voltage, got {tolerance!r}")
+    infinite = isinstance(model, tr.InfiniteCable)
+    description, shape_word, params = describe_case(model, stimulus)
+    cylinder = model.cylinder if isinstance(model, tr.BallAndStick) else model
+    length, start = (math.inf, -math.inf) if infinite else (cylinder.length, 0.0)
     # the tolerance of transient.charge is relative to its reference voltage; a probe at t = 0 gives it
     probe = tr.charge(model, stimulus, [0.0], [0.0 if infinite else stimulus.position], modes=0)
     reference = probe.reference_voltage
@@ -1391,7 +1406,7 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
                 bound[at] = r.error_bound
         return voltage.reshape(np.shape(times)), bound.reshape(np.shape(times))
 
-    return ExactCase(evaluate=evaluate, description=f"{shape}, {what}", method=method, parameters=params,
+    return ExactCase(evaluate=evaluate, description=description, method=method, parameters=params,
                      length=length, start=start, stimulus_shape=shape_word)
 
 

@@ -48,7 +48,29 @@ def test_ball_and_stick_alpha_and_pulse(capsys):
     status, out, _ = run(capsys, "--length", "500", "--current", "50", "--shape", "pulse", "--duration", "0.5ms",
                          "--at", "100um", "--positions", "0, 100, 300 um", "--csv")
     assert status == 0
-    assert out.splitlines()[0] == "time_s,position_m,voltage_V"
+    rows = [line for line in out.splitlines() if not line.startswith("#")]
+    assert rows[0] == "time_s,position_m,voltage_V"
+
+
+def test_csv_carries_the_parameters_bound_and_caveat(tmp_path, capsys):
+    """charge --csv opens with the same '#' lines as a reference table: every parameter in SI with its
+    unit (20 kΩ·cm² = 2 Ω·m², checks.md §1), the method, the error bound of the values (that of --json)
+    and the passive-membrane caveat; --output writes the same text."""
+    args = ("--length", "500", "--current", "100pA", "--times", "1, 5 ms", "--positions", "0, 250 um")
+    status, out, _ = run(capsys, *args, "--csv")
+    assert status == 0
+    header = [line[2:] for line in out.splitlines() if line.startswith("# ")]
+    assert "membrane_resistivity: 2.0 ohm*m**2" in header
+    assert "stimulus_amplitude: 1e-10 A" in header
+    assert "stimulus_shape: step" in header
+    assert any(line.startswith("method: ") for line in header)
+    assert any(line.startswith("assumptions: ") and "passive" in line for line in header)
+    _, js, _ = run(capsys, *args, "--json")
+    bound = json.loads(js)["error_bound"]["value"]
+    assert f"largest error bound: {bound:.3e} V" in header
+    target = tmp_path / "v.csv"
+    status, _, _ = run(capsys, *args, "--csv", "--output", str(target))
+    assert target.read_text().rstrip("\n") == out.rstrip("\n")
 
 
 def test_infinite_and_semi_infinite_and_clamp(capsys):

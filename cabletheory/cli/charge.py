@@ -53,7 +53,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                      help="significant digits in the human-readable output (default 4)")
     fmt = out.add_mutually_exclusive_group()
     fmt.add_argument("--json", action="store_true", help="print one JSON object with SI values")
-    fmt.add_argument("--csv", action="store_true", help="print CSV rows: time, position, voltage (SI)")
+    fmt.add_argument("--csv", action="store_true",
+                     help="print CSV rows: time, position, voltage (SI), after '#' lines with the parameters, "
+                          "method, error bound and assumptions")
     out.add_argument("--output", metavar="FILE", help="write the JSON/CSV/text to FILE instead of the screen")
     parser.set_defaults(run=run)
 
@@ -85,7 +87,7 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         text = dump_json(as_json(model, stimulus, response))
     elif args.csv:
-        text = as_csv(response)
+        text = as_csv(model, stimulus, response)
     else:
         text = as_text(model, stimulus, response, args.digits)
     if args.output:
@@ -192,9 +194,16 @@ def as_json(model, stimulus, r: Response) -> dict:
     return out
 
 
-def as_csv(r: Response) -> str:
-    """Long-format CSV with SI units in the header: one row per (time, position)."""
+def as_csv(model, stimulus, r: Response) -> str:
+    """Long-format CSV with SI units in the header: one row per (time, position), after the same
+    ``#`` lines as a reference table (parameters with units, method, error bound, assumptions)."""
+    from ..verify import csv_header, describe_case
+
+    description, shape, parameters = describe_case(model, stimulus)
     buffer = io.StringIO()
+    buffer.write(csv_header("cabletheory charge: exact voltage time course", description, r.method,
+                            r.error_bound, PASSIVE_CAVEAT, shape,
+                            {**parameters, "tolerance": (r.tolerance, "1")}))
     writer = csv.writer(buffer, lineterminator="\n")
     writer.writerow(["time_s", "position_m", "voltage_V"])
     for i, t in enumerate(r.times):
