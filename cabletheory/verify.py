@@ -1210,7 +1210,7 @@ def sealed_step_voltage(cylinder: cb.Cylinder, amplitude: float, times: ArrayLik
     X = x / cylinder.length_constant
     scale = abs(amplitude) * cylinder.semi_infinite_input_resistance
     # steady part cosh(L-X)/sinh L, written with exp(-2·) (no overflow for long cables)
-    steady = np.exp(-X) * (1 + np.exp(-2 * (L - X))) / (1 - np.exp(-2 * L))
+    steady = np.exp(-X) * (1 + np.exp(-2 * (L - X))) / -np.expm1(-2 * L)  # expm1: short cables stay accurate
     voltage = np.zeros(t.shape)
     bound = np.zeros(t.shape)
     live = T > 0  # at T = 0 the cable is at rest exactly

@@ -73,3 +73,15 @@ def test_one_segment_is_singular(capsys):
     main(["cable", "--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "5"])
     out, _ = capsys.readouterr()
     assert "Segment advice: 1 equal segment keeps each within 0.1 λ" in out
+
+
+def test_rall_series_of_the_check_agrees_with_the_transients_for_a_very_short_cable():
+    """verify.sealed_step_voltage (Rall 1969 series) and transient.charge are independent codes; for a
+    1 nm cable they must agree within their bounds (both use expm1 for 1 − e^(−2L))."""
+    from cabletheory.verify import sealed_step_voltage
+
+    cyl = cable.Cylinder(2.0, 2.0, 0.01, 2e-6, 1e-9)
+    times = np.array([1e-12, 1e-9, 1e-6]) * cyl.time_constant
+    series, series_bound = sealed_step_voltage(cyl, 1e-10, times, np.zeros(3), 1e-20)
+    exact = transient.charge(cyl, transient.CurrentStep(1e-10), times, [0.0])
+    assert np.all(np.abs(series - exact.voltage[:, 0]) <= series_bound + exact.error_bound)
