@@ -104,9 +104,10 @@ def test_demo_cable_ac(frequency, lambda_f_um, z_inf_mohm, z_inf_deg, z_sealed_m
 
 
 def test_ac_length_constant_published_example():
-    """[PUB 4] teaching note on the AC length constant: radius 1 µm, Rm 50 kΩ·cm², Ri 100 Ω·cm,
-    Cm 1 µF/cm². The note quotes τ = 50 ms, λ_DC ≈ 1500 µm and λ_AC(100 Hz) ≈ 400 µm from the
-    high-frequency approximation; the exact formula gives 392.6442312 µm (checks.md §1.1 [COMP])."""
+    """External worked example of checks.md §1.1 ([PUB 4]; formula Koch 1999 ch. 2 [MEM]): radius
+    1 µm, Rm 50 kΩ·cm², Ri 100 Ω·cm, Cm 1 µF/cm². It quotes τ = 50 ms, λ_DC ≈ 1500 µm and
+    λ_AC(100 Hz) ≈ 400 µm from the high-frequency approximation; the exact formula gives
+    392.6442312 µm (checks.md §1.1 [COMP])."""
     lam = cable.length_constant(5.0, 1.0, 2e-6)
     tau = cable.membrane_time_constant(5.0, 0.01)
     assert float(tau) == pytest.approx(0.050, rel=1e-12)
