@@ -11,8 +11,8 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, RadioSet, Static
 from textual.worker import get_current_worker
 
-from .fields import CABLE_GROUP, CHARGING_FIELDS, MODEL_CHOICES, STIMULUS_CHOICES, STIMULUS_GROUP, charging_fields_used
-from .widgets import ChoiceSet, CurvePlot, QuantityField, QuantityList
+from .fields import CHARGING_FIELDS, charging_fields_used
+from .widgets import ChoiceSet, CurvePlot, QuantityField, QuantityList, case_form, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
     from .forms import ChargingSetup
@@ -42,14 +42,7 @@ class ChargingView(Vertical):
         with Horizontal(classes="columns"):
             with VerticalScroll(classes="form", id="charging-form", can_focus=False):
                 yield Static("exact transients", classes="form-title")
-                yield Label("model  (ctrl+b cycles)", classes="group-label")
-                yield ChoiceSet(MODEL_CHOICES, "cylinder", id=f"{PREFIX}model")
-                for name in CABLE_GROUP:
-                    yield QuantityField(_SPECS[name], prefix=PREFIX)
-                yield Label("stimulus  (ctrl+n cycles)", classes="group-label")
-                yield ChoiceSet(STIMULUS_CHOICES, "step", id=f"{PREFIX}stimulus")
-                for name in STIMULUS_GROUP:
-                    yield QuantityField(_SPECS[name], prefix=PREFIX)
+                yield from case_form(PREFIX, _SPECS)
                 yield Label("curves", classes="group-label")
                 for name in CURVE_GROUP:
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
@@ -112,8 +105,7 @@ class ChargingView(Vertical):
             self.workers.cancel_group(self, "solve")
             self.report = None
             self._busy(False)
-            results.update(f"Results wait for valid inputs ({len(errors)} field"
-                           f"{'s' if len(errors) > 1 else ''} flagged).")
+            results.update(waiting_message(errors))
             for plot in self.query(CurvePlot):
                 plot.spec = None
             return

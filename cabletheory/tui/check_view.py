@@ -12,8 +12,8 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 from textual.worker import get_current_worker
 
-from .fields import CABLE_GROUP, CHECK_FIELDS, MODEL_CHOICES, STIMULUS_CHOICES, STIMULUS_GROUP, check_fields_used
-from .widgets import ChoiceSet, CurvePlot, QuantityField, QuantityList
+from .fields import CHECK_FIELDS, check_fields_used
+from .widgets import ChoiceSet, CurvePlot, QuantityField, QuantityList, case_form, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
     from .forms import CheckSetup
@@ -61,14 +61,7 @@ class CheckView(Vertical):
             with VerticalScroll(classes="form", id="check-form", can_focus=False):
                 yield Static("simulator against the exact answer", classes="form-title")
                 yield QuantityField(_SPECS["file"], prefix=PREFIX, value=self.initial_file)
-                yield Label("model  (ctrl+b cycles)", classes="group-label")
-                yield ChoiceSet(MODEL_CHOICES, "cylinder", id=f"{PREFIX}model")
-                for name in CABLE_GROUP:
-                    yield QuantityField(_SPECS[name], prefix=PREFIX)
-                yield Label("stimulus  (ctrl+n cycles)", classes="group-label")
-                yield ChoiceSet(STIMULUS_CHOICES, "step", id=f"{PREFIX}stimulus")
-                for name in STIMULUS_GROUP:
-                    yield QuantityField(_SPECS[name], prefix=PREFIX)
+                yield from case_form(PREFIX, _SPECS)
                 yield Label("the file", classes="group-label")
                 for name in ("rest", "onset", "tolerance"):
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
@@ -164,8 +157,7 @@ class CheckView(Vertical):
             field.flag(errors.get(name))
         if setup is None:
             self.workers.cancel_group(self, "compare")
-            self._clear(f"Results wait for valid inputs ({len(errors)} field{'s' if len(errors) > 1 else ''} "
-                        "flagged).")
+            self._clear(waiting_message(errors))
             return
         self._busy(True)
         self.compare(setup)

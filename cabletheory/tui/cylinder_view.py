@@ -10,7 +10,7 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 
 from .fields import CABLE_FIELDS, END_CHOICES
-from .widgets import CurvePlot, QuantityField, QuantityList
+from .widgets import CurvePlot, QuantityField, QuantityList, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
     from .report import Report
@@ -94,8 +94,7 @@ class CylinderView(Vertical):
         results = self.query_one("#cylinder-results", QuantityList)
         if cylinder is None:
             self.report = None
-            results.update(f"Results wait for valid inputs ({len(errors)} field"
-                           f"{'s' if len(errors) > 1 else ''} flagged).")
+            results.update(waiting_message(errors))
             self.query_one(CurvePlot).spec = None
             return
         try:

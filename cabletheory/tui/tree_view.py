@@ -14,7 +14,7 @@ from textual.widgets import Input, Label, RadioButton, RadioSet, Static, Tree
 from textual.worker import get_current_worker
 
 from .fields import DEMO_SWC, TREE_FIELDS, bundled_morphologies
-from .widgets import CurvePlot, QuantityField, QuantityList
+from .widgets import CurvePlot, QuantityField, QuantityList, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
     from .format import OutlineNode
@@ -127,8 +127,7 @@ class TreeView(Vertical):
             field.flag(errors.get(name))
         if setup is None:
             self.workers.cancel_group(self, "audit")
-            self._clear(f"Results wait for valid inputs ({len(errors)} field{'s' if len(errors) > 1 else ''} "
-                        "flagged).")
+            self._clear(waiting_message(errors))
             return
         self._busy(True)
         self.audit(setup)

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING
 
 from rich.text import Text
@@ -11,7 +11,7 @@ from textual.reactive import reactive
 from textual.widget import Widget
 from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 
-from .fields import FieldSpec
+from .fields import CABLE_GROUP, MODEL_CHOICES, STIMULUS_CHOICES, STIMULUS_GROUP, FieldSpec
 
 if TYPE_CHECKING:  # pragma: no cover
     from .report import PlotSpec, Row
@@ -148,3 +148,22 @@ class ChoiceSet(RadioSet):
         keys = list(self.choices)
         following = keys[(keys.index(self.choice) + 1) % len(keys)]
         self.query_one(f"#{self.id}-{following}", RadioButton).value = True
+
+
+def case_form(prefix: str, specs: Mapping[str, FieldSpec]) -> ComposeResult:
+    """The model and stimulus part of a form (shared by the charging and check views): a model
+    choice with the cable fields, then a stimulus choice with its fields, as in ``cli/case.py``."""
+    yield Label("model  (ctrl+b cycles)", classes="group-label")
+    yield ChoiceSet(MODEL_CHOICES, "cylinder", id=f"{prefix}model")
+    for name in CABLE_GROUP:
+        yield QuantityField(specs[name], prefix=prefix)
+    yield Label("stimulus  (ctrl+n cycles)", classes="group-label")
+    yield ChoiceSet(STIMULUS_CHOICES, "step", id=f"{prefix}stimulus")
+    for name in STIMULUS_GROUP:
+        yield QuantityField(specs[name], prefix=prefix)
+
+
+def waiting_message(errors: Mapping[str, str]) -> str:
+    """What a results panel says while some fields are flagged."""
+    count = len(errors)
+    return f"Results wait for valid inputs ({count} field{'s' if count > 1 else ''} flagged)."
