@@ -10,6 +10,7 @@ plain mpmath loop (timed on a sample and scaled up) and a compartmental solve
 from __future__ import annotations
 
 import time
+import tracemalloc
 
 import mpmath as mp
 import numpy as np
@@ -53,6 +54,12 @@ def main() -> None:
     elapsed = time.perf_counter() - start
     print(f"step response, sealed cylinder L = {L}: {values.size:,} points in {elapsed:.3f} s ({method})")
     print(f"  reported truncation bound: {bound.max():.2e} (units of I·R∞; tolerance 1e-10 × coth L)")
+    tracemalloc.start()
+    current_response(X, 0.0, T, L, B)
+    peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.stop()
+    print(f"  peak memory of the evaluation: {peak / 1e6:.0f} MB ({peak / values.size:.0f} bytes per point; "
+          "the result and its bound take 16)")
 
     rng = np.random.default_rng(1)
     rows = rng.integers(0, T.size, 40)

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import sys
 import time
+import tracemalloc
 
 import numpy as np
 
@@ -77,6 +78,13 @@ def main() -> int:
         print(f"  {size:>8}  {t_parse * 1e3:8.1f} ms  {t_analysis * 1e3:8.1f} ms  {t_analysis / size * 1e6:7.2f} µs"
               f"  {len(report.branch_points.ids):>10}  {len(report.tips.ids):>6}  "
               f"{report.input_resistance / 1e6:.4g} MΩ")
+    text = generate_swc(100_000)
+    tracemalloc.start()
+    analyse_tree(tree_from_swc(parse_swc(text, "generated.swc")), 2.0, 2.0)
+    peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.stop()
+    print(f"  peak memory of parse + analysis at 100,000 points: {peak / 1e6:.1f} MB "
+          f"({peak / 100_000:.0f} bytes per point; tracemalloc)")
     growth = per_point[-1] / per_point[0]
     print(f"  time per point, largest vs smallest size: x{growth:.2f} (1.0 = linear)")
     ok = at_goal is not None and at_goal <= GOAL_SECONDS
