@@ -34,8 +34,10 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -334,12 +336,7 @@ def _parse_swc_lines(text: str, source: str) -> SwcPoints:
     if not ids:
         raise FileFormatError(f"{source}: no points (the file is empty or holds only comments); "
                               "expected SWC lines 'id type x y z radius parent'")
-    index: dict[int, int] = {}
-    for i, point_id in enumerate(ids):
-        if point_id in index:
-            raise FileFormatError(f"{source}:{lines[i]}: duplicate id {point_id} (first defined at line "
-                                  f"{lines[index[point_id]]})")
-        index[point_id] = i
+    index = _first_positions(ids, lines, source, lambda point_id: f"id {point_id}")
     parents: list[int] = []
     for i, p in enumerate(parent_ids):
         if p == -1:
@@ -350,6 +347,18 @@ def _parse_swc_lines(text: str, source: str) -> SwcPoints:
             raise FileFormatError(f"{source}:{lines[i]}: parent {p} of point {ids[i]} is not defined "
                                   "anywhere in the file")
     return _ordered_points(source, ids, types, coords, parents, lines)
+
+
+def _first_positions(keys: list[Any], lines: list[int], source: str,
+                     describe: Callable[[Any], str]) -> dict[Any, int]:
+    """Map each key to its position; a key seen twice is an error naming both lines."""
+    index: dict[Any, int] = {}
+    for i, key in enumerate(keys):
+        if key in index:
+            raise FileFormatError(f"{source}:{lines[i]}: duplicate {describe(key)} (first defined at line "
+                                  f"{lines[index[key]]})")
+        index[key] = i
+    return index
 
 
 def _is_float(token: str) -> bool:
@@ -451,12 +460,7 @@ def parse_section_list(text: str, source: str = "<tree>") -> SectionList:
     if not names:
         raise FileFormatError(f"{source}: no sections (the file is empty or holds only comments); expected "
                               "lines 'name parent length diameter'")
-    index: dict[str, int] = {}
-    for i, name in enumerate(names):
-        if name in index:
-            raise FileFormatError(f"{source}:{lines[i]}: duplicate section name {name!r} (first defined at "
-                                  f"line {lines[index[name]]})")
-        index[name] = i
+    index = _first_positions(names, lines, source, lambda name: f"section name {name!r}")
     parents: list[int] = []
     for i, p in enumerate(parent_names):
         if p.lower() == ROOT:
