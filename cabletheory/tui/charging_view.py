@@ -12,7 +12,7 @@ from textual.widgets import Input, Label, RadioSet, Static
 from textual.worker import get_current_worker
 
 from .fields import CHARGING_FIELDS, charging_fields_used
-from .widgets import ChoiceSet, CurvePlot, QuantityField, QuantityList, case_form, waiting_message
+from .widgets import CaseChoices, CurvePlot, QuantityField, QuantityList, case_form, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
     from .forms import ChargingSetup
@@ -23,12 +23,13 @@ CURVE_GROUP = ("span", "watch", "moments")
 _SPECS = {spec.name: spec for spec in CHARGING_FIELDS}
 
 
-class ChargingView(Vertical):
+class ChargingView(CaseChoices, Vertical):
     """Model and stimulus on the left; time constants, error bound, V(t) and V(X) on the right.
 
     The solver runs in a worker thread; the result panel says "computing" meanwhile.
     """
 
+    case_prefix = PREFIX
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("ctrl+b", "next_model", "next model"),
         Binding("ctrl+n", "next_stimulus", "next stimulus"),
@@ -60,14 +61,6 @@ class ChargingView(Vertical):
             self.active = True
             self.refresh_results()
 
-    @property
-    def model_choice(self) -> str:
-        return self.query_one(f"#{PREFIX}model", ChoiceSet).choice
-
-    @property
-    def stimulus_choice(self) -> str:
-        return self.query_one(f"#{PREFIX}stimulus", ChoiceSet).choice
-
     def on_input_changed(self, event: Input.Changed) -> None:
         event.stop()
         if self.active:
@@ -77,12 +70,6 @@ class ChargingView(Vertical):
         event.stop()
         if self.active:
             self.refresh_results()
-
-    def action_next_model(self) -> None:
-        self.query_one(f"#{PREFIX}model", ChoiceSet).cycle()
-
-    def action_next_stimulus(self) -> None:
-        self.query_one(f"#{PREFIX}stimulus", ChoiceSet).cycle()
 
     def action_run(self) -> None:
         self.active = True

@@ -13,7 +13,7 @@ from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 from textual.worker import get_current_worker
 
 from .fields import CHECK_FIELDS, check_fields_used
-from .widgets import ChoiceSet, CurvePlot, QuantityField, QuantityList, case_form, waiting_message
+from .widgets import CaseChoices, CurvePlot, QuantityField, QuantityList, case_form, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
     from .forms import CheckSetup
@@ -23,13 +23,14 @@ PREFIX = "ck-"
 _SPECS = {spec.name: spec for spec in CHECK_FIELDS}
 
 
-class CheckView(Vertical):
+class CheckView(CaseChoices, Vertical):
     """Simulator file and exact case on the left; verdict, worst point and error plot on the right.
 
     The model and stimulus are chosen as in the charging view (same fields, same keys) and mean
     what the ``compare`` command's case options mean.
     """
 
+    case_prefix = PREFIX
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("ctrl+b", "next_model", "next model"),
         Binding("ctrl+n", "next_stimulus", "next stimulus"),
@@ -106,14 +107,6 @@ class CheckView(Vertical):
         if self.query_one(f"#{PREFIX}file", Input).value.strip():
             self.refresh_results()
 
-    @property
-    def model_choice(self) -> str:
-        return self.query_one(f"#{PREFIX}model", ChoiceSet).choice
-
-    @property
-    def stimulus_choice(self) -> str:
-        return self.query_one(f"#{PREFIX}stimulus", ChoiceSet).choice
-
     def _show_fields(self) -> set[str]:
         """Show only the fields the chosen model and stimulus read; return their names."""
         used = check_fields_used(self.model_choice, self.stimulus_choice)
@@ -129,12 +122,6 @@ class CheckView(Vertical):
         self._show_fields()
         if self.query_one(f"#{PREFIX}file", Input).value.strip():
             self.refresh_results()
-
-    def action_next_model(self) -> None:
-        self.query_one(f"#{PREFIX}model", ChoiceSet).cycle()
-
-    def action_next_stimulus(self) -> None:
-        self.query_one(f"#{PREFIX}stimulus", ChoiceSet).cycle()
 
     def action_next_axis(self) -> None:
         target = "axis-time" if self.axis == "space" else "axis-space"

@@ -150,6 +150,27 @@ class ChoiceSet(RadioSet):
         self.query_one(f"#{self.id}-{following}", RadioButton).value = True
 
 
+class CaseChoices:
+    """The model and stimulus choices (and their ctrl+b / ctrl+n actions) of a view whose form
+    holds :func:`case_form` composed with the view's ``case_prefix``."""
+
+    case_prefix: str = ""
+
+    @property
+    def model_choice(self) -> str:
+        return self.query_one(f"#{self.case_prefix}model", ChoiceSet).choice  # type: ignore[attr-defined]
+
+    @property
+    def stimulus_choice(self) -> str:
+        return self.query_one(f"#{self.case_prefix}stimulus", ChoiceSet).choice  # type: ignore[attr-defined]
+
+    def action_next_model(self) -> None:
+        self.query_one(f"#{self.case_prefix}model", ChoiceSet).cycle()  # type: ignore[attr-defined]
+
+    def action_next_stimulus(self) -> None:
+        self.query_one(f"#{self.case_prefix}stimulus", ChoiceSet).cycle()  # type: ignore[attr-defined]
+
+
 def case_form(prefix: str, specs: Mapping[str, FieldSpec]) -> ComposeResult:
     """The model and stimulus part of a form (shared by the charging and check views): a model
     choice with the cable fields, then a stimulus choice with its fields, as in ``cli/case.py``."""
