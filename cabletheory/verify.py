@@ -280,7 +280,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
             if label in _VOLTAGE_NAMES:
                 if site is None or len(site_cols) != 1:
                     raise FileFormatError(f"{where}: column does not say where it was recorded; name it by "
-                                          "its position ('V at 250 um (mV)') or give --site")
+                                          "its position ('V at 250 um (mV)') or give --column-at")
                 position = float(site)
             else:
                 m = _SITE.match(label)
@@ -859,7 +859,7 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
         peak = float(np.max(np.abs(v_exact)))
         if not peak > 0:
             raise InputError(f"the exact voltage at the site ({where!r} m) stays at rest (a killed end?), so a "
-                             "relative error means nothing there; choose another --site")
+                             "relative error means nothing there; choose another --read-at")
         exact = complex(peak)
         space_target = target * space_share
         # a Crank–Nicolson Δt whose own time error is negligible beside both shares, found on a

@@ -46,8 +46,8 @@ def test_tree_advice(capsys) -> None:
     [
         (["--target", "150%"], "--target"),
         (["--target", "0.1%", "--parents=-1,0", "--lengths", "1,2", "--diameters", "1"], "either"),
-        (["--quantity", "time-course", "--target", "1%", "--site", "900um"], "site"),
-        (["--quantity", "time-course", "--target", "1%", "--end", "killed"], "--site: a killed end stays at rest"),
+        (["--quantity", "time-course", "--target", "1%", "--read-at", "900um"], "--read-at"),
+        (["--quantity", "time-course", "--target", "1%", "--end", "killed"], "--read-at: a killed end stays at rest"),
     ],
 )
 def test_bad_advice_requests(argv: list[str], fragment: str, capsys) -> None:
@@ -55,7 +55,7 @@ def test_bad_advice_requests(argv: list[str], fragment: str, capsys) -> None:
     assert fragment in capsys.readouterr().err
 
 
-@pytest.mark.parametrize("extra", [["--end", "killed", "--site", "250um"], ["--end", "1nS"],
+@pytest.mark.parametrize("extra", [["--end", "killed", "--read-at", "250um"], ["--end", "1nS"],
                                    ["--soma-diameter", "20um"]])
 def test_time_course_advice_for_any_end_and_a_soma(extra: list[str], capsys) -> None:
     """Exact time course from cabletheory.transient (Rall 1969 series / images): the advised count meets

@@ -34,7 +34,7 @@ def test_human_output_echoes_inputs_and_gives_units(capsys):
 
 
 def test_json_keys_and_si_values(capsys):
-    status, out, _ = run(capsys, [*ISSUE_EXAMPLE, "--frequency", "100 Hz", "--at", "0, 250, 500 um", "--json"])
+    status, out, _ = run(capsys, [*ISSUE_EXAMPLE, "--frequency", "100 Hz", "--positions", "0, 250, 500 um", "--json"])
     assert status == 0
     data = json.loads(out)
     for key in ("length_constant", "membrane_time_constant", "electrotonic_length",
@@ -85,10 +85,10 @@ def test_semi_infinite_and_killed_and_leaky(capsys):
         (["--length", "0"], "--length: '0' is zero"),
         (["--Ri", "nan"], "--Ri: 'nan' is not a number"),
         (["--Cm", "inf"], "--Cm: 'inf' must be finite"),
-        (["--end", "floppy"], "--end: 'floppy' is neither 'sealed', 'killed' nor an end conductance"),
+        (["--end", "floppy"], "--end: 'floppy' is not 'sealed', 'killed' or a conductance to rest"),
         (["--end", "-1nS"], "--end"),
         (["--frequency", "3 mV"], "--frequency: '3 mV' is a voltage, expected a frequency"),
-        (["--at", "0, 600 um"], "--at: 600.0 µm lies beyond the cable's length 500.0 µm"),
+        (["--positions", "0, 600 um"], "--positions: 600.0 µm lies beyond the cable's length 500.0 µm"),
         (["--diameter", "2 parsecs/s"], "--diameter"),
         (["--bogus"], "unrecognized arguments: --bogus"),
     ],

@@ -46,7 +46,7 @@ def test_ball_and_stick_alpha_and_pulse(capsys):
     assert "steady_state" not in data
     assert data["conductance_ratio"]["value"] > 0
     status, out, _ = run(capsys, "--length", "500", "--current", "50", "--shape", "pulse", "--duration", "0.5ms",
-                         "--at", "100um", "--positions", "0, 100, 300 um", "--csv")
+                         "--stimulus-at", "100um", "--positions", "0, 100, 300 um", "--csv")
     assert status == 0
     rows = [line for line in out.splitlines() if not line.startswith("#")]
     assert rows[0] == "time_s,position_m,voltage_V"
@@ -74,8 +74,8 @@ def test_csv_carries_the_parameters_bound_and_caveat(tmp_path, capsys):
 
 
 def test_infinite_and_semi_infinite_and_clamp(capsys):
-    status, out, _ = run(capsys, "--infinite", "--current", "100pA", "--at", "0", "--positions", "-100, 100 um",
-                         "--times", "20ms", "--json")
+    status, out, _ = run(capsys, "--infinite", "--current", "100pA", "--stimulus-at", "0",
+                         "--positions", "-100, 100 um", "--times", "20ms", "--json")
     assert status == 0
     v = json.loads(out)["voltage"]["value"][0]
     assert v[0] == pytest.approx(v[1], rel=1e-14)
@@ -90,14 +90,14 @@ def test_infinite_and_semi_infinite_and_clamp(capsys):
 @pytest.mark.parametrize("args", [
     ["--length", "500", "--current", "1nF"],
     ["--length", "500", "--current", "10", "--shape", "pulse"],
-    ["--length", "500", "--voltage", "10", "--at", "5um"],
-    ["--length", "500", "--current", "10", "--at", "600um"],
+    ["--length", "500", "--voltage", "10", "--stimulus-at", "5um"],
+    ["--length", "500", "--current", "10", "--stimulus-at", "600um"],
     ["--length", "500", "--current", "10", "--positions", "0, 700 um"],
     ["--infinite", "--length", "500", "--current", "10"],
     ["--current", "10"],
     ["--length", "500", "--current", "10", "--times", "-1 ms"],
     ["--length", "inf", "--soma-diameter", "10", "--current", "10"],
-    ["--length", "500", "--current", "10", "--tolerance", "2"],
+    ["--length", "500", "--current", "10", "--truncation", "2"],
 ])
 def test_bad_input_is_one_line_and_status_2(capsys, args):
     status, out, err = run(capsys, *args)

@@ -13,7 +13,7 @@ from cabletheory.cable import Cylinder
 from cabletheory.cli import main
 
 UM, MS = 1e-6, 1e-3
-CASE_ARGS = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "500", "--amplitude", "100pA"]
+CASE_ARGS = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "500", "--current", "100pA"]
 DEMO = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM)
 
 
@@ -34,7 +34,7 @@ def test_known_offset_is_reported_and_judged(tmp_path, capsys) -> None:
     """A +7 µV offset on the exact solution: max and RMS error 7 µV; 10 µV passes, 5 µV fails."""
     run = write_run(tmp_path / "run.csv", offset_uv=7.0, rest_mv=-65.0)
     report = tmp_path / "report.json"
-    assert main(["compare", str(run), *CASE_ARGS, "--rest", "-65 mV", "--tolerance", "10 uV",
+    assert main(["compare", str(run), *CASE_ARGS, "--rest", "-65 mV", "--pass-within", "10 uV",
                  "--report", str(report)]) == 0
     data = json.loads(report.read_text())
     result = data["runs"][0]
@@ -42,10 +42,10 @@ def test_known_offset_is_reported_and_judged(tmp_path, capsys) -> None:
     assert result["rms_abs_error"]["value"] == pytest.approx(7e-6, rel=1e-6)
     assert result["passed"] is True
     assert "max error  7.00 µV" in capsys.readouterr().out
-    assert main(["compare", str(run), *CASE_ARGS, "--rest", "-65 mV", "--tolerance", "5 uV"]) == 1
+    assert main(["compare", str(run), *CASE_ARGS, "--rest", "-65 mV", "--pass-within", "5 uV"]) == 1
     capsys.readouterr()
     # 'first' needs a sample at or before the onset; this file starts after it
-    assert main(["compare", str(run), *CASE_ARGS, "--rest", "first", "--tolerance", "1%"]) == 2
+    assert main(["compare", str(run), *CASE_ARGS, "--rest", "first", "--pass-within", "1%"]) == 2
     assert "line 2: the first sample at this site is after the stimulus onset" in capsys.readouterr().err
 
 
@@ -72,7 +72,7 @@ def test_report_never_overwrites_an_input(tmp_path) -> None:
 def test_several_runs_give_an_order(tmp_path, capsys) -> None:
     """Errors ∝ Δx² by construction (offsets 16, 4, 1 µV at Δx 50, 25, 12.5 µm): observed order 2."""
     runs = [str(write_run(tmp_path / f"r{i}.csv", offset_uv=o)) for i, o in enumerate((16.0, 4.0, 1.0))]
-    status = main(["compare", *runs, *CASE_ARGS, "--tolerance", "2 uV", "--dx", "50, 25, 12.5 um",
+    status = main(["compare", *runs, *CASE_ARGS, "--pass-within", "2 uV", "--dx", "50, 25, 12.5 um",
                    "--dt", "0.01, 0.01, 0.01 ms", "--json"])
     assert status == 1  # the two coarse runs miss 2 µV
     data = json.loads(capsys.readouterr().out)
@@ -94,19 +94,19 @@ def _transient_cases() -> dict:
     return {
         "pulse, killed end": (Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM, float("inf")),
                               tr.CurrentPulse(200e-12, 1 * MS, 200 * UM),
-                              [*base, "--length", "500", "--end", "killed", "--stimulus", "pulse", "--current",
-                               "200 pA", "--duration", "1 ms", "--at", "200 um"]),
+                              [*base, "--length", "500", "--end", "killed", "--shape", "pulse", "--current",
+                               "200 pA", "--duration", "1 ms", "--stimulus-at", "200 um"]),
         "alpha, leaky end": (Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM, 1e-9),
                              tr.AlphaCurrent(50e-12, 0.5 * MS, 100 * UM),
-                             [*base, "--length", "500", "--end", "1 nS", "--stimulus", "alpha", "--current", "50pA",
-                              "--time-to-peak", "0.5 ms", "--at", "100 um"]),
+                             [*base, "--length", "500", "--end", "1 nS", "--shape", "alpha", "--current", "50pA",
+                              "--time-to-peak", "0.5 ms", "--stimulus-at", "100 um"]),
         "voltage clamp, semi-infinite": (Cylinder(2.0, 2.0, 0.01, 2 * UM, float("inf")), tr.VoltageStep(10e-3),
                                          [*base, "--length", "inf", "--voltage", "10 mV"]),
         "ball and stick, step at the soma": (tr.BallAndStick(DEMO, soma), tr.CurrentStep(100e-12, 0.0),
                                              [*base, "--length", "500", "--soma-diameter", "20 um",
                                               "--current", "100 pA"]),
         "infinite, alpha at 0": (tr.InfiniteCable(2.0, 2.0, 0.01, 2 * UM), tr.AlphaCurrent(100e-12, 1 * MS),
-                                 [*base, "--infinite", "--stimulus", "alpha", "--time-to-peak", "1ms",
+                                 [*base, "--infinite", "--shape", "alpha", "--time-to-peak", "1ms",
                                   "--current", "100 pA"]),
     }
 
@@ -128,7 +128,7 @@ def test_known_spike_in_every_transient_case(tmp_path, capsys, name: str) -> Non
     rows = [f"{t / MS:g}," + ",".join(repr(float(u * 1e3)) for u in row) for t, row in zip(times, v, strict=True)]
     run = tmp_path / "run.csv"
     run.write_text("\n".join([header, *rows]) + "\n", encoding="utf-8")
-    assert main(["compare", str(run), *args, "--tolerance", "8 uV", "--json"]) == 0
+    assert main(["compare", str(run), *args, "--pass-within", "8 uV", "--json"]) == 0
     result = json.loads(capsys.readouterr().out)["runs"][0]
     n = v.size
     assert result["max_abs_error"]["value"] == pytest.approx(7e-6, rel=1e-6)
@@ -136,19 +136,20 @@ def test_known_spike_in_every_transient_case(tmp_path, capsys, name: str) -> Non
     assert result["worst"]["time"]["value"] == pytest.approx(3 * MS)
     assert result["worst"]["position"]["value"] == pytest.approx(sites[1])
     assert result["worst"]["line"] == 7
-    assert main(["compare", str(run), *args, "--tolerance", "6.5 uV"]) == 1
+    assert main(["compare", str(run), *args, "--pass-within", "6.5 uV"]) == 1
     out = capsys.readouterr().out
     assert "max error  7.00 µV" in out
     assert "verdict    FAIL" in out
 
 
 @pytest.mark.parametrize(("extra", "message"), [
-    (["--length", "500", "--stimulus", "pulse"], "--shape pulse needs --duration"),
-    (["--length", "500", "--time-to-peak", "1ms"], "--time-to-peak applies to --shape alpha"),
-    (["--infinite", "--length", "500"], "an infinite cable has no --length"),
-    (["--length", "inf", "--soma-diameter", "20"], "a ball and stick needs a finite --length"),
-    (["--length", "500", "--voltage", "5mV", "--at", "100um"], "a voltage clamp on a cylinder"),
-    (["--length", "500", "--at", "501um"], "--at: 501.0 µm lies beyond the cable's end"),
+    (["--length", "500", "--shape", "pulse"], "--duration: missing; give the pulse duration"),
+    (["--length", "500", "--time-to-peak", "1ms"], "--time-to-peak: only an alpha current has a time to peak"),
+    (["--infinite", "--length", "500"], "--length: an infinite cable has no length"),
+    (["--length", "inf", "--soma-diameter", "20"], "--length: a ball and stick needs a finite cylinder length"),
+    (["--length", "500", "--voltage", "5mV", "--stimulus-at", "100um"], "a voltage clamp on a cylinder"),
+    (["--length", "500", "--current", "1 pA", "--stimulus-at", "501um"],
+     "--stimulus-at: 501 µm lies outside the cell (0 to 500 µm)"),
 ])
 def test_bad_case_options_give_one_line(tmp_path, capsys, extra: list[str], message: str) -> None:
     run = write_run(tmp_path / "run.csv")
@@ -166,6 +167,6 @@ def test_worst_time_is_given_from_the_onset_and_on_the_file_clock(capsys) -> Non
     """The Tidewater coarse run records from 0 with the stimulus at 1 ms: its worst point, 250 µs after
     the onset, is the file's row at 1.25 ms (line 11)."""
     coarse = "worked/simulator_check/coarse.csv"
-    main(["compare", coarse, *CASE_ARGS, "--rest", "-62 mV", "--onset", "1 ms", "--tolerance", "20 uV"])
+    main(["compare", coarse, *CASE_ARGS, "--rest", "-62 mV", "--onset", "1 ms", "--pass-within", "20 uV"])
     out = capsys.readouterr().out
     assert "at 0 µm, 250.0 µs after onset (1.250 ms in the file; line 11: simulated" in out

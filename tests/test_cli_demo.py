@@ -15,8 +15,8 @@ def test_demo_runs_every_step(capsys):
     # a coarse simulator run that fails and a refined one that passes
     assert "Verdict: REDUCIBLE" in out
     assert "Verdict: NOT reducible" in out
-    assert "FAIL (tolerance 20.0 µV)" in out
-    assert "PASS (tolerance 20.0 µV)" in out
+    assert "FAIL (pass within 20.0 µV)" in out
+    assert "PASS (pass within 20.0 µV)" in out
     assert "Equalising time constants" in out
     # peeling step 2's charging curve recovers the 20 µm soma and the 2 µm x 500 µm dendrite of step 1
     assert "soma diameter (sphere of that area)             20.00 µm" in out

@@ -11,7 +11,7 @@ import pytest
 from cabletheory.cli import main
 
 # a cable with L = 1: λ = 707.1067812 µm for the checks.md §1 demo properties
-L1 = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "707.1067811865476um", "--amplitude", "1 nA"]
+L1 = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "707.1067811865476um", "--current", "1 nA"]
 R_INF = 450.1581581e6  # Ω, checks.md §1 [COMP]
 FINAL = 1e-9 * R_INF / math.tanh(1.0)  # V(0,∞) = I R∞ coth L (Rall 1959)
 
@@ -86,7 +86,7 @@ def test_infinite_cable_off_centre_input(tmp_path) -> None:
     """Input at 100 µm of an infinite cable; sites 100 ± λ: V/V(0,∞) = 0.2336124405 at T = 1, the
     injection site erf(1) = 0.8427007929 (Hodgkin & Rushton 1946; checks.md §2.4 [COMP])."""
     sites = f"{100 - LAMBDA_UM!r}, 100, {100 + LAMBDA_UM!r} um"
-    data = table_of(tmp_path, ["--infinite", "--at", "100 um", "--current", "1nA", "--times", "20 ms",
+    data = table_of(tmp_path, ["--infinite", "--stimulus-at", "100 um", "--current", "1nA", "--times", "20 ms",
                                "--positions", sites])
     v = np.array(data["voltage"]["value"])[0] / (0.5e-9 * R_INF)
     assert v == pytest.approx([0.2336124405, 0.8427007929, 0.2336124405], abs=1e-9)
@@ -101,7 +101,7 @@ def test_pulse_alpha_and_clamp_tables(tmp_path) -> None:
     far end 1/cosh 1 = 0.6480542737 at late times (checks.md §1); an alpha current's voltage starts at
     0, rises and, with nothing injected after it, decays (Rall 1967 [MEM])."""
     length = ["--length", f"{LAMBDA_UM!r}um"]
-    pulse = table_of(tmp_path, [*length, "--stimulus", "pulse", "--duration", "8 ms", "--current", "1nA",
+    pulse = table_of(tmp_path, [*length, "--shape", "pulse", "--duration", "8 ms", "--current", "1nA",
                                 "--times", "2, 10 ms", "--positions", "0"])
     assert np.array(pulse["voltage"]["value"])[:, 0] / FINAL == pytest.approx(
         [0.2629635738, 0.5374585210 - 0.2629635738], abs=1e-9)
@@ -109,8 +109,8 @@ def test_pulse_alpha_and_clamp_tables(tmp_path) -> None:
                                 f"{LAMBDA_UM!r} um"])
     assert clamp["voltage"]["value"][0][0] == pytest.approx(-10e-3 * 0.6480542737, rel=1e-9)
     assert "voltage-clamp step" in clamp["case"]
-    alpha = table_of(tmp_path, [*length, "--end", "killed", "--stimulus", "alpha", "--time-to-peak", "1 ms",
-                                "--current", "100pA", "--at", "300 um", "--times", "0:200:2 ms",
+    alpha = table_of(tmp_path, [*length, "--end", "killed", "--shape", "alpha", "--time-to-peak", "1 ms",
+                                "--current", "100pA", "--stimulus-at", "300 um", "--times", "0:200:2 ms",
                                 "--positions", "300 um"])
     v = np.array(alpha["voltage"]["value"])[:, 0]
     assert v[0] == 0.0
@@ -124,8 +124,8 @@ def test_pulse_alpha_and_clamp_tables(tmp_path) -> None:
 
 def test_semi_infinite_csv_header(tmp_path, capsys) -> None:
     """Semi-infinite cable (--length inf), step at 100 µm; the CSV header names clean positions."""
-    assert main(["reference", *BASE, "--length", "inf", "--at", "100um", "--current", "100pA", "--times", "0:2:1 ms",
-                 "--positions", "0, 0.2, 500 um"]) == 0
+    assert main(["reference", *BASE, "--length", "inf", "--stimulus-at", "100um", "--current", "100pA",
+                 "--times", "0:2:1 ms", "--positions", "0, 0.2, 500 um"]) == 0
     out = capsys.readouterr().out
     assert "# case: semi-infinite cylinder, sealed origin, current step at x = 100 µm" in out
     assert "# length: inf m" in out
@@ -135,19 +135,19 @@ def test_semi_infinite_csv_header(tmp_path, capsys) -> None:
 
 @pytest.mark.parametrize(("extra", "message"), [
     (["--length", "500", "--positions", "-10, 0 um"], "--positions"),
-    (["--length", "500", "--stimulus", "alpha"], "--shape alpha needs --time-to-peak"),
-    (["--length", "500", "--duration", "1ms", "--stimulus", "alpha", "--time-to-peak", "1ms"],
-     "--duration applies to --shape pulse, not alpha"),
-    (["--length", "500", "--stimulus", "clamp"], "--shape clamp needs --voltage"),
+    (["--length", "500", "--shape", "alpha"], "--time-to-peak: missing; give the time to peak"),
+    (["--length", "500", "--duration", "1ms", "--shape", "alpha", "--time-to-peak", "1ms"],
+     "--duration: only a pulse has a duration"),
+    (["--length", "500", "--shape", "clamp"], "--current: a voltage clamp injects no set current"),
     (["--length", "500", "--voltage", "5 mV", "--current", "5 pA"], "--current: a voltage clamp"),
-    (["--length", "500", "--stimulus", "step", "--voltage", "5 mV"], "--voltage applies to a voltage clamp"),
+    (["--length", "500", "--shape", "step", "--voltage", "5 mV"], "--voltage: a voltage is the amplitude of a clamp"),
     (["--infinite", "--soma-diameter", "20um"], "--soma-diameter"),
     (["--infinite", "--end", "killed"], "--end: an infinite cable has no far end"),
     (["--length", "inf", "--end", "2 nS"], "--end: a semi-infinite cable"),
-    (["--positions", "0"], "--length: give the cable length"),
-    (["--length", "500", "--at", "-5 um"], "--at"),
-    (["--length", "500", "--stimulus", "pulse", "--duration", "-1 ms"], "--duration"),
-    (["--length", "500", "--stimulus", "wave"], "invalid choice"),
+    (["--positions", "0"], "--length: missing; give the cylinder length"),
+    (["--length", "500", "--stimulus-at", "-5 um"], "--stimulus-at"),
+    (["--length", "500", "--shape", "pulse", "--duration", "-1 ms"], "--duration"),
+    (["--length", "500", "--shape", "wave"], "invalid choice"),
 ])
 def test_bad_option_combinations(tmp_path, capsys, extra: list[str], message: str) -> None:
     out = tmp_path / "x.csv"
@@ -166,10 +166,10 @@ def test_bad_option_combinations(tmp_path, capsys, extra: list[str], message: st
 
 def test_charge_spelling_of_the_stimulus(tmp_path) -> None:
     """'--shape pulse' (the charge command's spelling) is the same option as '--stimulus pulse'."""
-    args = ["--length", "500", "--duration", "1ms", "--current", "100pA", "--at", "200um",
+    args = ["--length", "500", "--duration", "1ms", "--current", "100pA", "--stimulus-at", "200um",
             "--times", "0.5, 2 ms", "--positions", "0, 200"]
     one = table_of(tmp_path, [*args, "--shape", "pulse"])
-    two = table_of(tmp_path, [*args, "--stimulus", "pulse"])
+    two = table_of(tmp_path, [*args, "--shape", "pulse"])
     assert one["voltage"] == two["voltage"]
     assert "current pulse of 1 ms at x = 200 µm" in one["case"]
 
@@ -185,7 +185,7 @@ def test_the_stimulus_is_required_by_every_case_command(tmp_path, capsys, comman
              "compare": [str(sim), "--report", str(out)], "charge": ["--output", str(out)]}[command]
     assert main([command, *BASE, "--length", "500", *extra]) == 2
     err = capsys.readouterr().err
-    assert err.startswith("cabletheory: error: --current/--voltage: no stimulus given")
+    assert err.startswith("cabletheory: error: --current: missing; give the stimulus current")
     assert err.count("\n") == 1
     assert not out.exists()
 
@@ -212,7 +212,7 @@ def test_like_a_file_that_records_before_the_onset(tmp_path) -> None:
     assert main(["reference", *L1, "--rest", "-62 mV", "--onset", "1 ms", "--like", str(sim),
                  "--output", str(ref_csv)]) == 0
     report = tmp_path / "report.json"
-    assert main(["compare", str(ref_csv), *L1, "--onset", "1 ms", "--tolerance", "1e-12 mV",
+    assert main(["compare", str(ref_csv), *L1, "--onset", "1 ms", "--pass-within", "1e-12 mV",
                  "--report", str(report)]) == 0
     assert json.loads(report.read_text())["runs"][0]["max_abs_error"]["value"] < 1e-15
 
@@ -221,7 +221,7 @@ def test_one_stimulus_naming_in_charge_reference_and_compare(tmp_path, capsys) -
     """The same command line gives the same JSON "stimulus" object (the --shape word, amplitude,
     position, duration) in charge, reference and compare, and every command says "assumptions"."""
     case = [*BASE, "--length", "500", "--shape", "pulse", "--current", "200 pA", "--duration", "1 ms",
-            "--at", "100 um"]
+            "--stimulus-at", "100 um"]
     assert main(["charge", *case, "--times", "2 ms", "--positions", "0", "--json"]) == 0
     charged = json.loads(capsys.readouterr().out)
     ref = table_of(tmp_path, [*case[len(BASE):], "--times", "2 ms", "--positions", "0"])

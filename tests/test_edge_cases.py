@@ -41,7 +41,7 @@ def test_very_short_cable_stays_within_its_error_bound(length):
         (["cable", "--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "inf", "--end", "killed"],
          "--end: a semi-infinite cable (--length inf) has no far end"),
         (["cable", "--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "5", "--digits", "99"],
-         "cable: argument --digits: 99 is not between 2 and 12"),
+         "cable: argument --digits: 99 is not between 2 and 15"),
     ],
 )
 def test_absurd_or_contradictory_input_is_one_line_status_2(capsys, argv, message):

@@ -60,7 +60,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                              "input-resistance or impedance")
     parser.add_argument("--target", default="1%", metavar="ERROR",
                         help="largest relative error, e.g. 1%% or 0.001 (default 1%%)")
-    parser.add_argument("--site", metavar="X", help="where attenuation/time-course is read (default: far end)")
+    parser.add_argument("--read-at", metavar="X", help="where attenuation/time-course is read (default: far end)")
     parser.add_argument("--frequency", default="100 Hz", metavar="F", help="for impedance (default 100 Hz)")
     parser.add_argument("--times", default="0:2:0.05 ms", metavar="RANGE",
                         help="sample times for time-course, e.g. '0:2:0.05 ms' (default)")
@@ -164,7 +164,7 @@ def run(args: argparse.Namespace) -> int:
         if not (args.diameter and args.length):
             raise InputError("one cable needs --diameter and --length (or give a tree)")
         cylinder = read_cylinder(args)
-        site = parse_quantity(args.site, "length", "--site", allow_zero=True) if args.site else None
+        site = parse_quantity(args.read_at, "length", "--read-at", allow_zero=True) if args.read_at else None
         exact_course = times = None
         if args.quantity == "time-course":
             times = np.array(parse_series(args.times, "time", "--times"))
@@ -187,10 +187,10 @@ def _exact_time_course(cylinder, soma_diameter, site):
 
     where = cylinder.length if site is None else site
     if not 0 <= where <= cylinder.length:
-        raise InputError(f"--site: {format_quantity(where, 'length')} lies outside the cable")
+        raise InputError(f"--read-at: {format_quantity(where, 'length')} lies outside the cable")
     if math.isinf(cylinder.end_conductance) and where >= cylinder.length:
-        raise InputError("--site: a killed end stays at rest, so a relative error means nothing there; "
-                         "choose a --site inside the cable")
+        raise InputError("--read-at: a killed end stays at rest, so a relative error means nothing there; "
+                         "choose a --read-at inside the cable")
     model = tr.BallAndStick(cylinder, soma_diameter) if soma_diameter else cylinder
 
     def course(t):

@@ -25,7 +25,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     add_cable_options(parser)
     parser.add_argument("--frequency", metavar="F",
                         help="also give the impedance and AC length constant at this frequency (bare: Hz)")
-    parser.add_argument("--at", metavar="POSITIONS",
+    parser.add_argument("--positions", metavar="POSITIONS",
                         help="distances from the origin for the voltage profile: a list '0, 100, 200 um' "
                              "or a range '0:500:50 um' (bare: µm)")
     parser.add_argument("--rule-fraction", default="0.1", metavar="FRACTION",
@@ -34,7 +34,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.add_argument("--rule-frequency", default="100 Hz", metavar="F",
                         help="segment advice (rule of thumb): frequency whose λ sets the segment size "
                              "(default 100 Hz)")
-    parser.add_argument("--digits", type=whole_number(2, 12), default=4, metavar="N",
+    parser.add_argument("--digits", type=whole_number(2, 15), default=4, metavar="N",
                         help="significant digits in the human-readable output (default 4)")
     parser.add_argument("--json", action="store_true", help="print one JSON object with SI values")
     parser.set_defaults(run=run)
@@ -52,11 +52,11 @@ def run(args: argparse.Namespace) -> int:
         raise InputError(f"--rule-fraction: {args.rule_fraction!r} exceeds 1; expected e.g. 0.1")
     advice_frequency = parse_quantity(args.rule_frequency, "frequency", "--rule-frequency")
     positions: list[float] = []
-    if args.at is not None:
-        positions = parse_series(args.at, "length", "--at")
+    if args.positions is not None:
+        positions = parse_series(args.positions, "length", "--positions")
         beyond = [p for p in positions if p > cylinder.length]
         if beyond:
-            raise InputError(f"--at: {format_quantity(beyond[0], 'length')} lies beyond the cable's length "
+            raise InputError(f"--positions: {format_quantity(beyond[0], 'length')} lies beyond the cable's length "
                              f"{format_quantity(cylinder.length, 'length')}")
     summary = summarise(cylinder, positions, frequency, fraction, advice_frequency)
     print(dump_json(as_json(summary)) if args.json else as_text(summary, args.digits))

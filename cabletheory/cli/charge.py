@@ -10,19 +10,21 @@ import math
 import numpy as np
 
 from .. import PASSIVE_CAVEAT
+from ..case import Case
 from ..errors import InputError
-from ..transient import (
-    AlphaCurrent,
-    BallAndStick,
-    CurrentPulse,
-    InfiniteCable,
-    Response,
-    VoltageStep,
-    charge,
+from ..transient import AlphaCurrent, CurrentPulse, Response, VoltageStep, charge
+from ..units import format_quantity, parse_series
+from .case import add_case_options, read_case_options
+from .common import (
+    add_truncation_option,
+    dump_json,
+    echo_cylinder,
+    quantity,
+    read_truncation,
+    table,
+    whole_number,
+    write_atomically,
 )
-from ..units import format_quantity, parse_quantity, parse_series
-from .case import add_case_options, read_model, read_stimulus
-from .common import dump_json, echo_cylinder, quantity, table, whole_number, write_atomically
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -42,9 +44,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     out.add_argument("--positions", metavar="POSITIONS",
                      help="where to report the voltage: a list or range with units (bare: µm; default the "
                           "stimulus site)")
-    out.add_argument("--tolerance", default="1e-10", metavar="REL",
-                     help="truncation error allowed, relative to the final voltage at the stimulus site "
-                          "(default 1e-10)")
+    add_truncation_option(out, "1e-10")
     out.add_argument("--precision", type=whole_number(16, 100), metavar="DIGITS",
                      help="evaluate with mpmath at this many digits instead of numpy (slow; for checks)")
     out.add_argument("--modes", type=whole_number(0, 50), default=5, metavar="N",
@@ -61,35 +61,23 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    model = read_model(args)
-    infinite = isinstance(model, InfiniteCable)
-    stimulus = read_stimulus(args, model)
-    cylinder = model.cylinder if isinstance(model, BallAndStick) else model
-    length = math.inf if infinite else cylinder.length
-    tau = cylinder.time_constant
+    case = read_case_options(args, args.positions)
+    if not case.positions:
+        case = case.with_positions([case.stimulus.position])
+    tau = case.membrane_time_constant
     default_times = list(np.linspace(0.0, 2 * tau, 11))
     times = default_times if args.times is None else parse_series(args.times, "time", "--times")
-    if args.positions is None:
-        positions = [stimulus.position]
-    else:
-        positions = parse_series(args.positions, "length", "--positions", allow_negative=infinite)
-        beyond = [p for p in positions if p > length]
-        if beyond:
-            raise InputError(f"--positions: {format_quantity(beyond[0], 'length')} lies beyond the cable's length "
-                             f"{format_quantity(length, 'length')}")
-    tolerance = parse_quantity(args.tolerance, "dimensionless", "--tolerance")
-    if not tolerance < 1:
-        raise InputError(f"--tolerance: {args.tolerance!r} must be below 1, e.g. 1e-10")
-    if len(times) * len(positions) > 2_000_000:
+    if len(times) * len(case.positions) > 2_000_000:
         raise InputError("--times/--positions: more than 2 000 000 grid points; use fewer")
-    response = charge(model, stimulus, times, positions, tolerance=tolerance, precision=args.precision,
-                      modes=args.modes)
+    tolerance = read_truncation(args.truncation, case)
+    response = charge(case.cell, case.stimulus, times, case.positions, tolerance=tolerance,
+                      precision=args.precision, modes=args.modes)
     if args.json:
-        text = dump_json(as_json(model, stimulus, response))
+        text = dump_json(as_json(case, response))
     elif args.csv:
-        text = as_csv(model, stimulus, response)
+        text = as_csv(case, response)
     else:
-        text = as_text(model, stimulus, response, args.digits)
+        text = as_text(case, response, args.digits)
     if args.output:
         write_atomically(args.output, text if text.endswith("\n") else text + "\n")
     else:
@@ -97,23 +85,13 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _model_name(model) -> str:
-    if isinstance(model, InfiniteCable):
-        return "infinite cable"
-    if isinstance(model, BallAndStick):
-        return "ball and stick"
-    return "semi-infinite cylinder" if math.isinf(model.length) else "finite cylinder"
+_CELL_NAMES = {"infinite": "infinite cable", "ball-and-stick": "ball and stick"}
 
 
-def _shape(stimulus) -> str:
-    """The command line's word for the stimulus (``--shape``)."""
-    if isinstance(stimulus, VoltageStep):
-        return "clamp"
-    if isinstance(stimulus, CurrentPulse):
-        return "pulse"
-    if isinstance(stimulus, AlphaCurrent):
-        return "alpha"
-    return "step"
+def _cell_name(case: Case) -> str:
+    if case.kind == "cylinder":
+        return "semi-infinite cylinder" if math.isinf(case.length) else "finite cylinder"
+    return _CELL_NAMES[case.kind]
 
 
 def _stimulus_rows(stimulus, digits: int = 4) -> list[tuple[str, str]]:
@@ -134,44 +112,11 @@ def _stimulus_rows(stimulus, digits: int = 4) -> list[tuple[str, str]]:
     return rows
 
 
-def as_json(model, stimulus, r: Response) -> dict:
-    """The response as one JSON object; every quantity is ``{"value": SI, "unit": SI unit}``."""
-    if isinstance(model, InfiniteCable):
-        cable = {
-            "membrane_resistivity": quantity(model.membrane_resistivity, "membrane_resistivity"),
-            "axial_resistivity": quantity(model.axial_resistivity, "axial_resistivity"),
-            "membrane_capacitance": quantity(model.membrane_capacitance, "membrane_capacitance"),
-            "diameter": quantity(model.diameter, "length"),
-        }
-    else:
-        c = model.cylinder if isinstance(model, BallAndStick) else model
-        cable = {
-            "membrane_resistivity": quantity(c.membrane_resistivity, "membrane_resistivity"),
-            "axial_resistivity": quantity(c.axial_resistivity, "axial_resistivity"),
-            "membrane_capacitance": quantity(c.membrane_capacitance, "membrane_capacitance"),
-            "diameter": quantity(c.diameter, "length"),
-            "length": quantity(c.length, "length"),
-            "end_conductance": quantity(c.end_conductance, "conductance"),
-        }
-        if isinstance(model, BallAndStick):
-            cable["soma_diameter"] = quantity(model.soma_diameter, "length")
-    # the keys of the "stimulus" object of reference and compare (cabletheory.verify.split_stimulus);
-    # an alpha current's amplitude is its peak
-    stim: dict = {"shape": _shape(stimulus)}
-    if isinstance(stimulus, VoltageStep):
-        stim["amplitude"] = quantity(stimulus.amplitude, "voltage")
-    elif isinstance(stimulus, AlphaCurrent):
-        stim["amplitude"] = quantity(stimulus.peak, "current")
-    else:
-        stim["amplitude"] = quantity(stimulus.amplitude, "current")
-    stim["position"] = quantity(stimulus.position, "length")
-    if isinstance(stimulus, CurrentPulse):
-        stim["duration"] = quantity(stimulus.duration, "time")
-    if isinstance(stimulus, AlphaCurrent):
-        stim["time_to_peak"] = quantity(stimulus.time_to_peak, "time")
+def as_json(case: Case, r: Response) -> dict:
+    """The response as one JSON object; every quantity is ``{"value": SI, "unit": SI unit}``; ``inputs``
+    holds the case in the form of :meth:`cabletheory.case.Case.to_json`."""
     out: dict = {
-        "inputs": {"model": _model_name(model), "cable": cable, "stimulus": stim,
-                   "tolerance": quantity(r.tolerance, "dimensionless"),
+        "inputs": {**case.to_json(), "truncation": quantity(r.tolerance, "dimensionless"),
                    "precision_digits": r.precision},
         "length_constant": quantity(r.length_constant, "length"),
         "membrane_time_constant": quantity(r.membrane_time_constant, "time"),
@@ -185,8 +130,9 @@ def as_json(model, stimulus, r: Response) -> dict:
         "method": r.method,
         "assumptions": PASSIVE_CAVEAT,
     }
-    if isinstance(model, BallAndStick):
-        out["conductance_ratio"] = quantity(model.conductance_ratio, "dimensionless")
+    parameters = case.parameters()
+    if "conductance_ratio" in parameters:
+        out["conductance_ratio"] = quantity(parameters["conductance_ratio"][0], "dimensionless")
     if r.steady_state is not None:
         out["steady_state"] = quantity(r.steady_state, "voltage")
     if r.notes:
@@ -194,16 +140,15 @@ def as_json(model, stimulus, r: Response) -> dict:
     return out
 
 
-def as_csv(model, stimulus, r: Response) -> str:
+def as_csv(case: Case, r: Response) -> str:
     """Long-format CSV with SI units in the header: one row per (time, position), after the same
     ``#`` lines as a reference table (parameters with units, method, error bound, assumptions)."""
-    from ..verify import csv_header, describe_case
+    from ..verify import csv_header
 
-    description, shape, parameters = describe_case(model, stimulus)
     buffer = io.StringIO()
-    buffer.write(csv_header("cabletheory charge: exact voltage time course", description, r.method,
-                            r.error_bound, PASSIVE_CAVEAT, shape,
-                            {**parameters, "tolerance": (r.tolerance, "1")}))
+    buffer.write(csv_header("cabletheory charge: exact voltage time course", case.describe(), r.method,
+                            r.error_bound, PASSIVE_CAVEAT, case.shape,
+                            {**case.parameters(), "truncation": (r.tolerance, "1")}))
     writer = csv.writer(buffer, lineterminator="\n")
     writer.writerow(["time_s", "position_m", "voltage_V"])
     for i, t in enumerate(r.times):
@@ -212,31 +157,34 @@ def as_csv(model, stimulus, r: Response) -> str:
     return buffer.getvalue().rstrip("\n")
 
 
-def as_text(model, stimulus, r: Response, digits: int = 4) -> str:
+def as_text(case: Case, r: Response, digits: int = 4) -> str:
     """A readable report: inputs echoed with units, the voltage table, time constants, bound, caveat."""
 
     def fmt(value: float, kind: str) -> str:
         return format_quantity(value, kind, digits)
 
-    if isinstance(model, InfiniteCable):
-        echo = [("Rm (specific membrane resistance)", fmt(model.membrane_resistivity, "membrane_resistivity")),
-                ("Ri (axial resistivity)", fmt(model.axial_resistivity, "axial_resistivity")),
-                ("Cm (specific membrane capacitance)", fmt(model.membrane_capacitance, "membrane_capacitance")),
-                ("diameter", fmt(model.diameter, "length")), ("length", "infinite (both directions)")]
+    cylinder = case.cylinder
+    stimulus = case.stimulus
+    if cylinder is None:
+        m = case.membrane
+        echo = [("Rm (specific membrane resistance)", fmt(m.membrane_resistivity, "membrane_resistivity")),
+                ("Ri (axial resistivity)", fmt(m.axial_resistivity, "axial_resistivity")),
+                ("Cm (specific membrane capacitance)", fmt(m.membrane_capacitance, "membrane_capacitance")),
+                ("diameter", fmt(m.diameter, "length")), ("length", "infinite (both directions)")]
     else:
-        c = model.cylinder if isinstance(model, BallAndStick) else model
-        echo = echo_cylinder(c)
-        if isinstance(model, BallAndStick):
-            echo.append(("soma diameter (sphere)", fmt(model.soma_diameter, "length")))
+        echo = echo_cylinder(cylinder)
+    parameters = case.parameters()
+    if "soma_diameter" in parameters:
+        echo.append(("soma diameter (sphere)", fmt(parameters["soma_diameter"][0], "length")))
     echo += _stimulus_rows(stimulus, digits)
-    echo.append(("tolerance (relative)", f"{r.tolerance:g}"))
+    echo.append(("truncation (relative)", f"{r.tolerance:g}"))
     if r.precision is not None:
         echo.append(("precision", f"mpmath, {r.precision} digits"))
-    blocks = [table(echo, f"Inputs ({_model_name(model)})")]
+    blocks = [table(echo, f"Inputs ({_cell_name(case)})")]
     derived = [("length constant λ", fmt(r.length_constant, "length")),
                ("membrane time constant τm", fmt(r.membrane_time_constant, "time"))]
-    if isinstance(model, BallAndStick):
-        derived.append(("conductance ratio ρ = G_D/G_S", fmt(model.conductance_ratio, "dimensionless")))
+    if "conductance_ratio" in parameters:
+        derived.append(("conductance ratio ρ = G_D/G_S", fmt(parameters["conductance_ratio"][0], "dimensionless")))
     blocks.append(table(derived, "Cable"))
     blocks.append(_voltage_table(r, digits))
     if r.time_constants.size:

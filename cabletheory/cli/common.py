@@ -64,17 +64,11 @@ def whole_number(low: int, high: int):
 
 
 def parse_end(text: str) -> float:
-    """'sealed' -> 0, 'killed' -> inf, otherwise a conductance in S (bare numbers in nS)."""
-    word = text.strip().lower()
-    if word in ("sealed", "open"):
-        return 0.0
-    if word in ("killed", "short", "shorted", "clamped"):
-        return math.inf
-    try:
-        return parse_quantity(text, "conductance", "--end", allow_zero=True, allow_inf=True)
-    except InputError as exc:
-        raise InputError(f"--end: {text!r} is neither 'sealed', 'killed' nor an end conductance such as "
-                         f"0.5nS ({exc})") from None
+    """The ``--end`` option: 'sealed' -> 0, 'killed' -> inf, else a conductance in S (bare numbers in nS);
+    the one far-end reader of :func:`cabletheory.inputs.read_end`."""
+    from ..inputs import read_end
+
+    return read_end(text, "--end")
 
 
 def read_cylinder(args: argparse.Namespace) -> Cylinder:
@@ -171,3 +165,46 @@ def write_atomically(path: str | os.PathLike[str], data: str | bytes, *,
             os.unlink(tmp)
         raise
     return target
+
+
+def add_truncation_option(group: argparse._ActionsContainer, default: str) -> None:
+    """``--truncation``: the error allowed in the exact series, absolute or relative (one meaning in
+    ``charge``, ``reference`` and ``compare``)."""
+    group.add_argument("--truncation", default=default, metavar="ERR",
+                       help="truncation error allowed in every exact value: a voltage such as '1e-9 mV' "
+                            "(absolute), or a plain number or percentage such as 1e-10, relative to the "
+                            "case's reference voltage (the final voltage at the stimulus site of a step of "
+                            f"the same amplitude; the clamp step for a clamp) (default {default})")
+
+
+def _truncation(text: str) -> tuple[float, bool]:
+    """(value, relative): a plain number or a percentage is relative, anything else a voltage."""
+    raw = text.strip()
+    if raw.endswith("%"):
+        return parse_quantity(raw[:-1], "dimensionless", "--truncation") / 100.0, True
+    try:
+        return float(raw), True
+    except ValueError:
+        return parse_quantity(raw, "voltage", "--truncation"), False
+
+
+def read_truncation(text: str, case: Any) -> float:
+    """The ``--truncation`` text as a fraction of the case's reference voltage, in (0, 1)."""
+    value, relative = _truncation(text)
+    if relative:
+        if not (math.isfinite(value) and 0 < value < 1):
+            raise InputError(f"--truncation: {text.strip()!r} must lie between 0 and 1 (or be a voltage such "
+                             "as '1e-9 mV')")
+        return value
+    reference = case.reference_voltage
+    if not reference > 0:
+        raise InputError("--truncation: the case's reference voltage is 0; give a relative truncation such as 1e-10")
+    return min(value / reference, 1e-2)
+
+
+def read_truncation_voltage(text: str, case: Any) -> float:
+    """The ``--truncation`` text as an absolute voltage bound (V)."""
+    value, relative = _truncation(text)
+    if not relative:
+        return value
+    return read_truncation(text, case) * case.reference_voltage

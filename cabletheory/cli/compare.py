@@ -14,7 +14,14 @@ from ..verify import Comparison, Convergence, ExactCase, Recording, compare, con
 from .advise import parse_relative
 from .case import add_case_options
 from .common import dump_json, quantity, write_atomically
-from .reference import add_exact_tolerance, add_layout_options, build_case, parser_for_quantities, read_run
+from .reference import (
+    add_exact_truncation,
+    add_layout_options,
+    check_recorded_positions,
+    exact_from_options,
+    parser_for_quantities,
+    read_run,
+)
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -24,16 +31,16 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         description="Read one or more simulator output files (long or wide CSV, see docs/verify.md), evaluate "
                     "the exact solution at exactly the recorded points and report max/RMS absolute and "
                     "relative errors, where and when the worst error occurs, and a verdict against "
-                    "--tolerance. With several runs, estimate the observed order of convergence in space "
+                    "--pass-within. With several runs, estimate the observed order of convergence in space "
                     "and time. Exit status: 0 every run within tolerance, 1 some run outside it, 2 bad input.",
         epilog=PASSIVE_CAVEAT,
     )
     parser.add_argument("runs", nargs="+", metavar="RUN.csv", help="simulator output files, coarse to fine")
     add_case_options(parser)
-    add_exact_tolerance(parser)
+    add_exact_truncation(parser)
     add_layout_options(parser)
     check = parser.add_argument_group("verdict and convergence")
-    check.add_argument("--tolerance", default="1%", metavar="TOL",
+    check.add_argument("--pass-within", default="1%", metavar="ERR",
                        help="largest acceptable error: a voltage such as '10 uV' or a percentage of the peak "
                             "exact voltage such as '1%%' (default 1%%)")
     check.add_argument("--dx", metavar="LIST", help="segment length of each run, e.g. '50, 25, 12.5 um' "
@@ -47,15 +54,12 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.set_defaults(run=run)
 
 
-def _tolerance(text: str) -> tuple[float, bool]:
+def _pass_within(text: str) -> tuple[float, bool]:
+    """(threshold, relative): a percentage of the peak exact voltage, or a voltage (bare: mV)."""
     raw = text.strip()
     if raw.endswith("%"):
-        return parse_relative(raw, "--tolerance"), True
-    try:
-        return parse_quantity(raw, "voltage", "--tolerance"), False
-    except InputError:
-        pass
-    return parse_relative(raw, "--tolerance"), True  # a bare fraction such as 0.01
+        return parse_relative(raw, "--pass-within"), True
+    return parse_quantity(raw, "voltage", "--pass-within"), False
 
 
 def _list(text: str | None, kind: str, field: str, count: int) -> np.ndarray:
@@ -68,9 +72,11 @@ def _list(text: str | None, kind: str, field: str, count: int) -> np.ndarray:
 
 
 def run(args: argparse.Namespace) -> int:
-    tolerance, relative = _tolerance(args.tolerance)
-    case = build_case(args)
+    tolerance, relative = _pass_within(args.pass_within)
+    cell_case, case = exact_from_options(args)
     recordings = [read_run(path, args) for path in args.runs]
+    for recording in recordings:
+        check_recorded_positions(cell_case, recording)
     results = [compare(r, case, tolerance, relative=relative) for r in recordings]
     order: Convergence | None = None
     if len(recordings) > 1:
@@ -112,8 +118,8 @@ def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparis
                       "exact": quantity(c.worst_exact, "voltage")},
             "sites": quantity(c.sites, "length"),
             "site_max_abs_error": quantity(c.site_max_abs_error, "voltage"),
-            "tolerance": c.tolerance if c.relative else quantity(c.tolerance, "voltage"),
-            "tolerance_is_relative": c.relative,
+            "pass_within": c.tolerance if c.relative else quantity(c.tolerance, "voltage"),
+            "pass_within_is_relative": c.relative,
             "passed": c.passed,
             "exact_error_bound": quantity(c.reference_bound, "voltage"),
         })
@@ -181,7 +187,7 @@ def as_text(case: ExactCase, recordings: list[Recording], results: list[Comparis
             f"  exact values accurate to {_v(c.reference_bound)}",
         ]
         limit = f"{c.tolerance * 100:.3g} % of the peak" if c.relative else _v(c.tolerance)
-        lines.append(f"  verdict    {'PASS' if c.passed else 'FAIL'} (tolerance {limit})")
+        lines.append(f"  verdict    {'PASS' if c.passed else 'FAIL'} (pass within {limit})")
     if order is not None:
         lines += ["", f"Observed order of convergence ({order.scheme}):"]
         for e in order.estimates:

@@ -20,7 +20,7 @@ def _data(name: str) -> str:
 
 CELL = ["--Rm", "20 kΩ·cm²", "--Ri", "200 Ω·cm", "--Cm", "1 µF/cm²"]
 DENDRITE = [*CELL, "--diameter", "2 µm", "--length", "500 µm", "--end", "sealed"]
-RUN = [*DENDRITE, "--amplitude", "100 pA", "--rest", "-62 mV", "--onset", "1 ms", "--tolerance", "20 uV"]
+RUN = [*DENDRITE, "--current", "100 pA", "--rest", "-62 mV", "--onset", "1 ms", "--pass-within", "20 uV"]
 
 
 def steps() -> list[tuple[str, list[str]]]:
@@ -29,7 +29,7 @@ def steps() -> list[tuple[str, list[str]]]:
         ("A mantle-edge interneuron's main dendrite, 2 µm across and 500 µm long, sealed at its tip: "
          "how far does a steady signal from the soma reach, and what does it look like at 100 Hz?",
          ["cable", "--Rm", "20 kΩ·cm²", "--Ri", "200 Ω·cm", "--Cm", "1 µF/cm²", "--diameter", "2 µm",
-          "--length", "500 µm", "--end", "sealed", "--frequency", "100 Hz", "--at", "0:500:125 µm"]),
+          "--length", "500 µm", "--end", "sealed", "--frequency", "100 Hz", "--positions", "0:500:125 µm"]),
         ("The same dendrite with its 20 µm soma: after a 100 pA step at the soma, how fast do the soma and the "
          "dendrite's tip charge, and which time constants would peeling the soma's curve reveal?",
          ["charge", *DENDRITE, "--soma-diameter", "20 µm", "--current", "100 pA", "--times", "0:40:5 ms",

@@ -9,6 +9,7 @@ from pathlib import Path
 import numpy as np
 
 from .. import PASSIVE_CAVEAT
+from ..case import Case, CaseFieldError
 from ..errors import InputError, MissingFileError
 from ..units import format_quantity, parse_quantity, parse_series
 from ..verify import (
@@ -21,29 +22,32 @@ from ..verify import (
     reference_npz,
     reference_table,
 )
-from .case import add_case_options, read_model, read_stimulus
-from .common import write_atomically
+from .case import add_case_options, read_case_options
+from .common import add_truncation_option, read_truncation_voltage, write_atomically
 
 FORMATS = ("csv", "json", "npz")
 
 
-def add_exact_tolerance(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("--exact-tolerance", default="1e-9 mV", metavar="V",
-                        help="bound on the exact solution's own error (default 1e-9 mV)")
+def add_exact_truncation(parser: argparse.ArgumentParser) -> None:
+    """``--truncation`` with the default of the commands that compare against the exact solution."""
+    add_truncation_option(parser, "1e-9 mV")
 
 
-def build_case(args: argparse.Namespace) -> ExactCase:
-    """The exact case the options describe (the rule of :func:`cabletheory.verify.exact_case`)."""
+def exact_from_options(args: argparse.Namespace, positions: str | None = None) -> tuple[Case, ExactCase]:
+    """The case the options describe and its exact solution (the rule of
+    :func:`cabletheory.verify.exact_case`)."""
     from ..verify import exact_case
 
-    tolerance = parse_quantity(args.exact_tolerance, "voltage", "--exact-tolerance")
-    model = read_model(args)
-    return exact_case(model, read_stimulus(args, model), tolerance)
+    case = read_case_options(args, positions)
+    return case, exact_case(case.cell, case.stimulus, read_truncation_voltage(args.truncation, case))
 
 
-def allows_negative_positions(args: argparse.Namespace) -> bool:
-    """Positions below 0 make sense only on an infinite cable."""
-    return bool(getattr(args, "infinite", False))
+def check_recorded_positions(case: Case, recording: Recording) -> None:
+    """Refuse a simulator file whose positions lie off the case's cell (the case's own rule)."""
+    try:
+        case.check_positions(recording.positions.tolist())
+    except CaseFieldError as exc:
+        raise InputError(f"{recording.name}: {exc}") from None
 
 
 def parser_for_quantities(text: str, kind: str, where: str) -> float:
@@ -66,11 +70,12 @@ def read_run(path: str, args: argparse.Namespace) -> Recording:
             args.rest, "voltage", "--rest", allow_zero=True, allow_negative=True)
     onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) \
         if getattr(args, "onset", None) else 0.0
-    site = parse_quantity(args.site, "length", "--site", allow_zero=True) if getattr(args, "site", None) else None
+    site = (parse_quantity(args.column_at, "length", "--column-at", allow_zero=True, allow_negative=True)
+            if getattr(args, "column_at", None) else None)
     return read_recording(text, path, parser_for_quantities, time_unit=args.time_unit,
                           position_unit=args.position_unit, voltage_unit=args.voltage_unit,
                           resting_potential=rest, time_offset=onset, site=site,
-                          allow_negative_positions=allows_negative_positions(args))
+                          allow_negative_positions=True)
 
 
 def add_layout_options(parser: argparse.ArgumentParser) -> None:
@@ -83,8 +88,8 @@ def add_layout_options(parser: argparse.ArgumentParser) -> None:
                        help="resting potential to subtract, e.g. '-65 mV', or 'first' to use each site's "
                             "first sample (default 0: the file already holds deviations from rest)")
     group.add_argument("--onset", metavar="T", help="stimulus onset in the file's clock (default 0)")
-    group.add_argument("--site", metavar="X", help="position of the only voltage column of a wide table "
-                                                   "whose header does not say it")
+    group.add_argument("--column-at", metavar="X", help="position of the only voltage column of a wide table "
+                                                        "whose header does not say it")
 
 
 def on_file_clock(table: ReferenceTable, since_onset: np.ndarray, onset: float) -> ReferenceTable:
@@ -109,7 +114,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         epilog=PASSIVE_CAVEAT,
     )
     add_case_options(parser)
-    add_exact_tolerance(parser)
+    add_exact_truncation(parser)
     grid = parser.add_argument_group("grid")
     grid.add_argument("--times", metavar="RANGE", help="times since onset: '0:20:0.5 ms' or '1, 2, 5 ms'")
     grid.add_argument("--positions", metavar="RANGE", help="recording positions: '0:500:100 um' or '0, 250 um'")
@@ -125,13 +130,14 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    case = build_case(args)
+    if args.like and (args.times or args.positions):
+        raise InputError("give either --like FILE or --times/--positions, not both")
+    cell_case, case = exact_from_options(args, args.positions)
     inputs: list[str] = []
     onset = 0.0
     if args.like:
-        if args.times or args.positions:
-            raise InputError("give either --like FILE or --times/--positions, not both")
         recording = read_run(args.like, args)
+        check_recorded_positions(cell_case, recording)
         inputs.append(args.like)
         if recording.layout == "wide":
             times = np.unique(recording.times)
@@ -144,8 +150,7 @@ def run(args: argparse.Namespace) -> int:
         if not (args.times and args.positions):
             raise InputError("give --times and --positions (or --like FILE)")
         times = np.array(parse_series(args.times, "time", "--times"))
-        positions = np.array(parse_series(args.positions, "length", "--positions",
-                                          allow_negative=allows_negative_positions(args)))
+        positions = np.array(cell_case.positions)
         layout = "wide"
     table = on_file_clock(reference_table(case, np.maximum(times, 0.0), positions, layout=layout), times, onset)
     fmt = args.format or (Path(args.output).suffix.lstrip(".").lower() if args.output else "csv")

@@ -54,7 +54,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     out.add_argument("--show", type=int, default=10, metavar="N",
                      help="departures listed in the text report (default 10; --json lists all)")
     out.add_argument("--plot", metavar="FILE", help="also draw the equivalent-cable profile (.png or .svg)")
-    out.add_argument("--digits", type=whole_number(2, 12), default=4, metavar="N",
+    out.add_argument("--digits", type=whole_number(2, 15), default=4, metavar="N",
                      help="significant digits in the text report (default 4)")
     out.add_argument("--json", action="store_true", help="print one JSON object with SI values")
     parser.set_defaults(run=run)

@@ -10,7 +10,7 @@ import sys
 from cabletheory.cli import main
 
 ARGV = ["cable", "--Rm", "20 kΩ·cm²", "--Ri", "200 Ω·cm", "--Cm", "1 µF/cm²", "--diameter", "2 µm",
-        "--length", "500 µm", "--end", "sealed", "--frequency", "100 Hz", "--at", "0, 250, 500 µm"]
+        "--length", "500 µm", "--end", "sealed", "--frequency", "100 Hz", "--positions", "0, 250, 500 µm"]
 
 if __name__ == "__main__":
     print(f"$ cabletheory {shlex.join(ARGV)}\n")

@@ -1,0 +1,536 @@
+r"""One case: a cell, a stimulus and where it is recorded, validated once.
+
+Every front end (the command line, the terminal app, ``reference``, ``compare``, ``advise``) and
+the exact solvers work on a :class:`Case`. A front end turns text into SI numbers (the unit
+boundary, :mod:`cabletheory.inputs`) and hands them to :func:`build_case` under the canonical
+field names of :data:`FIELDS`; every rule about which cell, which stimulus and which sites make a
+valid case lives here and nowhere else, and each refusal names the field it concerns
+(:class:`CaseFieldError`), so that the command line can say ``--stimulus-at`` and the app can
+flag its "stimulus at" box with the same words.
+
+Cells (:data:`CELL_KINDS`):
+
+* ``cylinder``: a uniform finite cylinder with a sealed origin and a sealed, killed or leaky far
+  end (:class:`~cabletheory.cable.Cylinder`); with ``length = inf``, a semi-infinite cable;
+* ``ball-and-stick``: a lumped spherical soma at the origin of a finite cylinder with any far end
+  (:class:`~cabletheory.transient.BallAndStick`; Rall 1969);
+* ``infinite``: a doubly infinite cylinder (:class:`~cabletheory.transient.InfiniteCable`);
+* a whole tree is the next kind; its tips take the same end words (:func:`end_from_word`).
+
+Stimuli (:data:`STIMULUS_SHAPES`): a current ``step``, a rectangular current ``pulse``, an
+``alpha`` current, or a voltage ``clamp`` step, all switched on at t = 0. A current may be
+injected anywhere on the cell; a clamp holds the origin (the soma of a ball and stick), or any
+point of an infinite cable.
+
+Every case assumes a passive, linear membrane with uniform Rm, Ri and Cm.
+
+References
+----------
+Rall W (1969) Biophys. J. 9:1483 (the cylinder and the soma-plus-cylinder cell);
+Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444 (the infinite cable).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from .cable import Cylinder
+from .errors import InputError
+from .transient import (
+    AlphaCurrent,
+    BallAndStick,
+    CurrentPulse,
+    CurrentStep,
+    InfiniteCable,
+    Model,
+    Stimulus,
+    VoltageStep,
+)
+
+__all__ = [
+    "CELL_KINDS",
+    "END_WORDS",
+    "FIELDS",
+    "STIMULUS_SHAPES",
+    "Case",
+    "CaseFieldError",
+    "build_case",
+    "describe_end",
+    "end_from_word",
+    "fields_used",
+]
+
+CELL_KINDS: dict[str, str] = {
+    "cylinder": "cylinder (finite, or semi-infinite with length inf)",
+    "ball-and-stick": "spherical soma at the origin of a finite cylinder",
+    "infinite": "infinite cable (positions may be negative)",
+}
+STIMULUS_SHAPES: dict[str, str] = {
+    "step": "current step switched on at t = 0 and held",
+    "pulse": "rectangular current pulse from t = 0 lasting the pulse duration",
+    "alpha": "alpha-function current I(t/tp)e^(1-t/tp) peaking at the time to peak",
+    "clamp": "voltage-clamp step at t = 0 (at the origin; anywhere on an infinite cable)",
+}
+END_WORDS: dict[str, float] = {"sealed": 0.0, "killed": math.inf}
+"""The far-end words of a cylinder and of a tree's tips: no current leaves a sealed end; a killed
+end is held at rest. Any other end is leaky: a conductance to rest (S)."""
+
+# canonical field -> (kind of quantity, what it is); the unit boundary reads text into these
+FIELDS: dict[str, tuple[str, str]] = {
+    "cell": ("word", "cell kind"),
+    "membrane_resistivity": ("membrane_resistivity", "specific membrane resistance Rm"),
+    "axial_resistivity": ("axial_resistivity", "axial resistivity Ri"),
+    "membrane_capacitance": ("membrane_capacitance", "specific membrane capacitance Cm"),
+    "diameter": ("length", "cylinder diameter"),
+    "length": ("length", "cylinder length"),
+    "end": ("end", "far end"),
+    "soma_diameter": ("length", "soma diameter"),
+    "shape": ("word", "stimulus shape"),
+    "current": ("current", "stimulus current (peak of an alpha current)"),
+    "voltage": ("voltage", "voltage-clamp step"),
+    "duration": ("time", "pulse duration"),
+    "time_to_peak": ("time", "time to peak of an alpha current"),
+    "stimulus_at": ("length", "stimulus position"),
+    "positions": ("length", "recording positions"),
+}
+
+
+class CaseFieldError(InputError):
+    """A case rule is broken; ``field`` is the canonical name (a key of :data:`FIELDS`) to blame.
+
+    The message does not repeat the field's name: each front end puts its own label in front.
+    """
+
+    def __init__(self, field: str, message: str) -> None:
+        super().__init__(message)
+        self.field = field
+
+
+def end_from_word(word: str) -> float | None:
+    """0 for 'sealed', inf for 'killed' (any case, surrounding blanks ignored), None otherwise.
+
+    The one reader of the end words, for a cylinder's far end and a tree's tips alike; a text
+    that is not a word is a conductance for the unit boundary to read.
+    """
+    return END_WORDS.get(word.strip().lower())
+
+
+def describe_end(conductance: float, ratio: float | None = None) -> str:
+    """'sealed', 'killed (held at rest)' or 'leaky, G = ... nS (B = ...)' for a far-end conductance in S."""
+    if conductance == 0:
+        return "sealed"
+    if math.isinf(conductance):
+        return "killed (held at rest)"
+    text = f"leaky, {conductance * 1e9:.4g} nS to rest"
+    return text + (f" (B = {ratio:.4g})" if ratio is not None else "")
+
+
+def _used(cell: str, shape: str) -> set[str]:
+    used = {"cell", "membrane_resistivity", "axial_resistivity", "membrane_capacitance", "diameter", "shape",
+            "positions"}
+    if cell != "infinite":
+        used |= {"length", "end"}
+    if cell == "ball-and-stick":
+        used.add("soma_diameter")
+    used.add("voltage" if shape == "clamp" else "current")
+    if shape == "pulse":
+        used.add("duration")
+    if shape == "alpha":
+        used.add("time_to_peak")
+    if shape != "clamp" or cell == "infinite":
+        used.add("stimulus_at")
+    return used
+
+
+def fields_used(cell: str, shape: str) -> set[str]:
+    """The fields of :data:`FIELDS` that a case of this cell kind and stimulus shape reads.
+
+    A front end shows (or accepts) only these; :func:`build_case` refuses a value given for any
+    other field, so that a forgotten option never silently does nothing.
+    """
+    if cell not in CELL_KINDS:
+        raise CaseFieldError("cell", f"{cell!r} is not a cell kind; expected one of {', '.join(CELL_KINDS)}")
+    if shape not in STIMULUS_SHAPES:
+        raise CaseFieldError("shape", f"{shape!r} is not a stimulus shape; expected one of "
+                                      f"{', '.join(STIMULUS_SHAPES)}")
+    return _used(cell, shape)
+
+
+_WHY_UNUSED = {
+    "length": "an infinite cable has no length",
+    "end": "an infinite cable has no far end",
+    "soma_diameter": "only a ball and stick has a soma",
+    "voltage": "a voltage is the amplitude of a clamp; a current stimulus takes a current",
+    "current": "a voltage clamp injects no set current; give the clamp voltage only",
+    "duration": "only a pulse has a duration",
+    "time_to_peak": "only an alpha current has a time to peak",
+    "stimulus_at": "a voltage clamp on a cylinder or ball and stick holds the origin; only an infinite "
+                   "cable takes it elsewhere",
+}
+
+
+def _infer_cell(values: Mapping[str, Any]) -> str:
+    cell = values.get("cell")
+    if cell is not None:
+        return str(cell)
+    return "ball-and-stick" if values.get("soma_diameter") is not None else "cylinder"
+
+
+def _infer_shape(values: Mapping[str, Any]) -> str:
+    shape = values.get("shape")
+    if shape is not None:
+        return str(shape)
+    return "clamp" if values.get("voltage") is not None else "step"
+
+
+def _required(values: Mapping[str, Any], field: str, example: str) -> float:
+    value = values.get(field)
+    if value is None:
+        raise CaseFieldError(field, f"missing; give the {FIELDS[field][1]}, e.g. {example}")
+    return float(value)
+
+
+def build_case(values: Mapping[str, Any]) -> Case:
+    """The :class:`Case` that SI field values describe; the only place where case rules live.
+
+    Parameters
+    ----------
+    values : canonical field name (a key of :data:`FIELDS`) -> SI value, or None / absent for a
+        field not given. ``cell`` and ``shape`` are words (keys of :data:`CELL_KINDS` and
+        :data:`STIMULUS_SHAPES`); without ``cell`` a given soma diameter makes a ball and stick,
+        else a cylinder; without ``shape`` a given clamp voltage makes a clamp, else a step.
+        ``end`` is a conductance to rest in S (0 sealed, inf killed; :func:`end_from_word`);
+        ``positions`` an iterable of recording positions in m. Lengths in m, Rm Ω·m², Ri Ω·m,
+        Cm F/m², current A, voltage V, times s.
+
+    Raises
+    ------
+    CaseFieldError
+        naming the first field that breaks a rule (unknown field, missing value, a value given
+        for a field the case does not use, a site outside the cell, ...).
+    """
+    unknown = sorted(set(values) - set(FIELDS))
+    if unknown:
+        raise CaseFieldError(unknown[0], f"{unknown[0]!r} is not a field of a case")
+    cell = _infer_cell(values)
+    shape = _infer_shape(values)
+    used = fields_used(cell, shape)
+    for field, value in values.items():
+        if value is not None and field not in used:
+            raise CaseFieldError(field, _WHY_UNUSED.get(field, "not used by this case"))
+    rm = _required(values, "membrane_resistivity", "20 kΩ·cm²")
+    ri = _required(values, "axial_resistivity", "150 Ω·cm")
+    cm = _required(values, "membrane_capacitance", "1 µF/cm²")
+    diameter = _required(values, "diameter", "2 µm")
+    model: Model
+    try:
+        if cell == "infinite":
+            model = InfiniteCable(rm, ri, cm, diameter)
+        else:
+            length = _required(values, "length", "500 µm ('inf' for a semi-infinite cable)")
+            end = float(values.get("end") or 0.0)
+            if math.isinf(length) and end != 0:
+                raise CaseFieldError("end", "a semi-infinite cable has no far end; leave it sealed")
+            if cell == "ball-and-stick" and math.isinf(length):
+                raise CaseFieldError("length", "a ball and stick needs a finite cylinder length")
+            cylinder = Cylinder(rm, ri, cm, diameter, length, end)
+            model = (BallAndStick(cylinder, _required(values, "soma_diameter", "20 µm"))
+                     if cell == "ball-and-stick" else cylinder)
+    except CaseFieldError:
+        raise
+    except ValueError as exc:  # the model's own checks (Rm, Ri, Cm, d positive and finite ...)
+        raise CaseFieldError(_blame(str(exc)), str(exc)) from None
+    site = float(values.get("stimulus_at") or 0.0)
+    for field, example in (("duration", "0.5 ms"), ("time_to_peak", "1 ms")):
+        if field in used:
+            value = _required(values, field, example)
+            if not (math.isfinite(value) and value > 0):
+                raise CaseFieldError(field, f"must be finite and positive, got {value!r} s")
+    amplitude = (_required(values, "voltage", "10 mV (a voltage clamp takes no current)") if shape == "clamp"
+                 else _required(values, "current", "100 pA (or a clamp voltage instead, for a clamp)"))
+    for field, value in (("voltage" if shape == "clamp" else "current", amplitude), ("stimulus_at", site)):
+        if not math.isfinite(value):
+            raise CaseFieldError(field, f"must be finite, got {value!r}")
+    stimulus: Stimulus
+    if shape == "clamp":
+        stimulus = VoltageStep(amplitude, site)
+    elif shape == "pulse":
+        stimulus = CurrentPulse(amplitude, _required(values, "duration", "0.5 ms"), site)
+    elif shape == "alpha":
+        stimulus = AlphaCurrent(amplitude, _required(values, "time_to_peak", "1 ms"), site)
+    else:
+        stimulus = CurrentStep(amplitude, site)
+    positions = values.get("positions")
+    return Case(model, stimulus, tuple(float(x) for x in positions) if positions is not None else ())
+
+
+def _blame(message: str) -> str:
+    for field, words in (("membrane_resistivity", "membrane_resistivity"), ("axial_resistivity", "axial"),
+                         ("membrane_capacitance", "capacitance"), ("diameter", "diameter"),
+                         ("length", "length"), ("end", "end_conductance"), ("soma_diameter", "soma")):
+        if words in message:
+            return field
+    return "cell"
+
+
+def _um(x: float) -> str:
+    return f"{x * 1e6:.6g} µm"
+
+
+def _ms(t: float) -> str:
+    return f"{t * 1e3:.6g} ms"
+
+
+@dataclass(frozen=True, slots=True)
+class Case:
+    """A cell, a stimulus and the recording positions, checked together on construction.
+
+    Attributes
+    ----------
+    cell : :class:`~cabletheory.cable.Cylinder` (finite or semi-infinite),
+        :class:`~cabletheory.transient.BallAndStick` or :class:`~cabletheory.transient.InfiniteCable`
+    stimulus : :class:`~cabletheory.transient.CurrentStep`, ``CurrentPulse``, ``AlphaCurrent`` or
+        ``VoltageStep``, its ``position`` in m from the origin (the soma of a ball and stick)
+    positions : m, where the voltage is recorded (may be empty: the caller supplies a grid)
+    """
+
+    cell: Model
+    stimulus: Stimulus
+    positions: tuple[float, ...] = ()
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.cell, Cylinder | BallAndStick | InfiniteCable):
+            raise CaseFieldError("cell", f"not a cell: {type(self.cell).__name__}")
+        if not isinstance(self.stimulus, CurrentStep | CurrentPulse | AlphaCurrent | VoltageStep):
+            raise CaseFieldError("shape", f"not a stimulus: {type(self.stimulus).__name__}")
+        site = self.stimulus.position
+        if self.kind != "infinite":
+            if not 0 <= site <= self.length:
+                raise CaseFieldError("stimulus_at", f"{_um(site)} lies outside the cell (0 to {self._extent()})")
+            if self.shape == "clamp" and site != 0:
+                raise CaseFieldError("stimulus_at", _WHY_UNUSED["stimulus_at"])
+        self.check_positions(self.positions)
+
+    # ---- what the case is -------------------------------------------------------------
+    @property
+    def kind(self) -> str:
+        """The cell kind: a key of :data:`CELL_KINDS`."""
+        if isinstance(self.cell, InfiniteCable):
+            return "infinite"
+        return "ball-and-stick" if isinstance(self.cell, BallAndStick) else "cylinder"
+
+    @property
+    def shape(self) -> str:
+        """The stimulus shape: a key of :data:`STIMULUS_SHAPES`."""
+        s = self.stimulus
+        if isinstance(s, VoltageStep):
+            return "clamp"
+        return "pulse" if isinstance(s, CurrentPulse) else "alpha" if isinstance(s, AlphaCurrent) else "step"
+
+    @property
+    def cylinder(self) -> Cylinder | None:
+        """The cylinder of a cylinder or ball and stick; None for an infinite cable."""
+        if isinstance(self.cell, BallAndStick):
+            return self.cell.cylinder
+        return self.cell if isinstance(self.cell, Cylinder) else None
+
+    @property
+    def membrane(self) -> Cylinder | InfiniteCable:
+        """The object carrying Rm, Ri, Cm, d, λ and τm."""
+        return self.cylinder or self.cell  # type: ignore[return-value]
+
+    @property
+    def length(self) -> float:
+        """m; inf for a semi-infinite or infinite cable."""
+        c = self.cylinder
+        return math.inf if c is None else c.length
+
+    @property
+    def length_constant(self) -> float:
+        """λ, m."""
+        return float(self.membrane.length_constant)
+
+    @property
+    def membrane_time_constant(self) -> float:
+        """τm, s."""
+        return float(self.membrane.time_constant)
+
+    @property
+    def amplitude(self) -> float:
+        """The stimulus amplitude: A for a current (the peak of an alpha current), V for a clamp."""
+        s = self.stimulus
+        return s.peak if isinstance(s, AlphaCurrent) else s.amplitude
+
+    @property
+    def reference_voltage(self) -> float:
+        """V, the scale of relative truncation errors: the final voltage at the stimulus site for a
+        current step of the stimulus's amplitude (its peak for an alpha current), or the clamp step
+        (:func:`cabletheory.transient.charge`)."""
+        from .transient import charge
+
+        site = self.stimulus.position
+        return charge(self.cell, self.stimulus, [0.0], [site], modes=0).reference_voltage
+
+    @property
+    def lowest_position(self) -> float:
+        """m; -inf on an infinite cable, else 0."""
+        return -math.inf if self.kind == "infinite" else 0.0
+
+    def _extent(self) -> str:
+        return "its infinite length" if math.isinf(self.length) else _um(self.length)
+
+    def check_positions(self, positions: Iterable[float], field: str = "positions") -> None:
+        """Refuse (naming ``field``) any recording position that is not finite or lies off the cell."""
+        for x in positions:
+            if not math.isfinite(x):
+                raise CaseFieldError(field, f"{x!r} is not a finite position")
+            if self.kind != "infinite" and not 0 <= x <= self.length:
+                raise CaseFieldError(field, f"{_um(x)} lies outside the cell (0 to {self._extent()})")
+
+    def with_positions(self, positions: Iterable[float]) -> Case:
+        """The same cell and stimulus recorded at other positions (checked)."""
+        return Case(self.cell, self.stimulus, tuple(float(x) for x in positions))
+
+    # ---- words and numbers --------------------------------------------------------------
+    def describe(self) -> str:
+        """The case in one line of words: the cell, then the stimulus and where it is applied."""
+        c = self.cylinder
+        if c is None:
+            cell = "infinite cable"
+        elif math.isinf(c.length):
+            cell = "semi-infinite cylinder, sealed origin"
+        else:
+            g = c.end_conductance
+            end = ("sealed" if g == 0 else "killed" if math.isinf(g) else f"leaky (B = {c.end_conductance_ratio:.4g})")
+            cell = f"finite cylinder, {end} far end"
+        if isinstance(self.cell, BallAndStick):
+            cell = (f"ball and stick (soma {_um(self.cell.soma_diameter)}, "
+                    f"rho = {self.cell.conductance_ratio:.4g}); {cell}")
+        s = self.stimulus
+        where = f"x = {_um(s.position)}"
+        if s.position == 0 and self.kind != "infinite":
+            where = "the soma" if self.kind == "ball-and-stick" else "the origin"
+        what = {
+            "clamp": "voltage-clamp step",
+            "pulse": f"current pulse of {_ms(getattr(s, 'duration', 0.0))}",
+            "alpha": f"alpha current peaking at {_ms(getattr(s, 'time_to_peak', 0.0))}",
+            "step": "current step",
+        }[self.shape]
+        return f"{cell}, {what} at {where}"
+
+    def parameters(self) -> dict[str, tuple[float, str]]:
+        """Every number of the case as ``name -> (SI value, SI unit)``: the membrane and geometry, the
+        derived λ, τm (and B, ρ where they apply), then the stimulus (``stimulus_*`` names)."""
+        m = self.membrane
+        out: dict[str, tuple[float, str]] = {
+            "membrane_resistivity": (m.membrane_resistivity, "ohm*m**2"),
+            "axial_resistivity": (m.axial_resistivity, "ohm*m"),
+            "membrane_capacitance": (m.membrane_capacitance, "F/m**2"),
+            "diameter": (m.diameter, "m"),
+        }
+        c = self.cylinder
+        if c is not None:
+            out["length"] = (c.length, "m")
+            if math.isfinite(c.length):
+                out["end_conductance"] = (c.end_conductance, "S")
+                out["end_conductance_ratio"] = (c.end_conductance_ratio, "1")
+        if isinstance(self.cell, BallAndStick):
+            out["soma_diameter"] = (self.cell.soma_diameter, "m")
+            out["conductance_ratio"] = (self.cell.conductance_ratio, "1")
+        out["length_constant"] = (self.length_constant, "m")
+        out["membrane_time_constant"] = (self.membrane_time_constant, "s")
+        s = self.stimulus
+        out["stimulus_amplitude"] = (self.amplitude, "V" if self.shape == "clamp" else "A")
+        if isinstance(s, CurrentPulse):
+            out["pulse_duration"] = (s.duration, "s")
+        if isinstance(s, AlphaCurrent):
+            out["time_to_peak"] = (s.time_to_peak, "s")
+        out["stimulus_position"] = (s.position, "m")
+        return out
+
+    def field_values(self) -> dict[str, Any]:
+        """The canonical field values (SI) that :func:`build_case` turns back into this case."""
+        values: dict[str, Any] = {"cell": self.kind, "shape": self.shape}
+        m = self.membrane
+        values.update(membrane_resistivity=m.membrane_resistivity, axial_resistivity=m.axial_resistivity,
+                      membrane_capacitance=m.membrane_capacitance, diameter=m.diameter)
+        c = self.cylinder
+        if c is not None:
+            values.update(length=c.length, end=c.end_conductance)
+        if isinstance(self.cell, BallAndStick):
+            values["soma_diameter"] = self.cell.soma_diameter
+        values["voltage" if self.shape == "clamp" else "current"] = self.amplitude
+        s = self.stimulus
+        if isinstance(s, CurrentPulse):
+            values["duration"] = s.duration
+        if isinstance(s, AlphaCurrent):
+            values["time_to_peak"] = s.time_to_peak
+        if "stimulus_at" in _used(self.kind, self.shape):
+            values["stimulus_at"] = s.position
+        if self.positions:
+            values["positions"] = list(self.positions)
+        return values
+
+    def to_json(self) -> dict[str, Any]:
+        """The case as a JSON-ready object ``{"cell": {...}, "stimulus": {...}, "positions": {...}}``.
+
+        ``cell`` has ``kind`` and the membrane and geometry (``end_conductance``, ``soma_diameter``
+        where they apply); ``stimulus`` has ``shape``, ``amplitude`` (A, or V for a clamp; the peak of
+        an alpha current), ``position`` and ``duration`` or ``time_to_peak`` where they apply: the
+        keys of every JSON output of the package. Quantities are ``{"value": SI number, "unit": SI
+        unit}``; infinities are the strings "inf" and "-inf". :meth:`from_json` reads it back.
+        """
+        values = self.field_values()
+        cell: dict[str, Any] = {"kind": values["cell"]}
+        for field in _CELL_JSON:
+            if field in values:
+                key, unit = _CELL_JSON[field]
+                cell[key] = {"value": _json_number(values[field]), "unit": unit}
+        s = self.stimulus
+        stimulus: dict[str, Any] = {
+            "shape": self.shape,
+            "amplitude": {"value": self.amplitude, "unit": "V" if self.shape == "clamp" else "A"},
+            "position": {"value": s.position, "unit": "m"},
+        }
+        for field in ("duration", "time_to_peak"):
+            if field in values:
+                stimulus[field] = {"value": values[field], "unit": "s"}
+        return {"cell": cell, "stimulus": stimulus, "positions": {"value": list(self.positions), "unit": "m"}}
+
+    @classmethod
+    def from_json(cls, obj: Mapping[str, Any]) -> Case:
+        """The case of :meth:`to_json`'s object (SI values; every rule checked again)."""
+        try:
+            cell, stimulus = obj["cell"], obj["stimulus"]
+            values: dict[str, Any] = {"cell": cell["kind"], "shape": stimulus["shape"]}
+            for field, (key, _unit) in _CELL_JSON.items():
+                if key in cell:
+                    values[field] = float(cell[key]["value"])
+            amplitude = float(stimulus["amplitude"]["value"])
+            values["voltage" if values["shape"] == "clamp" else "current"] = amplitude
+            position = float(stimulus.get("position", {"value": 0.0})["value"])
+            if "stimulus_at" in _used(str(values["cell"]), str(values["shape"])):
+                values["stimulus_at"] = position
+            for field in ("duration", "time_to_peak"):
+                if field in stimulus:
+                    values[field] = float(stimulus[field]["value"])
+            values["positions"] = [float(x) for x in obj.get("positions", {"value": []})["value"]]
+        except (KeyError, TypeError, ValueError, AttributeError) as exc:
+            raise InputError(f"case JSON: not the form of Case.to_json (missing or malformed {exc})") from None
+        return build_case(values)
+
+
+_CELL_JSON = {"membrane_resistivity": ("membrane_resistivity", "ohm*m**2"),
+              "axial_resistivity": ("axial_resistivity", "ohm*m"),
+              "membrane_capacitance": ("membrane_capacitance", "F/m**2"), "diameter": ("diameter", "m"),
+              "length": ("length", "m"), "end": ("end_conductance", "S"), "soma_diameter": ("soma_diameter", "m")}
+
+
+def _json_number(value: float) -> float | str:
+    v = float(value)
+    if math.isfinite(v):
+        return v
+    return "nan" if math.isnan(v) else ("inf" if v > 0 else "-inf")

@@ -1,0 +1,116 @@
+"""Text to a validated case: the unit boundary of :mod:`cabletheory.case`, shared by every front end.
+
+The command line and the terminal app hand :func:`read_case` the texts a user typed, keyed by the
+canonical field names of :data:`cabletheory.case.FIELDS`, and a label for each field (the command
+line's ``--stimulus-at``, the app's "stimulus at"). Each text is read once, with units, by
+:mod:`cabletheory.units` (bare numbers in the field's customary unit); the case rules are applied
+once, by :func:`cabletheory.case.build_case`. Every problem comes back as one line that starts
+with the field's label, so both front ends say the same thing about the same input.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+
+from .case import FIELDS, Case, CaseFieldError, build_case, end_from_word
+from .errors import InputError
+from .units import parse_quantity, parse_series
+
+__all__ = ["CaseInputError", "read_case", "read_end", "read_field"]
+
+Label = Callable[[str], str] | Mapping[str, str]
+
+
+@dataclass(frozen=True, slots=True)
+class _Reading:
+    allow_inf: bool = False
+    allow_zero: bool = False
+    allow_negative: bool = False
+    series: bool = False
+
+
+# how the text of each numeric field is read (its kind of quantity is in case.FIELDS)
+_READINGS: dict[str, _Reading] = {
+    "length": _Reading(allow_inf=True),
+    "current": _Reading(allow_negative=True),
+    "voltage": _Reading(allow_negative=True),
+    "stimulus_at": _Reading(allow_zero=True, allow_negative=True),
+    "positions": _Reading(allow_zero=True, allow_negative=True, series=True),
+}
+
+
+class CaseInputError(InputError):
+    """One or more fields of a case are wrong; ``errors`` maps each canonical field to its one-line
+    message (starting with the field's label). ``str()`` is the first message."""
+
+    def __init__(self, errors: Mapping[str, str]) -> None:
+        super().__init__(next(iter(errors.values())))
+        self.errors = dict(errors)
+
+
+def _labeller(label: Label) -> Callable[[str], str]:
+    if callable(label):
+        return label
+    return lambda field: label.get(field, field.replace("_", " "))
+
+
+def read_end(text: str, label: str = "far end") -> float:
+    """The conductance (S) from an end to rest: 'sealed' 0, 'killed' inf, else a conductance such as
+    '0.5 nS' (bare numbers in nS). The one reader of far ends and tree tips alike."""
+    word = end_from_word(text)
+    if word is not None:
+        return word
+    try:
+        return parse_quantity(text, "conductance", label, allow_zero=True, allow_inf=True)
+    except InputError as exc:
+        detail = str(exc).removeprefix(f"{label}: ")
+        raise InputError(f"{label}: {text.strip()!r} is not 'sealed', 'killed' or a conductance to rest such as "
+                         f"'0.5 nS' ({detail})") from None
+
+
+def read_field(field: str, text: str, label: str) -> float | str | list[float]:
+    """The SI value of one case field's text (a word for ``cell`` and ``shape``)."""
+    kind = FIELDS[field][0]
+    if kind == "word":
+        return text.strip().lower()
+    if kind == "end":
+        return read_end(text, label)
+    how = _READINGS.get(field, _Reading())
+    if how.series:
+        return parse_series(text, kind, label, allow_zero=how.allow_zero, allow_negative=how.allow_negative)
+    return parse_quantity(text, kind, label, allow_inf=how.allow_inf, allow_zero=how.allow_zero,
+                          allow_negative=how.allow_negative)
+
+
+def read_case(texts: Mapping[str, str | None], label: Label) -> Case:
+    """The :class:`~cabletheory.case.Case` that the texts describe.
+
+    Parameters
+    ----------
+    texts : canonical field name -> the user's text; None (or a missing key) means "not given"
+    label : the front end's name for each field, as a function or a mapping (used in messages)
+
+    Raises
+    ------
+    CaseInputError
+        with every field whose text cannot be read, or else the first case rule broken.
+    """
+    name = _labeller(label)
+    values: dict[str, object] = {}
+    errors: dict[str, str] = {}
+    for field, text in texts.items():
+        if text is None:
+            continue
+        if field not in FIELDS:
+            raise ValueError(f"{field!r} is not a case field")  # a programming error, not user input
+        try:
+            values[field] = read_field(field, text, name(field))
+        except InputError as exc:
+            errors[field] = str(exc)
+    if errors:
+        raise CaseInputError(errors)
+    try:
+        return build_case(values)
+    except CaseFieldError as exc:
+        raise CaseInputError({exc.field: f"{name(exc.field)}: {exc}"}) from None
