@@ -1188,7 +1188,7 @@ def sealed_step_voltage(cylinder: cb.Cylinder, amplitude: float, times: ArrayLik
               + 2\sum_{n\ge1} \frac{\cos(k_n X)\, e^{-(1+k_n^2)T}}{1+k_n^2}\Big], \quad k_n = n\pi/L
 
     (eigenfunction series of Rall 1969, Biophys. J. 9:1483; at X = 0 this is the charging
-    curve of checks.md §2.5). Truncation: the terms beyond N are bounded by
+    curve in tests/test_verify.py). Truncation: the terms beyond N are bounded by
     :math:`\frac{2}{L}\sum_{n>N} e^{-(1+k_n^2)T}/k_n^2 \le \frac{2L}{\pi^2 N} e^{-(1+k_{N+1}^2)T}`,
     and N grows until that bound, times :math:`|I| R_\infty`, is below ``tolerance`` (V).
 
