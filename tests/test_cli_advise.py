@@ -12,7 +12,8 @@ CABLE = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "500"]
 
 
 def test_cable_advice_json(capsys) -> None:
-    """Sealed demo cable: exact R_in 739.3466931 MΩ; rule of thumb 19 segments (checks.md §1, §1.1)."""
+    """Sealed demo cable (docs/sources.md): exact R_in 739.3466931 MΩ, computed; rule of thumb 19 segments
+    ([CP])."""
     assert main(["advise", *CABLE, "--target", "0.1%", "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["relative_error"] <= 1e-3
@@ -21,7 +22,7 @@ def test_cable_advice_json(capsys) -> None:
 
 
 def test_attenuation_advice_text(capsys) -> None:
-    """Far-end attenuation 1/cosh L = 0.7932781817 (checks.md §1 [COMP])."""
+    """Far-end attenuation 1/cosh L = 0.7932781817 (computed; Rall 1959 [Rall1959])."""
     assert main(["advise", *CABLE, "--quantity", "attenuation", "--target", "1e-4"]) == 0
     out = capsys.readouterr().out
     assert "exact V(site)/V(0)" in out
@@ -30,7 +31,8 @@ def test_attenuation_advice_text(capsys) -> None:
 
 
 def test_tree_advice(capsys) -> None:
-    """checks.md §3.1 tree, |Z_root(100 Hz)| = 44.86760779 MΩ [COMP]."""
+    """Demo tree of docs/sources.md, |Z_root(100 Hz)| = 44.86760779 MΩ (computed; Rall & Rinzel 1973
+    [RallRinzel1973])."""
     argv = ["advise", "--Rm", "20000", "--Ri", "200", "--parents=-1,0,0,1,1,2,2",
             "--lengths", "300,300,300,200,200,200,200 um",
             "--diameters", "4,2.519842100,2.519842100,1.587401052,1.587401052,1.587401052,1.587401052 um",
@@ -58,8 +60,8 @@ def test_bad_advice_requests(argv: list[str], fragment: str, capsys) -> None:
 @pytest.mark.parametrize("extra", [["--end", "killed", "--read-at", "250um"], ["--end", "1nS"],
                                    ["--soma-diameter", "20um"]])
 def test_time_course_advice_for_any_end_and_a_soma(extra: list[str], capsys) -> None:
-    """Exact time course from cabletheory.transient (Rall 1969 series / images): the advised count meets
-    1 % and, at second order in Δx ([CP]), lies below the rule of thumb's 19 segments (checks.md §1.1)."""
+    """Exact time course from cabletheory.transient (Rall 1969 [Rall1969] series / images): the advised count meets
+    1 % and, at second order in Δx ([CP]), lies below the rule of thumb's 19 segments (computed, docs/sources.md)."""
     assert main(["advise", *CABLE, *extra, "--quantity", "time-course", "--target", "1%", "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["relative_error"] <= 0.01
@@ -67,9 +69,9 @@ def test_time_course_advice_for_any_end_and_a_soma(extra: list[str], capsys) -> 
     assert 4 <= n < data["rule_of_thumb"]["segments"][0] == 19
 
 
-# the checks.md §3.1 tree as SWC points (no soma: input at the root point); each segment's length is
+# the demo tree of docs/sources.md as SWC points (no soma: input at the root point); each segment's length is
 # the distance to its parent (300 µm trunk and daughters, 200 µm granddaughters)
-SWC_TREE = """# checks.md 3.1 tree
+SWC_TREE = """# demo tree of docs/sources.md
 1 3 0 0 0 2.0 -1
 2 3 300 0 0 2.0 1
 3 3 600 0 0 1.25992105 2
@@ -82,8 +84,8 @@ SWC_TREE = """# checks.md 3.1 tree
 
 
 def test_tree_advice_reads_swc_as_the_tree_command_does(tmp_path, capsys) -> None:
-    """An SWC file is read as SWC (not as a section list): checks.md §3.1 tree, |Z_root(100 Hz)| =
-    44.86760779 MΩ [COMP], the same as the --parents/--lengths/--diameters form above."""
+    """An SWC file is read as SWC (not as a section list): demo tree of docs/sources.md, |Z_root(100 Hz)| =
+    44.86760779 MΩ (computed), the same as the --parents/--lengths/--diameters form above."""
     swc = tmp_path / "cell.swc"
     swc.write_text(SWC_TREE, encoding="utf-8")
     assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(swc), "--quantity", "impedance",

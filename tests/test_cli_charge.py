@@ -24,7 +24,7 @@ def test_text_output_echoes_inputs_and_caveat(capsys):
 
 
 def test_json_sealed_cylinder_matches_checks_table(capsys):
-    """L = 0.7071, sealed: final 73.93466931 mV at 100 pA (checks.md section 1 [COMP])."""
+    """L = 0.7071, sealed: final 73.93466931 mV at 100 pA (computed; R∞ coth L, Rall 1959 [Rall1959])."""
     status, out, _ = run(capsys, "--length", "500", "--current", "100pA", "--times", "0, 1000 ms", "--json")
     assert status == 0
     data = json.loads(out)
@@ -54,7 +54,7 @@ def test_ball_and_stick_alpha_and_pulse(capsys):
 
 def test_csv_carries_the_parameters_bound_and_caveat(tmp_path, capsys):
     """charge --csv opens with the same '#' lines as a reference table: every parameter in SI with its
-    unit (20 kΩ·cm² = 2 Ω·m², checks.md §1), the method, the error bound of the values (that of --json)
+    unit (20 kΩ·cm² = 2 Ω·m², demo cable of docs/sources.md), the method, the error bound of the values (that of --json)
     and the passive-membrane caveat; --output writes the same text."""
     args = ("--length", "500", "--current", "100pA", "--times", "1, 5 ms", "--positions", "0, 250 um")
     status, out, _ = run(capsys, *args, "--csv")

@@ -1,7 +1,8 @@
 """``cabletheory peel``: values against outside sources, output forms, one-line errors with exit status 2.
 
-Sources: Rall W (1969) Biophys. J. 9:1483 (peeling); Johnston D (1981) Cell. Mol. Neurobiol. 1:41
-(CA3 L and ρ); ../shared/reference/checks.md §2.1 and §2.3 (tags beside each check).
+Sources: Rall W (1969) Biophys. J. 9:1483 (peeling) [Rall1969]; Johnston D (1981) Cell. Mol. Neurobiol.
+1:41 (CA3 L and ρ) [Johnston1981]; values computed from their formulas with mpmath [mpmath2023]
+(named beside each check; keys of docs/sources.md).
 """
 
 import importlib.util
@@ -33,7 +34,7 @@ def run_json(capsys, *args):
 # values
 # --------------------------------------------------------------------------------------
 def test_cylinder_worked_example_text(capsys):
-    """τ0 = 20 ms, τ1 = 2 ms give L = π/3 = 1.047197551 (checks.md §2.1 [COMP, Rall 1969])."""
+    """τ0 = 20 ms, τ1 = 2 ms give L = π/3 = 1.047197551 (Rall 1969 [Rall1969])."""
     status, out, _ = run(capsys, "--tau0", "20ms", "--tau1", "2ms")
     assert status == 0
     assert "L from τ0/τ1 = π/√(τ0/τ1 − 1)  1.047" in out
@@ -56,21 +57,21 @@ def test_cylinder_worked_example_json(capsys):
 
 
 def test_inverse_problem_check_value(capsys):
-    """checks.md §2.3 inverse-problem check [COMP]: (8.537785309, 0.2033855102) -> (1, 5)."""
+    """Computed ball-and-stick row L = 1, ρ = 5 (Rall 1969 [Rall1969]): (8.537785309, 0.2033855102) -> (1, 5)."""
     data = run_json(capsys, "--tau-ratio", "8.537785309", "--c1-over-c0", "0.2033855102")
     (s,) = data["ball_and_stick"]["solutions"]
     assert s["electrotonic_length"]["value"] == pytest.approx(1.0, rel=1e-9)
     assert s["conductance_ratio"]["value"] == pytest.approx(5.0, rel=1e-9)
     assert abs(s["check"]["time_constant_residual"]["value"]) < 1e-12
     assert abs(s["check"]["coefficient_residual"]["value"]) < 1e-12
-    # next mode of the row L = 1, ρ = 5 in checks.md table 2.3 [COMP]
+    # next mode of the computed row L = 1, ρ = 5
     assert s["predicted"]["second_time_constant_ratio"]["value"] == pytest.approx(32.12334509, rel=1e-8)
     assert data["membrane_properties"] == []  # no τ0, so nothing in seconds
 
 
 def test_johnston_1981_ca3(capsys):
-    """Johnston (1981) [PUB 6]: L = 0.94, ρ = 1.51 with τ0 = 23.6 ms; τ1 = 3.442629305 ms and
-    C1/C0 = 0.1523926029 (checks.md §2.3 "What my formulas give" [COMP])."""
+    """Johnston (1981) [Johnston1981]: L = 0.94, ρ = 1.51 with τ0 = 23.6 ms; τ1 = 3.442629305 ms and
+    C1/C0 = 0.1523926029 (computed with the ball-and-stick equations, Rall 1969 [Rall1969])."""
     status, out, _ = run(capsys, "--tau0", "23.6ms", "--tau1", "3.442629305ms", "--c1-over-c0", "0.1523926029")
     assert status == 0
     assert "solution: L                    0.9400" in out
@@ -83,7 +84,7 @@ def test_johnston_1981_ca3(capsys):
 
 
 def test_c0_and_c1_give_the_same_as_their_ratio(capsys):
-    """C0 = 0.7931077428, C1 = 0.1613066229 at L = 1, ρ = 5 (checks.md table 2.3 [COMP])."""
+    """C0 = 0.7931077428, C1 = 0.1613066229 at L = 1, ρ = 5 (computed, Rall 1969 [Rall1969])."""
     a = run_json(capsys, "--tau-ratio", "8.537785309", "--c0", "0.7931077428", "--c1", "0.1613066229")
     b = run_json(capsys, "--tau-ratio", "8.537785309", "--c1-over-c0", str(0.1613066229 / 0.7931077428))
     assert a["ball_and_stick"]["solutions"][0]["electrotonic_length"]["value"] == pytest.approx(
@@ -93,7 +94,7 @@ def test_c0_and_c1_give_the_same_as_their_ratio(capsys):
 
 
 def test_pure_cylinder_data_report_no_soma(capsys):
-    """C1/C0 = 2τ1/τ0 (checks.md §2.1 [COMP]): both cylinder estimates agree, no finite ρ."""
+    """C1/C0 = 2τ1/τ0 (derived from Rall 1969 [Rall1969]): both cylinder estimates agree, no finite ρ."""
     status, out, _ = run(capsys, "--tau0", "20", "--tau1", "2", "--c1-over-c0", "0.2")
     assert status == 0
     assert "the two L agree" in out

@@ -10,14 +10,14 @@ import pytest
 
 from cabletheory.cli import main
 
-# a cable with L = 1: λ = 707.1067812 µm for the checks.md §1 demo properties
+# a cable with L = 1: λ = 707.1067812 µm for the demo cable's properties (docs/sources.md)
 L1 = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "707.1067811865476um", "--current", "1 nA"]
-R_INF = 450.1581581e6  # Ω, checks.md §1 [COMP]
-FINAL = 1e-9 * R_INF / math.tanh(1.0)  # V(0,∞) = I R∞ coth L (Rall 1959)
+R_INF = 450.1581581e6  # Ω, computed
+FINAL = 1e-9 * R_INF / math.tanh(1.0)  # V(0,∞) = I R∞ coth L (Rall 1959 [Rall1959])
 
 
 def test_json_values_match_rall_series(tmp_path) -> None:
-    """V(0,T)/V(0,∞) at T = 0.1, 0.5, 1 (checks.md §2.5 [COMP], from Rall 1969): τm = 20 ms."""
+    """V(0,T)/V(0,∞) at T = 0.1, 0.5, 1 (computed from Rall 1969 [Rall1969]): τm = 20 ms."""
     out = tmp_path / "ref.json"
     assert main(["reference", *L1, "--times", "2, 10, 20 ms", "--positions", "0 um", "--output", str(out)]) == 0
     data = json.loads(out.read_text())
@@ -59,7 +59,7 @@ def test_bad_reference_requests(tmp_path, capsys) -> None:
 # every model and stimulus of the transient capability
 # ---------------------------------------------------------------------------------------------
 BASE = ["--Rm", "20000", "--Ri", "200", "--diameter", "2"]
-LAMBDA_UM = 707.1067811865476  # λ of the demo cable, checks.md §1
+LAMBDA_UM = 707.1067811865476  # λ of the demo cable
 
 
 def table_of(tmp_path, args: list[str]) -> dict:
@@ -70,7 +70,7 @@ def table_of(tmp_path, args: list[str]) -> dict:
 
 def test_ball_and_stick_soma_matches_rall_values(tmp_path) -> None:
     """L = 1, ρ = 5 (soma diameter from ρ = G_D/G_S, G_D = G∞ tanh L): soma V/V∞ = 0.2124536900,
-    0.5166979813, 0.7082003630 at T = 0.1, 0.5, 1 (checks.md §2.3 [COMP]; Rall 1969)."""
+    0.5166979813, 0.7082003630 at T = 0.1, 0.5, 1 (computed; Rall 1969 [Rall1969])."""
     g_d = math.tanh(1.0) / R_INF
     g_s = g_d / 5.0
     soma_um = math.sqrt(g_s * 2.0 / math.pi) * 1e6  # G_S = π d² / Rm
@@ -84,7 +84,7 @@ def test_ball_and_stick_soma_matches_rall_values(tmp_path) -> None:
 
 def test_infinite_cable_off_centre_input(tmp_path) -> None:
     """Input at 100 µm of an infinite cable; sites 100 ± λ: V/V(0,∞) = 0.2336124405 at T = 1, the
-    injection site erf(1) = 0.8427007929 (Hodgkin & Rushton 1946; checks.md §2.4 [COMP])."""
+    injection site erf(1) = 0.8427007929 (Hodgkin & Rushton 1946 [HodgkinRushton1946]; computed)."""
     sites = f"{100 - LAMBDA_UM!r}, 100, {100 + LAMBDA_UM!r} um"
     data = table_of(tmp_path, ["--infinite", "--stimulus-at", "100 um", "--current", "1nA", "--times", "20 ms",
                                "--positions", sites])
@@ -97,9 +97,10 @@ def test_infinite_cable_off_centre_input(tmp_path) -> None:
 
 
 def test_pulse_alpha_and_clamp_tables(tmp_path) -> None:
-    """Pulse = difference of steps (checks.md §2.5: S(0.5) - S(0.1) for a 0.4 τm pulse, L = 1); clamp
-    far end 1/cosh 1 = 0.6480542737 at late times (checks.md §1); an alpha current's voltage starts at
-    0, rises and, with nothing injected after it, decays (Rall 1967 [MEM])."""
+    """Pulse = difference of steps (Rall 1969 [Rall1969] series: S(0.5) - S(0.1) for a 0.4 τm pulse,
+    L = 1); clamp far end 1/cosh 1 = 0.6480542737 at late times (Rall 1959 [Rall1959]); an alpha
+    current's voltage starts at 0, rises and, with nothing injected after it, decays (Rall 1967
+    [Rall1967] [MEM])."""
     length = ["--length", f"{LAMBDA_UM!r}um"]
     pulse = table_of(tmp_path, [*length, "--shape", "pulse", "--duration", "8 ms", "--current", "1nA",
                                 "--times", "2, 10 ms", "--positions", "0"])
@@ -193,8 +194,8 @@ def test_the_stimulus_is_required_by_every_case_command(tmp_path, capsys, comman
 def test_like_a_file_that_records_before_the_onset(tmp_path) -> None:
     """A simulator file that records from before the stimulus (onset at 1 ms, rest -62 mV): the rows
     at or before the onset are at rest (exactly 0), the table keeps the file's own clock, and the
-    values after the onset are the Rall (1969) series at the time since the onset (checks.md §2.5
-    [COMP]: V(0,T)/V(0,∞) = 0.2629635738 at T = 0.1, i.e. 2 ms after the onset)."""
+    values after the onset are the Rall (1969) series [Rall1969] at the time since the onset
+    (computed: V(0,T)/V(0,∞) = 0.2629635738 at T = 0.1, i.e. 2 ms after the onset)."""
     sim = tmp_path / "sim.csv"
     sim.write_text("time (ms),V at 0 um (mV)\n0,-62\n0.5,-62\n1,-62\n3,-60\n", encoding="utf-8")
     out = tmp_path / "ref.json"

@@ -57,7 +57,7 @@ def test_json_has_the_required_keys(capsys, path):
 
 
 def test_json_values_of_the_demo_tree(capsys):
-    """Reference sheet §3.1 ([COMP]; Rall 1959/1964, 1969)."""
+    """Demo tree of docs/sources.md (computed; Rall 1959/1964 [Rall1959] [Rall1964], 1969 [Rall1969])."""
     _, out, _ = run(capsys, ["tree", str(DATA / "lumenia_demo.tree"), *MEMBRANE, "--json"])
     data = json.loads(out)
     assert data["reducible"] is True
@@ -199,8 +199,8 @@ def test_nothing_is_written_on_bad_input(capsys, tmp_path):
 def test_without_soma_the_output_says_so(capsys, tmp_path):
     """No soma: input at the root point, soma membrane excluded, and both text and JSON say so.
 
-    A single sealed cylinder, the reference sheet's §1 demo cable (d = 2 µm, ℓ = 500 µm,
-    Rm 20 kΩ·cm², Ri 200 Ω·cm): R_in = R∞ coth L = 739.3466931 MΩ [COMP] (Rall 1959).
+    A single sealed cylinder, the demo cable of docs/sources.md (d = 2 µm, ℓ = 500 µm,
+    Rm 20 kΩ·cm², Ri 200 Ω·cm): R_in = R∞ coth L = 739.3466931 MΩ, computed (Rall 1959 [Rall1959]).
     """
     path = tmp_path / "stick.swc"
     path.write_text("1 3 0 0 0 1 -1\n2 3 250 0 0 1 1\n3 3 500 0 0 1 2\n")

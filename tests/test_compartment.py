@@ -1,8 +1,9 @@
 """The sparse compartmental reference discretisation against exact cable results.
 
-Check values come from ../shared/reference/checks.md with their provenance tags; the orders
-of accuracy are standard numerical analysis (three-point difference: second order in Δx
-[CP]; backward Euler first and Crank–Nicolson second order in Δt, Crank & Nicolson 1947).
+Check values are computed with mpmath [mpmath2023] from the formulas named beside each (keys of
+docs/sources.md); the orders of accuracy are standard numerical analysis (three-point difference:
+second order in Δx [CP]; backward Euler first and Crank–Nicolson second order in Δt, Crank &
+Nicolson 1947 [CrankNicolson1947]).
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ from cabletheory.errors import InputError
 
 UM = 1e-6
 MOHM = 1e6
-# demo cable of checks.md §1: Rm 20 000 Ω·cm², Ri 200 Ω·cm, Cm 1 µF/cm², d 2 µm, ℓ 500 µm (SI below)
+# demo cable of docs/sources.md: Rm 20 000 Ω·cm², Ri 200 Ω·cm, Cm 1 µF/cm², d 2 µm, ℓ 500 µm (SI below)
 RM, RI, CM = 2.0, 2.0, 0.01
 
 
@@ -40,14 +41,14 @@ def observed_orders(errors: list[float]) -> np.ndarray:
 @pytest.mark.parametrize(
     ("end_ratio", "expected_mohm"),
     [
-        (0.0, 739.3466931),  # sealed, R∞ coth L (Rall 1959) [COMP], checks.md §1
-        (math.inf, 274.0830103),  # killed, R∞ tanh L [COMP], checks.md §1
-        (0.5, 529.5528737),  # leaky B = 0.5 [COMP], checks.md §1 (Rall 1959/1977 [MEM])
-        (1.0, 450.1581581),  # B = 1 equals R∞ exactly [COMP], checks.md §1
+        (0.0, 739.3466931),  # sealed, R∞ coth L (Rall 1959 [Rall1959]), computed
+        (math.inf, 274.0830103),  # killed, R∞ tanh L, computed
+        (0.5, 529.5528737),  # leaky B = 0.5, computed (Rall 1959 [Rall1959], 1977 [Rall1977] [MEM])
+        (1.0, 450.1581581),  # B = 1 equals R∞ exactly, computed
     ],
 )
 def test_input_resistance_converges_at_second_order(end_ratio: float, expected_mohm: float) -> None:
-    """R_in at node 0 tends to the closed form with error ∝ Δx² (checks.md §1 values)."""
+    """R_in at node 0 tends to the closed form with error ∝ Δx² (computed values, Rall 1959 [Rall1959])."""
     r_inf = demo_cable().semi_infinite_input_resistance
     cylinder = demo_cable(end=end_ratio / r_inf)
     # the closed form in cable.py agrees with the vetted value first
@@ -63,7 +64,7 @@ def test_input_resistance_converges_at_second_order(end_ratio: float, expected_m
 
 
 def test_steady_profile_matches_sealed_attenuation() -> None:
-    """V(L/2)/V(0), V(L)/V(0) of the sealed demo cable: 0.8433766820, 0.7932781817 [COMP] checks.md §1."""
+    """V(L/2)/V(0), V(L)/V(0) of the sealed demo cable: 0.8433766820, 0.7932781817 (computed)."""
     cylinder = demo_cable()
     c = cp.discretise_cable(cylinder, 400)
     current = np.zeros(c.size)
@@ -71,12 +72,12 @@ def test_steady_profile_matches_sealed_attenuation() -> None:
     v = cp.steady_state(c, current)
     ratio = cp.sample(c, v, [250 * UM, 500 * UM]) / v[0]
     assert ratio == pytest.approx([0.8433766820, 0.7932781817], rel=1e-5)
-    # V(0) = I R_in = 73.93466931 mV for 100 pA [COMP], checks.md §1
+    # V(0) = I R_in = 73.93466931 mV for 100 pA, computed
     assert v[0] == pytest.approx(73.93466931e-3, rel=1e-5)
 
 
 def demo_tree(segments: int, soma_area: float | None = None) -> cp.Compartments:
-    """Three-order 3/2-rule tree of checks.md §3.1 (invented numbers)."""
+    """Three-order 3/2-rule demo tree of docs/sources.md (invented numbers)."""
     d0 = 4.0
     d1, d2 = d0 * 2 ** (-2 / 3), d0 * 4 ** (-2 / 3)
     parents = [-1, 0, 0, 1, 1, 2, 2]
@@ -86,14 +87,14 @@ def demo_tree(segments: int, soma_area: float | None = None) -> cp.Compartments:
 
 
 def test_branched_tree_input_resistance_converges() -> None:
-    """Root input resistance of the checks.md §3.1 tree: 209.5027757 MΩ [COMP] (Rall 1959 equiv. cylinder)."""
+    """Root input resistance of the demo tree: 209.5027757 MΩ, computed (Rall 1959 [Rall1959] equiv. cylinder)."""
     errors = [cp.node_input_resistance(demo_tree(n)) - 209.5027757 * MOHM for n in (3, 6, 12, 24)]
     assert observed_orders(errors) == pytest.approx(2.0, abs=0.05)
     assert abs(errors[-1]) < 2e-4 * 209.5027757 * MOHM
 
 
 def test_tree_with_soma_gives_rho_and_rn() -> None:
-    """20-µm spherical soma: ρ = 7.596794008 and R_N = 185.1329030 MΩ [COMP], checks.md §3.1."""
+    """20-µm spherical soma: ρ = 7.596794008 and R_N = 185.1329030 MΩ, computed (Rall 1969 [Rall1969])."""
     soma_area = math.pi * (20 * UM) ** 2
     r_n = [cp.node_input_resistance(demo_tree(n, soma_area)) for n in (6, 12, 24)]
     assert observed_orders([r - 185.1329030 * MOHM for r in r_n]) == pytest.approx(2.0, abs=0.1)
@@ -104,7 +105,7 @@ def test_tree_with_soma_gives_rho_and_rn() -> None:
 
 
 def test_tip_input_resistance_and_reciprocity() -> None:
-    """Input at one tip: R_tip = 403.0239523 MΩ, transfer tip→root 136.2391908 MΩ [COMP], checks.md §3.1."""
+    """Input at one tip: R_tip = 403.0239523 MΩ, transfer tip→root 136.2391908 MΩ, computed."""
     c = demo_tree(40)
     tip = int(cp.section_nodes(c, 3)[-1])
     assert cp.node_input_resistance(c, tip) == pytest.approx(403.0239523 * MOHM, rel=2e-4)
@@ -113,15 +114,15 @@ def test_tip_input_resistance_and_reciprocity() -> None:
     unit_root = np.zeros(c.size)
     unit_root[0] = 1.0
     v = cp.steady_state(c, np.column_stack([unit_tip, unit_root]))
-    assert v[0, 0] == pytest.approx(v[tip, 1], rel=1e-12)  # reciprocity (Rall & Rinzel 1973)
+    assert v[0, 0] == pytest.approx(v[tip, 1], rel=1e-12)  # reciprocity (Rall & Rinzel 1973 [RallRinzel1973])
     assert v[0, 0] == pytest.approx(136.2391908 * MOHM, rel=2e-4)
 
 
 # ---------------------------------------------------------------------------------------------
-# time course: exact sealed-cable charging at X = 0, L = 1 (checks.md §2.5, from Rall 1969's series)
+# time course: exact sealed-cable charging at X = 0, L = 1 (computed from Rall 1969's series [Rall1969])
 # ---------------------------------------------------------------------------------------------
 CHARGING_T = np.array([0.1, 0.5, 1.0])
-CHARGING_L1 = np.array([0.2629635738, 0.5374585210, 0.7198225011])  # [COMP] checks.md §2.5
+CHARGING_L1 = np.array([0.2629635738, 0.5374585210, 0.7198225011])  # computed
 
 
 def charging_error(segments: int, steps_per_tau: int, scheme: str) -> np.ndarray:
@@ -136,14 +137,15 @@ def charging_error(segments: int, steps_per_tau: int, scheme: str) -> np.ndarray
 
 
 def test_backward_euler_is_first_order_in_time() -> None:
-    """Backward Euler: error ∝ Δt (standard numerical analysis; Crank & Nicolson 1947 discuss both)."""
+    """Backward Euler: error ∝ Δt (standard numerical analysis; Crank & Nicolson 1947 discuss both
+    [CrankNicolson1947])."""
     errors = [charging_error(400, m, "backward-euler") for m in (20, 40, 80)]
     orders = np.log2(np.abs(errors[0] / errors[1])), np.log2(np.abs(errors[1] / errors[2]))
     assert np.all(np.abs(np.array(orders) - 1.0) < 0.06)
 
 
 def test_crank_nicolson_is_second_order_in_time() -> None:
-    """Crank–Nicolson: error ∝ Δt² (Crank & Nicolson 1947); backward-Euler start (Rannacher 1984 [MEM])."""
+    """Crank–Nicolson: error ∝ Δt² [CrankNicolson1947]; backward-Euler start (Rannacher 1984 [Rannacher1984] [MEM])."""
     errors = [charging_error(1600, m, "crank-nicolson") for m in (40, 80, 160)]
     orders = np.log2(np.abs(errors[1] / errors[2]))
     assert np.all(np.abs(orders - 2.0) < 0.1)
@@ -160,7 +162,7 @@ def test_time_course_is_second_order_in_space() -> None:
 def test_voltage_clamp_relaxes_with_the_clamped_time_constant() -> None:
     """Clamp at X = 0, sealed far end, L = 1: slowest τ = 0.2884004391 τm, steady ratio 1/cosh L.
 
-    checks.md §2.2 (Rall 1969 [PUB 3]; [COMP]) and §1 (1/cosh 1 = 0.6480542737).
+    Computed from Rall 1969 [Rall1969] (τ) and Rall 1959 [Rall1959] (1/cosh 1 = 0.6480542737).
     """
     cylinder = demo_cable(length=demo_cable().length_constant)
     tau = cylinder.time_constant

@@ -14,7 +14,8 @@ from cabletheory.cli import main
 def test_very_short_cable_stays_within_its_error_bound(length):
     """A cable far shorter than λ charges like an isopotential cell; the value must still lie within
     the reported bound of the exact solution, here the mpmath Talbot inversion of the sealed cable's
-    Laplace-domain voltage at X = 0, coth(L q)/(s q), q = √(1+s) (Rall 1969 [PUB 3]; checks.md §2.5)."""
+    Laplace-domain voltage at X = 0, coth(L q)/(s q), q = √(1+s) (Rall 1969 [Rall1969];
+    Talbot 1979 [Talbot1979])."""
     cyl = cable.Cylinder(2.0, 2.0, 0.01, 2e-6, length)
     tau, lam, r_inf = cyl.time_constant, cyl.length_constant, cyl.semi_infinite_input_resistance
     L = length / lam

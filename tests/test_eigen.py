@@ -1,7 +1,7 @@
 """Eigenvalues, time constants and coefficients against published and vetted values.
 
-Sources: Rall W (1969) Biophys. J. 9:1483 (sealed-cylinder time constants, peeling); the vetted
-table of ../shared/reference/checks.md section 2 (tags kept beside each table).
+Sources: Rall W (1969) Biophys. J. 9:1483 (sealed-cylinder time constants, peeling) [Rall1969]; values
+computed from its formulas with mpmath [mpmath2023] (named beside each table; keys of docs/sources.md).
 """
 
 import math
@@ -20,7 +20,7 @@ from cabletheory.errors import InputError
     (2.0, [3.467401100, 10.86960440, 23.20660990]),
 ])
 def test_sealed_time_constants_rall_1969(L, ratios):
-    """τ0/τn = 1 + (nπ/L)² (Rall 1969 [PUB 3]; checks.md table 2.1 [COMP])."""
+    """τ0/τn = 1 + (nπ/L)² (Rall 1969 [Rall1969]; computed)."""
     tau = eigen.time_constants(0.02, L, 0.0, 4)
     assert tau[0] == pytest.approx(0.02, rel=1e-15)
     np.testing.assert_allclose(tau[0] / tau[1:], ratios, rtol=1e-9)
@@ -29,12 +29,12 @@ def test_sealed_time_constants_rall_1969(L, ratios):
 @pytest.mark.parametrize(("ratio", "L"), [(3, 2.221441469), (5, 1.570796327), (10, 1.047197551),
                                           (20, 0.7207307841)])
 def test_peeling_rall_1969(ratio, L):
-    """L = π/√(τ0/τ1 − 1) (Rall 1969 [PUB 3] abstract; checks.md table 2.1 [COMP])."""
+    """L = π/√(τ0/τ1 − 1) (Rall 1969 [Rall1969] abstract; computed)."""
     assert eigen.peeling_electrotonic_length(ratio) == pytest.approx(L, rel=1e-9)
 
 
 def test_peeling_round_trip_and_coefficient_estimate():
-    """Both estimates of L from checks.md 2.1: τ ratio and C1/C0 = 2/(1+π²) at L = 1 [COMP]."""
+    """Both estimates of L (Rall 1969 [Rall1969]): τ ratio and C1/C0 = 2/(1+π²) at L = 1 (computed)."""
     tau = eigen.time_constants(1.0, 1.3, 0.0, 3)
     assert eigen.peeling_electrotonic_length(tau[0] / tau[2], mode=2) == pytest.approx(1.3, rel=1e-12)
     assert eigen.coefficient_electrotonic_length(0.1839993367) == pytest.approx(1.0, rel=1e-9)
@@ -50,13 +50,13 @@ def test_peeling_round_trip_and_coefficient_estimate():
     (1.0, math.inf, "clamped", [10.86960440, 40.47841760]),
 ])
 def test_killed_and_clamped_time_constants(L, B, origin, expected):
-    """τm/τn for killed ends and voltage clamp (checks.md table 2.2 [COMP]; Rall 1969 [PUB 3] derives these
-    time constants, its exact equations are recalled from memory [MEM])."""
+    """τm/τn for killed ends and voltage clamp (computed; Rall 1969 [Rall1969] derives these time
+    constants, its exact equations are recalled from memory [MEM])."""
     alpha = eigen.eigenvalues(L, B, len(expected), origin=origin)
     np.testing.assert_allclose(1 + alpha**2, expected, rtol=1e-9)
 
 
-BALL_AND_STICK = [  # L, ρ, α1..3, C0, C1 — checks.md table 2.3 [COMP]
+BALL_AND_STICK = [  # L, ρ, α1..3, C0, C1 — computed (Rall 1969 [Rall1969])
     (1, 1, [2.124399385, 4.970647600, 8.016334927], 0.8646647168, 0.1261786720),
     (1, 5, [2.745502743, 5.578830082, 8.511022013], 0.7931077428, 0.1613066229),
     (1, 10, [2.922580840, 5.863213357, 8.832618940], 0.7784660520, 0.1559937099),
@@ -70,7 +70,7 @@ BALL_AND_STICK = [  # L, ρ, α1..3, C0, C1 — checks.md table 2.3 [COMP]
 
 @pytest.mark.parametrize(("L", "rho", "alphas", "c0", "c1"), BALL_AND_STICK)
 def test_ball_and_stick_table(L, rho, alphas, c0, c1):
-    """tan αL = −α tanh L/ρ and soma step coefficients (Rall 1969 [PUB 3]; checks.md table 2.3 [COMP])."""
+    """tan αL = −α tanh L/ρ and soma step coefficients (Rall 1969 [Rall1969]; computed)."""
     alpha, c = eigen.ball_and_stick_coefficients(L, rho, 4)
     assert alpha[0] == 0.0
     np.testing.assert_allclose(alpha[1:], alphas, rtol=1e-9)
@@ -79,7 +79,7 @@ def test_ball_and_stick_table(L, rho, alphas, c0, c1):
 
 
 def test_ball_and_stick_closed_form_coefficients():
-    """C_n = 2(1+ρ)/[(1+α²)(1 + ρL coth L sec² αL)] (checks.md 2.3, derived there [COMP])."""
+    """C_n = 2(1+ρ)/[(1+α²)(1 + ρL coth L sec² αL)] (residues derived from Rall 1969 [Rall1969])."""
     L, rho = 1.3, 4.0
     alpha, c = eigen.ball_and_stick_coefficients(L, rho, 8)
     k = rho * L / math.tanh(L)
@@ -89,12 +89,12 @@ def test_ball_and_stick_closed_form_coefficients():
 
 
 def test_small_rho_limit():
-    """ρ → 0: α1 L → π/2; at ρ = 1e-6, L = 1: 1.570797163 (checks.md 2.3 [COMP])."""
+    """ρ → 0: α1 L → π/2; at ρ = 1e-6, L = 1: 1.570797163 (computed)."""
     assert eigen.eigenvalues(1.0, 0.0, 2, conductance_ratio=1e-6)[1] == pytest.approx(1.570797163, rel=1e-9)
 
 
 def test_johnston_1981_ca3_values():
-    """Johnston (1981) CA3 means (L, ρ) = (0.94, 1.51): τ0/τ1 = 6.855225442 (checks.md 2.3 [PUB 6]/[COMP])."""
+    """Johnston (1981) CA3 means (L, ρ) = (0.94, 1.51): τ0/τ1 = 6.855225442 ([Johnston1981]; computed)."""
     alpha, c = eigen.ball_and_stick_coefficients(0.94, 1.51, 2)
     assert 1 + alpha[1] ** 2 == pytest.approx(6.855225442, rel=1e-9)
     assert c[1] / c[0] == pytest.approx(0.1523926029, rel=1e-9)

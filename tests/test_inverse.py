@@ -1,10 +1,11 @@
 """The inverse problem (cabletheory.inverse) against published and vetted values.
 
-Sources: Rall W (1969) Biophys. J. 9:1483 (peeling, time constants and electrotonic length);
-Johnston D (1981) Cell. Mol. Neurobiol. 1:41 (CA3 cells, L and ρ from the first two exponentials);
-the vetted tables of ../shared/reference/checks.md §2.1, §2.3 and §3.1 (tags kept beside each
-table). Forward problems are recomputed with cabletheory.eigen, an independent route (root finding
-on the eigenvalue equation and mode norms) from the closed-form inversion under test.
+Sources: Rall W (1969) Biophys. J. 9:1483 (peeling, time constants and electrotonic length)
+[Rall1969]; Johnston D (1981) Cell. Mol. Neurobiol. 1:41 (CA3 cells, L and ρ from the first two
+exponentials) [Johnston1981]; values computed from their formulas with mpmath [mpmath2023] (named
+beside each table; keys of docs/sources.md). Forward problems are recomputed with cabletheory.eigen,
+an independent route (root finding on the eigenvalue equation and mode norms) from the closed-form
+inversion under test.
 """
 
 import dataclasses
@@ -25,12 +26,12 @@ from cabletheory.errors import InputError
 @pytest.mark.parametrize(("ratio", "L"), [(3, 2.221441469), (5, 1.570796327), (10, 1.047197551),
                                           (20, 0.7207307841)])
 def test_cylinder_peeling_table(ratio, L):
-    """L = π/√(τ0/τ1 − 1): checks.md §2.1 peeling table [COMP, Rall 1969 [PUB 3]]."""
+    """L = π/√(τ0/τ1 − 1): peeling (Rall 1969 [Rall1969]), computed."""
     assert inverse.cylinder_length_from_time_constants(ratio) == pytest.approx(L, rel=1e-9)
 
 
 def test_cylinder_peeling_worked_example():
-    """τ0 = 20 ms, τ1 = 2 ms give L = π/3 = 1.047197551 (checks.md §2.1 [COMP, Rall 1969])."""
+    """τ0 = 20 ms, τ1 = 2 ms give L = π/3 = 1.047197551 (Rall 1969 [Rall1969])."""
     assert inverse.cylinder_length_from_time_constants(0.020 / 0.002) == pytest.approx(math.pi / 3, rel=1e-14)
 
 
@@ -40,19 +41,19 @@ def test_cylinder_peeling_worked_example():
     (2.0, [3.467401100, 10.86960440, 23.20660990]),
 ])
 def test_cylinder_length_from_every_mode(L, ratios):
-    """τ0/τn of checks.md §2.1 [COMP, Rall 1969] give back L from modes 1, 2 and 3."""
+    """τ0/τn of a sealed cylinder (Rall 1969 [Rall1969], computed) give back L from modes 1, 2 and 3."""
     for mode, ratio in enumerate(ratios, start=1):
         assert inverse.cylinder_length_from_time_constants(ratio, mode) == pytest.approx(L, rel=1e-9)
 
 
 def test_cylinder_length_from_coefficients():
-    """C1/C0 = 2/(1+π²) = 0.1839993367 at L = 1 (checks.md §2.1 [COMP], C0 = 0.7615941560,
+    """C1/C0 = 2/(1+π²) = 0.1839993367 at L = 1 (computed, Rall 1969 [Rall1969]; C0 = 0.7615941560,
     C1 = 0.1401328195)."""
     assert inverse.cylinder_length_from_coefficients(0.1401328195 / 0.7615941560) == pytest.approx(1.0, rel=1e-9)
 
 
 def test_pure_cylinder_estimates_agree_and_show_no_soma():
-    """For a sealed cylinder C1/C0 = 2τ1/τ0 (checks.md §2.1 [COMP]): κ = 1, both L agree, no finite ρ."""
+    """For a sealed cylinder C1/C0 = 2τ1/τ0 (derived from Rall 1969 [Rall1969]): κ = 1, both L agree, no finite ρ."""
     e = inverse.estimate_from_peeling(10.0, 0.2)
     assert e.cylinder_index == pytest.approx(1.0, rel=1e-15)
     assert e.cylinder_length_coefficients == pytest.approx(e.cylinder_length, rel=1e-14)
@@ -87,19 +88,19 @@ def test_cylinder_slope_matches_finite_difference():
 # ball and stick
 # --------------------------------------------------------------------------------------
 def test_inverse_problem_check_value():
-    """checks.md §2.3 inverse-problem check [COMP]: (8.537785309, 0.2033855102) -> (1, 5)."""
+    """Computed ball-and-stick row L = 1, ρ = 5 (Rall 1969 [Rall1969]): (8.537785309, 0.2033855102) -> (1, 5)."""
     solutions = inverse.ball_and_stick_from_peeling(8.537785309, 0.2033855102)
     assert [(s.electrotonic_length, s.conductance_ratio) for s in solutions] == [
         (pytest.approx(1.0, rel=1e-9), pytest.approx(5.0, rel=1e-9))]
     s = solutions[0]
     assert abs(s.time_constant_residual) < 1e-12
     assert abs(s.coefficient_residual) < 1e-12
-    # the predicted next mode and C0, C1: checks.md §2.3 row L = 1, ρ = 5 [COMP]
+    # the predicted next mode and C0, C1: computed row L = 1, ρ = 5
     assert s.second_time_constant_ratio == pytest.approx(32.12334509, rel=1e-8)
     assert s.coefficients[:2] == (pytest.approx(0.7931077428, rel=1e-8), pytest.approx(0.1613066229, rel=1e-8))
 
 
-BALL_AND_STICK = [  # L, ρ, α1, C0, C1 — checks.md table 2.3 [COMP] (Rall 1969; Durand 1984 [MEM])
+BALL_AND_STICK = [  # L, ρ, α1, C0, C1 — computed (Rall 1969 [Rall1969]; Durand 1984 [Durand1984] [MEM])
     (1, 1, 2.124399385, 0.8646647168, 0.1261786720),
     (1, 5, 2.745502743, 0.7931077428, 0.1613066229),
     (1, 10, 2.922580840, 0.7784660520, 0.1559937099),
@@ -112,7 +113,7 @@ BALL_AND_STICK = [  # L, ρ, α1, C0, C1 — checks.md table 2.3 [COMP] (Rall 19
 
 @pytest.mark.parametrize(("L", "rho", "alpha1", "c0", "c1"), BALL_AND_STICK)
 def test_ball_and_stick_table_inverted(L, rho, alpha1, c0, c1):
-    """Every row of checks.md table 2.3 [COMP]: (1 + α1², C1/C0) gives back (L, ρ)."""
+    """Every computed ball-and-stick row: (1 + α1², C1/C0) gives back (L, ρ)."""
     (s,) = inverse.ball_and_stick_from_peeling(1 + alpha1**2, c1 / c0)
     assert s.electrotonic_length == pytest.approx(L, rel=1e-8)
     assert s.conductance_ratio == pytest.approx(rho, rel=1e-7)
@@ -123,16 +124,17 @@ def test_ball_and_stick_table_inverted(L, rho, alpha1, c0, c1):
     (0.96, 2.44, 7.647598686, 0.1779798937),
 ])
 def test_johnston_1981_ca3(L, rho, ratio, c_ratio):
-    """Johnston (1981) CA3 means [PUB 6]: L = 0.94, ρ = 1.51 (exact two-exponential method) and
-    L = 0.96, ρ = 2.44 (Gorman–Mirolli-type); the peeled values those imply are checks.md §2.3
-    "What my formulas give" [COMP]. τ0 = 23.6 ms, τ1 = 3.442629305 ms for the first."""
+    """Johnston (1981) CA3 means [Johnston1981]: L = 0.94, ρ = 1.51 (exact two-exponential
+    method) and L = 0.96, ρ = 2.44 (Gorman–Mirolli-type); the peeled values those imply are
+    computed with the ball-and-stick equations (Rall 1969 [Rall1969]). τ0 = 23.6 ms, τ1 = 3.442629305 ms
+    for the first."""
     (s,) = inverse.ball_and_stick_from_peeling(ratio, c_ratio)
     assert s.electrotonic_length == pytest.approx(L, rel=1e-8)
     assert s.conductance_ratio == pytest.approx(rho, rel=1e-7)
 
 
 def test_johnston_time_constants_in_seconds():
-    """τ0 = 23.6 ms and τ1 = 3.442629305 ms (checks.md §2.3 [COMP], Johnston 1981 [PUB 6])."""
+    """τ0 = 23.6 ms and τ1 = 3.442629305 ms (computed from Johnston 1981 [Johnston1981])."""
     e = inverse.estimate_from_peeling(23.6e-3 / 3.442629305e-3, 0.1523926029)
     (s,) = e.solutions
     assert (s.electrotonic_length, s.conductance_ratio) == (pytest.approx(0.94, rel=1e-8),
@@ -143,7 +145,7 @@ def test_johnston_time_constants_in_seconds():
 
 
 def test_coefficient_ratio_is_not_monotone_in_rho():
-    """checks.md §2.3 warning [COMP]: at L = 1, ρ = 2, 3, 5, 7, 10, 20 give these C1/C0 (forward, eigen)."""
+    """Computed: at L = 1, ρ = 2, 3, 5, 7, 10, 20 give these C1/C0 (forward, eigen)."""
     expected = [0.1841685391, 0.1972825536, 0.2033855102, 0.2028834290, 0.2003860149, 0.1943295458]
     got = []
     for rho in (2, 3, 5, 7, 10, 20):
@@ -153,7 +155,7 @@ def test_coefficient_ratio_is_not_monotone_in_rho():
 
 
 def test_two_rho_for_one_coefficient_ratio_at_known_length():
-    """checks.md §2.3 warning [COMP]: at L = 1, ρ = 7 gives C1/C0 = 0.2028834290, and ρ = 3 and 5 give
+    """Computed: at L = 1, ρ = 7 gives C1/C0 = 0.2028834290, and ρ = 3 and 5 give
     0.1972825536 and 0.2033855102, so a second ρ in (3, 5) has the same C1/C0. Both are returned and
     each reproduces C1/C0 through eigen.ball_and_stick_coefficients."""
     rhos = inverse.conductance_ratios_at_length(1.0, 0.2028834290)
@@ -166,8 +168,8 @@ def test_two_rho_for_one_coefficient_ratio_at_known_length():
 
 
 def test_time_constant_ratio_separates_the_two_rho():
-    """The two ρ of the previous test have different τ0/τ1, so (τ0/τ1, C1/C0) picks one (checks.md §2.3:
-    "A fitter needs both τ0/τ1 and C1/C0")."""
+    """The two ρ of the previous test have different τ0/τ1, so (τ0/τ1, C1/C0) picks one (a fitter
+    needs both τ0/τ1 and C1/C0)."""
     for rho in inverse.conductance_ratios_at_length(1.0, 0.2028834290):
         alpha, coef = eigen.ball_and_stick_coefficients(1.0, rho, 2)
         solutions = inverse.ball_and_stick_from_peeling(1 + alpha[1] ** 2, coef[1] / coef[0])
@@ -207,7 +209,7 @@ def test_index_function_rises_from_zero_to_one():
 
 
 def test_length_bounds_contain_every_ball_and_stick():
-    """π/(2α1) < L < π/α1 for the first root (checks.md §2.3: α_n in ((n−½)π/L, nπ/L))."""
+    """π/(2α1) < L < π/α1 for the first root (derived: α_n in ((n−½)π/L, nπ/L))."""
     for L, rho, alpha1, _, _ in BALL_AND_STICK:
         lo, hi = inverse.length_bounds(1 + alpha1**2)
         assert lo < L < hi
@@ -273,7 +275,7 @@ def test_sensitivity_rows():
 # membrane properties
 # --------------------------------------------------------------------------------------
 def test_membrane_properties_recover_the_demo_tree():
-    """checks.md §3.1 demo tree with a 20 µm soma [COMP] (Rall 1959/1964 equivalent cylinder):
+    """Demo tree of docs/sources.md with a 20 µm soma, computed (Rall 1959 [Rall1959], 1964 [Rall1964]):
     L = 0.9954565254, ρ = 7.596794008, R_N = 185.1329030 MΩ, Rm = 20 000 Ω·cm², Ri = 200 Ω·cm,
     Cm = 1 µF/cm² give back d = 4 µm, λ = 1000 µm, ℓ = 995.4565254 µm, R∞ = 159.1549431 MΩ,
     G_S = 0.6283185307 nS, G_D = 4.773206449 nS, a 20 µm sphere and 12509.27563 µm² of dendrite."""

@@ -2,7 +2,7 @@
 
 The Laplace-domain expressions of cabletheory.symbolic are lambdified to mpmath and inverted
 with ``mpmath.invertlaplace(method="talbot")`` (an independent general-purpose routine), then
-compared with the vetted time courses of checks.md §2.3-2.5 (tags beside each value), with the
+compared with time courses computed with mpmath [mpmath2023] (sources beside each table), with the
 numeric transient evaluators of cabletheory.transient, and with the eigen-series assembled from
 the derived coefficients and cabletheory.eigen's roots.
 """
@@ -48,8 +48,8 @@ def _step(transform):
 # published and vetted time courses
 # --------------------------------------------------------------------------------------
 @pytest.mark.parametrize(("L", "T", "want"), [
-    # checks.md §2.5 [COMP]: V(0,T)/V(0,∞) for a current step into a sealed cylinder (series
-    # derived from Rall 1969, checked there against Talbot inversion of
+    # computed: V(0,T)/V(0,∞) for a current step into a sealed cylinder (series derived from
+    # Rall 1969 [Rall1969], confirmed by Talbot inversion [Talbot1979] of
     # tanh L·coth(L√(1+s))/(s√(1+s)))
     (0.5, 0.1, 0.1629208867), (0.5, 0.5, 0.4394235514), (0.5, 1.0, 0.6599931969), (0.5, 2.0, 0.8749184873),
     (1.0, 0.1, 0.2629635738), (1.0, 0.5, 0.5374585210), (1.0, 1.0, 0.7198225011), (1.0, 2.0, 0.8969294391),
@@ -61,8 +61,8 @@ def test_sealed_cylinder_charging_curve(L, T, want):
 
 
 @pytest.mark.parametrize(("L", "rho", "T", "want"), [
-    # checks.md §2.3 [COMP]: soma voltage V(T)/V(∞) of a ball and stick, current step into the
-    # soma (400-term eigen-series and Talbot agree; Crank-Nicolson to 1e-6); Rall (1969) model
+    # computed: soma voltage V(T)/V(∞) of a ball and stick, current step into the soma (400-term
+    # eigen-series and Talbot agree; Crank-Nicolson to 1e-6); Rall (1969) model [Rall1969]
     (1.0, 5.0, 0.1, 0.2124536900), (1.0, 5.0, 0.5, 0.5166979813), (1.0, 5.0, 1.0, 0.7082003630),
     (1.0, 5.0, 2.0, 0.8926645328),
     (1.5, 10.0, 0.1, 0.2685445896), (1.5, 10.0, 0.5, 0.5989840481), (1.5, 10.0, 1.0, 0.7678738291),
@@ -75,7 +75,7 @@ def test_ball_and_stick_soma_voltage(L, rho, T, want):
 
 
 @pytest.mark.parametrize(("X", "T", "want"), [
-    # checks.md §2.4 [COMP] of Hodgkin & Rushton (1946) [MEM]: V(X,T)/V(0,∞) on a semi-infinite
+    # computed from Hodgkin & Rushton (1946) [HodgkinRushton1946] [MEM]: V(X,T)/V(0,∞) on a semi-infinite
     # cable, current step at X = 0. A sealed cylinder of L = 40 stands in for it: the far end
     # changes these values by less than e^{-(2L-X)²/(4T)} < 1e-100.
     (0.0, 0.1, 0.3452791540), (0.0, 0.25, 0.5204998778), (0.0, 1.0, 0.8427007929), (0.0, 3.0, 0.9856941216),
@@ -87,7 +87,7 @@ def test_semi_infinite_charging_hodgkin_rushton(X, T, want):
 
 
 def test_isopotential_and_infinite_bounds():
-    """checks.md §2.5 sanity rule [COMP]: each charging curve at the origin lies between the
+    """Sanity rule: each charging curve at the origin lies between the
     isopotential cell 1 - e^{-T} and the semi-infinite cable erf√T, and rises with L."""
     T = 0.7
     curves = [_invert(_laplace("current", "sealed"), T, 0, L) * math.tanh(L) for L in (0.3, 1.0, 3.0)]
@@ -98,7 +98,7 @@ def test_isopotential_and_infinite_bounds():
 # against cabletheory.transient (the numeric evaluators)
 # --------------------------------------------------------------------------------------
 DEMO = {"membrane_resistivity": 2.0, "axial_resistivity": 2.0, "membrane_capacitance": 0.01, "diameter": 2e-6}
-# checks.md §1 demo cylinder in SI: Rm 20 000 Ω·cm², Ri 200 Ω·cm, Cm 1 µF/cm², d 2 µm (τm = 20 ms)
+# demo cable of docs/sources.md in SI: Rm 20 000 Ω·cm², Ri 200 Ω·cm, Cm 1 µF/cm², d 2 µm (τm = 20 ms)
 
 
 def _cylinder(L: float, B: float) -> cable.Cylinder:

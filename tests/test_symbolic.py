@@ -3,7 +3,7 @@
 Each derived expression is turned into a numeric function and compared with an independent
 route: the closed forms of ``cabletheory.cable`` (steady state, sinusoidal impedance), the
 root finder and residues of ``cabletheory.eigen``, scipy quadrature of the orthogonality
-integrals, and the vetted values of checks.md sections 2.1-2.5 (tags kept beside each value).
+integrals, and published or computed values with their sources (keys of docs/sources.md).
 Derivations are cached, so the whole file derives each case once.
 """
 
@@ -123,7 +123,7 @@ def test_steady_state_solves_the_boundary_value_problem(origin, end):
 
 
 def _r_in_symbolic(end: str):
-    """G∞/G_D of the cylinder, typed in from Rall (1959) (recalled from memory) as an independent input."""
+    """G∞/G_D of the cylinder, typed in from Rall (1959) [Rall1959] [MEM] as an independent input."""
     L, B = symbol("L"), symbol("B")
     return {"sealed": 1 / sp.tanh(L), "killed": sp.tanh(L), "leaky": (1 + B * sp.tanh(L)) / (B + sp.tanh(L))}[end]
 
@@ -136,7 +136,7 @@ GRID_L = np.array([0.2, 0.7071067812, 1.0, 2.5, 6.0])
 
 @pytest.mark.parametrize("end", ENDS)
 def test_steady_state_equals_cable_closed_forms(end):
-    """V(X)/(I R∞) = input_resistance · voltage_ratio (cable.py, Rall 1959) on a grid, rtol 1e-12."""
+    """V(X)/(I R∞) = input_resistance · voltage_ratio (cable.py, Rall 1959 [Rall1959]) on a grid, rtol 1e-12."""
     d = derive("current", end)
     f = _fn("current", end, "steady_state", ("X",))
     for L in GRID_L:
@@ -172,7 +172,7 @@ def test_soma_steady_state_is_parallel_conductance(end):
 
 @pytest.mark.parametrize("end", ENDS)
 def test_point_source_equals_transfer_resistance(end):
-    """Green's function vs cable.transfer_resistance(X, X0) (Rall & Rinzel 1973), both orders."""
+    """Green's function vs cable.transfer_resistance(X, X0) (Rall & Rinzel 1973 [RallRinzel1973]), both orders."""
     d = derive("current", end)
     f = _fn("current", end, "point_source", ("X", "X0"))
     for L in (0.4, 1.3, 3.0):
@@ -225,14 +225,14 @@ def test_final_value_theorem(origin, end):
 
 
 # --------------------------------------------------------------------------------------
-# eigenvalue equations against published values (checks.md section 2)
+# eigenvalue equations against published forms, values computed with mpmath [mpmath2023]
 # --------------------------------------------------------------------------------------
 def _root_near(eq, guess: float, *args) -> float:
     return optimize.brentq(lambda a: eq(a, *args), guess * (1 - 1e-6), guess * (1 + 1e-6), xtol=1e-15, rtol=1e-15)
 
 
 BALL_AND_STICK = [
-    # L, ρ, α1, α2, α3, C0, C1 -- checks.md §2.3 [COMP], exact evaluation of Rall (1969)'s
+    # L, ρ, α1, α2, α3, C0, C1 -- computed: exact evaluation of Rall (1969)'s [Rall1969]
     # ball-and-stick eigenvalue equation tan(αL) = -α tanh(L)/ρ and its residues
     (1.0, 1.0, 2.124399385, 4.970647600, 8.016334927, 0.8646647168, 0.1261786720),
     (1.0, 5.0, 2.745502743, 5.578830082, 8.511022013, 0.7931077428, 0.1613066229),
@@ -246,7 +246,7 @@ BALL_AND_STICK = [
 
 @pytest.mark.parametrize(("L", "rho", "a1", "a2", "a3", "c0", "c1"), BALL_AND_STICK)
 def test_ball_and_stick_against_rall_1969_table(L, rho, a1, a2, a3, c0, c1):
-    """checks.md §2.3 [COMP] (Rall 1969 form): the derived equation has roots at the tabulated
+    """Computed values (Rall 1969 form [Rall1969]): the derived equation has roots at the tabulated
     α_n (rtol 2e-9, 10 printed digits) and the derived coefficients give C0 and C1 normalised
     to the final soma voltage."""
     d = derive("soma", "sealed")
@@ -261,7 +261,7 @@ def test_ball_and_stick_against_rall_1969_table(L, rho, a1, a2, a3, c0, c1):
 
 
 def test_ball_and_stick_rho_inf_form_agrees():
-    """The ρ∞ = G∞/G_S parameterisation gives the same roots (ρ∞ = ρ coth L, Rall 1969)."""
+    """The ρ∞ = G∞/G_S parameterisation gives the same roots (ρ∞ = ρ coth L, Rall 1969 [Rall1969])."""
     d = derive("soma", "sealed", soma_parameter="rho_inf")
     eq = to_numeric(d.eigenvalue_equation, ["alpha", "L", "rho_inf"])
     assert _root_near(eq, 2.745502743, 1.0, 5.0 / math.tanh(1.0)) == pytest.approx(2.745502743, rel=2e-9)
@@ -269,14 +269,14 @@ def test_ball_and_stick_rho_inf_form_agrees():
 
 
 @pytest.mark.parametrize(("origin", "end", "L", "decay_rates"), [
-    # checks.md §2.2 [COMP]: killed/clamped L = 1 and 2, τm/τ_n = 1 + α_n², α_n = (2n+1)π/(2L)
+    # computed (Rall 1969 [Rall1969]): killed/clamped L = 1 and 2, τm/τ_n = 1 + α_n², α_n = (2n+1)π/(2L)
     ("current", "killed", 1.0, (3.467401100, 23.20660990, 62.68502751)),
     ("clamp", "sealed", 1.0, (3.467401100, 23.20660990, 62.68502751)),
     ("current", "killed", 2.0, (1.616850275, 6.551652476, 16.42125688)),
     ("clamp", "sealed", 2.0, (1.616850275, 6.551652476, 16.42125688)),
     # both ends killed, L = 1: α_n = nπ/L
     ("clamp", "killed", 1.0, (10.86960440, 40.47841760)),
-    # §2.1 sealed cylinder, τ0/τ_n = 1 + (nπ/L)² (Holmes, quoting Rall 1969)
+    # sealed cylinder, τ0/τ_n = 1 + (nπ/L)² (Holmes 2015 [Holmes2015], quoting Rall 1969 [Rall1969])
     ("current", "sealed", 1.0, (10.86960440, 40.47841760, 89.82643961)),
     ("current", "sealed", 0.5, (40.47841760, 158.9136704, 356.3057584)),
     ("current", "sealed", 2.0, (3.467401100, 10.86960440, 23.20660990)),
@@ -290,13 +290,14 @@ def test_time_constant_ratios_against_checks(origin, end, L, decay_rates):
 
 
 def test_zero_mode_exists_exactly_for_sealed_ends_without_clamp():
-    """τ0 = τm appears only when nothing leaks at either end (Rall 1969: 'no τm component' with a killed end)."""
+    """τ0 = τm appears only when nothing leaks at either end (Rall 1969 [Rall1969]: no τm component with a
+    killed end)."""
     have = {(o, e) for o, e in CASES if derive(o, e).zero_mode is not None}
     assert have == {("current", "sealed"), ("soma", "sealed")}
 
 
 @pytest.mark.parametrize(("L", "c0", "c1"), [
-    # checks.md §2.5 [COMP]: C0 = tanh L / L, C1 = 2 C0/(1 + (π/L)²), derived from Rall (1969)'s series
+    # computed: C0 = tanh L / L, C1 = 2 C0/(1 + (π/L)²), derived from Rall (1969)'s series [Rall1969]
     (0.5, 0.9242343145, 0.04566553582),
     (1.0, 0.7615941560, 0.1401328195),
     (2.0, 0.4820137900, 0.2780259774),
@@ -387,7 +388,7 @@ def test_green_function_is_reciprocal(L, x, x0, origin):
 @settings(derandomize=True, deadline=None, max_examples=30)
 @given(L=st.floats(0.05, 4.0), x=st.floats(0, 1), origin=st.sampled_from(ORIGINS))
 def test_leaky_end_limits(L, x, origin):
-    """B → 0 gives the sealed end, B → ∞ the killed end (Rall 1959 [MEM]); a soma is held at
+    """B → 0 gives the sealed end, B → ∞ the killed end (Rall 1959 [Rall1959] [MEM]); a soma is held at
     fixed ρ∞ = G∞/G_S, since Rall's ρ itself depends on the end through G_D."""
     parameter = "rho_inf" if origin == "soma" else "rho"
     names = ["X", "L"]

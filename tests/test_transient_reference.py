@@ -1,7 +1,9 @@
 """Transient responses against published values, vetted tables and mpmath's Talbot inversion.
 
-Tables are from ../shared/reference/checks.md section 2 with their tags; Talbot inversions
-(mpmath.invertlaplace, method='talbot') use Laplace-domain solutions written out here.
+Each check names its source and its key in docs/sources.md; the tabulated values are the named
+formula evaluated to 10 digits with mpmath [mpmath2023] ("computed"). Talbot inversions
+(mpmath.invertlaplace, method='talbot', Talbot 1979 [Talbot1979]) use Laplace-domain solutions
+written out here.
 """
 
 import math
@@ -27,7 +29,7 @@ from cabletheory.transient import (
     steady_green,
 )
 
-# demo cable of checks.md section 1 (invented numbers): d = 2 µm, Rm = 20 kΩ·cm², Ri = 200 Ω·cm, Cm = 1 µF/cm²
+# demo cable of docs/sources.md (invented numbers): d = 2 µm, Rm = 20 kΩ·cm², Ri = 200 Ω·cm, Cm = 1 µF/cm²
 RM, RI, CM, DIAM = 2.0, 2.0, 0.01, 2e-6
 
 
@@ -41,7 +43,7 @@ def cylinder(L, end_ratio=0.0):
                                               (1, 0.8427007929), (2, 0.9544997361), (3, 0.9856941216)])
 def test_hodgkin_rushton_at_the_injection_site(T, erf_value):
     """V(0,T)/V(0,∞) = erf √T: 0.8427 at T = 1 against 1 − e⁻¹ = 0.632 isopotential (Hodgkin & Rushton
-    1946 [MEM]; checks.md table 2.4 [COMP])."""
+    1946 [HodgkinRushton1946] [MEM]; computed)."""
     assert hodgkin_rushton(0.0, T) == pytest.approx(erf_value, rel=1e-10)
     assert hodgkin_rushton(0.0, T) > 1 - math.exp(-T)
 
@@ -49,7 +51,7 @@ def test_hodgkin_rushton_at_the_injection_site(T, erf_value):
 @pytest.mark.parametrize(("T", "x1", "x2"), [(0.5, 0.1220984503, 0.01149718144), (1, 0.2336124405, 0.05038561852),
                                              (2, 0.3264228249, 0.1038891572), (5, 0.3663799236, 0.1340169979)])
 def test_hodgkin_rushton_away_from_the_site(T, x1, x2):
-    """H-R values at X = 1, 2 (checks.md table 2.4 [COMP]; formula Hodgkin & Rushton 1946 [MEM])."""
+    """H-R values at X = 1, 2 (computed; formula Hodgkin & Rushton 1946 [HodgkinRushton1946] [MEM])."""
     assert hodgkin_rushton(1.0, T) == pytest.approx(x1, rel=1e-9)
     assert hodgkin_rushton(2.0, T) == pytest.approx(x2, rel=1e-9)
 
@@ -57,7 +59,8 @@ def test_hodgkin_rushton_away_from_the_site(T, x1, x2):
 @pytest.mark.parametrize(("X", "t_half"), [(0, 0.2274682116), (1, 0.7398186465), (2, 1.243256822),
                                            (3, 1.744934933), (4, 2.245937509), (6, 3.247084836)])
 def test_half_time_table(X, t_half):
-    """Half of the local final value e^(−X) is reached at T_half (checks.md 2.4 half-time table [COMP])."""
+    """Half of the local final value e^(−X) is reached at T_half (computed from Hodgkin & Rushton
+    1946 [HodgkinRushton1946])."""
     assert hodgkin_rushton(X, t_half) / math.exp(-X) == pytest.approx(0.5, abs=2e-10)
 
 
@@ -68,8 +71,8 @@ def test_half_time_table(X, t_half):
     (math.inf, [0.3452791540, 0.6826894921, 0.8427007929, 0.9544997361]),
 ])
 def test_finite_sealed_charging_table(L, column):
-    """Current step into a sealed cylinder at X = 0, V(0,T)/V(0,∞) (checks.md table 2.5 [COMP], series of
-    Rall 1969 [PUB 3])."""
+    """Current step into a sealed cylinder at X = 0, V(0,T)/V(0,∞) (computed from the eigenfunction
+    series of Rall 1969 [Rall1969])."""
     r = charge(cylinder(L), CurrentStep(1e-10), np.array([0.1, 0.5, 1.0, 2.0]) * 0.02, [0.0])
     np.testing.assert_allclose(r.voltage[:, 0] / r.steady_state[0], column, rtol=1e-9)
     assert r.error_bound < 1e-9 * r.steady_state[0]
@@ -80,12 +83,12 @@ def test_finite_sealed_charging_table(L, column):
     (1.5, 10.0, [0.2685445896, 0.5989840481, 0.7678738291, 0.9152664747]),
 ])
 def test_ball_and_stick_soma_step(L, rho, column):
-    """Soma voltage for a current step, V(T)/V(∞) (checks.md table 2.3 [COMP]; Rall 1969 [PUB 3])."""
+    """Soma voltage for a current step, V(T)/V(∞) (computed; Rall 1969 [Rall1969])."""
     model = BallAndStick.with_conductance_ratio(cylinder(L), rho)
     assert model.conductance_ratio == pytest.approx(rho, rel=1e-12)
     r = charge(model, CurrentStep(1e-10), np.array([0.1, 0.5, 1.0, 2.0]) * 0.02, [0.0])
     np.testing.assert_allclose(r.voltage[:, 0] / r.steady_state[0], column, rtol=1e-9)
-    # the final value is I / (G_S + G_D) (Rall 1959)
+    # the final value is I / (G_S + G_D) (Rall 1959 [Rall1959])
     g_d = 1 / cable.input_resistance(cylinder(L).semi_infinite_input_resistance, L, 0.0)
     assert r.steady_state[0] == pytest.approx(1e-10 / (model.soma_conductance + g_d), rel=1e-12)
     assert r.coefficients[1, 0] / r.coefficients[0, 0] == pytest.approx(
@@ -94,7 +97,7 @@ def test_ball_and_stick_soma_step(L, rho, column):
 
 def test_demo_tree_ball_and_stick_time_constants():
     """Demo tree + 20 µm soma: ρ = 7.596794008, τ1..3 = 2.158878925, 0.5802766523, 0.2580943240 ms
-    (checks.md section 3.1 [COMP])."""
+    (computed; demo tree of docs/sources.md, Rall 1969 [Rall1969])."""
     trunk = Cylinder(RM, RI, CM, 4e-6, 0.9954565254 * cable.length_constant(RM, RI, 4e-6))
     model = BallAndStick(trunk, 20e-6)
     assert model.conductance_ratio == pytest.approx(7.596794008, rel=1e-8)
@@ -195,7 +198,7 @@ def test_alpha_on_finite_cylinder_against_talbot():
 
 
 def test_infinite_cable_si():
-    """An infinite cable injected mid-cable reaches R∞/2·I (checks.md 1: 225.0790790 MΩ [COMP])."""
+    """An infinite cable injected mid-cable reaches R∞/2·I (225.0790790 MΩ, computed; [CP])."""
     model = InfiniteCable(RM, RI, CM, DIAM)
     r = charge(model, CurrentStep(1e-10, 1e-4), [0.0, 0.02, 50.0], [1e-4, -2e-4])
     assert r.voltage[0].tolist() == [0.0, 0.0]
@@ -207,7 +210,7 @@ def test_infinite_cable_si():
 
 
 def test_semi_infinite_is_the_end_injected_hodgkin_rushton():
-    """--length inf: V(X,T) = I R∞ · H-R curve (checks.md 2.4; Hodgkin & Rushton 1946 [MEM])."""
+    """--length inf: V(X,T) = I R∞ · H-R curve (Hodgkin & Rushton 1946 [HodgkinRushton1946] [MEM])."""
     c = cylinder(math.inf)
     r = charge(c, CurrentStep(1e-10), [0.02], [0.0, c.length_constant])
     np.testing.assert_allclose(r.voltage[0] / (1e-10 * c.semi_infinite_input_resistance),
@@ -215,7 +218,7 @@ def test_semi_infinite_is_the_end_injected_hodgkin_rushton():
 
 
 def test_steady_green_equals_cable_transfer_resistance():
-    """steady_green with no soma is transfer_resistance / R∞ (cable.py, Rall & Rinzel 1973)."""
+    """steady_green with no soma is transfer_resistance / R∞ (cable.py, Rall & Rinzel 1973 [RallRinzel1973])."""
     X = np.linspace(0, 1.4, 8)
     for B in (0.0, 0.4, math.inf):
         np.testing.assert_allclose(steady_green(X, 0.5, 1.4, B),

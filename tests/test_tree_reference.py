@@ -1,13 +1,14 @@
 """Trees against outside references: published conditions, vetted values, an independent solver.
 
-* Rall (1959, 1964): a tree obeying the 3/2 rule with every tip at the same electrotonic
+* Rall (1959, 1964) [Rall1959] [Rall1964]: a tree obeying the 3/2 rule with every tip at the same electrotonic
   distance has exactly the input resistance of its equivalent cylinder, R∞·coth L (sealed) or
   R∞·tanh L (killed).
-* The demo tree of the reference sheet (trunk 4 µm × 300 µm, daughters 4·2^(−2/3) µm × 300 µm,
-  granddaughters 4·4^(−2/3) µm × 200 µm; Rm 20 kΩ·cm², Ri 200 Ω·cm): [COMP] values
-  (10 significant digits, exact evaluation of Rall's formulas, confirmed there by an independent
-  branched-tree solver); formula sources Rall 1959/1964 and, for ρ, Rall 1969.
-* scipy.sparse: the compartmental steady state of cabletheory.compartment (a finite-volume
+* The demo tree of docs/sources.md (trunk 4 µm × 300 µm, daughters 4·2^(−2/3) µm × 300 µm,
+  granddaughters 4·4^(−2/3) µm × 200 µm; Rm 20 kΩ·cm², Ri 200 Ω·cm): computed values
+  (10 significant digits, exact evaluation of Rall's formulas with mpmath [mpmath2023], confirmed
+  by an independent branched-tree solver); formula sources Rall 1959/1964 and, for ρ, Rall 1969
+  [Rall1969].
+* scipy.sparse [SciPy2020]: the compartmental steady state of cabletheory.compartment (a finite-volume
   discretisation solved with scipy.sparse.linalg.splu, no closed form involved) converges to
   the exact input resistance at second order.
 """
@@ -51,7 +52,7 @@ def sections_tree(parents, lengths, diameters, soma_diameter=None, end_diameters
 
 
 def demo(granddaughter_1=200.0, daughter_scale=1.0, soma=None) -> Tree:
-    """The reference sheet's §3.1 tree (µm in, SI out)."""
+    """The demo tree of docs/sources.md (µm in, SI out)."""
     d0, d1, d2 = 4.0, 4.0 * 2 ** (-2 / 3) * daughter_scale, 4.0 * 4 ** (-2 / 3)
     parents = [-1, 0, 0, 1, 1, 2, 2]
     lengths = np.array([300, 300, 300, granddaughter_1, 200, 200, 200]) * UM
@@ -60,7 +61,7 @@ def demo(granddaughter_1=200.0, daughter_scale=1.0, soma=None) -> Tree:
 
 
 # --------------------------------------------------------------------------------------
-# reference sheet §3.1, [COMP] (Rall 1959, 1964; ρ: Rall 1969)
+# demo tree, computed (Rall 1959, 1964; ρ: Rall 1969)
 # --------------------------------------------------------------------------------------
 @pytest.mark.parametrize(("tree_kwargs", "expected_mohm"), [
     ({}, 209.5027757),  # R_in(root) = R∞ coth L_eq
@@ -69,13 +70,13 @@ def demo(granddaughter_1=200.0, daughter_scale=1.0, soma=None) -> Tree:
     ({"soma": 20.0}, 185.1329030),  # with a 20 µm spherical soma: R_N = 1/(G_S + G_D)
 ])
 def test_demo_tree_input_resistance(tree_kwargs, expected_mohm):
-    """[COMP] reference sheet §3.1; formula sources Rall 1959/1964 (R_in), Rall 1969 (soma)."""
+    """Demo tree, computed; formula sources Rall 1959/1964 (R_in) [Rall1959] [Rall1964], Rall 1969 (soma) [Rall1969]."""
     report = analyse_tree(demo(**tree_kwargs), RM, RI, CM)
     assert report.input_resistance / 1e6 == pytest.approx(expected_mohm, rel=1e-9)
 
 
 def test_demo_tree_reduction():
-    """[COMP] reference sheet §3.1: L_eq, area, R∞, ρ, G_S, G_D (Rall 1959/1964, 1969)."""
+    """Demo tree, computed: L_eq, area, R∞, ρ, G_S, G_D (Rall 1959/1964, 1969)."""
     report = analyse_tree(demo(soma=20.0), RM, RI, CM)
     cyl = report.equivalent_cylinder
     assert report.reducible
@@ -96,7 +97,7 @@ def test_demo_tree_reduction():
 
 
 def test_violations_are_found_and_named():
-    """The sensitivity cases of reference sheet §3.1 break Rall's conditions; the audit says where."""
+    """The sensitivity cases of the demo tree (computed) break Rall's conditions; the audit says where."""
     thick = analyse_tree(demo(daughter_scale=1.2), RM, RI, CM)
     assert not thick.reducible
     ratios = {v.id: v.value for v in thick.violations if v.kind == "branch_ratio"}

@@ -118,7 +118,8 @@ def test_bundled_realistic_cell_is_not_reducible_and_says_why():
 
 
 def test_bundled_demo_tree_file():
-    """The section-list demo file holds the reference sheet's §3.1 tree ([COMP], Rall 1959/1964)."""
+    """The section-list demo file holds the demo tree of docs/sources.md (Rall 1959
+    [Rall1959], 1964 [Rall1964])."""
     report = analyse_tree(build_tree(read_morphology(DATA / "lumenia_demo.tree")), RM, RI)
     assert report.reducible
     assert report.input_resistance / 1e6 == pytest.approx(185.1329030, rel=1e-9)

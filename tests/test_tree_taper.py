@@ -1,6 +1,7 @@
 """Tapered segments (frusta): exact electrotonic length and the exact two-port, checked independently.
 
-* scipy.integrate.quad of dx/λ(x) for the electrotonic length (the definition, Rall 1962 [MEM]);
+* scipy.integrate.quad [SciPy2020] of dx/λ(x) for the electrotonic length (the definition, Rall 1962
+  [Rall1962] [MEM]);
 * scipy.integrate.solve_bvp of the tapered steady cable equation (d²V')' = (4Ri/Rm) d V with
   a sealed or loaded far end, for the input conductance (no Bessel functions involved);
 * mpmath at 40 digits, unscaled Bessel functions, for tiny tapers where cancellation threatens;
@@ -29,7 +30,7 @@ UM = 1e-6
 
 @pytest.mark.parametrize(("ell", "d0", "d1"), [(200e-6, 2e-6, 1e-6), (80e-6, 0.5e-6, 3e-6), (1e-3, 4e-6, 4e-6)])
 def test_electrotonic_length_is_the_integral_of_dx_over_lambda(ell, d0, d1):
-    """Definition L = ∫ dx/λ(x) (Rall 1962, [MEM]); integrated numerically by scipy.integrate.quad."""
+    """Definition L = ∫ dx/λ(x) (Rall 1962 [Rall1962] [MEM]); integrated numerically by scipy.integrate.quad."""
     from scipy.integrate import quad
 
     def inverse_lambda(x):

@@ -1,7 +1,8 @@
 """Behaviour of the terminal app, driven by keys and clicks through textual's Pilot.
 
 Each test runs the app headless with ``App.run_test`` inside ``asyncio.run`` (no async plugin
-needed). Expected numbers are the demo-cable [COMP] values of shared/reference/checks.md §1.
+needed). Expected numbers are the demo cable's values of docs/sources.md
+(computed with mpmath [mpmath2023]; formulas Rall 1959 [Rall1959]).
 """
 
 from __future__ import annotations
@@ -57,7 +58,7 @@ def test_starts_on_the_cylinder_view_with_caveat_and_results():
         assert app.current_view == "cylinder"
         assert PASSIVE_CAVEAT in text_of(app, "#caveat")
         results = text_of(app, "#cylinder-results")
-        assert "707.1 µm" in results  # λ, checks.md §1
+        assert "707.1 µm" in results  # λ of the demo cable
         assert "739.3 MΩ" in results  # R∞ coth L, sealed
         assert app.focused is app.query_one("#Rm")  # focus starts on the first field
 
@@ -139,12 +140,12 @@ def test_ctrl_b_cycles_the_far_end_and_the_leaky_end_asks_for_a_conductance():
         await pilot.press("ctrl+b")
         await pilot.pause()
         assert view.end_choice == "killed"
-        assert "274.1 MΩ" in text_of(app, "#cylinder-results")  # R∞ tanh L, checks.md §1 [COMP]
+        assert "274.1 MΩ" in text_of(app, "#cylinder-results")  # R∞ tanh L, computed
         await pilot.press("ctrl+b")
         await pilot.pause()
         assert view.end_choice == "leaky"
         assert conductance.display
-        # B = 1: G_end = G∞ = 1/450.158 MΩ gives R_in = R∞ for every L (checks.md §1 [COMP])
+        # B = 1: G_end = G∞ = 1/450.158 MΩ gives R_in = R∞ for every L (Rall 1959 [Rall1959])
         await type_into(pilot, app, "end_conductance", "2.2214411 nS")
         results = text_of(app, "#cylinder-results")
         assert "Rin input resistance (leaky)" in results

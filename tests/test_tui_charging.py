@@ -1,7 +1,7 @@
 """The charging view driven through Pilot: the exact solver in a worker, keys, flagged fields, export.
 
-Expected numbers: the demo cable of shared/reference/checks.md §1 [COMP] (I R∞ coth L) and
-Rall (1969) for τ0 = τm of a sealed cylinder.
+Expected numbers: the demo cable of docs/sources.md (I R∞ coth L, Rall 1959 [Rall1959], computed)
+and Rall (1969) [Rall1969] for τ0 = τm of a sealed cylinder.
 """
 
 from __future__ import annotations
@@ -59,7 +59,7 @@ def test_charging_view_solves_in_a_worker_and_lists_time_constants():
         assert "τ0  slowest time constant" in results
         assert "20.00 ms" in results  # τ0 = τm for a sealed cylinder (Rall 1969)
         assert "error bound of every value" in results
-        assert "73.93 mV" in results  # I R∞ coth L for 100 pA (checks.md §1 [COMP])
+        assert "73.93 mV" in results  # I R∞ coth L for 100 pA (computed)
         assert view.report is not None
         assert [len(p.spec.series) for p in app.query("#charging CurvePlot")] == [3, 3]
         assert not app.query_one("#charging .plots").loading

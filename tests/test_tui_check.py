@@ -1,7 +1,8 @@
 """The check view's exact cases: every model and stimulus of ``compare``, chosen as in the charging view.
 
 The simulator files here are written from the exact solution (verify.exact_case, whose values are
-checked against checks.md §1, §2.4 and §2.5 in tests/test_verify_exact_case.py and
+checked against computed values of Rall 1959, Rall 1969 and Hodgkin & Rushton 1946 in
+tests/test_verify_exact_case.py and
 tests/test_verify_transient.py) plus one known perturbation, so that the verdict and the worst point
 the view reports are known in advance: the perturbed sample, its time, position and file line.
 """
@@ -23,7 +24,7 @@ from cabletheory.tui.forms import read_check_form
 from cabletheory.verify import exact_case, reference_table
 
 UM, MS, MV = 1e-6, 1e-3, 1e-3
-KILLED = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM, math.inf)  # checks.md §1 demo cable, killed far end
+KILLED = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM, math.inf)  # demo cable (docs/sources.md), killed far end
 PULSE = tr.CurrentPulse(100e-12, 1 * MS, 200 * UM)
 REST, ONSET = -62 * MV, 1 * MS  # the check form's defaults
 BUMP = 40e-6  # V, added to one sample

@@ -1,8 +1,8 @@
 """The terminal app's plain helpers (forms, reports, braille plot, export), tested without an App.
 
 Reference values for the demo cable (d = 2 µm, Rm = 20 kΩ·cm², Ri = 200 Ω·cm, Cm = 1 µF/cm²,
-ℓ = 500 µm) are the [COMP] values of shared/reference/checks.md §1 and §1.1 (formulas: Rall 1959;
-Rall & Rinzel 1973; Koch 1999 ch. 2 [MEM]).
+ℓ = 500 µm; docs/sources.md) are computed with mpmath [mpmath2023] from the formulas of Rall 1959
+[Rall1959], Rall & Rinzel 1973 [RallRinzel1973] and Koch 1999 ch. 2 [Koch1999] [MEM].
 """
 
 from __future__ import annotations
@@ -96,8 +96,8 @@ def test_every_cable_field_default_is_valid():
 
 # -- cable report: the values shown are the core's, checked against external values --------------
 def test_cable_report_matches_reference_values():
-    """checks.md §1 [COMP]: λ = 707.1067812 µm, R∞ = 450.1581581 MΩ, R_in sealed = 739.3466931 MΩ,
-    V(L)/V(0) = 0.7932781817; §1.1 at 100 Hz: λ_f = 271.1023147 µm, |Z_in| = 120.8122622 MΩ,
+    """Computed (demo cable): λ = 707.1067812 µm, R∞ = 450.1581581 MΩ, R_in sealed = 739.3466931 MΩ,
+    V(L)/V(0) = 0.7932781817; at 100 Hz: λ_f = 271.1023147 µm, |Z_in| = 120.8122622 MΩ,
     arg = −41.97365288°, |V(L)/V(0)| = 0.3240784218."""
     report = demo_report()
     assert result(report, "length_constant") == pytest.approx(707.1067812e-6, rel=1e-9)
@@ -111,14 +111,14 @@ def test_cable_report_matches_reference_values():
     columns = {c.key: np.asarray(c.values) for c in profile.columns}
     assert columns["voltage_ratio"][-1] == pytest.approx(0.7932781817, rel=1e-9)
     assert columns["ac_voltage_ratio"][-1] == pytest.approx(0.3240784218, rel=1e-9)
-    # the sealed profile at X = L/2 (checks.md §1 [COMP]): 0.8433766820
+    # the sealed profile at X = L/2 (computed, Rall 1959 [Rall1959]): 0.8433766820
     middle = len(columns["voltage_ratio"]) // 2
     assert columns["voltage_ratio"][middle] == pytest.approx(0.8433766820, rel=1e-9)
 
 
 @pytest.mark.parametrize(("end", "changes", "expected"), [
-    ("killed", {}, 274.0830103e6),  # R∞ tanh L, checks.md §1 [COMP]
-    ("leaky", {"end_conductance": f"{0.5 / 450.1581581e6!r} S"}, 529.5528737e6),  # B = 0.5 [COMP]
+    ("killed", {}, 274.0830103e6),  # R∞ tanh L, computed
+    ("leaky", {"end_conductance": f"{0.5 / 450.1581581e6!r} S"}, 529.5528737e6),  # B = 0.5, computed
     ("leaky", {"end_conductance": f"{1.0 / 450.1581581e6!r} S"}, 450.1581581e6),  # B = 1 gives R∞
 ])
 def test_end_conditions_change_input_resistance(end, changes, expected):
@@ -309,12 +309,12 @@ def charging(model: str = "cylinder", stimulus: str = "step", **texts: str) -> R
 
 
 def test_charging_sealed_cylinder_matches_rall_series():
-    """checks.md §2.5 [COMP] (Rall 1969 series): sealed cylinder, L = 1, current step at X = 0,
-    V(0, T = 1)/V(0, ∞) = 0.7198225011; V(0, ∞) = I R∞ coth L; τ0/τ1 = 1 + π² (§2.1)."""
+    """Computed from the Rall 1969 series [Rall1969]: sealed cylinder, L = 1, current step at X = 0,
+    V(0, T = 1)/V(0, ∞) = 0.7198225011; V(0, ∞) = I R∞ coth L; τ0/τ1 = 1 + π² (Rall 1969)."""
     report = charging(length=LAMBDA, span="20 ms", watch="0 µm")
     table = {c.key: np.asarray(c.values) for c in report.tables[0].columns}
     final = result(report, next(r.key for r in report.results if r.key.startswith("final_voltage")))
-    r_inf = 450.1581581e6  # checks.md §1 [COMP]
+    r_inf = 450.1581581e6  # demo cable R∞, computed
     assert final == pytest.approx(100e-12 * r_inf / math.tanh(1.0), rel=1e-9)
     assert table["time"][-1] == pytest.approx(0.02)
     assert table["voltage_at_0"][-1] / final == pytest.approx(0.7198225011, rel=1e-8)
@@ -325,7 +325,7 @@ def test_charging_sealed_cylinder_matches_rall_series():
 
 
 def test_charging_infinite_cable_is_erf_sqrt_t():
-    """checks.md §2.4 [COMP] (Hodgkin & Rushton 1946): V(0, T = 1)/V(0, ∞) = erf(1) = 0.8427007929."""
+    """Computed (Hodgkin & Rushton 1946 [HodgkinRushton1946]): V(0, T = 1)/V(0, ∞) = erf(1) = 0.8427007929."""
     report = charging("infinite", span="20 ms", watch="0 µm")
     table = {c.key: np.asarray(c.values) for c in report.tables[0].columns}
     final = 100e-12 * 450.1581581e6 / 2  # doubly infinite cable injected mid-way: R∞/2 [CP]
@@ -337,7 +337,7 @@ def test_charging_infinite_cable_is_erf_sqrt_t():
 
 
 def test_charging_ball_and_stick_time_constants():
-    """checks.md §2.3 [COMP]: ball and stick with L = 1, ρ = 5: τ0/τ1 = 8.537785309."""
+    """Computed (Rall 1969 [Rall1969]): ball and stick with L = 1, ρ = 5: τ0/τ1 = 8.537785309."""
     from cabletheory.cable import Cylinder
     from cabletheory.transient import BallAndStick
 
@@ -414,7 +414,7 @@ def test_ui_command_bad_arguments_give_one_line_and_status_2(capsys, argv):
 def test_check_exact_case_reaches_the_closed_form_steady_state(end, tmp_path):
     """The check form's exact answer (verify.exact_case of the form's model and stimulus) for every
     far end settles to I·R_in of cable.input_resistance (R∞ coth L sealed, R∞ tanh L killed,
-    Rall 1959; checks.md §1 [COMP]) and is exactly 0 before the onset."""
+    Rall 1959 [Rall1959]; computed) and is exactly 0 before the onset."""
     from cabletheory import cable
     from cabletheory.tui.forms import read_check_form
     from cabletheory.verify import exact_case

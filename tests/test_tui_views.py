@@ -1,7 +1,7 @@
 """Tree and check views driven through Pilot: open a bundled morphology, open simulator output, export.
 
-Reference values: the demo tree of shared/reference/checks.md §3.1 [COMP] (Rall 1959, 1964:
-equivalent cylinder; exact branched-tree solver) and the simulator check of
+Reference values: the demo tree of docs/sources.md, computed (Rall 1959 [Rall1959], 1964
+[Rall1964]: equivalent cylinder; exact branched-tree solver) and the simulator check of
 worked/simulator_check (its expected.txt, from ``cabletheory compare``).
 """
 
@@ -105,7 +105,7 @@ def test_tree_view_opens_a_file_from_the_dialog_and_highlights_failures():
 
 
 def test_tree_view_exact_and_reduced_input_resistance_of_the_demo_tree(tmp_path):
-    """checks.md §3.1 [COMP]: with a 20 µm soma, R_N = 185.1329030 MΩ and ρ = 7.596794008, the same
+    """Demo tree, computed (Rall 1969 [Rall1969]): with a 20 µm soma, R_N = 185.1329030 MΩ and ρ = 7.596794008, the same
     for the whole tree and for soma + equivalent cylinder (L = 0.9954565254)."""
     target = tmp_path / "tree.json"
 

@@ -1,7 +1,8 @@
 """Core of the simulator check (cabletheory.verify): reading, comparison, orders, advice.
 
-Outside references: checks.md values (tags beside each), the theoretical orders of backward
-Euler (1) and Crank–Nicolson (2) (Crank & Nicolson 1947; standard numerical analysis), and
+Outside references: computed values with their sources beside each (keys of docs/sources.md), the
+theoretical orders of backward Euler (1) and Crank–Nicolson (2) (Crank & Nicolson 1947
+[CrankNicolson1947]; standard numerical analysis), and
 files whose error is known by construction (exact solution plus a known perturbation).
 """
 
@@ -19,7 +20,7 @@ from cabletheory.errors import FileFormatError, InputError, UnitKindError
 from cabletheory.units import parse_quantity
 
 UM, MS, MV = 1e-6, 1e-3, 1e-3
-DEMO = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM)  # checks.md §1 demo cable
+DEMO = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM)  # demo cable of docs/sources.md
 CASE = vf.sealed_step_case(DEMO, 100e-12)
 
 
@@ -155,7 +156,7 @@ def test_positions_beyond_the_cable_are_rejected() -> None:
 
 
 # ---------------------------------------------------------------------------------------------
-# observed orders: BE 1, CN 2 (Crank & Nicolson 1947), and Δx² (three-point difference [CP])
+# observed orders: BE 1, CN 2 (Crank & Nicolson 1947 [CrankNicolson1947]), and Δx² (three-point difference [CP])
 # ---------------------------------------------------------------------------------------------
 def simulated_run(segments: int, step: float, scheme: str) -> vf.Recording:
     times = np.array([10.0, 20.0]) * MS  # T = 0.5 and 1 for τm = 20 ms
@@ -202,7 +203,7 @@ def test_convergence_needs_resolutions() -> None:
 # exact series and advice
 # ---------------------------------------------------------------------------------------------
 def test_sealed_step_series_matches_checks_at_each_length() -> None:
-    """V(0,T)/V(0,∞) for L = 0.5 and 2 (checks.md §2.5 [COMP], from Rall 1969's series)."""
+    """V(0,T)/V(0,∞) for L = 0.5 and 2 (computed from Rall 1969's series [Rall1969])."""
     for L, expected in ((0.5, [0.1629208867, 0.4394235514, 0.6599931969, 0.8749184873]),
                         (2.0, [0.3328586273, 0.6581489934, 0.8140014926, 0.9344959202])):
         cyl = Cylinder(2.0, 2.0, 0.01, 2 * UM, L * DEMO.length_constant)
@@ -212,18 +213,18 @@ def test_sealed_step_series_matches_checks_at_each_length() -> None:
 
 
 def test_advice_meets_target_and_is_minimal_for_a_cable() -> None:
-    """Segments for 0.1 % in R_in (exact R∞ coth L = 739.3466931 MΩ, checks.md §1)."""
+    """Segments for 0.1 % in R_in (exact R∞ coth L = 739.3466931 MΩ, computed)."""
     advice = vf.advise_cable(DEMO, "input-resistance", 1e-3)
     assert advice.exact_value.real == pytest.approx(739.3466931e6, rel=1e-9)
     n = int(advice.segments[0])
     assert advice.error <= 1e-3
     coarser = cp.node_input_resistance(cp.discretise_cable(DEMO, n - 1))
     assert abs(coarser - 739.3466931e6) / 739.3466931e6 > 1e-3
-    assert advice.rule_segments[0] == 19  # 0.1 λ at 100 Hz: λ_f = 271.1023147 µm (checks.md §1.1)
+    assert advice.rule_segments[0] == 19  # 0.1 λ at 100 Hz: λ_f = 271.1023147 µm (computed) [CP]
 
 
 def test_tree_advice_uses_exact_tree_values() -> None:
-    """checks.md §3.1 tree: R_root 209.5027757 MΩ and |Z(100 Hz)| 44.86760779 MΩ [COMP]."""
+    """Demo tree of docs/sources.md: R_root 209.5027757 MΩ and |Z(100 Hz)| 44.86760779 MΩ (computed)."""
     d0 = 4.0
     d1, d2 = d0 * 2 ** (-2 / 3), d0 * 4 ** (-2 / 3)
     args = ([-1, 0, 0, 1, 1, 2, 2], np.array([300, 300, 300, 200, 200, 200, 200]) * UM,

@@ -1,7 +1,7 @@
 """verify.exact_case: the one rule choosing the exact answer for ``reference``, ``compare`` and the app.
 
-Reference values: shared/reference/checks.md §1 (demo cable, [COMP]: R∞ coth L, R∞ tanh L; formulas
-Rall 1959), §2.5 (Rall 1969 charging series, [COMP]) and §2.3 (ball and stick, [COMP]).
+Reference values, computed with mpmath [mpmath2023] (docs/sources.md): the demo cable (R∞ coth L,
+R∞ tanh L; Rall 1959 [Rall1959]), the charging series and the ball and stick of Rall 1969 [Rall1969].
 """
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ from cabletheory.cable import Cylinder
 from cabletheory.errors import InputError
 
 UM, MS = 1e-6, 1e-3
-DEMO = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM)  # checks.md §1 demo cable
+DEMO = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM)  # demo cable of docs/sources.md
 ONE_LAMBDA = Cylinder(2.0, 2.0, 0.01, 2 * UM, DEMO.length_constant)  # L = 1
 SERIES = "eigenfunction series (Rall 1969) truncated by its tail bound"  # sealed_step_case's method
 
@@ -40,7 +40,8 @@ def test_the_independent_series_only_for_a_sealed_step_at_the_origin(model, stim
 
 
 def test_sealed_step_follows_the_rall_charging_curve():
-    """checks.md §2.5 [COMP]: L = 1, V(0, T = 1)/V(0, ∞) = 0.7198225011 with V(0, ∞) = I R∞ coth L."""
+    """Computed from the Rall 1969 series [Rall1969]: L = 1, V(0, T = 1)/V(0, ∞) = 0.7198225011 with
+    V(0, ∞) = I R∞ coth L."""
     case = vf.exact_case(ONE_LAMBDA, tr.CurrentStep(1e-10), 1e-15)
     final = 1e-10 * ONE_LAMBDA.semi_infinite_input_resistance / math.tanh(1.0)
     v, _ = case.evaluate(np.array([ONE_LAMBDA.time_constant]), np.array([0.0]))
@@ -49,7 +50,7 @@ def test_sealed_step_follows_the_rall_charging_curve():
 
 def test_killed_pulse_is_the_difference_of_two_steps_and_settles_to_rest():
     """Linearity [CP]: a pulse of length d is a step at 0 minus a step at d; the killed cable's
-    step settles to I R∞ tanh L = 27.40830103 mV at the origin (checks.md §1 [COMP])."""
+    step settles to I R∞ tanh L = 27.40830103 mV at the origin (computed, Rall 1959 [Rall1959])."""
     killed = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM, math.inf)
     site, d = 200 * UM, 1 * MS
     pulse = vf.exact_case(killed, tr.CurrentPulse(2e-10, d, site), 1e-15)

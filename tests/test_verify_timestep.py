@@ -3,12 +3,13 @@
 Outside references named beside each check:
 
 * the orders in Δt: first for backward Euler, second for Crank–Nicolson (Crank & Nicolson 1947,
-  Proc. Camb. Phil. Soc. 43:50; standard numerical analysis), so halving the time share of the
+  Proc. Camb. Phil. Soc. 43:50 [CrankNicolson1947]; standard numerical analysis), so halving the time share of the
   target shrinks Δt by 2 and by √2;
 * the exact course of a sealed cylinder after a current step at the origin from the
-  independently written Rall (1969) cosine series (``verify.sealed_step_voltage``), and for the
-  other cases ``transient.charge`` (itself checked against checks.md §2 in test_verify_transient.py);
-* the demo cable of checks.md §1 (Rm 20 kΩ·cm², Ri 200 Ω·cm, Cm 1 µF/cm², d 2 µm, ℓ 500 µm:
+  independently written Rall (1969) [Rall1969] cosine series (``verify.sealed_step_voltage``), and for the
+  other cases ``transient.charge`` (itself checked against computed values in
+  test_verify_transient.py);
+* the demo cable of docs/sources.md (Rm 20 kΩ·cm², Ri 200 Ω·cm, Cm 1 µF/cm², d 2 µm, ℓ 500 µm:
   λ = 707.1067812 µm, τm = 20 ms).
 
 Every recommendation is re-checked here without the advice code: ``compartment.integrate`` at
@@ -31,7 +32,7 @@ from cabletheory.cli import main
 from cabletheory.errors import InputError
 
 UM, MS = 1e-6, 1e-3
-DEMO = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM)  # checks.md §1
+DEMO = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM)  # demo cable of docs/sources.md
 CABLE = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "500"]
 
 

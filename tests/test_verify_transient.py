@@ -1,8 +1,9 @@
 """verify.transient_case: every transient of cabletheory.transient as an exact case for comparison.
 
-Outside references named beside each check: checks.md §1, §2.2, §2.3, §2.4 and §2.5 (tags there),
-the independent eigen-series of verify.sealed_step_voltage (Rall 1969), and scipy quadrature of
-the Hodgkin & Rushton (1946) impulse response.
+Outside references named beside each check (keys of docs/sources.md): values computed with mpmath
+[mpmath2023] from Rall 1959 [Rall1959], Rall 1969 [Rall1969] and Hodgkin & Rushton 1946
+[HodgkinRushton1946], the independent eigen-series of verify.sealed_step_voltage (Rall 1969), and
+scipy quadrature [SciPy2020] of the Hodgkin & Rushton (1946) impulse response.
 """
 
 from __future__ import annotations
@@ -19,11 +20,11 @@ from cabletheory.errors import FileFormatError, InputError
 from cabletheory.units import parse_quantity
 
 UM, MS = 1e-6, 1e-3
-RM, RI, CM, D = 2.0, 2.0, 0.01, 2 * UM  # checks.md §1 demo membrane and diameter
+RM, RI, CM, D = 2.0, 2.0, 0.01, 2 * UM  # demo cable's membrane and diameter (docs/sources.md)
 DEMO = Cylinder(RM, RI, CM, D, 500 * UM)
 LAMBDA = DEMO.length_constant  # 707.1067812 µm
 TAU = DEMO.time_constant  # 20 ms
-R_INF = DEMO.semi_infinite_input_resistance  # 450.1581581 MΩ, checks.md §1
+R_INF = DEMO.semi_infinite_input_resistance  # 450.1581581 MΩ, computed
 
 
 def parse(text: str, kind: str, where: str) -> float:
@@ -46,12 +47,12 @@ def test_sealed_step_agrees_with_the_independent_series() -> None:
 
 
 @pytest.mark.parametrize(("model", "final"), [
-    (tr.InfiniteCable.like(DEMO), 0.5 * R_INF),  # V(0,∞) = I R∞/2 (checks.md §2.4)
+    (tr.InfiniteCable.like(DEMO), 0.5 * R_INF),  # V(0,∞) = I R∞/2 ([CP])
     (Cylinder(RM, RI, CM, D, math.inf), R_INF),  # semi-infinite, injected at its end: I R∞
 ])
 def test_injection_site_charges_as_erf_root_t(model, final: float) -> None:
     """V(0,T)/V(0,∞) = erf√T: 0.3452791540, 0.6826894921, 0.8427007929, 0.9544997361 at T = 0.1, 0.5, 1, 2
-    (Hodgkin & Rushton 1946; checks.md §2.4 [COMP])."""
+    (Hodgkin & Rushton 1946 [HodgkinRushton1946]; computed)."""
     case = vf.transient_case(model, tr.CurrentStep(1e-9), 1e-15)
     T = np.array([0.1, 0.5, 1.0, 2.0])
     v, _ = case.evaluate(T * TAU, np.zeros(4))
@@ -60,7 +61,8 @@ def test_injection_site_charges_as_erf_root_t(model, final: float) -> None:
 
 
 def test_infinite_cable_is_symmetric_and_takes_negative_positions() -> None:
-    """X = ±1 of an infinite cable injected at 0: V(1,T)/V(0,∞) = 0.2336124405 at T = 1 (checks.md §2.4)."""
+    """X = ±1 of an infinite cable injected at 0: V(1,T)/V(0,∞) = 0.2336124405 at T = 1 (computed,
+    Hodgkin & Rushton 1946 [HodgkinRushton1946])."""
     case = vf.transient_case(tr.InfiniteCable.like(DEMO), tr.CurrentStep(1e-9, 0.0))
     assert case.start == -math.inf
     v, _ = case.evaluate(np.full(2, TAU), np.array([-LAMBDA, LAMBDA]))
@@ -68,8 +70,8 @@ def test_infinite_cable_is_symmetric_and_takes_negative_positions() -> None:
 
 
 def test_pulse_is_the_difference_of_two_steps() -> None:
-    """Pulse of 0.4 τm at X = 0, sealed L = 1: V(T)/V_step(∞) = S(T) - S(T - 0.4) with S from
-    checks.md §2.5 [COMP] (Rall 1969 series): S(0.5) - S(0.1) = 0.5374585210 - 0.2629635738."""
+    """Pulse of 0.4 τm at X = 0, sealed L = 1: V(T)/V_step(∞) = S(T) - S(T - 0.4) with S computed
+    from the Rall 1969 series [Rall1969]: S(0.5) - S(0.1) = 0.5374585210 - 0.2629635738."""
     cylinder = Cylinder(RM, RI, CM, D, LAMBDA)  # L = 1
     final = 1e-9 * R_INF / math.tanh(1.0)  # I R∞ coth L
     case = vf.transient_case(cylinder, tr.CurrentPulse(1e-9, 0.4 * TAU))
@@ -95,8 +97,8 @@ def test_alpha_current_matches_quadrature_of_the_impulse_response() -> None:
 
 
 def test_voltage_clamp_relaxes_with_the_clamped_time_constant() -> None:
-    """Clamp at X = 0, sealed far end, L = 1: V(L,∞)/V0 = 1/cosh 1 = 0.6480542737 (checks.md §1) and the
-    approach rate 3.467401100 per τm (checks.md §2.2, Rall 1969 [PUB 3])."""
+    """Clamp at X = 0, sealed far end, L = 1: V(L,∞)/V0 = 1/cosh 1 = 0.6480542737 (Rall 1959 [Rall1959]) and
+    the approach rate 3.467401100 per τm (computed, Rall 1969 [Rall1969])."""
     cylinder = Cylinder(RM, RI, CM, D, LAMBDA)
     case = vf.transient_case(cylinder, tr.VoltageStep(0.01))
     T = np.array([1.5, 2.0, 40.0])
@@ -110,7 +112,7 @@ def test_voltage_clamp_relaxes_with_the_clamped_time_constant() -> None:
 
 def test_ball_and_stick_soma_charging() -> None:
     """Current step at the soma, L = 1, ρ = 5: V/V∞ = 0.2124536900, 0.5166979813, 0.7082003630,
-    0.8926645328 at T = 0.1, 0.5, 1, 2 (checks.md §2.3 [COMP], Rall 1969 / Durand 1984 [MEM])."""
+    0.8926645328 at T = 0.1, 0.5, 1, 2 (computed; Rall 1969 [Rall1969] / Durand 1984 [Durand1984] [MEM])."""
     cylinder = Cylinder(RM, RI, CM, D, LAMBDA)
     model = tr.BallAndStick.with_conductance_ratio(cylinder, 5.0)
     g_d = math.tanh(1.0) / R_INF

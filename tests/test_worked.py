@@ -31,14 +31,14 @@ def test_worked_example_output_is_as_documented(folder):
 @pytest.mark.parametrize(
     "line",
     [
-        # shared/reference/checks.md §1 demo cable [COMP]: λ 707.1067812 µm, R∞ 450.1581581 MΩ,
-        # R∞ coth L 739.3466931 MΩ (Rall 1959), 1/cosh L 0.7932781817, profile at L/2 0.8433766820
+        # demo cable of docs/sources.md, computed: λ 707.1067812 µm, R∞ 450.1581581 MΩ,
+        # R∞ coth L 739.3466931 MΩ (Rall 1959 [Rall1959]), 1/cosh L 0.7932781817, profile at L/2 0.8433766820
         "length constant λ                    707.1 µm",
         "semi-infinite input resistance R∞    450.2 MΩ",
         "input resistance R_in (sealed end)   739.3 MΩ",
         "far-end voltage ratio V(ℓ)/V(0)      0.7933",
         "  250.0 µm   0.3536     0.8434",
-        # checks.md §1.1 [COMP] at 100 Hz: |Z_in| 120.8122622 MΩ at -41.97365288°, λ_f 271.1023147 µm
+        # computed (Koch 1999 [Koch1999]) at 100 Hz: |Z_in| 120.8122622 MΩ at -41.97365288°, λ_f 271.1023147 µm
         "input impedance |Z_in|  120.8 MΩ",
         "input impedance phase   -41.97°",
         "AC length constant λ_f  271.1 µm",
@@ -77,8 +77,8 @@ def _load_argv(folder):
 
 @pytest.mark.parametrize(
     ("time_ms", "fraction"),
-    # checks.md §2.3, soma voltage for a current step, L = 1, ρ = 5, V(T)/V(∞) [COMP]; eigen-series and
-    # Talbot inversion agree there (ball and stick: Rall 1969; Durand 1984 [MEM])
+    # computed: soma voltage for a current step, L = 1, ρ = 5, V(T)/V(∞); eigen-series and Talbot
+    # inversion agree (ball and stick: Rall 1969 [Rall1969]; Durand 1984 [Durand1984] [MEM])
     [(2.0, 0.2124536900), (10.0, 0.5166979813), (20.0, 0.7082003630), (40.0, 0.8926645328)],
 )
 def test_ball_and_stick_example_matches_published_charging(time_ms, fraction):
@@ -91,8 +91,8 @@ def test_ball_and_stick_example_matches_published_charging(time_ms, fraction):
 
 
 def test_ball_and_stick_example_time_constants():
-    """checks.md §2.3: L = 1, ρ = 5 gives τ0/τ1 = 8.537785309, C0 = 0.7931077428 and
-    C1 = 0.1613066229 [COMP, Rall 1969 eigenvalue equation and residues]."""
+    """L = 1, ρ = 5 gives τ0/τ1 = 8.537785309, C0 = 0.7931077428 and C1 = 0.1613066229 (computed
+    from Rall 1969's eigenvalue equation and residues [Rall1969])."""
     _, data = _json(_load_argv("ball_and_stick_charging"))
     tau = data["time_constants"]["value"]
     assert tau[0] == pytest.approx(0.020, rel=1e-12)
@@ -103,7 +103,7 @@ def test_ball_and_stick_example_time_constants():
 
 
 def test_tree_example_matches_the_reference_tree():
-    """checks.md §3.1 demo tree [COMP] (Rall 1959/1964 equivalent cylinder): L_eq = 0.9954565254,
+    """Demo tree of docs/sources.md, computed (Rall 1959/1964 equivalent cylinder [Rall1964]): L_eq = 0.9954565254,
     ρ = 7.596794008, R_N = 185.1329030 MΩ with the 20 µm soma, dendrites alone 209.5027757 MΩ."""
     import os
 

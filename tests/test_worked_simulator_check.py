@@ -41,7 +41,7 @@ def test_observed_space_order_is_two(output: str) -> None:
 
 
 def test_exact_values_behind_the_example_match_rall_series() -> None:
-    """The dendrite's exact charging at X = 0 with L = 1 matches checks.md §2.5 [COMP] (Rall 1969)."""
+    """The dendrite's exact charging at X = 0 with L = 1 matches the Rall 1969 series [Rall1969] (computed)."""
     um = 1e-6
     cylinder = Cylinder(2.0, 2.0, 0.01, 2 * um, 1000 * math.sqrt(0.5) * um)  # ℓ = λ, so L = 1
     T = np.array([0.1, 0.5, 1.0, 2.0])
@@ -49,7 +49,7 @@ def test_exact_values_behind_the_example_match_rall_series() -> None:
     final = cylinder.semi_infinite_input_resistance / math.tanh(1.0)  # R∞ coth L (Rall 1959)
     assert v / final == pytest.approx([0.2629635738, 0.5374585210, 0.7198225011, 0.8969294391], abs=2e-10)
     assert np.all(bound < 1e-6 * final)
-    # the example's own dendrite (L = 0.7071): steady V(0) = 100 pA × 739.3466931 MΩ (checks.md §1)
+    # the example's own dendrite (L = 0.7071): steady V(0) = 100 pA × 739.3466931 MΩ (computed, [Rall1959])
     demo = Cylinder(2.0, 2.0, 0.01, 2 * um, 500 * um)
     late, _ = vf.sealed_step_voltage(demo, 100e-12, np.array([1.0]), np.array([0.0]))
     assert late[0] == pytest.approx(73.93466931e-3, rel=1e-9)
