@@ -92,7 +92,7 @@ def test_options_change_what_is_analysed(capsys):
     for extra in ([], ["--axon"], ["--types", "basal"], ["--types", "4"], ["--taper"]):
         _, out, _ = run(capsys, ["tree", path, *MEMBRANE, "--json", *extra])
         data = json.loads(out)
-        counts[" ".join(extra)] = (data["segments"], data["geometry"], {s["type"] for s in data["stems"]})
+        counts[" ".join(extra)] = (data["pieces"], data["geometry"], {s["type"] for s in data["stems"]})
     assert counts["--axon"][0] > counts[""][0]
     assert counts["--types basal"][2] == {3}
     assert counts["--types 4"][2] == {4}

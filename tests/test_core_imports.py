@@ -16,7 +16,10 @@ import cabletheory
 
 PACKAGE = pathlib.Path(cabletheory.__file__).parent
 BOUNDARY = {"units", "__main__"}  # the unit boundary and the front ends may use them
-CORE = sorted(p.stem for p in PACKAGE.glob("*.py") if p.stem not in BOUNDARY and p.stem != "__init__")
+FRONT_ENDS = {"cli", "tui"}
+CORE = sorted([p.stem for p in PACKAGE.glob("*.py") if p.stem not in BOUNDARY and p.stem != "__init__"]
+              + [f"{d.name}.{p.stem}" for d in PACKAGE.iterdir() if (d / "__init__.py").is_file()
+                 and d.name not in FRONT_ENDS for p in d.glob("*.py") if p.stem != "__init__"])
 
 BLOCKER = """
 import sys

@@ -45,7 +45,7 @@ def test_axon_and_type_selection():
     assert len(tree_from_swc(points, include_axon=True)) == 5
     assert tree_from_swc(points, types={3}).labels == ("2", "3")
     assert tree_from_swc(points, types={4}).labels == ("6",)
-    with pytest.raises(InputError, match="no dendritic segments"):
+    with pytest.raises(InputError, match="no dendritic pieces"):
         analyse_tree(tree_from_swc(points, types={7}), RM, RI)
 
 
@@ -110,7 +110,7 @@ def test_bundled_realistic_cell_is_not_reducible_and_says_why():
     report = analyse_tree(build_tree(read_morphology(DATA / "lumenia_pv7_interneuron.swc")), RM, RI)
     assert not report.reducible
     kinds = {v.kind for v in report.violations}
-    assert kinds == {"branch_ratio", "section_diameter", "tip_distance"}
+    assert kinds == {"branch_ratio", "branch_diameter", "tip_distance"}
     assert len(report.reasons) == 3
     assert report.tree.soma_convention == "outline"
     assert {s.type for s in report.stems} == {3, 4}

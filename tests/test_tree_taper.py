@@ -162,4 +162,4 @@ def test_frustum_tree_equivalent_cable_keeps_area():
     assert integral * area_factor == pytest.approx(report.membrane_area, rel=1e-12)
     assert report.membrane_area == pytest.approx(math.pi * 2e-6 * 500e-6, rel=1e-12)
     assert not report.reducible  # a taper changes d^3/2 along the section
-    assert report.violations[0].kind == "section_diameter"
+    assert report.violations[0].kind == "branch_diameter"

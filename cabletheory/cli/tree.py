@@ -34,8 +34,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     add_membrane_options(group)
     geometry = parser.add_argument_group("geometry")
     geometry.add_argument("--taper", action="store_true",
-                          help="SWC: treat each segment as a frustum from its parent point's diameter to its "
-                               "own (default: a cylinder with its own point's diameter)")
+                          help="SWC: treat each piece between two points as a frustum from its parent point's "
+                               "diameter to its own (default: a cylinder with its own point's diameter)")
     geometry.add_argument("--types", metavar="LIST",
                           help="SWC: keep only these point types, e.g. '3,4' or 'basal,apical' "
                                "(default: every type except the axon)")
@@ -45,7 +45,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     audit = parser.add_argument_group("audit tolerances")
     audit.add_argument("--ratio-tolerance", default=str(_DEFAULT_TOLERANCE.branch_ratio), metavar="T",
                        help="largest |Σd_child^3/2 / d_parent^3/2 − 1| at a branch point, and largest relative "
-                            "change of d^3/2 along a section (default %(default)s)")
+                            "change of d^3/2 along a branch (default %(default)s)")
     audit.add_argument("--tip-tolerance", default=str(_DEFAULT_TOLERANCE.tip_spread), metavar="ΔX",
                        help="largest spread of tip electrotonic distances, in λ (default %(default)s)")
     out = parser.add_argument_group("output")
@@ -122,8 +122,8 @@ def as_json(r: TreeReport, file_format: str = "SWC", points: int = 0) -> dict:
         "source": r.tree.source,
         "format": file_format,
         "records": points,
-        "segments": r.segments,
-        "sections": r.sections,
+        "pieces": r.pieces,
+        "branches": r.branches,
         "geometry": r.tree.geometry,
         "conventions": list(r.notes),
         "input_site": r.tree.root_label,
@@ -150,13 +150,13 @@ def as_json(r: TreeReport, file_format: str = "SWC", points: int = 0) -> dict:
         "stems": [
             {"id": _id(r, s.id), "type": s.type, "diameter": quantity(s.diameter, "length"), "tips": s.tips,
              "tip_distance_min": s.tip_distance_min, "tip_distance_max": s.tip_distance_max,
-             "worst_ratio": s.worst_ratio, "worst_section_change": s.worst_section_change,
+             "worst_ratio": s.worst_ratio, "worst_branch_change": s.worst_branch_change,
              "input_conductance": quantity(s.input_conductance, "conductance"),
              "membrane_area": quantity(s.membrane_area, "area"), "reducible": s.reducible}
             for s in r.stems],
         "reducible": r.reducible,
         "reasons": list(r.reasons),
-        "violations": [{"kind": v.kind, "id": _id(r, v.id) if v.kind != "section_diameter" else v.id,
+        "violations": [{"kind": v.kind, "id": _id(r, v.id) if v.kind != "branch_diameter" else v.id,
                         "value": v.value, "limit": v.limit, "line": v.line} for v in r.violations],
         "equivalent_cylinder": {
             "diameter": quantity(c.diameter, "length"),
@@ -215,9 +215,9 @@ def as_text(r: TreeReport, file_format: str = "SWC", points: int = 0, digits: in
         return format_quantity(value, "dimensionless", digits)
 
     t = r.tree
-    what = "points" if file_format == "SWC" else "sections"
-    blocks = [f"Tree {t.source} ({file_format}, {points} {what} -> {r.segments} segments in {r.sections} "
-              f"unbranched sections; input at the {t.root_label})"]
+    what = "points" if file_format == "SWC" else "branches"
+    blocks = [f"Tree {t.source} ({file_format}, {points} {what} -> {r.pieces} pieces in {r.branches} "
+              f"branches; input at the {t.root_label})"]
     blocks.append("Conventions\n-----------\n" + "\n".join(f"  - {n}" for n in r.notes))
     blocks.append(table([
         ("Rm (specific membrane resistance)", fmt(r.membrane_resistivity, "membrane_resistivity")),
@@ -294,8 +294,8 @@ def as_text(r: TreeReport, file_format: str = "SWC", points: int = 0, digits: in
 def _violation_text(v, num) -> str:  # type: ignore[no-untyped-def]
     if v.kind == "branch_ratio":
         return f"branch point {v.id} (line {v.line}): ratio {num(v.value)}, allowed 1 ± {v.limit:g}"
-    if v.kind == "section_diameter":
-        return (f"section {v.id} (from line {v.line}): d^3/2 changes by {100 * v.value:.3g} % along it, "
+    if v.kind == "branch_diameter":
+        return (f"branch {v.id} (from line {v.line}): d^3/2 changes by {100 * v.value:.3g} % along it, "
                 f"allowed {100 * v.limit:g} %")
     return f"tip {v.id} (line {v.line}): X = {num(v.value)}, away from the middle of the tip range"
 

@@ -249,7 +249,7 @@ def tree_outline(r: TreeReport) -> list[OutlineNode]:
     """Root, stems, branch points (with their 3/2 ratio) and tips (with their X), as a hierarchy.
 
     The parent of each line is its nearest ancestor that is itself a line; unbranched runs
-    of segments between them are not listed.
+    of pieces between them are not listed.
     """
     from ..tree import SWC_NAMES
 
@@ -263,7 +263,7 @@ def tree_outline(r: TreeReport) -> list[OutlineNode]:
     tip_x = dict(zip(r.tips.ids, r.tips.electrotonic_distances.tolist(), strict=True))
     stems = {s.id: s for s in r.stems}
     nodes = [OutlineNode("root", -1, f"{t.root_label} (input site)", False)]
-    line_of = [-1] * n  # outline line of the nearest listed ancestor-or-self of each segment
+    line_of = [-1] * n  # outline line of the nearest listed ancestor-or-self of each piece
     for i in range(n):
         p = int(parents[i])
         above = 0 if p < 0 else line_of[p]
@@ -274,7 +274,7 @@ def tree_outline(r: TreeReport) -> list[OutlineNode]:
             s = stems[label]
             text = (f"stem {label} · {SWC_NAMES.get(s.type, f'type {s.type}')} · "
                     f"d {format_quantity(s.diameter, 'length', 3)}")
-            if children[i] != 1:  # the stem's first segment is also a branch point or a tip
+            if children[i] != 1:  # the stem's first piece is also a branch point or a tip
                 nodes.append(OutlineNode(f"stem-{label}", above, text, False))
                 above = len(nodes) - 1
                 text = None
