@@ -38,6 +38,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from .cable import Cylinder
+from .case_fields import CELL_KINDS, END_WORDS, FIELDS, STIMULUS_SHAPES, WHY_UNUSED, fields_for
 from .errors import InputError
 from .transient import (
     AlphaCurrent,
@@ -62,41 +63,6 @@ __all__ = [
     "end_from_word",
     "fields_used",
 ]
-
-CELL_KINDS: dict[str, str] = {
-    "cylinder": "cylinder (finite, or semi-infinite with length inf)",
-    "ball-and-stick": "spherical soma at the origin of a finite cylinder",
-    "infinite": "infinite cable (positions may be negative)",
-}
-STIMULUS_SHAPES: dict[str, str] = {
-    "step": "current step switched on at t = 0 and held",
-    "pulse": "rectangular current pulse from t = 0 lasting the pulse duration",
-    "alpha": "alpha-function current I(t/tp)e^(1-t/tp) peaking at the time to peak",
-    "clamp": "voltage-clamp step at t = 0 (at the origin; anywhere on an infinite cable)",
-}
-END_WORDS: dict[str, float] = {"sealed": 0.0, "killed": math.inf}
-"""The far-end words of a cylinder and of a tree's tips: no current leaves a sealed end; a killed
-end is held at rest. Any other end is leaky: a conductance to rest (S)."""
-
-# canonical field -> (kind of quantity, what it is); the unit boundary reads text into these
-FIELDS: dict[str, tuple[str, str]] = {
-    "cell": ("word", "cell kind"),
-    "membrane_resistivity": ("membrane_resistivity", "specific membrane resistance Rm"),
-    "axial_resistivity": ("axial_resistivity", "axial resistivity Ri"),
-    "membrane_capacitance": ("membrane_capacitance", "specific membrane capacitance Cm"),
-    "diameter": ("length", "cylinder diameter"),
-    "length": ("length", "cylinder length"),
-    "end": ("end", "far end"),
-    "soma_diameter": ("length", "soma diameter"),
-    "shape": ("word", "stimulus shape"),
-    "current": ("current", "stimulus current (peak of an alpha current)"),
-    "voltage": ("voltage", "voltage-clamp step"),
-    "duration": ("time", "pulse duration"),
-    "time_to_peak": ("time", "time to peak of an alpha current"),
-    "stimulus_at": ("length", "stimulus position"),
-    "positions": ("length", "recording positions"),
-}
-
 
 class CaseFieldError(InputError):
     """A case rule is broken; ``field`` is the canonical name (a key of :data:`FIELDS`) to blame.
@@ -128,23 +94,6 @@ def describe_end(conductance: float, ratio: float | None = None) -> str:
     return text + (f" (B = {ratio:.4g})" if ratio is not None else "")
 
 
-def _used(cell: str, shape: str) -> set[str]:
-    used = {"cell", "membrane_resistivity", "axial_resistivity", "membrane_capacitance", "diameter", "shape",
-            "positions"}
-    if cell != "infinite":
-        used |= {"length", "end"}
-    if cell == "ball-and-stick":
-        used.add("soma_diameter")
-    used.add("voltage" if shape == "clamp" else "current")
-    if shape == "pulse":
-        used.add("duration")
-    if shape == "alpha":
-        used.add("time_to_peak")
-    if shape != "clamp" or cell == "infinite":
-        used.add("stimulus_at")
-    return used
-
-
 def fields_used(cell: str, shape: str) -> set[str]:
     """The fields of :data:`FIELDS` that a case of this cell kind and stimulus shape reads.
 
@@ -156,20 +105,7 @@ def fields_used(cell: str, shape: str) -> set[str]:
     if shape not in STIMULUS_SHAPES:
         raise CaseFieldError("shape", f"{shape!r} is not a stimulus shape; expected one of "
                                       f"{', '.join(STIMULUS_SHAPES)}")
-    return _used(cell, shape)
-
-
-_WHY_UNUSED = {
-    "length": "an infinite cable has no length",
-    "end": "an infinite cable has no far end",
-    "soma_diameter": "only a ball and stick has a soma",
-    "voltage": "a voltage is the amplitude of a clamp; a current stimulus takes a current",
-    "current": "a voltage clamp injects no set current; give the clamp voltage only",
-    "duration": "only a pulse has a duration",
-    "time_to_peak": "only an alpha current has a time to peak",
-    "stimulus_at": "a voltage clamp on a cylinder or ball and stick holds the origin; only an infinite "
-                   "cable takes it elsewhere",
-}
+    return fields_for(cell, shape)
 
 
 def _infer_cell(values: Mapping[str, Any]) -> str:
@@ -220,7 +156,7 @@ def build_case(values: Mapping[str, Any]) -> Case:
     used = fields_used(cell, shape)
     for field, value in values.items():
         if value is not None and field not in used:
-            raise CaseFieldError(field, _WHY_UNUSED.get(field, "not used by this case"))
+            raise CaseFieldError(field, WHY_UNUSED.get(field, "not used by this case"))
     rm = _required(values, "membrane_resistivity", "20 kΩ·cm²")
     ri = _required(values, "axial_resistivity", "150 Ω·cm")
     cm = _required(values, "membrane_capacitance", "1 µF/cm²")
@@ -311,7 +247,7 @@ class Case:
             if not 0 <= site <= self.length:
                 raise CaseFieldError("stimulus_at", f"{_um(site)} lies outside the cell (0 to {self._extent()})")
             if self.shape == "clamp" and site != 0:
-                raise CaseFieldError("stimulus_at", _WHY_UNUSED["stimulus_at"])
+                raise CaseFieldError("stimulus_at", WHY_UNUSED["stimulus_at"])
         self.check_positions(self.positions)
 
     # ---- what the case is -------------------------------------------------------------
@@ -468,7 +404,7 @@ class Case:
             values["duration"] = s.duration
         if isinstance(s, AlphaCurrent):
             values["time_to_peak"] = s.time_to_peak
-        if "stimulus_at" in _used(self.kind, self.shape):
+        if "stimulus_at" in fields_for(self.kind, self.shape):
             values["stimulus_at"] = s.position
         if self.positions:
             values["positions"] = list(self.positions)
@@ -512,7 +448,7 @@ class Case:
             amplitude = float(stimulus["amplitude"]["value"])
             values["voltage" if values["shape"] == "clamp" else "current"] = amplitude
             position = float(stimulus.get("position", {"value": 0.0})["value"])
-            if "stimulus_at" in _used(str(values["cell"]), str(values["shape"])):
+            if "stimulus_at" in fields_for(str(values["cell"]), str(values["shape"])):
                 values["stimulus_at"] = position
             for field in ("duration", "time_to_peak"):
                 if field in stimulus:

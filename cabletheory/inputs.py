@@ -114,3 +114,26 @@ def read_case(texts: Mapping[str, str | None], label: Label) -> Case:
         return build_case(values)
     except CaseFieldError as exc:
         raise CaseInputError({exc.field: f"{name(exc.field)}: {exc}"}) from None
+
+
+def read_pass_within(text: str, label: str = "--pass-within") -> tuple[float, bool]:
+    """The acceptance threshold of a comparison: ``(fraction, True)`` for a percentage of the peak
+    exact voltage such as '1 %', else ``(volts, False)`` for a voltage such as '20 µV' (bare: mV)."""
+    raw = text.strip()
+    if raw.endswith("%"):
+        fraction = parse_quantity(raw[:-1], "dimensionless", label) / 100.0
+        if not fraction < 1:
+            raise InputError(f"{label}: {raw!r} is 100 % or more of the peak; expected e.g. 1 %")
+        return fraction, True
+    try:
+        return parse_quantity(raw, "voltage", label), False
+    except InputError as exc:
+        raise InputError(f"{exc} (or a percentage of the peak exact voltage such as 1 %)") from None
+
+
+def read_rest(text: str, label: str = "--rest") -> float | str:
+    """The resting potential to subtract from a recording: a voltage (bare: mV), or 'first' to take
+    each site's first sample."""
+    if text.strip().lower() == "first":
+        return "first"
+    return parse_quantity(text, "voltage", label, allow_zero=True, allow_negative=True)

@@ -76,7 +76,7 @@ def test_charging_view_keys_switch_model_and_stimulus():
         assert not soma.display
         await pilot.press("ctrl+b")
         await settle(app, pilot)
-        assert view.model_choice == "ball"
+        assert view.model_choice == "ball-and-stick"
         assert soma.display
         assert "ρ   dendrite/soma conductance" in text_of(app, "#charging-results")
         await pilot.press("ctrl+n", "ctrl+n", "ctrl+n")

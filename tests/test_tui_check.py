@@ -67,10 +67,10 @@ def test_killed_end_and_pulse_make_the_commands_case(tmp_path):
 
 
 @pytest.mark.parametrize(("model", "stimulus", "texts", "field", "message"), [
-    ("ball", "step", {"length": "inf"}, "length", "a ball and stick needs a finite length"),
+    ("ball-and-stick", "step", {"length": "inf"}, "length", "a ball and stick needs a finite cylinder length"),
     ("cylinder", "step", {"length": "inf", "end": "killed"}, "end", "has no far end"),
-    ("cylinder", "alpha", {"site": "600 µm"}, "site", "lies outside the cable"),
-    ("ball", "pulse", {"site": "-10 µm"}, "site", "lies outside the cable"),
+    ("cylinder", "alpha", {"site": "600 µm"}, "site", "lies outside the cell (0 to 500 µm)"),
+    ("ball-and-stick", "pulse", {"site": "-10 µm"}, "site", "lies outside the cell (0 to 500 µm)"),
     ("cylinder", "pulse", {"duration": "2 mV"}, "duration", "is a voltage"),
     ("infinite", "clamp", {"clamp": "10 pA"}, "clamp", "is a current"),
     ("cylinder", "alpha", {"time_to_peak": "0 ms"}, "time_to_peak", "time to peak"),
@@ -92,7 +92,7 @@ def test_infinite_cable_alpha_current_on_both_sides_passes(tmp_path):
     model = tr.InfiniteCable(2.0, 2.0, 0.01, 2 * UM)
     alpha = tr.AlphaCurrent(100e-12, 1 * MS, 0.0)
     line = write_run(run, model, alpha, np.array([-200.0, 0.0, 200.0]) * UM)
-    setup, errors = read_check_form({"file": str(run), "time_to_peak": "1 ms", "tolerance": "41 µV"},
+    setup, errors = read_check_form({"file": str(run), "time_to_peak": "1 ms", "pass_within": "41 µV"},
                                     "infinite", "alpha")
     assert errors == {}
     analysis = analyse_check(setup)
@@ -179,7 +179,7 @@ def test_killed_end_and_pulse_chosen_by_keys_find_the_perturbed_sample(tmp_path)
         assert f"worst point: file line            {line}" in results
         inputs = {r.key: r.value for r in view.report.inputs}
         assert inputs["exact_case"].startswith("finite cylinder, killed far end, current pulse")
-        app.query_one("#ck-tolerance", Input).value = "50 µV"
+        app.query_one("#ck-pass_within", Input).value = "50 µV"
         await settle(app, pilot)
         assert "within tolerance" in str(app.query_one("#check-results").render())
         # the wrong model (the default sealed end) is far off: the model choice matters
@@ -189,10 +189,10 @@ def test_killed_end_and_pulse_chosen_by_keys_find_the_perturbed_sample(tmp_path)
         # a ball and stick of infinite length is flagged at the length field; nothing crashes
         await pilot.press("ctrl+b")
         await pilot.pause()
-        assert view.model_choice == "ball"
+        assert view.model_choice == "ball-and-stick"
         app.query_one("#ck-length", Input).value = "inf"
         await settle(app, pilot)
-        assert "needs a finite length" in str(app.query_one("#field-ck-length .field-message").render())
+        assert "needs a finite cylinder length" in str(app.query_one("#field-ck-length .field-message").render())
         assert view.report is None
 
     drive(script, view="check")

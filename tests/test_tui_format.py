@@ -343,7 +343,7 @@ def test_charging_ball_and_stick_time_constants():
 
     cylinder = Cylinder(2.0, 2.0, 0.01, 2e-6, 707.1067811865476e-6)
     soma = BallAndStick.with_conductance_ratio(cylinder, 5.0).soma_diameter
-    report = charging("ball", length=LAMBDA, soma=f"{soma!r} m")
+    report = charging("ball-and-stick", length=LAMBDA, soma=f"{soma!r} m")
     assert result(report, "conductance_ratio") == pytest.approx(5.0, rel=1e-9)
     assert result(report, "time_constant_0") / result(report, "time_constant_1") == pytest.approx(
         8.537785309, rel=1e-8)
@@ -353,7 +353,7 @@ def test_charging_ball_and_stick_time_constants():
     ("cylinder", "step", {"watch": "0, 900 µm"}, "watch"),
     ("cylinder", "step", {"site": "600 µm"}, "site"),
     ("cylinder", "step", {"end": "leaky"}, "end"),
-    ("ball", "step", {"length": "inf"}, "length"),
+    ("ball-and-stick", "step", {"length": "inf"}, "length"),
     ("cylinder", "pulse", {"duration": "2 mV"}, "duration"),
     ("cylinder", "clamp", {"clamp": "10 pA"}, "clamp"),
 ])
@@ -368,7 +368,7 @@ def test_charging_form_flags_the_wrong_field(model, stimulus, texts, field):
 def test_charging_fields_follow_the_choices():
     from cabletheory.tui.fields import charging_fields_used
 
-    assert {"soma"} & charging_fields_used("ball", "step")
+    assert {"soma"} & charging_fields_used("ball-and-stick", "step")
     assert not {"soma", "clamp", "duration"} & charging_fields_used("cylinder", "step")
     assert {"clamp"} <= charging_fields_used("cylinder", "clamp")
     assert "site" not in charging_fields_used("cylinder", "clamp")  # a clamp sits at the origin

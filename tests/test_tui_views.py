@@ -200,13 +200,13 @@ def test_check_view_tolerance_field_and_plot_export(tmp_path):
     async def script(app, pilot):
         app.query_one("#check").open_path(str(SIMULATOR / "coarse.csv"))
         await settle(app, pilot)
-        app.query_one("#ck-tolerance", Input).value = "5 %"  # relative: 4.4 % of the peak passes
+        app.query_one("#ck-pass_within", Input).value = "5 %"  # relative: 4.4 % of the peak passes
         await settle(app, pilot)
         assert "within tolerance" in text_of(app, "#check-results")
-        app.query_one("#ck-tolerance", Input).value = "5 pA"
+        app.query_one("#ck-pass_within", Input).value = "5 pA"
         await settle(app, pilot)
-        assert "is a current" in text_of(app, "#field-ck-tolerance .field-message")
-        app.query_one("#ck-tolerance", Input).value = "20 µV"
+        assert "is a current" in text_of(app, "#field-ck-pass_within .field-message")
+        app.query_one("#ck-pass_within", Input).value = "20 µV"
         await settle(app, pilot)
         await pilot.press("ctrl+g")
         app.screen.query_one("#save-path", Input).value = str(target)

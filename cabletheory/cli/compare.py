@@ -9,9 +9,9 @@ import numpy as np
 from .. import PASSIVE_CAVEAT
 from ..compartment import SCHEMES
 from ..errors import InputError
-from ..units import format_quantity, parse_quantity, parse_series
+from ..inputs import read_pass_within
+from ..units import format_quantity, parse_series
 from ..verify import Comparison, Convergence, ExactCase, Recording, compare, convergence, run_spacings, split_stimulus
-from .advise import parse_relative
 from .case import add_case_options
 from .common import dump_json, quantity, write_atomically
 from .reference import (
@@ -54,14 +54,6 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.set_defaults(run=run)
 
 
-def _pass_within(text: str) -> tuple[float, bool]:
-    """(threshold, relative): a percentage of the peak exact voltage, or a voltage (bare: mV)."""
-    raw = text.strip()
-    if raw.endswith("%"):
-        return parse_relative(raw, "--pass-within"), True
-    return parse_quantity(raw, "voltage", "--pass-within"), False
-
-
 def _list(text: str | None, kind: str, field: str, count: int) -> np.ndarray:
     if not text:
         return np.full(count, np.nan)
@@ -72,7 +64,7 @@ def _list(text: str | None, kind: str, field: str, count: int) -> np.ndarray:
 
 
 def run(args: argparse.Namespace) -> int:
-    tolerance, relative = _pass_within(args.pass_within)
+    tolerance, relative = read_pass_within(args.pass_within, "--pass-within")
     cell_case, case = exact_from_options(args)
     recordings = [read_run(path, args) for path in args.runs]
     for recording in recordings:

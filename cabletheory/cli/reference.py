@@ -11,6 +11,7 @@ import numpy as np
 from .. import PASSIVE_CAVEAT
 from ..case import Case, CaseFieldError
 from ..errors import InputError, MissingFileError
+from ..inputs import read_rest
 from ..units import format_quantity, parse_quantity, parse_series
 from ..verify import (
     ExactCase,
@@ -64,10 +65,7 @@ def read_run(path: str, args: argparse.Namespace) -> Recording:
         text = p.read_text(encoding="utf-8-sig")
     except UnicodeDecodeError:
         raise InputError(f"{path}: not a UTF-8 text file") from None
-    rest: float | str = 0.0
-    if getattr(args, "rest", None):
-        rest = "first" if args.rest.strip().lower() == "first" else parse_quantity(
-            args.rest, "voltage", "--rest", allow_zero=True, allow_negative=True)
+    rest: float | str = read_rest(args.rest, "--rest") if getattr(args, "rest", None) else 0.0
     onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) \
         if getattr(args, "onset", None) else 0.0
     site = (parse_quantity(args.column_at, "length", "--column-at", allow_zero=True, allow_negative=True)

@@ -64,7 +64,7 @@ class CheckView(CaseChoices, Vertical):
                 yield QuantityField(_SPECS["file"], prefix=PREFIX, value=self.initial_file)
                 yield from case_form(PREFIX, _SPECS)
                 yield Label("the file", classes="group-label")
-                for name in ("rest", "onset", "tolerance"):
+                for name in ("rest", "onset", "pass_within"):
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
                 yield Label("error plotted  (ctrl+p switches)", classes="group-label")
                 with RadioSet(id="ck-axis", compact=True):

@@ -9,6 +9,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
+from ..case_fields import fields_for
+
 __all__ = ["CABLE_FIELDS", "CASE_FIELDS", "CHARGING_FIELDS", "CHECK_FIELDS", "DEMO_SWC", "END_CHOICES",
            "MODEL_CHOICES", "STIMULUS_CHOICES", "TREE_FIELDS", "FieldSpec", "bundled_morphologies",
            "charging_fields_used", "check_fields_used", "fields_used"]
@@ -57,7 +59,7 @@ CABLE_FIELDS: tuple[FieldSpec, ...] = (
 
 MODEL_CHOICES: dict[str, str] = {
     "cylinder": "cylinder",
-    "ball": "ball and stick",
+    "ball-and-stick": "ball and stick",
     "infinite": "infinite cable",
 }
 STIMULUS_CHOICES: dict[str, str] = {
@@ -92,16 +94,12 @@ CHARGING_FIELDS: tuple[FieldSpec, ...] = (
     FieldSpec("watch", "V(t) at", "length", "0, 250, 500 µm", series=True, allow_negative=True, max_points=8),
     FieldSpec("moments", "V(X) at", "time", "1, 5, 20 ms", series=True, max_points=8),
 )
-# fields that only some choices use
-_FIELD_USE = {
-    "length": lambda model, stimulus: model != "infinite",
-    "end": lambda model, stimulus: model != "infinite",
-    "soma": lambda model, stimulus: model == "ball",
-    "current": lambda model, stimulus: stimulus != "clamp",
-    "clamp": lambda model, stimulus: stimulus == "clamp",
-    "duration": lambda model, stimulus: stimulus == "pulse",
-    "time_to_peak": lambda model, stimulus: stimulus == "alpha",
-    "site": lambda model, stimulus: stimulus != "clamp" or model == "infinite",
+# the app's case fields and the canonical fields of cabletheory.case they set; which of them a
+# choice of cell and stimulus uses is the core's rule (case_fields.fields_for)
+CASE_FIELD_NAMES: dict[str, str] = {
+    "Rm": "membrane_resistivity", "Ri": "axial_resistivity", "Cm": "membrane_capacitance",
+    "diameter": "diameter", "length": "length", "end": "end", "soma": "soma_diameter", "current": "current",
+    "clamp": "voltage", "duration": "duration", "time_to_peak": "time_to_peak", "site": "stimulus_at",
 }
 TIME_POINTS = 241  # samples of each V(t) curve
 PROFILE_POINTS = 61  # samples of each V(X) curve
@@ -110,7 +108,8 @@ PROFILE_SPAN = 5.0  # V(X) of a semi-infinite or infinite cable is shown over 5 
 
 def fields_used(specs: tuple[FieldSpec, ...], model: str, stimulus: str) -> set[str]:
     """Names of the fields of ``specs`` that the chosen model and stimulus read."""
-    return {s.name for s in specs if _FIELD_USE.get(s.name, lambda m, st: True)(model, stimulus)}
+    used = fields_for(model, stimulus)
+    return {s.name for s in specs if s.name not in CASE_FIELD_NAMES or CASE_FIELD_NAMES[s.name] in used}
 
 
 def charging_fields_used(model: str, stimulus: str) -> set[str]:
@@ -150,5 +149,5 @@ CHECK_FIELDS: tuple[FieldSpec, ...] = (
     FieldSpec("rest", "resting V", "voltage", "-62 mV", allow_zero=True, allow_negative=True,
               placeholder="e.g. -65 mV, 0, or 'first'"),
     FieldSpec("onset", "stimulus onset", "time", "1 ms", allow_zero=True, allow_negative=True),
-    FieldSpec("tolerance", "tolerance", "voltage", "20 µV", placeholder="e.g. 20 µV or 1 %"),
+    FieldSpec("pass_within", "pass within", "voltage", "20 µV", placeholder="e.g. 20 µV or 1 %"),
 )

@@ -17,10 +17,13 @@ from pathlib import Path
 import numpy as np
 
 from ..cable import Cylinder
+from ..case import Case
 from ..errors import InputError
+from ..transient import Model, Stimulus
 from ..units import format_quantity, parse_quantity, parse_series
 from .fields import (
     CABLE_FIELDS,
+    CASE_FIELD_NAMES,
     CASE_FIELDS,
     CHARGING_FIELDS,
     CHECK_FIELDS,
@@ -112,109 +115,64 @@ def read_cylinder_form(texts: Mapping[str, str], end: str) -> tuple[Cylinder | N
     return cylinder, (None if frequency is None else float(frequency)), errors  # type: ignore[arg-type]
 
 
-def read_end(text: str, label: str = "far end") -> float:
-    """'sealed' -> 0, 'killed' -> inf, else a conductance to rest in S (bare numbers in nS)."""
-    word = text.strip().lower()
-    if word == "sealed":
-        return 0.0
-    if word == "killed":
-        return math.inf
-    try:
-        return parse_quantity(text, "conductance", label, allow_zero=True, allow_inf=True)
-    except InputError as exc:
-        raise InputError(f"{label}: {text.strip()!r} is not 'sealed', 'killed' or a conductance such as "
-                         f"0.5 nS ({str(exc).removeprefix(label + ': ')})") from None
-
-
 # ---------------------------------------------------------------------------------------------
 # the exact case (model and stimulus), shared by the charging and check forms
 # ---------------------------------------------------------------------------------------------
 @dataclass(frozen=True, slots=True)
 class CaseSetup:
-    """A cable model and a stimulus in SI, with the choices and far-end text that made them.
+    """The validated :class:`~cabletheory.case.Case` of a form, with the choices and far-end text that
+    made it. The same texts mean the same as the command line's case options: both are read by
+    :func:`cabletheory.inputs.read_case` and checked by :func:`cabletheory.case.build_case`."""
 
-    The same combinations mean the same as the command line's case options (``cli/case.py``):
-    a cylinder (finite with a sealed, killed or leaky far end, or semi-infinite with length
-    ``inf``), a ball and stick (finite length, any far end) or an infinite cable; a current
-    step, pulse or alpha current anywhere on the cable, or a voltage clamp at the origin
-    (anywhere on an infinite cable).
-    """
-
-    model: object  # cable.Cylinder, transient.BallAndStick or transient.InfiniteCable
-    stimulus: object  # transient.CurrentStep, CurrentPulse, AlphaCurrent or VoltageStep
-    model_choice: str  # a key of MODEL_CHOICES
-    stimulus_choice: str  # a key of STIMULUS_CHOICES
+    case: Case
+    model_choice: str  # a key of MODEL_CHOICES (= cabletheory.case.CELL_KINDS)
+    stimulus_choice: str  # a key of STIMULUS_CHOICES (= cabletheory.case.STIMULUS_SHAPES)
     end: str  # the far-end text as typed ("sealed", "killed", "0.5 nS")
+
+    @property
+    def model(self) -> Model:
+        return self.case.cell
+
+    @property
+    def stimulus(self) -> Stimulus:
+        return self.case.stimulus
 
     @property
     def length(self) -> float:
         """m; inf for a semi-infinite or infinite cable."""
-        from .. import transient as tr
-
-        if isinstance(self.model, tr.InfiniteCable):
-            return math.inf
-        return float(self.model.cylinder.length if isinstance(self.model, tr.BallAndStick)
-                     else self.model.length)  # type: ignore[attr-defined]
+        return self.case.length
 
     @property
     def length_constant(self) -> float:
         """λ, m."""
-        from .. import transient as tr
-
-        m = self.model
-        return float((m.cylinder if isinstance(m, tr.BallAndStick) else m).length_constant)  # type: ignore[attr-defined]
+        return self.case.length_constant
 
 
 def read_case(texts: Mapping[str, str], model: str, stimulus: str) -> tuple[CaseSetup | None, dict[str, str]]:
-    """The model and stimulus the case fields describe, or the messages of the fields that are wrong.
+    """The case the fields describe, or the one-line messages of the fields that are wrong.
 
     ``model`` is a key of :data:`MODEL_CHOICES`, ``stimulus`` one of :data:`STIMULUS_CHOICES`;
-    only the fields these choices use are read. Combinations the command line refuses are
-    flagged at the field that makes them impossible (one line, never an exception).
+    only the fields these choices use are read (missing texts take the field's default).
     """
-    from .. import transient as tr  # numpy only; scipy is imported by the solver when it runs
+    from ..inputs import CaseInputError
+    from ..inputs import read_case as read_case_texts
 
     if model not in MODEL_CHOICES or stimulus not in STIMULUS_CHOICES:
         raise ValueError(f"unknown choice {model!r}/{stimulus!r}")
     used = fields_used(CASE_FIELDS, model, stimulus)
-    form = read_form([s for s in CASE_FIELDS if s.name in used and s.name != "end"], texts)
-    errors = dict(form.errors)
-    end_text = texts.get("end", "sealed")
-    end = 0.0
-    if model != "infinite":
-        try:
-            end = read_end(end_text)
-        except InputError as exc:
-            errors["end"] = str(exc)
-    if errors:
-        return None, errors
-    v = form.values
-    rm, ri, cm, d = (float(v[k]) for k in ("Rm", "Ri", "Cm", "diameter"))  # type: ignore[arg-type]
-    length = math.inf if model == "infinite" else float(v["length"])  # type: ignore[arg-type]
-    if model == "ball" and not math.isfinite(length):
-        errors["length"] = "length: a ball and stick needs a finite length"
-    if model == "cylinder" and math.isinf(length) and end != 0:
-        errors["end"] = "far end: a semi-infinite cable (length inf) has no far end; leave it 'sealed'"
-    site = float(v.get("site") or 0.0)  # type: ignore[arg-type]
-    if model != "infinite" and not 0 <= site <= length:
-        errors["site"] = f"stimulus at: {format_quantity(site, 'length')} lies outside the cable (0 to its length)"
-    if errors:
-        return None, errors
-    model_object: object
-    if model == "infinite":
-        model_object = tr.InfiniteCable(rm, ri, cm, d)
-    else:
-        cylinder = Cylinder(rm, ri, cm, d, length, end)
-        model_object = cylinder if model == "cylinder" else tr.BallAndStick(cylinder, float(v["soma"]))  # type: ignore[arg-type]
-    if stimulus == "step":
-        stim: object = tr.CurrentStep(float(v["current"]), site)  # type: ignore[arg-type]
-    elif stimulus == "pulse":
-        stim = tr.CurrentPulse(float(v["current"]), float(v["duration"]), site)  # type: ignore[arg-type]
-    elif stimulus == "alpha":
-        stim = tr.AlphaCurrent(float(v["current"]), float(v["time_to_peak"]), site)  # type: ignore[arg-type]
-    else:
-        stim = tr.VoltageStep(float(v["clamp"]), site if model == "infinite" else 0.0)  # type: ignore[arg-type]
-    return CaseSetup(model_object, stim, model, stimulus, end_text.strip()), {}
+    case_texts: dict[str, str | None] = {"cell": model, "shape": stimulus}
+    for spec in CASE_FIELDS:
+        if spec.name in used:
+            case_texts[CASE_FIELD_NAMES[spec.name]] = texts.get(spec.name, spec.default)
+    try:
+        case = read_case_texts(case_texts, _CASE_LABELS)
+    except CaseInputError as exc:
+        return None, {_APP_NAMES.get(field, field): message for field, message in exc.errors.items()}
+    return CaseSetup(case, model, stimulus, texts.get("end", "sealed").strip()), {}
+
+
+_CASE_LABELS = {CASE_FIELD_NAMES[s.name]: s.label for s in CASE_FIELDS}
+_APP_NAMES = {canonical: name for name, canonical in CASE_FIELD_NAMES.items()}
 
 
 # ---------------------------------------------------------------------------------------------
@@ -320,12 +278,12 @@ def parse_file_quantity(text: str, kind: str, where: str) -> float:
     return parse_quantity(text, kind, where, allow_zero=True, allow_negative=True)
 
 
-_FILE_FIELDS = ("file", "rest", "onset", "tolerance")
+_FILE_FIELDS = ("file", "rest", "onset", "pass_within")
 
 
 def read_check_form(texts: Mapping[str, str], model: str = "cylinder", stimulus: str = "step"
                     ) -> tuple[CheckSetup | None, dict[str, str]]:
-    """The simulator file, the exact case and the tolerance of the check form, or messages.
+    """The simulator file, the exact case and the pass-within threshold of the check form, or messages.
 
     ``model`` and ``stimulus`` are the choices of :func:`read_case`, read with the same fields
     as the charging form.
@@ -339,23 +297,18 @@ def read_check_form(texts: Mapping[str, str], model: str = "cylinder", stimulus:
         errors["file"] = "file: empty; give the path of the simulator's CSV output (ctrl+o picks one)"
     elif not Path(text).expanduser().is_file():
         errors["file"] = f"file: {text!r} does not exist or is not a file"
-    rest_text = texts.get("rest", "0").strip()
+    from ..inputs import read_pass_within, read_rest
+
     rest: float | str = "first"
-    if rest_text.lower() != "first":
-        try:
-            rest = parse_quantity(rest_text, "voltage", "resting V", allow_zero=True, allow_negative=True)
-        except InputError as exc:
-            errors["rest"] = str(exc)
-    tolerance_text = texts.get("tolerance", "20 µV").strip()
-    relative = tolerance_text.endswith("%")
-    tolerance = 0.0
     try:
-        if relative:
-            tolerance = parse_quantity(tolerance_text[:-1], "dimensionless", "tolerance") / 100.0
-        else:
-            tolerance = parse_quantity(tolerance_text, "voltage", "tolerance")
+        rest = read_rest(texts.get("rest", "0"), "resting V")
     except InputError as exc:
-        errors["tolerance"] = str(exc) + " (or a percentage such as 1 %)"
+        errors["rest"] = str(exc)
+    tolerance, relative = 0.0, False
+    try:
+        tolerance, relative = read_pass_within(texts.get("pass_within", "20 µV"), "pass within")
+    except InputError as exc:
+        errors["pass_within"] = str(exc)
     if case is None or errors:
         return None, errors
     return CheckSetup(Path(text).expanduser(), case, rest, float(form.values["onset"]),  # type: ignore[arg-type]
