@@ -26,7 +26,7 @@ PROPERTY = settings(derandomize=True, deadline=None, max_examples=200)
 @PROPERTY
 @given(L=lengths)
 def test_b_zero_is_sealed_and_b_infinite_is_killed(L):
-    """Rall 1959: sealed end R∞ coth L; killed end R∞ tanh L; B → ∞ approaches killed."""
+    """Rall 1959 [Rall1959]: sealed end R∞ coth L; killed end R∞ tanh L; B → ∞ approaches killed."""
     assert float(cable.input_resistance(1.0, L, 0.0)) == pytest.approx(1 / math.tanh(L), rel=1e-12)
     assert float(cable.input_resistance(1.0, L, math.inf)) == pytest.approx(math.tanh(L), rel=1e-12)
     assert float(cable.input_resistance(1.0, L, 1e12)) == pytest.approx(math.tanh(L), rel=1e-9)
@@ -35,7 +35,7 @@ def test_b_zero_is_sealed_and_b_infinite_is_killed(L):
 @PROPERTY
 @given(L=lengths, fraction=fractions)
 def test_b_one_is_the_semi_infinite_cable(L, fraction):
-    """B = 1 terminates the cylinder with its own characteristic conductance (Rall 1959):
+    """B = 1 terminates the cylinder with its own characteristic conductance (Rall 1959 [Rall1959]):
     input resistance R∞ and profile e^(-X) for every L."""
     assert float(cable.input_resistance(1.0, L, 1.0)) == pytest.approx(1.0, rel=1e-13)
     x = fraction * L
@@ -45,7 +45,7 @@ def test_b_one_is_the_semi_infinite_cable(L, fraction):
 @PROPERTY
 @given(L=lengths, b=ratios, f1=fractions, f2=fractions)
 def test_transfer_resistance_is_reciprocal(L, b, f1, f2):
-    """Reciprocity of a passive linear network (Rall & Rinzel 1973): R(X, X0) = R(X0, X)."""
+    """Reciprocity of a passive linear network (Rall & Rinzel 1973 [RallRinzel1973]): R(X, X0) = R(X0, X)."""
     x, x0 = f1 * L, f2 * L
     assert float(cable.transfer_resistance(1.0, L, b, x, x0)) == pytest.approx(
         float(cable.transfer_resistance(1.0, L, b, x0, x)), rel=1e-13)
@@ -91,8 +91,8 @@ def test_impedance_tends_to_the_dc_value(L, b, fraction):
 
 
 def _sealed_or_leaky_mp(L, b, f, tau, x):
-    """The textbook cosh/sinh forms evaluated with mpmath at 50 digits (Rall & Rinzel 1973;
-    Koch 1999 ch. 2 [MEM]): Z_in = (R∞/q)(1 + (B/q) tanh qL)/((B/q) + tanh qL)."""
+    """The textbook cosh/sinh forms evaluated with mpmath at 50 digits (Rall & Rinzel 1973 [RallRinzel1973];
+    Koch 1999 ch. 2 [Koch1999] [MEM]): Z_in = (R∞/q)(1 + (B/q) tanh qL)/((B/q) + tanh qL)."""
     with mpmath.workdps(50):
         q = mpmath.sqrt(1 + 2j * mpmath.pi * f * tau)
         bq = mpmath.mpf(b) / q

@@ -23,10 +23,10 @@ def test_human_output_echoes_inputs_and_gives_units(capsys):
     status, out, err = run(capsys, ISSUE_EXAMPLE)
     assert status == 0
     assert err == ""
-    # λ = √(Rm d / 4Ri) = √(2 Ω·m² · 2e-6 m / 4 Ω·m) = 1 mm exactly; τm = Rm Cm = 20 ms (Rall 1969)
+    # λ = √(Rm d / 4Ri) = √(2 Ω·m² · 2e-6 m / 4 Ω·m) = 1 mm exactly; τm = Rm Cm = 20 ms (Rall 1969 [Rall1969])
     assert "length constant λ                    1.000 mm" in out
     assert "membrane time constant τm            20.00 ms" in out
-    # R∞ coth(0.5) with R∞ = (2/π)√(Rm Ri) d^-1.5 = 318.31 MΩ (Rall 1959) -> 688.8 MΩ
+    # R∞ coth(0.5) with R∞ = (2/π)√(Rm Ri) d^-1.5 = 318.31 MΩ (Rall 1959 [Rall1959]) -> 688.8 MΩ
     assert "input resistance R_in (sealed end)   688.8 MΩ" in out
     for echoed in ("20.00 kΩ·cm²", "100.0 Ω·cm", "1.000 µF/cm²", "2.000 µm", "500.0 µm", "sealed"):
         assert echoed in out

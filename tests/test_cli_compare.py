@@ -18,7 +18,7 @@ DEMO = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM)
 
 
 def write_run(path: pathlib.Path, offset_uv: float = 0.0, rest_mv: float = 0.0) -> pathlib.Path:
-    """Exact solution (Rall 1969 series) plus a known constant offset, absolute potentials."""
+    """Exact solution (Rall 1969 [Rall1969] series) plus a known constant offset, absolute potentials."""
     times = np.arange(1, 21) * 0.5 * MS
     sites = np.array([0.0, 250.0, 500.0]) * UM
     tt, xx = np.meshgrid(times, sites, indexing="ij")
@@ -114,8 +114,9 @@ def _transient_cases() -> dict:
 @pytest.mark.parametrize("name", ["pulse, killed end", "alpha, leaky end", "voltage clamp, semi-infinite",
                                   "ball and stick, step at the soma", "infinite, alpha at 0"])
 def test_known_spike_in_every_transient_case(tmp_path, capsys, name: str) -> None:
-    """Exact values (transient.charge: Hodgkin & Rushton 1946, Rall 1969) plus 1 µV everywhere and +6 µV
-    at one sample: max error 7 µV there, RMS √((N-1)·1 + 49)/√N µV; 8 µV passes, 6.5 µV fails."""
+    """Exact values (transient.charge: Hodgkin & Rushton 1946 [HodgkinRushton1946], Rall 1969 [Rall1969])
+    plus 1 µV everywhere and +6 µV at one sample: max error 7 µV there, RMS √((N-1)·1 + 49)/√N µV; 8 µV
+    passes, 6.5 µV fails."""
     from cabletheory import transient as tr
 
     model, stimulus, args = _transient_cases()[name]

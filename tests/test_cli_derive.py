@@ -24,7 +24,7 @@ def test_default_prints_text_latex_and_assumptions(capsys):
     assert "current injected at a sealed origin" in out
     assert "passive, linear membrane" in out
     assert "I·R∞" in out
-    # the sealed cylinder's steady state cosh(L − X)/sinh(L) (Rall 1959 [MEM]) in both forms
+    # the sealed cylinder's steady state cosh(L − X)/sinh(L) (Rall 1959 [Rall1959] [MEM]) in both forms
     assert "cosh(L - X)" in out
     assert r"\frac{\cosh{\left(L - X \right)}}{\sinh{\left(L \right)}}" in out
     assert "LaTeX" in out
@@ -35,7 +35,7 @@ def test_ball_and_stick_modes_text_only(capsys):
     status, out, _ = run(capsys, ["derive", "--origin", "soma", "--part", "modes", "--text"])
     assert status == 0
     assert "same membrane time constant" in out
-    # ρ∞ = ρ coth L relation and Rall's (1969) equation tan(αL) = −α/ρ∞ in pole-free form
+    # ρ∞ = ρ coth L relation and Rall's (1969) [Rall1969] equation tan(αL) = −α/ρ∞ in pole-free form
     assert "ρ_∞ =" in out
     assert "α⋅cos(L⋅α) + ρ_∞⋅sin(L⋅α) = 0" in out
     assert "\\frac" not in out

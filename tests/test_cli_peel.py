@@ -142,7 +142,7 @@ def _worked_argv():
 
 
 def test_worked_example_recovers_the_invented_cell(capsys):
-    """The example's peeled values were made from L = 0.85, ρ = 3.2, τm = 31.5 ms with eigen (Rall 1969)
+    """The example's peeled values were made from L = 0.85, ρ = 3.2, τm = 31.5 ms with eigen (Rall 1969 [Rall1969])
     and rounded to 3 digits; the estimate must land within that rounding."""
     data = run_json(capsys, *_worked_argv())
     (s,) = data["ball_and_stick"]["solutions"]
@@ -151,9 +151,9 @@ def test_worked_example_recovers_the_invented_cell(capsys):
 
 
 def test_worked_example_membrane_properties_round_trip(capsys):
-    """Rebuild the cell from its estimated properties with cabletheory.cable (G∞, λ: Rall 1959) and a
+    """Rebuild the cell from its estimated properties with cabletheory.cable (G∞, λ: Rall 1959 [Rall1959]) and a
     spherical soma (area πd²), and recompute the measured values: R_N = 240 MΩ, L, ρ, and τ0/τ1
-    (eigen, Rall 1969)."""
+    (eigen, Rall 1969 [Rall1969])."""
     data = run_json(capsys, *_worked_argv())
     (s,) = data["ball_and_stick"]["solutions"]
     (p,) = data["membrane_properties"]
@@ -213,7 +213,7 @@ def test_bad_input_one_line_status_2(capsys, args, field):
 
 
 def test_no_solution_names_the_admissible_range(capsys):
-    """C1/C0 above 2τ1/τ0 (the cylinder value, Rall 1969) fits neither model."""
+    """C1/C0 above 2τ1/τ0 (the cylinder value, Rall 1969 [Rall1969]) fits neither model."""
     status, _, err = run(capsys, "--tau0", "20", "--tau1", "2", "--c1-over-c0", "0.3")
     assert status == 2
     assert "(0, 2τ1/τ0) = (0, 0.2)" in err

@@ -238,8 +238,8 @@ def test_bad_integration_input_is_rejected() -> None:
 
 
 # ---------------------------------------------------------------------------------------------
-# time course against the exact transients of cabletheory.transient (Rall 1969 eigen-series,
-# Hodgkin & Rushton 1946 images): the compartmental solution must converge to them
+# time course against the exact transients of cabletheory.transient (Rall 1969 [Rall1969] eigen-series,
+# Hodgkin & Rushton 1946 [HodgkinRushton1946] images): the compartmental solution must converge to them
 # ---------------------------------------------------------------------------------------------
 def _transient_case(name: str):
     from cabletheory import transient as tr
@@ -261,7 +261,7 @@ def _transient_case(name: str):
                                   "ball and stick, step at the soma", "sealed, alpha at 100 µm"])
 def test_time_course_converges_to_the_exact_transient(name: str) -> None:
     """compartment.integrate → transient.charge as Δx halves, with error ∝ Δx² ([CP] three-point
-    difference; exact values from the eigen-series / image sums of Rall 1969 and Hodgkin &
+    difference; exact values from the eigen-series / image sums of Rall 1969 [Rall1969] and Hodgkin &
     Rushton 1946 as coded in cabletheory.transient, truncation error < 1e-10 of the peak)."""
     from cabletheory import transient as tr
 

@@ -65,7 +65,7 @@ def test_pure_cylinder_estimates_agree_and_show_no_soma():
 @settings(derandomize=True, deadline=None, max_examples=40)
 @given(L=st.floats(0.1, 5.0))
 def test_cylinder_round_trip(L):
-    """Forward with eigen (ρ = inf, the sealed cylinder; Rall 1969), inverse with both estimates."""
+    """Forward with eigen (ρ = inf, the sealed cylinder; Rall 1969 [Rall1969]), inverse with both estimates."""
     alpha, coef = eigen.ball_and_stick_coefficients(L, math.inf, 3)
     e = inverse.estimate_from_peeling(1 + alpha[1] ** 2, coef[1] / coef[0],
                                       second_time_constant_ratio=1 + alpha[2] ** 2)
@@ -180,7 +180,7 @@ def test_time_constant_ratio_separates_the_two_rho():
 @settings(derandomize=True, deadline=None, max_examples=60)
 @given(L=st.floats(0.1, 4.0), log_rho=st.floats(-2.0, 3.0))
 def test_ball_and_stick_round_trip(L, log_rho):
-    """Forward with eigen (Rall 1969 eigenvalue equation, residues), inverse with the κ relation:
+    """Forward with eigen (Rall 1969 [Rall1969] eigenvalue equation, residues), inverse with the κ relation:
     exactly one solution, equal to the start."""
     rho = 10.0**log_rho
     alpha, coef = eigen.ball_and_stick_coefficients(L, rho, 2)
@@ -240,7 +240,7 @@ def test_neither_model_note():
 
 
 def test_coefficient_ratio_beyond_any_cylinder_is_not_consistent():
-    """C1/C0 = 2τ1/τ0 < 2 for every sealed cylinder (Rall 1969), so C1/C0 >= 2 never agrees."""
+    """C1/C0 = 2τ1/τ0 < 2 for every sealed cylinder (Rall 1969 [Rall1969]), so C1/C0 >= 2 never agrees."""
     e = inverse.estimate_from_peeling(1.05, 2.05, uncertainty=0.1)
     assert math.isnan(e.cylinder_length_coefficients)
     assert e.cylinder_consistent is False
@@ -258,7 +258,7 @@ def test_uncertainty_range(bad):
 
 
 def test_sensitivity_rows():
-    """τ1 ± 5 % moves the cylinder L as π/√(τ0/τ1 ∓ … − 1) (Rall 1969); ρ near a cylinder is fragile."""
+    """τ1 ± 5 % moves the cylinder L as π/√(τ0/τ1 ∓ … − 1) (Rall 1969 [Rall1969]); ρ near a cylinder is fragile."""
     e = inverse.estimate_from_peeling(8.537785309, 0.2033855102)
     rows = {(p.changed, p.factor): p for p in e.sensitivity}
     assert set(rows) == {("tau1", 0.95), ("tau1", 1.05), ("C1", 0.95), ("C1", 1.05)}
@@ -307,7 +307,7 @@ def test_membrane_properties_need_their_inputs():
 
 
 def test_membrane_properties_without_soma():
-    """ρ = inf: the whole input conductance is the cylinder's, G_D = G∞ tanh L (Rall 1959)."""
+    """ρ = inf: the whole input conductance is the cylinder's, G_D = G∞ tanh L (Rall 1959 [Rall1959])."""
     p = inverse.membrane_properties(0.02, 1.0, math.inf, input_resistance=1e8)
     assert p.soma_conductance == 0.0
     assert p.semi_infinite_input_resistance == pytest.approx(1e8 * math.tanh(1.0), rel=1e-15)

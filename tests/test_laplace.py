@@ -158,7 +158,7 @@ def test_ball_and_stick_against_transient_charge(end, B):
 
 
 def test_infinite_cable_against_transient_charge():
-    """transient.InfiniteCable (Hodgkin & Rushton 1946 closed form) vs the derived transform on a
+    """transient.InfiniteCable (Hodgkin & Rushton 1946 [HodgkinRushton1946] closed form) vs the derived transform on a
     long sealed cylinder, halved: a doubly infinite cable injected in the middle is two
     semi-infinite cables in parallel ([CP])."""
     cyl = _cylinder(1.0, 0.0)

@@ -60,7 +60,8 @@ def test_pulse_is_the_difference_of_two_steps(L, T, X0, D):
 @settings(derandomize=True, deadline=None, max_examples=25)
 @given(L=lengths, T=times, a=fractions)
 def test_end_limits(L, T, a):
-    """B → 0 gives the sealed end, B → ∞ the killed end (leaky-end forms: Rall 1959/1977 [MEM])."""
+    """B → 0 gives the sealed end, B → ∞ the killed end (leaky-end forms: Rall 1959 [Rall1959],
+    1977 [Rall1977] [MEM])."""
     X = [a * L]
     sealed, _, _ = current_response(X, 0.0, [T], L, 0.0)
     nearly_sealed, _, _ = current_response(X, 0.0, [T], L, 1e-9)
@@ -75,7 +76,7 @@ def test_end_limits(L, T, a):
 @given(T=times, a=st.floats(0.0, 3.0))
 def test_b_equal_one_is_semi_infinite(T, a):
     """B = 1 at any L looks like a semi-infinite continuation only in the steady state; at L large the
-    finite cable matches the semi-infinite one at every T (Rall 1959; [CP])."""
+    finite cable matches the semi-infinite one at every T (Rall 1959 [Rall1959]; [CP])."""
     finite, _, _ = current_response([a], 0.0, [T], 12.0, 1.0)
     semi, _, _ = current_response([a], 0.0, [T], math.inf)
     assert finite[0, 0] == pytest.approx(semi[0, 0], abs=1e-10)

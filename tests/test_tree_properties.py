@@ -2,8 +2,8 @@
 
 * A branch of zero length carries no membrane and no current: adding one changes nothing [CP].
 * Electrotonic distance is ∫dx/λ, linear in length: scaling every length by k scales every
-  electrotonic distance (and L of the equivalent cylinder) by k (Rall 1959).
-* Cylinders of one diameter in series are one cylinder (Rall 1959): a chain of many short
+  electrotonic distance (and L of the equivalent cylinder) by k (Rall 1959 [Rall1959]).
+* Cylinders of one diameter in series are one cylinder (Rall 1959 [Rall1959]): a chain of many short
   segments gives R∞ coth L of the whole; this also shows that deep trees need no recursion.
 """
 
@@ -84,7 +84,7 @@ def test_scaling_lengths_scales_electrotonic_lengths(spec, factor):
 @given(trees())
 def test_exact_resistance_lies_between_bounds(spec):
     """Sealed tips: the input resistance is at least that of all membrane lumped at the root
-    (no axial drop) [CP]; killed tips lower it (Rall 1959)."""
+    (no axial drop) [CP]; killed tips lower it (Rall 1959 [Rall1959])."""
     parents, lengths, diameters, soma = spec
     tree = make_tree(parents, lengths, diameters, soma)
     sealed = analyse_tree(tree, RM, RI)

@@ -61,7 +61,7 @@ def demo(granddaughter_1=200.0, daughter_scale=1.0, soma=None) -> Tree:
 
 
 # --------------------------------------------------------------------------------------
-# demo tree, computed (Rall 1959, 1964; ρ: Rall 1969)
+# demo tree, computed (Rall 1959 [Rall1959], 1964 [Rall1964]; ρ: Rall 1969 [Rall1969])
 # --------------------------------------------------------------------------------------
 @pytest.mark.parametrize(("tree_kwargs", "expected_mohm"), [
     ({}, 209.5027757),  # R_in(root) = R∞ coth L_eq
@@ -76,7 +76,7 @@ def test_demo_tree_input_resistance(tree_kwargs, expected_mohm):
 
 
 def test_demo_tree_reduction():
-    """Demo tree, computed: L_eq, area, R∞, ρ, G_S, G_D (Rall 1959/1964, 1969)."""
+    """Demo tree, computed: L_eq, area, R∞, ρ, G_S, G_D (Rall 1959/1964 [Rall1959] [Rall1964], 1969 [Rall1969])."""
     report = analyse_tree(demo(soma=20.0), RM, RI, CM)
     cyl = report.equivalent_cylinder
     assert report.reducible
@@ -120,7 +120,7 @@ def test_violations_are_found_and_named():
 
 
 # --------------------------------------------------------------------------------------
-# Rall 1959: a conforming tree equals its equivalent cylinder to 1e-12
+# Rall 1959 [Rall1959]: a conforming tree equals its equivalent cylinder to 1e-12
 # --------------------------------------------------------------------------------------
 def conforming_tree(seed: int, depth: int = 5, target: float = 1.3, stems: int = 3) -> Tree:
     """Uneven 3/2-rule splits, random section lengths, every tip at X = target."""
@@ -146,7 +146,7 @@ def conforming_tree(seed: int, depth: int = 5, target: float = 1.3, stems: int =
 @pytest.mark.parametrize("seed", [1, 2, 3, 4])
 @pytest.mark.parametrize("killed", [False, True])
 def test_conforming_tree_equals_equivalent_cylinder(seed, killed):
-    """Rall (1959): R_in = R∞ coth L (sealed tips) or R∞ tanh L (killed tips), to 1e-12."""
+    """Rall (1959) [Rall1959]: R_in = R∞ coth L (sealed tips) or R∞ tanh L (killed tips), to 1e-12."""
     tree = conforming_tree(seed)
     report = analyse_tree(tree, RM, RI, CM, killed_tips=killed)
     cyl = report.equivalent_cylinder
@@ -159,7 +159,7 @@ def test_conforming_tree_equals_equivalent_cylinder(seed, killed):
 
 
 def test_one_step_is_cable_input_conductance():
-    """The recursion step is cable.input_conductance with B = G_load/G∞ (Rall 1959)."""
+    """The recursion step is cable.input_conductance with B = G_load/G∞ (Rall 1959 [Rall1959])."""
     d, ell, load = 1.5e-6, 180e-6, 0.8e-9
     tree = sections_tree([-1, 0], [ell, 1e-6], [d, 1e-6])
     g_in, _ = exact_input_conductances(tree, RM, RI)

@@ -1,7 +1,8 @@
 """The check view's exact cases: every model and stimulus of ``compare``, chosen as in the charging view.
 
 The simulator files here are written from the exact solution (verify.exact_case, whose values are
-checked against computed values of Rall 1959, Rall 1969 and Hodgkin & Rushton 1946 in
+checked against computed values of Rall 1959 [Rall1959], Rall 1969 [Rall1969] and Hodgkin & Rushton 1946
+[HodgkinRushton1946] in
 tests/test_verify_exact_case.py and
 tests/test_verify_transient.py) plus one known perturbation, so that the verdict and the worst point
 the view reports are known in advance: the perturbed sample, its time, position and file line.

@@ -310,7 +310,7 @@ def charging(model: str = "cylinder", stimulus: str = "step", **texts: str) -> R
 
 def test_charging_sealed_cylinder_matches_rall_series():
     """Computed from the Rall 1969 series [Rall1969]: sealed cylinder, L = 1, current step at X = 0,
-    V(0, T = 1)/V(0, ∞) = 0.7198225011; V(0, ∞) = I R∞ coth L; τ0/τ1 = 1 + π² (Rall 1969)."""
+    V(0, T = 1)/V(0, ∞) = 0.7198225011; V(0, ∞) = I R∞ coth L; τ0/τ1 = 1 + π² (Rall 1969 [Rall1969])."""
     report = charging(length=LAMBDA, span="20 ms", watch="0 µm")
     table = {c.key: np.asarray(c.values) for c in report.tables[0].columns}
     final = result(report, next(r.key for r in report.results if r.key.startswith("final_voltage")))

@@ -170,7 +170,7 @@ def simulated_run(segments: int, step: float, scheme: str) -> vf.Recording:
 @pytest.mark.parametrize(("scheme", "segments", "expected"), [("backward-euler", 200, 1.0),
                                                               ("crank-nicolson", 800, 2.0)])
 def test_observed_time_order_matches_theory(scheme: str, segments: int, expected: float) -> None:
-    """Crank & Nicolson (1947): backward Euler is first order in Δt, Crank–Nicolson second."""
+    """Crank & Nicolson (1947) [CrankNicolson1947]: backward Euler is first order in Δt, Crank–Nicolson second."""
     steps = np.array([1.0, 0.5, 0.25]) * MS
     errors = [vf.compare(simulated_run(segments, s, scheme), CASE, 1.0).max_abs_error for s in steps]
     order = vf.convergence(errors, [DEMO.length / segments] * 3, steps, scheme)

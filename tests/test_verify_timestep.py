@@ -68,7 +68,7 @@ GRID = np.arange(0, 10.0001, 0.5) * MS  # 0 to 10 ms every 0.5 ms
 
 @pytest.mark.parametrize(("scheme", "target"), [("backward-euler", 2e-3), ("crank-nicolson", 1e-3)])
 def test_advised_step_meets_the_target_against_the_independent_series(scheme: str, target: float) -> None:
-    """Sealed demo cable, far end: solve at the advised (segments, Δt) and compare with Rall's (1969)
+    """Sealed demo cable, far end: solve at the advised (segments, Δt) and compare with Rall's (1969) [Rall1969]
     series (verify.sealed_step_voltage, 100 pA): within the target, and equal to the verified error."""
     a = advise(GRID, target, scheme)
     s = a.time_step
@@ -201,7 +201,7 @@ def test_cli_time_step_json_and_text(capsys) -> None:
     assert step["rule_of_thumb"]["step"] == {"value": 2.5e-5, "unit": "s"}
     assert step["window"] == {"value": pytest.approx(0.01), "unit": "s"}
     assert step["sample_times"] == 21
-    # the recommendation, checked by hand against Rall's (1969) series
+    # the recommendation, checked by hand against Rall's (1969) [Rall1969] series
     v = solve(DEMO, data["segments"][0], GRID, step["step"]["value"], "backward-euler", 500 * UM)
     exact, _ = vf.sealed_step_voltage(DEMO, 100e-12, GRID, np.full(GRID.size, 500 * UM), 1e-18)
     assert relative_max_error(v, exact) <= 2e-3

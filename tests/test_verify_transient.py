@@ -33,7 +33,7 @@ def parse(text: str, kind: str, where: str) -> float:
 
 def test_sealed_step_agrees_with_the_independent_series() -> None:
     """Same case, two codes: transient.charge (images / eigen-series) and verify.sealed_step_voltage
-    (Rall 1969 cosine series, written separately) agree to 1e-12 of the final value."""
+    (Rall 1969 [Rall1969] cosine series, written separately) agree to 1e-12 of the final value."""
     times = np.array([0.0, 0.1, 1.0, 5.0, 20.0, 60.0]) * MS
     sites = np.array([0.0, 125.0, 250.0, 500.0]) * UM
     tt, xx = np.meshgrid(times, sites, indexing="ij")
@@ -81,7 +81,8 @@ def test_pulse_is_the_difference_of_two_steps() -> None:
 
 def test_alpha_current_matches_quadrature_of_the_impulse_response() -> None:
     """Infinite cable, alpha current at X = 0: V = ∫ I(s) h(T - s) ds with the Hodgkin & Rushton (1946)
-    impulse response h(T) = R∞ e^{-T} / (2√(πT)) per τm (the T-derivative of erf√T / 2), by scipy quad."""
+    [HodgkinRushton1946] impulse response h(T) = R∞ e^{-T} / (2√(πT)) per τm (the T-derivative of
+    erf√T / 2), by scipy quad [SciPy2020]."""
     from scipy.integrate import quad
 
     a = 0.1  # time to peak, τm

@@ -35,7 +35,8 @@ def test_coarse_run_is_flagged_and_refined_run_passes(output: str) -> None:
 
 
 def test_observed_space_order_is_two(output: str) -> None:
-    """Three-point difference: second order in Δx ([CP]; e.g. Crank & Nicolson 1947 for the scheme family)."""
+    """Three-point difference: second order in Δx ([CP]; e.g. Crank & Nicolson 1947
+    [CrankNicolson1947] for the scheme family)."""
     line = next(s for s in output.splitlines() if s.strip().startswith("space"))
     assert float(line.split()[1].rstrip(",")) == pytest.approx(2.0, abs=0.15)
 
