@@ -28,5 +28,12 @@ class MissingFileError(CableTheoryError, FileNotFoundError):
     """A file named by the user does not exist or is not readable."""
 
 
+class ImplausibleValueWarning(UserWarning):
+    """A value was read correctly but lies far outside what is met in neurons (a likely unit slip).
+
+    Only a warning: the value is used as given. The command line prints it on one stderr line.
+    """
+
+
 class ConvergenceError(CableTheoryError, ArithmeticError):
     """A root or series did not meet its stated accuracy; the message says by how much."""

@@ -1,8 +1,15 @@
 """The unit boundary: text -> SI float on the way in, SI float -> text on the way out.
 
 This is the only module that imports pint, and it holds the package's one unit registry
-(created lazily, with pint's on-disk cache so that start-up stays cheap). Core modules
-never see a Quantity: they receive plain SI floats from :func:`parse_quantity`.
+(created lazily from the package's own short definitions file, ``data/units.txt``, fast enough
+to need no on-disk cache). Core modules never see a Quantity: they receive plain SI floats from
+:func:`parse_quantity`.
+
+User text is checked before pint sees it: one number (lists and decimal commas are refused),
+a unit of at most :data:`MAX_FACTORS` names, :data:`MAX_NESTING` levels of brackets and powers
+up to :data:`MAX_EXPONENT`, in at most :data:`MAX_VALUE_LENGTH` characters; so every text,
+however hostile, is answered at once with one line. A value far outside the range met in
+neurons (:data:`PLAUSIBLE`) is used but draws an :class:`~cabletheory.errors.ImplausibleValueWarning`.
 
 Bare numbers are read in the field's customary unit (:data:`KINDS`), so ``--Rm 20000``
 means 20 000 Ω·cm² and ``--diameter 2`` means 2 µm.
@@ -12,17 +19,20 @@ from __future__ import annotations
 
 import math
 import re
+import warnings
 from collections.abc import Iterable
 from dataclasses import dataclass
-from functools import cache
+from functools import cache, lru_cache
+from importlib import resources
 from typing import TYPE_CHECKING
 
-from .errors import InputError, UnitKindError
+from .errors import ImplausibleValueWarning, InputError, UnitKindError
 
 if TYPE_CHECKING:  # pragma: no cover
     import pint
 
-__all__ = ["KINDS", "Kind", "format_quantity", "parse_quantity", "parse_series", "registry", "si_unit"]
+__all__ = ["KINDS", "PLAUSIBLE", "Kind", "Plausible", "format_quantity", "implausible", "parse_quantity",
+           "parse_series", "registry", "si_unit"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -73,19 +83,86 @@ KINDS: dict[str, Kind] = {
 # the float range, so that products such as d^-1.5 or ℓ/λ cannot overflow
 SI_RANGE = (1e-24, 1e24)
 
-_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$|^[+-]?(inf|infinity|nan)$", re.IGNORECASE)
+
+@dataclass(frozen=True, slots=True)
+class Plausible:
+    """Values of one kind met in neurons, and the wider band outside which a value draws a warning.
+
+    Attributes
+    ----------
+    low, high : SI bounds of the band; ``None`` leaves that side open (small voltages and times are
+        legitimate tolerances and steps)
+    met : the range met in neurons, as people write it (shown in the warning)
+    source : where ``met`` comes from; ``[CP]`` marks common practice of the trade
+    """
+
+    low: float | None
+    high: float | None
+    met: str
+    source: str
+
+
+# Far outside = beyond these bands, each at least tenfold wider than the range met in neurons, so
+# that only a likely unit slip (Rm 3 read as 3 Ω·cm², '50 PA' for 50 pA) is flagged. A value
+# outside its band is used as given, with one warning line (ImplausibleValueWarning).
+PLAUSIBLE: dict[str, Plausible] = {
+    "membrane_resistivity": Plausible(1e-3, 1e3, "0.1 to 200 kΩ·cm²",
+                                      "Clements & Redman 1989 (somatic 0.1–0.42 kΩ·cm²); Major et al. 1994 "
+                                      "(120–200 kΩ·cm², [MEM])"),
+    "axial_resistivity": Plausible(0.1, 100.0, "70 to 340 Ω·cm",
+                                   "Fleshman, Segev & Burke 1988 (70 Ω·cm); Major et al. 1994 (170–340 Ω·cm, "
+                                   "[MEM])"),
+    "membrane_capacitance": Plausible(1e-3, 0.2, "0.7 to 2.4 µF/cm²",
+                                      "Gentet, Stuart & Clements 2000 (0.9 µF/cm²); Thurbon et al. 1998 "
+                                      "(2.4 µF/cm²)"),
+    "length": Plausible(1e-9, 10.0, "0.1 µm (spine necks) to about 1 m (the longest axons)", "[CP]"),
+    "conductance": Plausible(1e-15, 1e-3, "1 pS (one channel) to 10 µS (a whole cell)", "[CP]"),
+    "current": Plausible(1e-15, 1e-6, "1 pA to 100 nA", "[CP]"),
+    "voltage": Plausible(None, 1.0, "up to about 150 mV from rest", "[CP]"),
+    "time": Plausible(None, 1e5, "up to minutes", "[CP]"),
+    "frequency": Plausible(None, 1e6, "up to about 10 kHz", "[CP]"),
+    "resistance": Plausible(1e3, 1e12, "1 MΩ to 10 GΩ (input resistances)",
+                            "Chevaleyre & Siegelbaum 2010, Table 1 (76–108 MΩ); [CP]"),
+    "capacitance": Plausible(1e-15, 1e-6, "1 pF to 1 nF (whole cells)",
+                             "Chevaleyre & Siegelbaum 2010, Table 1 (150–305 pF); [CP]"),
+    "area": Plausible(1e-15, 1e-4, "1 µm² to 1 mm²", "[CP]"),
+    "specific_conductance": Plausible(1e-3, 1e3, "0.005 to 10 mS/cm² (1/Rm)", "[CP]"),
+    "temperature": Plausible(223.15, 373.15, "about 5 to 40 °C", "[CP]"),
+}
+
+# limits checked before any unit text reaches pint, so that every answer is immediate
+MAX_VALUE_LENGTH = 200  # characters in one value ("20 kΩ·cm²" has 9)
+MAX_LIST_LENGTH = 20_000  # characters in a list of values
+MAX_NESTING = 3  # brackets inside brackets in a unit
+MAX_FACTORS = 8  # unit names in one unit ("kohm*cm**2" has 2)
+MAX_EXPONENT = 6  # largest power of a unit name (cm**2, s**-1)
+
+_FLOAT = r"(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+_WORDS = r"(?:inf(?:inity)?|nan)(?![A-Za-z])"
+_NUMBER = re.compile(rf"^[+-]?(?:{_FLOAT}|{_WORDS})$", re.IGNORECASE)
+_LEADING = re.compile(rf"^[+-]?(?:{_FLOAT}|{_WORDS})", re.IGNORECASE)
+_STARTS_NUMBER = re.compile(r"^[+-]?\.?\d")
+_DECIMAL_COMMA = re.compile(r"^([+-]?\d+),(\d+)((?:[eE][+-]?\d+)?)(?=\s*[^\d\s,.]|\s*$)")
 _SUPERSCRIPTS = str.maketrans({"²": "**2", "³": "**3", "⁻": "**-", "¹": "1"})
 # a unit name directly followed by an exponent digit: cm2 -> cm**2 (not 1e3: no word boundary)
 _GLUED_EXPONENT = re.compile(r"\b([A-Za-zµ]+)([23])\b")
+_TOKEN = re.compile(r"\s*(?:(?P<name>[A-Za-z_%°][A-Za-z_0-9]*)|(?P<op>\*\*|\*|/)|(?P<open>\()|(?P<close>\))"
+                    r"|(?P<num>[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?))")
 _PLAIN_SI = {"ohm*m**2", "ohm*m", "F/m**2", "S/m**2", "m**2", "dimensionless", "rad"}
 
 
 @cache
 def registry() -> pint.UnitRegistry:
-    """The package's single pint registry (built once; pint caches its parse on disk)."""
+    """The package's single pint registry, built from ``data/units.txt``.
+
+    The definitions are few, so building the registry is fast and no on-disk cache is used: no
+    file that another user could write is ever loaded, and a damaged or unwritable cache folder
+    cannot break a run.
+    """
     import pint
 
-    ureg: pint.UnitRegistry = pint.UnitRegistry(cache_folder=":auto:")
+    with resources.as_file(resources.files("cabletheory") / "data" / "units.txt") as definitions:
+        ureg: pint.UnitRegistry = pint.UnitRegistry(str(definitions), cache_folder=None)
     return ureg
 
 
@@ -105,58 +182,216 @@ def _kind(kind: str) -> Kind:
         raise ValueError(f"unknown quantity kind {kind!r}") from None
 
 
+def _a(name: str) -> str:
+    """``name`` with its indefinite article: 'a length', 'an axial resistivity'."""
+    return f"{'an' if name[:1].lower() in 'aeiou' else 'a'} {name}"
+
+
+def _expected(k: Kind) -> str:
+    return f"expected {_a(k.name)} such as {k.example}"
+
+
+def _shown(raw: str) -> str:
+    """The user's text for a message: quoted, escaped, at most 40 characters."""
+    return repr(raw if len(raw) <= 40 else raw[:37] + "...")
+
+
 def parse_quantity(text: str | float, kind: str, field: str, *, allow_inf: bool = False,
-                   allow_zero: bool = False, allow_negative: bool = False) -> float:
+                   allow_zero: bool = False, allow_negative: bool = False, warn: bool = True) -> float:
     """Parse one user value into an SI float, or raise an :class:`InputError` naming ``field``.
+
+    One number, optionally followed by a unit: ``"20 kΩ·cm²"``, ``"2um"``, a bare ``"20000"``
+    (read in the kind's customary unit). A list (``"2, 3 um"``, ``"2 3 um"``), a decimal comma
+    (``"1,5 µm"``, refused with a hint), an overflowing number (``"1e999"``) and over-long or
+    deeply nested unit text are refused before pint sees them, so every answer is immediate.
 
     Parameters
     ----------
     text : the user's text, e.g. ``"20 kΩ·cm²"``, ``"2um"`` or a bare ``"20000"``
     kind : a key of :data:`KINDS`; bare numbers are read in its customary unit
-    field : the option or column name, used in error messages (``"--Rm"``)
-    allow_inf, allow_zero, allow_negative : widen the accepted range (default: finite, > 0)
+    field : the option, column or file:line, used in error messages (``"--Rm"``)
+    allow_inf, allow_zero, allow_negative : widen the accepted range (default: finite, > 0);
+        ``allow_inf`` accepts the words ``inf``/``infinity``, never a number that overflows
+    warn : issue an :class:`~cabletheory.errors.ImplausibleValueWarning` when the value lies far
+        outside the range met in neurons (:data:`PLAUSIBLE`)
     """
     k = _kind(kind)
-    raw = str(text).strip()
-    if not raw:
-        raise InputError(f"{field}: empty value; expected a {k.name} such as {k.example}")
-    if _NUMBER.match(raw):
-        magnitude = float(raw)
-        value = magnitude * _si_factor(k.customary, k.si) if math.isfinite(magnitude) else magnitude
-    else:
-        value = _parse_with_units(raw, k, field)
+    raw = _checked_text(str(text), k, field, MAX_VALUE_LENGTH)
+    value = _read_value(raw, k, field, allow_inf=allow_inf)
     _check_range(value, k, field, raw, allow_inf=allow_inf, allow_zero=allow_zero,
                  allow_negative=allow_negative)
+    if warn:
+        _warn_if_implausible(value, kind, k, field, raw)
     return value
 
 
-def _parse_with_units(raw: str, k: Kind, field: str) -> float:
-    import tokenize
+def _checked_text(text: str, k: Kind, field: str, limit: int) -> str:
+    raw = text.strip()
+    if not raw:
+        raise InputError(f"{field}: empty value; {_expected(k)}")
+    if len(raw) > limit:
+        raise InputError(f"{field}: the text is {len(raw)} characters long (at most {limit}); {_expected(k)}")
+    bad = next((ch for ch in raw if ord(ch) < 32 or ord(ch) == 127), None)
+    if bad is not None:
+        raise InputError(f"{field}: the text holds a control character ({bad!r}); {_expected(k)}")
+    return raw
 
+
+def _read_value(raw: str, k: Kind, field: str, *, allow_inf: bool) -> float:
+    """One number with an optional unit -> SI float (not yet range-checked)."""
+    if _NUMBER.match(raw):
+        number, unit = raw, ""
+    else:
+        number, unit = _split(raw, k, field)
+    magnitude = float(number)
+    written_as_word = number.lstrip("+-")[:1].lower() in ("i", "n")
+    value = _convert(magnitude, unit, raw, k, field)
+    if math.isinf(value) and not written_as_word:
+        raise InputError(_too_large(raw, k, field, allow_inf))
+    return value
+
+
+def _too_large(raw: str, k: Kind, field: str, allow_inf: bool) -> str:
+    hint = "; write 'inf' for an infinite value" if allow_inf else ""
+    return f"{field}: {_shown(raw)} is too large to compute with; {_expected(k)}{hint}"
+
+
+def _split(raw: str, k: Kind, field: str) -> tuple[str, str]:
+    """(number, unit text) of one value; lists, decimal commas and stray numbers are refused."""
+    comma = _DECIMAL_COMMA.match(raw)
+    if comma and raw.count(",") == 1:
+        whole, decimals, exponent = comma.groups()
+        meant = f"{whole}.{decimals}{exponent}"
+        if len(decimals) == 3:
+            raise InputError(f"{field}: {_shown(raw)} has a comma; write {meant} for a decimal point or "
+                             f"{whole}{decimals}{exponent} without a thousands separator ({_expected(k)})")
+        raise InputError(f"{field}: {_shown(raw)} has a decimal comma; did you mean {meant}? ({_expected(k)})")
+    match = _LEADING.match(raw)
+    if match is None:
+        raise InputError(f"{field}: cannot read {_shown(raw)}: it does not start with a number; {_expected(k)}")
+    rest = raw[match.end():]
+    if "," in rest or ";" in rest or _STARTS_NUMBER.match(rest.lstrip()):
+        raise InputError(f"{field}: {_shown(raw)} holds several numbers where one is needed; {_expected(k)}")
+    return match.group(0), rest.strip()
+
+
+def _check_unit_text(unit: str, raw: str, k: Kind, field: str) -> str:
+    """Check the unit's grammar and size without pint; return it in pint syntax."""
+    text = _normalise(unit)
+
+    def refuse(reason: str) -> InputError:
+        return InputError(f"{field}: cannot read the unit of {_shown(raw)} ({reason}); {_expected(k)}")
+
+    depth = factors = 0
+    operand_next = True
+    position = 0
+    last_power = False
+    while position < len(text):
+        token = _TOKEN.match(text, position)
+        if token is None or token.end() == position:
+            rest = text[position:].strip()
+            raise refuse(f"unexpected {rest[:1]!r}")
+        position = token.end()
+        kind = token.lastgroup
+        if kind == "name":
+            factors += 1
+            if factors > MAX_FACTORS:
+                raise refuse(f"more than {MAX_FACTORS} unit names")
+            operand_next, last_power = False, False
+        elif kind == "open":
+            depth += 1
+            if depth > MAX_NESTING:
+                raise refuse(f"brackets nested deeper than {MAX_NESTING}")
+            operand_next, last_power = True, False
+        elif kind == "close":
+            if operand_next or depth == 0:
+                raise refuse("unbalanced brackets")
+            depth -= 1
+            operand_next, last_power = False, False
+        elif kind == "op" and token.group("op") == "**":
+            if operand_next or last_power:
+                raise refuse("a power must follow a unit, and only once")
+            exponent = _TOKEN.match(text, position)
+            if exponent is None or exponent.lastgroup != "num":
+                raise refuse("a power needs a number")
+            position = exponent.end()
+            power = float(exponent.group("num"))
+            if not abs(power) <= MAX_EXPONENT:
+                raise refuse(f"power {exponent.group('num').strip()} is beyond ±{MAX_EXPONENT}")
+            last_power = True
+        elif kind == "op":
+            if operand_next and not (token.group("op") == "/" and token.start() == 0):
+                raise refuse("an operator without a unit before it")
+            operand_next, last_power = True, False
+        else:  # a number that is not a power
+            raise InputError(f"{field}: {_shown(raw)} holds several numbers where one is needed; {_expected(k)}")
+    if operand_next and text:
+        raise refuse("it ends with an operator or an open bracket")
+    if depth:
+        raise refuse("unbalanced brackets")
+    return f"1{text}" if text.startswith("/") else text
+
+
+def _convert(magnitude: float, unit: str, raw: str, k: Kind, field: str) -> float:
+    if not unit:
+        return magnitude * _si_factor(k.customary, k.si) if math.isfinite(magnitude) else magnitude
+    text = _check_unit_text(unit, raw, k, field)
+    factor = _unit_factor(text, k, raw, field)
+    if not math.isfinite(magnitude):
+        return magnitude
+    if k.si == "K":  # an offset unit (°C): convert the value, not a factor
+        q = registry().Quantity(magnitude, registry().parse_expression(text).units)
+        return float(q.to(k.si).magnitude)
+    return magnitude * factor
+
+
+def _unit_factor(text: str, k: Kind, raw: str, field: str) -> float:
+    """SI factor of checked unit text, or an InputError naming ``field``."""
+    result = _factor_or_reason(text, k.si)
+    if isinstance(result, float):
+        return result
+    reason, found = result
+    if reason == "kind":
+        raise UnitKindError(f"{field}: {_shown(raw)} is {found}, {_expected(k)}")
+    raise InputError(f"{field}: cannot read the unit of {_shown(raw)} ({found}); {_expected(k)}")
+
+
+@lru_cache(maxsize=512)
+def _factor_or_reason(text: str, si: str) -> float | tuple[str, str]:
+    """(cached) SI factor of checked unit text, or (reason, detail) when it cannot convert."""
     import pint
 
     ureg = registry()
-    text = _normalise(raw)
     try:
-        quantity: pint.Quantity = ureg.Quantity(text)
-    except (pint.PintError, ValueError, TypeError, AttributeError, SyntaxError, KeyError,
-            AssertionError, IndexError, ZeroDivisionError, tokenize.TokenError) as exc:
-        detail = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-        raise InputError(f"{field}: cannot read {raw!r} ({detail}); expected a {k.name} "
-                         f"such as {k.example}") from None
-    if not isinstance(quantity, ureg.Quantity):  # a plain number after normalisation
-        return float(quantity) * _si_factor(k.customary, k.si)
+        parsed = ureg.parse_expression(text)
+    except pint.UndefinedUnitError as exc:
+        names = getattr(exc, "unit_names", ())
+        name = names[0] if isinstance(names, tuple | list) and names else str(exc)
+        return "read", f"unknown unit {name!r}"
+    except (pint.PintError, ValueError, TypeError, KeyError, AttributeError, SyntaxError, ZeroDivisionError,
+            OverflowError, AssertionError):
+        return "read", "not a unit this tool knows"
+    if not isinstance(parsed, ureg.Quantity):
+        return "read", "not a unit"
     try:
-        return float(quantity.to(k.si).magnitude)
+        if si == "K":  # offset units have no factor; the caller converts the value itself
+            if parsed.dimensionality != ureg.Unit("K").dimensionality:
+                return "kind", _describe_dimension(parsed)
+            return 1.0
+        return float(parsed.to(si).magnitude)
     except pint.DimensionalityError:
-        found = _describe_dimension(quantity)
-        raise UnitKindError(f"{field}: {raw!r} is {found}, expected a {k.name} such as {k.example}") from None
+        return "kind", _describe_dimension(parsed)
+    except pint.PintError:
+        return "read", "not a unit this tool knows"
 
 
 def _describe_dimension(quantity: pint.Quantity) -> str:
+    if quantity.dimensionless:
+        return "a plain number without a physical unit"
+    dimensionality = quantity.dimensionality
     for kind in KINDS.values():
-        if kind.name != "dimensionless number" and quantity.check(kind.si):
-            return f"{'an' if kind.name[0] in 'aeiou' else 'a'} {kind.name}"
+        if kind.si not in ("dimensionless", "rad") and registry().Unit(kind.si).dimensionality == dimensionality:
+            return _a(kind.name)
     return f"in {quantity.units:~P}"
 
 
@@ -170,19 +405,49 @@ def _si_factor(unit: str, si: str) -> float:
 def _check_range(value: float, k: Kind, field: str, raw: str, *, allow_inf: bool, allow_zero: bool,
                  allow_negative: bool) -> None:
     if math.isnan(value):
-        raise InputError(f"{field}: {raw!r} is not a number; expected a {k.name} such as {k.example}")
+        raise InputError(f"{field}: {_shown(raw)} is not a number; {_expected(k)}")
     if math.isinf(value) and not (allow_inf and value > 0):
-        raise InputError(f"{field}: {raw!r} must be finite; expected a {k.name} such as {k.example}")
+        raise InputError(f"{field}: {_shown(raw)} must be finite; {_expected(k)}")
     if value < 0 and not allow_negative:
-        raise InputError(f"{field}: {raw!r} is negative; expected a positive {k.name} such as {k.example}")
+        raise InputError(f"{field}: {_shown(raw)} is negative; expected a positive {k.name} such as {k.example}")
     if value == 0 and not (allow_zero or allow_negative):
-        raise InputError(f"{field}: {raw!r} is zero; expected a positive {k.name} such as {k.example}")
+        raise InputError(f"{field}: {_shown(raw)} is zero; expected a positive {k.name} such as {k.example}")
     if value != 0 and math.isfinite(value) and not SI_RANGE[0] <= abs(value) <= SI_RANGE[1]:
-        raise InputError(f"{field}: {raw!r} is outside the range this tool computes with "
-                         f"({SI_RANGE[0]:g} to {SI_RANGE[1]:g} in SI units); expected a {k.name} such as {k.example}")
+        raise InputError(f"{field}: {_shown(raw)} is outside the range this tool computes with "
+                         f"({SI_RANGE[0]:g} to {SI_RANGE[1]:g} in SI units); {_expected(k)}")
 
 
-_RANGE = re.compile(r"^\s*([^:]+):([^:]+):([^:]+?)\s*([A-Za-zµμΩ\u2126°][^:]*)?$")
+def implausible(value: float, kind: str) -> str | None:
+    """Why an SI value of ``kind`` lies far outside the range met in neurons, or None if it does not.
+
+    Zero and infinite values are never implausible (they mean sealed, killed, open ...)."""
+    band = PLAUSIBLE.get(kind)
+    size = abs(value)
+    if band is None or size == 0 or not math.isfinite(size):
+        return None
+    if (band.low is not None and size < band.low) or (band.high is not None and size > band.high):
+        return f"far outside the values met in neurons ({band.met})"
+    return None
+
+
+# how bare numbers are described in warnings (the field's typography)
+_CUSTOMARY_LABELS = {"membrane_resistivity": "Ω·cm²", "axial_resistivity": "Ω·cm",
+                     "membrane_capacitance": "µF/cm²", "area": "µm²", "specific_conductance": "S/cm²"}
+
+
+def _warn_if_implausible(value: float, kind: str, k: Kind, field: str, raw: str) -> None:
+    reason = implausible(value, kind)
+    if reason is None:
+        return
+    if _NUMBER.match(raw):
+        label = _CUSTOMARY_LABELS.get(kind) or f"{registry().Unit(k.customary):~P}"
+        shown = f"{_shown(raw)} (read as {raw} {label}: bare numbers are in {label})"
+    else:
+        shown = _shown(raw)
+    warnings.warn(f"{field}: {shown} is {reason}; check the unit", ImplausibleValueWarning, stacklevel=3)
+
+
+_RANGE = re.compile(r"^\s*([^:]+):([^:]+):([^:]+?)\s*([A-Za-zµμΩ\u2126°%][^:]*)?$")
 
 
 def parse_series(text: str, kind: str, field: str, *, allow_zero: bool = True,
@@ -193,41 +458,53 @@ def parse_series(text: str, kind: str, field: str, *, allow_zero: bool = True,
 
     * ``"0, 0.5, 1 ms"`` or ``"0ms, 500us, 1ms"``: a list;
     * ``"0:10:0.5 ms"``: start, stop (inclusive when hit within rounding) and step.
+
+    Each item follows the rules of :func:`parse_quantity`; the whole text has at most
+    :data:`MAX_LIST_LENGTH` characters and the result at most ``max_points`` values.
     """
-    raw = text.strip()
     k = _kind(kind)
+    raw = text.strip()
     if not raw:
         raise InputError(f"{field}: empty list; expected values such as '0, 1, 2' or '0:10:1' with a unit")
+    raw = _checked_text(raw, k, field, MAX_LIST_LENGTH)
     match = _RANGE.match(raw)
     if match:
         unit = (match.group(4) or "").strip()
-        start, stop, step = (parse_quantity(f"{part.strip()} {unit}".strip(), kind, field,
-                                            allow_zero=True, allow_negative=True)
+        start, stop, step = (_series_item(f"{part.strip()} {unit}".strip(), k, field)
                              for part in match.group(1, 2, 3))
         if step <= 0:
-            raise InputError(f"{field}: step in {raw!r} must be positive")
+            raise InputError(f"{field}: step in {_shown(raw)} must be positive")
         if stop < start:
-            raise InputError(f"{field}: range {raw!r} ends before it starts")
+            raise InputError(f"{field}: range {_shown(raw)} ends before it starts")
         count = math.floor((stop - start) / step * (1 + 1e-12)) + 1
         if count > max_points:
-            raise InputError(f"{field}: range {raw!r} has {count} points; at most {max_points} allowed")
+            raise InputError(f"{field}: range {_shown(raw)} has {count} points; at most {max_points} allowed")
         values = [start + i * step for i in range(count)]
     else:
         parts = [p.strip() for p in raw.split(",")]
         if any(not p for p in parts):
-            raise InputError(f"{field}: empty item in list {raw!r}")
+            raise InputError(f"{field}: empty item in list {_shown(raw)}")
+        if len(parts) > max_points:
+            raise InputError(f"{field}: {len(parts)} values; at most {max_points} allowed")
         unit = _trailing_unit(parts[-1])
-        values = [parse_quantity(f"{p} {unit}" if unit and _NUMBER.match(p) else p, kind, field,
-                                 allow_zero=True, allow_negative=True) for p in parts]
-    for v, shown in zip(values, [raw] * len(values), strict=True):
-        _check_range(v, k, field, shown, allow_inf=False, allow_zero=allow_zero,
-                     allow_negative=allow_negative)
+        values = [_series_item(f"{p} {unit}" if unit and _NUMBER.match(p) else p, k, field) for p in parts]
+    for v in values:
+        _check_range(v, k, field, raw, allow_inf=False, allow_zero=allow_zero, allow_negative=allow_negative)
+    for v in values:
+        if implausible(v, kind):
+            _warn_if_implausible(v, kind, k, field, raw)
+            break
     return values
 
 
+def _series_item(item: str, k: Kind, field: str) -> float:
+    raw = _checked_text(item, k, field, MAX_VALUE_LENGTH)
+    return _read_value(raw, k, field, allow_inf=False)
+
+
 def _trailing_unit(item: str) -> str:
-    m = re.match(r"^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*(.*)$", item)
-    return m.group(3).strip() if m else ""
+    m = re.match(rf"^\s*[+-]?{_FLOAT}\s*(.*)$", item)
+    return m.group(1).strip() if m else ""
 
 
 def si_unit(kind: str) -> str:

@@ -7,20 +7,22 @@ only the standard library and the core at top level; sympy, scipy, textual and
 matplotlib are imported inside the functions that need them, so that start-up is fast.
 
 Errors the user can fix (:class:`~cabletheory.errors.CableTheoryError`) print one line
-to stderr and give exit status 2, never a traceback.
+to stderr and give exit status 2, never a traceback; so does a missing command.
 """
 
 from __future__ import annotations
 
 import argparse
+import contextlib
 import importlib
+import os
 import re
 import sys
 import warnings
 from collections.abc import Sequence
 
 from .. import __version__
-from ..errors import CableTheoryError, InputError
+from ..errors import CableTheoryError, ImplausibleValueWarning, InputError
 
 # command name -> module in this package (order is the order of ``--help``)
 COMMANDS: dict[str, str] = {
@@ -83,29 +85,81 @@ def _attach_negative_values(argv: Sequence[str]) -> list[str]:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; return the exit status (0 ok, 1 check failed, 2 bad input)."""
+    """Run the command line; return the exit status.
+
+    0 done (or check passed), 1 check failed, 2 bad input (one line on stderr: ``cabletheory:
+    error: ...``), 130 interrupted, 70 an internal error (a bug: one line; set the environment
+    variable ``CABLETHEORY_TRACEBACK=1`` to see the traceback). ``cabletheory`` with no command is
+    a usage error (status 2). A value far outside the range met in neurons is used but draws one
+    ``cabletheory: warning: ...`` line on stderr.
+    """
     arguments = _attach_negative_values(sys.argv[1:] if argv is None else argv)
-    parser = build_parser(arguments[0] if arguments else None)
     try:
-        args = parser.parse_args(arguments)
-        if getattr(args, "run", None) is None:
-            parser.print_help()
-            return 2
         with warnings.catch_warnings():
             # a floating-point overflow or invalid operation means the inputs are outside what the
             # formulas can evaluate: report it instead of printing inf or nan
             warnings.simplefilter("error", RuntimeWarning)
-            return int(args.run(args))
+            warnings.simplefilter("always", ImplausibleValueWarning)
+            warnings.showwarning = _show_warning
+            return _run(arguments)
     except CableTheoryError as exc:
-        print(f"cabletheory: error: {exc}", file=sys.stderr)
+        _error(str(exc))
         return 2
     except (OverflowError, FloatingPointError, RuntimeWarning) as exc:
         detail = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-        print(f"cabletheory: error: the inputs give numbers too large or too small to evaluate ({detail}); "
-              "check the magnitudes and units", file=sys.stderr)
+        _error(f"the inputs give numbers too large or too small to evaluate ({detail}); check the magnitudes "
+               "and units")
         return 2
     except BrokenPipeError:  # e.g. piped into `head`
+        _silence_stdout()
         return 0
+    except KeyboardInterrupt:
+        _error("interrupted", prefix="cabletheory: ")
+        return 130
+    except Exception as exc:  # a bug, not bad input: one line unless asked for the traceback
+        if os.environ.get("CABLETHEORY_TRACEBACK"):
+            raise
+        detail = " ".join(str(exc).split())[:200]
+        _error(f"{type(exc).__name__}: {detail} (a bug in cabletheory; run again with CABLETHEORY_TRACEBACK=1 "
+               "set for the details and please report it)", prefix="cabletheory: internal error: ")
+        return 70
+
+
+def _run(arguments: list[str]) -> int:
+    parser = build_parser(arguments[0] if arguments else None)
+    if not arguments:
+        raise InputError(f"no command given; choose one of {', '.join(COMMANDS)} ('cabletheory --help' "
+                         "describes them)")
+    args = parser.parse_args(arguments)
+    if getattr(args, "run", None) is None:
+        raise InputError(f"no command given; choose one of {', '.join(COMMANDS)} ('cabletheory --help' "
+                         "describes them)")
+    return int(args.run(args))
+
+
+def _one_line(message: str) -> str:
+    return " ".join(message.split())
+
+
+def _error(message: str, prefix: str = "cabletheory: error: ") -> None:
+    with contextlib.suppress(OSError, ValueError):  # stderr closed or broken: nothing more can be said
+        print(f"{prefix}{_one_line(message)}", file=sys.stderr, flush=True)
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """Warnings the user should see, each on one stderr line; others as Python prints them."""
+    if issubclass(category, ImplausibleValueWarning):
+        _error(str(message), prefix="cabletheory: warning: ")
+    else:
+        _error(f"{category.__name__}: {message}", prefix="cabletheory: warning: ")
+
+
+def _silence_stdout() -> None:
+    """After a broken pipe, point stdout at /dev/null so that Python's exit flush stays quiet."""
+    with contextlib.suppress(OSError, ValueError):
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
 
 
 def entry() -> None:

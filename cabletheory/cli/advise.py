@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import re
 
 import numpy as np
 
@@ -110,16 +111,34 @@ def _tree_arrays(args: argparse.Namespace) -> tuple[np.ndarray, np.ndarray, np.n
                 f"{args.tree} ({len(tree)} {what})")
     if not (args.parents and args.lengths and args.diameters):
         raise InputError("a tree needs --parents, --lengths and --diameters together (or --tree FILE)")
-    try:
-        parents = np.array([int(p) for p in args.parents.split(",")], dtype=np.int64)
-    except ValueError:
-        raise InputError(f"--parents: {args.parents!r} is not a list of whole numbers such as '-1,0,0'") from None
+    parents = parse_parents(args.parents)
     lengths = np.array(parse_series(args.lengths, "length", "--lengths", allow_zero=False))
     diameters = np.array(parse_series(args.diameters, "length", "--diameters", allow_zero=False))
     for name, arr in (("--lengths", lengths), ("--diameters", diameters)):
         if arr.size != parents.size:
             raise InputError(f"{name}: {arr.size} values for {parents.size} sections")
     return parents, lengths, diameters, None, f"{parents.size} sections"
+
+
+def parse_parents(text: str) -> np.ndarray:
+    """'-1,0,0' -> the parent index of each section: -1 for the first (the root), and for every other
+    section the index of a section before it; anything else is refused naming --parents."""
+    items = [item.strip() for item in text.split(",")]
+    if len(items) > 100_000:
+        raise InputError(f"--parents: {len(items)} sections; at most 100000")
+    parents: list[int] = []
+    for i, item in enumerate(items):
+        if not re.fullmatch(r"-?[0-9]{1,6}", item):
+            raise InputError(f"--parents: item {i + 1} ({item[:20]!r}) is not a whole number; expected a list such "
+                             "as '-1,0,0' (-1 for the root, then the index of each section's parent)")
+        parent = int(item)
+        if i == 0 and parent != -1:
+            raise InputError(f"--parents: the first section is the root, so its parent must be -1, not {parent}")
+        if i > 0 and not 0 <= parent < i:
+            raise InputError(f"--parents: section {i} has parent {parent}; expected the index of an earlier "
+                             f"section (0 to {i - 1}), counting from 0")
+        parents.append(parent)
+    return np.array(parents, dtype=np.int64)
 
 
 def run(args: argparse.Namespace) -> int:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import io
+import re
 from pathlib import Path
 
 import numpy as np
@@ -68,10 +69,10 @@ def parse_types(text: str) -> set[int]:
             raise InputError(f"--types: empty item in {text!r}; expected e.g. '3,4' or 'basal,apical'")
         if item in _TYPE_NAMES:
             found.add(_TYPE_NAMES[item])
-        elif item.isdigit():
+        elif re.fullmatch(r"[0-9]{1,4}", item):
             found.add(int(item))
         else:
-            raise InputError(f"--types: {item!r} is neither an SWC type number nor one of "
+            raise InputError(f"--types: {item[:20]!r} is neither an SWC type number nor one of "
                              f"{', '.join(_TYPE_NAMES)}")
     return found
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import warnings
 from pathlib import Path
 from typing import ClassVar
 
@@ -13,6 +14,7 @@ from textual.widget import Widget
 from textual.widgets import ContentSwitcher, Static
 
 from .. import PASSIVE_CAVEAT
+from ..errors import ImplausibleValueWarning
 from .keys import GLOBAL_KEYS, VIEWS, key_label
 
 __all__ = ["CableApp"]
@@ -51,6 +53,9 @@ class CableApp(App[None]):
         super().__init__()
         if view not in VIEWS:
             raise ValueError(f"unknown view {view!r}")
+        # a value far outside the range met in neurons is used as typed; a warning printed on
+        # stderr would scribble over the screen, so the app does not print it
+        warnings.filterwarnings("ignore", category=ImplausibleValueWarning)
         self.start_view = view
         self.swc = swc
         self.simulation = simulation
