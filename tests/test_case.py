@@ -216,7 +216,7 @@ def test_app_messages_use_the_app_labels_and_the_cli_its_options():
     assert setup is None
     assert errors["site"].startswith("stimulus at: ")
     with pytest.raises(CaseInputError, match=r"^--stimulus-at: 600 µm lies outside"):
-        read_case_options(build_parser().parse_args(["charge", "--Rm", "1", "--Ri", "1", "--diameter", "2",
+        read_case_options(build_parser().parse_args(["charge", "--Rm", "20000", "--Ri", "100", "--diameter", "2",
                                                      "--length", "500", "--current", "1", "--stimulus-at", "600"]))
 
 
