@@ -201,19 +201,22 @@ def run(args: argparse.Namespace) -> int:
 
 def _exact_time_course(cylinder, soma_diameter, site):
     """Exact voltage at ``site`` for a 1 A step at the origin (any far end; a soma makes it a ball and
-    stick), from :mod:`cabletheory.transient`."""
+    stick), from :mod:`cabletheory.transient`; the site is checked by the case's own rule."""
     from .. import transient as tr
+    from ..case import Case, CaseFieldError
 
     where = cylinder.length if site is None else site
-    if not 0 <= where <= cylinder.length:
-        raise InputError(f"--read-at: {format_quantity(where, 'length')} lies outside the cable")
+    model = tr.BallAndStick(cylinder, soma_diameter) if soma_diameter else cylinder
+    try:
+        case = Case(model, tr.CurrentStep(1.0), (where,))
+    except CaseFieldError as exc:
+        raise InputError(f"--read-at: {exc}") from None
     if math.isinf(cylinder.end_conductance) and where >= cylinder.length:
         raise InputError("--read-at: a killed end stays at rest, so a relative error means nothing there; "
                          "choose a --read-at inside the cable")
-    model = tr.BallAndStick(cylinder, soma_diameter) if soma_diameter else cylinder
 
     def course(t):
-        return tr.charge(model, tr.CurrentStep(1.0), t, [where], modes=0).voltage[:, 0]
+        return tr.charge(case.cell, case.stimulus, t, case.positions, modes=0).voltage[:, 0]
 
     return course
 
