@@ -42,7 +42,8 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from .errors import FileFormatError, MissingFileError
+from .errors import FileFormatError
+from .textfile import read_input_bytes
 
 __all__ = [
     "SWC_TYPES",
@@ -120,21 +121,15 @@ class SectionList:
 # shared helpers
 # --------------------------------------------------------------------------------------
 def _read_text(path: str | Path) -> tuple[str, str]:
+    """The file's text: a regular file within the input size limit (:mod:`cabletheory.textfile`)."""
     p = Path(path)
-    try:
-        data = p.read_bytes()
-    except FileNotFoundError:
-        raise MissingFileError(f"morphology file {str(p)!r} does not exist") from None
-    except IsADirectoryError:
-        raise MissingFileError(f"morphology file {str(p)!r} is a directory") from None
-    except PermissionError:
-        raise MissingFileError(f"morphology file {str(p)!r} is not readable") from None
-    return _decode(data, str(p)), str(p)
+    return _decode(read_input_bytes(p, "morphology file"), str(p)), str(p)
 
 
 def _decode(data: bytes, source: str) -> str:
-    """Decode text; binary junk (NUL or other control bytes in a data line) is an error."""
-    text = data.decode("utf-8", errors="replace")
+    """Decode text (a leading byte-order mark is dropped); binary junk (NUL or other control bytes
+    in a data line) is an error."""
+    text = data.decode("utf-8-sig", errors="replace")
     for number, line in enumerate(text.splitlines(), start=1):
         content = line.split("#", 1)[0]
         bad = next((ch for ch in content if ch == "\ufffd" or (ord(ch) < 32 and ch not in "\t\r\f\v")), None)

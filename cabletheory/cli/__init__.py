@@ -23,6 +23,7 @@ from collections.abc import Sequence
 
 from .. import __version__
 from ..errors import CableTheoryError, ImplausibleValueWarning, InputError
+from ..textfile import DEFAULT_LIMIT, describe_size, input_size_limit, max_input_bytes
 
 # command name -> module in this package (order is the order of ``--help``)
 COMMANDS: dict[str, str] = {
@@ -40,6 +41,23 @@ COMMANDS: dict[str, str] = {
 
 
 _NEGATIVE = re.compile(r"^-(\d|\.\d|inf)")
+
+# commands that read the user's files, and so take --max-file-size
+READS_FILES = ("tree", "reference", "compare", "advise", "ui")
+_SIZE = re.compile(r"^\s*(\d+(?:\.\d+)?(?:[eE]\+?\d+)?)\s*(|B|kB|KB|MB|GB|TB|KiB|MiB|GiB|TiB)\s*$", re.IGNORECASE)
+_SIZE_FACTORS = {"": 1, "b": 1, "kb": 10**3, "mb": 10**6, "gb": 10**9, "tb": 10**12, "kib": 2**10, "mib": 2**20,
+                 "gib": 2**30, "tib": 2**40}
+
+
+def file_size(text: str) -> int:
+    """An argparse ``type`` for --max-file-size: '500MB', '2 GB', '1GiB' or a number of bytes."""
+    match = _SIZE.match(text)
+    if match is None:
+        raise argparse.ArgumentTypeError(f"{text[:40]!r} is not a file size such as 500MB or 2GB")
+    size = float(match.group(1)) * _SIZE_FACTORS[match.group(2).lower()]
+    if not 1 <= size <= 10**15:
+        raise argparse.ArgumentTypeError(f"{text[:40]!r} must lie between 1 byte and 1 PB")
+    return int(size)
 
 
 class _Parser(argparse.ArgumentParser):
@@ -69,6 +87,11 @@ def build_parser(only: str | None = None) -> argparse.ArgumentParser:
                 raise
             continue  # command not built yet
         module.register(sub)
+        if name in READS_FILES and name in sub.choices:
+            sub.choices[name].add_argument(
+                "--max-file-size", type=file_size, default=None, metavar="SIZE",
+                help=f"largest input file read, e.g. 2GB (default {describe_size(DEFAULT_LIMIT)}; the size is "
+                     "checked before a file is read)")
     return parser
 
 
@@ -134,7 +157,9 @@ def _run(arguments: list[str]) -> int:
     if getattr(args, "run", None) is None:
         raise InputError(f"no command given; choose one of {', '.join(COMMANDS)} ('cabletheory --help' "
                          "describes them)")
-    return int(args.run(args))
+    limit = getattr(args, "max_file_size", None)
+    with input_size_limit(limit or max_input_bytes()):
+        return int(args.run(args))
 
 
 def _one_line(message: str) -> str:

@@ -373,16 +373,11 @@ def analyse_check(setup: CheckSetup) -> CheckAnalysis:
     The exact case is :func:`cabletheory.verify.exact_case` of the form's model and stimulus,
     the rule the ``reference`` and ``compare`` commands use.
     """
-    from ..errors import InputError
+    from ..textfile import read_input_text
     from ..transient import InfiniteCable
     from ..verify import compare, exact_case, read_recording
 
-    try:
-        text = setup.path.read_text(encoding="utf-8-sig")
-    except UnicodeDecodeError:
-        raise InputError(f"{setup.path}: not a UTF-8 text file") from None
-    except OSError as exc:
-        raise InputError(f"{setup.path}: cannot be read ({exc.strerror})") from None
+    text = read_input_text(setup.path, "simulator output")
     infinite = isinstance(setup.case.model, InfiniteCable)
     recording = read_recording(text, str(setup.path), parse_file_quantity, resting_potential=setup.rest,
                                time_offset=setup.onset, allow_negative_positions=infinite)
