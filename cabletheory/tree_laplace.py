@@ -1,0 +1,660 @@
+r"""Laplace-domain solution of a passive tree: input and transfer impedance at any complex s.
+
+A tree (:class:`cabletheory.tree.Tree`) with membrane properties and tip conditions is a
+:class:`PassiveTree`. Each piece is a uniform cylinder of diameter d, length ℓ; with
+:math:`q = \sqrt{1 + s\tau}` (principal branch, Re q ≥ 0), :math:`\tau = R_m C_m`, its
+characteristic admittance is :math:`G_\infty q` and its electrotonic length in the Laplace
+domain :math:`u = qL`, :math:`L = \ell/\lambda`, because the membrane admittance per area is
+:math:`(1 + s\tau)/R_m`. Two passes over the pieces give everything (Butz & Cowan 1974;
+Koch & Poggio 1985; Holmes 1986):
+
+* **tips inward**: a piece loaded at its distal node by :math:`Y_L` has input admittance
+
+  .. math:: Y_{in} = G_\infty q\,\frac{Y_L + G_\infty q\tanh u}{G_\infty q + Y_L\tanh u}
+
+  (:math:`G_\infty q\coth u` at a killed tip); a node's load is the sum of its children's
+  :math:`Y_{in}` plus the tip conductance; the root adds the soma, :math:`G_S(1 + s\tau_S)`;
+* **root outward**: the admittance looking back towards the root from each node, so that the
+  total admittance at every node, and with it the input impedance :math:`Z_{vv} = 1/Y_{tot}`,
+  is known; and the voltage ratio across each piece in each direction,
+
+  .. math:: \frac{V_{far}}{V_{near}} = \frac{1}{\cosh u + (Y_{far}/G_\infty q)\sinh u}
+            = \frac{G_\infty q\,\mathrm{sech}\,u}{G_\infty q + Y_{far}\tanh u},
+
+  with :math:`Y_{far}` the admittance beyond the far node, away from the piece. The transfer
+  impedance from node a to node b is :math:`Z_{aa}` times the ratios along the path; it is
+  reciprocal, :math:`Z_{ab} = Z_{ba}`.
+
+Only tanh, sech = 2e^{-u}/(1 + e^{-2u}) and products of ratios of modulus ≤ 1 appear, so nothing
+overflows for long pieces or large |s|. Sites inside a piece are handled by cutting the piece
+there (exact for cylinders); pieces of zero length are contracted into their parent node.
+
+**Eigenvalues.** The decay rates :math:`1/\tau_n` of the tree are counted, not searched for:
+with :math:`s = -\lambda` real, the number of rates below λ is the number of negative pivots of
+the tips-inward elimination plus, for every piece, the number of its rates with both ends held
+at rest, :math:`\#\{n \ge 1: (1 + (n\pi/L)^2)/\tau < \lambda\}` (Wittrick & Williams 1971,
+recalled from memory [MEM]). Bisection on that integer count brackets every rate, multiple ones
+included, with no poles to step over; a rate is seen at the root when the root admittance
+vanishes there, and its residue follows from the root admittance's slope.
+
+Frusta (tapered pieces) are refused here: their Laplace-domain two-port needs Bessel functions
+of complex argument and is not implemented. The model is passive, linear and uniform within
+each piece (:data:`cabletheory.PASSIVE_CAVEAT`).
+
+References
+----------
+Butz EG & Cowan JD (1974) Biophys. J. 14:661 (transient potentials in dendritic systems).
+Koch C & Poggio T (1985) J. Neurosci. Methods 12:303 (Laplace-domain recursion on trees).
+Holmes WR (1986) Biol. Cybern. 55:115 (transients in branched trees by Laplace transforms).
+Wittrick WH & Williams FW (1971) Q. J. Mech. Appl. Math. 24:263 (counting eigenvalues of a
+structure from its dynamic stiffness) [MEM].
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from .cable import length_constant, semi_infinite_input_conductance
+from .errors import InputError
+from .tree import Tree
+
+__all__ = [
+    "PassiveTree",
+    "Site",
+    "TreeModes",
+    "eigenvalue_count",
+    "input_impedance",
+    "node_sites",
+    "root_modes",
+    "root_site",
+    "site_at",
+    "transfer_impedance",
+    "transfer_impedance_precise",
+]
+
+Array = NDArray[np.float64]
+ComplexArray = NDArray[np.complex128]
+IntArray = NDArray[np.int64]
+
+_TAPER_THRESHOLD = 3e-7  # relative end-diameter difference below which a frustum is a cylinder
+_CHUNK = 400_000  # pieces × s values per temporary array
+
+
+# --------------------------------------------------------------------------------------
+# the cell and its sites
+# --------------------------------------------------------------------------------------
+def _per_piece(value: ArrayLike, count: int, name: str) -> Array:
+    arr = np.asarray(value, dtype=float).ravel()
+    if arr.size == 1:
+        arr = np.full(count, float(arr[0]))
+    if arr.size != count:
+        raise InputError(f"{name}: expected one value or {count} (one per piece), got {arr.size}")
+    if not (np.all(np.isfinite(arr)) and np.all(arr > 0)):
+        raise InputError(f"{name} must be finite and positive")
+    return arr
+
+
+@dataclass(frozen=True, slots=True)
+class PassiveTree:
+    """A tree with its membrane, cytoplasm and tip conditions, SI.
+
+    Attributes
+    ----------
+    tree : the pieces (cylinders; frusta are refused), parents before children
+    membrane_resistivity : Rm, Ω·m², one value or one per piece
+    axial_resistivity : Ri, Ω·m (uniform)
+    membrane_capacitance : Cm, F/m², one value or one per piece
+    tips : "sealed", "killed", or a conductance to rest in S (one value for every tip, or an
+        array with one value per piece of which only the tips' are used; inf = killed)
+    soma_membrane_resistivity, soma_membrane_capacitance : the soma's Rm and Cm; default the
+        dendrites' (which must then be one value)
+    """
+
+    tree: Tree
+    membrane_resistivity: float | Array
+    axial_resistivity: float
+    membrane_capacitance: float | Array
+    tips: str | float | Array = "sealed"
+    soma_membrane_resistivity: float | None = None
+    soma_membrane_capacitance: float | None = None
+
+    def __post_init__(self) -> None:
+        n = len(self.tree)
+        if n == 0:
+            raise InputError(f"{self.tree.source}: the tree has no pieces")
+        _per_piece(self.membrane_resistivity, n, "membrane_resistivity")
+        _per_piece(self.membrane_capacitance, n, "membrane_capacitance")
+        ri = float(self.axial_resistivity)
+        if not (math.isfinite(ri) and ri > 0):
+            raise InputError(f"axial_resistivity must be finite and positive, got {self.axial_resistivity!r}")
+        d0, d1 = np.asarray(self.tree.proximal_diameters), np.asarray(self.tree.distal_diameters)
+        if np.any(np.abs(d1 - d0) > _TAPER_THRESHOLD * 0.5 * (d0 + d1)):
+            raise InputError(f"{self.tree.source}: tapered pieces (frusta) are not supported by the time-domain "
+                             "solution; read the tree with cylinders")
+        self.tip_conductances()  # validates the tip words
+        if self.tree.soma_area is not None:
+            self.soma_constants()
+
+    def tip_conductances(self) -> Array:
+        """Conductance (S) from each piece's distal node to rest: 0 sealed, inf killed (tips only)."""
+        n = len(self.tree)
+        tip = _tips(self.tree.parents)
+        if isinstance(self.tips, str):
+            word = self.tips.strip().lower()
+            if word not in ("sealed", "killed"):
+                raise InputError(f"tips must be 'sealed', 'killed' or a conductance in S, got {self.tips!r}")
+            value = np.full(n, 0.0 if word == "sealed" else math.inf)
+        else:
+            value = np.asarray(self.tips, dtype=float).ravel()
+            if value.size == 1:
+                value = np.full(n, float(value[0]))
+            if value.size != n:
+                raise InputError(f"tips: expected one conductance or {n} (one per piece), got {value.size}")
+            if np.any(np.isnan(value)) or np.any(value < 0):
+                raise InputError("tip conductances must be >= 0 S (inf for a killed tip)")
+        return np.where(tip, value, 0.0)
+
+    def soma_constants(self) -> tuple[float, float]:
+        """(G_S in S, τ_S in s) of the lumped soma; (0, 0) without a soma."""
+        if self.tree.soma_area is None:
+            return 0.0, 0.0
+        rm, cm = self.soma_membrane_resistivity, self.soma_membrane_capacitance
+        for name, given, default in (("soma_membrane_resistivity", rm, self.membrane_resistivity),
+                                     ("soma_membrane_capacitance", cm, self.membrane_capacitance)):
+            if given is None and np.asarray(default).size != 1:
+                raise InputError(f"{name} is needed when the dendrites' value varies from piece to piece")
+        rm_s = float(np.asarray(self.membrane_resistivity).ravel()[0]) if rm is None else float(rm)
+        cm_s = float(np.asarray(self.membrane_capacitance).ravel()[0]) if cm is None else float(cm)
+        if not (math.isfinite(rm_s) and rm_s > 0 and math.isfinite(cm_s) and cm_s > 0):
+            raise InputError("the soma's membrane resistivity and capacitance must be finite and positive")
+        return self.tree.soma_area / rm_s, rm_s * cm_s
+
+    @property
+    def time_constants(self) -> Array:
+        """τ = Rm·Cm of each piece, s."""
+        n = len(self.tree)
+        return (_per_piece(self.membrane_resistivity, n, "membrane_resistivity")
+                * _per_piece(self.membrane_capacitance, n, "membrane_capacitance"))
+
+
+def _tips(parents: IntArray) -> NDArray[np.bool_]:
+    has_child = np.zeros(len(parents), dtype=bool)
+    p = np.asarray(parents)
+    has_child[p[p >= 0]] = True
+    return ~has_child
+
+
+@dataclass(frozen=True, slots=True)
+class Site:
+    """A point of a tree: ``distance`` (m) from the proximal end of piece ``piece``.
+
+    ``piece = -1`` is the root node (the soma, or the root point without a soma); the distal
+    node of piece i is ``Site(i, tree.lengths[i])``.
+    """
+
+    piece: int
+    distance: float = 0.0
+
+
+def root_site() -> Site:
+    """The root node (soma)."""
+    return Site(-1, 0.0)
+
+
+def site_at(tree: Tree, label: str) -> Site:
+    """The site named by a point label (SWC id or piece name) or by the root's label, 'root' or 'soma'."""
+    text = str(label).strip()
+    if text in ("root", "soma", tree.root_label):
+        return root_site()
+    try:
+        i = tree.labels.index(text)
+    except ValueError:
+        raise InputError(f"{tree.source}: no point {text!r} in the tree") from None
+    return Site(i, float(tree.lengths[i]))
+
+
+def node_sites(tree: Tree) -> tuple[Site, ...]:
+    """The root and the distal node of every piece, in the tree's order (root first)."""
+    return (root_site(), *(Site(i, float(ell)) for i, ell in enumerate(np.asarray(tree.lengths))))
+
+
+# --------------------------------------------------------------------------------------
+# the network: pieces cut at the sites, zero lengths contracted
+# --------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class _Network:
+    parents: IntArray  # parent piece, -1 root; node k+1 is the distal node of piece k, node 0 the root
+    electrotonic: Array  # L of each piece
+    g_inf: Array  # S
+    tau: Array  # s
+    shunt: Array  # S, conductance to rest at each piece's distal node (tips)
+    killed: NDArray[np.bool_]  # distal node held at rest
+    soma_conductance: float
+    soma_tau: float
+    nodes: IntArray  # node of each requested site
+    levels: tuple[IntArray, ...]  # pieces by depth, root side first
+    depth: IntArray  # depth of each node (root 0)
+    parent_node: IntArray  # node at the proximal end of each piece
+
+    @property
+    def size(self) -> int:
+        return int(self.parents.size)
+
+
+def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
+    tree = cell.tree
+    n = len(tree)
+    lengths = np.asarray(tree.lengths, dtype=float)
+    diam = np.asarray(tree.distal_diameters, dtype=float)
+    rm = _per_piece(cell.membrane_resistivity, n, "membrane_resistivity")
+    cm = _per_piece(cell.membrane_capacitance, n, "membrane_capacitance")
+    ri = float(cell.axial_resistivity)
+    tip_g = cell.tip_conductances()
+    lam = np.asarray(length_constant(rm, ri, diam), dtype=float)
+    ginf = np.asarray(semi_infinite_input_conductance(rm, ri, diam), dtype=float)
+    cuts: list[list[float]] = [[] for _ in range(n)]
+    for site in sites:
+        i, x = _check_site(tree, site)
+        if 0.0 < x < lengths[i]:
+            cuts[i].append(x)
+    parents = tree.parents.tolist()
+    end_node = [0] * n
+    start_node = [0] * n
+    cut_node: dict[tuple[int, float], int] = {}
+    new_par: list[int] = []
+    new_len: list[float] = []
+    src: list[int] = []
+    shunt_at: dict[int, float] = {}
+    killed_at: set[int] = set()
+    for i in range(n):
+        start = 0 if parents[i] < 0 else end_node[parents[i]]
+        start_node[i] = start
+        if lengths[i] == 0.0:
+            end_node[i] = start
+            g = float(tip_g[i])
+            if math.isinf(g):
+                raise InputError(f"{tree.source}: tip {tree.labels[i]} has zero length and is killed, which would "
+                                 "ground its parent point; give it a length or seal it")
+            if g > 0:
+                if start == 0:
+                    raise InputError(f"{tree.source}: tip {tree.labels[i]} has zero length at the root; a "
+                                     "conductance there is not a tip condition")
+                shunt_at[start] = shunt_at.get(start, 0.0) + g
+            continue
+        previous = 0.0
+        for x in [*sorted(set(cuts[i])), float(lengths[i])]:
+            new_par.append(start - 1)
+            new_len.append(x - previous)
+            src.append(i)
+            start = len(new_par)
+            cut_node[(i, x)] = start
+            previous = x
+        end_node[i] = start
+        if math.isinf(tip_g[i]):
+            killed_at.add(start)
+        elif tip_g[i] > 0:
+            shunt_at[start] = shunt_at.get(start, 0.0) + float(tip_g[i])
+    m = len(new_par)
+    if m == 0:
+        raise InputError(f"{tree.source}: the tree has no membrane (every piece has zero length)")
+    source = np.asarray(src, dtype=np.int64)
+    par = np.asarray(new_par, dtype=np.int64)
+    shunt = np.zeros(m)
+    for node, g in shunt_at.items():
+        shunt[node - 1] += g
+    killed = np.zeros(m, dtype=bool)
+    for node in killed_at:
+        killed[node - 1] = True
+    nodes = []
+    for site in sites:
+        i, x = _check_site(tree, site)
+        if i < 0 or x == 0.0:
+            nodes.append(0 if i < 0 else start_node[i])
+        elif x >= lengths[i]:
+            nodes.append(end_node[i])
+        else:
+            nodes.append(cut_node[(i, x)])
+    depth = np.zeros(m + 1, dtype=np.int64)
+    for k in range(m):
+        depth[k + 1] = depth[par[k] + 1] + 1
+    order = np.argsort(depth[1:], kind="stable")
+    bounds = np.searchsorted(depth[1:][order], np.arange(1, int(depth.max()) + 2))
+    levels = tuple(order[bounds[j]:bounds[j + 1]] for j in range(bounds.size - 1))
+    g_s, tau_s = cell.soma_constants()
+    return _Network(parents=par, electrotonic=np.asarray(new_len) / lam[source], g_inf=ginf[source],
+                    tau=(rm * cm)[source], shunt=shunt, killed=killed, soma_conductance=g_s, soma_tau=tau_s,
+                    nodes=np.asarray(nodes, dtype=np.int64), levels=levels, depth=depth, parent_node=par + 1)
+
+
+def _check_site(tree: Tree, site: Site) -> tuple[int, float]:
+    if not isinstance(site, Site):
+        raise InputError(f"a site must be a Site (piece, distance), got {site!r}")
+    i, x = int(site.piece), float(site.distance)
+    if i == -1:
+        return -1, 0.0
+    if not 0 <= i < len(tree):
+        raise InputError(f"{tree.source}: piece {i} does not exist (0..{len(tree) - 1})")
+    ell = float(tree.lengths[i])
+    if not (math.isfinite(x) and -1e-12 * ell <= x <= ell * (1 + 1e-12)):
+        raise InputError(f"{tree.source}: distance {x!r} m lies outside piece {tree.labels[i]} (0..{ell!r} m)")
+    if x <= 1e-12 * ell:
+        return i, 0.0
+    if x >= ell * (1 - 1e-12):
+        return i, ell
+    return i, x
+
+
+# --------------------------------------------------------------------------------------
+# the two passes
+# --------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class _Solution:
+    """Per-piece arrays have shape (pieces, n_s); per-node arrays (pieces + 1, n_s), node 0 the root."""
+
+    y_in: ComplexArray  # input admittance of each piece looking away from the root, S
+    total: ComplexArray  # total admittance at each node, S (inf at a killed tip)
+    down: ComplexArray  # V(distal)/V(proximal) with the source on the root side
+    up: ComplexArray  # V(proximal)/V(distal) with the source on the far side
+    pivots: ComplexArray | None  # elimination pivot at each node (for counting)
+
+
+def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution:
+    """Both passes for a vector of complex s (1/s); see the module docstring."""
+    s = np.asarray(s, dtype=complex).ravel()
+    n = net.size
+    q = np.sqrt(1.0 + net.tau[:, None] * s[None, :])
+    u = net.electrotonic[:, None] * q
+    th = np.tanh(u)
+    e = np.exp(-u)
+    sech = 2.0 * e / (1.0 + e * e)
+    gq = net.g_inf[:, None] * q
+    load = np.zeros((n + 1, s.size), dtype=complex)
+    load[1:] += net.shunt[:, None]
+    y_in = np.empty((n, s.size), dtype=complex)
+    down = np.empty((n, s.size), dtype=complex)
+    killed = net.killed
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for idx in reversed(net.levels):
+            yl = load[idx + 1]
+            g, t = gq[idx], th[idx]
+            den = g + yl * t
+            y = g * (yl + g * t) / den
+            h = g * sech[idx] / den
+            k = killed[idx]
+            if np.any(k):
+                y[k] = g[k] / t[k]
+                h[k] = 0.0
+            y_in[idx] = y
+            down[idx] = h
+            np.add.at(load, net.parent_node[idx], y)
+        load[0] += net.soma_conductance * (1.0 + net.soma_tau * s)
+        total = np.empty_like(load)
+        total[0] = load[0]
+        up = np.empty((n, s.size), dtype=complex)
+        for idx in net.levels:
+            g, t = gq[idx], th[idx]
+            back = total[net.parent_node[idx]] - y_in[idx]
+            den = g + back * t
+            up[idx] = g * sech[idx] / den
+            total[idx + 1] = load[idx + 1] + g * (back + g * t) / den
+        total[1:][killed] = np.inf
+        piv = None
+        if pivots:
+            piv = load.copy()
+            piv[1:] += gq / th  # the piece's own end stiffness G∞q·coth u
+            piv[1:][killed] = np.inf
+    return _Solution(y_in=y_in, total=total, down=down, up=up, pivots=piv)
+
+
+def _chunks(net: _Network, s: ComplexArray) -> list[slice]:
+    step = max(1, _CHUNK // max(net.size, 1))
+    return [slice(i, min(i + step, s.size)) for i in range(0, s.size, step)]
+
+
+def _path(net: _Network, a: int, b: int) -> tuple[IntArray, IntArray]:
+    """Pieces crossed going up from node a to the common ancestor, and down from it to node b."""
+    up: list[int] = []
+    down: list[int] = []
+    depth = net.depth
+    while depth[a] > depth[b]:
+        up.append(a - 1)
+        a = int(net.parent_node[a - 1])
+    while depth[b] > depth[a]:
+        down.append(b - 1)
+        b = int(net.parent_node[b - 1])
+    while a != b:
+        up.append(a - 1)
+        down.append(b - 1)
+        a = int(net.parent_node[a - 1])
+        b = int(net.parent_node[b - 1])
+    return np.asarray(up, dtype=np.int64), np.asarray(down[::-1], dtype=np.int64)
+
+
+def _transfer(net: _Network, sol: _Solution, a: int, b: int) -> ComplexArray:
+    up, down = _path(net, a, b)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = np.where(np.isinf(sol.total[a]), 0.0, 1.0 / sol.total[a])
+    return z * np.prod(sol.up[up], axis=0) * np.prod(sol.down[down], axis=0)
+
+
+def _as_s(s: ArrayLike) -> ComplexArray:
+    arr = np.atleast_1d(np.asarray(s, dtype=complex)).ravel()
+    if not np.all(np.isfinite(arr)):
+        raise InputError("the Laplace variable s must be finite")
+    return arr
+
+
+def input_impedance(cell: PassiveTree, s: ArrayLike, sites: Sequence[Site]) -> ComplexArray:
+    r"""Input impedance :math:`Z_{vv}(s) = 1/Y_{tot}(s)` at each site, Ω, shape (n_s, n_sites).
+
+    Parameters
+    ----------
+    cell : the tree and its membrane
+    s : Laplace variable(s), 1/s (complex; :math:`s = 2\pi i f` for a frequency f in Hz)
+    sites : where, as :class:`Site` (0 at a killed tip)
+
+    References
+    ----------
+    Koch & Poggio (1985) J. Neurosci. Methods 12:303; Holmes (1986) Biol. Cybern. 55:115.
+    """
+    return transfer_impedance(cell, s, None, sites)
+
+
+def transfer_impedance(cell: PassiveTree, s: ArrayLike, source: Site | None, records: Sequence[Site]) -> ComplexArray:
+    r"""Transfer impedance :math:`Z_{ab}(s) = V_b(s)/I_a(s)` from ``source`` to each record site, Ω.
+
+    .. math:: Z_{ab} = Z_{aa}\prod_{\text{path } a\to b}\frac{V_{far}}{V_{near}}
+
+    (module docstring); :math:`Z_{ab} = Z_{ba}`. ``source = None`` gives each site's input
+    impedance. Shape (n_s, n_records), s in 1/s.
+
+    References
+    ----------
+    Butz & Cowan (1974) Biophys. J. 14:661; Koch & Poggio (1985) J. Neurosci. Methods 12:303.
+    """
+    s_arr = _as_s(s)
+    records = list(records)
+    net = _network(cell, [*records, *([] if source is None else [source])])
+    out = np.empty((s_arr.size, len(records)), dtype=complex)
+    for part in _chunks(net, s_arr):
+        sol = _solve(net, s_arr[part])
+        for j, b in enumerate(net.nodes[:len(records)].tolist()):
+            a = b if source is None else int(net.nodes[-1])
+            out[part, j] = _transfer(net, sol, a, b)
+    return out
+
+
+# --------------------------------------------------------------------------------------
+# eigenvalues: counting, bisection, residues at the root
+# --------------------------------------------------------------------------------------
+def _count(net: _Network, rates: Array) -> IntArray:
+    """Number of decay rates of the tree (1/s) strictly below each of ``rates`` (Wittrick-Williams)."""
+    rates = np.asarray(rates, dtype=float)
+    sol = _solve(net, -rates.astype(complex), pivots=True)
+    assert sol.pivots is not None
+    piv = sol.pivots
+    negative = (np.isfinite(piv) & (piv.real < 0)).sum(axis=0)
+    k = np.sqrt(np.maximum(net.tau[:, None] * rates[None, :] - 1.0, 0.0))
+    held = np.floor(net.electrotonic[:, None] * k / math.pi - 1e-15).clip(min=0).sum(axis=0)
+    return (negative + held).astype(np.int64)
+
+
+def eigenvalue_count(cell: PassiveTree, rates: ArrayLike) -> IntArray:
+    """How many decay rates 1/τ_n of the whole tree lie below each given rate (1/s).
+
+    References
+    ----------
+    Wittrick & Williams (1971) Q. J. Mech. Appl. Math. 24:263 [MEM] (module docstring).
+    """
+    r = np.atleast_1d(np.asarray(rates, dtype=float))
+    if not (np.all(np.isfinite(r)) and np.all(r >= 0)):
+        raise InputError("rates must be finite and >= 0 (1/s)")
+    return _count(_network(cell, []), r)
+
+
+@dataclass(frozen=True, slots=True)
+class TreeModes:
+    """The slowest modes of a tree seen at the root, SI.
+
+    Attributes
+    ----------
+    time_constants : τ_n of the modes with a voltage at the root, slowest first, s
+    coefficients : C_n of the root's step response, :math:`V/V_\\infty = 1 - \\sum C_n e^{-t/\\tau_n}`
+    residues : residue of the root input impedance :math:`Z(s)` at :math:`s = -1/\\tau_n`, Ω/s
+    hidden : time constants of the whole tree's modes with no voltage at the root (in the same
+        range), s, each listed once per multiplicity
+    multiplicities : how many independent modes share each visible τ_n
+    """
+
+    time_constants: Array
+    coefficients: Array
+    residues: Array
+    hidden: Array
+    multiplicities: IntArray
+
+
+def _bisect_rates(net: _Network, indices: IntArray, high: float) -> Array:
+    lo = np.zeros(indices.size)
+    hi = np.full(indices.size, high)
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        above = _count(net, mid) > indices
+        hi = np.where(above, mid, hi)
+        lo = np.where(above, lo, mid)
+        if np.all(hi - lo <= 4e-16 * hi):
+            break
+    return 0.5 * (lo + hi)
+
+
+def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeModes:
+    r"""The ``count`` slowest modes with a voltage at the root: τ_n, step coefficients, residues.
+
+    Every decay rate of the tree is bracketed by bisection on :func:`eigenvalue_count` (so
+    multiple rates of symmetric trees are found, each once per multiplicity). A rate is seen at
+    the root when the root admittance :math:`Y(s)` vanishes at :math:`s = -1/\tau_n`; the root
+    impedance's residue there is :math:`r_n = 1/Y'(s_n)` (Y' by a complex step, Squire &
+    Trapp 1998), and the coefficient of a current step at the root is
+    :math:`C_n = r_n\tau_n / Z(0)`.
+
+    Parameters
+    ----------
+    count : how many visible modes, >= 1
+    search : largest number of tree modes examined (hidden ones included)
+
+    References
+    ----------
+    Wittrick & Williams (1971) [MEM]; Rall (1969) Biophys. J. 9:1483 (C_n, τ_n of a step);
+    Squire W & Trapp G (1998) SIAM Rev. 40:110 (complex-step derivative).
+    """
+    if not (isinstance(count, int) and count >= 1):
+        raise InputError(f"count must be a whole number >= 1, got {count!r}")
+    net = _network(cell, [])
+    tau_max = float(net.tau.max()) if net.soma_tau == 0 else max(float(net.tau.max()), net.soma_tau)
+    high = 2.0 / tau_max
+    wanted = min(search, 4 * count + 8)
+    while _count(net, np.array([high]))[0] < wanted and high < 1e30:
+        high *= 2.0
+    indices = np.arange(int(_count(net, np.array([high]))[0]))[:search]
+    rates = _bisect_rates(net, indices, high) if indices.size else np.zeros(0)
+    distinct: list[float] = []
+    mult: list[int] = []
+    for r in rates.tolist():
+        if distinct and abs(r - distinct[-1]) <= 1e-9 * r:
+            mult[-1] += 1
+        else:
+            distinct.append(r)
+            mult.append(1)
+    rate = np.asarray(distinct)
+    z0 = float(transfer_impedance(cell, [0.0], None, [root_site()])[0, 0].real)
+    step = 1e-20 * np.maximum(rate, 1.0 / tau_max)
+    sol = _solve(net, -rate + 1j * step)
+    y = sol.total[0]
+    slope = y.imag / step
+    visible = np.abs(y.real) <= 1e-7 * np.abs(slope) * rate
+    taus = 1.0 / rate
+    vis = np.flatnonzero(visible)[:count]
+    residues = 1.0 / slope[vis]
+    hidden = np.repeat(taus, mult)[np.repeat(~visible, mult)]
+    return TreeModes(time_constants=taus[vis], coefficients=residues * taus[vis] / z0, residues=residues,
+                     hidden=hidden[hidden >= (taus[vis].min() if vis.size else 0.0)],
+                     multiplicities=np.asarray(mult, dtype=np.int64)[vis])
+
+
+# --------------------------------------------------------------------------------------
+# the same recursion in mpmath (for checks)
+# --------------------------------------------------------------------------------------
+def transfer_impedance_precise(cell: PassiveTree, s: complex, source: Site | None, record: Site, *,
+                               digits: int = 30):
+    r"""The transfer impedance of :func:`transfer_impedance` at one s, in mpmath at ``digits`` digits.
+
+    The same two-port recursion written with mpmath's tanh and cosh (no scaled forms), one piece
+    at a time; for checks only (slow). Returns an ``mpmath.mpc`` in Ω.
+
+    References
+    ----------
+    Koch & Poggio (1985) J. Neurosci. Methods 12:303; mpmath (Johansson et al.), arbitrary precision.
+    """
+    import mpmath
+
+    net = _network(cell, [record] if source is None else [record, source])
+    with mpmath.workdps(digits):
+        s_mp = mpmath.mpc(s)
+        n = net.size
+        q = [mpmath.sqrt(1 + mpmath.mpf(float(net.tau[k])) * s_mp) for k in range(n)]
+        gq = [mpmath.mpf(float(net.g_inf[k])) * q[k] for k in range(n)]
+        u = [mpmath.mpf(float(net.electrotonic[k])) * q[k] for k in range(n)]
+        load = [mpmath.mpc(0)] + [mpmath.mpc(float(g)) for g in net.shunt]
+        y_in: list = [None] * n
+        for k in range(n - 1, -1, -1):
+            if net.killed[k]:
+                y_in[k] = gq[k] * mpmath.coth(u[k])
+            else:
+                t = mpmath.tanh(u[k])
+                y_in[k] = gq[k] * (load[k + 1] + gq[k] * t) / (gq[k] + load[k + 1] * t)
+            load[int(net.parent_node[k])] += y_in[k]
+        load[0] += mpmath.mpf(net.soma_conductance) * (1 + mpmath.mpf(net.soma_tau) * s_mp)
+        total: list = [load[0]] + [None] * n
+        back: list = [None] * n
+        for k in range(n):
+            back[k] = total[int(net.parent_node[k])] - y_in[k]
+            t = mpmath.tanh(u[k])
+            total[k + 1] = (mpmath.inf if net.killed[k] else
+                            load[k + 1] + gq[k] * (back[k] + gq[k] * t) / (gq[k] + back[k] * t))
+        b = int(net.nodes[0])
+        a = b if source is None else int(net.nodes[1])
+        if total[a] == mpmath.inf:
+            return mpmath.mpc(0)
+        z = 1 / total[a]
+        up, down = _path(net, a, b)
+        for k in up.tolist():
+            z /= mpmath.cosh(u[k]) + back[k] / gq[k] * mpmath.sinh(u[k])
+        for k in down.tolist():
+            if net.killed[k]:
+                return mpmath.mpc(0)
+            z /= mpmath.cosh(u[k]) + load[k + 1] / gq[k] * mpmath.sinh(u[k])
+        return z

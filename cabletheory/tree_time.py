@@ -1,0 +1,599 @@
+r"""Time courses, frequency responses, centroid delays and the cost of reduction for passive trees.
+
+The Laplace-domain solution of :mod:`cabletheory.tree_laplace` is turned into time courses by
+numerical inversion of the Bromwich integral on a hyperbolic contour (Weideman & Trefethen
+2007): with :math:`z(u) = \mu\,(1 + \sin(iu - \alpha))` and the trapezoid rule of step h,
+
+.. math:: f(t) \approx \frac{h}{\pi}\,\mathrm{Im}\Big[\tfrac12 e^{z_0t}F(z_0)z'_0
+          + \sum_{k=1}^{N} e^{z_kt}F(z_k)z'_k\Big],\qquad u_k = kh,
+
+for every t of a window :math:`[t_0, \Lambda t_0]` at once (F is real on the real axis, so the
+lower half of the contour is the mirror image). The error model of that paper, derived for
+singularities on the negative real axis (the tree's poles, the step's pole at 0 and an alpha
+current's double pole all lie there), balances three terms: the discretisation errors from the
+two edges of the strip of analyticity, :math:`e^{\mu\Lambda t_0 - 2\pi\alpha/h}` and
+:math:`e^{-\pi(\pi - 2\alpha)/h}`, and the truncation :math:`e^{\mu t_0(1 - \sin\alpha\cosh Nh)}`.
+Equating them gives
+
+.. math:: \mu t_0 = \frac{4\pi\alpha - \pi^2}{h\Lambda},\qquad
+          h = \frac{1}{N}\,\mathrm{arccosh}\frac{(\pi - 2\alpha)\Lambda + 4\alpha - \pi}{(4\alpha - \pi)\sin\alpha},
+          \qquad \text{error} \approx e^{-\pi(\pi - 2\alpha)/h},
+
+and α is chosen to minimise that error plus the rounding error
+:math:`\epsilon\,e^{\mu\Lambda t_0(1 - \sin\alpha)}`. The reported error estimate of each value
+is that model times :data:`SAFETY` times the reference voltage, plus the rounding of the sum;
+tests/test_tree_time.py checks it against the same recursion in mpmath inverted with mpmath's
+own Talbot routine. The times are grouped into windows, and N per window is the smallest that
+meets the tolerance (windows chosen to minimise the number of evaluations of the tree).
+
+This is our own small inversion routine; a shared contour-inversion module may replace it.
+
+Every result assumes a passive, linear membrane (:data:`cabletheory.PASSIVE_CAVEAT`).
+
+References
+----------
+Weideman JAC & Trefethen LN (2007) Parabolic and hyperbolic contours for computing the Bromwich
+integral. Math. Comp. 76:1341-1356 (the contour and its error analysis).
+Agmon-Snir H & Segev I (1993) Signal delay and input synchronization in passive dendritic
+structures. J. Neurophysiol. 70:2066-2085 (centroid delays).
+Zador AM, Agmon-Snir H & Segev I (1995) J. Neurosci. 15:1669 (the morphoelectrotonic transform:
+log attenuation and delay over a tree).
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from .errors import InputError
+from .transient import AlphaCurrent, CurrentPulse, CurrentStep, VoltageStep
+from .tree_laplace import (
+    PassiveTree,
+    Site,
+    TreeModes,
+    _Network,
+    _network,
+    _path,
+    _Solution,
+    _solve,
+    _transfer,
+    node_sites,
+    root_modes,
+    root_site,
+    transfer_impedance,
+)
+
+__all__ = [
+    "SAFETY",
+    "Contour",
+    "ElectrotonicMap",
+    "FrequencyResponse",
+    "ReductionCost",
+    "TreeResponse",
+    "electrotonic_map",
+    "frequency_response",
+    "hyperbolic_contour",
+    "invert",
+    "reduction_cost",
+    "tree_response",
+]
+
+Array = NDArray[np.float64]
+ComplexArray = NDArray[np.complex128]
+Stimulus = CurrentStep | CurrentPulse | AlphaCurrent | VoltageStep
+
+SAFETY = 20.0  # factor on the error model (its constants are not tracked); measured ratios stay below ~12
+_EPS = 2.2e-16
+_MAX_NODES = 60
+
+
+# --------------------------------------------------------------------------------------
+# inversion on a hyperbolic contour
+# --------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class Contour:
+    """Nodes and weights of the hyperbolic contour for the window [first, last] (s).
+
+    ``f(t) ≈ Im Σ_k weights[k]·exp(nodes[k]·t)·F(nodes[k])``; ``predicted`` is the relative
+    error of the model in the module docstring (without :data:`SAFETY`).
+    """
+
+    nodes: ComplexArray
+    weights: ComplexArray
+    first: float
+    last: float
+    predicted: float
+
+
+@functools.lru_cache(maxsize=256)
+def _design(count: int, ratio: float) -> tuple[float, float, float, float]:
+    """(α, h, μ·t0, predicted error) for N = ``count`` and Λ = ``ratio`` (Weideman & Trefethen 2007)."""
+    alpha = np.linspace(math.pi / 4 + 1e-4, math.pi / 2 - 1e-4, 4000)
+    arg = ((math.pi - 2 * alpha) * ratio + 4 * alpha - math.pi) / ((4 * alpha - math.pi) * np.sin(alpha))
+    h = np.arccosh(arg) / count
+    discretisation = np.exp(-math.pi * (math.pi - 2 * alpha) / h)
+    mu_last = (4 * math.pi * alpha - math.pi**2) / h  # μ·Λ·t0
+    with np.errstate(over="ignore"):
+        rounding = _EPS * np.exp(mu_last * (1 - np.sin(alpha)))
+    total = discretisation + rounding
+    k = int(np.argmin(total))
+    return float(alpha[k]), float(h[k]), float(mu_last[k] / ratio), float(total[k])
+
+
+def hyperbolic_contour(first: float, last: float, count: int) -> Contour:
+    r"""The contour of Weideman & Trefethen (2007) for times in [first, last] with N + 1 nodes.
+
+    Parameters
+    ----------
+    first, last : the window's first and last time, s (0 < first <= last)
+    count : N, the number of nodes beyond the real axis (N + 1 evaluations of F)
+
+    References
+    ----------
+    Weideman & Trefethen (2007) Math. Comp. 76:1341 (hyperbolic contour, parameters derived in
+    this module's docstring from their error analysis).
+    """
+    if not (0 < first <= last and math.isfinite(last)):
+        raise InputError(f"the time window must satisfy 0 < first <= last, got {first!r}, {last!r}")
+    alpha, h, mu_t0, predicted = _design(int(count), float(last / first))
+    mu = mu_t0 / first
+    u = h * np.arange(count + 1)
+    nodes = mu * (1.0 + np.sin(1j * u - alpha))
+    weights = (h / math.pi) * 1j * mu * np.cos(1j * u - alpha)
+    weights[0] *= 0.5
+    return Contour(nodes=nodes, weights=weights, first=first, last=last, predicted=predicted)
+
+
+def _nodes_needed(ratio: float, tolerance: float) -> int | None:
+    for count in range(6, _MAX_NODES + 1):
+        if SAFETY * _design(count, ratio)[3] <= tolerance:
+            return count
+    return None
+
+
+def _windows(times: Array, tolerance: float) -> list[tuple[Array, int]]:
+    """Group sorted positive times into windows; pick the window ratio with the fewest evaluations."""
+    span = float(times[-1] / times[0])
+    best: tuple[float, list[tuple[Array, int]]] | None = None
+    for ratio in sorted({min(r, max(span, 1.0)) for r in (2.0, 4.0, 8.0, 16.0, 32.0, 64.0, 128.0)}):
+        count = _nodes_needed(ratio, tolerance) or _MAX_NODES
+        groups = []
+        start = 0
+        while start < times.size:
+            stop = int(np.searchsorted(times, times[start] * ratio * (1 + 1e-12), side="right"))
+            groups.append((times[start:stop], count))
+            start = stop
+        cost = sum(c + 1 for _, c in groups) + (1e9 if _nodes_needed(ratio, tolerance) is None else 0)
+        if best is None or cost < best[0]:
+            best = (cost, groups)
+    assert best is not None
+    return best[1]
+
+
+def invert(transform: Callable[[ComplexArray], ComplexArray], times: ArrayLike, *, tolerance: float,
+           scale: float) -> tuple[Array, Array, str]:
+    r"""Invert a Laplace transform given at many s at once, with an error estimate for every value.
+
+    Parameters
+    ----------
+    transform : ``F(s)`` for a vector of complex s (1/s), returning shape (n_s, m) (m signals
+        sharing the transform's singularities, all on the negative real axis)
+    times : s; values at t <= 0 are 0 (the signals start from rest)
+    tolerance : error allowed relative to ``scale``
+    scale : the reference size of the signals (e.g. the final voltage of a step at its site)
+
+    Returns
+    -------
+    (values (n_t, m), error estimates (n_t, m), description of the windows and nodes).
+
+    References
+    ----------
+    Weideman & Trefethen (2007) Math. Comp. 76:1341.
+    """
+    t = np.atleast_1d(np.asarray(times, dtype=float)).ravel()
+    positive = np.unique(t[t > 0])
+    values: dict[float, Array] = {}
+    errors: dict[float, Array] = {}
+    parts = []
+    m = None
+    for window, count in (_windows(positive, tolerance) if positive.size else []):
+        contour = hyperbolic_contour(float(window[0]), float(window[-1]), count)
+        f = np.asarray(transform(contour.nodes))
+        m = f.shape[1]
+        terms = contour.weights[None, :, None] * np.exp(np.outer(window, contour.nodes))[:, :, None] * f[None]
+        v = terms.sum(axis=1).imag
+        rounding = 8 * _EPS * np.abs(terms).sum(axis=1)
+        model = SAFETY * contour.predicted * abs(scale)
+        for j, tt in enumerate(window.tolist()):
+            values[tt] = v[j]
+            errors[tt] = rounding[j] + model
+        parts.append(f"{window[0]:.3g}..{window[-1]:.3g} s: {count + 1} nodes")
+    if m is None:
+        m = np.asarray(transform(np.array([1.0 + 0j]))).shape[1]
+    out = np.zeros((t.size, m))
+    err = np.zeros((t.size, m))
+    for i, tt in enumerate(t.tolist()):
+        if tt > 0:
+            out[i], err[i] = values[tt], errors[tt]
+    method = ("Laplace transform inverted on hyperbolic contours (Weideman & Trefethen 2007); windows "
+              + ("; ".join(parts) if parts else "none (all times at rest)"))
+    return out, err, method
+
+
+# --------------------------------------------------------------------------------------
+# time courses
+# --------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class TreeResponse:
+    """Voltage (deviation from rest) at a set of tree sites over time, SI.
+
+    Attributes
+    ----------
+    times : s, (nT,)
+    sites : where recorded
+    stimulus_site : where the current (or clamp, at the root) is applied
+    voltage : V, (nT, n_sites)
+    errors : V, estimated error of each value (tested to hold against mpmath)
+    error_bound : V, the largest of ``errors``
+    reference_voltage : V, the scale of the tolerance: the final voltage at the stimulus site for
+        a current step of the same amplitude (peak for an alpha current), or the clamp step
+    tolerance : requested error relative to ``reference_voltage``
+    steady_state : V, the final voltage at each site for a step (None for a pulse or alpha)
+    method : how the values were computed
+    notes : plain-language remarks
+    """
+
+    times: Array
+    sites: tuple[Site, ...]
+    stimulus_site: Site
+    voltage: Array
+    errors: Array
+    error_bound: float
+    reference_voltage: float
+    tolerance: float
+    steady_state: Array | None
+    method: str
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+
+def _current_shape(stimulus: Stimulus) -> tuple[float, Callable[[ComplexArray], ComplexArray]]:
+    """(amplitude in A, Laplace transform of the current per ampere)."""
+    if isinstance(stimulus, CurrentStep | CurrentPulse):
+        return stimulus.amplitude, lambda s: 1.0 / s
+    if isinstance(stimulus, AlphaCurrent):
+        tp = stimulus.time_to_peak
+        return stimulus.peak, lambda s: math.e / (tp * (s + 1.0 / tp) ** 2)
+    raise InputError(f"unknown stimulus {type(stimulus).__name__}")
+
+
+def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: Site,
+                  record: Sequence[Site], *, tolerance: float = 1e-10) -> TreeResponse:
+    r"""Voltage at ``record`` sites for a current step, pulse or alpha current at ``at`` (or a clamp).
+
+    .. math:: V_b(s) = Z_{ab}(s)\,I(s),\qquad I(s) = \frac{I_0}{s}\ \text{(step)},\quad
+              \frac{e\,I_{peak}}{t_p (s + 1/t_p)^2}\ \text{(alpha)};
+
+    a pulse of duration D is the step response minus itself delayed by D. A voltage clamp
+    (:class:`~cabletheory.transient.VoltageStep`) holds the root (soma) at V0 from t = 0:
+    :math:`V_b(s) = (V_0/s)\prod_{root\to b} V_{far}/V_{near}`, and the soma's own membrane
+    then plays no part.
+
+    Parameters
+    ----------
+    cell : the tree
+    stimulus : from :mod:`cabletheory.transient`; its ``position`` must be 0 (the site is ``at``)
+    times : s (t <= 0 gives rest)
+    at : stimulus site (:class:`~cabletheory.tree_laplace.Site`); the root for a clamp
+    record : recording sites
+    tolerance : error allowed, relative to the reference voltage, in (1e-14, 0.1)
+
+    References
+    ----------
+    Holmes (1986) Biol. Cybern. 55:115; Weideman & Trefethen (2007) Math. Comp. 76:1341.
+    """
+    if not (isinstance(tolerance, int | float) and 1e-14 <= tolerance < 0.1):
+        raise InputError(f"tolerance must lie in [1e-14, 0.1), got {tolerance!r}")
+    if stimulus.position != 0:
+        raise InputError("on a tree the stimulus site is given as a Site; leave the stimulus position at 0")
+    t = np.atleast_1d(np.asarray(times, dtype=float)).ravel()
+    if not np.all(np.isfinite(t)):
+        raise InputError("times must be finite")
+    record = tuple(record)
+    if not record:
+        raise InputError("give at least one recording site")
+    net = _network(cell, [*record, at])
+    nodes = net.nodes[:-1].tolist()
+    source = int(net.nodes[-1])
+    notes: list[str] = []
+    if isinstance(stimulus, VoltageStep):
+        if source != 0:
+            raise InputError("a voltage clamp on a tree is applied at the root (soma)")
+        amplitude = stimulus.amplitude
+        reference = abs(amplitude)
+
+        def transform(s: ComplexArray) -> ComplexArray:
+            sol = _solve(net, s)
+            out = np.empty((s.size, len(nodes)), dtype=complex)
+            for j, b in enumerate(nodes):
+                out[:, j] = _ratio_from_root(net, sol, b)
+            return out * (amplitude / s)[:, None]
+
+        rest = _solve(net, np.zeros(1, dtype=complex))
+        steady = amplitude * np.array([_ratio_from_root(net, rest, b)[0].real for b in nodes])
+        notes.append("the clamp fixes the root voltage, so the soma's membrane plays no part")
+    else:
+        amplitude, shape = _current_shape(stimulus)
+        z_source = transfer_impedance(cell, [0.0], at, [at])[0, 0].real
+        if z_source == 0.0:
+            raise InputError("the stimulus site is a killed tip, held at rest; choose another site")
+        reference = abs(amplitude) * z_source
+
+        def transform(s: ComplexArray) -> ComplexArray:
+            sol = _solve(net, s)
+            out = np.empty((s.size, len(nodes)), dtype=complex)
+            for j, b in enumerate(nodes):
+                out[:, j] = _transfer(net, sol, source, b)
+            return out * (amplitude * shape(s))[:, None]
+
+        steady = None
+        if isinstance(stimulus, CurrentStep):
+            steady = amplitude * transfer_impedance(cell, [0.0], at, record)[0].real
+    if isinstance(stimulus, CurrentPulse):
+        later = t - stimulus.duration
+        both, err, method = invert(transform, np.concatenate((t, later)), tolerance=tolerance / 2, scale=reference)
+        voltage = both[:t.size] - both[t.size:]
+        errors = err[:t.size] + err[t.size:]
+    else:
+        voltage, errors, method = invert(transform, t, tolerance=tolerance, scale=reference)
+    return TreeResponse(times=t, sites=record, stimulus_site=at, voltage=voltage, errors=errors,
+                        error_bound=float(np.max(errors, initial=0.0)), reference_voltage=float(reference),
+                        tolerance=float(tolerance), steady_state=steady, method=method, notes=tuple(notes))
+
+
+# --------------------------------------------------------------------------------------
+# frequency responses, attenuation and centroid delays
+# --------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class FrequencyResponse:
+    """Transfer impedance from one site to others against frequency, SI.
+
+    ``impedance[i, j]`` (Ω, complex) at ``frequencies[i]`` (Hz) from ``source`` to ``sites[j]``;
+    ``source = None`` means each site's input impedance.
+    """
+
+    frequencies: Array
+    source: Site | None
+    sites: tuple[Site, ...]
+    impedance: ComplexArray
+
+    @property
+    def magnitude(self) -> Array:
+        """|Z|, Ω."""
+        return np.abs(self.impedance)
+
+    @property
+    def phase(self) -> Array:
+        """arg Z, rad (negative: the voltage lags the current)."""
+        return np.angle(self.impedance)
+
+
+def frequency_response(cell: PassiveTree, frequencies: ArrayLike, source: Site | None,
+                       sites: Sequence[Site]) -> FrequencyResponse:
+    r"""Input or transfer impedance at :math:`s = 2\pi i f` for each frequency (Hz).
+
+    References
+    ----------
+    Koch & Poggio (1985) J. Neurosci. Methods 12:303 (the same recursion at s = iω).
+    """
+    f = np.atleast_1d(np.asarray(frequencies, dtype=float)).ravel()
+    if not (np.all(np.isfinite(f)) and np.all(f >= 0)):
+        raise InputError("frequencies must be finite and >= 0 Hz")
+    z = transfer_impedance(cell, 2j * math.pi * f, source, sites)
+    return FrequencyResponse(frequencies=f, source=source, sites=tuple(sites), impedance=z)
+
+
+@dataclass(frozen=True, slots=True)
+class ElectrotonicMap:
+    r"""Attenuation to and from the root and centroid delays for every node of a tree, SI.
+
+    Attributes
+    ----------
+    sites : the root, then the distal node of every piece (:func:`~cabletheory.tree_laplace.node_sites`)
+    frequency : Hz at which the attenuations are taken (0: steady state)
+    input_impedance : |Z_ii|, Ω
+    transfer_impedance : |Z_i0| (= |Z_0i|), Ω, to the root
+    attenuation_to_root : |Z_ii|/|Z_i0| = V_i/V_root for input at i (>= 1)
+    attenuation_from_root : |Z_00|/|Z_0i| = V_root/V_i for input at the root (>= 1)
+    local_delay : centroid delay of V_i after the centroid of a current injected at i,
+        :math:`-Z_{ii}'(0)/Z_{ii}(0)`, s
+    transfer_delay : :math:`-Z_{i0}'(0)/Z_{i0}(0)`, s (the same both ways)
+    delay_to_root : transfer_delay - local_delay (propagation delay i → root), s
+    delay_from_root : transfer_delay - local delay at the root (root → i), s
+    """
+
+    sites: tuple[Site, ...]
+    frequency: float
+    input_impedance: Array
+    transfer_impedance: Array
+    attenuation_to_root: Array
+    attenuation_from_root: Array
+    local_delay: Array
+    transfer_delay: Array
+    delay_to_root: Array
+    delay_from_root: Array
+
+
+def _ratio_from_root(net: _Network, sol: _Solution, node: int) -> ComplexArray:
+    """V(node)/V(root) with the root driven (product of the distal/proximal ratios on the path)."""
+    _, down = _path(net, 0, node)
+    return np.prod(sol.down[down], axis=0)
+
+
+def _all_nodes(net: _Network, s: ComplexArray) -> tuple[ComplexArray, ComplexArray]:
+    """(Z_ii, Z_0i) at every node (node 0 the root), shape (n_s, nodes)."""
+    sol = _solve(net, s)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z_in = np.where(np.isinf(sol.total), 0.0, 1.0 / sol.total)
+    from_root = np.empty_like(z_in)
+    from_root[0] = z_in[0]
+    for idx in net.levels:
+        from_root[idx + 1] = from_root[net.parent_node[idx]] * sol.down[idx]
+    return z_in.T, from_root.T
+
+
+def electrotonic_map(cell: PassiveTree, frequency: float = 0.0) -> ElectrotonicMap:
+    r"""Attenuation between every node and the root, and centroid delays, over the whole tree.
+
+    Attenuations at :math:`s = 2\pi i f`; delays from the Laplace transform's slope at s = 0,
+    :math:`D = -Z'(0)/Z(0)` (the centroid of the response minus that of the input current;
+    Agmon-Snir & Segev 1993), with Z' by a complex step (Squire & Trapp 1998), so no
+    inversion is involved. The log attenuations and delays over the tree are the
+    morphoelectrotonic transform of Zador, Agmon-Snir & Segev (1995).
+
+    References
+    ----------
+    Agmon-Snir & Segev (1993) J. Neurophysiol. 70:2066; Zador, Agmon-Snir & Segev (1995)
+    J. Neurosci. 15:1669; Squire W & Trapp G (1998) SIAM Rev. 40:110.
+    """
+    f = float(frequency)
+    if not (math.isfinite(f) and f >= 0):
+        raise InputError(f"frequency must be finite and >= 0 Hz, got {frequency!r}")
+    sites = node_sites(cell.tree)
+    net = _network(cell, list(sites))
+    tau = max(float(net.tau.max()), net.soma_tau)
+    eta = 1e-12 / tau
+    z_in, z_root = _all_nodes(net, np.array([2j * math.pi * f, 1j * eta]))
+    z_in, z_root = z_in[:, net.nodes], z_root[:, net.nodes]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        local = -z_in[1].imag / (eta * z_in[1].real)
+        transfer = -z_root[1].imag / (eta * z_root[1].real)
+        mag_in, mag_tr = np.abs(z_in[0]), np.abs(z_root[0])
+        return ElectrotonicMap(sites=sites, frequency=f, input_impedance=mag_in,
+                               transfer_impedance=mag_tr, attenuation_to_root=mag_in / mag_tr,
+                               attenuation_from_root=mag_in[0] / mag_tr, local_delay=local,
+                               transfer_delay=transfer, delay_to_root=transfer - local,
+                               delay_from_root=transfer - local[0])
+
+
+
+# --------------------------------------------------------------------------------------
+# the cost of reduction, in time
+# --------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class ReductionCost:
+    """The root's response of a tree and of its reduction to the same stimulus at the root, SI.
+
+    Attributes
+    ----------
+    times : s
+    tree_voltage, reduced_voltage : V at the root, (nT,)
+    largest_difference : V, max |reduced - tree| over ``times``
+    when : s, the time of that largest difference (on the grid given)
+    tree_error_bound : V, error estimate of the tree's values; the reduction's values are exact
+        series (cabletheory.transient) with their own bound ``reduced_error_bound``
+    reduced_error_bound : V
+    reduced_model : "equivalent cylinder" or "soma and equivalent cylinder"
+    electrotonic_length, conductance_ratio : L and ρ of the reduction (ρ None without a soma)
+    tree_modes : τ_n and C_n of the tree at the root (:func:`~cabletheory.tree_laplace.root_modes`)
+    reduced_time_constants, reduced_coefficients : τ0, τ1 (s) and C0, C1 of the reduction
+    peeled_length : L a sealed cylinder would need for the tree's τ0/τ1 (Rall 1969)
+    peeled_ball_and_stick : (L, ρ) of a ball and stick with the tree's τ0/τ1 and C1/C0, if any
+    notes : plain-language remarks
+    """
+
+    times: Array
+    tree_voltage: Array
+    reduced_voltage: Array
+    largest_difference: float
+    when: float
+    tree_error_bound: float
+    reduced_error_bound: float
+    reduced_model: str
+    electrotonic_length: float
+    conductance_ratio: float | None
+    tree_modes: TreeModes
+    reduced_time_constants: Array
+    reduced_coefficients: Array
+    peeled_length: float
+    peeled_ball_and_stick: tuple[tuple[float, float], ...]
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+
+def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
+                   tolerance: float = 1e-10) -> ReductionCost:
+    r"""Compare the root's response of a tree with that of its Rall reduction, in time.
+
+    The reduction is the equivalent cylinder of :func:`cabletheory.tree.analyse_tree` (same
+    membrane area, trunk diameter :math:`(\sum d_{stem}^{3/2})^{2/3}`, the same tip condition),
+    with the soma when the tree has one; its response comes from the exact series of
+    :func:`cabletheory.transient.charge`. The stimulus is applied at the root of both (input
+    at one dendritic site has no counterpart on the cylinder). τ0, τ1 and C1/C0 of the tree
+    are those seen at the root (:func:`~cabletheory.tree_laplace.root_modes`); the L and ρ that
+    peeling them would report come from :func:`cabletheory.inverse.estimate_from_peeling`.
+
+    References
+    ----------
+    Rall W (1959) Exp. Neurol. 1:491; Rall W (1969) Biophys. J. 9:1483 (τ0/τ1, C1/C0 and peeling).
+    """
+    from .cable import Cylinder
+    from .inverse import estimate_from_peeling
+    from .transient import BallAndStick, charge
+    from .tree import analyse_tree
+
+    tree = cell.tree
+    rm = np.asarray(cell.membrane_resistivity, dtype=float).ravel()
+    cm = np.asarray(cell.membrane_capacitance, dtype=float).ravel()
+    if rm.size != 1 or cm.size != 1:
+        raise InputError("the reduction needs one membrane resistivity and capacitance for the whole tree")
+    if isinstance(cell.tips, str):
+        killed = cell.tips.strip().lower() == "killed"
+    else:
+        raise InputError("the reduction needs every tip sealed or every tip killed")
+    if tree.soma_area is not None:
+        g_s, tau_s = cell.soma_constants()
+        if not math.isclose(tau_s, float(rm[0] * cm[0]), rel_tol=1e-12) or not math.isclose(
+                g_s, tree.soma_area / float(rm[0]), rel_tol=1e-12):
+            raise InputError("the reduction needs the soma's membrane to be the dendrites'")
+    if isinstance(stimulus, VoltageStep):
+        raise InputError("the cost of reduction is computed for current stimuli at the root")
+    report = analyse_tree(tree, float(rm[0]), float(cell.axial_resistivity), float(cm[0]), killed_tips=killed)
+    eq = report.equivalent_cylinder
+    cylinder = Cylinder(float(rm[0]), float(cell.axial_resistivity), float(cm[0]), eq.diameter, eq.length,
+                        math.inf if killed else 0.0)
+    model: Cylinder | BallAndStick = cylinder
+    name = "equivalent cylinder"
+    if tree.soma_area is not None:
+        model = BallAndStick(cylinder, math.sqrt(tree.soma_area / math.pi))
+        name = "soma and equivalent cylinder"
+    t = np.atleast_1d(np.asarray(times, dtype=float)).ravel()
+    reduced = charge(model, stimulus, t, [0.0], tolerance=tolerance, modes=2)
+    mine = tree_response(cell, stimulus, t, root_site(), [root_site()], tolerance=tolerance)
+    diff = reduced.voltage[:, 0] - mine.voltage[:, 0]
+    k = int(np.argmax(np.abs(diff))) if diff.size else 0
+    modes = root_modes(cell, 2)
+    notes = []
+    peeled = math.nan
+    solutions: tuple[tuple[float, float], ...] = ()
+    if modes.time_constants.size >= 2:
+        ratio = float(modes.time_constants[0] / modes.time_constants[1])
+        coef = float(modes.coefficients[1] / modes.coefficients[0])
+        estimate = estimate_from_peeling(ratio, coef)
+        peeled = estimate.cylinder_length
+        solutions = tuple((s.electrotonic_length, s.conductance_ratio) for s in estimate.solutions)
+    else:
+        notes.append("fewer than two modes are seen at the root; nothing to peel")
+    if not report.reducible:
+        notes.append("the tree does not meet Rall's conditions, so its reduction is approximate")
+    return ReductionCost(times=t, tree_voltage=mine.voltage[:, 0], reduced_voltage=reduced.voltage[:, 0],
+                         largest_difference=float(abs(diff[k])) if diff.size else 0.0,
+                         when=float(t[k]) if diff.size else math.nan, tree_error_bound=mine.error_bound,
+                         reduced_error_bound=reduced.error_bound, reduced_model=name,
+                         electrotonic_length=eq.electrotonic_length, conductance_ratio=report.conductance_ratio,
+                         tree_modes=modes, reduced_time_constants=reduced.time_constants[:2],
+                         reduced_coefficients=reduced.coefficients[:2, 0], peeled_length=peeled,
+                         peeled_ball_and_stick=solutions, notes=tuple(notes))
