@@ -43,11 +43,15 @@ each piece (:data:`cabletheory.PASSIVE_CAVEAT`).
 
 References
 ----------
-Butz EG & Cowan JD (1974) Biophys. J. 14:661 (transient potentials in dendritic systems).
-Koch C & Poggio T (1985) J. Neurosci. Methods 12:303 (Laplace-domain recursion on trees).
-Holmes WR (1986) Biol. Cybern. 55:115 (transients in branched trees by Laplace transforms).
-Wittrick WH & Williams FW (1971) Q. J. Mech. Appl. Math. 24:263 (counting eigenvalues of a
-structure from its dynamic stiffness) [MEM].
+Butz EG & Cowan JD (1974) Biophys. J. 14:661 [ButzCowan1974] (transient potentials in
+dendritic systems).
+Koch C & Poggio T (1985) J. Neurosci. Methods 12:303 [KochPoggio1985] (Laplace-domain recursion
+on trees).
+Holmes WR (1986) Biol. Cybern. 55:115 [Holmes1986] (transients in branched trees by Laplace
+transforms).
+Wittrick WH & Williams FW (1971) Q. J. Mech. Appl. Math. 24:263 [WittrickWilliams1971] (counting
+eigenvalues of a structure from its dynamic stiffness) [MEM].
+Squire W & Trapp G (1998) SIAM Rev. 40:110 [SquireTrapp1998] (complex-step derivative).
 """
 
 from __future__ import annotations
@@ -60,6 +64,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .cable import length_constant, semi_infinite_input_conductance
+from .case import end_from_word
 from .errors import InputError
 from .tree import Tree
 
@@ -145,10 +150,10 @@ class PassiveTree:
         n = len(self.tree)
         tip = _tips(self.tree.parents)
         if isinstance(self.tips, str):
-            word = self.tips.strip().lower()
-            if word not in ("sealed", "killed"):
+            word = end_from_word(self.tips)
+            if word is None:
                 raise InputError(f"tips must be 'sealed', 'killed' or a conductance in S, got {self.tips!r}")
-            value = np.full(n, 0.0 if word == "sealed" else math.inf)
+            value = np.full(n, word)
         else:
             value = np.asarray(self.tips, dtype=float).ravel()
             if value.size == 1:
@@ -595,7 +600,9 @@ def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeM
     sol = _solve(net, -rate + 1j * step)
     y = sol.total[0]
     slope = y.imag / step
-    visible = np.abs(y.real) <= 1e-7 * np.abs(slope) * rate
+    # at a visible rate Y vanishes (to the bisection's precision); at a hidden one a branch's
+    # admittance has a pole there, so |Y| is huge: the steady conductance separates the two
+    visible = np.abs(y.real) <= 1e-3 / z0
     taus = 1.0 / rate
     vis = np.flatnonzero(visible)[:count]
     residues = 1.0 / slope[vis]

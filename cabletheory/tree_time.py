@@ -33,11 +33,12 @@ Every result assumes a passive, linear membrane (:data:`cabletheory.PASSIVE_CAVE
 References
 ----------
 Weideman JAC & Trefethen LN (2007) Parabolic and hyperbolic contours for computing the Bromwich
-integral. Math. Comp. 76:1341-1356 (the contour and its error analysis).
+integral. Math. Comp. 76:1341-1356 [WeidemanTrefethen2007] (the contour and its error analysis).
 Agmon-Snir H & Segev I (1993) Signal delay and input synchronization in passive dendritic
-structures. J. Neurophysiol. 70:2066-2085 (centroid delays).
-Zador AM, Agmon-Snir H & Segev I (1995) J. Neurosci. 15:1669 (the morphoelectrotonic transform:
-log attenuation and delay over a tree).
+structures. J. Neurophysiol. 70:2066-2085 [AgmonSnirSegev1993] (centroid delays).
+Zador AM, Agmon-Snir H & Segev I (1995) J. Neurosci. 15:1669 [ZadorAgmonSnirSegev1995] (the
+morphoelectrotonic transform: log attenuation and delay over a tree).
+Holmes WR (1986) Biol. Cybern. 55:115 [Holmes1986] (inverting the tree's transform numerically).
 """
 
 from __future__ import annotations
@@ -61,6 +62,7 @@ from .tree_laplace import (
     _path,
     _Solution,
     _solve,
+    _tips,
     _transfer,
     node_sites,
     root_modes,
@@ -550,10 +552,10 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     cm = np.asarray(cell.membrane_capacitance, dtype=float).ravel()
     if rm.size != 1 or cm.size != 1:
         raise InputError("the reduction needs one membrane resistivity and capacitance for the whole tree")
-    if isinstance(cell.tips, str):
-        killed = cell.tips.strip().lower() == "killed"
-    else:
+    ends = np.unique(cell.tip_conductances()[_tips(tree.parents)])
+    if ends.size != 1 or ends[0] not in (0.0, math.inf):
         raise InputError("the reduction needs every tip sealed or every tip killed")
+    killed = bool(ends[0] == math.inf)
     if tree.soma_area is not None:
         g_s, tau_s = cell.soma_constants()
         if not math.isclose(tau_s, float(rm[0] * cm[0]), rel_tol=1e-12) or not math.isclose(

@@ -1,0 +1,314 @@
+"""Time courses, frequency responses, delays and the cost of reduction of whole trees.
+
+External checks, each named beside its test:
+
+* the exact cylinder and ball-and-stick transients of cabletheory.transient (Rall 1969 [Rall1969];
+  images after Hodgkin & Rushton 1946 [HodgkinRushton1946]) on trees that satisfy Rall's
+  conditions (Rall 1959, 1964 [Rall1959] [Rall1964]), to 1e-9;
+* mpmath [mpmath2023]: the same tree recursion at 30 digits inverted by mpmath's own Talbot routine
+  (Talbot 1979 [Talbot1979]); every error estimate must hold against it;
+* the package's compartmental solver (cabletheory.compartment, a finite-volume scheme with
+  Crank-Nicolson; Crank & Nicolson 1947 [CrankNicolson1947]) refined four times: its error falls at
+  second order towards the tree solution;
+* centroid delays of Agmon-Snir & Segev 1993 [AgmonSnirSegev1993] [MEM]: τm for an isopotential
+  cell, τm/2 at the input of a semi-infinite cable and τm/2 more per length constant along it, and
+  mpmath's numerical derivative of the same transform;
+* steady state equal to the tips-inward input resistance of cabletheory.tree (Rall 1959).
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+
+import mpmath
+import numpy as np
+import pytest
+from scipy.special import erf
+
+from cabletheory import cable, compartment, transient
+from cabletheory.errors import InputError
+from cabletheory.morphology import SectionList
+from cabletheory.tree import Tree, analyse_tree, exact_input_conductances, tree_from_sections
+from cabletheory.tree_laplace import PassiveTree, Site, root_site, site_at, transfer_impedance_precise
+from cabletheory.tree_time import (
+    electrotonic_map,
+    frequency_response,
+    hyperbolic_contour,
+    invert,
+    reduction_cost,
+    tree_response,
+)
+
+RM, RI, CM = 2.0, 2.0, 0.01  # τm = 20 ms
+TAU = RM * CM
+UM = 1e-6
+NA = 1e-9
+
+
+def sections_tree(parents, lengths, diameters, soma_diameter=None) -> Tree:
+    n = len(parents)
+    d = np.asarray(diameters, dtype=float)
+    return tree_from_sections(SectionList(
+        source="test", names=tuple(f"s{i}" for i in range(n)), parents=np.asarray(parents, dtype=np.int64),
+        lengths=np.asarray(lengths, dtype=float), diameters=d, end_diameters=d,
+        lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=soma_diameter))
+
+
+def demo(granddaughter_1=200.0, soma=None) -> Tree:
+    """The demo tree of docs/sources.md: 3/2 rule at both branch points, equal tip distances."""
+    d0, d1, d2 = 4.0, 4.0 * 2 ** (-2 / 3), 4.0 * 4 ** (-2 / 3)
+    lengths = np.array([300, 300, 300, granddaughter_1, 200, 200, 200]) * UM
+    return sections_tree([-1, 0, 0, 1, 1, 2, 2], lengths, np.array([d0, d1, d1, d2, d2, d2, d2]) * UM,
+                         None if soma is None else soma * UM)
+
+
+TIMES = np.concatenate(([0.0, -1e-3], np.geomspace(2e-5, 0.1, 17)))
+
+
+# --------------------------------------------------------------------------------------
+# the inversion itself
+# --------------------------------------------------------------------------------------
+def test_inversion_of_the_semi_infinite_cable():
+    """1/(s√(1+s)) is erf(√T) (the semi-infinite cable's input, Hodgkin & Rushton 1946
+    [HodgkinRushton1946]); the estimate holds from T = 1e-4 to 30."""
+    t = np.geomspace(1e-4, 30, 40)
+    v, err, _ = invert(lambda s: (1 / (s * np.sqrt(1 + s)))[:, None], t, tolerance=1e-11, scale=1.0)
+    actual = np.abs(v[:, 0] - erf(np.sqrt(t)))
+    assert np.all(actual <= err[:, 0])
+    assert err.max() <= 2e-11
+
+
+def test_contour_nodes_cross_right_of_the_origin():
+    """The hyperbola crosses the real axis at μ(1 − sin α) > 0, to the right of every singularity
+    (Weideman & Trefethen 2007 [WeidemanTrefethen2007])."""
+    c = hyperbolic_contour(1e-3, 8e-3, 20)
+    assert c.nodes[0].imag == 0.0
+    assert c.nodes[0].real > 0
+    assert np.all(np.diff(c.nodes.imag) > 0)
+    assert c.nodes[-1].real < 0
+
+
+# --------------------------------------------------------------------------------------
+# Rall's conditions: the tree equals its reduction (exact series of cabletheory.transient)
+# --------------------------------------------------------------------------------------
+STIMULI = [transient.CurrentStep(0.1 * NA), transient.CurrentPulse(0.1 * NA, 2e-3),
+           transient.AlphaCurrent(0.1 * NA, 0.5e-3)]
+
+
+@pytest.mark.parametrize("stimulus", STIMULI, ids=["step", "pulse", "alpha"])
+@pytest.mark.parametrize("tips", ["sealed", "killed"])
+def test_conforming_tree_equals_its_equivalent_cylinder(stimulus, tips):
+    """Rall (1959, 1964) [Rall1959] [Rall1964]: input at the root of the demo tree is input at the
+    origin of its equivalent cylinder (d = 4 µm, L = 0.9954565254); the cylinder's exact series
+    (cabletheory.transient, Rall 1969 [Rall1969]) agrees to 1e-9 of the reference voltage."""
+    cell = PassiveTree(demo(), RM, RI, CM, tips=tips)
+    mine = tree_response(cell, stimulus, TIMES, root_site(), [root_site()], tolerance=1e-11)
+    eq = analyse_tree(cell.tree, RM, RI, CM, killed_tips=tips == "killed").equivalent_cylinder
+    cyl = cable.Cylinder(RM, RI, CM, eq.diameter, eq.length, math.inf if tips == "killed" else 0.0)
+    ref = transient.charge(cyl, stimulus, TIMES, [0.0], tolerance=1e-12)
+    diff = np.abs(mine.voltage[:, 0] - ref.voltage[:, 0])
+    assert diff.max() <= 1e-9 * mine.reference_voltage
+    assert np.all(diff <= mine.errors[:, 0] + ref.error_bound)
+    assert np.all(mine.voltage[TIMES <= 0] == 0.0)
+
+
+@pytest.mark.parametrize("stimulus", STIMULI, ids=["step", "pulse", "alpha"])
+def test_conforming_tree_with_soma_equals_the_ball_and_stick(stimulus):
+    """The demo tree with a 20 µm soma (ρ = 7.596794008, docs/sources.md) is the ball and stick of
+    cabletheory.transient (Rall 1969 [Rall1969]; Durand 1984 [Durand1984]) to 1e-9."""
+    cell = PassiveTree(demo(soma=20.0), RM, RI, CM)
+    mine = tree_response(cell, stimulus, TIMES, root_site(), [root_site()], tolerance=1e-11)
+    bs = transient.BallAndStick(cable.Cylinder(RM, RI, CM, 4e-6, 995.4565254e-6), 20e-6)
+    ref = transient.charge(bs, stimulus, TIMES, [0.0], tolerance=1e-12)
+    assert np.max(np.abs(mine.voltage[:, 0] - ref.voltage[:, 0])) <= 1e-9 * mine.reference_voltage
+
+
+def test_clamp_at_the_root_equals_the_clamped_cylinder():
+    """A voltage step at the root of the demo tree, recorded at a tip, is the clamped equivalent
+    cylinder at its far end (Rall 1969 [Rall1969]; cabletheory.transient), soma or not."""
+    cell = PassiveTree(demo(soma=20.0), RM, RI, CM)
+    clamp = transient.VoltageStep(0.01)
+    mine = tree_response(cell, clamp, TIMES, root_site(), [site_at(cell.tree, "s6"), root_site()])
+    cyl = cable.Cylinder(RM, RI, CM, 4e-6, 995.4565254e-6)
+    ref = transient.charge(cyl, clamp, TIMES, [995.4565254e-6, 0.0], tolerance=1e-12)
+    assert np.max(np.abs(mine.voltage - ref.voltage)) <= 1e-9 * 0.01
+    assert mine.steady_state is not None
+    assert mine.steady_state[0] == pytest.approx(0.01 / math.cosh(0.9954565254), rel=1e-9)
+
+
+# --------------------------------------------------------------------------------------
+# the error estimate holds against mpmath on an unreduced tree
+# --------------------------------------------------------------------------------------
+def _mp_reference(cell, stimulus, at, record, t):
+    """The same recursion at 30 digits, inverted by mpmath.invertlaplace (Talbot) [mpmath2023]."""
+    amp, shape = {
+        transient.CurrentStep: (lambda st: (st.amplitude, lambda s: 1 / s)),
+        transient.AlphaCurrent: (lambda st: (st.peak, lambda s: mpmath.e / (st.time_to_peak
+                                                                           * (s + 1 / st.time_to_peak) ** 2))),
+    }[type(stimulus)](stimulus)
+    with mpmath.workdps(30):
+        f = lambda s: transfer_impedance_precise(cell, s, at, record, digits=30) * shape(s)  # noqa: E731
+        return float(amp * mpmath.invertlaplace(f, t, method="talbot"))
+
+
+@pytest.mark.parametrize("stimulus", [STIMULI[0], STIMULI[2]], ids=["step", "alpha"])
+@pytest.mark.parametrize(("at", "record"), [
+    (Site(3, 240e-6), Site(-1)), (Site(3, 240e-6), Site(3, 240e-6)), (Site(1, 120e-6), Site(6, 200e-6)),
+    (Site(-1), Site(5, 30e-6)),
+])
+def test_error_estimates_hold_against_mpmath(stimulus, at, record):
+    """Unreduced tree (one granddaughter 20 % longer, a 20 µm soma, leaky tips): every value lies
+    within its error estimate of the 30-digit reference, from 10 µs to 200 ms."""
+    cell = PassiveTree(demo(240.0, soma=20.0), RM, RI, CM, tips=0.2 * NA)
+    t = np.array([1e-5, 3e-4, 2e-3, 1.1e-2, 0.05, 0.2])
+    mine = tree_response(cell, stimulus, t, at, [record], tolerance=1e-10)
+    ref = np.array([_mp_reference(cell, stimulus, at, record, tt) for tt in t])
+    actual = np.abs(mine.voltage[:, 0] - ref)
+    assert np.all(actual <= mine.errors[:, 0]), (actual, mine.errors[:, 0])
+    assert mine.error_bound <= 1e-10 * mine.reference_voltage
+
+
+def test_steady_state_is_the_exact_input_resistance():
+    """A long step at a tip of an unreduced tree settles to I·R_in at that tip; at the root the
+    final voltage is I times the tips-inward input resistance (Rall 1959 [Rall1959])."""
+    tree = demo(240.0, soma=20.0)
+    cell = PassiveTree(tree, RM, RI, CM)
+    step = transient.CurrentStep(0.1 * NA)
+    root = tree_response(cell, step, [40 * TAU], root_site(), [root_site()])
+    _, g_dend = exact_input_conductances(tree, RM, RI)
+    r_in = 1.0 / (g_dend + tree.soma_area / RM)
+    assert root.steady_state is not None
+    assert root.steady_state[0] == pytest.approx(0.1 * NA * r_in, rel=1e-12)
+    assert root.voltage[0, 0] == pytest.approx(0.1 * NA * r_in, rel=1e-10)
+
+
+# --------------------------------------------------------------------------------------
+# the package's compartmental solver converges to it
+# --------------------------------------------------------------------------------------
+def test_compartmental_solution_converges_to_the_tree_solution():
+    """cabletheory.compartment (vertex-centred, Crank-Nicolson) with 4, 8, 16, 32 compartments per
+    branch and the time step halved with them: the error at the root and at the stimulated tip
+    falls by about 4 per refinement (second order, Crank & Nicolson 1947 [CrankNicolson1947])."""
+    tree = demo(240.0, soma=20.0)
+    cell = PassiveTree(tree, RM, RI, CM)
+    times = np.array([1e-3, 4e-3, 1.2e-2])
+    tip = site_at(tree, "s3")
+    exact = tree_response(cell, transient.CurrentStep(0.1 * NA), times, tip, [root_site(), tip]).voltage
+    errors = []
+    for n in (4, 8, 16, 32):
+        c = compartment.discretise_tree(tree.parents, tree.lengths, tree.distal_diameters, RM, RI, CM, n,
+                                        soma_area=tree.soma_area)
+        tip_node = int(compartment.section_nodes(c, 3)[-1])
+        current = np.zeros(c.size)
+        current[tip_node] = 0.1 * NA
+        v = compartment.integrate(c, current, times, step=1e-3 / (2 * n))
+        errors.append(np.max(np.abs(v[:, [0, tip_node]] - exact)))
+    ratios = [a / b for a, b in itertools.pairwise(errors)]
+    assert all(3.5 < r < 4.5 for r in ratios), (errors, ratios)
+
+
+# --------------------------------------------------------------------------------------
+# frequency responses, attenuation, delays
+# --------------------------------------------------------------------------------------
+def test_frequency_response_of_the_demo_tree():
+    """|Z_root(100 Hz)| = 44.86760779 MΩ, arg −42.09059783° (docs/sources.md, computed; Rall &
+    Rinzel 1973 [RallRinzel1973]); the phase lags and |Z| falls with frequency."""
+    cell = PassiveTree(demo(), RM, RI, CM)
+    fr = frequency_response(cell, [0.0, 10.0, 100.0, 1000.0], None, [root_site()])
+    assert fr.magnitude[2, 0] == pytest.approx(44.86760779e6, rel=1e-9)
+    assert math.degrees(fr.phase[2, 0]) == pytest.approx(-42.09059783, rel=1e-9)
+    assert np.all(np.diff(fr.magnitude[:, 0]) < 0)
+    assert fr.phase[0, 0] == 0.0
+    assert np.all(fr.phase[1:, 0] < 0)
+
+
+def test_attenuation_over_the_demo_tree():
+    """Input at one tip: V_root/V_tip = 0.3380424167 (docs/sources.md, computed); input at the root
+    of a conforming tree: V_tip/V_root = 1/cosh L = 0.6502977841 (Rall 1959 [Rall1959])."""
+    cell = PassiveTree(demo(), RM, RI, CM)
+    m = electrotonic_map(cell)
+    tips = [i + 1 for i in (3, 4, 5, 6)]
+    np.testing.assert_allclose(m.attenuation_to_root[tips], 1 / 0.3380424167, rtol=1e-9)
+    np.testing.assert_allclose(m.attenuation_from_root[tips], 1 / 0.6502977841, rtol=1e-9)
+    assert m.attenuation_to_root[0] == 1.0
+    assert np.all(m.attenuation_to_root[tips] > m.attenuation_from_root[tips])
+
+
+def test_centroid_delay_of_an_isopotential_cell_is_tau():
+    """Agmon-Snir & Segev 1993 [AgmonSnirSegev1993] [MEM]: the local delay of an isopotential cell
+    is τm (Z = R/(1 + sτm), −Z'/Z = τm at s = 0). A soma with a 0.1 µm stub is isopotential to 1e-9.
+    From the stub's tip the delay to the soma is the share of the stub's axial resistance R_a in
+    R_a + R_S (an instantaneous resistor in series with the soma's RC; to first order in the stub)."""
+    tree = sections_tree([-1], [0.1e-6], [1e-6], soma_diameter=20e-6)
+    m = electrotonic_map(PassiveTree(tree, RM, RI, CM))
+    assert m.local_delay[0] == pytest.approx(TAU, rel=1e-9)
+    r_axial = 4 * RI * 0.1e-6 / (math.pi * 1e-12)
+    r_soma = RM / (math.pi * 20e-6**2)
+    assert m.delay_to_root[1] == pytest.approx(TAU * r_axial / (r_axial + r_soma), rel=1e-3)
+
+
+def test_centroid_delays_along_a_long_cable():
+    """Agmon-Snir & Segev 1993 [AgmonSnirSegev1993] [MEM]: at the input of a semi-infinite cable the
+    local delay is τm/2, and the transfer delay to X is τm(1 + X)/2, so the propagation delay is
+    Xτm/2 (centroid speed 2λ/τm); from Z = R∞e^{−qX}/q. A sealed cylinder of L = 40 is semi-infinite
+    to e^{−80}. Checked also against mpmath's numerical derivative of the 30-digit transform."""
+    d = 1e-6
+    lam = float(cable.length_constant(RM, RI, d))
+    n = 8
+    tree = sections_tree([-1, *range(n - 1)], [5 * lam] * n, [d] * n)
+    cell = PassiveTree(tree, RM, RI, CM)
+    m = electrotonic_map(cell)
+    assert m.local_delay[0] == pytest.approx(TAU / 2, rel=1e-10)
+    x = np.arange(1, 4) * 5.0
+    np.testing.assert_allclose(m.transfer_delay[1:4], TAU * (1 + x) / 2, rtol=1e-10)
+    np.testing.assert_allclose(m.delay_from_root[1:4], TAU * x / 2, rtol=1e-10)
+    with mpmath.workdps(40):  # central difference, step 1e-12 /s (the recursion at 40 digits)
+        z = lambda s: transfer_impedance_precise(cell, s, root_site(), Site(1, 5 * lam), digits=40)  # noqa: E731
+        want = float((-mpmath.diff(z, 0, h=mpmath.mpf("1e-12")) / z(0)).real)
+    assert m.transfer_delay[2] == pytest.approx(want, rel=1e-10)
+
+
+# --------------------------------------------------------------------------------------
+# the cost of reduction
+# --------------------------------------------------------------------------------------
+def test_reduction_costs_nothing_on_a_conforming_tree():
+    """Rall (1959, 1969) [Rall1959] [Rall1969]: the demo tree with soma and its soma-plus-cylinder
+    agree in time; τ0, τ1, C1/C0 agree; peeling returns L = 0.9954565254, ρ = 7.596794008."""
+    cell = PassiveTree(demo(soma=20.0), RM, RI, CM)
+    cost = reduction_cost(cell, transient.CurrentStep(0.1 * NA), np.geomspace(1e-5, 0.1, 30))
+    assert cost.largest_difference <= 1e-9 * float(np.max(np.abs(cost.tree_voltage)))
+    np.testing.assert_allclose(cost.tree_modes.time_constants, cost.reduced_time_constants, rtol=1e-10)
+    np.testing.assert_allclose(cost.tree_modes.coefficients, cost.reduced_coefficients, rtol=1e-7)
+    assert cost.electrotonic_length == pytest.approx(0.9954565254, rel=1e-9)
+    (length, rho), = cost.peeled_ball_and_stick
+    assert length == pytest.approx(0.9954565254, rel=1e-7)
+    assert rho == pytest.approx(7.596794008, rel=1e-6)
+
+
+def test_reduction_cost_of_an_unreduced_tree():
+    """One granddaughter twice as long: the reduction misses; the largest difference is where the
+    two curves are farthest apart and the tree's τ0 stays τm (uniform membrane, sealed tips)."""
+    cell = PassiveTree(demo(400.0, soma=20.0), RM, RI, CM)
+    times = np.geomspace(1e-5, 0.1, 60)
+    cost = reduction_cost(cell, transient.AlphaCurrent(0.1 * NA, 1e-3), times)
+    gap = np.abs(cost.reduced_voltage - cost.tree_voltage)
+    assert cost.largest_difference == gap.max() > 1e-3 * np.max(cost.tree_voltage)
+    assert cost.when == times[np.argmax(gap)]
+    assert cost.tree_modes.time_constants[0] == pytest.approx(TAU, rel=1e-12)
+    assert cost.tree_modes.time_constants[1] != pytest.approx(cost.reduced_time_constants[1], rel=1e-3)
+    assert any("does not meet" in n for n in cost.notes)
+
+
+def test_time_course_refusals():
+    cell = PassiveTree(demo(), RM, RI, CM, tips="killed")
+    with pytest.raises(InputError, match="killed tip"):
+        tree_response(cell, transient.CurrentStep(NA), [1e-3], site_at(cell.tree, "s6"), [root_site()])
+    with pytest.raises(InputError, match="root"):
+        tree_response(cell, transient.VoltageStep(0.01), [1e-3], Site(2, 10e-6), [root_site()])
+    with pytest.raises(InputError, match="tolerance"):
+        tree_response(cell, transient.CurrentStep(NA), [1e-3], root_site(), [root_site()], tolerance=0.5)
+    with pytest.raises(InputError, match="position"):
+        tree_response(cell, transient.CurrentStep(NA, position=1e-6), [1e-3], root_site(), [root_site()])
+    with pytest.raises(InputError, match="sealed or every tip killed"):
+        reduction_cost(PassiveTree(demo(), RM, RI, CM, tips=1e-9), transient.CurrentStep(NA), [1e-3])
