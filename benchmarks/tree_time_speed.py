@@ -21,6 +21,7 @@ Prints the figures and exits 1 if the 2 s goal is missed.
 
 from __future__ import annotations
 
+import itertools
 import math
 import sys
 import time
@@ -73,7 +74,7 @@ def generate(branches: int = BRANCHES, seed: int = 16) -> tuple[SectionList, lis
 
 
 def main() -> int:
-    sections, ends = generate()
+    sections, _ = generate()
     tree = tree_from_sections(sections)
     cell = PassiveTree(tree, RM, RI, CM)
     has_child = np.zeros(len(tree), dtype=bool)
@@ -129,7 +130,7 @@ def main() -> int:
         nodes_of.append(c.size)
         print(f"compartmental: {n} per cylinder ({c.size} nodes), Δt = {0.5 / substeps:g} ms: "
               f"{costs[-1]:.3f} s, error {err:.3g} of the final voltage")
-    orders = [math.log(a / b, 2) / 1.0 for a, b in zip(errors, errors[1:], strict=False)]
+    orders = [math.log(a / b, 2) for a, b in itertools.pairwise(errors)]
     needed = costs[-1] * errors[-1] / TOLERANCE
     print(f"compartmental error ratios per refinement: {', '.join(f'{2**o:.2f}' for o in orders)} "
           f"(second order in Δx and Δt: 4)")
