@@ -4,8 +4,9 @@ The same closed forms, image sums and eigen-series are evaluated point by point 
 ``mpmath`` at a chosen number of decimal digits (``mp.workdps``): eigenvalues are re-solved
 with ``mpmath.findroot`` in a bracket around the float root, erfc is mpmath's, and the alpha
 convolution is differentiated with ``mpmath.diff`` at raised precision. Truncation counts come
-from the same rigorous tail bounds as the float path. It is slow (a few ms per point) and meant
-for checks, the benchmark and ``charge(..., precision=digits)``.
+from the same rigorous tail bounds as the float path (:mod:`cabletheory.truncation`, so neither
+path imports the other). It is slow (a few ms per point) and meant for checks, the benchmark and
+``charge(..., precision=digits)``.
 
 All quantities are dimensionless: X = x/λ, T = t/τm, L = ℓ/λ, voltage in units of
 :math:`IR_\infty` (current) or of the clamp step.
@@ -24,6 +25,7 @@ import numpy as np
 
 from . import eigen
 from .errors import ConvergenceError
+from .truncation import Shape, clamp_image_tail, current_bound, image_tail
 
 __all__ = [
     "clamp_grid",
@@ -174,22 +176,18 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
     # images for sealed/killed ends when few reflections suffice
     if y == 0 and (B == 0 or math.isinf(B)):
         sign = 1 if B == 0 else -1
-        from .transient import _image_tail
-
         tf = float(T)
         K = 1
         factor = 2 if kind == "pulse" else 1
-        while K <= 12 and factor * float(_image_tail(np.float64(K), np.float64(tf), float(L))) > tol:
+        while K <= 12 and factor * float(image_tail(np.float64(K), np.float64(tf), float(L))) > tol:
             K += 1
         if K <= 12:
             total = mp.mpf(0)
             for k in range(-K, K + 1):
                 s = sign ** abs(k)
                 total += s * (kern(X - X0 - 2 * k * Lm, T) + kern(X + X0 - 2 * k * Lm, T))
-            return total, float(_image_tail(np.float64(K), np.float64(tf), float(L)))
-    from .transient import _current_bound, _Shape
-
-    bound = _current_bound(_Shape(kind, float(D), float(a)), float(L))
+            return total, float(image_tail(np.float64(K), np.float64(tf), float(L)))
+    bound = current_bound(Shape(kind, float(D), float(a)), float(L))
     tf = np.array([float(T)])
     n = 1
     while float(bound(n, tf)[0]) > tol:
@@ -237,19 +235,17 @@ def clamp_value(X, T, L, B, tol, infinite=False, source=0.0, _cache=None):
     if math.isinf(L):
         return semi_infinite_clamp(X, T), 0.0
     Lm = mp.mpf(L)
-    from .transient import _clamp_image_tail
-
     if B == 0 or math.isinf(B):
         sigma = 1 if B == 0 else -1
         K = 1
-        while K <= 12 and float(_clamp_image_tail(np.float64(K), np.float64(float(T)), float(L))) > tol:
+        while K <= 12 and float(clamp_image_tail(np.float64(K), np.float64(float(T)), float(L))) > tol:
             K += 1
         if K <= 12:
             total = mp.mpf(0)
             for k in range(K):
                 total += (-sigma) ** k * (semi_infinite_clamp(X + 2 * k * Lm, T)
                                           + sigma * semi_infinite_clamp(2 * Lm - X + 2 * k * Lm, T))
-            return total, float(_clamp_image_tail(np.float64(K), np.float64(float(T)), float(L)))
+            return total, float(clamp_image_tail(np.float64(K), np.float64(float(T)), float(L)))
     tf = np.array([float(T)])
     n = 1
     while float(eigen.tail_bound(n, tf, float(L), kind="clamp", origin="clamped")[0]) > tol:

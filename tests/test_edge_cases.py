@@ -79,7 +79,7 @@ def test_one_segment_is_singular(capsys):
 def test_rall_series_of_the_check_agrees_with_the_transients_for_a_very_short_cable():
     """verify.sealed_step_voltage (Rall 1969 [Rall1969] series) and transient.charge are independent codes; for a
     1 nm cable they must agree within their bounds (both use expm1 for 1 − e^(−2L))."""
-    from cabletheory.verify import sealed_step_voltage
+    from cabletheory.verify.exact import sealed_step_voltage
 
     cyl = cable.Cylinder(2.0, 2.0, 0.01, 2e-6, 1e-9)
     times = np.array([1e-12, 1e-9, 1e-6]) * cyl.time_constant

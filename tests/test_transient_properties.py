@@ -84,15 +84,15 @@ def test_b_equal_one_is_semi_infinite(T, a):
 
 def test_images_and_series_agree_where_both_apply():
     """Images (small T) and the eigen-series give the same values (two exact representations)."""
-    from cabletheory import transient
+    from cabletheory import finite_cable, kernels
 
     X = np.linspace(0, 1, 6)
     T = np.array([0.02, 0.05, 0.1])
     for B in (0.0, math.inf):
-        images = transient._point_images(transient.point_source_step, X, 0.3, T, 1.0, 1.0 if B == 0 else -1.0, 4)
+        images = finite_cable._point_images(kernels.point_source_step, X, 0.3, T, 1.0, 1.0 if B == 0 else -1.0, 4)
         series, _, _ = current_response(X, 0.3, T, 1.0, B)
         np.testing.assert_allclose(images, series, atol=1e-11)
-        clamp_img = transient._clamp_images(X, T, 1.0, 1.0 if B == 0 else -1.0, 4)
+        clamp_img = finite_cable._clamp_images(X, T, 1.0, 1.0 if B == 0 else -1.0, 4)
         clamp_ser, _, _ = clamp_response(X, T, 1.0, B)
         np.testing.assert_allclose(clamp_img, clamp_ser, atol=1e-11)
 

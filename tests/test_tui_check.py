@@ -22,7 +22,8 @@ from cabletheory.cable import Cylinder
 from cabletheory.errors import CableTheoryError
 from cabletheory.tui.format import analyse_check, check_report
 from cabletheory.tui.forms import read_check_form
-from cabletheory.verify import exact_case, reference_table
+from cabletheory.verify.exact import exact_case
+from cabletheory.verify.tables import reference_table
 
 UM, MS, MV = 1e-6, 1e-3, 1e-3
 KILLED = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM, math.inf)  # demo cable (docs/sources.md), killed far end

@@ -417,7 +417,7 @@ def test_check_exact_case_reaches_the_closed_form_steady_state(end, tmp_path):
     Rall 1959 [Rall1959]; computed) and is exactly 0 before the onset."""
     from cabletheory import cable
     from cabletheory.tui.forms import read_check_form
-    from cabletheory.verify import exact_case
+    from cabletheory.verify.exact import exact_case
 
     run = tmp_path / "run.csv"
     run.write_text("time (ms),V at 0 um (mV)\n0,0\n", encoding="utf-8")

@@ -12,7 +12,7 @@ from .. import PASSIVE_CAVEAT
 from ..compartment import SCHEMES
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
-from ..verify import OUTPUTS, RULE_STEP, Advice, StepAdvice, advise_cable, advise_tree
+from ..verify.advice import OUTPUTS, RULE_STEP, Advice, StepAdvice, advise_cable, advise_tree
 from .common import (
     add_membrane_options,
     dump_json,

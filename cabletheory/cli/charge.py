@@ -143,7 +143,7 @@ def as_json(case: Case, r: Response) -> dict:
 def as_csv(case: Case, r: Response) -> str:
     """Long-format CSV with SI units in the header: one row per (time, position), after the same
     ``#`` lines as a reference table (parameters with units, method, error bound, assumptions)."""
-    from ..verify import csv_header
+    from ..verify.tables import csv_header
 
     buffer = io.StringIO()
     buffer.write(csv_header("cabletheory charge: exact voltage time course", case.describe(), r.method,

@@ -11,7 +11,9 @@ from ..compartment import SCHEMES
 from ..errors import InputError
 from ..inputs import read_pass_within
 from ..units import format_quantity, parse_series
-from ..verify import Comparison, Convergence, ExactCase, Recording, compare, convergence, run_spacings, split_stimulus
+from ..verify.comparison import Comparison, Convergence, ExactCase, compare, convergence
+from ..verify.reading import Recording, run_spacings
+from ..verify.tables import split_stimulus
 from .case import add_case_options
 from .common import dump_json, quantity, write_atomically
 from .reference import (

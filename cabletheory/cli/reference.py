@@ -13,16 +13,9 @@ from ..case import Case, CaseFieldError
 from ..errors import InputError, MissingFileError
 from ..inputs import read_rest
 from ..units import format_quantity, parse_quantity, parse_series
-from ..verify import (
-    ExactCase,
-    Recording,
-    ReferenceTable,
-    read_recording,
-    reference_csv,
-    reference_json,
-    reference_npz,
-    reference_table,
-)
+from ..verify.comparison import ExactCase
+from ..verify.reading import Recording, read_recording
+from ..verify.tables import ReferenceTable, reference_csv, reference_json, reference_npz, reference_table
 from .case import add_case_options, read_case_options
 from .common import add_truncation_option, read_truncation_voltage, write_atomically
 
@@ -37,7 +30,7 @@ def add_exact_truncation(parser: argparse.ArgumentParser) -> None:
 def exact_from_options(args: argparse.Namespace, positions: str | None = None) -> tuple[Case, ExactCase]:
     """The case the options describe and its exact solution (the rule of
     :func:`cabletheory.verify.exact_case`)."""
-    from ..verify import exact_case
+    from ..verify.exact import exact_case
 
     case = read_case_options(args, positions)
     return case, exact_case(case.cell, case.stimulus, read_truncation_voltage(args.truncation, case))

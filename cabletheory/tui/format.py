@@ -29,7 +29,8 @@ from .report import Column, PlotSpec, Report, Row, Series, Table
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..tree import TreeReport
-    from ..verify import Comparison, ExactCase, Recording
+    from ..verify.comparison import Comparison, ExactCase
+    from ..verify.reading import Recording
 
 __all__ = ["analyse_check", "analyse_file", "cable_report", "cable_summary", "charging_report", "check_report",
            "profile_positions", "tree_outline", "tree_report"]
@@ -375,7 +376,9 @@ def analyse_check(setup: CheckSetup) -> CheckAnalysis:
     """
     from ..textfile import read_input_text
     from ..transient import InfiniteCable
-    from ..verify import compare, exact_case, read_recording
+    from ..verify.comparison import compare
+    from ..verify.exact import exact_case
+    from ..verify.reading import read_recording
 
     text = read_input_text(setup.path, "simulator output")
     infinite = isinstance(setup.case.model, InfiniteCable)

@@ -1,0 +1,335 @@
+r"""Exact time courses on a finite cylinder, dimensionless: images at early times, eigen-series later.
+
+:func:`current_response` (a current step, pulse or alpha current anywhere on the cylinder, with a
+sealed origin or a soma) and :func:`clamp_response` (a voltage-clamp step at the origin) choose,
+per time point, the representation that needs fewer operations for the requested truncation
+error, and report the bound:
+
+* **images** (small T): sums of infinite-cable solutions (Hodgkin & Rushton 1946) reflected at
+  sealed (+) or killed (-) ends;
+* **eigen-series** (large T): :math:`\sum_n r_n(X,X_0)\,h_n(T)` over the modes of
+  :mod:`cabletheory.eigen`, with the steady state subtracted;
+* a **leaky end** (0 < B < ∞) at small T is bracketed between the killed-end and sealed-end image
+  sums (comparison principle), so their mean is used when half their difference is within the
+  tolerance; otherwise the eigen-series.
+
+The truncation rules are those of :mod:`cabletheory.truncation`. X = x/λ, T = t/τm, L = ℓ/λ.
+
+References
+----------
+Rall W (1969) Biophys. J. 9:1483; Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444;
+Jack JJB, Noble D & Tsien RW (1975) ch. 3 (recalled from memory).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from . import eigen
+from .errors import ConvergenceError, InputError
+from .kernels import clamp_steady, end_weights, point_source_alpha, point_source_step, semi_infinite_clamp, steady_green
+from .truncation import (
+    MAX_MODES,
+    Shape,
+    clamp_image_tail,
+    current_bound,
+    image_tail,
+    modes_needed,
+    reflections_needed,
+)
+
+__all__ = ["clamp_response", "current_response"]
+
+Array = NDArray[np.float64]
+
+_IMAGE_COST = 25.0  # cost of one image term relative to one eigen term (erfcx vs multiply-add)
+_CHUNK = 1 << 22  # elements per temporary array in the series sums
+
+
+# --------------------------------------------------------------------------------------
+# stimulus shapes in T
+# --------------------------------------------------------------------------------------
+def _alpha_mode(mu: Array, T: Array, a: float) -> Array:
+    r"""∫_0^T (s/a) e^{1-s/a} e^{-μ(T-s)} ds, stable for every μ and T ≥ 0.
+
+    With c = 1/a, k = μ - c, z = kT: :math:`(e/a)T^2[e^{-cT}(z - 1) + e^{-\mu T}]/z^2`, and the
+    series :math:`(e/a)T^2e^{-cT}\sum_j (-z)^j/(j+2)!` for |z| < 1.
+    """
+    c = 1.0 / a
+    z = (mu - c) * T
+    e_c = np.exp(-c * T)
+    small = np.abs(z) < 1.0
+    zs = np.where(small, z, 0.0)
+    series = np.zeros_like(zs)
+    term = np.full_like(zs, 0.5)
+    for j in range(22):
+        series = series + term
+        term = term * (-zs) / (j + 3)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        direct = (e_c * (z - 1.0) + np.exp(-mu * T)) / np.where(small, 1.0, z * z)
+    return (math.e / a) * T * T * np.where(small, e_c * series, direct)
+
+
+# --------------------------------------------------------------------------------------
+# dimensionless engines
+# --------------------------------------------------------------------------------------
+@dataclass(slots=True)
+class _Plan:
+    """Which representation each time point uses, for the method description."""
+
+    parts: list[str] = field(default_factory=list)
+
+    def add(self, label: str, T: Array, count: int, unit: str) -> None:
+        if T.size:
+            self.parts.append(f"{label} for T in [{T.min():.3g}, {T.max():.3g}] (up to {count} {unit})")
+
+    def text(self) -> str:
+        return "; ".join(self.parts) if self.parts else "closed form"
+
+
+def _point_images(kernel, X: Array, X0: float, T: Array, L: float, sign: float, K: int) -> Array:
+    """Σ_k sign^|k| [kernel(|X - X0 - 2kL|) + kernel(|X + X0 - 2kL|)] on the grid T × X."""
+    Tc = T[:, None]
+    total = np.zeros((T.size, X.size))
+    for k in range(-K, K + 1):
+        s = sign ** abs(k)
+        shift = 2 * k * L if k else 0.0
+        if X0 == 0.0:
+            total += 2 * s * kernel(np.abs(X - shift)[None, :], Tc)
+        else:
+            total += s * (kernel(np.abs(X - X0 - shift)[None, :], Tc) + kernel(np.abs(X + X0 - shift)[None, :], Tc))
+    return total
+
+
+def _clamp_images(X: Array, T: Array, L: float, sigma: float, K: int) -> Array:
+    """Σ_{k<K} (-σ)^k [C(X + 2kL) + σ C(2L - X + 2kL)] on the grid T × X."""
+    Tc = T[:, None]
+    total = np.zeros((T.size, X.size))
+    for k in range(K):
+        s = (-sigma) ** k
+        total += s * (semi_infinite_clamp((X + 2 * k * L)[None, :], Tc)
+                      + sigma * semi_infinite_clamp((2 * L - X + 2 * k * L)[None, :], Tc))
+    return total
+
+
+def _shape_images(shape: Shape, X: Array, X0: float, T: Array, L: float, sign: float, K: int) -> Array:
+    if shape.kind == "alpha":
+        a = shape.time_to_peak
+        return _point_images(lambda d, t: point_source_alpha(d, t, a), X, X0, T, L, sign, K)
+    values = _point_images(point_source_step, X, X0, T, L, sign, K)
+    if shape.kind == "pulse":
+        values = values - _point_images(point_source_step, X, X0, T - shape.duration, L, sign, K)
+    return values
+
+
+def _series(time_factor, spatial: Array, T: Array, count: int) -> Array:
+    """Σ_n time_factor(n-slice, T)[:, n] · spatial[n, :] in chunks of modes (matrix products)."""
+    total = np.zeros((T.size, spatial.shape[1]))
+    step = max(1, _CHUNK // max(1, T.size + spatial.shape[1]))
+    for s in range(0, count, step):
+        e = min(count, s + step)
+        total += time_factor(slice(s, e)) @ spatial[s:e]
+    return total
+
+
+def current_response(position: ArrayLike, source: float, normalised_time: ArrayLike, electrotonic_length: float,
+                     end_conductance_ratio: float = 0.0, soma_ratio: float = 0.0, *, shape: str = "step",
+                     duration: float = 0.0, time_to_peak: float = 0.0,
+                     tolerance: float = 1e-10) -> tuple[Array, Array, str]:
+    r"""Voltage :math:`V/(IR_\infty)` on the grid T × X for a current input at X0 on a cylinder.
+
+    The cylinder has a sealed origin (or a soma of ratio :math:`y = G_S/G_\infty`) and a far end
+    of ratio B at X = L (L = inf: semi-infinite, y must be 0). ``shape`` is ``"step"``,
+    ``"pulse"`` (of ``duration`` in τm) or ``"alpha"`` (``time_to_peak`` in τm, I is the peak).
+
+    .. math:: \frac{V}{IR_\infty} = g(X,X_0)\,f(T) - \sum_n r_n(X,X_0)\,h_n(T)
+
+    (eigen-series; :math:`h_n = e^{-\mu_n T}/\mu_n` for a step, :math:`\mu_n = 1+\alpha_n^2`) or the
+    image sum of :func:`point_source_step` / :func:`point_source_alpha`, per T, whichever needs
+    fewer operations for a truncation error ≤ ``tolerance`` (absolute, in units of
+    :math:`IR_\infty`).
+
+    Returns
+    -------
+    (voltage, bound, method): arrays of shape (nT, nX) in units of :math:`IR_\infty`, the
+    truncation bound per point, and a description.
+
+    References
+    ----------
+    Rall W (1969) Biophys. J. 9:1483; Hodgkin & Rushton (1946) Proc. R. Soc. B 133:444;
+    Jack, Noble & Tsien (1975) ch. 3 (recalled from memory).
+    """
+    X = np.atleast_1d(np.asarray(position, dtype=float))
+    T = np.atleast_1d(np.asarray(normalised_time, dtype=float))
+    L = float(electrotonic_length)
+    B = float(end_conductance_ratio)
+    y = float(soma_ratio)
+    X0 = float(source)
+    shp = Shape(shape, duration, time_to_peak)
+    if shape not in ("step", "pulse", "alpha"):
+        raise InputError(f"shape must be step, pulse or alpha, got {shape!r}")
+    out = np.zeros((T.size, X.size))
+    bound = np.zeros((T.size, X.size))
+    plan = _Plan()
+    live = np.flatnonzero(T > 0)
+    if math.isinf(L):
+        if y != 0:
+            raise InputError("a soma needs a finite cylinder")
+        Tl = T[live]
+        out[live] = _shape_images(shp, X, X0, Tl, math.inf, 1.0, 0)
+        return out, bound, "closed form (semi-infinite cable: source and its image in the sealed end)"
+    w_s, w_k = end_weights(B)
+    images_exact = y == 0 and (w_k == 0 or w_s == 0)
+    leaky = y == 0 and not images_exact
+    sign = 1.0 if w_k == 0 else -1.0
+    Tl = T[live]
+    mode_bound = current_bound(shp, L)
+    tol = float(tolerance)  # in units of the kernel's scale, so it may exceed 1
+    if not (math.isfinite(tol) and tol > 0):
+        raise InputError(f"tolerance must be finite and positive, got {tolerance!r}")
+    n_need, _ = modes_needed(Tl, tol, L, mode_bound)
+    use_eigen = np.ones(Tl.size, dtype=bool)
+    if images_exact or leaky:
+        tails = [image_tail]
+        reflections = reflections_needed(Tl, L, tol / (2 if shp.kind == "pulse" else 1), tails[0])
+        cost_images = (2 * reflections + 1) * 2 * _IMAGE_COST * (2 if leaky else 1) * (2 if shp.kind == "pulse" else 1)
+        cost_images *= 16 if shp.kind == "alpha" else 1
+        prefer = cost_images < n_need
+        for k in np.unique(reflections[prefer]).astype(int):
+            idx = np.flatnonzero(prefer & (reflections == k))
+            Tk = Tl[idx]
+            tail = image_tail(np.float64(k), Tk, L)
+            if shp.kind == "pulse":
+                tail = tail + image_tail(np.float64(k), Tk - shp.duration, L)
+            if images_exact:
+                values = _shape_images(shp, X, X0, Tk, L, sign, k)
+                err = np.broadcast_to(tail[:, None], values.shape)
+                accepted = np.ones(idx.size, dtype=bool)
+            else:
+                upper = _shape_images(shp, X, X0, Tk, L, 1.0, k)
+                lower = _shape_images(shp, X, X0, Tk, L, -1.0, k)
+                values = 0.5 * (upper + lower)
+                err = 0.5 * np.abs(upper - lower) + tail[:, None]
+                accepted = np.all(err <= tol, axis=1)
+            rows = live[idx[accepted]]
+            out[rows] = values[accepted]
+            bound[rows] = err[accepted]
+            use_eigen[idx[accepted]] = False
+        img_T = Tl[~use_eigen]
+        plan.add("sealed/killed bracket of images" if leaky else "images", img_T,
+                 int(reflections[~use_eigen].max()) if img_T.size else 0, "reflections per side")
+    idx = np.flatnonzero(use_eigen)
+    if idx.size:
+        Te = Tl[idx]
+        if np.any(n_need[idx] > MAX_MODES):
+            worst = Te[n_need[idx] > MAX_MODES].min()
+            raise ConvergenceError(f"the eigen-series needs more than {MAX_MODES} modes at T = {worst:.3g} "
+                                   f"for tolerance {tol:.3g}; choose a later time or a looser tolerance")
+        count = int(n_need[idx].max())
+        alpha = eigen._eigenvalues(L, B, count, "sealed", y)
+        mu = 1.0 + alpha**2
+        residues = eigen.mode_residues(alpha, X, X0, L, soma_ratio=y)  # (count, nX)
+        steady = steady_green(X, X0, L, B, y)
+        Tc = Te[:, None]
+        if shp.kind == "step":
+            values = steady[None, :] - _series(lambda s: np.exp(-mu[s] * Tc) / mu[s], residues, Te, count)
+        elif shp.kind == "pulse":
+            D = shp.duration
+            after = Tc > D
+            values = np.where(after, 0.0, steady[None, :]) - _series(
+                lambda s: np.where(after, np.expm1(-mu[s] * D) * np.exp(-mu[s] * np.where(after, Tc - D, 0.0)),
+                                   np.exp(-mu[s] * Tc)) / mu[s], residues, Te, count)
+        else:
+            a = shp.time_to_peak
+            f = shp.value(Te)[:, None]
+            values = f * steady[None, :] - _series(lambda s: f / mu[s] - _alpha_mode(mu[s], Tc, a), residues, Te,
+                                                   count)
+        out[live[idx]] = values
+        bound[live[idx]] = mode_bound(count, Te)[:, None]
+        plan.add("eigen-series", Te, count, "modes")
+    return out, bound, plan.text()
+
+
+def clamp_response(position: ArrayLike, normalised_time: ArrayLike, electrotonic_length: float,
+                   end_conductance_ratio: float = 0.0, *, tolerance: float = 1e-10) -> tuple[Array, Array, str]:
+    r"""Voltage :math:`V/V_0` on the grid T × X for a clamp step :math:`V_0` at X = 0 of a cylinder.
+
+    .. math:: \frac{V}{V_0} = \frac{\cosh(L-X) + B\sinh(L-X)}{\cosh L + B\sinh L}
+              - \sum_n \frac{\alpha_n\sin\alpha_nX}{(1+\alpha_n^2)N_n}e^{-(1+\alpha_n^2)T}
+
+    (eigen-series, large T) or the images of :func:`semi_infinite_clamp` reflected at the far
+    end (small T; a leaky end is bracketed between killed and sealed), per T, with truncation
+    error ≤ ``tolerance``.
+
+    Returns
+    -------
+    (voltage, bound, method) as in :func:`current_response`, in units of :math:`V_0`.
+
+    References
+    ----------
+    Rall W (1969) Biophys. J. 9:1483 (voltage-clamp time constants); Jack, Noble & Tsien
+    (1975) ch. 3 (recalled from memory).
+    """
+    X = np.atleast_1d(np.asarray(position, dtype=float))
+    T = np.atleast_1d(np.asarray(normalised_time, dtype=float))
+    L = float(electrotonic_length)
+    B = float(end_conductance_ratio)
+    tol = float(tolerance)
+    out = np.zeros((T.size, X.size))
+    bound = np.zeros((T.size, X.size))
+    live = np.flatnonzero(T > 0)
+    Tl = T[live]
+    if math.isinf(L):
+        out[live] = semi_infinite_clamp(X[None, :], Tl[:, None])
+        return out, bound, "closed form (semi-infinite cable)"
+    w_s, w_k = end_weights(B)
+    leaky = w_s != 0 and w_k != 0
+    sigma = 1.0 if w_k == 0 else -1.0
+    plan = _Plan()
+
+    def mode_bound(n: int, t: Array) -> Array:
+        return eigen.tail_bound(n, t, L, kind="clamp", origin="clamped")
+
+    n_need, _ = modes_needed(Tl, tol, L, mode_bound)
+    reflections = reflections_needed(Tl, L, tol, clamp_image_tail)
+    prefer = 2 * reflections * _IMAGE_COST * (2 if leaky else 1) < n_need
+    use_eigen = np.ones(Tl.size, dtype=bool)
+    for k in np.unique(reflections[prefer]).astype(int):
+        idx = np.flatnonzero(prefer & (reflections == k))
+        Tk = Tl[idx]
+        tail = clamp_image_tail(np.float64(k), Tk, L)[:, None]
+        if leaky:
+            upper = _clamp_images(X, Tk, L, 1.0, k)
+            lower = _clamp_images(X, Tk, L, -1.0, k)
+            values = 0.5 * (upper + lower)
+            err = 0.5 * np.abs(upper - lower) + tail
+            accepted = np.all(err <= tol, axis=1)
+        else:
+            values = _clamp_images(X, Tk, L, sigma, k)
+            err = np.broadcast_to(tail, values.shape)
+            accepted = np.ones(idx.size, dtype=bool)
+        out[live[idx[accepted]]] = values[accepted]
+        bound[live[idx[accepted]]] = err[accepted]
+        use_eigen[idx[accepted]] = False
+    plan.add("sealed/killed bracket of images" if leaky else "images", Tl[~use_eigen],
+             int(reflections[~use_eigen].max()) if (~use_eigen).any() else 0, "reflections")
+    idx = np.flatnonzero(use_eigen)
+    if idx.size:
+        Te = Tl[idx]
+        if np.any(n_need[idx] > MAX_MODES):
+            worst = Te[n_need[idx] > MAX_MODES].min()
+            raise ConvergenceError(f"the eigen-series needs more than {MAX_MODES} modes at T = {worst:.3g}")
+        count = int(n_need[idx].max())
+        alpha = eigen._eigenvalues(L, B, count, "clamped", 0.0)
+        mu = 1.0 + alpha**2
+        coefficients = eigen.clamp_mode_coefficients(alpha, X, L)
+        Tc = Te[:, None]
+        values = clamp_steady(X, L, B)[None, :] - _series(lambda s: np.exp(-mu[s] * Tc), coefficients, Te, count)
+        out[live[idx]] = values
+        bound[live[idx]] = mode_bound(count, Te)[:, None]
+        plan.add("eigen-series", Te, count, "modes")
+    return out, bound, plan.text()

@@ -1,0 +1,242 @@
+r"""Closed-form kernels of passive cables, dimensionless: infinite-cable responses and steady states.
+
+The solutions every time course is built from: the point source of an infinite cable for a
+current step (Hodgkin & Rushton 1946) and for an alpha current, the voltage-clamped
+semi-infinite cable, and the steady Green's function of a finite cylinder with a soma. Written
+with the scaled complementary error function and :math:`e^{-2(\cdot)}` so that they stay finite
+for any X and T. X = x/λ, T = t/τm, L = ℓ/λ.
+
+Every result assumes a passive, linear membrane with uniform Rm, Ri and Cm.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from .cable import voltage_ratio
+from .errors import InputError
+
+__all__ = [
+    "clamp_steady",
+    "end_weights",
+    "hodgkin_rushton",
+    "point_source_alpha",
+    "point_source_step",
+    "semi_infinite_clamp",
+    "steady_green",
+]
+
+Array = NDArray[np.float64]
+
+_CHUNK = 1 << 22  # elements per temporary array
+
+
+# --------------------------------------------------------------------------------------
+# closed-form kernels (dimensionless)
+# --------------------------------------------------------------------------------------
+def _erfc_parts(distance: ArrayLike, T: ArrayLike) -> tuple[Array, Array, Array, Array, Array]:
+    """u = d/(2√T), z = u - √T, w = u + √T, E = exp(-d²/(4T) - T), e^{-d} for T > 0."""
+    d = np.abs(np.asarray(distance, dtype=float))
+    T = np.asarray(T, dtype=float)
+    root = np.sqrt(T)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        u = d / (2.0 * root)
+    z = u - root
+    w = u + root
+    big_e = np.exp(-(u * u + T))
+    return d, z, w, big_e, np.exp(-d)
+
+
+def point_source_step(distance: ArrayLike, normalised_time: ArrayLike) -> Array:
+    r"""Infinite cable, current step I at one point: :math:`V/(I R_\infty)` at distance |X - X0|.
+
+    .. math:: \frac{V}{IR_\infty} = \frac14\left[e^{-d}\,\mathrm{erfc}\!\left(\frac{d}{2\sqrt T}
+              - \sqrt T\right) - e^{d}\,\mathrm{erfc}\!\left(\frac{d}{2\sqrt T} + \sqrt T\right)\right]
+
+    evaluated as :math:`\tfrac14 e^{-d^2/4T - T}[\mathrm{erfcx}(z) - \mathrm{erfcx}(w)]`
+    (z ≥ 0) or :math:`\tfrac14[2e^{-d} - e^{-d^2/4T-T}(\mathrm{erfcx}(-z) + \mathrm{erfcx}(w))]`
+    (z < 0), finite for every d ≥ 0 and T. Final value :math:`e^{-d}/2`; 0 for T ≤ 0.
+
+    Parameters
+    ----------
+    distance : d = |X - X0|, dimensionless
+    normalised_time : T = t/τm
+
+    References
+    ----------
+    Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444; Jack, Noble & Tsien (1975) ch. 3
+    (recalled from memory).
+    """
+    from scipy.special import erfcx
+
+    T = np.asarray(normalised_time, dtype=float)
+    positive = T > 0
+    Tp = np.where(positive, T, 1.0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        _, z, w, big_e, e_d = _erfc_parts(distance, Tp)
+        neg = z < 0
+        za = np.abs(z)
+        value = np.where(neg, 2.0 * e_d - big_e * (erfcx(za) + erfcx(w)), big_e * (erfcx(za) - erfcx(w)))
+    return np.where(positive, 0.25 * value, 0.0)
+
+
+def hodgkin_rushton(position: ArrayLike, normalised_time: ArrayLike) -> Array:
+    r"""Hodgkin-Rushton step response relative to its final value at the injection site.
+
+    .. math:: \frac{V(X,T)}{V(0,\infty)} = \frac12\left[e^{-X}\mathrm{erfc}\!\left(\frac{X}{2\sqrt T}
+              - \sqrt T\right) - e^{X}\mathrm{erfc}\!\left(\frac{X}{2\sqrt T} + \sqrt T\right)\right]
+
+    for a semi-infinite cable injected at its sealed end, or an infinite cable injected at X = 0
+    (|X| then). At X = 0 it is :math:`\mathrm{erf}\sqrt T` (0.8427 at T = 1).
+
+    References
+    ----------
+    Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444 (recalled from memory).
+    """
+    return 2.0 * point_source_step(position, normalised_time)
+
+
+def semi_infinite_clamp(distance: ArrayLike, normalised_time: ArrayLike) -> Array:
+    r"""Semi-infinite cable clamped to :math:`V_0` at X = 0 from T = 0: :math:`V/V_0` at X = d.
+
+    .. math:: \frac{V}{V_0} = \frac12\left[e^{-d}\,\mathrm{erfc}\!\left(\frac{d}{2\sqrt T} - \sqrt T\right)
+              + e^{d}\,\mathrm{erfc}\!\left(\frac{d}{2\sqrt T} + \sqrt T\right)\right]
+
+    (scaled-erfc form as in :func:`point_source_step`). Exactly 1 at d = 0 for T > 0; 0 for T ≤ 0.
+
+    References
+    ----------
+    Jack, Noble & Tsien (1975) ch. 3; Rall W (1969) Biophys. J. 9:1483 (voltage clamp)
+    (both recalled from memory).
+    """
+    from scipy.special import erfcx
+
+    T = np.asarray(normalised_time, dtype=float)
+    positive = T > 0
+    Tp = np.where(positive, T, 1.0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        _, z, w, big_e, e_d = _erfc_parts(distance, Tp)
+        za = np.abs(z)
+        value = np.where(z < 0, 2.0 * e_d - big_e * (erfcx(za) - erfcx(w)), big_e * (erfcx(za) + erfcx(w)))
+    return np.where(positive, 0.5 * value, 0.0)
+
+
+_CIRCLE = 32  # trapezoid nodes for the Cauchy derivative in point_source_alpha
+
+
+def point_source_alpha(distance: ArrayLike, normalised_time: ArrayLike, time_to_peak: float) -> Array:
+    r"""Infinite cable, alpha current :math:`I(T) = I_{peak}(T/a)e^{1-T/a}` at one point: :math:`V/(I_{peak}R_\infty)`.
+
+    The convolution of the point-source impulse response with the alpha function in closed form:
+    with :math:`b = 1 - 1/a`, :math:`u = d/(2\sqrt T)` and :math:`r = \sqrt b`,
+
+    .. math:: \frac{V}{I_{peak}R_\infty} = \frac{e}{2a}\,\frac{\partial\Psi}{\partial b},\qquad
+              \Psi(b) = e^{-T-u^2}\,\frac{\mathrm{erfcx}(u - r\sqrt T) - \mathrm{erfcx}(u + r\sqrt T)}{2r}
+
+    which is the inverse Laplace transform of
+    :math:`(e/a)\,e^{-d\sqrt{1+p}}/(2\sqrt{1+p}\,(p + 1/a)^2)`. Ψ is an entire function of b (even in
+    r), so its derivative is taken exactly by the trapezoid rule on a circle around b (Cauchy's
+    formula; 32 nodes give rounding-level accuracy), which also covers a = 1 (b = 0) and b < 0
+    (complex r, Faddeeva function :func:`scipy.special.wofz`).
+
+    Parameters
+    ----------
+    distance : d = |X - X0|
+    normalised_time : T = t/τm
+    time_to_peak : a = t_peak/τm > 0
+
+    References
+    ----------
+    Rall W (1967) J. Neurophysiol. 30:1138 (alpha-function input, recalled from memory);
+    Abramowitz & Stegun (1964) 29.3.88 (inverse Laplace transform of
+    :math:`e^{-k\sqrt p}/(\sqrt p(p - b))`, recalled from memory).
+    """
+    from scipy.special import wofz
+
+    a = float(time_to_peak)
+    if not a > 0:
+        raise InputError(f"time to peak must be positive, got {time_to_peak!r}")
+    d_all, T_all = np.broadcast_arrays(np.abs(np.asarray(distance, dtype=float)),
+                                       np.asarray(normalised_time, dtype=float))
+    out = np.zeros(d_all.shape)
+    positive = T_all > 0
+    d = d_all[positive]
+    T = T_all[positive]
+    if d.size == 0:
+        return out
+    b0 = 1.0 - 1.0 / a
+    theta = 2 * np.pi * (np.arange(_CIRCLE) + 0.5) / _CIRCLE
+    node = np.exp(1j * theta)[:, None]
+    result = np.empty(d.size)
+    step = max(1, _CHUNK // (4 * _CIRCLE))
+    for s in range(0, d.size, step):
+        dd = d[s:s + step][None, :]
+        tt = T[s:s + step][None, :]
+        # circle radius: keep |b| T of order 1 on the circle and away from b = 0
+        radius = np.where(abs(b0) * tt < 0.5, 1.0 / tt, np.minimum(abs(b0) / 2, 1.0 / tt))
+        b = b0 + radius * node
+        r = np.sqrt(b)
+        root = np.sqrt(tt)
+        u = dd / (2 * root)
+        scale = np.exp(-(tt + u * u))
+        with np.errstate(over="ignore", invalid="ignore"):
+            z1 = u - r * root
+            z2 = u + r * root
+            first = np.where(z1.real >= 0, scale * wofz(1j * z1),
+                             2.0 * np.exp((b - 1.0) * tt - dd * r) - scale * wofz(-1j * z1))
+            second = scale * wofz(1j * z2)  # Re z2 ≥ 0 always
+            psi = (first - second) / (2 * r)
+        derivative = np.mean(psi * np.conj(node), axis=0) / radius[0]
+        result[s:s + step] = (math.e / (2 * a)) * derivative.real
+    out[positive] = result
+    return out
+
+
+# --------------------------------------------------------------------------------------
+# steady states
+# --------------------------------------------------------------------------------------
+def end_weights(end_conductance_ratio: float) -> tuple[float, float]:
+    b = float(end_conductance_ratio)
+    return (1.0, b) if b <= 1.0 else (1.0 / b, 1.0)
+
+
+def steady_green(position: ArrayLike, source: ArrayLike, electrotonic_length: float,
+                 end_conductance_ratio: float = 0.0, soma_ratio: float = 0.0) -> Array:
+    r"""Steady voltage at X for a steady current I at X0, in units of :math:`IR_\infty`.
+
+    .. math:: g(X, X_0) = \frac{\varphi(X_<)\,\psi(X_>)}{y\,\psi(0) - \psi'(0)},\quad
+              \varphi = \cosh X + y\sinh X,\quad \psi = \cosh(L-X) + B\sinh(L-X)
+
+    with a soma of ratio :math:`y = G_S/G_\infty` at X = 0 (y = 0: sealed origin). Written with
+    :math:`e^{-2(\cdot)}` so that any L (including inf) stays finite. With y = 0 it equals
+    :func:`cabletheory.cable.transfer_resistance` / R∞.
+
+    References
+    ----------
+    Rall W (1959) Exp. Neurol. 1:491; Rall & Rinzel (1973) Biophys. J. 13:648.
+    """
+    x = np.asarray(position, dtype=float)
+    x0 = np.asarray(source, dtype=float)
+    L = float(electrotonic_length)
+    y = float(soma_ratio)
+    near = np.minimum(x, x0)
+    far = np.maximum(x, x0)
+    w_s, w_k = end_weights(end_conductance_ratio)
+    # e = exp(-2u) and 1 - e = -expm1(-2u): the latter keeps short cables (L -> 0) accurate
+    e_near, d_near = np.exp(-2 * near), -np.expm1(-2 * near)
+    rest = np.inf if math.isinf(L) else L - far
+    e_rest, d_rest = np.exp(-2 * np.asarray(rest)), -np.expm1(-2 * np.asarray(rest))
+    e_l, d_l = math.exp(-2 * L), -math.expm1(-2 * L)
+    phi = 0.5 * ((1 + e_near) + y * d_near)
+    psi = 0.5 * (w_s * (1 + e_rest) + w_k * d_rest)
+    wronskian = 0.5 * (y * (w_s * (1 + e_l) + w_k * d_l) + (w_s * d_l + w_k * (1 + e_l)))
+    return np.exp(near - far) * phi * psi / wronskian
+
+
+def clamp_steady(position: Array, L: float, B: float) -> Array:
+    """V(X)/V(0) for a clamp at X = 0: (cosh(L-X) + B sinh(L-X))/(cosh L + B sinh L)
+    (:func:`cabletheory.cable.voltage_ratio`)."""
+    return voltage_ratio(position, L, B)

@@ -1,0 +1,118 @@
+r"""Stimulus shapes in normalised time and the truncation bounds of the image sums and eigen-series.
+
+One place for the rules that decide how many terms an exact time course needs: the float path
+(:mod:`cabletheory.finite_cable`, :mod:`cabletheory.transient`) and the high-precision path
+(:mod:`cabletheory.precise`) both take their term counts from here, so that neither imports the
+other. Everything is dimensionless: T = t/τm, L = ℓ/λ, voltages in units of :math:`IR_\infty`
+(current input) or of the clamp step.
+
+* images: after K reflections per side, the point-source images beyond are bounded by
+  :math:`4e^{-(KL)^2/T}[\sqrt{T/\pi} + T/(4L)]` (:func:`image_tail`), the clamp images by
+  :math:`2e^{-(KL)^2/T}[1 + \sqrt T/(L\sqrt\pi)]` (:func:`clamp_image_tail`);
+* eigen-series: the tail bounds of :func:`cabletheory.eigen.tail_bound`, combined for a pulse
+  and an alpha current in :func:`current_bound`.
+
+References
+----------
+Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444; Rall W (1969) Biophys. J. 9:1483;
+Jack JJB, Noble D & Tsien RW (1975) Electric Current Flow in Excitable Cells, ch. 3 (images,
+recalled from memory).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from . import eigen
+
+__all__ = [
+    "MAX_MODES",
+    "Shape",
+    "clamp_image_tail",
+    "current_bound",
+    "image_tail",
+    "modes_needed",
+    "reflections_needed",
+]
+
+Array = NDArray[np.float64]
+
+MAX_MODES = 200_000  # eigen-series longer than this are refused (ConvergenceError)
+
+
+@dataclass(frozen=True, slots=True)
+class Shape:
+    kind: str  # "step", "pulse" or "alpha"
+    duration: float = 0.0  # pulse, in τm
+    time_to_peak: float = 0.0  # alpha, in τm
+
+    def value(self, T: Array) -> Array:
+        """Input current at T in units of the amplitude (peak for alpha)."""
+        if self.kind == "step":
+            return (T > 0).astype(float)
+        if self.kind == "pulse":
+            return ((T > 0) & (T <= self.duration)).astype(float)  # noqa: SIM300
+        a = self.time_to_peak
+        return np.where(T > 0, (T / a) * np.exp(1 - T / a), 0.0)
+
+    def slope_bound(self, T: Array) -> Array:
+        """max |dI/dT| over [T/2, T] (alpha only), in amplitude per τm."""
+        a = self.time_to_peak
+
+        def g(s: Array) -> Array:
+            return np.abs(1 - s / a) * np.exp(1 - s / a) / a
+
+        inside = (T / 2 <= 2 * a) & (2 * a <= T)  # noqa: SIM300
+        return np.maximum(np.maximum(g(T / 2), g(T)), np.where(inside, g(np.full_like(T, 2 * a)), 0.0))
+
+
+def image_tail(K: Array | float, T: Array, L: float) -> Array:
+    """Bound on the point-source images with |k| > K (k-th reflection pair at distance ≥ 2KL)."""
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        return np.where(T > 0, 4 * np.exp(-(K * L) ** 2 / T) * (np.sqrt(T / np.pi) + T / (4 * L)), 0.0)
+
+
+def clamp_image_tail(K: Array | float, T: Array, L: float) -> Array:
+    """Bound on the clamp images with k ≥ K (distances ≥ 2KL)."""
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        return np.where(T > 0, 2 * np.exp(-(K * L) ** 2 / T) * (1 + np.sqrt(T) / (L * np.sqrt(np.pi))), 0.0)
+
+
+def reflections_needed(T: Array, L: float, tol: float, tail) -> Array:
+    """Smallest K ≥ 1 per T with tail(K, T) ≤ tol."""
+    K = np.ones_like(T)
+    for _ in range(200):
+        bad = tail(K, T, L) > tol
+        if not bad.any():
+            break
+        # jump close to the answer: (KL)^2 ≥ T log(prefactor/tol)
+        guess = np.ceil(np.sqrt(np.maximum(T * np.log(max(1e-300, 1.0 / tol) * 4 * (1 + T)), 0)) / L)
+        K = np.where(bad, np.maximum(K + 1, guess), K)
+    return K
+
+
+def modes_needed(T: Array, tol: float, L: float, bound) -> tuple[Array, Array]:
+    """Smallest mode count N per T with bound(N, T) ≤ tol (N ≤ MAX_MODES), and that bound."""
+    candidates = np.unique(np.round(np.geomspace(1, MAX_MODES, 90)).astype(int))
+    need = np.full(T.shape, MAX_MODES + 1)
+    achieved = np.full(T.shape, np.inf)
+    for n in candidates[::-1]:
+        b = bound(int(n), T)
+        ok = b <= tol
+        need = np.where(ok, n, need)
+        achieved = np.where(ok, b, achieved)
+    return need, achieved
+
+
+def current_bound(shape: Shape, L: float):
+    def bound(n: int, T: Array) -> Array:
+        if shape.kind == "step":
+            return eigen.tail_bound(n, T, L, kind="step")
+        if shape.kind == "pulse":
+            return eigen.tail_bound(n, np.where(T > shape.duration, T - shape.duration, T), L, kind="step")  # noqa: SIM300
+        return (2 * eigen.tail_bound(n, T / 2, L, kind="step")
+                + eigen.tail_bound(n, T, L, kind="smooth", rate=1.0) * shape.slope_bound(T))
+    return bound

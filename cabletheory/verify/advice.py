@@ -1,0 +1,484 @@
+r"""Discretisation advice: the compartments a target accuracy needs, and the time step.
+
+:func:`advise_cable` and :func:`advise_tree` find the segments per section that meet a target
+error in a chosen output, using the exact answer and the reference discretisation of
+:mod:`cabletheory.compartment`, beside the common rule of thumb ([CP]: segments no longer than
+0.1 λ at 100 Hz) and the error that rule gives; for a time course also the largest time step of
+backward Euler or Crank–Nicolson (:class:`StepAdvice`), predicted from the scheme's order,
+measured, and verified against the exact course, beside a common fixed step ([CP]).
+
+Every exact answer assumes a passive, linear membrane with uniform properties; so does every
+verdict. A simulator with active conductances is outside what this package can check.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from .. import cable as cb
+from .. import compartment as cp
+from ..errors import ConvergenceError, InputError
+
+__all__ = [
+    "OUTPUTS",
+    "RULE_STEP",
+    "Advice",
+    "StepAdvice",
+    "advise_cable",
+    "advise_tree",
+    "tree_input_admittance",
+]
+
+Array = NDArray[np.float64]
+
+
+# ======================================================================================
+# discretisation advice
+# ======================================================================================
+OUTPUTS: dict[str, str] = {
+    "input-resistance": "steady input resistance at the origin (relative error)",
+    "attenuation": "steady voltage at a site per voltage at the origin, for current at the origin "
+                   "(relative error)",
+    "impedance": "input impedance at the origin at a frequency (relative error of the complex value)",
+    "time-course": "voltage at a site during a current step at the origin (max error over time, relative "
+                   "to the peak)",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class StepAdvice:
+    """The largest time step Δt for a time course, with the segments of the same advice.
+
+    The target is split: ``space_target`` (segments, Δt negligible) plus ``time_target`` (Δt,
+    measured against a time-converged solve with the same segments). The fully discrete error
+    is the sum of the two parts, so by the triangle inequality it stays within their sum, the
+    whole target; ``error`` is that total, measured against the exact course. Every error is
+    the maximum over the sample times, relative to the peak exact voltage.
+    """
+
+    scheme: str  # key of compartment.SCHEMES
+    order: int  # theoretical order in Δt (1 backward Euler, 2 Crank–Nicolson; Crank & Nicolson 1947)
+    space_target: float  # relative error budget given to the segments
+    time_target: float  # relative error budget given to the time step
+    step: float  # s, recommended Δt = output_spacing / divisions
+    divisions: int  # steps per output spacing
+    output_spacing: float  # s, the largest step that divides every sample time
+    last_time: float  # s, the end of the output window (the step is at t = 0)
+    samples: int  # number of sample times
+    time_error: float  # relative time error at ``step`` (against the time-converged solve)
+    error: float  # relative total error at (segments, step) against the exact course (verified)
+    limited_by_output: bool  # True: the output spacing itself meets the time budget
+    step_estimate: float | None  # s, if limited: Δt the order predicts for the budget (not verified)
+    reference_step: float  # s, Δt of the time-converged Crank–Nicolson solve
+    reference_error: float  # relative time error of that solve (Richardson estimate)
+    solves: int  # integrations spent on the time step (reference, search, rule)
+    rule_step: float  # s, the rule of thumb's fixed step
+    rule_error: float | None  # relative total error at (segments, rule_step); None if it does not
+    #                           divide the sample times
+
+
+@dataclass(frozen=True, slots=True)
+class Advice:
+    """Segments per section for a target error in one output, beside the rule of thumb.
+
+    Errors are relative (see :data:`OUTPUTS`) and measured: the reference discretisation
+    with that many segments is solved and compared with the exact answer.
+    """
+
+    output: str
+    target: float  # relative error
+    exact_value: complex  # exact output (Ω for resistance/impedance, 1 for attenuation, V for time course)
+    segments: NDArray[np.int64]  # per section, to meet the target
+    error: float  # relative error with ``segments``
+    rule_segments: NDArray[np.int64]  # per section, by the rule of thumb
+    rule_error: float  # relative error with ``rule_segments``
+    rule_fraction: float  # segment length as a fraction of λ_f
+    rule_frequency: float  # Hz
+    length_constants: Array  # m, per section (steady λ)
+    ac_length_constants: Array  # m, per section, at ``rule_frequency``
+    electrotonic_lengths: Array  # per section
+    site: float | None = None  # m, for "attenuation" and "time-course"
+    frequency: float | None = None  # Hz, for "impedance"
+    step: float | None = None  # s, Δt used for the time course (fine enough to be negligible)
+    time_step: StepAdvice | None = None  # for "time-course": the largest Δt for the time share
+
+
+def tree_input_admittance(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike,
+                          membrane_resistivity: float, axial_resistivity: float, membrane_capacitance: float,
+                          *, frequency: float = 0.0, end_conductances: ArrayLike | None = None,
+                          soma_area: float = 0.0) -> complex:
+    r"""Exact input admittance (S) at the root of a tree of uniform cylinders.
+
+    Each section, loaded at its far end by the admittance :math:`Y_L` of its children (and
+    any end conductance), presents at its near end
+
+    .. math:: Y_{in} = Y_\infty \frac{Y_L + Y_\infty \tanh qL}{Y_\infty + Y_L \tanh qL},
+              \qquad Y_\infty = G_\infty q,\; q = \sqrt{1 + i\omega\tau_m},
+
+    and the root sums the sections attached to it plus the soma's :math:`(A/R_m)(1 + i\omega\tau_m)`.
+
+    References
+    ----------
+    Rall W (1959) Exp. Neurol. 1:491 (steady input conductance of branched trees); Rall &
+    Rinzel (1973) Biophys. J. 13:648; Koch C (1999) ch. 3 (recalled from memory).
+    """
+    parent = np.asarray(parents, dtype=np.int64).ravel()
+    count = parent.size
+    ell = np.broadcast_to(np.asarray(lengths, dtype=float), (count,))
+    d = np.broadcast_to(np.asarray(diameters, dtype=float), (count,))
+    ends = np.zeros(count) if end_conductances is None else np.broadcast_to(
+        np.asarray(end_conductances, dtype=float), (count,))
+    tau = membrane_resistivity * membrane_capacitance
+    q = complex(cb.wavenumber(frequency, tau))
+    load = ends.astype(complex)
+    y_in = np.zeros(count, dtype=complex)
+    for i in range(count - 1, -1, -1):  # children come after their parents
+        y_inf = complex(cb.semi_infinite_input_conductance(membrane_resistivity, axial_resistivity, d[i])) * q
+        lam = float(cb.length_constant(membrane_resistivity, axial_resistivity, d[i]))
+        th = np.tanh(q * ell[i] / lam)
+        if np.isinf(load[i].real):
+            y_in[i] = y_inf / th  # killed end
+        else:
+            y_in[i] = y_inf * (load[i] + y_inf * th) / (y_inf + load[i] * th)
+        if parent[i] >= 0:
+            load[parent[i]] += y_in[i]
+    return complex(np.sum(y_in[parent == -1]) + soma_area / membrane_resistivity * q * q)
+
+
+def _relative(a: complex, b: complex) -> float:
+    return abs(a - b) / abs(b)
+
+
+def _numeric_admittance(c: cp.Compartments, frequency: float) -> complex:
+    import scipy.sparse
+    import scipy.sparse.linalg
+
+    free = ~np.asarray(c.held, dtype=bool)
+    omega = 2 * np.pi * frequency
+    m = (c.conductance + 1j * omega * scipy.sparse.diags(c.capacitance)).tocsc()[free][:, free]
+    rhs = np.zeros(int(free.sum()), dtype=complex)
+    rhs[0] = 1.0
+    v = scipy.sparse.linalg.spsolve(m.tocsc(), rhs)
+    return complex(1.0 / v[0])
+
+
+def _search(error_at: Callable[[NDArray[np.int64]], float], electrotonic: Array, target: float,
+            max_nodes: int) -> tuple[NDArray[np.int64], float]:
+    """Smallest uniform electrotonic spacing h (n_i = ceil(ΔX_i/h)) whose error meets ``target``.
+
+    Uses the second-order error model e ∝ h² to jump, then steps down until the measured
+    error is within the target, then bisects back up on h.
+    """
+
+    def counts(h: float) -> NDArray[np.int64]:
+        return np.maximum(1, np.ceil(electrotonic / h - 1e-9)).astype(np.int64)
+
+    h = float(np.max(electrotonic)) / 2
+    err = error_at(counts(h))
+    for _ in range(60):
+        if err <= target:
+            break
+        h *= min(0.9, 0.95 * math.sqrt(target / err)) if err > 0 else 0.5
+        n = counts(h)
+        if n.sum() > max_nodes:
+            raise ConvergenceError(f"a relative error of {target:.3g} needs more than {max_nodes} segments; "
+                                   "ask for a looser target")
+        err = error_at(n)
+    else:  # pragma: no cover - the h² model always converges within 60 steps
+        raise ConvergenceError(f"no segment count met the target {target:.3g}")
+    # the jump may overshoot: coarsen while the target is still met (at most a few tries)
+    best_n, best_err = counts(h), err
+    for factor in (1.5, 1.25, 1.1):
+        n = counts(h * factor)
+        if n.sum() < best_n.sum():
+            e = error_at(n)
+            if e <= target:
+                best_n, best_err, h = n, e, h * factor
+    return best_n, best_err
+
+
+MAX_SEGMENTS = 200_000
+
+
+def _rule(lengths: Array, diameters: Array, rm: float, ri: float, cm: float, fraction: float,
+          frequency: float) -> tuple[NDArray[np.int64], Array, Array]:
+    lam = cb.length_constant(rm, ri, diameters)
+    lam_f = cb.ac_length_constant(lam, frequency, rm * cm)
+    return cb.segments_needed(lengths, lam_f, fraction), np.asarray(lam, dtype=float), np.asarray(lam_f)
+
+
+def advise_tree(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike, membrane_resistivity: float,
+                axial_resistivity: float, membrane_capacitance: float, output: str, target: float, *,
+                end_conductances: ArrayLike | None = None, soma_area: float = 0.0, frequency: float = 100.0,
+                rule_fraction: float = 0.1, rule_frequency: float = 100.0) -> Advice:
+    """Segments per section of a tree for a target relative error at the root.
+
+    Outputs for trees: ``"input-resistance"`` and ``"impedance"`` (at ``frequency``), with
+    the exact value from :func:`tree_input_admittance`. Segments are spread with equal
+    electrotonic spacing, which is where the second-order error is even.
+    """
+    if output not in ("input-resistance", "impedance"):
+        raise InputError(f"output {output!r} is not available for a tree; choose input-resistance or impedance")
+    _check_target(target)
+    parent = np.asarray(parents, dtype=np.int64).ravel()
+    ell = np.broadcast_to(np.asarray(lengths, dtype=float), parent.shape).copy()
+    d = np.broadcast_to(np.asarray(diameters, dtype=float), parent.shape).copy()
+    f = frequency if output == "impedance" else 0.0
+    exact_y = tree_input_admittance(parent, ell, d, membrane_resistivity, axial_resistivity,
+                                    membrane_capacitance, frequency=f, end_conductances=end_conductances,
+                                    soma_area=soma_area)
+
+    def error_at(n: NDArray[np.int64]) -> float:
+        c = cp.discretise_tree(parent, ell, d, membrane_resistivity, axial_resistivity, membrane_capacitance,
+                               n, soma_area=soma_area or None, end_conductances=end_conductances)
+        return _relative(1.0 / _numeric_admittance(c, f), 1.0 / exact_y)
+
+    rule_n, lam, lam_f = _rule(ell, d, membrane_resistivity, axial_resistivity, membrane_capacitance,
+                               rule_fraction, rule_frequency)
+    electrotonic = ell / lam
+    n, err = _search(error_at, electrotonic, target, MAX_SEGMENTS)
+    return Advice(output=output, target=target, exact_value=1.0 / exact_y if output == "impedance"
+                  else complex((1.0 / exact_y).real), segments=n, error=err, rule_segments=rule_n,
+                  rule_error=error_at(rule_n), rule_fraction=rule_fraction, rule_frequency=rule_frequency,
+                  length_constants=lam, ac_length_constants=lam_f, electrotonic_lengths=electrotonic,
+                  frequency=f if output == "impedance" else None)
+
+
+def _check_target(target: float) -> None:
+    if not (math.isfinite(target) and 1e-9 <= target < 1):
+        raise InputError(f"target relative error must lie in [1e-9, 1), got {target!r}")
+
+
+SPACE_SHARE = 0.5  # fraction of a time-course target given to the segments; the rest goes to Δt
+RULE_STEP = 25e-6  # s: the fixed 25 µs step common in compartmental modelling [CP]
+REFERENCE_MARGIN = 50  # the time-converged reference may use 1/50 of the smaller share
+MAX_TIME_STEPS = 400_000  # time steps in one solve, at most
+
+
+def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: float | None = None,
+                 frequency: float = 100.0, soma_area: float = 0.0, rule_fraction: float = 0.1,
+                 rule_frequency: float = 100.0, exact_time_course: Callable[[Array], Array] | None = None,
+                 times: ArrayLike | None = None, scheme: str = "crank-nicolson", space_share: float = SPACE_SHARE,
+                 rule_step: float = RULE_STEP) -> Advice:
+    """Segments for one finite cylinder (input at its origin) to meet a target relative error.
+
+    Parameters
+    ----------
+    cylinder : the cable (finite length)
+    output : a key of :data:`OUTPUTS`
+    target : relative error, e.g. 0.01 for 1 %
+    site : m, where "attenuation" and "time-course" are read (default: the far end)
+    frequency : Hz, for "impedance"
+    soma_area : m², lumped soma at the origin ("input-resistance", "impedance", "time-course")
+    rule_fraction, rule_frequency : the rule of thumb (0.1 λ at 100 Hz, [CP])
+    exact_time_course : for "time-course", ``times -> exact V (V) at site`` for a 1 A step at
+        the origin (from :mod:`cabletheory.transient`); ``times`` in s are where it is sampled
+    scheme : for "time-course", the time scheme whose Δt is advised (a key of
+        :data:`cabletheory.compartment.SCHEMES`)
+    space_share : for "time-course", the fraction of ``target`` given to the segments; the rest
+        goes to the time step (default one half each)
+    rule_step : s, for "time-course", the rule of thumb's fixed Δt (25 µs, [CP])
+
+    Notes
+    -----
+    For "time-course" the segments meet ``space_share * target`` with Δt negligible, and
+    :attr:`Advice.time_step` holds the largest Δt that keeps the time error within the rest
+    (see :class:`StepAdvice`).
+    """
+    if output not in OUTPUTS:
+        raise InputError(f"output {output!r} is not one of {', '.join(OUTPUTS)}")
+    if not math.isfinite(cylinder.length):
+        raise InputError("advice needs a finite cable length")
+    _check_target(target)
+    rm, ri, cmem = cylinder.membrane_resistivity, cylinder.axial_resistivity, cylinder.membrane_capacitance
+    where = cylinder.length if site is None else float(site)
+    if not 0 <= where <= cylinder.length:
+        raise InputError(f"site {where!r} m lies outside the cable (0 to {cylinder.length!r} m)")
+    rule_n, lam, lam_f = _rule(np.array([cylinder.length]), np.array([cylinder.diameter]), rm, ri, cmem,
+                               rule_fraction, rule_frequency)
+    space_target = target
+    step = None
+    if output in ("input-resistance", "impedance"):
+        f = frequency if output == "impedance" else 0.0
+        exact: complex = 1.0 / tree_input_admittance([-1], [cylinder.length], [cylinder.diameter], rm, ri, cmem,
+                                                      frequency=f, end_conductances=[cylinder.end_conductance],
+                                                      soma_area=soma_area)
+        if output == "input-resistance":
+            exact = complex(exact.real)
+
+        def error_at(n: NDArray[np.int64]) -> float:
+            c = cp.discretise_cable(cylinder, int(n[0]), soma_area=soma_area or None)
+            return _relative(1.0 / _numeric_admittance(c, f), exact)
+    elif output == "attenuation":
+        X = where / cylinder.length_constant
+        exact = complex(cb.voltage_ratio(X, cylinder.electrotonic_length, cylinder.end_conductance_ratio))
+
+        def error_at(n: NDArray[np.int64]) -> float:
+            c = cp.discretise_cable(cylinder, int(n[0]))
+            unit = np.zeros(c.size)
+            unit[0] = 1.0
+            v = cp.steady_state(c, unit)
+            return _relative(complex(cp.sample(c, v, [where])[0] / v[0]), exact)
+    else:  # time course
+        if exact_time_course is None or times is None:
+            raise InputError("the time-course advice needs the exact solution (cabletheory.transient)")
+        cp.expected_order(scheme)  # names the scheme in the error if it is unknown
+        if not (math.isfinite(space_share) and 0 < space_share < 1):
+            raise InputError(f"space share of the target must lie strictly between 0 and 1, got {space_share!r}")
+        if not (math.isfinite(rule_step) and rule_step > 0):
+            raise InputError(f"rule-of-thumb time step must be a finite positive time in s, got {rule_step!r}")
+        t = np.asarray(times, dtype=float)
+        spacing = _output_spacing(t)
+        v_exact = np.asarray(exact_time_course(t), dtype=float)
+        peak = float(np.max(np.abs(v_exact)))
+        if not peak > 0:
+            raise InputError(f"the exact voltage at the site ({where!r} m) stays at rest (a killed end?), so a "
+                             "relative error means nothing there; choose another --read-at")
+        exact = complex(peak)
+        space_target = target * space_share
+        # a Crank–Nicolson Δt whose own time error is negligible beside both shares, found on a
+        # probe grid (the time error hardly depends on the segment count)
+        negligible = min(space_target, target - space_target) / REFERENCE_MARGIN
+        probe = cp.discretise_cable(cylinder, int(np.clip(rule_n[0], 8, 400)), soma_area=soma_area or None)
+        start = math.ceil(spacing / (cylinder.time_constant / 2000))  # first try: Δt near τm/2000
+        step = _time_converged(probe, where, t, spacing, start, peak, negligible)[1]
+        fine = step
+
+        def error_at(n: NDArray[np.int64]) -> float:
+            c = cp.discretise_cable(cylinder, int(n[0]), soma_area=soma_area or None)
+            return float(np.max(np.abs(_step_course(c, where, t, fine, "crank-nicolson") - v_exact))) / peak
+
+    electrotonic = np.array([cylinder.electrotonic_length])
+    n, err = _search(error_at, electrotonic, space_target, 20_000 if output == "time-course" else MAX_SEGMENTS)
+    time_step = None
+    if output == "time-course":
+        c = cp.discretise_cable(cylinder, int(n[0]), soma_area=soma_area or None)
+        time_step, err, step = _advise_step(c, where, t, v_exact, peak, spacing, round(spacing / fine), scheme,
+                                            space_target, target - space_target, negligible, rule_step)
+    return Advice(output=output, target=target, exact_value=exact, segments=n, error=err, rule_segments=rule_n,
+                  rule_error=error_at(rule_n), rule_fraction=rule_fraction, rule_frequency=rule_frequency,
+                  length_constants=lam, ac_length_constants=lam_f, electrotonic_lengths=electrotonic,
+                  site=where if output in ("attenuation", "time-course") else None,
+                  frequency=frequency if output == "impedance" else None, step=step, time_step=time_step)
+
+
+def _output_spacing(times: Array) -> float:
+    """The largest Δt that divides every sample time (s): their greatest common step."""
+    if times.ndim != 1 or times.size == 0 or not np.all(np.isfinite(times)):
+        raise InputError("the time course needs a list of finite sample times")
+    if np.any(times < 0) or np.any(np.diff(times) < 0):
+        raise InputError("sample times of the time course must be >= 0 (the step is at t = 0) and increasing")
+    positive = times[times > 0]
+    if positive.size == 0:
+        raise InputError("the time course needs at least one time after the onset")
+    # greatest common step of the sample times, on a 1e-12 s lattice
+    ticks = np.rint(positive / 1e-12).astype(np.int64)
+    spacing = int(np.gcd.reduce(ticks)) * 1e-12
+    if positive[-1] / spacing > MAX_TIME_STEPS:
+        raise InputError(f"the sample times share no step coarser than {spacing:.3g} s over {positive[-1]:.3g} s; "
+                         "give evenly spaced times such as '0:2:0.05 ms'")
+    return spacing
+
+
+def _divides(step: float, times: Array) -> bool:
+    counts = np.rint(times / step)
+    return bool(np.all(np.abs(counts * step - times) <= 1e-6 * step + 1e-12 * np.abs(times)))
+
+
+def _step_course(c: cp.Compartments, where: float, times: Array, step: float, scheme: str) -> Array:
+    """Voltage (V) at ``where`` for a 1 A step at node 0, by ``compartment.integrate`` at Δt = ``step``."""
+    if times[-1] / step > MAX_TIME_STEPS:
+        raise ConvergenceError(f"a time step of {step:.3g} s needs more than {MAX_TIME_STEPS} steps over "
+                               f"{times[-1]:.3g} s; ask for a looser target or a shorter time course")
+    current = np.zeros(c.size)
+    current[0] = 1.0
+    return cp.sample(c, cp.integrate(c, current, times, scheme=scheme, step=step), [where])[:, 0]
+
+
+def _time_converged(c: cp.Compartments, where: float, times: Array, spacing: float, divisions: int, peak: float,
+                    tolerance: float) -> tuple[Array, float, float, int]:
+    """A Crank–Nicolson solve whose own time error is at most ``tolerance`` (relative to ``peak``).
+
+    The error of the solve at Δt = h is estimated by Richardson's rule for a second-order
+    method, :math:`|V_h - V_{2h}| / (2^2 - 1)`; h = ``spacing / divisions`` (first try; made
+    even and refined until the estimate is within ``tolerance``). Returns the course, h (s),
+    the estimate and the number of solves.
+    """
+    divisions = 2 * max(1, math.ceil(divisions / 2))
+    for solves in range(2, 20, 2):
+        h = spacing / divisions
+        course = _step_course(c, where, times, h, "crank-nicolson")
+        estimate = float(np.max(np.abs(course - _step_course(c, where, times, 2 * h, "crank-nicolson")))) / 3 / peak
+        if estimate <= tolerance:
+            return course, h, estimate, solves
+        # second order: the error falls as h²
+        divisions = 2 * math.ceil(divisions * math.sqrt(estimate / tolerance) * 1.1 / 2)
+    raise ConvergenceError(f"no Crank–Nicolson step reached a time error of {tolerance:.3g}")  # pragma: no cover
+
+
+def _advise_step(c: cp.Compartments, where: float, times: Array, v_exact: Array, peak: float, spacing: float,
+                 divisions: int, scheme: str, space_target: float, time_target: float, negligible: float,
+                 rule_step: float) -> tuple[StepAdvice, float, float]:
+    """The largest Δt = spacing/m (m a whole number) whose time error meets ``time_target``.
+
+    The time error of a run at Δt is its distance from a time-converged run with the same
+    segments; it must stay within ``time_target`` less that run's own (estimated) time error.
+    The scheme's order p (e ∝ Δt^p; Crank & Nicolson 1947) predicts m from each measured error;
+    the prediction is measured, refined until it meets the budget, then coarsened by bisection
+    on m to the largest passing Δt (exact for m < 50, to 2 % above). Returns the advice, the
+    spatial error re-measured with the reference, and the reference step.
+    """
+    order = cp.expected_order(scheme)[1]
+    reference, ref_step, ref_error, solves = _time_converged(c, where, times, spacing, divisions, peak, negligible)
+    space_error = float(np.max(np.abs(reference - v_exact))) / peak
+    # the reference is itself off by up to ref_error: keep the time error against a fully
+    # converged run within the share (triangle inequality)
+    budget = time_target - ref_error
+    tried: dict[int, tuple[float, Array]] = {}
+
+    def measure(m: int) -> float:
+        course = _step_course(c, where, times, spacing / m, scheme)
+        tried[m] = (float(np.max(np.abs(course - reference))) / peak, course)
+        return tried[m][0]
+
+    def predicted(m: int) -> int:  # divisions for the budget if e ∝ (spacing/m)^p
+        e = tried[m][0]
+        return math.ceil(m * (e / budget) ** (1.0 / order)) if e > 0 else 1
+
+    m = 1
+    e = measure(m)
+    while e > budget:
+        m = max(m + 1, math.ceil(predicted(m) * 1.02))
+        e = measure(m)
+    lo = max((k for k, (ek, _) in tried.items() if ek > budget), default=0)  # largest failing m
+    first = True
+    while m - lo > 1 and m - lo > 0.02 * m:
+        guess = predicted(m) if first else (lo + m) // 2
+        first = False
+        guess = min(max(guess, lo + 1), m - 1)
+        if measure(guess) <= budget:
+            m = guess
+        else:
+            lo = guess
+    time_error, course = tried[m]
+    total = float(np.max(np.abs(course - v_exact))) / peak  # the verification: against the exact course
+    e1 = tried[1][0]
+    limited = m == 1
+    estimate = spacing * (budget / e1) ** (1.0 / order) if limited and e1 > 0 else None
+    rule_error = None
+    if _divides(rule_step, times):
+        rule = _step_course(c, where, times, rule_step, scheme)
+        rule_error = float(np.max(np.abs(rule - v_exact))) / peak
+        solves += 1
+    advice = StepAdvice(scheme=scheme, order=order, space_target=space_target, time_target=time_target,
+                        step=spacing / m, divisions=m, output_spacing=spacing, last_time=float(times[-1]),
+                        samples=int(times.size), time_error=time_error, error=total,
+                        limited_by_output=limited, step_estimate=estimate, reference_step=ref_step,
+                        reference_error=ref_error, solves=solves + len(tried), rule_step=rule_step,
+                        rule_error=rule_error)
+    return advice, space_error, ref_step

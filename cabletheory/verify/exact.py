@@ -1,0 +1,295 @@
+r"""Exact cases: a model and stimulus turned into an :class:`ExactCase` that any check can evaluate.
+
+:func:`sealed_step_voltage` / :func:`sealed_step_case` are a small independent series of our own
+(sealed cylinder, current step at the origin); :func:`transient_case` wraps every time course of
+:mod:`cabletheory.transient`; :func:`exact_case` chooses between them; :func:`describe_case` puts a
+case in words and numbers.
+
+Every exact answer assumes a passive, linear membrane with uniform properties; so does every
+verdict. A simulator with active conductances is outside what this package can check.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from .. import cable as cb
+from ..errors import ConvergenceError, InputError
+from .comparison import ExactCase
+
+__all__ = [
+    "describe_case",
+    "exact_case",
+    "sealed_step_case",
+    "sealed_step_voltage",
+    "transient_case",
+]
+
+Array = NDArray[np.float64]
+
+
+# ======================================================================================
+# a small exact case of our own: sealed cylinder, current step at the origin
+# ======================================================================================
+def sealed_step_voltage(cylinder: cb.Cylinder, amplitude: float, times: ArrayLike, positions: ArrayLike,
+                        tolerance: float = 1e-12) -> tuple[Array, Array]:
+    r"""Exact voltage of a finite sealed cylinder after a current step at X = 0.
+
+    .. math:: \frac{V(X,T)}{I R_\infty} = \frac{\cosh(L-X)}{\sinh L} - \frac{1}{L}\Big[e^{-T}
+              + 2\sum_{n\ge1} \frac{\cos(k_n X)\, e^{-(1+k_n^2)T}}{1+k_n^2}\Big], \quad k_n = n\pi/L
+
+    (eigenfunction series of Rall 1969, Biophys. J. 9:1483; at X = 0 this is the charging
+    curve in tests/test_verify.py). Truncation: the terms beyond N are bounded by
+    :math:`\frac{2}{L}\sum_{n>N} e^{-(1+k_n^2)T}/k_n^2 \le \frac{2L}{\pi^2 N} e^{-(1+k_{N+1}^2)T}`,
+    and N grows until that bound, times :math:`|I| R_\infty`, is below ``tolerance`` (V).
+
+    Parameters
+    ----------
+    cylinder : finite cylinder (its end conductance is ignored: sealed)
+    amplitude : I, A
+    times, positions : equal-shape arrays, s (>= 0) and m (in [0, ℓ])
+    tolerance : V, bound on the truncation error of each value
+
+    Returns
+    -------
+    (voltage, bound), both V, shaped like ``times``.
+    """
+    t = np.asarray(times, dtype=float)
+    x = np.asarray(positions, dtype=float)
+    L = cylinder.electrotonic_length
+    T = t / cylinder.time_constant
+    X = x / cylinder.length_constant
+    scale = abs(amplitude) * cylinder.semi_infinite_input_resistance
+    # steady part cosh(L-X)/sinh L, written with exp(-2·) (no overflow for long cables)
+    steady = np.exp(-X) * (1 + np.exp(-2 * (L - X))) / -np.expm1(-2 * L)  # expm1: short cables stay accurate
+    voltage = np.zeros(t.shape)
+    bound = np.zeros(t.shape)
+    live = T > 0  # at T = 0 the cable is at rest exactly
+    Tl, Xl = T[live], X[live]
+    total = np.exp(-Tl)
+    tail = np.full(Tl.shape, np.inf)
+    active = np.ones(Tl.shape, dtype=bool)
+    n0, chunk = 0, 64
+    while np.any(active):
+        if n0 > 10_000_000:
+            raise ConvergenceError(f"series did not reach {tolerance:.3g} V at the earliest times")
+        n = np.arange(n0 + 1, n0 + chunk + 1)
+        k = n * np.pi / L
+        ta, xa = Tl[active, None], Xl[active, None]
+        total[active] += np.sum(2 * np.cos(k * xa) * np.exp(-(1 + k * k) * ta) / (1 + k * k), axis=1)
+        last = n0 + chunk
+        tail[active] = scale * 2 / (np.pi**2 * last) * np.exp(-(1 + ((last + 1) * np.pi / L) ** 2) * Tl[active])
+        active &= tail > tolerance
+        n0, chunk = last, min(chunk * 2, 65536)
+    voltage[live] = amplitude * cylinder.semi_infinite_input_resistance * (steady[live] - total / L)
+    bound[live] = tail + 1e-15 * scale * np.maximum(1.0, 1.0 / L)  # truncation plus rounding
+    return voltage, bound
+
+
+def sealed_step_case(cylinder: cb.Cylinder, amplitude: float, tolerance: float = 1e-12) -> ExactCase:
+    """:func:`sealed_step_voltage` as an :class:`ExactCase` (current step at the origin, sealed end)."""
+
+    def evaluate(times: Array, positions: Array) -> tuple[Array, Array]:
+        return sealed_step_voltage(cylinder, amplitude, times, positions, tolerance)
+
+    params = {
+        "membrane_resistivity": (cylinder.membrane_resistivity, "ohm*m**2"),
+        "axial_resistivity": (cylinder.axial_resistivity, "ohm*m"),
+        "membrane_capacitance": (cylinder.membrane_capacitance, "F/m**2"),
+        "diameter": (cylinder.diameter, "m"),
+        "length": (cylinder.length, "m"),
+        "end_conductance": (0.0, "S"),
+        "stimulus_amplitude": (amplitude, "A"),
+        "stimulus_position": (0.0, "m"),
+    }
+    return ExactCase(evaluate=evaluate, description="finite cylinder, sealed far end, current step at the origin",
+                     method="eigenfunction series (Rall 1969) truncated by its tail bound",
+                     parameters=params, length=cylinder.length)
+
+
+# ======================================================================================
+# every case of cabletheory.transient as an exact case
+# ======================================================================================
+GRID_FACTOR = 4  # paired points are evaluated on their full time × site grid while it has at most
+# this many times as many points (plus GRID_SLACK); otherwise in blocks
+GRID_SLACK = 4096
+SCATTER_BLOCK = 256  # points per block when the pairs are scattered (each block: at most 256² values)
+
+
+def _um(x: float) -> str:
+    return f"{x * 1e6:.6g} µm"
+
+
+def _ms(t: float) -> str:
+    return f"{t * 1e3:.6g} ms"
+
+
+def describe_case(model: Any, stimulus: Any) -> tuple[str, str, dict[str, tuple[float, str]]]:
+    """A case of :mod:`cabletheory.transient` in words and numbers: its description (model and
+    stimulus), the stimulus's command-line word (step, pulse, alpha, clamp) and its parameters as
+    ``name -> (SI value, SI unit)``, shared by :func:`transient_case` and ``charge --csv``."""
+    from .. import transient as tr
+
+    infinite = isinstance(model, tr.InfiniteCable)
+    ball = isinstance(model, tr.BallAndStick)
+    cylinder = model.cylinder if ball else model
+    params: dict[str, tuple[float, str]] = {
+        "membrane_resistivity": (model.membrane_resistivity if infinite else cylinder.membrane_resistivity,
+                                 "ohm*m**2"),
+        "axial_resistivity": (model.axial_resistivity if infinite else cylinder.axial_resistivity, "ohm*m"),
+        "membrane_capacitance": (model.membrane_capacitance if infinite else cylinder.membrane_capacitance,
+                                 "F/m**2"),
+        "diameter": (model.diameter if infinite else cylinder.diameter, "m"),
+    }
+    if infinite:
+        shape = "infinite cable"
+    else:
+        params["length"] = (cylinder.length, "m")
+        if math.isinf(cylinder.length):
+            shape = "semi-infinite cylinder, sealed origin"
+        else:
+            params["end_conductance"] = (cylinder.end_conductance, "S")
+            params["end_conductance_ratio"] = (cylinder.end_conductance_ratio, "1")
+            g = cylinder.end_conductance
+            end = ("sealed" if g == 0 else "killed" if math.isinf(g)
+                   else f"leaky (B = {cylinder.end_conductance_ratio:.4g})")
+            shape = f"finite cylinder, {end} far end"
+        if ball:
+            params["soma_diameter"] = (model.soma_diameter, "m")
+            params["conductance_ratio"] = (model.conductance_ratio, "1")
+            shape = f"ball and stick (soma {_um(model.soma_diameter)}, rho = {model.conductance_ratio:.4g}); " + shape
+    params["length_constant"] = ((model if infinite else cylinder).length_constant, "m")
+    params["membrane_time_constant"] = ((model if infinite else cylinder).time_constant, "s")
+    where = f"x = {_um(stimulus.position)}"
+    if stimulus.position == 0 and not infinite:
+        where = "the soma" if ball else "the origin"
+    if isinstance(stimulus, tr.VoltageStep):
+        what, shape_word = f"voltage-clamp step at {where}", "clamp"
+        params["stimulus_amplitude"] = (stimulus.amplitude, "V")
+    elif isinstance(stimulus, tr.CurrentPulse):
+        what, shape_word = f"current pulse of {_ms(stimulus.duration)} at {where}", "pulse"
+        params["stimulus_amplitude"] = (stimulus.amplitude, "A")
+        params["pulse_duration"] = (stimulus.duration, "s")
+    elif isinstance(stimulus, tr.AlphaCurrent):
+        what, shape_word = f"alpha current peaking at {_ms(stimulus.time_to_peak)} at {where}", "alpha"
+        params["stimulus_amplitude"] = (stimulus.peak, "A")
+        params["time_to_peak"] = (stimulus.time_to_peak, "s")
+    elif isinstance(stimulus, tr.CurrentStep):
+        what, shape_word = f"current step at {where}", "step"
+        params["stimulus_amplitude"] = (stimulus.amplitude, "A")
+    else:
+        raise InputError(f"unknown stimulus {type(stimulus).__name__}")
+    params["stimulus_position"] = (stimulus.position, "m")
+    return f"{shape}, {what}", shape_word, params
+
+
+def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase:
+    """Any time course of :func:`cabletheory.transient.charge` as an :class:`ExactCase`.
+
+    Parameters
+    ----------
+    model : :class:`~cabletheory.cable.Cylinder` (finite with a sealed, killed or leaky far
+        end; ``length = inf`` for a semi-infinite cable), :class:`~cabletheory.transient.BallAndStick`
+        or :class:`~cabletheory.transient.InfiniteCable`
+    stimulus : :class:`~cabletheory.transient.CurrentStep`, ``CurrentPulse``, ``AlphaCurrent``
+        (at ``position``, m) or ``VoltageStep`` (clamp at the origin; anywhere on an infinite cable)
+    tolerance : V, bound asked for the truncation error of each exact value. It is passed to
+        :func:`~cabletheory.transient.charge` relative to the stimulus's reference voltage, and
+        kept between 1e-13 (the rounding allowance of transient.py) and 1e-2 of it; the bound
+        actually achieved is what ``evaluate`` returns.
+
+    Returns
+    -------
+    ExactCase whose ``evaluate(times, positions)`` returns the exact voltage (V from rest) at
+    each (time, position) pair and the error bound of the :class:`~cabletheory.transient.Response`
+    it came from. Times at or before the onset give exactly 0.
+
+    References
+    ----------
+    Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444; Rall W (1969) Biophys. J. 9:1483
+    (the methods of :mod:`cabletheory.transient`).
+    """
+    from .. import transient as tr
+
+    if not (math.isfinite(tolerance) and tolerance > 0):
+        raise InputError(f"exact tolerance must be a positive voltage, got {tolerance!r}")
+    infinite = isinstance(model, tr.InfiniteCable)
+    description, shape_word, params = describe_case(model, stimulus)
+    cylinder = model.cylinder if isinstance(model, tr.BallAndStick) else model
+    length, start = (math.inf, -math.inf) if infinite else (cylinder.length, 0.0)
+    # the tolerance of transient.charge is relative to its reference voltage; a probe at t = 0 gives it
+    probe = tr.charge(model, stimulus, [0.0], [0.0 if infinite else stimulus.position], modes=0)
+    reference = probe.reference_voltage
+    relative = min(max(tolerance / reference, 1e-13), 1e-2) if reference > 0 else 1e-10
+    params["exact_tolerance"] = (relative * reference, "V")
+    if infinite or math.isinf(length):
+        image = ("" if infinite or isinstance(stimulus, tr.VoltageStep)
+                 else "; source and its image in the sealed origin")
+        method = f"closed form (Hodgkin & Rushton 1946 erfc solutions, scaled erfc{image})"
+    else:
+        method = ("images of the infinite-cable solution at early times, eigen-series with the steady state "
+                  "subtracted at later times (Rall 1969), chosen per time"
+                  + ("; a leaky end bracketed between sealed and killed" if 0 < cylinder.end_conductance < math.inf
+                     else ""))
+    method += f"; truncation error of each value <= {relative * reference:.2g} V"
+
+    def evaluate(times: Array, positions: Array) -> tuple[Array, Array]:
+        t = np.asarray(times, dtype=float).ravel()
+        x = np.asarray(positions, dtype=float).ravel()
+        voltage = np.zeros(t.size)
+        bound = np.zeros(t.size)
+        if t.size == 0:
+            return voltage, bound
+        unique_t, ti = np.unique(t, return_inverse=True)
+        unique_x, xi = np.unique(x, return_inverse=True)
+        if unique_t.size * unique_x.size <= GRID_FACTOR * t.size + GRID_SLACK:
+            r = tr.charge(model, stimulus, unique_t, unique_x, tolerance=relative, modes=0)
+            voltage[:] = r.voltage[ti, xi]
+            bound[:] = r.error_bound
+        else:  # scattered pairs: blocks of neighbouring positions, each on its own small grid
+            order = np.argsort(x, kind="stable")
+            for begin in range(0, order.size, SCATTER_BLOCK):
+                at = order[begin:begin + SCATTER_BLOCK]
+                bt, bti = np.unique(t[at], return_inverse=True)
+                bx, bxi = np.unique(x[at], return_inverse=True)
+                r = tr.charge(model, stimulus, bt, bx, tolerance=relative, modes=0)
+                voltage[at] = r.voltage[bti, bxi]
+                bound[at] = r.error_bound
+        return voltage.reshape(np.shape(times)), bound.reshape(np.shape(times))
+
+    return ExactCase(evaluate=evaluate, description=description, method=method, parameters=params,
+                     length=length, start=start, stimulus_shape=shape_word)
+
+
+def exact_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase:
+    """The exact answer for a model and stimulus: the one rule that ``reference``, ``compare`` and
+    the terminal app's check view share.
+
+    A current step at the origin of a finite cylinder with a sealed far end uses the independent
+    eigenfunction series of :func:`sealed_step_case` (Rall 1969); every other case, the exact
+    transients of :mod:`cabletheory.transient` through :func:`transient_case`.
+
+    Parameters
+    ----------
+    model : :class:`~cabletheory.cable.Cylinder`, :class:`~cabletheory.transient.BallAndStick`
+        or :class:`~cabletheory.transient.InfiniteCable`
+    stimulus : a stimulus of :mod:`cabletheory.transient` (``CurrentStep``, ``CurrentPulse``,
+        ``AlphaCurrent``, ``VoltageStep``)
+    tolerance : V, bound asked for the truncation error of each exact value (positive, finite)
+
+    References
+    ----------
+    Rall W (1969) Biophys. J. 9:1483; Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444.
+    """
+    from .. import transient as tr
+
+    if not (math.isfinite(tolerance) and tolerance > 0):
+        raise InputError(f"exact tolerance must be a positive voltage, got {tolerance!r}")
+    if (type(model) is cb.Cylinder and math.isfinite(model.length) and model.end_conductance == 0
+            and type(stimulus) is tr.CurrentStep and stimulus.position == 0):
+        return sealed_step_case(model, stimulus.amplitude, tolerance)
+    return transient_case(model, stimulus, tolerance)
