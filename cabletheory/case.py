@@ -37,32 +37,206 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
-from .cable import Cylinder
+import numpy as np
+from numpy.typing import NDArray
+
+from .cable import Cylinder, UniformMembrane
 from .case_fields import CELL_KINDS, END_WORDS, FIELDS, STIMULUS_SHAPES, WHY_UNUSED, fields_for
 from .errors import InputError
-from .transient import (
-    AlphaCurrent,
-    BallAndStick,
-    CurrentPulse,
-    CurrentStep,
-    InfiniteCable,
-    Model,
-    Stimulus,
-    VoltageStep,
-)
+from .kernels import steady_green
 
 __all__ = [
     "CELL_KINDS",
     "END_WORDS",
     "FIELDS",
     "STIMULUS_SHAPES",
+    "AlphaCurrent",
+    "BallAndStick",
     "Case",
     "CaseFieldError",
+    "CurrentPulse",
+    "CurrentStep",
+    "InfiniteCable",
+    "Model",
+    "Stimulus",
+    "VoltageStep",
     "build_case",
     "describe_end",
     "end_from_word",
     "fields_used",
 ]
+
+# --------------------------------------------------------------------------------------
+# stimuli
+# --------------------------------------------------------------------------------------
+def _finite(value: float, name: str, *, positive: bool = False, allow_zero: bool = True) -> float:
+    v = float(value)
+    if not math.isfinite(v):
+        raise InputError(f"{name} must be finite, got {value!r}")
+    if positive and not (v > 0 or (allow_zero and v == 0)):
+        raise InputError(f"{name} must be {'non-negative' if allow_zero else 'positive'}, got {value!r}")
+    return v
+
+
+@dataclass(frozen=True, slots=True)
+class CurrentStep:
+    """A current step of ``amplitude`` (A) switched on at t = 0 at ``position`` (m from the origin)."""
+
+    amplitude: float
+    position: float = 0.0
+
+    def __post_init__(self) -> None:
+        _finite(self.amplitude, "current amplitude")
+        _finite(self.position, "stimulus position")
+
+
+@dataclass(frozen=True, slots=True)
+class CurrentPulse:
+    """A rectangular current pulse: ``amplitude`` (A) from t = 0 to ``duration`` (s), at ``position`` (m)."""
+
+    amplitude: float
+    duration: float
+    position: float = 0.0
+
+    def __post_init__(self) -> None:
+        _finite(self.amplitude, "current amplitude")
+        _finite(self.duration, "pulse duration", positive=True, allow_zero=False)
+        _finite(self.position, "stimulus position")
+
+    @property
+    def charge(self) -> float:
+        """Injected charge, C."""
+        return self.amplitude * self.duration
+
+
+@dataclass(frozen=True, slots=True)
+class AlphaCurrent:
+    r"""An alpha-function current :math:`I(t) = I_{peak}\,(t/t_p)\,e^{1 - t/t_p}` at ``position`` (m).
+
+    ``peak`` in A is reached at ``time_to_peak`` :math:`t_p` (s); the injected charge is
+    :math:`e\,I_{peak}t_p` (:attr:`charge`).
+    """
+
+    peak: float
+    time_to_peak: float
+    position: float = 0.0
+
+    def __post_init__(self) -> None:
+        _finite(self.peak, "peak current")
+        _finite(self.time_to_peak, "time to peak", positive=True, allow_zero=False)
+        _finite(self.position, "stimulus position")
+
+    @property
+    def charge(self) -> float:
+        """Injected charge :math:`e I_{peak} t_p`, C."""
+        return math.e * self.peak * self.time_to_peak
+
+
+@dataclass(frozen=True, slots=True)
+class VoltageStep:
+    """A voltage-clamp step of ``amplitude`` (V, from rest) at t = 0.
+
+    On a finite or semi-infinite cylinder (and a ball and stick, whose clamped soma then plays
+    no role) the clamp is at the origin, ``position = 0``; on an :class:`InfiniteCable` it may
+    be anywhere.
+    """
+
+    amplitude: float
+    position: float = 0.0
+
+    def __post_init__(self) -> None:
+        _finite(self.amplitude, "clamp amplitude")
+        _finite(self.position, "clamp position")
+
+
+Stimulus = CurrentStep | CurrentPulse | AlphaCurrent | VoltageStep
+
+
+# --------------------------------------------------------------------------------------
+# models besides cable.Cylinder
+# --------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class BallAndStick:
+    r"""A lumped spherical soma (diameter ``soma_diameter``, m) at the origin of a finite cylinder.
+
+    The soma has the cylinder's Rm and Cm (same τm): :math:`G_S = \pi d_S^2/R_m`. Rall's
+    conductance ratio is :math:`\rho = G_D/G_S` with :math:`G_D` the cylinder's input
+    conductance; :math:`\rho_\infty = G_\infty/G_S`.
+
+    References
+    ----------
+    Rall W (1969) Biophys. J. 9:1483; Durand D (1984) Biophys. J. 46:645 (recalled from memory).
+    """
+
+    cylinder: Cylinder
+    soma_diameter: float
+
+    def __post_init__(self) -> None:
+        if not (math.isfinite(self.soma_diameter) and self.soma_diameter > 0):
+            raise InputError(f"soma diameter must be finite and positive, got {self.soma_diameter!r}")
+        if not math.isfinite(self.cylinder.length):
+            raise InputError("a ball and stick needs a finite cylinder length")
+
+    @classmethod
+    def with_conductance_ratio(cls, cylinder: Cylinder, conductance_ratio: float) -> BallAndStick:
+        """The ball and stick whose soma gives Rall's ρ = G_D/G_S (soma diameter solved for)."""
+        if not (math.isfinite(conductance_ratio) and conductance_ratio > 0):
+            raise InputError(f"conductance ratio ρ must be finite and positive, got {conductance_ratio!r}")
+        from .cable import input_conductance
+
+        g_d = float(input_conductance(1.0 / cylinder.semi_infinite_input_resistance, cylinder.electrotonic_length,
+                                      cylinder.end_conductance_ratio))
+        g_s = g_d / conductance_ratio
+        return cls(cylinder, math.sqrt(g_s * cylinder.membrane_resistivity / math.pi))
+
+    @property
+    def soma_conductance(self) -> float:
+        """G_S = π d_S² / Rm, S."""
+        return math.pi * self.soma_diameter**2 / self.cylinder.membrane_resistivity
+
+    @property
+    def soma_ratio(self) -> float:
+        """y = G_S / G∞ = 1/ρ∞ (dimensionless)."""
+        return self.soma_conductance * self.cylinder.semi_infinite_input_resistance
+
+    @property
+    def semi_infinite_conductance_ratio(self) -> float:
+        """ρ∞ = G∞ / G_S."""
+        return 1.0 / self.soma_ratio
+
+    @property
+    def conductance_ratio(self) -> float:
+        """Rall's ρ = G_D / G_S."""
+        c = self.cylinder
+        return float(steady_green(0.0, 0.0, c.electrotonic_length, c.end_conductance_ratio) ** -1
+                     / self.soma_ratio)
+
+
+@dataclass(frozen=True, slots=True)
+class InfiniteCable(UniformMembrane):
+    """A doubly infinite uniform cylinder; positions are distances along it (m, any sign)."""
+
+    membrane_resistivity: float  # Rm, Ω·m²
+    axial_resistivity: float  # Ri, Ω·m
+    membrane_capacitance: float  # Cm, F/m²
+    diameter: float  # d, m
+
+    def __post_init__(self) -> None:
+        try:
+            self._check_membrane()
+        except ValueError as exc:
+            raise InputError(str(exc)) from None
+
+    @classmethod
+    def like(cls, cylinder: Cylinder) -> InfiniteCable:
+        """The infinite cable with the membrane, cytoplasm and diameter of ``cylinder``."""
+        return cls(cylinder.membrane_resistivity, cylinder.axial_resistivity, cylinder.membrane_capacitance,
+                   cylinder.diameter)
+
+
+Model = Cylinder | BallAndStick | InfiniteCable
+
+
 
 class CaseFieldError(InputError):
     """A case rule is broken; ``field`` is the canonical name (a key of :data:`FIELDS`) to blame.
@@ -301,14 +475,24 @@ class Case:
         return s.peak if isinstance(s, AlphaCurrent) else s.amplitude
 
     @property
+    def site_factor(self) -> float:
+        r"""The steady voltage at the stimulus site per :math:`I R_\infty` for a current step there:
+        1/2 on an infinite cable, else Rall's steady-state Green's function
+        :func:`~cabletheory.kernels.steady_green` at :math:`X = X_0` (sealed origin, far end B, soma)."""
+        c = self.cylinder
+        if c is None:
+            return 0.5
+        soma = self.cell.soma_ratio if isinstance(self.cell, BallAndStick) else 0.0
+        x0 = self.stimulus.position / c.length_constant
+        return float(steady_green(x0, x0, c.electrotonic_length, c.end_conductance_ratio, soma))
+
+    @property
     def reference_voltage(self) -> float:
         """V, the scale of relative truncation errors: the final voltage at the stimulus site for a
-        current step of the stimulus's amplitude (its peak for an alpha current), or the clamp step
-        (:func:`cabletheory.transient.charge`)."""
-        from .transient import charge
-
-        site = self.stimulus.position
-        return charge(self.cell, self.stimulus, [0.0], [site], modes=0).reference_voltage
+        current step of the stimulus's amplitude (its peak for an alpha current), or the clamp step."""
+        if self.shape == "clamp":
+            return abs(self.amplitude)
+        return abs(self.amplitude) * self.membrane.semi_infinite_input_resistance * self.site_factor
 
     @property
     def lowest_position(self) -> float:
@@ -318,13 +502,21 @@ class Case:
     def _extent(self) -> str:
         return "its infinite length" if math.isinf(self.length) else _um(self.length)
 
-    def check_positions(self, positions: Iterable[float], field: str = "positions") -> None:
-        """Refuse (naming ``field``) any recording position that is not finite or lies off the cell."""
-        for x in positions:
-            if not math.isfinite(x):
-                raise CaseFieldError(field, f"{x!r} is not a finite position")
-            if self.kind != "infinite" and not 0 <= x <= self.length:
-                raise CaseFieldError(field, f"{_um(x)} lies outside the cell (0 to {self._extent()})")
+    def check_positions(self, positions: Iterable[float] | NDArray[np.float64], field: str = "positions") -> None:
+        """Refuse (naming ``field``) any recording position that is not finite or lies off the cell.
+
+        A position past the far end by no more than a relative 1e-12 (rounding in a computed grid)
+        counts as the end itself.
+        """
+        x = np.asarray(positions if isinstance(positions, np.ndarray) else list(positions), dtype=float).ravel()
+        bad = ~np.isfinite(x)
+        if bad.any():
+            raise CaseFieldError(field, f"{x[bad][0]!r} is not a finite position")
+        if self.kind != "infinite":
+            outside = (x < 0) | (x > self.length * (1 + 1e-12))
+            if outside.any():
+                first = float(x[outside][0])
+                raise CaseFieldError(field, f"{_um(first)} lies outside the cell (0 to {self._extent()})")
 
     def with_positions(self, positions: Iterable[float]) -> Case:
         """The same cell and stimulus recorded at other positions (checked)."""

@@ -50,7 +50,18 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from . import eigen
-from .cable import Cylinder, UniformMembrane
+from .cable import Cylinder
+from .case import (
+    AlphaCurrent,
+    BallAndStick,
+    Case,
+    CurrentPulse,
+    CurrentStep,
+    InfiniteCable,
+    Model,
+    Stimulus,
+    VoltageStep,
+)
 from .errors import InputError
 from .finite_cable import clamp_response, current_response
 from .kernels import (
@@ -85,177 +96,6 @@ __all__ = [
 Array = NDArray[np.float64]
 
 ROUNDING_ALLOWANCE = 1e-12  # relative to the reference voltage; measured against mpmath (tests/test_precise.py)
-
-
-# --------------------------------------------------------------------------------------
-# stimuli
-# --------------------------------------------------------------------------------------
-def _finite(value: float, name: str, *, positive: bool = False, allow_zero: bool = True) -> float:
-    v = float(value)
-    if not math.isfinite(v):
-        raise InputError(f"{name} must be finite, got {value!r}")
-    if positive and not (v > 0 or (allow_zero and v == 0)):
-        raise InputError(f"{name} must be {'non-negative' if allow_zero else 'positive'}, got {value!r}")
-    return v
-
-
-@dataclass(frozen=True, slots=True)
-class CurrentStep:
-    """A current step of ``amplitude`` (A) switched on at t = 0 at ``position`` (m from the origin)."""
-
-    amplitude: float
-    position: float = 0.0
-
-    def __post_init__(self) -> None:
-        _finite(self.amplitude, "current amplitude")
-        _finite(self.position, "stimulus position")
-
-
-@dataclass(frozen=True, slots=True)
-class CurrentPulse:
-    """A rectangular current pulse: ``amplitude`` (A) from t = 0 to ``duration`` (s), at ``position`` (m)."""
-
-    amplitude: float
-    duration: float
-    position: float = 0.0
-
-    def __post_init__(self) -> None:
-        _finite(self.amplitude, "current amplitude")
-        _finite(self.duration, "pulse duration", positive=True, allow_zero=False)
-        _finite(self.position, "stimulus position")
-
-    @property
-    def charge(self) -> float:
-        """Injected charge, C."""
-        return self.amplitude * self.duration
-
-
-@dataclass(frozen=True, slots=True)
-class AlphaCurrent:
-    r"""An alpha-function current :math:`I(t) = I_{peak}\,(t/t_p)\,e^{1 - t/t_p}` at ``position`` (m).
-
-    ``peak`` in A is reached at ``time_to_peak`` :math:`t_p` (s); the injected charge is
-    :math:`e\,I_{peak}t_p` (:attr:`charge`).
-    """
-
-    peak: float
-    time_to_peak: float
-    position: float = 0.0
-
-    def __post_init__(self) -> None:
-        _finite(self.peak, "peak current")
-        _finite(self.time_to_peak, "time to peak", positive=True, allow_zero=False)
-        _finite(self.position, "stimulus position")
-
-    @property
-    def charge(self) -> float:
-        """Injected charge :math:`e I_{peak} t_p`, C."""
-        return math.e * self.peak * self.time_to_peak
-
-
-@dataclass(frozen=True, slots=True)
-class VoltageStep:
-    """A voltage-clamp step of ``amplitude`` (V, from rest) at t = 0.
-
-    On a finite or semi-infinite cylinder (and a ball and stick, whose clamped soma then plays
-    no role) the clamp is at the origin, ``position = 0``; on an :class:`InfiniteCable` it may
-    be anywhere.
-    """
-
-    amplitude: float
-    position: float = 0.0
-
-    def __post_init__(self) -> None:
-        _finite(self.amplitude, "clamp amplitude")
-        _finite(self.position, "clamp position")
-
-
-Stimulus = CurrentStep | CurrentPulse | AlphaCurrent | VoltageStep
-
-
-# --------------------------------------------------------------------------------------
-# models besides cable.Cylinder
-# --------------------------------------------------------------------------------------
-@dataclass(frozen=True, slots=True)
-class BallAndStick:
-    r"""A lumped spherical soma (diameter ``soma_diameter``, m) at the origin of a finite cylinder.
-
-    The soma has the cylinder's Rm and Cm (same τm): :math:`G_S = \pi d_S^2/R_m`. Rall's
-    conductance ratio is :math:`\rho = G_D/G_S` with :math:`G_D` the cylinder's input
-    conductance; :math:`\rho_\infty = G_\infty/G_S`.
-
-    References
-    ----------
-    Rall W (1969) Biophys. J. 9:1483; Durand D (1984) Biophys. J. 46:645 (recalled from memory).
-    """
-
-    cylinder: Cylinder
-    soma_diameter: float
-
-    def __post_init__(self) -> None:
-        if not (math.isfinite(self.soma_diameter) and self.soma_diameter > 0):
-            raise InputError(f"soma diameter must be finite and positive, got {self.soma_diameter!r}")
-        if not math.isfinite(self.cylinder.length):
-            raise InputError("a ball and stick needs a finite cylinder length")
-
-    @classmethod
-    def with_conductance_ratio(cls, cylinder: Cylinder, conductance_ratio: float) -> BallAndStick:
-        """The ball and stick whose soma gives Rall's ρ = G_D/G_S (soma diameter solved for)."""
-        if not (math.isfinite(conductance_ratio) and conductance_ratio > 0):
-            raise InputError(f"conductance ratio ρ must be finite and positive, got {conductance_ratio!r}")
-        from .cable import input_conductance
-
-        g_d = float(input_conductance(1.0 / cylinder.semi_infinite_input_resistance, cylinder.electrotonic_length,
-                                      cylinder.end_conductance_ratio))
-        g_s = g_d / conductance_ratio
-        return cls(cylinder, math.sqrt(g_s * cylinder.membrane_resistivity / math.pi))
-
-    @property
-    def soma_conductance(self) -> float:
-        """G_S = π d_S² / Rm, S."""
-        return math.pi * self.soma_diameter**2 / self.cylinder.membrane_resistivity
-
-    @property
-    def soma_ratio(self) -> float:
-        """y = G_S / G∞ = 1/ρ∞ (dimensionless)."""
-        return self.soma_conductance * self.cylinder.semi_infinite_input_resistance
-
-    @property
-    def semi_infinite_conductance_ratio(self) -> float:
-        """ρ∞ = G∞ / G_S."""
-        return 1.0 / self.soma_ratio
-
-    @property
-    def conductance_ratio(self) -> float:
-        """Rall's ρ = G_D / G_S."""
-        c = self.cylinder
-        return float(steady_green(0.0, 0.0, c.electrotonic_length, c.end_conductance_ratio) ** -1
-                     / self.soma_ratio)
-
-
-@dataclass(frozen=True, slots=True)
-class InfiniteCable(UniformMembrane):
-    """A doubly infinite uniform cylinder; positions are distances along it (m, any sign)."""
-
-    membrane_resistivity: float  # Rm, Ω·m²
-    axial_resistivity: float  # Ri, Ω·m
-    membrane_capacitance: float  # Cm, F/m²
-    diameter: float  # d, m
-
-    def __post_init__(self) -> None:
-        try:
-            self._check_membrane()
-        except ValueError as exc:
-            raise InputError(str(exc)) from None
-
-    @classmethod
-    def like(cls, cylinder: Cylinder) -> InfiniteCable:
-        """The infinite cable with the membrane, cytoplasm and diameter of ``cylinder``."""
-        return cls(cylinder.membrane_resistivity, cylinder.axial_resistivity, cylinder.membrane_capacitance,
-                   cylinder.diameter)
-
-
-Model = Cylinder | BallAndStick | InfiniteCable
 
 
 # --------------------------------------------------------------------------------------
@@ -378,21 +218,16 @@ def charge(model: Model, stimulus: Stimulus, times: ArrayLike, positions: ArrayL
         raise InputError(f"tolerance must lie in (0, 1), got {tolerance!r}")
     if modes < 0:
         raise InputError(f"modes must be >= 0, got {modes!r}")
-    infinite = isinstance(model, InfiniteCable)
+    case = Case(model, stimulus)  # the case's own rules: stimulus site, clamp position
+    case.check_positions(x)
+    infinite = case.kind == "infinite"
     if not infinite:
-        if np.any(x < 0) or np.any(x > geo.physical_length * (1 + 1e-12)):
-            raise InputError("positions must lie between 0 and the cable's length")
         x = np.minimum(x, geo.physical_length)
     lam, tau = geo.length_constant, geo.time_constant
     X = x / lam
     T = t / tau
     L, B, y = geo.electrotonic_length, geo.end_conductance_ratio, geo.soma_ratio
     source = stimulus.position
-    if not infinite:
-        if isinstance(stimulus, VoltageStep) and source != 0:
-            raise InputError("a voltage clamp on a cylinder or ball and stick is applied at the origin (position 0)")
-        if not (0 <= source <= geo.physical_length):
-            raise InputError("the stimulus position must lie between 0 and the cable's length")
     X0 = source / lam
     amplitude = _amplitude(stimulus)
     clamp = isinstance(stimulus, VoltageStep)
@@ -406,8 +241,8 @@ def charge(model: Model, stimulus: Stimulus, times: ArrayLike, positions: ArrayL
     else:
         shape = _shape_of(stimulus, tau)
         scale = amplitude * geo.semi_infinite_resistance
-        site = 0.5 if infinite else float(steady_green(X0, X0, L, B, y))
-        reference = abs(scale) * site
+        site = case.site_factor
+        reference = case.reference_voltage
         tol = tolerance * site
     if precision is not None:
         from . import precise

@@ -19,6 +19,7 @@ import pytest
 
 from cabletheory import transient as tr
 from cabletheory.cable import Cylinder
+from cabletheory.case import Case
 from cabletheory.errors import CableTheoryError
 from cabletheory.tui.format import analyse_check, check_report
 from cabletheory.tui.forms import read_check_form
@@ -40,7 +41,7 @@ def write_run(path, model=KILLED, stimulus=PULSE, sites=SITES) -> int:
     Returns the file line of the perturbed sample (the header is line 1).
     """
     times = np.arange(0, 41) * 0.25 * MS  # since the onset
-    table = reference_table(exact_case(model, stimulus, 1e-15), times, sites)
+    table = reference_table(exact_case(Case(model, stimulus), 1e-15), times, sites)
     volts = table.voltage + REST
     row = int(np.argmin(np.abs(times - BUMP_TIME)))
     volts[row, BUMP_SITE] += BUMP
@@ -61,11 +62,11 @@ def test_killed_end_and_pulse_make_the_commands_case(tmp_path):
     assert errors == {}
     assert setup.case.model == KILLED
     assert setup.case.stimulus == PULSE
-    case = exact_case(setup.case.model, setup.case.stimulus)
+    case = exact_case(setup.case.case)
     assert case.description == "finite cylinder, killed far end, current pulse of 1 ms at x = 200 µm"
     # a step at the origin of the sealed cylinder takes the independent series, as `reference` does
     sealed, _ = read_check_form({"file": str(run)})
-    assert exact_case(sealed.case.model, sealed.case.stimulus).method.startswith("eigenfunction series")
+    assert exact_case(sealed.case.case).method.startswith("eigenfunction series")
 
 
 @pytest.mark.parametrize(("model", "stimulus", "texts", "field", "message"), [

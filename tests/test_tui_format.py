@@ -16,6 +16,7 @@ import numpy as np
 import pytest
 
 from cabletheory import PASSIVE_CAVEAT
+from cabletheory.case import Case
 from cabletheory.errors import InputError
 from cabletheory.tui import export, plot
 from cabletheory.tui.format import cable_report, cable_summary, profile_positions
@@ -424,7 +425,7 @@ def test_check_exact_case_reaches_the_closed_form_steady_state(end, tmp_path):
     setup, errors = read_check_form({"file": str(run), "end": end})
     assert errors == {}
     cyl = setup.case.model
-    values, bound = exact_case(cyl, setup.case.stimulus, 1e-12).evaluate(np.array([-1e-3, 0.0, 1.0]),
+    values, bound = exact_case(Case(cyl, setup.case.stimulus), 1e-12).evaluate(np.array([-1e-3, 0.0, 1.0]),
                                                                          np.zeros(3))
     r_in = float(cable.input_resistance(cyl.semi_infinite_input_resistance, cyl.electrotonic_length,
                                         cyl.end_conductance_ratio))

@@ -16,6 +16,7 @@ import pytest
 from cabletheory import transient as tr
 from cabletheory import verify as vf
 from cabletheory.cable import Cylinder
+from cabletheory.case import Case
 from cabletheory.errors import FileFormatError, InputError
 from cabletheory.units import parse_quantity
 
@@ -37,7 +38,7 @@ def test_sealed_step_agrees_with_the_independent_series() -> None:
     times = np.array([0.0, 0.1, 1.0, 5.0, 20.0, 60.0]) * MS
     sites = np.array([0.0, 125.0, 250.0, 500.0]) * UM
     tt, xx = np.meshgrid(times, sites, indexing="ij")
-    case = vf.transient_case(DEMO, tr.CurrentStep(100e-12), 1e-15)
+    case = vf.transient_case(Case(DEMO, tr.CurrentStep(100e-12)), 1e-15)
     v, bound = case.evaluate(tt, xx)
     other, _ = vf.sealed_step_voltage(DEMO, 100e-12, tt, xx, 1e-15)
     assert v.shape == tt.shape
@@ -53,7 +54,7 @@ def test_sealed_step_agrees_with_the_independent_series() -> None:
 def test_injection_site_charges_as_erf_root_t(model, final: float) -> None:
     """V(0,T)/V(0,∞) = erf√T: 0.3452791540, 0.6826894921, 0.8427007929, 0.9544997361 at T = 0.1, 0.5, 1, 2
     (Hodgkin & Rushton 1946 [HodgkinRushton1946]; computed)."""
-    case = vf.transient_case(model, tr.CurrentStep(1e-9), 1e-15)
+    case = vf.transient_case(Case(model, tr.CurrentStep(1e-9)), 1e-15)
     T = np.array([0.1, 0.5, 1.0, 2.0])
     v, _ = case.evaluate(T * TAU, np.zeros(4))
     assert v / (1e-9 * final) == pytest.approx([0.3452791540, 0.6826894921, 0.8427007929, 0.9544997361],
@@ -63,7 +64,7 @@ def test_injection_site_charges_as_erf_root_t(model, final: float) -> None:
 def test_infinite_cable_is_symmetric_and_takes_negative_positions() -> None:
     """X = ±1 of an infinite cable injected at 0: V(1,T)/V(0,∞) = 0.2336124405 at T = 1 (computed,
     Hodgkin & Rushton 1946 [HodgkinRushton1946])."""
-    case = vf.transient_case(tr.InfiniteCable.like(DEMO), tr.CurrentStep(1e-9, 0.0))
+    case = vf.transient_case(Case(tr.InfiniteCable.like(DEMO), tr.CurrentStep(1e-9, 0.0)))
     assert case.start == -math.inf
     v, _ = case.evaluate(np.full(2, TAU), np.array([-LAMBDA, LAMBDA]))
     assert v / (0.5e-9 * R_INF) == pytest.approx([0.2336124405] * 2, abs=1e-9)
@@ -74,7 +75,7 @@ def test_pulse_is_the_difference_of_two_steps() -> None:
     from the Rall 1969 series [Rall1969]: S(0.5) - S(0.1) = 0.5374585210 - 0.2629635738."""
     cylinder = Cylinder(RM, RI, CM, D, LAMBDA)  # L = 1
     final = 1e-9 * R_INF / math.tanh(1.0)  # I R∞ coth L
-    case = vf.transient_case(cylinder, tr.CurrentPulse(1e-9, 0.4 * TAU))
+    case = vf.transient_case(Case(cylinder, tr.CurrentPulse(1e-9, 0.4 * TAU)))
     v, _ = case.evaluate(np.array([0.1, 0.5]) * TAU, np.zeros(2))
     assert v / final == pytest.approx([0.2629635738, 0.5374585210 - 0.2629635738], abs=1e-9)
 
@@ -86,7 +87,7 @@ def test_alpha_current_matches_quadrature_of_the_impulse_response() -> None:
     from scipy.integrate import quad
 
     a = 0.1  # time to peak, τm
-    case = vf.transient_case(tr.InfiniteCable.like(DEMO), tr.AlphaCurrent(1e-9, a * TAU))
+    case = vf.transient_case(Case(tr.InfiniteCable.like(DEMO), tr.AlphaCurrent(1e-9, a * TAU)))
     T = np.array([0.05, 0.1, 0.3, 1.0])
     v, _ = case.evaluate(T * TAU, np.zeros(T.size))
     expected = []
@@ -101,7 +102,7 @@ def test_voltage_clamp_relaxes_with_the_clamped_time_constant() -> None:
     """Clamp at X = 0, sealed far end, L = 1: V(L,∞)/V0 = 1/cosh 1 = 0.6480542737 (Rall 1959 [Rall1959]) and
     the approach rate 3.467401100 per τm (computed, Rall 1969 [Rall1969])."""
     cylinder = Cylinder(RM, RI, CM, D, LAMBDA)
-    case = vf.transient_case(cylinder, tr.VoltageStep(0.01))
+    case = vf.transient_case(Case(cylinder, tr.VoltageStep(0.01)))
     T = np.array([1.5, 2.0, 40.0])
     far, _ = case.evaluate(T * TAU, np.full(3, LAMBDA))
     near, _ = case.evaluate(T * TAU, np.zeros(3))
@@ -118,7 +119,7 @@ def test_ball_and_stick_soma_charging() -> None:
     model = tr.BallAndStick.with_conductance_ratio(cylinder, 5.0)
     g_d = math.tanh(1.0) / R_INF
     final = 1e-9 / (g_d + g_d / 5.0)  # I / (G_D + G_S)
-    case = vf.transient_case(model, tr.CurrentStep(1e-9, 0.0))
+    case = vf.transient_case(Case(model, tr.CurrentStep(1e-9, 0.0)))
     T = np.array([0.1, 0.5, 1.0, 2.0])
     v, _ = case.evaluate(T * TAU, np.zeros(4))
     assert v / final == pytest.approx([0.2124536900, 0.5166979813, 0.7082003630, 0.8926645328], abs=1e-9)
@@ -128,7 +129,7 @@ def test_ball_and_stick_soma_charging() -> None:
 
 def test_scattered_points_and_grid_points_agree() -> None:
     """Paired points far from a full grid are evaluated site by site; same values as on the grid."""
-    case = vf.transient_case(Cylinder(RM, RI, CM, D, 500 * UM, math.inf), tr.CurrentStep(1e-10, 200 * UM))
+    case = vf.transient_case(Case(Cylinder(RM, RI, CM, D, 500 * UM, math.inf), tr.CurrentStep(1e-10, 200 * UM)))
     rng = np.random.default_rng(7)
     t = rng.uniform(0, 40 * MS, 3000)
     x = rng.uniform(0, 500 * UM, 3000)  # 3000 × 3000 grid: too big, so site by site
@@ -141,7 +142,7 @@ def test_scattered_points_and_grid_points_agree() -> None:
 
 def test_compare_reads_both_sides_of_an_infinite_cable() -> None:
     """A long file with negative positions: accepted for an infinite cable, refused otherwise."""
-    case = vf.transient_case(tr.InfiniteCable.like(DEMO), tr.CurrentPulse(1e-10, 1 * MS, 0.0))
+    case = vf.transient_case(Case(tr.InfiniteCable.like(DEMO), tr.CurrentPulse(1e-10, 1 * MS, 0.0)))
     times = np.array([0.5, 1.0, 2.0, 4.0]) * MS
     sites = np.array([-300.0, 0.0, 300.0]) * UM
     tt, xx = np.meshgrid(times, sites, indexing="ij")
@@ -157,20 +158,20 @@ def test_compare_reads_both_sides_of_an_infinite_cable() -> None:
     assert result.passed
     with pytest.raises(FileFormatError, match=r"line 2, column 2.*negative position"):
         vf.read_recording(text, "both.csv", parse)
-    cylinder_case = vf.transient_case(DEMO, tr.CurrentPulse(1e-10, 1 * MS, 0.0))
+    cylinder_case = vf.transient_case(Case(DEMO, tr.CurrentPulse(1e-10, 1 * MS, 0.0)))
     with pytest.raises(FileFormatError, match="before the cable's origin"):
         vf.compare(rec, cylinder_case, 5e-6)
 
 
 def test_parameters_and_bad_tolerance() -> None:
-    case = vf.transient_case(Cylinder(RM, RI, CM, D, 500 * UM, 1e-9), tr.AlphaCurrent(1e-10, 2 * MS, 100 * UM))
+    case = vf.transient_case(Case(Cylinder(RM, RI, CM, D, 500 * UM, 1e-9), tr.AlphaCurrent(1e-10, 2 * MS, 100 * UM)))
     p = case.parameters
     assert p["end_conductance"] == (1e-9, "S")
     assert p["time_to_peak"] == (2 * MS, "s")
     assert p["stimulus_position"] == (100 * UM, "m")
     assert "leaky" in case.description
     assert "alpha" in case.description
-    semi = vf.transient_case(Cylinder(RM, RI, CM, D, math.inf), tr.VoltageStep(0.01))
+    semi = vf.transient_case(Case(Cylinder(RM, RI, CM, D, math.inf), tr.VoltageStep(0.01)))
     assert '"value": "inf"' in vf.reference_json(vf.reference_table(semi, [1 * MS], [0.0]))
     with pytest.raises(InputError, match="exact tolerance"):
-        vf.transient_case(DEMO, tr.CurrentStep(1e-10), -1.0)
+        vf.transient_case(Case(DEMO, tr.CurrentStep(1e-10)), -1.0)

@@ -33,7 +33,7 @@ def exact_from_options(args: argparse.Namespace, positions: str | None = None) -
     from ..verify.exact import exact_case
 
     case = read_case_options(args, positions)
-    return case, exact_case(case.cell, case.stimulus, read_truncation_voltage(args.truncation, case))
+    return case, exact_case(case, read_truncation_voltage(args.truncation, case))
 
 
 def check_recorded_positions(case: Case, recording: Recording) -> None:

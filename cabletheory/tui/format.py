@@ -384,7 +384,7 @@ def analyse_check(setup: CheckSetup) -> CheckAnalysis:
     infinite = isinstance(setup.case.model, InfiniteCable)
     recording = read_recording(text, str(setup.path), parse_file_quantity, resting_potential=setup.rest,
                                time_offset=setup.onset, allow_negative_positions=infinite)
-    case = exact_case(setup.case.model, setup.case.stimulus, EXACT_TOLERANCE)
+    case = exact_case(setup.case.case, EXACT_TOLERANCE)
     comparison = compare(recording, case, setup.tolerance, relative=setup.relative)
     exact = np.zeros(recording.times.size)
     after = recording.times >= 0  # before the onset the exact answer is rest (as in verify.compare)

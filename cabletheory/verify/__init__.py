@@ -19,7 +19,7 @@ from __future__ import annotations
 
 from .advice import OUTPUTS, RULE_STEP, Advice, StepAdvice, advise_cable, advise_tree, tree_input_admittance
 from .comparison import Comparison, Convergence, ExactCase, OrderEstimate, compare, convergence
-from .exact import describe_case, exact_case, sealed_step_case, sealed_step_voltage, transient_case
+from .exact import exact_case, sealed_step_case, sealed_step_voltage, transient_case
 from .reading import QuantityParser, Recording, read_recording, run_spacings
 from .tables import (
     STIMULUS_KEYS,
@@ -51,7 +51,6 @@ __all__ = [
     "compare",
     "convergence",
     "csv_header",
-    "describe_case",
     "exact_case",
     "json_number",
     "read_recording",

@@ -2,8 +2,8 @@ r"""Exact cases: a model and stimulus turned into an :class:`ExactCase` that any
 
 :func:`sealed_step_voltage` / :func:`sealed_step_case` are a small independent series of our own
 (sealed cylinder, current step at the origin); :func:`transient_case` wraps every time course of
-:mod:`cabletheory.transient`; :func:`exact_case` chooses between them; :func:`describe_case` puts a
-case in words and numbers.
+:mod:`cabletheory.transient`; :func:`exact_case` chooses between them. The words and numbers of a
+case are the case's own (:meth:`cabletheory.case.Case.describe`, :meth:`~cabletheory.case.Case.parameters`).
 
 Every exact answer assumes a passive, linear membrane with uniform properties; so does every
 verdict. A simulator with active conductances is outside what this package can check.
@@ -12,17 +12,16 @@ verdict. A simulator with active conductances is outside what this package can c
 from __future__ import annotations
 
 import math
-from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .. import cable as cb
+from ..case import Case
 from ..errors import ConvergenceError, InputError
 from .comparison import ExactCase
 
 __all__ = [
-    "describe_case",
     "exact_case",
     "sealed_step_case",
     "sealed_step_voltage",
@@ -120,83 +119,13 @@ GRID_SLACK = 4096
 SCATTER_BLOCK = 256  # points per block when the pairs are scattered (each block: at most 256² values)
 
 
-def _um(x: float) -> str:
-    return f"{x * 1e6:.6g} µm"
-
-
-def _ms(t: float) -> str:
-    return f"{t * 1e3:.6g} ms"
-
-
-def describe_case(model: Any, stimulus: Any) -> tuple[str, str, dict[str, tuple[float, str]]]:
-    """A case of :mod:`cabletheory.transient` in words and numbers: its description (model and
-    stimulus), the stimulus's command-line word (step, pulse, alpha, clamp) and its parameters as
-    ``name -> (SI value, SI unit)``, shared by :func:`transient_case` and ``charge --csv``."""
-    from .. import transient as tr
-
-    infinite = isinstance(model, tr.InfiniteCable)
-    ball = isinstance(model, tr.BallAndStick)
-    cylinder = model.cylinder if ball else model
-    params: dict[str, tuple[float, str]] = {
-        "membrane_resistivity": (model.membrane_resistivity if infinite else cylinder.membrane_resistivity,
-                                 "ohm*m**2"),
-        "axial_resistivity": (model.axial_resistivity if infinite else cylinder.axial_resistivity, "ohm*m"),
-        "membrane_capacitance": (model.membrane_capacitance if infinite else cylinder.membrane_capacitance,
-                                 "F/m**2"),
-        "diameter": (model.diameter if infinite else cylinder.diameter, "m"),
-    }
-    if infinite:
-        shape = "infinite cable"
-    else:
-        params["length"] = (cylinder.length, "m")
-        if math.isinf(cylinder.length):
-            shape = "semi-infinite cylinder, sealed origin"
-        else:
-            params["end_conductance"] = (cylinder.end_conductance, "S")
-            params["end_conductance_ratio"] = (cylinder.end_conductance_ratio, "1")
-            g = cylinder.end_conductance
-            end = ("sealed" if g == 0 else "killed" if math.isinf(g)
-                   else f"leaky (B = {cylinder.end_conductance_ratio:.4g})")
-            shape = f"finite cylinder, {end} far end"
-        if ball:
-            params["soma_diameter"] = (model.soma_diameter, "m")
-            params["conductance_ratio"] = (model.conductance_ratio, "1")
-            shape = f"ball and stick (soma {_um(model.soma_diameter)}, rho = {model.conductance_ratio:.4g}); " + shape
-    params["length_constant"] = ((model if infinite else cylinder).length_constant, "m")
-    params["membrane_time_constant"] = ((model if infinite else cylinder).time_constant, "s")
-    where = f"x = {_um(stimulus.position)}"
-    if stimulus.position == 0 and not infinite:
-        where = "the soma" if ball else "the origin"
-    if isinstance(stimulus, tr.VoltageStep):
-        what, shape_word = f"voltage-clamp step at {where}", "clamp"
-        params["stimulus_amplitude"] = (stimulus.amplitude, "V")
-    elif isinstance(stimulus, tr.CurrentPulse):
-        what, shape_word = f"current pulse of {_ms(stimulus.duration)} at {where}", "pulse"
-        params["stimulus_amplitude"] = (stimulus.amplitude, "A")
-        params["pulse_duration"] = (stimulus.duration, "s")
-    elif isinstance(stimulus, tr.AlphaCurrent):
-        what, shape_word = f"alpha current peaking at {_ms(stimulus.time_to_peak)} at {where}", "alpha"
-        params["stimulus_amplitude"] = (stimulus.peak, "A")
-        params["time_to_peak"] = (stimulus.time_to_peak, "s")
-    elif isinstance(stimulus, tr.CurrentStep):
-        what, shape_word = f"current step at {where}", "step"
-        params["stimulus_amplitude"] = (stimulus.amplitude, "A")
-    else:
-        raise InputError(f"unknown stimulus {type(stimulus).__name__}")
-    params["stimulus_position"] = (stimulus.position, "m")
-    return f"{shape}, {what}", shape_word, params
-
-
-def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase:
+def transient_case(case: Case, tolerance: float = 1e-12) -> ExactCase:
     """Any time course of :func:`cabletheory.transient.charge` as an :class:`ExactCase`.
 
     Parameters
     ----------
-    model : :class:`~cabletheory.cable.Cylinder` (finite with a sealed, killed or leaky far
-        end; ``length = inf`` for a semi-infinite cable), :class:`~cabletheory.transient.BallAndStick`
-        or :class:`~cabletheory.transient.InfiniteCable`
-    stimulus : :class:`~cabletheory.transient.CurrentStep`, ``CurrentPulse``, ``AlphaCurrent``
-        (at ``position``, m) or ``VoltageStep`` (clamp at the origin; anywhere on an infinite cable)
+    case : the :class:`~cabletheory.case.Case` (cell and stimulus; its recording positions are not
+        used: ``evaluate`` takes its own)
     tolerance : V, bound asked for the truncation error of each exact value. It is passed to
         :func:`~cabletheory.transient.charge` relative to the stimulus's reference voltage, and
         kept between 1e-13 (the rounding allowance of transient.py) and 1e-2 of it; the bound
@@ -217,24 +146,23 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
 
     if not (math.isfinite(tolerance) and tolerance > 0):
         raise InputError(f"exact tolerance must be a positive voltage, got {tolerance!r}")
-    infinite = isinstance(model, tr.InfiniteCable)
-    description, shape_word, params = describe_case(model, stimulus)
-    cylinder = model.cylinder if isinstance(model, tr.BallAndStick) else model
-    length, start = (math.inf, -math.inf) if infinite else (cylinder.length, 0.0)
-    # the tolerance of transient.charge is relative to its reference voltage; a probe at t = 0 gives it
-    probe = tr.charge(model, stimulus, [0.0], [0.0 if infinite else stimulus.position], modes=0)
-    reference = probe.reference_voltage
+    model, stimulus = case.cell, case.stimulus
+    infinite = case.kind == "infinite"
+    params = case.parameters()
+    length, start = case.length, case.lowest_position
+    # the tolerance of transient.charge is relative to the case's reference voltage
+    reference = case.reference_voltage
     relative = min(max(tolerance / reference, 1e-13), 1e-2) if reference > 0 else 1e-10
     params["exact_tolerance"] = (relative * reference, "V")
     if infinite or math.isinf(length):
-        image = ("" if infinite or isinstance(stimulus, tr.VoltageStep)
+        image = ("" if infinite or case.shape == "clamp"
                  else "; source and its image in the sealed origin")
         method = f"closed form (Hodgkin & Rushton 1946 erfc solutions, scaled erfc{image})"
     else:
         method = ("images of the infinite-cable solution at early times, eigen-series with the steady state "
                   "subtracted at later times (Rall 1969), chosen per time"
-                  + ("; a leaky end bracketed between sealed and killed" if 0 < cylinder.end_conductance < math.inf
-                     else ""))
+                  + ("; a leaky end bracketed between sealed and killed"
+                     if 0 < params["end_conductance"][0] < math.inf else ""))
     method += f"; truncation error of each value <= {relative * reference:.2g} V"
 
     def evaluate(times: Array, positions: Array) -> tuple[Array, Array]:
@@ -261,13 +189,13 @@ def transient_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> Exact
                 bound[at] = r.error_bound
         return voltage.reshape(np.shape(times)), bound.reshape(np.shape(times))
 
-    return ExactCase(evaluate=evaluate, description=description, method=method, parameters=params,
-                     length=length, start=start, stimulus_shape=shape_word)
+    return ExactCase(evaluate=evaluate, description=case.describe(), method=method, parameters=params,
+                     length=length, start=start, stimulus_shape=case.shape)
 
 
-def exact_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase:
-    """The exact answer for a model and stimulus: the one rule that ``reference``, ``compare`` and
-    the terminal app's check view share.
+def exact_case(case: Case, tolerance: float = 1e-12) -> ExactCase:
+    """The exact answer for a case: the one rule that ``reference``, ``compare`` and the terminal
+    app's check view share.
 
     A current step at the origin of a finite cylinder with a sealed far end uses the independent
     eigenfunction series of :func:`sealed_step_case` (Rall 1969); every other case, the exact
@@ -275,21 +203,17 @@ def exact_case(model: Any, stimulus: Any, tolerance: float = 1e-12) -> ExactCase
 
     Parameters
     ----------
-    model : :class:`~cabletheory.cable.Cylinder`, :class:`~cabletheory.transient.BallAndStick`
-        or :class:`~cabletheory.transient.InfiniteCable`
-    stimulus : a stimulus of :mod:`cabletheory.transient` (``CurrentStep``, ``CurrentPulse``,
-        ``AlphaCurrent``, ``VoltageStep``)
+    case : the :class:`~cabletheory.case.Case` (cell and stimulus)
     tolerance : V, bound asked for the truncation error of each exact value (positive, finite)
 
     References
     ----------
     Rall W (1969) Biophys. J. 9:1483; Hodgkin AL & Rushton WAH (1946) Proc. R. Soc. B 133:444.
     """
-    from .. import transient as tr
-
     if not (math.isfinite(tolerance) and tolerance > 0):
         raise InputError(f"exact tolerance must be a positive voltage, got {tolerance!r}")
-    if (type(model) is cb.Cylinder and math.isfinite(model.length) and model.end_conductance == 0
-            and type(stimulus) is tr.CurrentStep and stimulus.position == 0):
-        return sealed_step_case(model, stimulus.amplitude, tolerance)
-    return transient_case(model, stimulus, tolerance)
+    cylinder = case.cylinder
+    if (case.kind == "cylinder" and cylinder is not None and math.isfinite(cylinder.length)
+            and cylinder.end_conductance == 0 and case.shape == "step" and case.stimulus.position == 0):
+        return sealed_step_case(cylinder, case.amplitude, tolerance)
+    return transient_case(case, tolerance)
