@@ -78,6 +78,7 @@ __all__ = [
     "root_modes",
     "root_site",
     "site_at",
+    "sites_along",
     "transfer_impedance",
     "transfer_impedance_precise",
 ]
@@ -226,6 +227,53 @@ def site_at(tree: Tree, label: str) -> Site:
 def node_sites(tree: Tree) -> tuple[Site, ...]:
     """The root and the distal node of every piece, in the tree's order (root first)."""
     return (root_site(), *(Site(i, float(ell)) for i, ell in enumerate(np.asarray(tree.lengths))))
+
+
+def _chain(tree: Tree, piece: int) -> list[int]:
+    out = []
+    while piece >= 0:
+        out.append(piece)
+        piece = int(tree.parents[piece])
+    return out
+
+
+def sites_along(tree: Tree, start: Site, end: Site, count: int) -> tuple[tuple[Site, ...], Array]:
+    """``count`` sites equally spaced along the tree's path from ``start`` to ``end``, ends included.
+
+    Returns the sites and their path distance from ``start`` (m). The path is the unique one
+    through the tree (up to the nearest common point, then down).
+    """
+    if not (isinstance(count, int) and count >= 2):
+        raise InputError(f"count must be a whole number >= 2, got {count!r}")
+    (i, xa), (j, xb) = _check_site(tree, start), _check_site(tree, end)
+    ell = np.asarray(tree.lengths, dtype=float)
+    ca, cb = _chain(tree, i), _chain(tree, j)
+    common = next((k for k in ca if k in set(cb)), None)
+    if common is None:
+        ia, ib = len(ca), len(cb)
+    else:
+        ia, ib = ca.index(common), cb.index(common)
+    if common is not None and ia == 0 and ib == 0:
+        legs = [(i, xa, xb)]
+    elif common is not None and ia == 0:
+        legs = [(i, xa, ell[i]), *((k, 0.0, ell[k]) for k in reversed(cb[1:ib])), (j, 0.0, xb)]
+    elif common is not None and ib == 0:
+        legs = [(i, xa, 0.0), *((k, ell[k], 0.0) for k in ca[1:ia]), (j, ell[j], xb)]
+    else:
+        legs = ([(i, xa, 0.0)] if i >= 0 else []) + [(k, ell[k], 0.0) for k in ca[1:ia]]
+        legs += [(k, 0.0, ell[k]) for k in reversed(cb[1:ib])] + ([(j, 0.0, xb)] if j >= 0 else [])
+    if not legs:
+        return (start,) * count, np.zeros(count)
+    spans = np.array([abs(b - a) for _, a, b in legs])
+    edges = np.concatenate(([0.0], np.cumsum(spans)))
+    wanted = np.linspace(0.0, edges[-1], count)
+    sites = []
+    for d in wanted.tolist():
+        k = min(int(np.searchsorted(edges, d, side="right")) - 1, len(legs) - 1)
+        piece, a, b = legs[k]
+        x = a + math.copysign(min(d - edges[k], spans[k]), b - a)
+        sites.append(Site(int(piece), float(min(max(x, 0.0), ell[piece]))))
+    return tuple(sites), wanted
 
 
 # --------------------------------------------------------------------------------------
@@ -556,6 +604,28 @@ def _bisect_rates(net: _Network, indices: IntArray, high: float) -> Array:
     return 0.5 * (lo + hi)
 
 
+def _classified(net: _Network, modes: int, high: float, z0: float, tau_max: float
+                ) -> tuple[Array, IntArray, NDArray[np.bool_], Array]:
+    """The first ``modes`` distinct rates below ``high``: (rates, multiplicities, seen at the root, Y'(s_n))."""
+    rates = _bisect_rates(net, np.arange(modes), high) if modes else np.zeros(0)
+    distinct: list[float] = []
+    mult: list[int] = []
+    for r in rates.tolist():
+        if distinct and abs(r - distinct[-1]) <= 1e-9 * r:
+            mult[-1] += 1
+        else:
+            distinct.append(r)
+            mult.append(1)
+    rate = np.asarray(distinct)
+    step = 1e-20 * np.maximum(rate, 1.0 / tau_max)
+    y = _solve(net, -rate + 1j * step).total[0]
+    # at a visible rate Y vanishes (to the bisection's precision); at a hidden one a branch's
+    # admittance has a pole there, so |Y| is huge: the steady conductance separates the two
+    with np.errstate(invalid="ignore"):
+        visible = np.abs(y.real) <= 1e-3 / z0
+    return rate, np.asarray(mult, dtype=np.int64), visible, y.imag / step
+
+
 def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeModes:
     r"""The ``count`` slowest modes with a voltage at the root: τ_n, step coefficients, residues.
 
@@ -579,30 +649,19 @@ def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeM
     if not (isinstance(count, int) and count >= 1):
         raise InputError(f"count must be a whole number >= 1, got {count!r}")
     net = _network(cell, [])
-    tau_max = float(net.tau.max()) if net.soma_tau == 0 else max(float(net.tau.max()), net.soma_tau)
-    high = 2.0 / tau_max
-    wanted = min(search, 4 * count + 8)
-    while _count(net, np.array([high]))[0] < wanted and high < 1e30:
-        high *= 2.0
-    indices = np.arange(int(_count(net, np.array([high]))[0]))[:search]
-    rates = _bisect_rates(net, indices, high) if indices.size else np.zeros(0)
-    distinct: list[float] = []
-    mult: list[int] = []
-    for r in rates.tolist():
-        if distinct and abs(r - distinct[-1]) <= 1e-9 * r:
-            mult[-1] += 1
-        else:
-            distinct.append(r)
-            mult.append(1)
-    rate = np.asarray(distinct)
+    tau_max = max(float(net.tau.max()), net.soma_tau)
     z0 = float(transfer_impedance(cell, [0.0], None, [root_site()])[0, 0].real)
-    step = 1e-20 * np.maximum(rate, 1.0 / tau_max)
-    sol = _solve(net, -rate + 1j * step)
-    y = sol.total[0]
-    slope = y.imag / step
-    # at a visible rate Y vanishes (to the bisection's precision); at a hidden one a branch's
-    # admittance has a pole there, so |Y| is huge: the steady conductance separates the two
-    visible = np.abs(y.real) <= 1e-3 / z0
+    high = 2.0 / tau_max
+    total = int(_count(net, np.array([high]))[0])
+    while total < min(search, 4 * count + 8) and high < 1e30:
+        high *= 2.0
+        total = int(_count(net, np.array([high]))[0])
+    while True:
+        rate, mult, visible, slope = _classified(net, min(total, search), high, z0, tau_max)
+        if int(visible.sum()) >= count or total >= search or high >= 1e30:
+            break
+        high *= 2.0
+        total = int(_count(net, np.array([high]))[0])
     taus = 1.0 / rate
     vis = np.flatnonzero(visible)[:count]
     residues = 1.0 / slope[vis]

@@ -34,6 +34,7 @@ from cabletheory.tree_laplace import (
     root_modes,
     root_site,
     site_at,
+    sites_along,
     transfer_impedance,
     transfer_impedance_precise,
 )
@@ -295,3 +296,24 @@ def test_per_piece_membrane_changes_the_answer_where_it_should():
     assert input_impedance(cell, [0.0], [root_site()])[0, 0].real == pytest.approx(want, rel=1e-13)
     with pytest.raises(InputError, match="soma_membrane"):
         PassiveTree(demo(soma=20.0), np.full(7, 2.0), RI, CM)
+
+
+def test_sites_along_a_path():
+    """The path between two tips of the demo tree runs up to their common branch point and down
+    again (300 µm of trunk-side daughter, 100 + 50 µm of the two granddaughters: 750 µm); on a
+    one-cylinder tree the steady voltage along it is cosh(L − X)/cosh L of the input (Rall 1959
+    [Rall1959], cabletheory.cable.voltage_ratio)."""
+    tree = demo()
+    sites, distance = sites_along(tree, Site(3, 100e-6), Site(6, 50e-6), 5)
+    assert distance[-1] == pytest.approx(750e-6, rel=1e-12)
+    assert [(s.piece, round(s.distance * 1e6, 6)) for s in sites] == [
+        (3, 100.0), (1, 212.5), (1, 25.0), (2, 162.5), (6, 50.0)]
+    d, ell = 1e-6, 600e-6
+    cell = PassiveTree(sections_tree([-1], [ell], [d]), RM, RI, CM)
+    sites, distance = sites_along(cell.tree, root_site(), Site(0, ell), 7)
+    z = transfer_impedance(cell, [0.0], root_site(), sites)[0].real
+    big_l = ell / float(cable.length_constant(RM, RI, d))
+    x = distance / float(cable.length_constant(RM, RI, d))
+    np.testing.assert_allclose(z / z[0], cable.voltage_ratio(x, big_l, 0.0), rtol=1e-12)
+    with pytest.raises(InputError, match="count"):
+        sites_along(tree, root_site(), Site(3, 0.0), 1)

@@ -30,7 +30,7 @@ from cabletheory import cable, compartment, transient
 from cabletheory.errors import InputError
 from cabletheory.morphology import SectionList
 from cabletheory.tree import Tree, analyse_tree, exact_input_conductances, tree_from_sections
-from cabletheory.tree_laplace import PassiveTree, Site, root_site, site_at, transfer_impedance_precise
+from cabletheory.tree_laplace import PassiveTree, Site, root_modes, root_site, site_at, transfer_impedance_precise
 from cabletheory.tree_time import (
     electrotonic_map,
     frequency_response,
@@ -312,3 +312,58 @@ def test_time_course_refusals():
         tree_response(cell, transient.CurrentStep(NA, position=1e-6), [1e-3], root_site(), [root_site()])
     with pytest.raises(InputError, match="sealed or every tip killed"):
         reduction_cost(PassiveTree(demo(), RM, RI, CM, tips=1e-9), transient.CurrentStep(NA), [1e-3])
+
+
+# --------------------------------------------------------------------------------------
+# input at one branch of a symmetric tree (Rall & Rinzel 1973; Rinzel & Rall 1974)
+# --------------------------------------------------------------------------------------
+@pytest.mark.parametrize("stimulus", [STIMULI[0], STIMULI[2]], ids=["step", "alpha"])
+def test_input_at_one_tip_reaches_the_soma_as_on_the_equivalent_cylinder(stimulus):
+    """Rinzel & Rall 1974 [RinzelRall1974] [MEM]: in a symmetric tree that satisfies Rall's
+    conditions, current into one tip is the symmetric share (the same current spread over all tips,
+    i.e. the equivalent cylinder fed at X = L) plus parts that cancel at every branch point on the
+    way to the soma; so the soma's voltage is that of the equivalent cylinder (cabletheory.transient)
+    at X = 0 with the current at its far end, at all times."""
+    cell = PassiveTree(demo(soma=20.0), RM, RI, CM)
+    mine = tree_response(cell, stimulus, TIMES, site_at(cell.tree, "s5"), [root_site()], tolerance=1e-11)
+    far = 995.4565254e-6
+    bs = transient.BallAndStick(cable.Cylinder(RM, RI, CM, 4e-6, far), 20e-6)
+    moved = (transient.CurrentStep(stimulus.amplitude, far) if isinstance(stimulus, transient.CurrentStep)
+             else transient.AlphaCurrent(stimulus.peak, stimulus.time_to_peak, far))
+    ref = transient.charge(bs, moved, TIMES, [0.0], tolerance=1e-12)
+    assert np.max(np.abs(mine.voltage[:, 0] - ref.voltage[:, 0])) <= 1e-9 * mine.reference_voltage
+
+
+# --------------------------------------------------------------------------------------
+# the bundled unreduced cell
+# --------------------------------------------------------------------------------------
+def test_bundled_cell_slowest_mode_and_convergence():
+    """The invented PV-7 interneuron (1,338 cylinders, outline soma, far from Rall's conditions):
+    with a uniform membrane and sealed tips the slowest mode is isopotential, τ0 = τm (Rall 1969
+    [Rall1969]); and the package's compartmental solve, refined with 1, 2, 4 compartments per
+    cylinder and the time step halved with them, approaches the exact time course at second order
+    (Crank & Nicolson 1947 [CrankNicolson1947])."""
+    from pathlib import Path
+
+    from cabletheory.morphology import read_swc
+    from cabletheory.tree import build_tree
+
+    data = Path(__file__).resolve().parent.parent / "cabletheory" / "data" / "morphologies"
+    tree = build_tree(read_swc(data / "lumenia_pv7_interneuron.swc"))
+    cell = PassiveTree(tree, RM, RI, CM)
+    modes = root_modes(cell, 2)
+    assert modes.time_constants[0] == pytest.approx(TAU, rel=1e-12)
+    assert modes.time_constants[1] < TAU
+    tip = int(np.flatnonzero(np.bincount(tree.parents[tree.parents >= 0], minlength=len(tree)) == 0)[7])
+    times = np.array([0.5e-3, 2e-3, 8e-3])
+    step = transient.CurrentStep(10e-12)
+    exact = tree_response(cell, step, times, Site(tip, float(tree.lengths[tip])), [root_site()]).voltage[:, 0]
+    errors = []
+    for n in (1, 2, 4):
+        c = compartment.discretise_tree(tree.parents, np.maximum(tree.lengths, 1e-12), tree.distal_diameters,
+                                        RM, RI, CM, n, soma_area=tree.soma_area)
+        current = np.zeros(c.size)
+        current[int(compartment.section_nodes(c, tip)[-1])] = step.amplitude
+        errors.append(np.max(np.abs(compartment.integrate(c, current, times, step=0.125e-3 / n)[:, 0] - exact)))
+    ratios = [a / b for a, b in itertools.pairwise(errors)]
+    assert all(3.3 < r < 4.7 for r in ratios), (errors, ratios)
