@@ -32,6 +32,7 @@ COMMANDS: dict[str, str] = {
     "peel": "peel",
     "derive": "derive",
     "tree": "tree",
+    "survey": "survey",
     "reference": "reference",
     "compare": "compare",
     "advise": "advise",
