@@ -14,6 +14,7 @@ from ..case import Case
 from ..errors import InputError
 from ..transient import AlphaCurrent, CurrentPulse, Response, VoltageStep, charge
 from ..units import format_quantity, parse_series
+from ..waveform import ResponseFeatures, response_features
 from .case import add_case_options, read_case_options
 from .common import (
     add_truncation_option,
@@ -56,6 +57,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     fmt.add_argument("--csv", action="store_true",
                      help="print CSV rows: time, position, voltage (SI), after '#' lines with the parameters, "
                           "method, error bound and assumptions")
+    out.add_argument("--no-features", dest="features", action="store_false",
+                     help="leave out the response features (peak, time to peak, rise time, half-width, "
+                          "attenuation), which are read off the exact solution at up to "
+                          f"{FEATURE_POSITIONS} positions")
     out.add_argument("--output", metavar="FILE", help="write the JSON/CSV/text to FILE instead of the screen")
     parser.set_defaults(run=run)
 
@@ -72,18 +77,23 @@ def run(args: argparse.Namespace) -> int:
     tolerance = read_truncation(args.truncation, case)
     response = charge(case.cell, case.stimulus, times, case.positions, tolerance=tolerance,
                       precision=args.precision, modes=args.modes)
+    features: tuple[ResponseFeatures, ...] | None = None
+    if args.features and not args.csv and len(case.positions) <= FEATURE_POSITIONS:
+        features = response_features(case, tolerance=tolerance)
     if args.json:
-        text = dump_json(as_json(case, response))
+        text = dump_json(as_json(case, response, features))
     elif args.csv:
         text = as_csv(case, response)
     else:
-        text = as_text(case, response, args.digits)
+        text = as_text(case, response, args.digits, features)
     if args.output:
         write_atomically(args.output, text if text.endswith("\n") else text + "\n")
     else:
         print(text)
     return 0
 
+
+FEATURE_POSITIONS = 20  # response features are read off the exact solution at up to this many positions
 
 _CELL_NAMES = {"infinite": "infinite cable", "ball-and-stick": "ball and stick"}
 
@@ -112,7 +122,7 @@ def _stimulus_rows(stimulus, digits: int = 4) -> list[tuple[str, str]]:
     return rows
 
 
-def as_json(case: Case, r: Response) -> dict:
+def as_json(case: Case, r: Response, features: tuple[ResponseFeatures, ...] | None = None) -> dict:
     """The response as one JSON object; every quantity is ``{"value": SI, "unit": SI unit}``; ``inputs``
     holds the case in the form of :meth:`cabletheory.case.Case.to_json`."""
     out: dict = {
@@ -137,6 +147,16 @@ def as_json(case: Case, r: Response) -> dict:
         out["steady_state"] = quantity(r.steady_state, "voltage")
     if r.notes:
         out["notes"] = list(r.notes)
+    if features is not None:
+        out["features"] = [{
+            "position": quantity(f.position, "length"),
+            "peak": quantity(f.peak, "voltage"),
+            "time_to_peak": quantity(f.time_to_peak, "time"),
+            "rise_time_10_90": quantity(f.rise_time, "time"),
+            "half_width": quantity(f.half_width, "time"),
+            "attenuation": quantity(f.attenuation, "dimensionless"),
+            "held": f.held,
+        } for f in features]
     return out
 
 
@@ -157,7 +177,7 @@ def as_csv(case: Case, r: Response) -> str:
     return buffer.getvalue().rstrip("\n")
 
 
-def as_text(case: Case, r: Response, digits: int = 4) -> str:
+def as_text(case: Case, r: Response, digits: int = 4, features: tuple[ResponseFeatures, ...] | None = None) -> str:
     """A readable report: inputs echoed with units, the voltage table, time constants, bound, caveat."""
 
     def fmt(value: float, kind: str) -> str:
@@ -201,12 +221,46 @@ def as_text(case: Case, r: Response, digits: int = 4) -> str:
             rows = [(label, f"{value}  C{n} = {fmt(r.coefficients[n, column], 'dimensionless')}")
                     for n, (label, value) in enumerate(rows)]
         blocks.append(table(rows, title))
+    if features:
+        blocks.append(_features_table(features, digits))
     blocks.append(f"Error bound: every voltage above is within {fmt(r.error_bound, 'voltage')} of the exact "
                   f"solution ({r.method}).")
     for note in r.notes:
         blocks.append(f"Note: {note}.")
     blocks.append(f"Note: {PASSIVE_CAVEAT}")
     return "\n\n".join(blocks)
+
+
+def _features_table(features: tuple[ResponseFeatures, ...], digits: int) -> str:
+    """The features as a table, one row per position (held stimuli: final value, no peak time)."""
+    held = features[0].held
+
+    def cell(value: float, kind: str) -> str:
+        return "—" if math.isnan(value) else format_quantity(value, kind, digits)
+
+    header = ["at", "final V" if held else "peak V", "rise 10–90 %"]
+    if not held:
+        header[2:2] = ["time to peak"]
+        header.append("half-width")
+    header.append("attenuation")
+    rows = []
+    for f in features:
+        row = [format_quantity(f.position, "length", digits) if f.position else "0", cell(f.peak, "voltage")]
+        if not held:
+            row.append(cell(f.time_to_peak, "time"))
+        row.append(cell(f.rise_time, "time"))
+        if not held:
+            row.append(cell(f.half_width, "time"))
+        row.append(cell(f.attenuation, "dimensionless"))
+        rows.append(row)
+    widths = [max(len(h), *(len(row[j]) for row in rows)) for j, h in enumerate(header)]
+    title = ("Response features (read off the exact solution, not the output grid; attenuation: V / V at the "
+             "stimulus site)")
+    out = [title, "-" * len(title), "  " + "  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
+    out += ["  " + "  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)) for row in rows]
+    if held:
+        out.append("  a held stimulus charges monotonically to its final value: no peak time or half-width")
+    return "\n".join(out)
 
 
 def _voltage_table(r: Response, digits: int) -> str:
