@@ -126,10 +126,16 @@ def _read_text(path: str | Path) -> tuple[str, str]:
     return _decode(read_input_bytes(p, "morphology file"), str(p)), str(p)
 
 
+# characters that can be binary junk inside a line (line separators such as \n, \v, \f, \x1c-\x1e split lines)
+_SUSPECT = re.compile("[\x00-\x08\x0e-\x1b\x1f\ufffd]")
+
+
 def _decode(data: bytes, source: str) -> str:
     """Decode text (a leading byte-order mark is dropped); binary junk (NUL or other control bytes
     in a data line) is an error."""
     text = data.decode("utf-8-sig", errors="replace")
+    if _SUSPECT.search(text) is None:  # the usual case, without a Python loop over every character
+        return text
     for number, line in enumerate(text.splitlines(), start=1):
         content = line.split("#", 1)[0]
         bad = next((ch for ch in content if ch == "\ufffd" or (ord(ch) < 32 and ch not in "\t\r\f\v")), None)
