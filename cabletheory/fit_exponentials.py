@@ -95,7 +95,7 @@ def _linear(t: Array, y: Array, w: Array, taus: Array, offset: bool) -> tuple[Ar
     """(linear coefficients [c?, a_0..], weighted residuals) for fixed time constants."""
     A = _basis(t, taus, offset) * w[:, None]
     coef, *_ = np.linalg.lstsq(A, y * w, rcond=None)
-    return coef, A @ coef - y * w
+    return np.asarray(coef, dtype=float), A @ coef - y * w
 
 
 def _project(t: Array, y: Array, w: Array, log_tau0: Array, offset: bool, bounds: tuple[float, float]

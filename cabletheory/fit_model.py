@@ -269,6 +269,10 @@ def fit_model(times: ArrayLike, voltage: ArrayLike, *, model: str = "ball-and-st
             start_t = float(t_all[keep][0]) if keep.any() else 0.0
     keep &= t_all >= start_t
     t, y, w = t_all[keep], y_all[keep], w_all[keep]
+    if duration is not None:
+        # a sample a rounding error after the end of the pulse would need millions of modes; the
+        # voltage is continuous there, so it is evaluated at the end itself
+        t = np.where(np.abs(t - duration) <= 1e-9 * duration, duration, t)
     names = _names(model)
     if t.size < len(names) + 6:
         raise InputError(f"only {t.size} samples lie in the fitting window; at least {len(names) + 6} are needed")

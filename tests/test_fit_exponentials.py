@@ -131,7 +131,8 @@ def test_decay_without_offset():
     """A decay to rest (offset fixed at 0) is fitted with the same machinery."""
     y = 7e-3 * np.exp(-T / TAUS[0]) + 2e-3 * np.exp(-T / TAUS[1])
     f = fit_exponentials(T, y + np.random.default_rng(9).normal(0, 0.02e-3, T.size), 2, offset=False)
-    assert f.offset == 0.0 and f.coefficients is None
+    assert f.offset == 0.0
+    assert f.coefficients is None
     assert f.time_constants == pytest.approx(TAUS, rel=0.05)
 
 
@@ -168,7 +169,8 @@ def test_bootstrap_intervals_agree_with_the_covariance_and_are_seeded():
 def test_given_window_is_respected():
     y = two_exponentials(T)
     d = decompose(T, y, window=(5e-3, 40e-3))
-    assert d.window[0] >= 5e-3 and d.window[1] <= 40e-3
+    assert d.window[0] >= 5e-3
+    assert d.window[1] <= 40e-3
     assert not d.window_chosen
 
 
