@@ -118,3 +118,14 @@ def test_tree_example_matches_the_reference_tree():
     assert data["equivalent_cylinder"]["diameter"]["value"] == pytest.approx(4e-6, rel=1e-12)
     assert data["input_resistance"]["value"] == pytest.approx(185.1329030e6, rel=1e-9)
     assert data["reduced_input_resistance"]["value"] == pytest.approx(185.1329030e6, rel=1e-9)
+
+
+def test_python_notebook_numbers_match_outside_values():
+    """The notebook example: λ = sqrt(Rm d / 4 Ri) = 707.1067811865475 µm for the demo dendrite
+    [Rall1959], and an input at the middle of a cylinder sealed at both ends gives the same response
+    at both ends (symmetry of the cable equation's boundary problem, common practice [CP])."""
+    text = (ROOT / "worked" / "python_notebook" / "expected.txt").read_text(encoding="utf-8")
+    assert "| length_constant | 0.0007071067811865475 | m |" in text
+    ends = [line.split(":", 1)[1] for line in text.splitlines() if line.startswith(("at     0 µm", "at   500 µm"))]
+    assert len(ends) == 2
+    assert ends[0] == ends[1]
