@@ -102,5 +102,5 @@ def test_truncation_relative_or_absolute():
 
 
 def test_positions_off_the_cell_are_refused_by_the_case_rule():
-    with pytest.raises(InputError, match="^positions: 900 µm lies outside the cell"):
+    with pytest.raises(InputError, match=r"^positions: 900 µm lies outside the cell"):
         cq.time_course(cq.case(**DEMO), times="1 ms", positions="900 µm")
