@@ -151,7 +151,7 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 def _run(arguments: list[str]) -> int:
     parser = build_parser(arguments[0] if arguments else None)
-    if not arguments:
+    if not [a for a in arguments if a != "--"]:
         raise InputError(f"no command given; choose one of {', '.join(COMMANDS)} ('cabletheory --help' "
                          "describes them)")
     args = parser.parse_args(arguments)

@@ -184,6 +184,9 @@ def run(args: argparse.Namespace) -> int:
             raise InputError("one cable needs --diameter and --length (or give a tree)")
         cylinder = read_cylinder(args)
         site = parse_quantity(args.read_at, "length", "--read-at", allow_zero=True) if args.read_at else None
+        if site is not None and site > cylinder.length:
+            raise InputError(f"--read-at: {format_quantity(site, 'length')} lies beyond the cable's end "
+                             f"({format_quantity(cylinder.length, 'length')})")
         exact_course = times = None
         if args.quantity == "time-course":
             times = np.array(parse_series(args.times, "time", "--times"))
