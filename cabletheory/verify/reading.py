@@ -89,6 +89,20 @@ class Recording:
 _CUSTOMARY = {"time": "ms", "length": "um", "voltage": "mV"}
 
 
+def _cells(raw: str, name: str, line: int) -> list[str]:
+    """The cells of one CSV line; a line the csv module cannot split is a one-line error."""
+    try:
+        return next(csv.reader([raw]))
+    except csv.Error as exc:
+        limit = csv.field_size_limit()
+        if "field limit" in str(exc):
+            raise FileFormatError(f"{name}, line {line}: a cell is longer than {limit} characters; expected "
+                                  "numbers") from None
+        raise FileFormatError(f"{name}, line {line}: cannot split the line into cells ({exc})") from None
+    except StopIteration:  # pragma: no cover - a non-empty line always gives a row
+        return []
+
+
 def _where(name: str, line: int, column: int, cell: str) -> str:
     return f"{name}, line {line}, column {column} ({cell.strip()!r})"
 
@@ -148,7 +162,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
             if m:
                 metadata[m.group("key").strip().lower()] = m.group("value")
             continue
-        cells = next(csv.reader([raw]))
+        cells = _cells(raw, name, number)
         if header is None:
             header, header_line = cells, number
         else:
