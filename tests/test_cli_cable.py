@@ -125,3 +125,58 @@ def test_console_script_exit_status(tmp_path):
     assert proc.returncode == 2
     assert proc.stderr.startswith("cabletheory: error: --Rm")
     assert "Traceback" not in proc.stderr
+
+
+BASE = ["cable", "--Rm", "20 kΩ·cm²", "--Ri", "100 Ω·cm", "--diameter", "2um"]
+
+
+def test_without_length_only_what_holds_for_any_length(capsys):
+    """λ = 1 mm and R∞ = 318.3 MΩ need no length (Rall 1959 [Rall1959]); L and R_in do."""
+    status, out, _ = run(capsys, BASE)
+    assert status == 0
+    assert "length constant λ                    1.000 mm" in out
+    assert "semi-infinite input resistance R∞    318.3 MΩ" in out
+    assert "length                              not given" in out
+    assert "input resistance R_in" not in out
+    assert "electrotonic length" not in out
+    data = json.loads(run(capsys, [*BASE, "--json"])[1])
+    assert data["inputs"]["length"] is None
+    assert data["length_constant"]["value"] == pytest.approx(1e-3)
+
+
+def test_without_length_a_far_end_is_refused(capsys):
+    status, _, err = run(capsys, [*BASE, "--end", "killed"])
+    assert status == 2
+    assert err.startswith("cabletheory: error: --end: without --length there is no far end")
+
+
+def test_vary_tabulates_one_input_and_matches_single_runs(capsys):
+    """λ ∝ √d and R∞ ∝ d^(-3/2) (Rall 1959 [Rall1959]): doubling d multiplies λ by √2 and R∞ by 2^-1.5."""
+    status, out, _ = run(capsys, [*BASE, "--length", "500um", "--vary", "diameter=1, 2, 4 um", "--json"])
+    assert status == 0
+    data = json.loads(out)
+    assert data["varied"] == "diameter"
+    assert "diameter" not in data["fixed_inputs"]
+    lam = [row["length_constant"]["value"] for row in data["rows"]]
+    r_inf = [row["semi_infinite_input_resistance"]["value"] for row in data["rows"]]
+    assert lam[1] / lam[0] == pytest.approx(math.sqrt(2), rel=1e-12)
+    assert r_inf[0] / r_inf[2] == pytest.approx(8.0, rel=1e-12)
+    single = json.loads(run(capsys, [*BASE, "--diameter", "4um", "--length", "500um", "--json"])[1])
+    assert data["rows"][2]["input_resistance"] == single["input_resistance"]
+    text = run(capsys, [*BASE, "--length", "500um", "--vary", "length=100:300:100 um"])[1]
+    assert "Results as length varies" in text
+    assert text.count(" µm ") >= 3
+    assert "Held fixed: " in text
+
+
+@pytest.mark.parametrize(("vary", "message"), [
+    ("colour=1,2", "--vary: 'colour=1,2' is not INPUT=VALUES"),
+    ("diameter", "is not INPUT=VALUES"),
+    ("diameter=1, -2 um", "--vary diameter"),
+    ("Rm=1 mV", "--vary Rm"),
+])
+def test_bad_vary_is_one_line(capsys, vary, message):
+    status, _, err = run(capsys, [*BASE, "--length", "500um", "--vary", vary])
+    assert status == 2
+    assert message in err
+    assert err.count("\n") == 1

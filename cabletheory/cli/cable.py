@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import math
 
 import numpy as np
 
 from .. import PASSIVE_CAVEAT
-from ..cable import CableSummary, summarise
+from ..cable import CableSummary, Cylinder, summarise
 from ..errors import InputError
 from ..units import format_quantity, parse_quantity, parse_series
 from .common import add_cable_options, dump_json, echo_cylinder, quantity, read_cylinder, table, whole_number
@@ -22,7 +23,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                     "at its origin (X = 0) and a sealed, killed or leaky far end.",
         epilog=PASSIVE_CAVEAT,
     )
-    add_cable_options(parser)
+    add_cable_options(parser, length_required=False)
+    parser.add_argument("--vary", metavar="INPUT=VALUES",
+                        help="tabulate the results over several values of one input, e.g. 'diameter=0.5, 1, 2, 4 um' "
+                             f"or 'length=100:1000:100 um'; INPUT is one of {', '.join(VARIABLE)}")
     parser.add_argument("--frequency", metavar="F",
                         help="also give the impedance and AC length constant at this frequency (bare: Hz)")
     parser.add_argument("--positions", metavar="POSITIONS",
@@ -40,10 +44,23 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.set_defaults(run=run)
 
 
+# the inputs --vary can step through: option word -> (Cylinder field, quantity kind)
+VARIABLE = {"Rm": ("membrane_resistivity", "membrane_resistivity"), "Ri": ("axial_resistivity", "axial_resistivity"),
+            "Cm": ("membrane_capacitance", "membrane_capacitance"), "diameter": ("diameter", "length"),
+            "length": ("length", "length")}
+
+
 def run(args: argparse.Namespace) -> int:
+    no_length = args.length is None
+    if no_length:
+        if args.end != "sealed":
+            raise InputError(f"--end: without --length there is no far end; drop --end {args.end!r} or give --length")
+        args.length = "inf"
     cylinder = read_cylinder(args)
     if math.isinf(cylinder.length) and cylinder.end_conductance != 0:
         raise InputError(f"--end: a semi-infinite cable (--length inf) has no far end; drop --end {args.end!r}")
+    if args.vary is not None:
+        return _run_sweep(args, cylinder)
     frequency = None
     if args.frequency is not None:
         frequency = parse_quantity(args.frequency, "frequency", "--frequency", allow_zero=True)
@@ -59,8 +76,87 @@ def run(args: argparse.Namespace) -> int:
             raise InputError(f"--positions: {format_quantity(beyond[0], 'length')} lies beyond the cable's length "
                              f"{format_quantity(cylinder.length, 'length')}")
     summary = summarise(cylinder, positions, frequency, fraction, advice_frequency)
-    print(dump_json(as_json(summary)) if args.json else as_text(summary, args.digits))
+    if args.json:
+        out = as_json(summary)
+        if no_length:
+            out["inputs"]["length"] = None
+        print(dump_json(out))
+    else:
+        print(as_text(summary, args.digits, no_length=no_length))
     return 0
+
+
+def _run_sweep(args: argparse.Namespace, cylinder: Cylinder) -> int:
+    """``--vary INPUT=VALUES``: the main results for each value of one input, the others as given."""
+    name, sep, values_text = args.vary.partition("=")
+    name = name.strip()
+    if not sep or name not in VARIABLE:
+        raise InputError(f"--vary: {args.vary!r} is not INPUT=VALUES with INPUT one of {', '.join(VARIABLE)} "
+                         "(e.g. 'diameter=0.5, 1, 2 um')")
+    if args.positions is not None:
+        raise InputError("--positions: a profile is given for one cable; leave out --vary or --positions")
+    field, kind = VARIABLE[name]
+    values = parse_series(values_text, kind, f"--vary {name}", allow_zero=False, max_points=1000)
+    frequency = None
+    if args.frequency is not None:
+        frequency = parse_quantity(args.frequency, "frequency", "--frequency", allow_zero=True)
+    rows = []
+    for value in values:
+        try:
+            varied = dataclasses.replace(cylinder, **{field: value})
+        except ValueError as exc:
+            raise InputError(f"--vary {name}: {exc}") from None
+        rows.append(summarise(varied, (), frequency))
+    if args.json:
+        print(dump_json(sweep_json(name, kind, values, rows)))
+    else:
+        print(sweep_text(name, kind, values, rows, args.digits))
+    return 0
+
+
+_SWEEP_COLUMNS = (("length constant λ", "length_constant", "length"),
+                  ("τm", "membrane_time_constant", "time"),
+                  ("L = ℓ/λ", "electrotonic_length", "dimensionless"),
+                  ("R∞", "semi_infinite_input_resistance", "resistance"),
+                  ("R_in", "input_resistance", "resistance"),
+                  ("V(ℓ)/V(0)", "far_end_voltage_ratio", "dimensionless"))
+
+
+def sweep_json(name: str, kind: str, values: list[float], rows: list[CableSummary]) -> dict:
+    """One JSON object: the varied input, the inputs held fixed, and one object per value."""
+    fixed = as_json(rows[0])["inputs"]
+    fixed.pop(VARIABLE[name][0], None)
+    out_rows = []
+    for value, s in zip(values, rows, strict=True):
+        row = {VARIABLE[name][0]: quantity(value, kind)}
+        row.update({key: quantity(getattr(s, key), k) for _label, key, k in _SWEEP_COLUMNS})
+        if s.input_impedance is not None:
+            row["input_impedance_magnitude"] = quantity(abs(s.input_impedance), "resistance")
+        out_rows.append(row)
+    return {"varied": VARIABLE[name][0], "fixed_inputs": fixed, "rows": out_rows, "assumptions": PASSIVE_CAVEAT}
+
+
+def sweep_text(name: str, kind: str, values: list[float], rows: list[CableSummary], digits: int = 4) -> str:
+    """A table with one row per value of the varied input."""
+    header = [name] + [label for label, _key, _k in _SWEEP_COLUMNS]
+    with_z = rows[0].input_impedance is not None and rows[0].frequency is not None
+    if with_z:
+        header.append(f"|Z_in| at {format_quantity(rows[0].frequency or 0.0, 'frequency', digits)}")
+    lines = []
+    for value, s in zip(values, rows, strict=True):
+        line = [format_quantity(value, kind, digits)]
+        line += [format_quantity(getattr(s, key), k, digits) for _label, key, k in _SWEEP_COLUMNS]
+        if with_z and s.input_impedance is not None:
+            line.append(format_quantity(abs(s.input_impedance), "resistance", digits))
+        lines.append(line)
+    widths = [max(len(h), *(len(r[j]) for r in lines)) for j, h in enumerate(header)]
+    fixed = [f"{label.split(' (')[0]} {value}" for label, value in echo_cylinder(rows[0].cylinder)
+             if not label.startswith(name if name != "length" else "length")]
+    title = f"Results as {name} varies (input at the origin)"
+    out = [title, "-" * len(title), "  " + "  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
+    out += ["  " + "  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in lines]
+    out += ["", "Held fixed: " + "; ".join(fixed), "", f"Note: {PASSIVE_CAVEAT}"]
+    return "\n".join(out)
 
 
 def as_json(s: CableSummary) -> dict:
@@ -121,8 +217,10 @@ def _end_label(s: CableSummary) -> str:
     return "killed end" if math.isinf(s.cylinder.end_conductance) else "leaky end"
 
 
-def as_text(s: CableSummary, digits: int = 4) -> str:
-    """A readable report: inputs echoed with units, results with units, the profile, the caveat."""
+def as_text(s: CableSummary, digits: int = 4, *, no_length: bool = False) -> str:
+    """A readable report: inputs echoed with units, results with units, the profile, the caveat.
+
+    ``no_length``: the user gave no length; only what holds for any length (and R∞) is shown."""
 
     def fmt(value: float, kind: str) -> str:
         return format_quantity(value, kind, digits)
@@ -130,7 +228,10 @@ def as_text(s: CableSummary, digits: int = 4) -> str:
     def per_length(value: float, unit_label: str, scale: float) -> str:
         return f"{fmt(value * scale, 'dimensionless')} {unit_label}"
 
-    blocks = [table(echo_cylinder(s.cylinder), "Inputs")]
+    echo = echo_cylinder(s.cylinder)
+    if no_length:
+        echo = [row for row in echo if row[0] not in ("length", "far end")] + [("length", "not given")]
+    blocks = [table(echo, "Inputs")]
     rows = [
         ("length constant λ", fmt(s.length_constant, "length")),
         ("membrane time constant τm", fmt(s.membrane_time_constant, "time")),
@@ -148,6 +249,8 @@ def as_text(s: CableSummary, digits: int = 4) -> str:
         ("input conductance G_in", fmt(s.input_conductance, "conductance")),
         ("far-end voltage ratio V(ℓ)/V(0)", fmt(s.far_end_voltage_ratio, "dimensionless")),
     ]
+    if no_length:
+        rows = [row for row in rows if not row[0].startswith(("electrotonic length", "input ", "far-end"))]
     blocks.append(table(rows, "Steady state (input at the origin)"))
     if s.frequency is not None and s.input_impedance is not None and s.ac_length_constant is not None:
         z = s.input_impedance
@@ -165,6 +268,9 @@ def as_text(s: CableSummary, digits: int = 4) -> str:
             f"{'s' if s.segments_needed == 1 else ''} each within "
             f"{s.segment_fraction:g} λ at {fmt(s.advice_frequency, 'frequency')} (a rule of common practice, "
             f"not an error bound).")
+    if no_length:
+        blocks.append("Without --length: λ, τm and the per-length values hold for any length of this cylinder; "
+                      "R∞ is the input resistance of a semi-infinite one.")
     blocks.append(f"Note: {PASSIVE_CAVEAT}")
     return "\n\n".join(blocks)
 
