@@ -348,13 +348,20 @@ class PoolRunner:
     def run(self, batches: Sequence[list[tuple[str, str]]], settings: SurveySettings) -> Iterator[list[Row]]:
         from concurrent.futures import ProcessPoolExecutor, as_completed
 
-        pool = ProcessPoolExecutor(max_workers=self.workers)
+        pool = ProcessPoolExecutor(max_workers=self.workers, initializer=_ignore_interrupt)
         try:
             futures = [pool.submit(audit_batch, batch, settings) for batch in batches]
             for future in as_completed(futures):
                 yield future.result()
         finally:
             pool.shutdown(wait=False, cancel_futures=True)
+
+
+def _ignore_interrupt() -> None:
+    """In a pool worker: leave Ctrl-C to the parent, which stops the pool and keeps the journal."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
 
 
 class DaskRunner:

@@ -23,3 +23,6 @@ def test_demo_runs_every_step(capsys):
     assert "equivalent cylinder diameter                    2.000 µm" in out
     assert "equivalent cylinder length ℓ = Lλ               500.0 µm" in out
     assert "passive, linear, uniform membrane" in out
+    # the survey step: every cell of the bundled archive, the damaged files as rows
+    assert "cells                                            33 (30 analysed, 3 could not be read or analysed)" in out
+    assert "lumenia_orphan.swc:307: parent 9999" in out

@@ -269,3 +269,31 @@ def test_a_killed_survey_resumes_and_gives_the_uninterrupted_table(tmp_path):
     assert whole.returncode == 0, whole.stderr
     assert output.read_bytes() == clean.read_bytes()
     assert output.read_text(encoding="utf-8").count("\n") > total
+
+
+@pytest.mark.slow
+def test_ctrl_c_stops_the_survey_keeps_the_journal_and_resume_finishes_it(tmp_path):
+    """Ctrl-C (SIGINT to the whole process group, as a terminal sends it): status 130, one line
+    saying how to continue, no table; --resume then finishes with the uninterrupted table."""
+    archive = tmp_path / "archive"
+    for copy in range(8):
+        shutil.copytree(ARCHIVE, archive / f"copy{copy}")
+    argv = [sys.executable, "-m", "cabletheory", "survey", str(archive), "--Rm", "20000", "--Ri", "150",
+            "--batch", "2", "--output", str(tmp_path / "t.csv")]
+    process = subprocess.Popen(argv, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                               start_new_session=True)
+    _wait_for_rows(tmp_path / "t.csv.journal", 4, process)
+    os.killpg(process.pid, signal.SIGINT)
+    out, err = process.communicate(timeout=120)
+    assert process.returncode == 130
+    assert out == ""
+    assert err == (f"cabletheory: survey interrupted; the finished cells are kept in {tmp_path / 't.csv.journal'}; "
+                   "run the same command with --resume to continue\n")
+    assert not (tmp_path / "t.csv").exists()
+    kept = (tmp_path / "t.csv.journal").read_text(encoding="utf-8").count("\n") - 1
+    resumed = subprocess.run([*argv, "--resume"], capture_output=True, text=True)
+    assert resumed.returncode == 0, resumed.stderr
+    assert f"{kept} cells taken from the journal" in resumed.stdout
+    whole = subprocess.run([*argv[:-1], str(tmp_path / "clean.csv")], capture_output=True, text=True)
+    assert whole.returncode == 0, whole.stderr
+    assert (tmp_path / "t.csv").read_bytes() == (tmp_path / "clean.csv").read_bytes()

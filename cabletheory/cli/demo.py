@@ -8,7 +8,9 @@ realistic ranges. Each step prints the command it runs, so the tour doubles as a
 from __future__ import annotations
 
 import argparse
+import os
 import shlex
+import tempfile
 from importlib import resources
 
 from .. import PASSIVE_CAVEAT
@@ -23,8 +25,10 @@ DENDRITE = [*CELL, "--diameter", "2 µm", "--length", "500 µm", "--end", "seale
 RUN = [*DENDRITE, "--current", "100 pA", "--rest", "-62 mV", "--onset", "1 ms", "--pass-within", "20 uV"]
 
 
-def steps() -> list[tuple[str, list[str]]]:
-    """(story, argv) for each step of the tour; steps whose command is not built are skipped."""
+def steps(scratch: str | None = None) -> list[tuple[str, list[str]]]:
+    """(story, argv) for each step of the tour; steps whose command is not built are skipped.
+    Files the tour writes go to the folder ``scratch`` (default: the system's temporary folder)."""
+    survey_table = os.path.join(scratch or tempfile.gettempdir(), "lumenia_survey.csv")
     return [
         ("A mantle-edge interneuron's main dendrite, 2 µm across and 500 µm long, sealed at its tip: "
          "how far does a steady signal from the soma reach, and what does it look like at 100 Hz?",
@@ -45,6 +49,10 @@ def steps() -> list[tuple[str, list[str]]]:
         ("A realistic-looking interneuron (invented, type PV-7): which branch points and tips stop it from "
          "being reduced, and what does the exact input resistance say?",
          ["tree", _data("morphologies/lumenia_pv7_interneuron.swc"), "--Rm", "20 kΩ·cm²", "--Ri", "150 Ω·cm"]),
+        ("The station's archive holds 33 reconstructions from two tide pools, three of them damaged in transfer. "
+         "Which cells could be reduced, and what would the reduction cost? One row per cell, in parallel:",
+         ["survey", _data("archive"), "--Rm", "20 kΩ·cm²", "--Ri", "150 Ω·cm", "--output", survey_table,
+          "--show", "3"]),
         ("The station's simulator charged the dendrite of step 1 with a 100 pA step on a coarse grid. Is it "
          "accurate to 20 µV? (A failing verdict is the expected answer here.)",
          ["compare", _data("runs/lumenia_coarse.csv"), *RUN]),
@@ -65,11 +73,12 @@ def run(args: argparse.Namespace) -> int:
     print("Tidewater Station demo: invented data about the sea slug Lumenia vadosa.")
     print(f"({PASSIVE_CAVEAT})")
     status = 0  # a failing verdict (status 1) is part of the story, not a failure of the demo
-    for number, (story, argv) in enumerate(steps(), start=1):
-        if argv[0] not in COMMANDS:
-            continue
-        print(f"\n=== step {number}: {story}\n$ cabletheory {shlex.join(argv)}\n", flush=True)
-        step_status = main(argv)
-        if step_status == 2:  # bad input: the bundled data or this tour is broken
-            status = 2
+    with tempfile.TemporaryDirectory(prefix="cabletheory-demo-") as scratch:
+        for number, (story, argv) in enumerate(steps(scratch), start=1):
+            if argv[0] not in COMMANDS:
+                continue
+            print(f"\n=== step {number}: {story}\n$ cabletheory {shlex.join(argv)}\n", flush=True)
+            step_status = main(argv)
+            if step_status == 2:  # bad input: the bundled data or this tour is broken
+                status = 2
     return status

@@ -34,7 +34,9 @@ def figures_svg(rows: Sequence[Row], settings: SurveySettings) -> str:
     (a, b), (c, d) = fig.subplots(2, 2)
     medians, worst = _values(rows, "ratio_median"), _values(rows, "ratio_worst")
     if medians:
-        bins = 30
+        import numpy as np
+
+        bins = np.histogram_bin_edges(medians + worst, bins=40)
         a.hist(worst, bins=bins, color="#cc6622", alpha=0.55, label="farthest from 1")
         a.hist(medians, bins=bins, color="#225577", alpha=0.75, label="median")
         a.axvspan(1 - tol.branch_ratio, 1 + tol.branch_ratio, color="#88aa88", alpha=0.25, label="1 ± tolerance")
