@@ -12,7 +12,7 @@ import numpy as np
 from .. import PASSIVE_CAVEAT
 from ..case import Case
 from ..errors import InputError
-from ..transient import AlphaCurrent, CurrentPulse, Response, VoltageStep, charge
+from ..transient import Response, charge
 from ..units import format_quantity, parse_series
 from ..waveform import ResponseFeatures, response_features
 from .case import add_case_options, read_case_options
@@ -104,21 +104,22 @@ def _cell_name(case: Case) -> str:
     return _CELL_NAMES[case.kind]
 
 
-def _stimulus_rows(stimulus, digits: int = 4) -> list[tuple[str, str]]:
-    def fmt(value: float, kind: str) -> str:
-        return format_quantity(value, kind, digits)
+_STIMULUS_WORDS = {"step": ("current step", "current"), "pulse": ("current pulse", "current"),
+                   "alpha": ("alpha current", "peak current"), "clamp": ("voltage-clamp step", "clamp step")}
 
-    if isinstance(stimulus, VoltageStep):
-        rows = [("stimulus", "voltage-clamp step"), ("clamp step", fmt(stimulus.amplitude, "voltage"))]
-    elif isinstance(stimulus, CurrentPulse):
-        rows = [("stimulus", "current pulse"), ("current", fmt(stimulus.amplitude, "current")),
-                ("duration", fmt(stimulus.duration, "time"))]
-    elif isinstance(stimulus, AlphaCurrent):
-        rows = [("stimulus", "alpha current"), ("peak current", fmt(stimulus.peak, "current")),
-                ("time to peak", fmt(stimulus.time_to_peak, "time"))]
-    else:
-        rows = [("stimulus", "current step"), ("current", fmt(stimulus.amplitude, "current"))]
-    rows.append(("applied at", fmt(stimulus.position, "length") if stimulus.position else "0 (origin)"))
+
+def _stimulus_rows(case: Case, digits: int = 4) -> list[tuple[str, str]]:
+    """The stimulus echoed as (label, value with unit) rows, from the case's own shape and parameters."""
+    parameters = case.parameters()
+    what, amplitude_label = _STIMULUS_WORDS[case.shape]
+    rows = [("stimulus", what), (amplitude_label, format_quantity(case.amplitude, "voltage" if case.shape == "clamp"
+                                                                  else "current", digits))]
+    if "pulse_duration" in parameters:
+        rows.append(("duration", format_quantity(parameters["pulse_duration"][0], "time", digits)))
+    if "time_to_peak" in parameters:
+        rows.append(("time to peak", format_quantity(parameters["time_to_peak"][0], "time", digits)))
+    site = case.stimulus.position
+    rows.append(("applied at", format_quantity(site, "length", digits) if site else "0 (origin)"))
     return rows
 
 
@@ -196,7 +197,7 @@ def as_text(case: Case, r: Response, digits: int = 4, features: tuple[ResponseFe
     parameters = case.parameters()
     if "soma_diameter" in parameters:
         echo.append(("soma diameter (sphere)", fmt(parameters["soma_diameter"][0], "length")))
-    echo += _stimulus_rows(stimulus, digits)
+    echo += _stimulus_rows(case, digits)
     echo.append(("truncation (relative)", f"{r.tolerance:g}"))
     if r.precision is not None:
         echo.append(("precision", f"mpmath, {r.precision} digits"))
