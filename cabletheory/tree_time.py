@@ -51,8 +51,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from .case import AlphaCurrent, CurrentPulse, CurrentStep, VoltageStep
 from .errors import InputError
-from .transient import AlphaCurrent, CurrentPulse, CurrentStep, VoltageStep
 from .tree_laplace import (
     PassiveTree,
     Site,
@@ -543,8 +543,9 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     Rall W (1959) Exp. Neurol. 1:491; Rall W (1969) Biophys. J. 9:1483 (τ0/τ1, C1/C0 and peeling).
     """
     from .cable import Cylinder
+    from .case import BallAndStick
     from .inverse import estimate_from_peeling
-    from .transient import BallAndStick, charge
+    from .transient import charge
     from .tree import analyse_tree
 
     tree = cell.tree

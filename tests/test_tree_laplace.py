@@ -22,7 +22,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from cabletheory import cable, transient
+from cabletheory import cable, case, transient
 from cabletheory.errors import InputError
 from cabletheory.morphology import SectionList, read_swc
 from cabletheory.tree import Tree, build_tree, exact_input_conductances, tree_from_sections
@@ -218,9 +218,25 @@ def test_sealed_cylinder_modes(big_l):
     want = TAU / (1 + (np.arange(4) * math.pi / big_l) ** 2)
     np.testing.assert_allclose(modes.time_constants, want, rtol=1e-12)
     cyl = cable.Cylinder(RM, RI, CM, d, big_l * lam)
-    reference = transient.charge(cyl, transient.CurrentStep(1e-10), [0.01], [0.0], modes=4)
+    reference = transient.charge(cyl, case.CurrentStep(1e-10), [0.01], [0.0], modes=4)
     np.testing.assert_allclose(modes.coefficients, reference.coefficients[:, 0], rtol=1e-9)
     assert modes.hidden.size == 0
+
+
+@pytest.mark.parametrize("end", ["killed", 0.4e-9])
+def test_cylinder_modes_with_a_killed_or_leaky_end(end):
+    """The time constants of one cylinder with a killed or leaky far end are those of
+    cabletheory.eigen (the roots of its pole-free eigenvalue equation, Rall 1969 [Rall1969]), with the coefficients of
+    cabletheory.transient for a step at the sealed origin."""
+    d, big_l = 2e-6, 1.3
+    lam = float(cable.length_constant(RM, RI, d))
+    cell = PassiveTree(sections_tree([-1], [big_l * lam], [d]), RM, RI, CM, tips=end)
+    modes = root_modes(cell, 4)
+    cyl = cable.Cylinder(RM, RI, CM, d, big_l * lam, math.inf if end == "killed" else end)
+    reference = transient.charge(cyl, case.CurrentStep(1e-10), [0.01], [0.0], modes=4)
+    np.testing.assert_allclose(modes.time_constants, reference.time_constants, rtol=1e-12)
+    np.testing.assert_allclose(modes.coefficients, reference.coefficients[:, 0], rtol=1e-9)
+    assert modes.time_constants[0] < TAU
 
 
 def test_conforming_tree_with_soma_has_the_ball_and_stick_modes():
@@ -234,8 +250,8 @@ def test_conforming_tree_with_soma_has_the_ball_and_stick_modes():
                                rtol=2e-10)
     assert modes.time_constants[0] == pytest.approx(TAU, rel=1e-13)
     eq = 995.4565254e-6
-    bs = transient.BallAndStick(cable.Cylinder(RM, RI, CM, 4e-6, eq), 20e-6)
-    reference = transient.charge(bs, transient.CurrentStep(1e-10), [0.01], [0.0], modes=4)
+    bs = case.BallAndStick(cable.Cylinder(RM, RI, CM, 4e-6, eq), 20e-6)
+    reference = transient.charge(bs, case.CurrentStep(1e-10), [0.01], [0.0], modes=4)
     np.testing.assert_allclose(modes.coefficients, reference.coefficients[:, 0], rtol=1e-7)
     assert modes.hidden.size > 0
     hidden_at_root = input_impedance(cell, -1.0 / modes.hidden[:1] + 1e-9j / TAU, [root_site()])

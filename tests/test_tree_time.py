@@ -26,7 +26,7 @@ import numpy as np
 import pytest
 from scipy.special import erf
 
-from cabletheory import cable, compartment, transient
+from cabletheory import cable, case, compartment, transient
 from cabletheory.errors import InputError
 from cabletheory.morphology import SectionList
 from cabletheory.tree import Tree, analyse_tree, exact_input_conductances, tree_from_sections
@@ -92,8 +92,8 @@ def test_contour_nodes_cross_right_of_the_origin():
 # --------------------------------------------------------------------------------------
 # Rall's conditions: the tree equals its reduction (exact series of cabletheory.transient)
 # --------------------------------------------------------------------------------------
-STIMULI = [transient.CurrentStep(0.1 * NA), transient.CurrentPulse(0.1 * NA, 2e-3),
-           transient.AlphaCurrent(0.1 * NA, 0.5e-3)]
+STIMULI = [case.CurrentStep(0.1 * NA), case.CurrentPulse(0.1 * NA, 2e-3),
+           case.AlphaCurrent(0.1 * NA, 0.5e-3)]
 
 
 @pytest.mark.parametrize("stimulus", STIMULI, ids=["step", "pulse", "alpha"])
@@ -119,7 +119,7 @@ def test_conforming_tree_with_soma_equals_the_ball_and_stick(stimulus):
     cabletheory.transient (Rall 1969 [Rall1969]; Durand 1984 [Durand1984]) to 1e-9."""
     cell = PassiveTree(demo(soma=20.0), RM, RI, CM)
     mine = tree_response(cell, stimulus, TIMES, root_site(), [root_site()], tolerance=1e-11)
-    bs = transient.BallAndStick(cable.Cylinder(RM, RI, CM, 4e-6, 995.4565254e-6), 20e-6)
+    bs = case.BallAndStick(cable.Cylinder(RM, RI, CM, 4e-6, 995.4565254e-6), 20e-6)
     ref = transient.charge(bs, stimulus, TIMES, [0.0], tolerance=1e-12)
     assert np.max(np.abs(mine.voltage[:, 0] - ref.voltage[:, 0])) <= 1e-9 * mine.reference_voltage
 
@@ -128,7 +128,7 @@ def test_clamp_at_the_root_equals_the_clamped_cylinder():
     """A voltage step at the root of the demo tree, recorded at a tip, is the clamped equivalent
     cylinder at its far end (Rall 1969 [Rall1969]; cabletheory.transient), soma or not."""
     cell = PassiveTree(demo(soma=20.0), RM, RI, CM)
-    clamp = transient.VoltageStep(0.01)
+    clamp = case.VoltageStep(0.01)
     mine = tree_response(cell, clamp, TIMES, root_site(), [site_at(cell.tree, "s6"), root_site()])
     cyl = cable.Cylinder(RM, RI, CM, 4e-6, 995.4565254e-6)
     ref = transient.charge(cyl, clamp, TIMES, [995.4565254e-6, 0.0], tolerance=1e-12)
@@ -143,8 +143,8 @@ def test_clamp_at_the_root_equals_the_clamped_cylinder():
 def _mp_reference(cell, stimulus, at, record, t):
     """The same recursion at 30 digits, inverted by mpmath.invertlaplace (Talbot) [mpmath2023]."""
     amp, shape = {
-        transient.CurrentStep: (lambda st: (st.amplitude, lambda s: 1 / s)),
-        transient.AlphaCurrent: (lambda st: (st.peak, lambda s: mpmath.e / (st.time_to_peak
+        case.CurrentStep: (lambda st: (st.amplitude, lambda s: 1 / s)),
+        case.AlphaCurrent: (lambda st: (st.peak, lambda s: mpmath.e / (st.time_to_peak
                                                                            * (s + 1 / st.time_to_peak) ** 2))),
     }[type(stimulus)](stimulus)
     with mpmath.workdps(30):
@@ -174,7 +174,7 @@ def test_steady_state_is_the_exact_input_resistance():
     final voltage is I times the tips-inward input resistance (Rall 1959 [Rall1959])."""
     tree = demo(240.0, soma=20.0)
     cell = PassiveTree(tree, RM, RI, CM)
-    step = transient.CurrentStep(0.1 * NA)
+    step = case.CurrentStep(0.1 * NA)
     root = tree_response(cell, step, [40 * TAU], root_site(), [root_site()])
     _, g_dend = exact_input_conductances(tree, RM, RI)
     r_in = 1.0 / (g_dend + tree.soma_area / RM)
@@ -194,7 +194,7 @@ def test_compartmental_solution_converges_to_the_tree_solution():
     cell = PassiveTree(tree, RM, RI, CM)
     times = np.array([1e-3, 4e-3, 1.2e-2])
     tip = site_at(tree, "s3")
-    exact = tree_response(cell, transient.CurrentStep(0.1 * NA), times, tip, [root_site(), tip]).voltage
+    exact = tree_response(cell, case.CurrentStep(0.1 * NA), times, tip, [root_site(), tip]).voltage
     errors = []
     for n in (4, 8, 16, 32):
         c = compartment.discretise_tree(tree.parents, tree.lengths, tree.distal_diameters, RM, RI, CM, n,
@@ -276,7 +276,7 @@ def test_reduction_costs_nothing_on_a_conforming_tree():
     """Rall (1959, 1969) [Rall1959] [Rall1969]: the demo tree with soma and its soma-plus-cylinder
     agree in time; τ0, τ1, C1/C0 agree; peeling returns L = 0.9954565254, ρ = 7.596794008."""
     cell = PassiveTree(demo(soma=20.0), RM, RI, CM)
-    cost = reduction_cost(cell, transient.CurrentStep(0.1 * NA), np.geomspace(1e-5, 0.1, 30))
+    cost = reduction_cost(cell, case.CurrentStep(0.1 * NA), np.geomspace(1e-5, 0.1, 30))
     assert cost.largest_difference <= 1e-9 * float(np.max(np.abs(cost.tree_voltage)))
     np.testing.assert_allclose(cost.tree_modes.time_constants, cost.reduced_time_constants, rtol=1e-10)
     np.testing.assert_allclose(cost.tree_modes.coefficients, cost.reduced_coefficients, rtol=1e-7)
@@ -291,7 +291,7 @@ def test_reduction_cost_of_an_unreduced_tree():
     two curves are farthest apart and the tree's τ0 stays τm (uniform membrane, sealed tips)."""
     cell = PassiveTree(demo(400.0, soma=20.0), RM, RI, CM)
     times = np.geomspace(1e-5, 0.1, 60)
-    cost = reduction_cost(cell, transient.AlphaCurrent(0.1 * NA, 1e-3), times)
+    cost = reduction_cost(cell, case.AlphaCurrent(0.1 * NA, 1e-3), times)
     gap = np.abs(cost.reduced_voltage - cost.tree_voltage)
     assert cost.largest_difference == gap.max() > 1e-3 * np.max(cost.tree_voltage)
     assert cost.when == times[np.argmax(gap)]
@@ -303,15 +303,15 @@ def test_reduction_cost_of_an_unreduced_tree():
 def test_time_course_refusals():
     cell = PassiveTree(demo(), RM, RI, CM, tips="killed")
     with pytest.raises(InputError, match="killed tip"):
-        tree_response(cell, transient.CurrentStep(NA), [1e-3], site_at(cell.tree, "s6"), [root_site()])
+        tree_response(cell, case.CurrentStep(NA), [1e-3], site_at(cell.tree, "s6"), [root_site()])
     with pytest.raises(InputError, match="root"):
-        tree_response(cell, transient.VoltageStep(0.01), [1e-3], Site(2, 10e-6), [root_site()])
+        tree_response(cell, case.VoltageStep(0.01), [1e-3], Site(2, 10e-6), [root_site()])
     with pytest.raises(InputError, match="tolerance"):
-        tree_response(cell, transient.CurrentStep(NA), [1e-3], root_site(), [root_site()], tolerance=0.5)
+        tree_response(cell, case.CurrentStep(NA), [1e-3], root_site(), [root_site()], tolerance=0.5)
     with pytest.raises(InputError, match="position"):
-        tree_response(cell, transient.CurrentStep(NA, position=1e-6), [1e-3], root_site(), [root_site()])
+        tree_response(cell, case.CurrentStep(NA, position=1e-6), [1e-3], root_site(), [root_site()])
     with pytest.raises(InputError, match="sealed or every tip killed"):
-        reduction_cost(PassiveTree(demo(), RM, RI, CM, tips=1e-9), transient.CurrentStep(NA), [1e-3])
+        reduction_cost(PassiveTree(demo(), RM, RI, CM, tips=1e-9), case.CurrentStep(NA), [1e-3])
 
 
 # --------------------------------------------------------------------------------------
@@ -327,9 +327,9 @@ def test_input_at_one_tip_reaches_the_soma_as_on_the_equivalent_cylinder(stimulu
     cell = PassiveTree(demo(soma=20.0), RM, RI, CM)
     mine = tree_response(cell, stimulus, TIMES, site_at(cell.tree, "s5"), [root_site()], tolerance=1e-11)
     far = 995.4565254e-6
-    bs = transient.BallAndStick(cable.Cylinder(RM, RI, CM, 4e-6, far), 20e-6)
-    moved = (transient.CurrentStep(stimulus.amplitude, far) if isinstance(stimulus, transient.CurrentStep)
-             else transient.AlphaCurrent(stimulus.peak, stimulus.time_to_peak, far))
+    bs = case.BallAndStick(cable.Cylinder(RM, RI, CM, 4e-6, far), 20e-6)
+    moved = (case.CurrentStep(stimulus.amplitude, far) if isinstance(stimulus, case.CurrentStep)
+             else case.AlphaCurrent(stimulus.peak, stimulus.time_to_peak, far))
     ref = transient.charge(bs, moved, TIMES, [0.0], tolerance=1e-12)
     assert np.max(np.abs(mine.voltage[:, 0] - ref.voltage[:, 0])) <= 1e-9 * mine.reference_voltage
 
@@ -356,7 +356,7 @@ def test_bundled_cell_slowest_mode_and_convergence():
     assert modes.time_constants[1] < TAU
     tip = int(np.flatnonzero(np.bincount(tree.parents[tree.parents >= 0], minlength=len(tree)) == 0)[7])
     times = np.array([0.5e-3, 2e-3, 8e-3])
-    step = transient.CurrentStep(10e-12)
+    step = case.CurrentStep(10e-12)
     exact = tree_response(cell, step, times, Site(tip, float(tree.lengths[tip])), [root_site()]).voltage[:, 0]
     errors = []
     for n in (1, 2, 4):
@@ -367,3 +367,26 @@ def test_bundled_cell_slowest_mode_and_convergence():
         errors.append(np.max(np.abs(compartment.integrate(c, current, times, step=0.125e-3 / n)[:, 0] - exact)))
     ratios = [a / b for a, b in itertools.pairwise(errors)]
     assert all(3.3 < r < 4.7 for r in ratios), (errors, ratios)
+
+
+def test_the_documented_example_prints_what_the_page_says():
+    """docs/tree-time.md shows real output: run its code block and compare line by line."""
+    import contextlib
+    import io
+    import os
+    import re
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parent.parent
+    page = (root / "docs" / "tree-time.md").read_text(encoding="utf-8")
+    code = re.search(r"```python\n(.*?)```", page, re.S).group(1)
+    printed = re.search(r"prints\n\n```\n(.*?)```", page, re.S).group(1)
+    out = io.StringIO()
+    here = os.getcwd()
+    try:
+        os.chdir(root)
+        with contextlib.redirect_stdout(out):
+            exec(compile(code, "docs/tree-time.md", "exec"), {})
+    finally:
+        os.chdir(here)
+    assert out.getvalue().splitlines() == printed.splitlines()
