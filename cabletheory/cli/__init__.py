@@ -30,6 +30,7 @@ COMMANDS: dict[str, str] = {
     "cable": "cable",
     "charge": "charge",
     "peel": "peel",
+    "fit": "fit",
     "derive": "derive",
     "tree": "tree",
     "survey": "survey",
@@ -44,7 +45,7 @@ COMMANDS: dict[str, str] = {
 _NEGATIVE = re.compile(r"^-(\d|\.\d|inf)")
 
 # commands that read the user's files, and so take --max-file-size
-READS_FILES = ("tree", "reference", "compare", "advise", "ui")
+READS_FILES = ("tree", "reference", "compare", "advise", "ui", "fit")
 _SIZE = re.compile(r"^\s*(\d+(?:\.\d+)?(?:[eE]\+?\d+)?)\s*(|B|kB|KB|MB|GB|TB|KiB|MiB|GiB|TiB)\s*$", re.IGNORECASE)
 _SIZE_FACTORS = {"": 1, "b": 1, "kb": 10**3, "mb": 10**6, "gb": 10**9, "tb": 10**12, "kib": 2**10, "mib": 2**20,
                  "gib": 2**30, "tib": 2**40}

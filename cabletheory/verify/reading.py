@@ -25,7 +25,9 @@ from ..errors import FileFormatError, InputError
 __all__ = [
     "QuantityParser",
     "Recording",
+    "Sweeps",
     "read_recording",
+    "read_sweeps",
     "run_spacings",
 ]
 
@@ -89,10 +91,10 @@ class Recording:
 _CUSTOMARY = {"time": "ms", "length": "um", "voltage": "mV"}
 
 
-def _cells(raw: str, name: str, line: int) -> list[str]:
-    """The cells of one CSV line; a line the csv module cannot split is a one-line error."""
+def _cells(raw: str, name: str, line: int, delimiter: str = ",") -> list[str]:
+    """The cells of one CSV (or tab-separated) line; a line the csv module cannot split is a one-line error."""
     try:
-        return next(csv.reader([raw]))
+        return next(csv.reader([raw], delimiter=delimiter))
     except csv.Error as exc:
         limit = csv.field_size_limit()
         if "field limit" in str(exc):
@@ -124,11 +126,59 @@ def _unit_factor(parse: QuantityParser, declared: str | None, option: str | None
     return parse(f"1 {unit}", kind, where), unit, True
 
 
+def _table(text: str, name: str) -> tuple[list[str], int, list[tuple[int, list[str]]], dict[str, str]]:
+    """(header cells, header line, [(line, cells)], ``# key = value`` metadata) of a CSV or
+    tab-separated table; the separator is a tab when the header line has a tab and no comma."""
+    rows: list[tuple[int, list[str]]] = []
+    metadata: dict[str, str] = {}
+    header: list[str] | None = None
+    header_line = 0
+    delimiter = ","
+    for number, raw in enumerate(text.splitlines(), start=1):
+        stripped = raw.strip()
+        if not stripped:
+            continue
+        if stripped.startswith("#"):
+            m = _META.match(stripped)
+            if m:
+                metadata[m.group("key").strip().lower()] = m.group("value")
+            continue
+        if header is None and "\t" in raw and "," not in raw:
+            delimiter = "\t"
+        cells = _cells(raw, name, number, delimiter)
+        if header is None:
+            header, header_line = cells, number
+        else:
+            rows.append((number, cells))
+    if header is None:
+        raise FileFormatError(f"{name}: empty file; expected a header such as "
+                              "'time (ms),position (um),voltage (mV)'")
+    if not rows:
+        raise FileFormatError(f"{name}, line {header_line}: header but no data rows")
+    return header, header_line, rows, metadata
+
+
+def _number(name: str, header: list[str], line: int, cells: list[str], col: int) -> float:
+    """The finite number in column ``col`` of a data row, or a FileFormatError naming file:line:column."""
+    if col >= len(cells) or not cells[col].strip():
+        raise FileFormatError(f"{_where(name, line, col + 1, header[col])}: missing value")
+    cell = cells[col].strip()
+    try:
+        value = float(cell)
+    except ValueError:
+        raise FileFormatError(f"{_where(name, line, col + 1, header[col])}: cannot read {cell!r} "
+                              "as a number") from None
+    if not math.isfinite(value):
+        raise FileFormatError(f"{_where(name, line, col + 1, header[col])}: {cell!r} is not a finite "
+                              "number; remove or fill the row")
+    return value
+
+
 def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: str | None = None,
                    position_unit: str | None = None, voltage_unit: str | None = None,
                    resting_potential: float | str = 0.0, time_offset: float = 0.0,
                    site: float | None = None, allow_negative_positions: bool = False) -> Recording:
-    """Read a simulator's CSV output (long or wide layout, see docs/verify.md).
+    """Read a simulator's CSV (or tab-separated) output (long or wide layout, see docs/verify.md).
 
     Parameters
     ----------
@@ -149,29 +199,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
     ------
     FileFormatError : naming the file, line and column of the first problem
     """
-    rows: list[tuple[int, list[str]]] = []
-    metadata: dict[str, str] = {}
-    header: list[str] | None = None
-    header_line = 0
-    for number, raw in enumerate(text.splitlines(), start=1):
-        stripped = raw.strip()
-        if not stripped:
-            continue
-        if stripped.startswith("#"):
-            m = _META.match(stripped)
-            if m:
-                metadata[m.group("key").strip().lower()] = m.group("value")
-            continue
-        cells = _cells(raw, name, number)
-        if header is None:
-            header, header_line = cells, number
-        else:
-            rows.append((number, cells))
-    if header is None:
-        raise FileFormatError(f"{name}: empty file; expected a header such as "
-                              "'time (ms),position (um),voltage (mV)'")
-    if not rows:
-        raise FileFormatError(f"{name}, line {header_line}: header but no data rows")
+    header, header_line, rows, metadata = _table(text, name)
 
     parsed = [_CELL.match(cell) for cell in header]
     names = [(m.group("name") if m else cell).strip().lower() for m, cell in zip(parsed, header, strict=True)]
@@ -189,18 +217,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
     assumed = ["time"] if t_assumed else []
 
     def number_at(line: int, cells: list[str], col: int) -> float:
-        if col >= len(cells) or not cells[col].strip():
-            raise FileFormatError(f"{_where(name, line, col + 1, header[col])}: missing value")
-        cell = cells[col].strip()
-        try:
-            value = float(cell)
-        except ValueError:
-            raise FileFormatError(f"{_where(name, line, col + 1, header[col])}: cannot read {cell!r} "
-                                  "as a number") from None
-        if not math.isfinite(value):
-            raise FileFormatError(f"{_where(name, line, col + 1, header[col])}: {cell!r} is not a finite "
-                                  "number; remove or fill the row")
-        return value
+        return _number(name, header, line, cells, col)
 
     for line, cells in rows:
         if len(cells) != len(header) and not (len(cells) > len(header) and not any(c.strip() for c in
@@ -318,6 +335,93 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
                      units=units_used, assumed=tuple(assumed), metadata=metadata,
                      resting_potential=rest_value, time_offset=float(time_offset))
 
+
+
+@dataclass(frozen=True, slots=True)
+class Sweeps:
+    """Repeated recordings of one response at one site, on one clock, in SI.
+
+    Attributes
+    ----------
+    name : the file name (used in messages)
+    times : s, the file's clock minus ``time_offset``, increasing
+    voltages : V as recorded (rest not subtracted), shape (sweeps, times)
+    labels : the header of each sweep's column
+    lines : file line (1-based) of each time
+    units : unit used for "time" and "voltage" (as text)
+    assumed : which of those units were not declared and were taken as customary (ms, mV)
+    metadata : ``# key = value`` comment lines of the file
+    time_offset : s subtracted from every time
+    """
+
+    name: str
+    times: Array
+    voltages: Array
+    labels: tuple[str, ...]
+    lines: NDArray[np.int64]
+    units: Mapping[str, str]
+    assumed: tuple[str, ...]
+    metadata: Mapping[str, str]
+    time_offset: float = 0.0
+
+
+def read_sweeps(text: str, name: str, parse: QuantityParser, *, time_unit: str | None = None,
+                voltage_unit: str | None = None, time_offset: float = 0.0) -> Sweeps:
+    """Read sweeps: a time column and one voltage column per sweep (CSV or tab-separated).
+
+    The header names the time column as :func:`read_recording` does ('time (ms)'); every other
+    column is one sweep recorded at the same site, named freely ('sweep 1 (mV)', 'V (mV)', ...),
+    its unit in brackets or given by ``voltage_unit`` (customary mV). Rows are the shared sample
+    times, which must increase.
+
+    Raises
+    ------
+    FileFormatError : naming the file, line and column of the first problem
+    """
+    header, header_line, rows, metadata = _table(text, name)
+    parsed = [_CELL.match(cell) for cell in header]
+    names = [(m.group("name") if m else cell).strip().lower() for m, cell in zip(parsed, header, strict=True)]
+    units = [(m.group("unit") or None) if m else None for m in parsed]
+    time_cols = [i for i, n in enumerate(names) if n in _TIME_NAMES]
+    if len(time_cols) != 1:
+        what = "no time column" if not time_cols else "more than one time column"
+        raise FileFormatError(f"{name}, line {header_line}: {what}; expected a column named 'time' "
+                              "with its unit, e.g. 'time (ms)'")
+    tc = time_cols[0]
+    sweep_cols = [i for i in range(len(header)) if i != tc]
+    if not sweep_cols:
+        raise FileFormatError(f"{name}, line {header_line}: no voltage columns; expected e.g. "
+                              "'time (ms),sweep 1 (mV),sweep 2 (mV)'")
+    t_factor, t_unit, t_assumed = _unit_factor(parse, units[tc], time_unit, "time",
+                                               _where(name, header_line, tc + 1, header[tc]), "--time-unit")
+    factors = []
+    v_unit = _CUSTOMARY["voltage"]
+    v_assumed = False
+    for col in sweep_cols:
+        factor, v_unit, assumed_here = _unit_factor(parse, units[col], voltage_unit, "voltage",
+                                                    _where(name, header_line, col + 1, header[col]),
+                                                    "--voltage-unit")
+        factors.append(factor)
+        v_assumed = v_assumed or assumed_here
+    for line, cells in rows:
+        if len(cells) != len(header) and not (len(cells) > len(header) and not any(c.strip() for c in
+                                                                                  cells[len(header):])):
+            raise FileFormatError(f"{name}, line {line}: {len(cells)} columns, but the header "
+                                  f"(line {header_line}) has {len(header)}")
+    times = np.array([_number(name, header, ln, c, tc) for ln, c in rows]) * t_factor
+    bad = np.flatnonzero(np.diff(times) <= 0)
+    if bad.size:
+        k = int(bad[0]) + 1
+        raise FileFormatError(f"{_where(name, rows[k][0], tc + 1, header[tc])}: time does not increase "
+                              f"(line {rows[k - 1][0]} has an equal or later time)")
+    voltages = np.array([[_number(name, header, ln, c, col) for ln, c in rows] for col in sweep_cols])
+    voltages *= np.array(factors)[:, None]
+    assumed = tuple(k for k, a in (("time", t_assumed), ("voltage", v_assumed)) if a)
+    return Sweeps(name=name, times=times - time_offset, voltages=voltages,
+                  labels=tuple(header[c].strip() for c in sweep_cols),
+                  lines=np.array([ln for ln, _ in rows], dtype=np.int64),
+                  units={"time": t_unit, "voltage": v_unit}, assumed=assumed, metadata=metadata,
+                  time_offset=float(time_offset))
 
 
 def run_spacings(recordings: Sequence[Recording], parse: QuantityParser) -> tuple[Array, Array]:
