@@ -211,7 +211,8 @@ def _start(t: Array, y: Array, s: Array, model: str, current: float, offset: boo
 def fit_model(times: ArrayLike, voltage: ArrayLike, *, model: str = "ball-and-stick", current: float | None = None,
               standard_error: ArrayLike | None = None, duration: float | None = None,
               window: tuple[float | None, float | None] | None = None, level: float = 0.95,
-              membrane_capacitance: float = DEFAULT_CM, axial_resistivity: float = DEFAULT_RI) -> ModelFit:
+              membrane_capacitance: float = DEFAULT_CM, axial_resistivity: float = DEFAULT_RI,
+              baseline_error: float = 0.0) -> ModelFit:
     r"""Fit the exact soma response of a passive model to a recorded trace.
 
     Parameters
@@ -227,6 +228,8 @@ def fit_model(times: ArrayLike, voltage: ArrayLike, *, model: str = "ball-and-st
         :func:`cabletheory.fit_exponentials.decompose`, a None end is the last sample
     level : confidence level of the intervals
     membrane_capacitance, axial_resistivity : assumed Cm (F/m²) and Ri (Ω·m) of the equivalent cell
+    baseline_error : V, standard error of the baseline subtracted from the trace; it moves every
+        sample alike, so its share :math:`(s_b/V_\infty)^2` is added to the variance of ln R_N
 
     Returns
     -------
@@ -309,6 +312,11 @@ def fit_model(times: ArrayLike, voltage: ArrayLike, *, model: str = "ball-and-st
     J = np.asarray(result.jac, dtype=float)  # forward differences at the solution
     cov, _ = fit_stats.linearised_covariance(J, chi)
     dof = t.size - x.size
+    k_rn = names.index("input_resistance")
+    steady = abs(float(np.exp(x[k_rn])) * amp)
+    if baseline_error > 0 and steady > 0:
+        cov = cov.copy()
+        cov[k_rn, k_rn] += (baseline_error / steady) ** 2
     log_iv = np.array([fit_stats.t_interval(float(x[j]), float(cov[j, j]), level, dof) for j in range(x.size)])
     with np.errstate(over="ignore"):
         intervals = np.exp(log_iv)

@@ -5,7 +5,8 @@ A current-clamp recording of a passive response is usually several sweeps of the
 :func:`detect_onset`), subtracts each sweep's baseline (the mean of its samples before the onset,
 or a resting potential given by the user), and averages them, keeping the spread: the standard
 error of the mean at every sample, :math:`s_i = \mathrm{SD}_i/\sqrt{n}`, which the fits use as
-relative weights.
+relative weights. Because a variance from a few sweeps is itself noisy (and weights built from it
+bias a fit), the variance is first averaged over 51 neighbouring samples; the raw spread is kept.
 
 **Onset detection** (on the mean of the sweeps), stated so that a reader can check it:
 
@@ -13,9 +14,11 @@ relative weights.
    noise σ is the median absolute successive difference divided by 0.6745·√2 [CP];
 2. a *departure* is a run of at least 3 consecutive samples farther than 6σ from that baseline;
 3. the response is the departure that contains the largest deviation, extended back over earlier
-   departures the same way with no return to the baseline in between; the onset is the time of
-   the last sample before its start that lies on the baseline or on the far side of it (the last
-   time the trace crossed its baseline before it left for good).
+   departures the same way with no return to the baseline in between;
+4. the onset is the sample, among the 200 before the response's start, after which the trace is
+   best described (least squares over those samples and the 10 after the start) by zero followed
+   by :math:`a\sqrt{t - t_0} + b(t - t_0)` with a, b ≥ 0 toward the response (the early charging
+   of a cable and of a soma); a change point, not a threshold crossing, so it is not late.
 
 The detector refuses, in one line, when the answer is ambiguous: no departure at all (no response
 or too much noise), the first departure within the first 5 % of the record (no baseline before
@@ -42,6 +45,7 @@ Array = NDArray[np.float64]
 DEPARTURE_SIGMAS = 6.0  # a departure is farther than this many noise σ from the baseline ...
 DEPARTURE_RUN = 3  # ... for at least this many consecutive samples
 LEAD_SHARE = 0.05  # the first 5 % of the samples set the provisional baseline
+SMOOTHING = 51  # samples over which the variance across sweeps is averaged before weighting
 
 
 class OnsetError(InputError):
@@ -107,9 +111,27 @@ def detect_onset(times: ArrayLike, voltage: ArrayLike) -> float:
     if main[0] < lead:
         raise OnsetError(f"the response starts within the first {lead} samples, so there is no baseline "
                          f"before it; give the onset (--onset) and the resting potential (--rest)")
-    crossed = np.flatnonzero(direction * deviation[:main[0]] <= 0.0)
-    k = int(crossed[-1]) if crossed.size else main[0] - 1
-    return float(t[k])
+    return float(t[_change_point(t, deviation, main[0], lead)])
+
+
+def _change_point(t: Array, deviation: Array, start: int, lead: int) -> int:
+    r"""The sample after which the trace turns from its baseline into the response: the k that best
+    fits 0 up to sample k and :math:`a\sqrt{t - t_k} + b(t - t_k)` after it (a cable's and a soma's
+    early charging), by least squares over up to 200 samples before the departure and 10 after it."""
+    from scipy.optimize import nnls
+
+    lo = max(lead // 2, start - 200)
+    hi = min(t.size, start + 10)
+    toward = deviation * (1.0 if deviation[start] > 0 else -1.0)  # the response made positive
+    best, best_k = math.inf, start - 1
+    for k in range(lo, start):
+        before = toward[lo:k + 1]
+        dt = t[k + 1:hi] - t[k]
+        _, residual = nnls(np.column_stack([np.sqrt(dt), dt]), toward[k + 1:hi])
+        sse = float(before @ before) + float(residual) ** 2
+        if sse < best:
+            best, best_k = sse, k
+    return best_k
 
 
 @dataclass(frozen=True, slots=True)
@@ -120,13 +142,16 @@ class Trace:
     ----------
     times : s since the onset (all samples, including those before it, which are negative)
     voltage : V, mean over sweeps of (sweep - its baseline)
-    standard_error : V, standard error of that mean per sample (SD/√n); None for a single sweep
-    spread : V, standard deviation across sweeps per sample; None for a single sweep
+    standard_error : V, standard error of that mean per sample (√(variance averaged over
+        :data:`SMOOTHING` neighbouring samples / n)); None for a single sweep
+    spread : V, standard deviation across sweeps per sample (not smoothed); None for a single sweep
     sweeps : how many sweeps were averaged
     onset : s, the onset in the recording's clock
     onset_detected : whether :func:`detect_onset` found it (else it was given)
     baseline : V, the mean of the baselines subtracted
     baseline_source : "given", "first sample" or "mean before onset"
+    baseline_error : V, standard error of the subtracted baseline of the mean trace (0 when given):
+        it shifts every sample alike, so it is not in the per-sample errors
     noise : V, the noise of the mean trace from successive differences
     notes : plain-language remarks
     """
@@ -141,6 +166,7 @@ class Trace:
     baseline: float
     baseline_source: str
     noise: float
+    baseline_error: float = 0.0
     notes: tuple[str, ...] = field(default_factory=tuple)
 
     def after_onset(self) -> tuple[Array, Array, Array | None]:
@@ -187,6 +213,7 @@ def prepare_trace(times: ArrayLike, sweeps: ArrayLike, *, onset: float | None = 
         raise InputError(f"the onset {start * 1e3:.6g} ms lies outside the record ({t[0] * 1e3:.6g} to "
                          f"{t[-1] * 1e3:.6g} ms)")
     notes: list[str] = []
+    baseline_error = 0.0
     if rest is None:
         before = t <= start
         if before.sum() < 3:
@@ -194,6 +221,8 @@ def prepare_trace(times: ArrayLike, sweeps: ArrayLike, *, onset: float | None = 
                              f"the resting potential (--rest)")
         baselines = v[:, before].mean(axis=1)
         source = "mean before onset"
+        pre = (v[:, before] - baselines[:, None]).ravel()
+        baseline_error = float(np.std(pre, ddof=1) / math.sqrt(pre.size)) if pre.size > 1 else 0.0
     elif isinstance(rest, str):
         if rest != "first":
             raise InputError(f"resting potential {rest!r}: expected a voltage or 'first'")
@@ -209,14 +238,18 @@ def prepare_trace(times: ArrayLike, sweeps: ArrayLike, *, onset: float | None = 
     spread = se = None
     if n > 1:
         spread = corrected.std(axis=0, ddof=1)
-        se = spread / math.sqrt(n)
+        # the variance across a few sweeps is itself very noisy (n - 1 degrees of freedom), and
+        # weights 1/s² built from it distort a fit; it is averaged over neighbouring samples first
+        width = min(SMOOTHING, t.size)
+        kernel = np.ones(width) / width
+        padded = np.pad(spread**2, (width // 2, width - 1 - width // 2), mode="edge")
+        se = np.sqrt(np.convolve(padded, kernel, mode="valid") / n)
         if np.any(se <= 0):
             notes.append("some samples are identical in every sweep; their standard error is replaced by the "
                          "smallest non-zero one")
             positive = se[se > 0]
             floor = float(positive.min()) if positive.size else 1e-12
             se = np.where(se > 0, se, floor)
-            spread = se * math.sqrt(n)
     return Trace(times=t - start, voltage=mean, standard_error=se, spread=spread, sweeps=n, onset=start,
                  onset_detected=detected, baseline=float(baselines.mean()), baseline_source=source,
-                 noise=_noise(mean), notes=tuple(notes))
+                 noise=_noise(mean), baseline_error=baseline_error, notes=tuple(notes))

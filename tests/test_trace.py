@@ -8,8 +8,6 @@ standard error of a mean is SD/√n [CP].
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import pytest
 
@@ -119,7 +117,8 @@ def test_onset_refusals_are_one_line():
 
 
 def test_average_keeps_the_standard_error():
-    """Mean of baseline-corrected sweeps; standard error SD/√n per sample [CP]."""
+    """Mean of baseline-corrected sweeps; standard error SD/√n per sample [CP], its variance averaged
+    over neighbouring samples."""
     t, v = response()
     rng = np.random.default_rng(3)
     offsets = rng.normal(-0.065, 1e-3, 5)
@@ -127,7 +126,13 @@ def test_average_keeps_the_standard_error():
     tr = prepare_trace(t, sweeps, onset=0.01)
     corrected = sweeps - sweeps[:, t <= 0.01].mean(axis=1)[:, None]
     assert tr.voltage == pytest.approx(corrected.mean(axis=0), abs=1e-15)
-    assert tr.standard_error == pytest.approx(corrected.std(axis=0, ddof=1) / math.sqrt(5), rel=1e-12)
+    sd = corrected.std(axis=0, ddof=1)
+    assert tr.spread == pytest.approx(sd, rel=1e-12)
+    # the variance averaged over 51 neighbouring samples (scipy's uniform filter [SciPy2020]) / n
+    from scipy.ndimage import uniform_filter1d
+
+    expected = np.sqrt(uniform_filter1d(sd**2, 51, mode="nearest") / 5)
+    assert tr.standard_error == pytest.approx(expected, rel=1e-9)
     assert tr.baseline == pytest.approx(offsets.mean(), abs=2e-4)
     assert tr.times[t == 0.01][0] == pytest.approx(0.0, abs=1e-15)
     times, voltage, se = tr.after_onset()

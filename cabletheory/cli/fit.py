@@ -170,7 +170,8 @@ def run(args: argparse.Namespace) -> int:
         start = v["fit_from"] if v["fit_from"] is not None else decomposition.window[0]
         model = fit_model(t, y, model=args.model, current=v["current"], standard_error=se, duration=v["duration"],
                           window=(start, window[1]), level=v["level"], membrane_capacitance=v["Cm"],
-                          axial_resistivity=v["Ri"] if v["Ri"] is not None else DEFAULT_RI)
+                          axial_resistivity=v["Ri"] if v["Ri"] is not None else DEFAULT_RI,
+                          baseline_error=trace.baseline_error)
     if args.figure:
         write_atomically(args.figure, figure(trace, decomposition, model, Path(args.figure).suffix.lower()),
                          protected=args.recordings)
