@@ -30,9 +30,9 @@ import tracemalloc
 import numpy as np
 
 from cabletheory import compartment
-from cabletheory.morphology import SectionList
+from cabletheory.morphology import Outline
 from cabletheory.transient import CurrentStep
-from cabletheory.tree import tree_from_sections
+from cabletheory.tree import tree_from_outline
 from cabletheory.tree_laplace import PassiveTree, Site, root_site
 from cabletheory.tree_time import tree_response
 
@@ -43,7 +43,7 @@ TOLERANCE = 1e-8
 RUNS = 3
 
 
-def generate(branches: int = BRANCHES, seed: int = 16) -> tuple[SectionList, list[int]]:
+def generate(branches: int = BRANCHES, seed: int = 16) -> tuple[Outline, list[int]]:
     """Pieces of a generated tree, and for each branch the index of its last piece."""
     rng = np.random.default_rng(seed)
     parents: list[int] = []
@@ -67,7 +67,7 @@ def generate(branches: int = BRANCHES, seed: int = 16) -> tuple[SectionList, lis
                 open_ends.append((parent, max(0.3, (share * d_end**1.5) ** (2 / 3) * rng.uniform(0.9, 1.3))))
     n = len(parents)
     d = np.asarray(diameters)
-    sections = SectionList(source="generated", names=tuple(f"p{i}" for i in range(n)),
+    sections = Outline(source="generated", names=tuple(f"p{i}" for i in range(n)),
                            parents=np.asarray(parents, dtype=np.int64), lengths=np.asarray(lengths), diameters=d,
                            end_diameters=d, lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=20e-6)
     return sections, ends
@@ -75,7 +75,7 @@ def generate(branches: int = BRANCHES, seed: int = 16) -> tuple[SectionList, lis
 
 def main() -> int:
     sections, _ = generate()
-    tree = tree_from_sections(sections)
+    tree = tree_from_outline(sections)
     cell = PassiveTree(tree, RM, RI, CM)
     has_child = np.zeros(len(tree), dtype=bool)
     has_child[tree.parents[tree.parents >= 0]] = True

@@ -17,7 +17,7 @@ from .case import FIELDS, Case, CaseFieldError, build_case, end_from_word
 from .errors import InputError
 from .units import parse_quantity, parse_series
 
-__all__ = ["CaseInputError", "read_case", "read_end", "read_field"]
+__all__ = ["CaseInputError", "read_case", "read_end", "read_field", "read_outline_value"]
 
 Label = Callable[[str], str] | Mapping[str, str]
 
@@ -67,6 +67,14 @@ def read_end(text: str, label: str = "far end") -> float:
         detail = str(exc).removeprefix(f"{label}: ")
         raise InputError(f"{label}: {text.strip()!r} is not 'sealed', 'killed' or a conductance to rest such as "
                          f"'0.5 nS' ({detail})") from None
+
+
+def read_outline_value(field: str, text: str) -> float:
+    """One value of a tree outline (:data:`cabletheory.morphology.ValueReader`): a tip's ``end``
+    (:func:`read_end`) or a length or diameter (bare numbers in µm; the reader checks the range)."""
+    if field == "end":
+        return read_end(text, "end")
+    return parse_quantity(text, "length", field, allow_zero=True, allow_inf=True, allow_negative=True)
 
 
 def read_field(field: str, text: str, label: str) -> float | str | list[float]:

@@ -1,4 +1,4 @@
-"""Reading neuron morphologies: SWC point files and a small hand-written section list.
+"""Reading neuron morphologies: SWC point files and tree outlines.
 
 Two inputs, both validated line by line (every error is a
 :class:`~cabletheory.errors.FileFormatError` naming the file and the line):
@@ -10,31 +10,45 @@ dendrite; other types are kept as they are. A child may come before its parent (
 are reordered); missing parents, cycles, several roots, duplicate ids, non-positive radii,
 NaN, non-numeric fields, empty files and binary data are errors.
 
-**Section list** (this package's own format, for trees that were never reconstructed;
-usual extension ``.tree``). One unbranched section per line::
+**Tree outline** (this package's own format for trees that were never reconstructed;
+extension ``.outline``). One branch per line; indentation gives the parent, fields are named::
 
-    # comment
-    soma 20 um                          # optional: a spherical soma of this diameter
-    # name    parent   length   diameter   [end diameter]
-    trunk     root     300 um   4 um
-    left      trunk    300      2.52       # bare numbers are µm
-    left.1    left     200um    1.59  1.2  # a taper (frustum) from 1.59 µm to 1.2 µm
+    # cabletheory tree outline v1 (lengths and diameters in µm unless a unit is given)
+    soma diameter=20
+    trunk length=300 diameter=4
+      left length=300 diameter=2.52
+        left-a length=200 diameter=1.59..1.2      # a taper from 1.59 µm to 1.2 µm
+        left-b length=0.2mm diameter=1.59 end=killed
+      right length=300 diameter=2.52 end=0.5nS
 
-* ``name``: letters, digits and ``_ - . : /``; unique; ``root`` is reserved.
-* ``parent``: the name of another section (anywhere in the file) or ``root``, the point
-  where input is applied (the soma when there is one).
-* lengths and diameters: a number, optionally followed (with or without a space) by one of
-  the units ``nm um µm μm mm cm m``; bare numbers are µm.
+* A line is a branch name followed by ``key=value`` fields, separated by blanks. ``#``
+  starts a comment anywhere; blank lines are ignored.
+* Nesting: a line indented deeper than the line above it is that branch's child; lines at
+  the same indentation under one parent are siblings; a line at the left margin starts at
+  the root (the soma, or the input point when there is no ``soma`` line). Indent with
+  spaces only (a tab in the indentation is an error); any width works, but a line that
+  comes back out must line up with an earlier branch that encloses it.
+* Fields: ``length`` (required, >= 0), ``diameter`` (required, > 0; ``d0..d1`` for a
+  linear taper from the proximal to the distal end) and, on a tip only, ``end``: ``sealed``
+  (the default), ``killed`` or a conductance to rest such as ``0.5nS``. Each field at most once.
+* Values: a number with an optional unit written right after it (``300``, ``300um``,
+  ``0.3mm``); bare lengths are µm, bare conductances nS.
+* ``soma diameter=D``: an optional spherical soma, at the left margin, at most once, with no
+  branches under it. Branch names hold letters, digits and ``_ - . : /``; they are unique and
+  ``soma`` is reserved.
 
-Readers return plain SI arrays (m); they never import pint. Turning points into cable
-sections is :mod:`cabletheory.tree`'s job.
+Errors name the file, line and column (``cell.outline:4:12: ...``). Readers return plain SI
+arrays (m, S); they never import pint: the units in a value are read by a function the caller
+hands in (:data:`ValueReader`; the front ends pass the package's unit boundary,
+:func:`cabletheory.inputs.read_outline_value`, so that a value means the same as on the command
+line). Turning points and branches into the pieces of a cable tree is :mod:`cabletheory.tree`'s job.
 """
 
 from __future__ import annotations
 
 import math
 import re
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -46,14 +60,16 @@ from .errors import FileFormatError
 from .textfile import read_input_bytes
 
 __all__ = [
+    "OUTLINE_SUFFIX",
     "SWC_TYPES",
-    "SectionList",
+    "Outline",
     "SwcPoints",
-    "format_section_list",
-    "parse_section_list",
+    "ValueReader",
+    "format_outline",
+    "parse_outline",
     "parse_swc",
     "read_morphology",
-    "read_section_list",
+    "read_outline",
     "read_swc",
 ]
 
@@ -61,11 +77,18 @@ SWC_TYPES: dict[int, str] = {0: "undefined", 1: "soma", 2: "axon", 3: "basal den
                              4: "apical dendrite", 5: "custom", 6: "neurite", 7: "glia"}
 
 MICROMETRE = 1e-6
-_LENGTH_UNITS = {"nm": 1e-9, "um": 1e-6, "µm": 1e-6, "μm": 1e-6, "mm": 1e-3, "cm": 1e-2, "m": 1.0}
-_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?")
 _NAME = re.compile(r"^[A-Za-z0-9_.:/-]+$")
 _SWC_FIELDS = ("id", "type", "x", "y", "z", "radius", "parent")
-ROOT = "root"
+OUTLINE_SUFFIX = ".outline"
+SOMA_WORD = "soma"
+_OUTLINE_KEYS = ("length", "diameter", "end")
+_TAPER = ".."
+
+ValueReader = Callable[[str, str], float]
+"""Reads one value of an outline: ``(field, text) -> SI float``. ``field`` is "length",
+"diameter" (lengths, bare numbers in µm) or "end" ('sealed' 0, 'killed' inf, or a conductance
+to rest in S, bare numbers in nS). Raises ValueError (InputError is one) with a one-line
+reason that starts with the field's name."""
 
 
 @dataclass(frozen=True, slots=True)
@@ -97,11 +120,12 @@ class SwcPoints:
 
 
 @dataclass(frozen=True, slots=True)
-class SectionList:
-    """Sections from the hand-written format, reordered so that parents come first.
+class Outline:
+    """The branches of a tree outline in file order (every parent before its children), SI.
 
-    ``parents[i]`` is the index of section i's parent or -1 for the root; each section is a
-    cylinder (``end_diameters[i] == diameters[i]``) or a frustum. SI units (m).
+    ``parents[i]`` is the index of branch i's parent or -1 for the root; each branch is a
+    cylinder (``end_diameters[i] == diameters[i]``) or a frustum. ``ends[i]`` is the
+    conductance from branch i's far end to rest in S (0 sealed, inf killed); only tips carry one.
     """
 
     source: str
@@ -112,6 +136,7 @@ class SectionList:
     end_diameters: NDArray[np.float64]
     lines: NDArray[np.int64]
     soma_diameter: float | None = None
+    ends: NDArray[np.float64] | None = None
 
     def __len__(self) -> int:
         return len(self.names)
@@ -371,166 +396,242 @@ def _is_float(token: str) -> bool:
 
 
 # --------------------------------------------------------------------------------------
-# hand-written section list
+# tree outline
 # --------------------------------------------------------------------------------------
-def read_section_list(path: str | Path) -> SectionList:
-    """Read and validate a section-list file (see the module docstring)."""
+def read_outline(path: str | Path, read_value: ValueReader) -> Outline:
+    """Read and validate a tree outline (see the module docstring)."""
     text, source = _read_text(path)
-    return parse_section_list(text, source)
+    return parse_outline(text, read_value, source)
 
 
-def _quantities(tokens: list[str], source: str, number: int, fields: tuple[str, ...]) -> list[float]:
-    """Read lengths: ``300``, ``300um``, ``300 um``; bare numbers are µm. Returns SI (m)."""
-    values: list[float] = []
-    k = 0
-    while k < len(tokens):
-        field = fields[len(values)] if len(values) < len(fields) else "extra field"
-        if len(values) >= len(fields):
-            raise FileFormatError(f"{source}:{number}: unexpected extra field {tokens[k]!r}; expected at most "
-                                  f"{len(fields)} values ({', '.join(fields)})")
-        token = tokens[k]
-        match = _NUMBER.match(token)
-        if not match:
-            if values and token.isalpha() and _NUMBER.fullmatch(tokens[k - 1]):
-                raise FileFormatError(f"{source}:{number}: unknown unit {token!r} after {tokens[k - 1]!r}; "
-                                      f"expected one of {' '.join(_LENGTH_UNITS)}")
-            raise FileFormatError(f"{source}:{number}: {field} {token!r} is not a number; expected e.g. "
-                                  "'300', '300um' or '300 um'")
-        unit = token[match.end():]
-        if not unit and k + 1 < len(tokens) and tokens[k + 1] in _LENGTH_UNITS:
-            unit = tokens[k + 1]
-            k += 1
-        if unit and unit not in _LENGTH_UNITS:
-            raise FileFormatError(f"{source}:{number}: {field} {token!r} has unknown unit {unit!r}; "
-                                  f"expected one of {' '.join(_LENGTH_UNITS)}")
-        value = float(match.group(0)) * _LENGTH_UNITS[unit or "um"]
-        if not math.isfinite(value):
-            raise FileFormatError(f"{source}:{number}: {field} {token!r} is not finite")
-        values.append(value)
-        k += 1
-    return values
+@dataclass(slots=True)
+class _Line:
+    number: int
+    indent: int
+    name: str
+    fields: dict[str, tuple[str, int]]  # key -> (value text, column)
 
 
-def parse_section_list(text: str, source: str = "<tree>") -> SectionList:
-    """Parse the hand-written section list; ``source`` names the file in error messages."""
+def _outline_lines(text: str, source: str) -> list[_Line]:
+    """Split an outline into (line, indentation, name, fields), checking the lexical rules."""
+    out: list[_Line] = []
+    for number, raw in enumerate(text.splitlines(), start=1):
+        content = raw.split("#", 1)[0].rstrip()
+        if not content.strip():
+            continue
+        body = content.lstrip(" ")
+        indent = len(content) - len(body)
+        if body[:1] in ("\t", "\f", "\v"):
+            raise FileFormatError(f"{source}:{number}:{indent + 1}: tab in the indentation; indent with "
+                                  "spaces only")
+        tokens = [(m.group(0), m.start() + 1) for m in re.finditer(r"\S+", content)]
+        (name, name_col), rest = tokens[0], tokens[1:]
+        if "=" in name:
+            raise FileFormatError(f"{source}:{number}:{name_col}: the line starts with a field ({name!r}); "
+                                  "expected a branch name first, e.g. 'trunk length=300 diameter=4'")
+        if not _NAME.match(name):
+            raise FileFormatError(f"{source}:{number}:{name_col}: branch name {name!r} may hold only letters, "
+                                  "digits and _ - . : /")
+        fields: dict[str, tuple[str, int]] = {}
+        for token, col in rest:
+            key, eq, value = token.partition("=")
+            if not eq:
+                raise FileFormatError(f"{source}:{number}:{col}: {token!r} is not a field; expected key=value "
+                                      "with no blanks around '=', e.g. 'length=300'")
+            if key not in _OUTLINE_KEYS:
+                raise FileFormatError(f"{source}:{number}:{col}: unknown field {key!r}; expected "
+                                      f"{', '.join(_OUTLINE_KEYS)}")
+            if key in fields:
+                raise FileFormatError(f"{source}:{number}:{col}: field {key!r} given twice (first at column "
+                                      f"{fields[key][1]})")
+            if not value:
+                raise FileFormatError(f"{source}:{number}:{col}: field {key!r} has no value")
+            fields[key] = (value, col + len(key) + 1)
+        out.append(_Line(number, indent, name, fields))
+    return out
+
+
+def _value(read_value: ValueReader, field: str, text: str, where: str) -> float:
+    try:
+        value = float(read_value(field, text))
+    except ValueError as exc:
+        raise FileFormatError(f"{where}: {exc}") from None
+    if math.isnan(value):
+        raise FileFormatError(f"{where}: {field} {text!r} is not a number")
+    return value
+
+
+def _diameters(read_value: ValueReader, text: str, where: str) -> tuple[float, float]:
+    """``'3'`` -> (3, 3) µm; ``'3..2'`` -> a taper from 3 µm (proximal) to 2 µm (distal); SI."""
+    parts = text.split(_TAPER)
+    if len(parts) > 2:
+        raise FileFormatError(f"{where}: diameter {text!r} has more than one '..'; expected 'd' or "
+                              "'d0..d1' (a taper)")
+    values = [_value(read_value, "diameter", part, where) for part in parts]
+    for part, value in zip(parts, values, strict=True):
+        if not (math.isfinite(value) and value > 0):
+            raise FileFormatError(f"{where}: diameter {part!r} must be finite and positive")
+    return values[0], values[-1]
+
+
+def parse_outline(text: str, read_value: ValueReader, source: str = "<outline>") -> Outline:
+    """Parse a tree outline; ``source`` names the file in error messages (file:line:column)."""
+    lines = _outline_lines(text, source)
     names: list[str] = []
-    parent_names: list[str] = []
-    numbers: list[tuple[float, float, float]] = []
-    lines: list[int] = []
+    parents: list[int] = []
+    numbers: list[tuple[float, float, float, float]] = []
+    line_numbers: list[int] = []
+    seen: dict[str, int] = {}
     soma: float | None = None
     soma_line = 0
-    for number, raw in enumerate(text.splitlines(), start=1):
-        content = raw.split("#", 1)[0].strip()
-        if not content:
-            continue
-        tokens = content.split()
-        if tokens[0].lower() == "soma":
+    stack: list[tuple[int, int]] = []  # (indentation, branch index) of the enclosing branches
+    previous_indent = -1
+    for ln in lines:
+        where = f"{source}:{ln.number}:{ln.indent + 1}"
+        if previous_indent < 0 and ln.indent > 0:
+            raise FileFormatError(f"{where}: the first line is indented; the outline starts at the left margin")
+        if ln.name.lower() == SOMA_WORD:
+            if ln.indent > 0:
+                raise FileFormatError(f"{where}: 'soma' must be at the left margin (it is the root, not a branch)")
             if soma is not None:
-                raise FileFormatError(f"{source}:{number}: second 'soma' line (first at line {soma_line})")
-            values = _quantities(tokens[1:], source, number, ("soma diameter",))
-            if not values:
-                raise FileFormatError(f"{source}:{number}: 'soma' needs a diameter, e.g. 'soma 20 um'")
-            if values[0] <= 0:
-                raise FileFormatError(f"{source}:{number}: soma diameter must be positive")
-            soma, soma_line = values[0], number
+                raise FileFormatError(f"{where}: second 'soma' line (first at line {soma_line})")
+            extra = sorted(set(ln.fields) - {"diameter"})
+            if extra:
+                key_column = ln.fields[extra[0]][1] - len(extra[0]) - 1
+                raise FileFormatError(f"{source}:{ln.number}:{key_column}: the soma takes only a diameter, "
+                                      f"not {extra[0]!r}")
+            if "diameter" not in ln.fields:
+                raise FileFormatError(f"{where}: 'soma' needs a diameter, e.g. 'soma diameter=20'")
+            value, col = ln.fields["diameter"]
+            d0, d1 = _diameters(read_value, value, f"{source}:{ln.number}:{col}")
+            if d0 != d1:
+                raise FileFormatError(f"{source}:{ln.number}:{col}: the soma is a sphere; give one diameter")
+            soma, soma_line = d0, ln.number
+            stack = []
+            previous_indent = 0
             continue
-        if len(tokens) < 4:
-            raise FileFormatError(f"{source}:{number}: expected 'name parent length diameter "
-                                  f"[end diameter]', got {content!r}")
-        name, parent = tokens[0], tokens[1]
-        if not _NAME.match(name):
-            raise FileFormatError(f"{source}:{number}: section name {name!r} may hold only letters, digits "
-                                  "and _ - . : /")
-        if name.lower() == ROOT:
-            raise FileFormatError(f"{source}:{number}: 'root' is reserved for the input point; choose "
-                                  "another section name")
-        values = _quantities(tokens[2:], source, number, ("length", "diameter", "end diameter"))
-        if len(values) < 2:
-            raise FileFormatError(f"{source}:{number}: section {name!r} needs a length and a diameter")
-        length, diameter = values[0], values[1]
-        end = values[2] if len(values) == 3 else diameter
-        if length < 0:
-            raise FileFormatError(f"{source}:{number}: length of section {name!r} is negative")
-        for label, d in (("diameter", diameter), ("end diameter", end)):
-            if d <= 0:
-                raise FileFormatError(f"{source}:{number}: {label} of section {name!r} must be positive")
-        names.append(name)
-        parent_names.append(parent)
-        numbers.append((length, diameter, end))
-        lines.append(number)
-    if not names:
-        raise FileFormatError(f"{source}: no sections (the file is empty or holds only comments); expected "
-                              "lines 'name parent length diameter'")
-    index = _first_positions(names, lines, source, lambda name: f"section name {name!r}")
-    parents: list[int] = []
-    for i, p in enumerate(parent_names):
-        if p.lower() == ROOT:
-            parents.append(-1)
-        elif p in index:
-            if p == names[i]:
-                raise FileFormatError(f"{source}:{lines[i]}: section {p!r} is its own parent")
-            parents.append(index[p])
+        if ln.indent > previous_indent:  # one level deeper: a child of the line above
+            if previous_indent >= 0 and not stack:
+                raise FileFormatError(f"{where}: nothing may be nested under the 'soma' line (line "
+                                      f"{soma_line}); start the first branch at the left margin")
         else:
-            raise FileFormatError(f"{source}:{lines[i]}: parent {p!r} of section {names[i]!r} is not "
-                                  "defined; expected 'root' or the name of another section")
-    order = _sections_order(parents, lines, names, source)
-    position = {old: new for new, old in enumerate(order)}
-    arr = np.asarray(numbers, dtype=float)[order]
-    return SectionList(
-        source=source,
-        names=tuple(names[i] for i in order),
-        parents=np.asarray([position[parents[i]] if parents[i] >= 0 else -1 for i in order], dtype=np.int64),
-        lengths=arr[:, 0].copy(),
-        diameters=arr[:, 1].copy(),
-        end_diameters=arr[:, 2].copy(),
-        lines=np.asarray([lines[i] for i in order], dtype=np.int64),
-        soma_diameter=soma,
-    )
+            while stack and stack[-1][0] > ln.indent:
+                stack.pop()
+            if stack and stack[-1][0] == ln.indent:
+                stack.pop()
+            elif ln.indent > 0 and (not stack or stack[-1][0] < ln.indent):
+                raise FileFormatError(f"{where}: this indentation ({ln.indent} spaces) lines up with no enclosing "
+                                      "branch; a line that comes back out must start where an earlier sibling did")
+        if ln.name in seen:
+            raise FileFormatError(f"{where}: duplicate branch name {ln.name!r} (first defined at line "
+                                  f"{line_numbers[seen[ln.name]]})")
+        for key in ("length", "diameter"):
+            if key not in ln.fields:
+                raise FileFormatError(f"{where}: branch {ln.name!r} needs a {key}, e.g. "
+                                      f"'{ln.name} length=300 diameter=2'")
+        value, col = ln.fields["length"]
+        length = _value(read_value, "length", value, f"{source}:{ln.number}:{col}")
+        if not (math.isfinite(length) and length >= 0):
+            raise FileFormatError(f"{source}:{ln.number}:{col}: length {value!r} of branch {ln.name!r} must be "
+                                  "finite and >= 0")
+        value, col = ln.fields["diameter"]
+        d0, d1 = _diameters(read_value, value, f"{source}:{ln.number}:{col}")
+        end = 0.0
+        if "end" in ln.fields:
+            value, col = ln.fields["end"]
+            end = _value(read_value, "end", value, f"{source}:{ln.number}:{col}")
+            if end < 0:
+                raise FileFormatError(f"{source}:{ln.number}:{col}: end {value!r} of branch {ln.name!r} is "
+                                      "negative; expected 'sealed', 'killed' or a conductance >= 0")
+        index = len(names)
+        seen[ln.name] = index
+        names.append(ln.name)
+        parents.append(stack[-1][1] if stack else -1)
+        numbers.append((length, d0, d1, end))
+        line_numbers.append(ln.number)
+        stack.append((ln.indent, index))
+        previous_indent = ln.indent
+    if not names:
+        raise FileFormatError(f"{source}: no branches (the file is empty or holds only comments); expected "
+                              "lines such as 'trunk length=300 diameter=4'")
+    has_child = [False] * len(names)
+    for p in parents:
+        if p >= 0:
+            has_child[p] = True
+    for i, (ln_no, (_, _, _, end)) in enumerate(zip(line_numbers, numbers, strict=True)):
+        if has_child[i] and end != 0.0:
+            line = next(x for x in lines if x.number == ln_no)
+            raise FileFormatError(f"{source}:{ln_no}:{line.fields['end'][1]}: branch {names[i]!r} has branches "
+                                  "nested under it, so it has no free end; 'end=' belongs on a tip")
+    arr = np.asarray(numbers, dtype=float)
+    return Outline(source=source, names=tuple(names), parents=np.asarray(parents, dtype=np.int64),
+                   lengths=arr[:, 0].copy(), diameters=arr[:, 1].copy(), end_diameters=arr[:, 2].copy(),
+                   lines=np.asarray(line_numbers, dtype=np.int64), soma_diameter=soma, ends=arr[:, 3].copy())
 
 
-def _sections_order(parents: list[int], lines: list[int], names: list[str], source: str) -> list[int]:
-    """Several sections may hang on the root: add a virtual root, order, then drop it."""
-    n = len(parents)
-    shifted = [-1] + [p + 1 if p >= 0 else 0 for p in parents]
-    order = _topological_order(shifted, [0, *lines], [ROOT, *names], source, "section")
-    return [i - 1 for i in order if i > 0] if n else []
+def _number(value: float, digits: int) -> str:
+    return f"{value:.{digits}g}"
 
 
-def format_section_list(names: list[str] | tuple[str, ...], parents: list[str] | tuple[str, ...],
-                        lengths: NDArray | list[float], diameters: NDArray | list[float],
-                        end_diameters: NDArray | list[float] | None = None, *,
-                        soma_diameter: float | None = None, comments: tuple[str, ...] = (),
-                        digits: int = 10) -> str:
-    """Write sections (SI values) in the hand-written format; ``parents`` use names or ``root``."""
+def _end_text(conductance: float, digits: int) -> str:
+    if conductance == 0:
+        return "sealed"
+    if math.isinf(conductance):
+        return "killed"
+    return f"{conductance * 1e9:.{digits}g}nS"
+
+
+def format_outline(names: Sequence[str], parents: Sequence[int], lengths: NDArray | Sequence[float],
+                   diameters: NDArray | Sequence[float], end_diameters: NDArray | Sequence[float] | None = None,
+                   *, ends: NDArray | Sequence[float] | None = None, soma_diameter: float | None = None,
+                   comments: tuple[str, ...] = (), digits: int = 10, indent: int = 2) -> str:
+    """Write branches (SI values) as a tree outline.
+
+    ``parents`` are indices (-1 for the root); children are written under their parent in
+    the given order, ``indent`` spaces deeper. ``ends``: conductance to rest at each tip, S
+    (0 sealed, written only when not 0; inf killed).
+    """
+    n = len(names)
+    children: list[list[int]] = [[] for _ in range(n)]
+    roots: list[int] = []
+    for i, p in enumerate(parents):
+        (children[p] if p >= 0 else roots).append(i)
     out = [f"# {c}" if c else "#" for c in comments]
     if soma_diameter is not None:
-        out.append(f"soma {soma_diameter / MICROMETRE:.{digits}g} um")
-    out.append("# name parent length diameter [end diameter]   (µm)")
-    width = max((len(n) for n in names), default=4)
-    pwidth = max((len(p) for p in parents), default=4)
-    for i, name in enumerate(names):
-        row = (f"{name:<{width}}  {parents[i]:<{pwidth}}  {lengths[i] / MICROMETRE:.{digits}g}  "
-               f"{diameters[i] / MICROMETRE:.{digits}g}")
+        out.append(f"soma diameter={_number(soma_diameter / MICROMETRE, digits)}")
+    todo = [(i, 0) for i in reversed(roots)]
+    while todo:  # depth first, iterative
+        i, depth = todo.pop()
+        d0 = _number(diameters[i] / MICROMETRE, digits)
+        diameter = d0
         if end_diameters is not None and end_diameters[i] != diameters[i]:
-            row += f"  {end_diameters[i] / MICROMETRE:.{digits}g}"
+            diameter = f"{d0}{_TAPER}{_number(end_diameters[i] / MICROMETRE, digits)}"
+        row = (f"{' ' * (indent * depth)}{names[i]} length={_number(lengths[i] / MICROMETRE, digits)} "
+               f"diameter={diameter}")
+        if ends is not None and ends[i] != 0:
+            row += f" end={_end_text(float(ends[i]), digits)}"
         out.append(row)
+        todo.extend((c, depth + 1) for c in reversed(children[i]))
     return "\n".join(out) + "\n"
 
 
-def read_morphology(path: str | Path) -> SwcPoints | SectionList:
-    """Read an SWC file (``.swc``) or a section list (``.tree``, or anything else that is not SWC).
+def read_morphology(path: str | Path, read_value: ValueReader | None = None) -> SwcPoints | Outline:
+    """Read an SWC file (``.swc``) or a tree outline (``.outline``, or anything else that is not SWC).
 
     Files with other extensions are recognised by their first data line: seven numeric
-    fields mean SWC.
+    fields mean SWC. ``read_value`` reads the values of an outline (see :data:`ValueReader`);
+    it is required for outlines.
     """
     p = Path(path)
     suffix = p.suffix.lower()
     if suffix == ".swc":
         return read_swc(p)
     text, source = _read_text(p)
-    if suffix != ".tree":
+    if suffix != OUTLINE_SUFFIX:
         first = next((ln.split("#", 1)[0].split() for ln in text.splitlines()
                       if ln.split("#", 1)[0].strip()), [])
         if len(first) == 7 and all(_is_float(t) for t in first):
             return parse_swc(text, source)
-    return parse_section_list(text, source)
+    if read_value is None:
+        raise ValueError("read_morphology: reading a tree outline needs read_value (the unit reader)")
+    return parse_outline(text, read_value, source)

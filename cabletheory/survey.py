@@ -39,7 +39,7 @@ import numpy as np
 
 from . import PASSIVE_CAVEAT, __version__
 from .errors import CableTheoryError, InputError, MissingFileError
-from .morphology import SectionList, read_morphology
+from .morphology import Outline, ValueReader, read_morphology
 from .tree import Tolerances, TreeReport, analyse_tree, build_tree
 
 __all__ = ["COLUMNS", "MORPHOLOGY_SUFFIXES", "Column", "DaskRunner", "Journal", "PoolRunner", "SerialRunner",
@@ -47,7 +47,7 @@ __all__ = ["COLUMNS", "MORPHOLOGY_SUFFIXES", "Column", "DaskRunner", "Journal", 
            "read_table", "run_survey", "table_csv", "table_parquet"]
 
 Row = dict[str, Any]
-MORPHOLOGY_SUFFIXES = (".swc", ".tree", ".outline")
+MORPHOLOGY_SUFFIXES = (".swc", ".outline")
 JOURNAL_KIND = "cabletheory survey journal"
 
 
@@ -116,6 +116,8 @@ class SurveySettings:
     tip_conductance : conductance from every tip to rest, S (0 sealed, inf killed); ``None`` keeps
         what each file says (sealed unless it states otherwise)
     taper, types, include_axon : how an SWC file becomes a tree (:func:`~cabletheory.tree.build_tree`)
+    read_value : reads the values of a tree outline (the front end passes
+        :func:`cabletheory.inputs.read_outline_value`); without it an outline is refused
     """
 
     membrane_resistivity: float
@@ -126,6 +128,7 @@ class SurveySettings:
     taper: bool = False
     types: tuple[int, ...] | None = None
     include_axon: bool = False
+    read_value: ValueReader | None = field(default=None, compare=False)
 
     def __post_init__(self) -> None:
         for name in ("membrane_resistivity", "axial_resistivity", "membrane_capacitance"):
@@ -161,17 +164,15 @@ class SurveySettings:
 
 
 def _analyse(path: str, settings: SurveySettings) -> tuple[TreeReport, str, int]:
-    morphology = read_morphology(path)
+    if settings.read_value is None and Path(path).suffix.lower() == ".outline":
+        raise InputError(f"{path}: this survey was set up without a reader for tree outlines")
+    morphology = read_morphology(path, settings.read_value)
     types = None if settings.types is None else set(settings.types)
     tree = build_tree(morphology, taper=settings.taper, types=types, include_axon=settings.include_axon)
-    tip = settings.tip_conductance
-    if tip is not None and 0 < tip < math.inf:
-        raise InputError("tips: a leaky tip conductance is not supported by this version's tree analysis; "
-                         "use 'sealed' or 'killed'")
     report = analyse_tree(tree, settings.membrane_resistivity, settings.axial_resistivity,
                           settings.membrane_capacitance, tolerances=settings.tolerances,
-                          killed_tips=tip is not None and math.isinf(tip))
-    file_format = "outline" if isinstance(morphology, SectionList) else "SWC"
+                          tip_conductance=settings.tip_conductance)
+    file_format = "outline" if isinstance(morphology, Outline) else "SWC"
     return report, file_format, len(morphology)
 
 

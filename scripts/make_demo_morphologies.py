@@ -11,11 +11,11 @@ Writes to ``cabletheory/data/morphologies/``:
   built to satisfy Rall's conditions exactly (3/2 rule at every branch point, uneven but
   exact daughter splits, every tip at X = 1.1), a one-point spherical soma;
 * ``lumenia_pv7_interneuron.swc``: the "pedal-ventral interneuron PV-7", realistic-looking
-  and *not* reducible (daughters too thick or too thin, tapering sections, tips at
+  and *not* reducible (daughters too thick or too thin, tapering branches, tips at
   different distances), with an outline soma, four basal dendrites, an apical dendrite and
   an axon;
-* ``lumenia_demo.tree``: the small symmetric demo tree (trunk 4 µm, two orders of 3/2-rule
-  daughters, 20 µm soma) in the hand-written section-list format.
+* ``lumenia_demo.outline``: the small symmetric demo tree (trunk 4 µm, two orders of 3/2-rule
+  daughters, 20 µm soma) as a tree outline (docs/tree.md).
 
 Run: ``python scripts/make_demo_morphologies.py`` (it overwrites the three files).
 """
@@ -27,7 +27,7 @@ from pathlib import Path
 
 import numpy as np
 
-from cabletheory.morphology import format_section_list
+from cabletheory.morphology import format_outline
 
 OUT = Path(__file__).resolve().parent.parent / "cabletheory" / "data" / "morphologies"
 # the Station's working values (only the ratio Rm/Ri matters for electrotonic distances)
@@ -170,27 +170,27 @@ def realistic_cell() -> str:
     return writer.text([
         "Lumenia vadosa pedal-ventral interneuron PV-7 (invented; Tidewater Station demo data)",
         "Realistic-looking and NOT built to Rall's conditions: daughters 0.52-0.86 of the parent diameter,",
-        "sections taper, tips end at different electrotonic distances.",
+        "branches taper, tips end at different electrotonic distances.",
         "Soma: 14-point outline in the z = 0 plane; 4 basal dendrites (type 3), 1 apical (type 4), axon (type 2).",
     ])
 
 
 # --------------------------------------------------------------------------------------
-# the small symmetric demo tree, hand-written format
+# the small symmetric demo tree, as a tree outline
 # --------------------------------------------------------------------------------------
 def demo_tree() -> str:
     d0 = 4.0 * UM
     d1 = d0 * 2.0 ** (-2.0 / 3.0)
     d2 = d0 * 4.0 ** (-2.0 / 3.0)
     names = ["trunk", "left", "right", "left.a", "left.b", "right.a", "right.b"]
-    parents = ["root", "trunk", "trunk", "left", "left", "right", "right"]
+    parents = [-1, 0, 0, 1, 1, 2, 2]
     lengths = [300 * UM, 300 * UM, 300 * UM, 200 * UM, 200 * UM, 200 * UM, 200 * UM]
     diameters = [d0, d1, d1, d2, d2, d2, d2]
-    return format_section_list(names, parents, lengths, diameters, soma_diameter=20 * UM, digits=12, comments=(
+    return format_outline(names, parents, lengths, diameters, soma_diameter=20 * UM, digits=12, comments=(
+        "cabletheory tree outline v1 (lengths and diameters in µm unless a unit is given)",
         "Lumenia vadosa mechanosensory interneuron, idealised (invented; Tidewater Station demo data)",
-        "Trunk 4 um, two orders of daughters obeying the 3/2 rule exactly, 20 um spherical soma.",
-        "Format: one section per line 'name parent length diameter [end diameter]'; bare numbers are um;",
-        "'root' is the soma (or the input point when there is no soma line).",
+        "Trunk 4 µm, two orders of daughters obeying the 3/2 rule exactly, 20 µm spherical soma.",
+        "One branch per line; indentation gives the parent; every tip sealed (no end= given).",
     ))
 
 
@@ -199,7 +199,7 @@ def main() -> None:
     files = {
         "lumenia_lw1_conforming.swc": conforming_cell(),
         "lumenia_pv7_interneuron.swc": realistic_cell(),
-        "lumenia_demo.tree": demo_tree(),
+        "lumenia_demo.outline": demo_tree(),
     }
     for name, text in files.items():
         (OUT / name).write_text(text, encoding="utf-8")

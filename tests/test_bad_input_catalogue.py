@@ -53,7 +53,7 @@ PLACEHOLDERS = {
     "run": "--Rm '20 kΩ·cm²' --Ri '200 Ω·cm' --diameter '2 µm' --length '500 µm' --current '100 pA' "
            "--rest '-62 mV' --onset '1 ms'",
     "swc": shlex.quote(str(DATA / "morphologies" / "lumenia_lw1_conforming.swc")),
-    "tree": shlex.quote(str(DATA / "morphologies" / "lumenia_demo.tree")),
+    "tree": shlex.quote(str(DATA / "morphologies" / "lumenia_demo.outline")),
     "csv": shlex.quote(str(DATA / "runs" / "lumenia_coarse.csv")),
 }
 
@@ -124,12 +124,14 @@ FILES: dict[str, str | bytes] = {
     "dx_word.csv": "# dx = plenty\n" + _HEADER + "0,0,0\n1,0,0\n",
     "ok.csv": _HEADER + "0,0,0\n0.5,0.1,0.01\n1,0.2,0.02\n",
     "ok2.csv": _HEADER + "0,0,0\n0.5,0.1,0.01\n1,0.2,0.02\n",
-    # --- section lists (tree)
-    "bad_length.tree": "trunk root 2,3 um 4 um\n",
-    "tower.tree": "trunk root 9^9^9 um 4 um\n",
-    "unknown_parent.tree": "trunk nowhere 300 um 4 um\n",
-    "few_fields.tree": "trunk root 300\n",
-    "empty.tree": "",
+    # --- tree outlines (tree)
+    "bad_length.outline": "trunk length=2,3um diameter=4um\n",
+    "tower.outline": "trunk length=9^9^9um diameter=4um\n",
+    "positional.outline": "trunk root 300 um 4 um\n",
+    "few_fields.outline": "trunk length=300\n",
+    "tab.outline": "trunk length=300 diameter=4\n\tleft length=300 diameter=2.5\n",
+    "misaligned.outline": "trunk length=300 diameter=4\n    a length=1 diameter=1\n  b length=1 diameter=1\n",
+    "empty.outline": "",
     "text.txt": "this is not a morphology\n",
 }
 

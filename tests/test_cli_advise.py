@@ -84,7 +84,7 @@ SWC_TREE = """# demo tree of docs/sources.md
 
 
 def test_tree_advice_reads_swc_as_the_tree_command_does(tmp_path, capsys) -> None:
-    """An SWC file is read as SWC (not as a section list): demo tree of docs/sources.md, |Z_root(100 Hz)| =
+    """An SWC file is read as SWC (not as a tree outline): demo tree of docs/sources.md, |Z_root(100 Hz)| =
     44.86760779 MΩ (computed), the same as the --parents/--lengths/--diameters form above."""
     swc = tmp_path / "cell.swc"
     swc.write_text(SWC_TREE, encoding="utf-8")
@@ -92,7 +92,7 @@ def test_tree_advice_reads_swc_as_the_tree_command_does(tmp_path, capsys) -> Non
                  "--target", "0.5%"]) == 0
     out = capsys.readouterr().out
     assert "exact |Z|              44.87 MΩ" in out
-    assert "(7 SWC segments)" in out
+    assert "(7 SWC pieces)" in out
 
 
 def test_tree_advice_on_the_bundled_swc(capsys) -> None:
@@ -119,9 +119,9 @@ def test_tree_quantity_errors_name_the_option(tmp_path, capsys, extra: list[str]
 
 
 def test_tapered_tree_is_refused_in_one_line(tmp_path, capsys) -> None:
-    sections = tmp_path / "cell.tree"
-    sections.write_text("trunk root 300 4 2\n", encoding="utf-8")
-    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(sections)]) == 2
+    outline = tmp_path / "cell.outline"
+    outline.write_text("trunk length=300 diameter=4..2\n", encoding="utf-8")
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(outline)]) == 2
     err = capsys.readouterr().err
     assert err.startswith("cabletheory: error: --tree: ")
     assert "tapered" in err

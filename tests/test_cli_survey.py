@@ -137,3 +137,22 @@ def test_an_unreachable_scheduler_is_named(capsys, tmp_path):
     assert status == 2
     assert "cannot reach a Dask scheduler at 'tcp://127.0.0.1:1'" in err
     assert not (tmp_path / "t.csv").exists()
+
+
+def test_survey_reads_tree_outlines_with_their_tip_ends(capsys, tmp_path):
+    """An outline in the folder is read like `tree` reads it, units and per-tip ends included."""
+    folder = tmp_path / "cells"
+    folder.mkdir()
+    demo = ARCHIVE.parent / "morphologies" / "lumenia_demo.outline"
+    (folder / "demo.outline").write_text(demo.read_text(encoding="utf-8"), encoding="utf-8")
+    (folder / "leaky.outline").write_text("trunk length=0.3mm diameter=4um\n"
+                                          "  left length=300 diameter=2.52 end=0.2nS\n"
+                                          "  right length=300 diameter=2.52 end=killed\n", encoding="utf-8")
+    output = tmp_path / "survey.csv"
+    status, _, err = run(capsys, ["survey", str(folder), *MEMBRANE, "--output", str(output), "--workers", "1"])
+    assert status == 0, err
+    rows = {Path(r["path"]).name: r for r in _rows(output)}
+    assert {r["status"] for r in rows.values()} == {"ok"}
+    assert {r["format"] for r in rows.values()} == {"outline"}
+    assert rows["demo.outline"]["reducible"] in {"True", "true", "1", "yes"}
+    assert rows["leaky.outline"]["reducible"] in {"False", "false", "0", "no"}

@@ -22,7 +22,7 @@ def run(capsys, argv):
 
 def test_bundled_files_exist():
     names = {p.name for p in BUNDLED}
-    assert {"lumenia_lw1_conforming.swc", "lumenia_pv7_interneuron.swc", "lumenia_demo.tree"} <= names
+    assert {"lumenia_lw1_conforming.swc", "lumenia_pv7_interneuron.swc", "lumenia_demo.outline"} <= names
 
 
 @pytest.mark.parametrize("path", BUNDLED, ids=lambda p: p.name)
@@ -58,7 +58,7 @@ def test_json_has_the_required_keys(capsys, path):
 
 def test_json_values_of_the_demo_tree(capsys):
     """Demo tree of docs/sources.md (computed; Rall 1959/1964 [Rall1959] [Rall1964], 1969 [Rall1969])."""
-    _, out, _ = run(capsys, ["tree", str(DATA / "lumenia_demo.tree"), *MEMBRANE, "--json"])
+    _, out, _ = run(capsys, ["tree", str(DATA / "lumenia_demo.outline"), *MEMBRANE, "--json"])
     data = json.loads(out)
     assert data["reducible"] is True
     assert data["reasons"] == []
@@ -80,7 +80,7 @@ def test_swc_ids_are_integers_and_reasons_are_given(capsys):
 
 
 def test_bare_numbers_use_customary_units(capsys):
-    path = str(DATA / "lumenia_demo.tree")
+    path = str(DATA / "lumenia_demo.outline")
     _, with_units, _ = run(capsys, ["tree", path, *MEMBRANE, "--Cm", "1 µF/cm²"])
     _, bare, _ = run(capsys, ["tree", path, "--Rm", "20000", "--Ri", "200", "--Cm", "1"])
     assert bare == with_units
@@ -102,10 +102,46 @@ def test_options_change_what_is_analysed(capsys):
 
 
 def test_killed_tips_lower_the_input_resistance(capsys):
-    path = str(DATA / "lumenia_demo.tree")
+    path = str(DATA / "lumenia_demo.outline")
     _, sealed, _ = run(capsys, ["tree", path, *MEMBRANE, "--json"])
     _, killed, _ = run(capsys, ["tree", path, *MEMBRANE, "--json", "--tips", "killed"])
     assert json.loads(killed)["input_resistance"]["value"] < json.loads(sealed)["input_resistance"]["value"]
+
+
+def test_leaky_tips_lie_between_sealed_and_killed(capsys):
+    path = str(DATA / "lumenia_demo.outline")
+    values = {}
+    for end in ("sealed", "0.5 nS", "killed"):
+        _, out, _ = run(capsys, ["tree", path, *MEMBRANE, "--json", "--tips", end])
+        data = json.loads(out)
+        values[end] = data["input_resistance"]["value"]
+        assert data["reducible"] is True  # every tip ends alike
+    assert values["killed"] < values["0.5 nS"] < values["sealed"]
+    assert json.loads(out)["tips"][0]["end"] == "killed"
+
+
+def test_an_outline_can_end_each_tip_its_own_way(capsys, tmp_path):
+    path = tmp_path / "cell.outline"
+    path.write_text("soma diameter=20\ntrunk length=300 diameter=4\n"
+                    "  left length=300 diameter=2.52 end=killed   # held at rest\n"
+                    "  right length=300 diameter=2.52 end=0.2nS\n", encoding="utf-8")
+    status, out, _ = run(capsys, ["tree", str(path), *MEMBRANE])
+    assert status == 0
+    assert "as in the file: 1 killed, 1 leaky" in out
+    assert "tip left (line 3): end-conductance ratio B = inf, unlike the other tips" in out \
+        or "tip right (line 4): end-conductance ratio" in out
+    _, out, _ = run(capsys, ["tree", str(path), *MEMBRANE, "--json"])
+    data = json.loads(out)
+    assert data["inputs"]["tips"] == "as in the file"
+    assert [t["end"] for t in data["tips"]] == ["killed", {"value": pytest.approx(2e-10), "unit": "S"}]
+    assert "tip_end" in {v["kind"] for v in data["violations"]}
+
+
+def test_bad_tips_option_exit_2(capsys):
+    status, out, err = run(capsys, ["tree", str(DATA / "lumenia_demo.outline"), *MEMBRANE, "--tips", "open"])
+    assert out == ""
+    assert status == 2
+    assert err.startswith("cabletheory: error: --tips: 'open' is not 'sealed', 'killed' or a conductance")
 
 
 @pytest.mark.parametrize("suffix", [".png", ".svg"])
@@ -130,7 +166,9 @@ BAD_FILES = [
     ("radius.swc", "1 1 0 0 0 5 -1\n2 3 10 0 0 -2 1\n", "radius.swc:2: radius -2"),
     ("nan.swc", "1 1 0 0 0 5 -1\n2 3 10 nan 0 1 1\n", "nan.swc:2: field 'y'"),
     ("text.swc", "1 1 0 0 0 5 -1\n2 dendrite 10 0 0 1 1\n", "text.swc:2: field 'type'"),
-    ("bad.tree", "a root 10um 2\nb a 10 furlongs\n", "bad.tree:2: unknown unit"),
+    ("bad.outline", "a length=10um diameter=2\n  b length=10 diameter=2zz\n", "bad.outline:2:24: diameter"),
+    ("tab.outline", "a length=10 diameter=2\n\tb length=10 diameter=1\n", "tab.outline:2:1: tab in the indentation"),
+    ("old.outline", "a root 10 2\n", "old.outline:1:3: 'root' is not a field"),
 ]
 
 
@@ -165,7 +203,7 @@ def test_binary_file_exit_2(capsys, tmp_path):
     ([*MEMBRANE, "--bins", "0"], "--bins"),
 ])
 def test_bad_options_exit_2(capsys, argv, message):
-    status, out, err = run(capsys, ["tree", str(DATA / "lumenia_demo.tree"), *argv])
+    status, out, err = run(capsys, ["tree", str(DATA / "lumenia_demo.outline"), *argv])
     assert status == 2
     assert message in err
     assert out == ""

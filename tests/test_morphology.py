@@ -1,4 +1,4 @@
-"""Reading SWC files and section lists: what is accepted, and a clear error for each malformed case.
+"""Reading SWC files and tree outlines: what is accepted, and a clear error for each malformed case.
 
 The SWC layout (seven fields ``id type x y z radius parent``, parent -1 for the root, type 1
 soma, 2 axon, 3 basal, 4 apical) is the open community format [CP].
@@ -10,9 +10,10 @@ import numpy as np
 import pytest
 
 from cabletheory.errors import FileFormatError, MissingFileError
+from cabletheory.inputs import read_outline_value
 from cabletheory.morphology import (
-    format_section_list,
-    parse_section_list,
+    format_outline,
+    parse_outline,
     parse_swc,
     read_morphology,
     read_swc,
@@ -107,66 +108,90 @@ def test_missing_file(tmp_path):
         read_morphology(tmp_path / "nothing.swc")
 
 
-GOOD_TREE = """# demo
-soma 20 um
-trunk  root   300 um  4um
-left   trunk  0.3 mm  2.5
-right  trunk  300     2.5   1.5   # tapering
+GOOD_TREE = """# cabletheory tree outline v1
+soma diameter=20um
+trunk length=300um diameter=4um
+  left length=0.3mm diameter=2.5      # bare numbers are µm
+    left-tip length=10 diameter=1 end=killed
+  right length=300\tdiameter=2.5..1.5 end=0.5nS  # tapering; a tab between fields is a blank
 """
 
 
-def test_section_list_units_and_taper():
-    sections = parse_section_list(GOOD_TREE, "demo.tree")
-    assert sections.names == ("trunk", "left", "right")
-    assert sections.parents.tolist() == [-1, 0, 0]
-    np.testing.assert_allclose(sections.lengths, [300e-6, 300e-6, 300e-6])
-    np.testing.assert_allclose(sections.diameters, [4e-6, 2.5e-6, 2.5e-6])
-    np.testing.assert_allclose(sections.end_diameters, [4e-6, 2.5e-6, 1.5e-6])
-    assert sections.soma_diameter == pytest.approx(20e-6)
-    assert sections.lines.tolist() == [3, 4, 5]
+def parse(text: str, source: str = "<outline>"):
+    return parse_outline(text, read_outline_value, source)
 
 
-def test_section_list_any_order():
-    sections = parse_section_list("b a 10 1\na root 10 2\n")
-    assert sections.names == ("a", "b")
-    assert sections.parents.tolist() == [-1, 0]
+def test_outline_units_nesting_taper_and_ends():
+    outline = parse(GOOD_TREE, "demo.outline")
+    assert outline.names == ("trunk", "left", "left-tip", "right")
+    assert outline.parents.tolist() == [-1, 0, 1, 0]
+    np.testing.assert_allclose(outline.lengths, [300e-6, 300e-6, 10e-6, 300e-6])
+    np.testing.assert_allclose(outline.diameters, [4e-6, 2.5e-6, 1e-6, 2.5e-6])
+    np.testing.assert_allclose(outline.end_diameters, [4e-6, 2.5e-6, 1e-6, 1.5e-6])
+    assert outline.ends.tolist() == [0.0, 0.0, np.inf, pytest.approx(0.5e-9)]
+    assert outline.soma_diameter == pytest.approx(20e-6)
+    assert outline.lines.tolist() == [3, 4, 5, 6]
+
+
+def test_outline_indentation_of_any_width_and_dedent_to_any_level():
+    text = "a length=1 diameter=1\n    b length=1 diameter=1\n        c length=1 diameter=1\n" \
+           "    d length=1 diameter=1\ne length=1 diameter=1\n   f length=1 diameter=1\n"
+    outline = parse(text)
+    assert outline.parents.tolist() == [-1, 0, 1, 0, -1, 4]
 
 
 BAD_TREE = [
-    ("", ":", "no sections"),
-    ("a root 10\n", ":1:", "expected 'name parent length diameter"),
-    ("a root 10 2 1 7\n", ":1:", "unexpected extra field"),
-    ("a root ten 2\n", ":1:", "length 'ten' is not a number"),
-    ("a root 10 2 furlongs\n", ":1:", "unknown unit 'furlongs' after '2'"),
-    ("a root 10inch 2\n", ":1:", "unknown unit 'inch'"),
-    ("a root -10 2\n", ":1:", "negative"),
-    ("a root 10 0\n", ":1:", "diameter of section 'a' must be positive"),
-    ("a root 10 2\nb c 10 1\n", ":2:", "parent 'c' of section 'b' is not defined"),
-    ("a root 10 2\na root 10 1\n", ":2:", "duplicate section name 'a' (first defined at line 1)"),
-    ("a b 10 2\nb a 10 1\n", ":1:", "cycle"),
-    ("root root 10 2\n", ":1:", "reserved"),
-    ("a a 10 2\n", ":1:", "its own parent"),
-    ("soma 10\nsoma 12\na root 10 2\n", ":2:", "second 'soma' line"),
-    ("soma\na root 10 2\n", ":1:", "needs a diameter"),
-    ("a$ root 10 2\n", ":1:", "section name"),
+    ("", ":", "no branches"),
+    ("# only a comment\n", ":", "no branches"),
+    ("a length=10\n", ":1:1:", "needs a diameter"),
+    ("a diameter=2\n", ":1:1:", "needs a length"),
+    ("a length=10 diameter=2 colour=red\n", ":1:24:", "unknown field 'colour'"),
+    ("a length=10 length=12 diameter=2\n", ":1:13:", "field 'length' given twice"),
+    ("a length= diameter=2\n", ":1:3:", "field 'length' has no value"),
+    ("a length=ten diameter=2\n", ":1:10:", "length: cannot read 'ten'"),
+    ("a length=10 diameter=2furlongsx\n", ":1:22:", "diameter"),
+    ("a length=-10 diameter=2\n", ":1:10:", "must be finite and >= 0"),
+    ("a length=10 diameter=0\n", ":1:22:", "diameter '0' must be finite and positive"),
+    ("a length=10 diameter=2..1..0.5\n", ":1:22:", "more than one '..'"),
+    ("a length=10 diameter=2\n  b length=10 diameter=1\na length=3 diameter=1\n", ":3:1:",
+     "duplicate branch name 'a' (first defined at line 1)"),
+    ("  a length=10 diameter=2\n", ":1:3:", "the first line is indented"),
+    ("a length=10 diameter=2\n\tb length=10 diameter=1\n", ":2:1:", "tab in the indentation"),
+    ("a length=10 diameter=2\n  \tb length=10 diameter=1\n", ":2:3:", "tab in the indentation"),
+    ("a length=10 diameter=2\n    b length=10 diameter=1\n  c length=10 diameter=1\n", ":3:3:",
+     "lines up with no enclosing branch"),
+    ("a length=10 diameter=2 end=killed\n  b length=10 diameter=1\n", ":1:28:", "'end=' belongs on a tip"),
+    ("a length=10 diameter=2 end=open\n", ":1:28:", "end: 'open' is not 'sealed', 'killed' or a conductance"),
+    ("a length=10 diameter=2 end=-1nS\n", ":1:28:", "negative"),
+    ("a root 10 2\n", ":1:3:", "'root' is not a field; expected key=value"),
+    ("length=10 diameter=2\n", ":1:1:", "expected a branch name first"),
+    ("a$ length=10 diameter=2\n", ":1:1:", "branch name 'a$'"),
+    ("soma diameter=10\nsoma diameter=12\na length=10 diameter=2\n", ":2:1:", "second 'soma' line"),
+    ("soma\na length=10 diameter=2\n", ":1:1:", "'soma' needs a diameter"),
+    ("soma diameter=10 length=3\n", ":1:18:", "the soma takes only a diameter"),
+    ("soma diameter=10..8\n", ":1:15:", "give one diameter"),
+    ("soma diameter=10\n  a length=10 diameter=2\n", ":2:3:", "nothing may be nested under the 'soma' line"),
+    ("a length=10 diameter=2\n  soma diameter=10\n", ":2:3:", "'soma' must be at the left margin"),
 ]
 
 
 @pytest.mark.parametrize(("text", "where", "message"), BAD_TREE)
-def test_malformed_section_list_names_the_line(text, where, message):
+def test_malformed_outline_names_line_and_column(text, where, message):
     with pytest.raises(FileFormatError) as info:
-        parse_section_list(text, "bad.tree")
-    assert str(info.value).startswith(f"bad.tree{where}")
+        parse(text, "bad.outline")
+    assert str(info.value).startswith(f"bad.outline{where}")
     assert message in str(info.value)
 
 
 def test_round_trip_through_the_writer():
-    text = format_section_list(["t", "a", "b"], ["root", "t", "t"], [3e-4, 2e-4, 2e-4], [4e-6, 2e-6, 2e-6],
-                               [4e-6, 2e-6, 1e-6], soma_diameter=2e-5, comments=("made here",))
-    sections = parse_section_list(text)
-    np.testing.assert_allclose(sections.lengths, [3e-4, 2e-4, 2e-4], rtol=1e-12)
-    np.testing.assert_allclose(sections.end_diameters, [4e-6, 2e-6, 1e-6], rtol=1e-12)
-    assert sections.soma_diameter == pytest.approx(2e-5, rel=1e-12)
+    text = format_outline(["t", "a", "b"], [-1, 0, 0], [3e-4, 2e-4, 2e-4], [4e-6, 2e-6, 2e-6],
+                          [4e-6, 2e-6, 1e-6], ends=[0.0, np.inf, 2e-10], soma_diameter=2e-5, comments=("made here",))
+    outline = parse(text)
+    assert outline.parents.tolist() == [-1, 0, 0]
+    np.testing.assert_allclose(outline.lengths, [3e-4, 2e-4, 2e-4], rtol=1e-12)
+    np.testing.assert_allclose(outline.end_diameters, [4e-6, 2e-6, 1e-6], rtol=1e-12)
+    np.testing.assert_allclose(outline.ends, [0.0, np.inf, 2e-10], rtol=1e-12)
+    assert outline.soma_diameter == pytest.approx(2e-5, rel=1e-12)
 
 
 def test_format_is_sniffed_when_the_extension_is_unknown(tmp_path):
@@ -175,7 +200,14 @@ def test_format_is_sniffed_when_the_extension_is_unknown(tmp_path):
     tree = tmp_path / "cell.dat"
     tree.write_text(GOOD_TREE)
     assert type(read_morphology(swc)).__name__ == "SwcPoints"
-    assert type(read_morphology(tree)).__name__ == "SectionList"
+    assert type(read_morphology(tree, read_outline_value)).__name__ == "Outline"
+
+
+def test_an_outline_needs_a_value_reader(tmp_path):
+    path = tmp_path / "cell.outline"
+    path.write_text(GOOD_TREE)
+    with pytest.raises(ValueError, match="read_value"):
+        read_morphology(path)
 
 
 def test_vectorised_and_line_by_line_parsers_agree():

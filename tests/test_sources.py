@@ -31,7 +31,7 @@ OUTSIDE = re.compile(r"checks\.md|shared[/\\]reference|\[(?:PUB\s*\d*|COMP)\b[^\
 NAMED_TEST = re.compile(r"`(tests/[\w/]+\.py)`")
 
 SKIP_DIRS = {"build", "dist", "node_modules", "__pycache__"}
-TEXT_SUFFIXES = {".py", ".md", ".txt", ".toml", ".cfg", ".ini", ".csv", ".json", ".svg", ".swc", ".tree",
+TEXT_SUFFIXES = {".py", ".md", ".txt", ".toml", ".cfg", ".ini", ".csv", ".json", ".svg", ".swc", ".outline",
                  ".tcss", ".yml", ".yaml", ".sh", ""}
 
 

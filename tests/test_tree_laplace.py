@@ -24,8 +24,8 @@ from hypothesis import strategies as st
 
 from cabletheory import cable, case, transient
 from cabletheory.errors import InputError
-from cabletheory.morphology import SectionList, read_swc
-from cabletheory.tree import Tree, build_tree, exact_input_conductances, tree_from_sections
+from cabletheory.morphology import Outline, read_swc
+from cabletheory.tree import Tree, build_tree, exact_input_conductances, tree_from_outline
 from cabletheory.tree_laplace import (
     PassiveTree,
     Site,
@@ -49,7 +49,7 @@ DATA = Path(__file__).resolve().parent.parent / "cabletheory" / "data" / "morpho
 def sections_tree(parents, lengths, diameters, soma_diameter=None) -> Tree:
     n = len(parents)
     d = np.asarray(diameters, dtype=float)
-    return tree_from_sections(SectionList(
+    return tree_from_outline(Outline(
         source="test", names=tuple(f"s{i}" for i in range(n)), parents=np.asarray(parents, dtype=np.int64),
         lengths=np.asarray(lengths, dtype=float), diameters=d, end_diameters=d,
         lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=soma_diameter))

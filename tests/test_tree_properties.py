@@ -16,8 +16,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from cabletheory.morphology import SectionList
-from cabletheory.tree import Tree, analyse_tree, scale_lengths, tree_from_sections
+from cabletheory.morphology import Outline
+from cabletheory.tree import Tree, analyse_tree, scale_lengths, tree_from_outline
 
 RM, RI = 2.0, 2.0
 UM = 1e-6
@@ -26,7 +26,7 @@ UM = 1e-6
 def make_tree(parents, lengths, diameters, soma=None) -> Tree:
     n = len(parents)
     d = np.asarray(diameters, dtype=float)
-    return tree_from_sections(SectionList(
+    return tree_from_outline(Outline(
         source="prop", names=tuple(f"s{i}" for i in range(n)), parents=np.asarray(parents, dtype=np.int64),
         lengths=np.asarray(lengths, dtype=float), diameters=d, end_diameters=d,
         lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=soma))

@@ -15,6 +15,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import itertools
 import math
 from pathlib import Path
@@ -24,14 +25,14 @@ import pytest
 
 from cabletheory.cable import input_conductance, semi_infinite_input_conductance
 from cabletheory.compartment import discretise_tree, node_input_resistance
-from cabletheory.morphology import SectionList, read_swc
+from cabletheory.morphology import Outline, read_swc
 from cabletheory.tree import (
     Tolerances,
     Tree,
     analyse_tree,
     build_tree,
     exact_input_conductances,
-    tree_from_sections,
+    tree_from_outline,
 )
 
 RM = 2.0  # Ω·m² = 20 kΩ·cm²
@@ -41,10 +42,10 @@ UM = 1e-6
 DATA = Path(__file__).resolve().parent.parent / "cabletheory" / "data" / "morphologies"
 
 
-def sections_tree(parents, lengths, diameters, soma_diameter=None, end_diameters=None) -> Tree:
+def outline_tree(parents, lengths, diameters, soma_diameter=None, end_diameters=None) -> Tree:
     n = len(parents)
     d = np.asarray(diameters, dtype=float)
-    return tree_from_sections(SectionList(
+    return tree_from_outline(Outline(
         source="test", names=tuple(f"s{i}" for i in range(n)), parents=np.asarray(parents, dtype=np.int64),
         lengths=np.asarray(lengths, dtype=float), diameters=d,
         end_diameters=d if end_diameters is None else np.asarray(end_diameters, dtype=float),
@@ -57,7 +58,7 @@ def demo(granddaughter_1=200.0, daughter_scale=1.0, soma=None) -> Tree:
     parents = [-1, 0, 0, 1, 1, 2, 2]
     lengths = np.array([300, 300, 300, granddaughter_1, 200, 200, 200]) * UM
     diameters = np.array([d0, d1, d1, d2, d2, d2, d2]) * UM
-    return sections_tree(parents, lengths, diameters, None if soma is None else soma * UM)
+    return outline_tree(parents, lengths, diameters, None if soma is None else soma * UM)
 
 
 # --------------------------------------------------------------------------------------
@@ -140,7 +141,7 @@ def conforming_tree(seed: int, depth: int = 5, target: float = 1.3, stems: int =
             for share in shares:
                 stack.append((me, (share * d**1.5) ** (2 / 3), remaining - dx, levels - 1))
     # parents must precede children: the stack order already guarantees it
-    return sections_tree(parents, lengths, diameters)
+    return outline_tree(parents, lengths, diameters)
 
 
 @pytest.mark.parametrize("seed", [1, 2, 3, 4])
@@ -158,10 +159,53 @@ def test_conforming_tree_equals_equivalent_cylinder(seed, killed):
     assert report.reduced_input_resistance == pytest.approx(expected, rel=1e-12)
 
 
+@pytest.mark.parametrize("seed", [1, 2])
+@pytest.mark.parametrize("ratio", [0.3, 2.5])
+def test_leaky_tips_with_one_ratio_reduce_exactly(seed, ratio):
+    """Rall (1959): with the same end-conductance ratio B at every tip, the tree is its equivalent
+    cylinder with that B: G_in = G∞ (B + tanh L)/(1 + B tanh L), to 1e-12 [Rall1959]."""
+    base = conforming_tree(seed)
+    tips = np.ones(len(base), dtype=bool)
+    tips[base.parents[base.parents >= 0]] = False
+    ends = np.where(tips, ratio * semi_infinite_input_conductance(RM, RI, base.distal_diameters), 0.0)
+    report = analyse_tree(dataclasses.replace(base, ends=ends), RM, RI, CM)
+    assert report.reducible, report.reasons
+    assert report.end_conductance_ratio == pytest.approx(ratio, rel=1e-12)
+    g_inf = 1.0 / report.equivalent_cylinder.semi_infinite_input_resistance
+    expected = 1.0 / float(input_conductance(g_inf, 1.3, ratio))
+    assert report.input_resistance == pytest.approx(expected, rel=1e-12)
+    assert report.reduced_input_resistance == pytest.approx(expected, rel=1e-12)
+
+
+def test_tips_that_end_differently_are_a_departure():
+    """One killed tip among sealed ones: the exact value changes, the audit names the odd tip."""
+    tree = demo()
+    ends = np.zeros(len(tree))
+    ends[3] = math.inf  # the first granddaughter is held at rest
+    report = analyse_tree(dataclasses.replace(tree, ends=ends), RM, RI, CM)
+    sealed = analyse_tree(tree, RM, RI, CM)
+    assert not report.reducible
+    assert [v.id for v in report.violations if v.kind == "tip_end"] == ["s3"]
+    assert report.input_resistance < sealed.input_resistance
+    # an end asked for at every tip overrides the tree's own
+    assert analyse_tree(dataclasses.replace(tree, ends=ends), RM, RI, CM,
+                        tip_conductance=math.inf).input_resistance == pytest.approx(
+        analyse_tree(tree, RM, RI, CM, killed_tips=True).input_resistance, rel=1e-15)
+
+
+def test_one_leaky_cylinder_is_cable_input_conductance():
+    """A single branch with end=G: G_in = G∞ (B + tanh L)/(1 + B tanh L), B = G/G∞ [Rall1959]."""
+    d, ell, leak = 2e-6, 400e-6, 0.7e-9
+    tree = dataclasses.replace(outline_tree([-1], [ell], [d]), ends=np.array([leak]))
+    g_inf = float(semi_infinite_input_conductance(RM, RI, d))
+    expected = float(input_conductance(g_inf, ell / math.sqrt(RM * d / (4 * RI)), leak / g_inf))
+    assert 1.0 / analyse_tree(tree, RM, RI, CM).input_resistance == pytest.approx(expected, rel=1e-14)
+
+
 def test_one_step_is_cable_input_conductance():
     """The recursion step is cable.input_conductance with B = G_load/G∞ (Rall 1959 [Rall1959])."""
     d, ell, load = 1.5e-6, 180e-6, 0.8e-9
-    tree = sections_tree([-1, 0], [ell, 1e-6], [d, 1e-6])
+    tree = outline_tree([-1, 0], [ell, 1e-6], [d, 1e-6])
     g_in, _ = exact_input_conductances(tree, RM, RI)
     g_inf = float(semi_infinite_input_conductance(RM, RI, d))
     lam = math.sqrt(RM * d / (4 * RI))
@@ -210,7 +254,7 @@ def test_each_stem_is_judged_on_its_own():
     parents = [-1, 0, 0, -1, 3, 3]
     lengths = [0.4 * lam, 0.6 * lam_half, 0.6 * lam_half, 0.4 * lam, 0.6 * lam, 0.6 * lam]
     diameters = [d, half, half, d, d, d]
-    report = analyse_tree(sections_tree(parents, lengths, diameters), RM, RI)
+    report = analyse_tree(outline_tree(parents, lengths, diameters), RM, RI)
     assert [s.reducible for s in report.stems] == [True, False]
     assert report.stems[1].worst_ratio == pytest.approx(2.0, rel=1e-12)
     assert report.stems[0].tip_distance_max == pytest.approx(1.0, rel=1e-12)

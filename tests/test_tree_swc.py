@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 
 from cabletheory.errors import FileFormatError, InputError
+from cabletheory.inputs import read_outline_value
 from cabletheory.morphology import parse_swc, read_morphology
 from cabletheory.tree import analyse_tree, build_tree, tree_from_swc
 
@@ -120,7 +121,7 @@ def test_bundled_realistic_cell_is_not_reducible_and_says_why():
 def test_bundled_demo_tree_file():
     """The section-list demo file holds the demo tree of docs/sources.md (Rall 1959
     [Rall1959], 1964 [Rall1964])."""
-    report = analyse_tree(build_tree(read_morphology(DATA / "lumenia_demo.tree")), RM, RI)
+    report = analyse_tree(build_tree(read_morphology(DATA / "lumenia_demo.outline", read_outline_value)), RM, RI)
     assert report.reducible
     assert report.input_resistance / 1e6 == pytest.approx(185.1329030, rel=1e-9)
     assert report.conductance_ratio == pytest.approx(7.596794008, rel=1e-9)

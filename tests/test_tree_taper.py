@@ -16,12 +16,12 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from cabletheory.morphology import SectionList
+from cabletheory.morphology import Outline
 from cabletheory.tree import (
     analyse_tree,
     frustum_electrotonic_length,
     frustum_transfer,
-    tree_from_sections,
+    tree_from_outline,
 )
 
 RM, RI = 2.0, 2.0  # 20 kΩ·cm², 200 Ω·cm
@@ -135,9 +135,9 @@ def _one_frustum(d0, d1, ell, pieces):
     parents = np.arange(-1, pieces - 1, dtype=np.int64)
     lengths = np.full(pieces, ell / pieces)
     lines = np.arange(1, pieces + 1, dtype=np.int64)
-    frusta = tree_from_sections(SectionList("f", names, parents, lengths, edges[:-1], edges[1:], lines))
+    frusta = tree_from_outline(Outline("f", names, parents, lengths, edges[:-1], edges[1:], lines))
     mid = 0.5 * (edges[:-1] + edges[1:])
-    cylinders = tree_from_sections(SectionList("c", names, parents, lengths, mid, mid, lines))
+    cylinders = tree_from_outline(Outline("c", names, parents, lengths, mid, mid, lines))
     return frusta, cylinders
 
 

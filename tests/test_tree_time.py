@@ -28,8 +28,8 @@ from scipy.special import erf
 
 from cabletheory import cable, case, compartment, transient
 from cabletheory.errors import InputError
-from cabletheory.morphology import SectionList
-from cabletheory.tree import Tree, analyse_tree, exact_input_conductances, tree_from_sections
+from cabletheory.morphology import Outline
+from cabletheory.tree import Tree, analyse_tree, exact_input_conductances, tree_from_outline
 from cabletheory.tree_laplace import PassiveTree, Site, root_modes, root_site, site_at, transfer_impedance_precise
 from cabletheory.tree_time import (
     electrotonic_map,
@@ -49,7 +49,7 @@ NA = 1e-9
 def sections_tree(parents, lengths, diameters, soma_diameter=None) -> Tree:
     n = len(parents)
     d = np.asarray(diameters, dtype=float)
-    return tree_from_sections(SectionList(
+    return tree_from_outline(Outline(
         source="test", names=tuple(f"s{i}" for i in range(n)), parents=np.asarray(parents, dtype=np.int64),
         lengths=np.asarray(lengths, dtype=float), diameters=d, end_diameters=d,
         lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=soma_diameter))

@@ -25,7 +25,7 @@ SIZE = (120, 36)
 ROOT = Path(__file__).resolve().parent.parent
 SIMULATOR = ROOT / "worked" / "simulator_check"
 PV7 = bundled_morphologies() / "lumenia_pv7_interneuron.swc"
-DEMO_TREE = bundled_morphologies() / "lumenia_demo.tree"
+DEMO_TREE = bundled_morphologies() / "lumenia_demo.outline"
 
 
 def drive(script, **options) -> CableApp:

@@ -37,7 +37,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                     "a fraction of λ at 100 Hz) and the error that rule gives. For --quantity time-course also the "
                     "largest time step of --scheme, with half the target given to the segments and half to "
                     "the time step, verified against the exact course. For one cable use the cable "
-                    "options; for a tree give --tree FILE (SWC or section list) or --parents/--lengths/--diameters.",
+                    "options; for a tree give --tree FILE (SWC or tree outline) or --parents/--lengths/--diameters.",
         epilog=PASSIVE_CAVEAT,
     )
     group = parser.add_argument_group("cable (bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS)")
@@ -50,7 +50,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     tree = parser.add_argument_group("tree instead of one cable")
     tree.add_argument("--tree", metavar="FILE",
                       help="morphology read as the tree command reads it: SWC (segments as cylinders, axon left "
-                           "out, soma lumped) or a section list; tapered sections are not allowed")
+                           "out, soma lumped) or a tree outline; tapered branches are not allowed")
     tree.add_argument("--parents", metavar="LIST", help="parent of each section, -1 for the root: '-1,0,0'")
     tree.add_argument("--lengths", metavar="LIST", help="section lengths: '300,300,300 um'")
     tree.add_argument("--diameters", metavar="LIST", help="section diameters: '4,2.52,2.52 um'")
@@ -87,26 +87,27 @@ def parse_relative(text: str, field: str) -> float:
 
 
 def _tree_arrays(args: argparse.Namespace) -> tuple[np.ndarray, np.ndarray, np.ndarray, float | None, str]:
-    """Sections of the tree (parents, lengths, diameters in SI), the soma area from the file (m², or
-    None) and a label. ``--tree`` is read as the ``tree`` command reads it (SWC or section list, told
-    apart by :func:`cabletheory.morphology.read_morphology`; SWC with its defaults: each segment a
+    """Pieces of the tree (parents, lengths, diameters in SI), the soma area from the file (m², or
+    None) and a label. ``--tree`` is read as the ``tree`` command reads it (SWC or tree outline, told
+    apart by :func:`cabletheory.morphology.read_morphology`; SWC with its defaults: each piece a
     cylinder with its own point's diameter, axon left out, soma lumped at the root)."""
     if args.tree:
-        from ..morphology import SectionList, read_morphology
+        from ..inputs import read_outline_value
+        from ..morphology import Outline, read_morphology
         from ..tree import build_tree
 
-        morphology = read_morphology(args.tree)
+        morphology = read_morphology(args.tree, read_outline_value)
         tree = build_tree(morphology)
         tapered = np.flatnonzero(~np.isclose(tree.proximal_diameters, tree.distal_diameters, rtol=1e-12))
         if tapered.size:
-            raise InputError(f"--tree: {args.tree}: section {tree.labels[tapered[0]]!r} is tapered (a frustum); "
+            raise InputError(f"--tree: {args.tree}: piece {tree.labels[tapered[0]]!r} is tapered (a frustum); "
                              "advice treats uniform cylinders only (split each taper into steps)")
         short = np.flatnonzero(tree.lengths <= 0)
         if short.size:
-            raise InputError(f"--tree: {args.tree}, line {int(tree.lines[short[0]])}: segment "
-                             f"{tree.labels[short[0]]!r} has zero length; advice needs every section longer "
+            raise InputError(f"--tree: {args.tree}, line {int(tree.lines[short[0]])}: piece "
+                             f"{tree.labels[short[0]]!r} has zero length; advice needs every piece longer "
                              "than zero")
-        what = "sections" if isinstance(morphology, SectionList) else "SWC segments"
+        what = "branches" if isinstance(morphology, Outline) else "SWC pieces"
         return (tree.parents, tree.lengths, tree.proximal_diameters, tree.soma_area,
                 f"{args.tree} ({len(tree)} {what})")
     if not (args.parents and args.lengths and args.diameters):

@@ -107,16 +107,15 @@ def read_settings(args: argparse.Namespace) -> SurveySettings:
                                                         allow_zero=True),
                             tip_spread=parse_quantity(args.tip_tolerance, "dimensionless", "--tip-tolerance",
                                                       allow_zero=True))
-    tips = None
-    if args.tips is not None:
-        from ..inputs import read_end
+    from ..inputs import read_end, read_outline_value
 
-        tips = read_end(args.tips, "--tips")
+    tips = None if args.tips is None else read_end(args.tips, "--tips")
     types = parse_types(args.types) if args.types is not None else None
     if types is not None and args.axon:
         types.add(2)
     return SurveySettings(rm, ri, cm, tolerances=tolerances, tip_conductance=tips, taper=args.taper,
-                          types=None if types is None else tuple(sorted(types)), include_axon=args.axon)
+                          types=None if types is None else tuple(sorted(types)), include_axon=args.axon,
+                          read_value=read_outline_value)
 
 
 def _check_output(path: str, suffixes: tuple[str, ...], option: str) -> Path:

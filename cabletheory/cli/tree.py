@@ -4,14 +4,17 @@ from __future__ import annotations
 
 import argparse
 import io
+import math
 import re
 from pathlib import Path
 
 import numpy as np
 
 from .. import PASSIVE_CAVEAT
+from ..case import describe_end
 from ..errors import InputError
-from ..morphology import SWC_TYPES, SectionList, read_morphology
+from ..inputs import read_end, read_outline_value
+from ..morphology import SWC_TYPES, Outline, read_morphology
 from ..tree import Tolerances, TreeReport, analyse_tree, build_tree, sample_profile
 from ..units import format_quantity, parse_quantity
 from .common import add_membrane_options, dump_json, quantity, read_membrane, table, whole_number, write_atomically
@@ -24,13 +27,13 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser = subparsers.add_parser(
         "tree",
         help="audit a morphology against Rall's conditions, reduce it, exact input resistance",
-        description="Read a morphology (SWC, or this package's section list), check Rall's conditions for "
+        description="Read a morphology (SWC, or this package's tree outline), check Rall's conditions for "
                     "collapsing it into one equivalent cylinder (3/2 rule at branch points, equal electrotonic "
                     "distance of every tip), give the equivalent cylinder and ball-and-stick ρ, the exact "
                     "steady-state input resistance of the full tree and what the reduction costs.",
         epilog=PASSIVE_CAVEAT,
     )
-    parser.add_argument("file", metavar="FILE", help="morphology: .swc, or a section list (.tree)")
+    parser.add_argument("file", metavar="FILE", help="morphology: .swc, or a tree outline (.outline; see docs/tree.md)")
     group = parser.add_argument_group("membrane (bare numbers: Ω·cm², Ω·cm, µF/cm²)")
     add_membrane_options(group)
     geometry = parser.add_argument_group("geometry")
@@ -41,8 +44,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                           help="SWC: keep only these point types, e.g. '3,4' or 'basal,apical' "
                                "(default: every type except the axon)")
     geometry.add_argument("--axon", action="store_true", help="SWC: keep the axon (type 2)")
-    geometry.add_argument("--tips", choices=("sealed", "killed"), default="sealed",
-                          help="boundary condition at every tip (default sealed)")
+    geometry.add_argument("--tips", metavar="END",
+                          help="the end of every tip: 'sealed', 'killed' or a conductance to rest such as "
+                               "'0.5 nS' (default: as the file says; sealed unless an outline gives end=)")
     audit = parser.add_argument_group("audit tolerances")
     audit.add_argument("--ratio-tolerance", default=str(_DEFAULT_TOLERANCE.branch_ratio), metavar="T",
                        help="largest |Σd_child^3/2 / d_parent^3/2 − 1| at a branch point, and largest relative "
@@ -95,10 +99,11 @@ def run(args: argparse.Namespace) -> int:
     types = parse_types(args.types) if args.types is not None else None
     if types is not None and args.axon:
         types.add(2)
-    morphology = read_morphology(args.file)
+    tip_conductance = read_end(args.tips, "--tips") if args.tips is not None else None
+    morphology = read_morphology(args.file, read_outline_value)
     tree = build_tree(morphology, taper=args.taper, types=types, include_axon=args.axon)
-    report = analyse_tree(tree, rm, ri, cm, tolerances=tolerances, killed_tips=args.tips == "killed")
-    fmt = "section list" if isinstance(morphology, SectionList) else "SWC"
+    report = analyse_tree(tree, rm, ri, cm, tolerances=tolerances, tip_conductance=tip_conductance)
+    fmt = "outline" if isinstance(morphology, Outline) else "SWC"
     if args.plot is not None:
         write_atomically(args.plot, plot_profile(report, Path(args.plot).suffix.lower()[1:]),
                          protected=[args.file])
@@ -112,6 +117,31 @@ def run(args: argparse.Namespace) -> int:
 # --------------------------------------------------------------------------------------
 def _id(report: TreeReport, label: str) -> int | str:
     return int(label) if report.tree.numeric_ids else label
+
+
+def _end_json(conductance: float) -> str | dict:
+    """'sealed', 'killed' or ``{"value": S, "unit": "S"}`` for a leaky end."""
+    if conductance == 0:
+        return "sealed"
+    if math.isinf(conductance):
+        return "killed"
+    return quantity(conductance, "conductance")
+
+
+def tips_text(r: TreeReport) -> str:
+    """How the tips end: the asked-for end, or a count of the file's own ends."""
+    if r.tip_conductance is not None:
+        return describe_end(r.tip_conductance)
+    ends = r.tips.ends
+    killed = int(np.count_nonzero(np.isinf(ends)))
+    sealed = int(np.count_nonzero(ends == 0))
+    if sealed == ends.size:
+        return "sealed"
+    if killed == ends.size:
+        return describe_end(math.inf)
+    leaky = ends.size - killed - sealed
+    parts = [f"{n} {word}" for n, word in ((sealed, "sealed"), (killed, "killed"), (leaky, "leaky")) if n]
+    return "as in the file: " + ", ".join(parts)
 
 
 def as_json(r: TreeReport, file_format: str = "SWC", points: int = 0) -> dict:
@@ -132,7 +162,7 @@ def as_json(r: TreeReport, file_format: str = "SWC", points: int = 0) -> dict:
             "membrane_resistivity": quantity(r.membrane_resistivity, "membrane_resistivity"),
             "axial_resistivity": quantity(r.axial_resistivity, "axial_resistivity"),
             "membrane_capacitance": quantity(r.membrane_capacitance, "membrane_capacitance"),
-            "tips": "killed" if r.killed_tips else "sealed",
+            "tips": "as in the file" if r.tip_conductance is None else _end_json(r.tip_conductance),
         },
         "tolerances": {"branch_ratio": r.tolerances.branch_ratio, "tip_spread": r.tolerances.tip_spread},
         "branch_points": [
@@ -144,7 +174,7 @@ def as_json(r: TreeReport, file_format: str = "SWC", points: int = 0) -> dict:
         "tips": [
             {"id": _id(r, tips.ids[k]), "electrotonic_distance": float(tips.electrotonic_distances[k]),
              "path_length": quantity(float(tips.path_lengths[k]), "length"), "stem": _id(r, tips.stems[k]),
-             "line": int(tips.lines[k])}
+             "end": _end_json(float(tips.ends[k])), "line": int(tips.lines[k])}
             for k in range(len(tips.ids))],
         "tip_distance": {"min": r.tip_distance_min, "max": r.tip_distance_max, "mean": r.tip_distance_mean,
                          "spread": r.tip_distance_max - r.tip_distance_min},
@@ -158,7 +188,8 @@ def as_json(r: TreeReport, file_format: str = "SWC", points: int = 0) -> dict:
         "reducible": r.reducible,
         "reasons": list(r.reasons),
         "violations": [{"kind": v.kind, "id": _id(r, v.id) if v.kind != "branch_diameter" else v.id,
-                        "value": v.value, "limit": v.limit, "line": v.line} for v in r.violations],
+                        "value": v.value if math.isfinite(v.value) else "killed", "limit": v.limit,
+                        "line": v.line} for v in r.violations],
         "equivalent_cylinder": {
             "diameter": quantity(c.diameter, "length"),
             "length": quantity(c.length, "length"),
@@ -166,6 +197,8 @@ def as_json(r: TreeReport, file_format: str = "SWC", points: int = 0) -> dict:
             "length_constant": quantity(c.length_constant, "length"),
             "membrane_area": quantity(c.membrane_area, "area"),
             "semi_infinite_input_resistance": quantity(c.semi_infinite_input_resistance, "resistance"),
+            "end": "sealed" if r.end_conductance_ratio == 0 else "killed" if math.isinf(r.end_conductance_ratio)
+            else {"end_conductance_ratio": r.end_conductance_ratio},
         },
         "soma": None if r.soma_area is None else {
             "convention": r.tree.soma_convention,
@@ -225,7 +258,7 @@ def as_text(r: TreeReport, file_format: str = "SWC", points: int = 0, digits: in
         ("Ri (axial resistivity)", fmt(r.axial_resistivity, "axial_resistivity")),
         ("Cm (specific membrane capacitance)", fmt(r.membrane_capacitance, "membrane_capacitance")),
         ("membrane time constant τm", fmt(r.membrane_time_constant, "time")),
-        ("tips", "killed (clamped to rest)" if r.killed_tips else "sealed"),
+        ("tips", tips_text(r)),
     ], "Inputs"))
     bp = r.branch_points
     audit = [("branch points", str(len(bp.ids)))]
@@ -266,6 +299,9 @@ def as_text(r: TreeReport, file_format: str = "SWC", points: int = 0, digits: in
         ("electrotonic length L", num(c.electrotonic_length)),
         ("length constant λ", fmt(c.length_constant, "length")),
         ("semi-infinite input resistance R∞", fmt(c.semi_infinite_input_resistance, "resistance")),
+        *([] if r.end_conductance_ratio == 0 else [
+            ("far end (all the tips' leak)", "killed (held at rest)" if math.isinf(r.end_conductance_ratio)
+             else f"leaky, B = {num(r.end_conductance_ratio)}")]),
     ], "Equivalent cylinder"))
     site = "soma" if r.soma_area is not None else "root point"
     rows = [
@@ -283,7 +319,7 @@ def as_text(r: TreeReport, file_format: str = "SWC", points: int = 0, digits: in
         ]
     else:
         rows.append(("soma membrane", "not included (the file has no soma)"))
-    blocks.append(table(rows, f"Steady-state input resistance ({'killed' if r.killed_tips else 'sealed'} tips)"))
+    blocks.append(table(rows, f"Steady-state input resistance (tips: {tips_text(r)})"))
     blocks.append(profile_table(r, bins, digits))
     if plot:
         blocks.append(f"Equivalent-cable plot written to {plot}.")
@@ -298,6 +334,8 @@ def _violation_text(v, num) -> str:  # type: ignore[no-untyped-def]
     if v.kind == "branch_diameter":
         return (f"branch {v.id} (from line {v.line}): d^3/2 changes by {100 * v.value:.3g} % along it, "
                 f"allowed {100 * v.limit:g} %")
+    if v.kind == "tip_end":
+        return f"tip {v.id} (line {v.line}): end-conductance ratio B = {num(v.value)}, unlike the other tips"
     return f"tip {v.id} (line {v.line}): X = {num(v.value)}, away from the middle of the tip range"
 
 

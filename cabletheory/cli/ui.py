@@ -20,7 +20,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         epilog=PASSIVE_CAVEAT,
     )
     parser.add_argument("swc", nargs="?", metavar="SWC",
-                        help="a morphology to open in the tree view (.swc, or a .tree section list)")
+                        help="a morphology to open in the tree view (.swc, or a .outline tree outline)")
     parser.add_argument("--check", metavar="CSV",
                         help="a simulator's output (CSV) to compare in the check view")
     parser.add_argument("--view", choices=VIEW_NAMES, default=None,

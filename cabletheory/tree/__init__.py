@@ -29,8 +29,9 @@ from .geometry import (
     frustum_transfer,
     layout,
     piece_electrotonic_lengths,
+    tip_loads,
 )
-from .model import SWC_NAMES, Tree, build_tree, prune_empty_branches, scale_lengths, tree_from_sections, tree_from_swc
+from .model import SWC_NAMES, Tree, build_tree, prune_empty_branches, scale_lengths, tree_from_outline, tree_from_swc
 from .reduction import EquivalentCable, EquivalentCylinder, sample_profile
 from .report import TreeReport, analyse_tree
 
@@ -57,6 +58,7 @@ __all__ = [
     "prune_empty_branches",
     "sample_profile",
     "scale_lengths",
-    "tree_from_sections",
+    "tip_loads",
+    "tree_from_outline",
     "tree_from_swc",
 ]

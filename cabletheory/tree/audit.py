@@ -18,11 +18,12 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from ..cable import semi_infinite_input_conductance
 from ..errors import InputError
 from .geometry import Layout
 
 __all__ = ["BranchPoints", "Stem", "Tips", "Tolerances", "Violation", "audit_branch_points", "audit_stems",
-           "audit_tips", "branch_diameter_changes", "find_departures"]
+           "audit_tips", "branch_diameter_changes", "find_departures", "tip_end_ratios"]
 
 Array = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -71,6 +72,7 @@ class Tips:
     stems: tuple[str, ...]  # label of the stem dendrite each tip belongs to
     lines: IntArray
     pieces: IntArray  # index of the piece that ends at each tip
+    ends: Array  # conductance from each tip to rest, S (0 sealed, inf killed)
 
 
 @dataclass(frozen=True, slots=True)
@@ -121,13 +123,17 @@ def audit_branch_points(lay: Layout) -> BranchPoints:
                         electrotonic_distances=lay.end[bp].copy(), lines=t.lines[bp].copy(), pieces=bp)
 
 
-def audit_tips(lay: Layout) -> Tips:
-    """Electrotonic distance X and path length (m) from the root to every tip, and its stem."""
+def audit_tips(lay: Layout, loads: Array) -> Tips:
+    """Electrotonic distance X and path length (m) from the root to every tip, its stem and its end.
+
+    ``loads`` : conductance to rest at each piece's distal node, S (:func:`~.geometry.tip_loads`).
+    """
     t = lay.tree
     tip = np.flatnonzero(lay.children == 0)
     return Tips(ids=tuple(t.labels[i] for i in tip.tolist()), electrotonic_distances=lay.end[tip].copy(),
                 path_lengths=lay.path_lengths[tip].copy(),
-                stems=tuple(t.labels[i] for i in lay.stems[tip].tolist()), lines=t.lines[tip].copy(), pieces=tip)
+                stems=tuple(t.labels[i] for i in lay.stems[tip].tolist()), lines=t.lines[tip].copy(), pieces=tip,
+                ends=np.asarray(loads, dtype=float)[tip].copy())
 
 
 def branch_diameter_changes(lay: Layout) -> Array:
@@ -145,6 +151,17 @@ def branch_diameter_changes(lay: Layout) -> Array:
     np.maximum.at(hi, lay.branches[real], np.maximum(w0, w1)[real])
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(np.isfinite(lo) & (lo > 0), hi / lo - 1.0, 0.0)
+
+
+def tip_end_ratios(lay: Layout, tips: Tips, membrane_resistivity: float, axial_resistivity: float) -> Array:
+    r"""End-conductance ratio :math:`B = G_{end}/G_\infty(d_{tip})` of every tip (0 sealed, inf killed).
+
+    Rall's reduction keeps a leaky end only when every tip has the same B: then the tips'
+    conductances add up to B times the trunk's :math:`G_\infty` (both scale as :math:`d^{3/2}`).
+    """
+    g_inf = semi_infinite_input_conductance(membrane_resistivity, axial_resistivity,
+                                            lay.tree.distal_diameters[tips.pieces])
+    return np.asarray(tips.ends / g_inf, dtype=float)
 
 
 def _first_pieces(lay: Layout) -> IntArray:
@@ -180,7 +197,8 @@ def audit_stems(lay: Layout, branch_points: BranchPoints, tips: Tips, changes: A
 
 
 def find_departures(lay: Layout, branch_points: BranchPoints, tips: Tips, changes: Array,
-                    tolerances: Tolerances) -> tuple[tuple[str, ...], tuple[Violation, ...]]:
+                    tolerances: Tolerances, end_ratios: Array | None = None
+                    ) -> tuple[tuple[str, ...], tuple[Violation, ...]]:
     """Why the tree is not reducible (one plain sentence per broken condition) and every departure.
 
     Departures are listed worst first within each condition; an empty reason list means the
@@ -224,4 +242,26 @@ def find_departures(lay: Layout, branch_points: BranchPoints, tips: Tips, change
         kmin, kmax = int(np.argmin(tip_x)), int(np.argmax(tip_x))
         reasons.append(f"tip distances: X ranges from {tip_x[kmin]:.4g} (tip {tips.ids[kmin]}) to "
                        f"{tip_x[kmax]:.4g} (tip {tips.ids[kmax]}), spread {spread:.4g} > {tol.tip_spread:g}")
+    if end_ratios is not None:
+        _tip_end_departures(tips, end_ratios, tol, reasons, violations)
     return tuple(reasons), tuple(violations)
+
+
+def _tip_end_departures(tips: Tips, ratios: Array, tol: Tolerances, reasons: list[str],
+                        violations: list[Violation]) -> None:
+    """Tips whose end-conductance ratio B differs from the others' (all sealed or all killed is fine)."""
+    killed = np.isinf(ratios)
+    if killed.all() or not np.any(ratios):
+        return
+    if killed.any():  # the fewer of killed and not killed are the odd ones
+        odd = np.flatnonzero(killed if 2 * int(killed.sum()) <= killed.size else ~killed)
+    else:
+        typical = float(np.median(ratios))
+        odd = np.flatnonzero(np.abs(ratios - typical) > tol.branch_ratio * max(typical, float(ratios.max())))
+    if not odd.size:
+        return
+    for k in odd.tolist():
+        violations.append(Violation("tip_end", tips.ids[k], float(ratios[k]), tol.branch_ratio, int(tips.lines[k])))
+    reasons.append(f"tip ends: {odd.size} of {ratios.size} tips end differently from the others (end-conductance "
+                   f"ratio B from {float(ratios.min()):.4g} to {float(ratios.max()):.4g}); the reduction needs "
+                   "the same B at every tip")

@@ -18,7 +18,8 @@ from ..cable import length_constant, semi_infinite_input_conductance
 from .model import Tree
 
 __all__ = ["Layout", "accumulate", "branch_ids", "electrotonic_distances", "exact_input_conductances",
-           "frustum_electrotonic_length", "frustum_transfer", "layout", "piece_electrotonic_lengths", "stem_ids"]
+           "frustum_electrotonic_length", "frustum_transfer", "layout", "piece_electrotonic_lengths", "stem_ids",
+           "tip_loads"]
 
 Array = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -187,12 +188,25 @@ def _piece_maps(tree: Tree, membrane_resistivity: float, axial_resistivity: floa
     return one, g_inf * t, t / g_inf, one
 
 
+def tip_loads(tree: Tree, tip_conductance: float | None = None) -> Array:
+    """Conductance to rest at each piece's distal node, S: the tree's own tip ends, or
+    ``tip_conductance`` at every tip when given (0 sealed, inf killed); 0 where a piece has children."""
+    if tip_conductance is None:
+        return tree.tip_conductances()
+    has_child = np.zeros(len(tree), dtype=bool)
+    has_child[tree.parents[tree.parents >= 0]] = True
+    return np.where(has_child, 0.0, float(tip_conductance))
+
+
 def exact_input_conductances(tree: Tree, membrane_resistivity: float, axial_resistivity: float, *,
-                             killed_tips: bool = False) -> tuple[Array, float]:
+                             killed_tips: bool = False, tip_conductance: float | None = None
+                             ) -> tuple[Array, float]:
     r"""Exact steady input conductance of every piece looking away from the root, and of the root.
 
     Pieces are combined from the tips inward: the load of a piece is the sum of its
-    children's input conductances (0 at a sealed tip, infinite at a killed one), and
+    children's input conductances, and at a tip its end conductance (0 sealed, infinite killed,
+    or leaky: ``tree.ends``, or ``tip_conductance`` in S at every tip when given;
+    ``killed_tips=True`` is ``tip_conductance=inf``), and
 
     .. math:: G_{in} = G_\infty \frac{B + \tanh L}{1 + B\tanh L},\qquad B = G_{load}/G_\infty
 
@@ -213,11 +227,7 @@ def exact_input_conductances(tree: Tree, membrane_resistivity: float, axial_resi
     parents = tree.parents.tolist()
     n = len(parents)
     inf = math.inf
-    load = [0.0] * n
-    if killed_tips:
-        has_child = np.zeros(n, dtype=bool)
-        has_child[tree.parents[tree.parents >= 0]] = True
-        load = np.where(has_child, 0.0, inf).tolist()
+    load = tip_loads(tree, math.inf if killed_tips else tip_conductance).tolist()
     g_in = [0.0] * n
     root = 0.0
     for i in range(n - 1, -1, -1):

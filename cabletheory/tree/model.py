@@ -16,9 +16,9 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..errors import FileFormatError
-from ..morphology import SectionList, SwcPoints
+from ..morphology import Outline, SwcPoints
 
-__all__ = ["SWC_NAMES", "Tree", "build_tree", "prune_empty_branches", "scale_lengths", "tree_from_sections",
+__all__ = ["SWC_NAMES", "Tree", "build_tree", "prune_empty_branches", "scale_lengths", "tree_from_outline",
            "tree_from_swc"]
 
 Array = NDArray[np.float64]
@@ -34,11 +34,11 @@ class Tree:
     Attributes
     ----------
     source : file (or description) the tree came from
-    labels : name of each piece's distal point (SWC id or section name)
+    labels : name of each piece's distal point (SWC id or branch name)
     parents : parent piece of each piece; -1 = attached to the root node
     lengths : axial length of each piece, m
     proximal_diameters, distal_diameters : m (equal for cylinders)
-    types : SWC type of each piece's distal point (3 for hand-written sections)
+    types : SWC type of each piece's distal point (3 for the branches of an outline)
     lines : line of the file that defined each piece
     soma_area : membrane area of the lumped (isopotential) soma at the root node, m²;
         ``None`` when there is no soma and input is applied at the root point
@@ -47,6 +47,8 @@ class Tree:
     geometry : "cylinders" (each piece has its distal point's diameter) or "frusta"
     notes : conventions used and everything left out, in plain words
     numeric_ids : labels are SWC ids (integers)
+    ends : conductance from each piece's distal node to rest, S (0 sealed, inf killed); only
+        tips may have one. ``None``: every tip sealed.
     """
 
     source: str
@@ -63,6 +65,7 @@ class Tree:
     geometry: str = "cylinders"
     notes: tuple[str, ...] = ()
     numeric_ids: bool = False
+    ends: Array | None = None
 
     def __post_init__(self) -> None:
         n = len(self.labels)
@@ -78,6 +81,16 @@ class Tree:
             d = np.asarray(getattr(self, name))
             if np.any(~np.isfinite(d)) or np.any(d <= 0):
                 raise ValueError(f"Tree.{name} must be finite and positive")
+        if self.ends is not None:
+            e = np.asarray(self.ends)
+            if e.shape != (n,) or np.any(np.isnan(e)) or np.any(e < 0):
+                raise ValueError("Tree.ends must have one conductance >= 0 per piece")
+            if n and np.any(e[p[p >= 0]] != 0):
+                raise ValueError("Tree.ends: only tips may have an end conductance")
+
+    def tip_conductances(self) -> Array:
+        """Conductance from each piece's distal node to rest, S (zeros when every tip is sealed)."""
+        return np.zeros(len(self.labels)) if self.ends is None else np.asarray(self.ends, dtype=float)
 
     def __len__(self) -> int:
         return len(self.labels)
@@ -91,17 +104,19 @@ def _points_subset(tree: Tree, keep: NDArray[np.bool_], notes: tuple[str, ...]) 
                    parents=mapped.astype(np.int64), lengths=tree.lengths[keep],
                    proximal_diameters=tree.proximal_diameters[keep],
                    distal_diameters=tree.distal_diameters[keep], types=tree.types[keep],
-                   lines=tree.lines[keep], notes=notes)
+                   lines=tree.lines[keep], notes=notes,
+                   ends=None if tree.ends is None else np.asarray(tree.ends)[keep])
 
 
 def prune_empty_branches(tree: Tree) -> Tree:
-    """Drop terminal branches of zero length (no membrane); with sealed tips they change nothing.
+    """Drop sealed terminal branches of zero length (no membrane); they change nothing.
 
-    A piece is dropped when its length is 0 and every piece beyond it is dropped too.
+    A piece is dropped when its length is 0, its end (if a tip) is sealed and every piece
+    beyond it is dropped too.
     """
     n = len(tree)
     parents = tree.parents.tolist()
-    empty = (np.asarray(tree.lengths) == 0).tolist()
+    empty = ((np.asarray(tree.lengths) == 0) & (tree.tip_conductances() == 0)).tolist()
     alive = [False] * n  # has some membrane at or beyond it
     for i in range(n - 1, -1, -1):
         if not empty[i]:
@@ -121,22 +136,27 @@ def scale_lengths(tree: Tree, factor: float) -> Tree:
     return replace(tree, lengths=np.asarray(tree.lengths) * factor)
 
 
-def tree_from_sections(sections: SectionList) -> Tree:
-    """One segment per hand-written section; a stated end diameter makes it a frustum."""
-    tapered = bool(np.any(sections.end_diameters != sections.diameters))
-    soma_area = None if sections.soma_diameter is None else math.pi * sections.soma_diameter**2
-    notes = ["sections as written: uniform cylinders" + (", frusta where an end diameter is given"
+def tree_from_outline(outline: Outline) -> Tree:
+    """One piece per branch of a tree outline; a diameter written ``d0..d1`` makes it a frustum."""
+    tapered = bool(np.any(outline.end_diameters != outline.diameters))
+    soma_area = None if outline.soma_diameter is None else math.pi * outline.soma_diameter**2
+    notes = ["branches as written: uniform cylinders" + (", frusta where a taper d0..d1 is given"
                                                          if tapered else "")]
     notes.append("soma: a sphere of the stated diameter (area π d²), lumped at the root"
                  if soma_area is not None else
                  "no soma: input is applied at the root point and no soma membrane is included")
-    return Tree(source=sections.source, labels=sections.names, parents=sections.parents.copy(),
-                lengths=sections.lengths.copy(), proximal_diameters=sections.diameters.copy(),
-                distal_diameters=sections.end_diameters.copy(),
-                types=np.full(len(sections), 3, dtype=np.int64), lines=sections.lines.copy(),
+    ends = None if outline.ends is None or not np.any(outline.ends) else outline.ends.copy()
+    if ends is not None:
+        notes.append(f"tip ends as written: {int(np.count_nonzero(np.isinf(ends)))} killed, "
+                     f"{int(np.count_nonzero(np.isfinite(ends) & (ends > 0)))} leaky, the other tips sealed")
+    return Tree(source=outline.source, labels=outline.names, parents=outline.parents.copy(),
+                lengths=outline.lengths.copy(), proximal_diameters=outline.diameters.copy(),
+                distal_diameters=outline.end_diameters.copy(),
+                types=np.full(len(outline), 3, dtype=np.int64), lines=outline.lines.copy(),
                 soma_area=soma_area, soma_convention="sphere" if soma_area is not None else "none",
                 root_label="soma" if soma_area is not None else "root",
-                geometry="frusta" if tapered else "cylinders", notes=tuple(notes), numeric_ids=False)
+                geometry="frusta" if tapered else "cylinders", notes=tuple(notes), numeric_ids=False,
+                ends=ends)
 
 
 def _soma_area(points: SwcPoints, soma: NDArray[np.bool_], taper: bool) -> tuple[float, str, str]:
@@ -268,10 +288,10 @@ def tree_from_swc(points: SwcPoints, *, taper: bool = False, types: set[int] | N
 SWC_NAMES = {0: "undefined", 1: "soma", 2: "axon", 3: "basal dendrite", 4: "apical dendrite"}
 
 
-def build_tree(morphology: SwcPoints | SectionList, *, taper: bool = False, types: set[int] | None = None,
+def build_tree(morphology: SwcPoints | Outline, *, taper: bool = False, types: set[int] | None = None,
                include_axon: bool = False) -> Tree:
-    """:func:`tree_from_swc` or :func:`tree_from_sections`, whichever fits ``morphology``."""
-    if isinstance(morphology, SectionList):
-        return tree_from_sections(morphology)
+    """:func:`tree_from_swc` or :func:`tree_from_outline`, whichever fits ``morphology``."""
+    if isinstance(morphology, Outline):
+        return tree_from_outline(morphology)
     return tree_from_swc(morphology, taper=taper, types=types, include_axon=include_axon)
 

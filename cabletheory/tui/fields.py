@@ -132,7 +132,7 @@ def bundled_morphologies() -> Path:
 DEMO_SWC = "lumenia_lw1_conforming.swc"
 
 TREE_FIELDS: tuple[FieldSpec, ...] = (
-    FieldSpec("file", "file", "dimensionless", "", placeholder="path to .swc or .tree (enter opens)"),
+    FieldSpec("file", "file", "dimensionless", "", placeholder="path to .swc or .outline (enter opens)"),
     FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
     FieldSpec("Ri", "Ri", "axial_resistivity", "200 Ω·cm"),
     FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),

@@ -236,10 +236,11 @@ class OutlineNode:
 
 def analyse_file(setup: TreeSetup) -> TreeReport:
     """Read the morphology, build the tree and audit it (the worker's job)."""
+    from ..inputs import read_outline_value
     from ..morphology import read_morphology
     from ..tree import Tolerances, analyse_tree, build_tree
 
-    morphology = read_morphology(setup.path)
+    morphology = read_morphology(setup.path, read_outline_value)
     tree = build_tree(morphology)
     tolerances = Tolerances(branch_ratio=setup.branch_ratio_tolerance, tip_spread=setup.tip_spread_tolerance)
     return analyse_tree(tree, setup.membrane_resistivity, setup.axial_resistivity, setup.membrane_capacitance,

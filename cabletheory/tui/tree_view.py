@@ -36,7 +36,7 @@ class TreeView(Vertical):
     ]
 
     report: Report | None = None
-    open_title = "Open a morphology (.swc, or a section list .tree)"
+    open_title = "Open a morphology (.swc, or a tree outline .outline)"
 
     def __init__(self, *, id: str, swc: str | None = None) -> None:
         super().__init__(id=id)
@@ -64,7 +64,7 @@ class TreeView(Vertical):
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
                 yield Label("tips", classes="group-label")
                 with RadioSet(id="tr-tips", compact=True):
-                    yield RadioButton("sealed", value=True, id="tips-sealed", compact=True)
+                    yield RadioButton("as in the file (sealed)", value=True, id="tips-sealed", compact=True)
                     yield RadioButton("killed (held at rest)", id="tips-killed", compact=True)
                 yield Label("tolerances", classes="group-label")
                 for name in ("ratio_tolerance", "tip_tolerance"):

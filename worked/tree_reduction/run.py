@@ -12,7 +12,7 @@ import sys
 from cabletheory.cli import main
 
 ROOT = pathlib.Path(__file__).resolve().parents[2]
-ARGV = ["tree", "cabletheory/data/morphologies/lumenia_demo.tree", "--Rm", "20 kΩ·cm²", "--Ri", "200 Ω·cm",
+ARGV = ["tree", "cabletheory/data/morphologies/lumenia_demo.outline", "--Rm", "20 kΩ·cm²", "--Ri", "200 Ω·cm",
         "--Cm", "1 µF/cm²"]
 
 if __name__ == "__main__":
