@@ -238,6 +238,38 @@ def test_tree_advice_uses_exact_tree_values() -> None:
     assert z.error <= 5e-3
 
 
+@pytest.mark.parametrize("end", [0.0, 0.7e-9, math.inf])
+@pytest.mark.parametrize("frequency", [0.0, 100.0, 2000.0])
+def test_one_tree_solver_matches_the_cylinder_formula(end: float, frequency: float) -> None:
+    """The tree layer's solver on one cylinder is the closed-form input impedance of
+    cable.input_impedance (Rall & Rinzel 1973 [RallRinzel1973]) at any frequency and end."""
+    from cabletheory.cable import input_impedance
+    from cabletheory.tree.geometry import input_admittances
+
+    cyl = Cylinder(2.0, 2.0, 0.01, 2 * UM, 500 * UM, end_conductance=end)
+    _, y = input_admittances([-1], [cyl.length], [cyl.diameter], [cyl.diameter], 2.0, 2.0, end_conductances=[end],
+                             frequency=frequency, time_constant=cyl.time_constant)
+    z = complex(input_impedance(cyl.semi_infinite_input_resistance, cyl.electrotonic_length,
+                                cyl.end_conductance_ratio, frequency, cyl.time_constant))
+    assert 1 / y == pytest.approx(z, rel=1e-12)
+
+
+def test_advice_and_tree_audit_share_one_solver() -> None:
+    """The advice's exact steady input resistance of a tree is the audit's (one solver, tree layer)."""
+    from cabletheory.tree import Tree, exact_input_conductances
+
+    parents = np.array([-1, 0, 0, 1, 1])
+    lengths = np.array([300, 250, 200, 150, 100]) * UM
+    diameters = np.array([3.0, 1.5, 2.0, 1.0, 0.8]) * UM
+    advice = vf.advise_tree(parents, lengths, diameters, 2.0, 2.0, 0.01, "input-resistance", 1e-2)
+    n = parents.size
+    tree = Tree(source="test", labels=tuple(f"p{i}" for i in range(n)), parents=parents, lengths=lengths,
+                proximal_diameters=diameters, distal_diameters=diameters, types=np.full(n, 3),
+                lines=np.arange(1, n + 1))
+    _, g_root = exact_input_conductances(tree, 2.0, 2.0)
+    assert advice.exact_value.real == pytest.approx(1 / g_root, rel=1e-14)
+
+
 def test_reference_table_writers_round_trip(tmp_path) -> None:
     table = vf.reference_table(CASE, TIMES, SITES)
     rec = vf.read_recording(vf.reference_csv(table), "ref.csv", parse)

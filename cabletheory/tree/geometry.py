@@ -15,11 +15,12 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from ..cable import length_constant, semi_infinite_input_conductance
+from ..errors import InputError
 from .model import Tree
 
 __all__ = ["Layout", "accumulate", "branch_ids", "electrotonic_distances", "exact_input_conductances",
-           "frustum_electrotonic_length", "frustum_transfer", "layout", "piece_electrotonic_lengths", "stem_ids",
-           "tip_loads"]
+           "frustum_electrotonic_length", "frustum_transfer", "input_admittances", "layout",
+           "piece_electrotonic_lengths", "stem_ids", "tip_loads"]
 
 Array = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -174,16 +175,24 @@ def frustum_transfer(length: ArrayLike, proximal_diameter: ArrayLike, distal_dia
     return t11, t12, t21, t22
 
 
-def _piece_maps(tree: Tree, membrane_resistivity: float, axial_resistivity: float
-                  ) -> tuple[Array, Array, Array, Array]:
-    """Coefficients (a, b, c, d) with G_in = (a G_L + b) / (c G_L + d) for every piece."""
-    if tree.geometry == "frusta" and np.any(tree.proximal_diameters != tree.distal_diameters):
-        t11, t12, t21, t22 = frustum_transfer(tree.lengths, tree.proximal_diameters, tree.distal_diameters,
+def _piece_maps(lengths: Array, proximal_diameters: Array, distal_diameters: Array, membrane_resistivity: float,
+                axial_resistivity: float, q: complex | None = None) -> tuple[Array, Array, Array, Array]:
+    """Coefficients (a, b, c, d) with Y_in = (a Y_L + b) / (c Y_L + d) for every piece (steady state,
+    or for cylinders at the complex wavenumber ``q``)."""
+    if q is None and np.any(proximal_diameters != distal_diameters):
+        t11, t12, t21, t22 = frustum_transfer(lengths, proximal_diameters, distal_diameters,
                                               membrane_resistivity, axial_resistivity)
         return t22, t21, t12, t11
-    # cylinders: G_in = G∞ (B + tanh L)/(1 + B tanh L) with B = G_L/G∞ (cable.input_conductance)
-    g_inf = semi_infinite_input_conductance(membrane_resistivity, axial_resistivity, tree.distal_diameters)
-    t = np.tanh(piece_electrotonic_lengths(tree, membrane_resistivity, axial_resistivity))
+    # cylinders: G_in = G∞ (B + tanh L)/(1 + B tanh L) with B = G_L/G∞ (cable.input_conductance);
+    # at a frequency G∞ -> G∞ q and L -> qL
+    g_inf = semi_infinite_input_conductance(membrane_resistivity, axial_resistivity, distal_diameters)
+    big_l = frustum_electrotonic_length(lengths, proximal_diameters, distal_diameters, membrane_resistivity,
+                                        axial_resistivity)
+    if q is not None:
+        y_inf, th = g_inf * q, np.tanh(big_l * q)
+        one_c = np.ones_like(th)
+        return one_c, y_inf * th, th / y_inf, one_c
+    t = np.tanh(big_l)
     one = np.ones_like(t)
     return one, g_inf * t, t / g_inf, one
 
@@ -198,21 +207,87 @@ def tip_loads(tree: Tree, tip_conductance: float | None = None) -> Array:
     return np.where(has_child, 0.0, float(tip_conductance))
 
 
+def input_admittances(parents: ArrayLike, lengths: ArrayLike, proximal_diameters: ArrayLike,
+                      distal_diameters: ArrayLike, membrane_resistivity: float, axial_resistivity: float, *,
+                      end_conductances: ArrayLike | None = None, frequency: float = 0.0,
+                      time_constant: float = 0.0) -> tuple[NDArray[np.float64] | NDArray[np.complex128], complex]:
+    r"""Exact input admittance of every piece looking away from the root, and of the root node.
+
+    The one tips-inward solver for a tree's input resistance: the audit
+    (:func:`exact_input_conductances`) and the discretisation advice
+    (:mod:`cabletheory.verify.advice`) both use it. Pieces are combined from the tips inward
+    (parents precede children): the load of a piece is its far-end conductance (0 sealed, ``inf``
+    killed, S) plus its children's input admittances, and a cylinder presents at its near end
+
+    .. math:: Y_{in} = Y_\infty \frac{Y_L + Y_\infty \tanh qL}{Y_\infty + Y_L \tanh qL},
+              \qquad Y_\infty = G_\infty q,\; q = \sqrt{1 + i\omega\tau_m}
+
+    (q = 1 at steady state, :func:`cabletheory.cable.input_conductance`); a frustum (proximal and
+    distal diameters differ) uses the steady two-port of :func:`frustum_transfer`. The loop visits
+    each piece once (linear time, no recursion).
+
+    Parameters
+    ----------
+    parents : parent of each piece, -1 at the root node (parents precede children)
+    lengths, proximal_diameters, distal_diameters : m
+    membrane_resistivity : Rm, Ω·m²; axial_resistivity : Ri, Ω·m
+    end_conductances : S, added to each piece's far-end load (default 0: sealed tips)
+    frequency : Hz (cylinders only when not 0); time_constant : τm = Rm·Cm, s (used with ``frequency``)
+
+    Returns
+    -------
+    (Y_in of each piece in S, their sum at the root node in S): real at steady state, complex at
+    a frequency; the soma is not included.
+
+    References
+    ----------
+    Rall W (1959) Exp. Neurol. 1:491; Rall & Rinzel (1973) Biophys. J. 13:648; Koch C (1999)
+    ch. 3 (sinusoidal inputs, recalled from memory).
+    """
+    parent = np.asarray(parents, dtype=np.int64).ravel()
+    n = parent.size
+    ell = np.broadcast_to(np.asarray(lengths, dtype=float), (n,))
+    d0 = np.broadcast_to(np.asarray(proximal_diameters, dtype=float), (n,))
+    d1 = np.broadcast_to(np.asarray(distal_diameters, dtype=float), (n,))
+    q: complex | None = None
+    if frequency != 0:
+        if np.any(d0 != d1):
+            raise InputError("the input admittance at a frequency needs cylinders; tapered pieces are steady only")
+        q = complex(np.sqrt(1.0 + 2j * math.pi * frequency * time_constant))  # cable.wavenumber
+    a, b, c, d = (v.tolist() for v in _piece_maps(ell, d0, d1, membrane_resistivity, axial_resistivity, q))
+    parent_list = parent.tolist()
+    inf = math.inf
+    load: list = [0.0] * n if end_conductances is None else np.broadcast_to(
+        np.asarray(end_conductances, dtype=float), (n,)).tolist()
+    y_in: list = [0.0] * n
+    root: complex = 0.0
+    for i in range(n - 1, -1, -1):
+        yl = load[i]
+        # a killed (infinite) load gives the limit a/c; a zero-length killed piece shorts its parent
+        y = (a[i] * yl + b[i]) / (c[i] * yl + d[i]) if yl != inf else (a[i] / c[i] if c[i] != 0 else inf)
+        y_in[i] = y
+        p = parent_list[i]
+        if p >= 0:
+            load[p] += y
+        else:
+            root += y
+    return np.asarray(y_in, dtype=float if q is None else complex), root
+
+
 def exact_input_conductances(tree: Tree, membrane_resistivity: float, axial_resistivity: float, *,
                              killed_tips: bool = False, tip_conductance: float | None = None
                              ) -> tuple[Array, float]:
     r"""Exact steady input conductance of every piece looking away from the root, and of the root.
 
-    Pieces are combined from the tips inward: the load of a piece is the sum of its
+    :func:`input_admittances` at steady state. Pieces are combined from the tips inward: the load of a piece is the sum of its
     children's input conductances, and at a tip its end conductance (0 sealed, infinite killed,
     or leaky: ``tree.ends``, or ``tip_conductance`` in S at every tip when given;
     ``killed_tips=True`` is ``tip_conductance=inf``), and
 
     .. math:: G_{in} = G_\infty \frac{B + \tanh L}{1 + B\tanh L},\qquad B = G_{load}/G_\infty
 
-    for a cylinder (:func:`cabletheory.cable.input_conductance`; Rall 1959), or the
-    two-port of :func:`frustum_transfer` for a frustum. The loop visits each piece once
-    (linear time, no recursion).
+    for a cylinder (:func:`cabletheory.cable.input_conductance`; Rall 1959), or the two-port of
+    :func:`frustum_transfer` for a frustum.
 
     Returns
     -------
@@ -223,24 +298,12 @@ def exact_input_conductances(tree: Tree, membrane_resistivity: float, axial_resi
     ----------
     Rall W (1959) Exp. Neurol. 1:491; Rall & Rinzel (1973) Biophys. J. 13:648.
     """
-    a, b, c, d = (v.tolist() for v in _piece_maps(tree, membrane_resistivity, axial_resistivity))
-    parents = tree.parents.tolist()
-    n = len(parents)
-    inf = math.inf
-    load = tip_loads(tree, math.inf if killed_tips else tip_conductance).tolist()
-    g_in = [0.0] * n
-    root = 0.0
-    for i in range(n - 1, -1, -1):
-        gl = load[i]
-        # a killed (infinite) load gives the limit a/c; a zero-length killed piece shorts its parent
-        g = (a[i] * gl + b[i]) / (c[i] * gl + d[i]) if gl != inf else (a[i] / c[i] if c[i] > 0 else inf)
-        g_in[i] = g
-        p = parents[i]
-        if p >= 0:
-            load[p] += g
-        else:
-            root += g
-    return np.asarray(g_in, dtype=float), root
+    ends = tip_loads(tree, math.inf if killed_tips else tip_conductance)
+    distal = tree.distal_diameters
+    proximal = tree.proximal_diameters if tree.geometry == "frusta" else distal
+    g_in, root = input_admittances(tree.parents, tree.lengths, proximal, distal, membrane_resistivity,
+                                   axial_resistivity, end_conductances=ends)
+    return np.asarray(g_in, dtype=float), float(root.real)
 
 
 

@@ -23,6 +23,7 @@ from numpy.typing import ArrayLike, NDArray
 from .. import cable as cb
 from .. import compartment as cp
 from ..errors import ConvergenceError, InputError
+from ..tree.geometry import input_admittances
 
 __all__ = [
     "OUTPUTS",
@@ -31,7 +32,6 @@ __all__ = [
     "StepAdvice",
     "advise_cable",
     "advise_tree",
-    "tree_input_admittance",
 ]
 
 Array = NDArray[np.float64]
@@ -108,46 +108,20 @@ class Advice:
     time_step: StepAdvice | None = None  # for "time-course": the largest Δt for the time share
 
 
-def tree_input_admittance(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike,
-                          membrane_resistivity: float, axial_resistivity: float, membrane_capacitance: float,
-                          *, frequency: float = 0.0, end_conductances: ArrayLike | None = None,
-                          soma_area: float = 0.0) -> complex:
-    r"""Exact input admittance (S) at the root of a tree of uniform cylinders.
+def _root_admittance(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike, membrane_resistivity: float,
+                     axial_resistivity: float, membrane_capacitance: float, *, frequency: float,
+                     end_conductances: ArrayLike | None, soma_area: float) -> complex:
+    r"""Exact input admittance (S) at the root of a tree of uniform cylinders, soma included.
 
-    Each section, loaded at its far end by the admittance :math:`Y_L` of its children (and
-    any end conductance), presents at its near end
-
-    .. math:: Y_{in} = Y_\infty \frac{Y_L + Y_\infty \tanh qL}{Y_\infty + Y_L \tanh qL},
-              \qquad Y_\infty = G_\infty q,\; q = \sqrt{1 + i\omega\tau_m},
-
-    and the root sums the sections attached to it plus the soma's :math:`(A/R_m)(1 + i\omega\tau_m)`.
-
-    References
-    ----------
-    Rall W (1959) Exp. Neurol. 1:491 (steady input conductance of branched trees); Rall &
-    Rinzel (1973) Biophys. J. 13:648; Koch C (1999) ch. 3 (recalled from memory).
+    The dendrites by the tree layer's one solver, :func:`cabletheory.tree.geometry.input_admittances`
+    (Rall 1959; Rall & Rinzel 1973), plus the soma's :math:`(A/R_m)(1 + i\omega\tau_m)`.
     """
-    parent = np.asarray(parents, dtype=np.int64).ravel()
-    count = parent.size
-    ell = np.broadcast_to(np.asarray(lengths, dtype=float), (count,))
-    d = np.broadcast_to(np.asarray(diameters, dtype=float), (count,))
-    ends = np.zeros(count) if end_conductances is None else np.broadcast_to(
-        np.asarray(end_conductances, dtype=float), (count,))
     tau = membrane_resistivity * membrane_capacitance
+    _, dendrites = input_admittances(parents, lengths, diameters, diameters, membrane_resistivity,
+                                     axial_resistivity, end_conductances=end_conductances, frequency=frequency,
+                                     time_constant=tau)
     q = complex(cb.wavenumber(frequency, tau))
-    load = ends.astype(complex)
-    y_in = np.zeros(count, dtype=complex)
-    for i in range(count - 1, -1, -1):  # children come after their parents
-        y_inf = complex(cb.semi_infinite_input_conductance(membrane_resistivity, axial_resistivity, d[i])) * q
-        lam = float(cb.length_constant(membrane_resistivity, axial_resistivity, d[i]))
-        th = np.tanh(q * ell[i] / lam)
-        if np.isinf(load[i].real):
-            y_in[i] = y_inf / th  # killed end
-        else:
-            y_in[i] = y_inf * (load[i] + y_inf * th) / (y_inf + load[i] * th)
-        if parent[i] >= 0:
-            load[parent[i]] += y_in[i]
-    return complex(np.sum(y_in[parent == -1]) + soma_area / membrane_resistivity * q * q)
+    return complex(dendrites) + soma_area / membrane_resistivity * q * q
 
 
 def _relative(a: complex, b: complex) -> float:
@@ -219,7 +193,7 @@ def advise_tree(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike, me
     """Segments per section of a tree for a target relative error at the root.
 
     Outputs for trees: ``"input-resistance"`` and ``"impedance"`` (at ``frequency``), with
-    the exact value from :func:`tree_input_admittance`. Segments are spread with equal
+    the exact value from :func:`cabletheory.tree.geometry.input_admittances`. Segments are spread with equal
     electrotonic spacing, which is where the second-order error is even.
     """
     if output not in ("input-resistance", "impedance"):
@@ -229,9 +203,8 @@ def advise_tree(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike, me
     ell = np.broadcast_to(np.asarray(lengths, dtype=float), parent.shape).copy()
     d = np.broadcast_to(np.asarray(diameters, dtype=float), parent.shape).copy()
     f = frequency if output == "impedance" else 0.0
-    exact_y = tree_input_admittance(parent, ell, d, membrane_resistivity, axial_resistivity,
-                                    membrane_capacitance, frequency=f, end_conductances=end_conductances,
-                                    soma_area=soma_area)
+    exact_y = _root_admittance(parent, ell, d, membrane_resistivity, axial_resistivity, membrane_capacitance,
+                               frequency=f, end_conductances=end_conductances, soma_area=soma_area)
 
     def error_at(n: NDArray[np.int64]) -> float:
         c = cp.discretise_tree(parent, ell, d, membrane_resistivity, axial_resistivity, membrane_capacitance,
@@ -305,9 +278,9 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
     step = None
     if output in ("input-resistance", "impedance"):
         f = frequency if output == "impedance" else 0.0
-        exact: complex = 1.0 / tree_input_admittance([-1], [cylinder.length], [cylinder.diameter], rm, ri, cmem,
-                                                      frequency=f, end_conductances=[cylinder.end_conductance],
-                                                      soma_area=soma_area)
+        exact: complex = 1.0 / _root_admittance([-1], [cylinder.length], [cylinder.diameter], rm, ri, cmem,
+                                                frequency=f, end_conductances=[cylinder.end_conductance],
+                                                soma_area=soma_area)
         if output == "input-resistance":
             exact = complex(exact.real)
 
