@@ -519,11 +519,13 @@ class CableSummary:
     input_conductance: float
     far_end_voltage_ratio: float
     positions: Array  # m, where the profile is evaluated
+    electrotonic_positions: Array  # X = x/λ at each position
     voltage_ratio: Array  # V(x)/V(0)
     transfer_resistance: Array  # Ω, from the origin to each position
     frequency: float | None = None  # Hz
     input_impedance: complex | None = None  # Ω
     transfer_impedance: NDArray[np.complex128] | None = None  # Ω, at each position
+    ac_voltage_ratio: Array | None = None  # |V(x)/V(0)| at ``frequency`` = |Z_transfer / Z_in|
     ac_length_constant: float | None = None  # m
     segments_needed: int | None = None
     segment_fraction: float = 0.1
@@ -575,11 +577,13 @@ def summarise(cylinder: Cylinder, positions: ArrayLike = (), frequency: float | 
         input_conductance=1.0 / r_in,
         far_end_voltage_ratio=float(far_end_voltage_ratio(L, b)),
         positions=x,
+        electrotonic_positions=X,
         voltage_ratio=voltage_ratio(X, L, b),
         transfer_resistance=transfer_resistance(r_inf, L, b, X),
         frequency=frequency,
         input_impedance=z_in,
         transfer_impedance=z_x,
+        ac_voltage_ratio=None if z_x is None or z_in is None else np.abs(z_x / z_in),
         ac_length_constant=lam_f,
         segments_needed=n_seg,
         segment_fraction=segment_fraction,

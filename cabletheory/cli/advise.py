@@ -11,18 +11,10 @@ import numpy as np
 from .. import PASSIVE_CAVEAT
 from ..compartment import SCHEMES
 from ..errors import InputError
+from ..output import dump_json, echo_cylinder, quantity, table
 from ..units import format_quantity, parse_quantity, parse_series
 from ..verify.advice import OUTPUTS, RULE_STEP, Advice, StepAdvice, advise_cable, advise_tree
-from .common import (
-    add_membrane_options,
-    dump_json,
-    echo_cylinder,
-    parse_end,
-    quantity,
-    read_cylinder,
-    read_membrane,
-    table,
-)
+from .common import add_membrane_options, parse_end, read_cylinder, read_membrane
 
 TREE_QUANTITIES = ("input-resistance", "impedance")
 

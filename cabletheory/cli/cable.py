@@ -11,8 +11,9 @@ import numpy as np
 from .. import PASSIVE_CAVEAT
 from ..cable import CableSummary, Cylinder, summarise
 from ..errors import InputError
+from ..output import dump_json, echo_cylinder, quantity, table
 from ..units import format_quantity, parse_quantity, parse_series
-from .common import add_cable_options, dump_json, echo_cylinder, quantity, read_cylinder, table, whole_number
+from .common import add_cable_options, read_cylinder, whole_number
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:

@@ -12,20 +12,12 @@ import numpy as np
 from .. import PASSIVE_CAVEAT
 from ..case import Case
 from ..errors import InputError
+from ..output import dump_json, echo_cylinder, quantity, table, write_atomically
 from ..transient import Response, charge
 from ..units import format_quantity, parse_series
 from ..waveform import ResponseFeatures, response_features
 from .case import add_case_options, read_case_options
-from .common import (
-    add_truncation_option,
-    dump_json,
-    echo_cylinder,
-    quantity,
-    read_truncation,
-    table,
-    whole_number,
-    write_atomically,
-)
+from .common import add_truncation_option, read_truncation, whole_number
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:

@@ -10,12 +10,12 @@ from .. import PASSIVE_CAVEAT
 from ..compartment import SCHEMES
 from ..errors import InputError
 from ..inputs import read_pass_within
+from ..output import dump_json, quantity, write_atomically
 from ..units import format_quantity, parse_series
 from ..verify.comparison import Comparison, Convergence, ExactCase, compare, convergence
 from ..verify.reading import Recording, run_spacings
 from ..verify.tables import split_stimulus
 from .case import add_case_options
-from .common import dump_json, quantity, write_atomically
 from .reference import (
     add_exact_truncation,
     add_layout_options,

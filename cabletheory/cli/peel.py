@@ -9,8 +9,9 @@ from typing import Any
 
 from .. import PASSIVE_CAVEAT
 from ..errors import InputError
+from ..output import dump_json, quantity, table
 from ..units import format_quantity, parse_quantity
-from .common import dump_json, quantity, table, whole_number
+from .common import whole_number
 
 MODEL_CAVEAT = ("The model is a passive, linear, uniform membrane on one equivalent cylinder sealed at its far end; "
                 "for the ball and stick, a lumped soma with the same τm as the dendrite.")

@@ -12,12 +12,13 @@ from .. import PASSIVE_CAVEAT
 from ..case import Case, CaseFieldError
 from ..errors import InputError, MissingFileError
 from ..inputs import read_rest
+from ..output import write_atomically
 from ..units import format_quantity, parse_quantity, parse_series
 from ..verify.comparison import ExactCase
 from ..verify.reading import Recording, read_recording
 from ..verify.tables import ReferenceTable, reference_csv, reference_json, reference_npz, reference_table
 from .case import add_case_options, read_case_options
-from .common import add_truncation_option, read_truncation_voltage, write_atomically
+from .common import add_truncation_option, read_truncation_voltage
 
 FORMATS = ("csv", "json", "npz")
 

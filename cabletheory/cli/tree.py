@@ -15,9 +15,10 @@ from ..case import describe_end
 from ..errors import InputError
 from ..inputs import read_end, read_outline_value
 from ..morphology import SWC_TYPES, Outline, read_morphology
+from ..output import dump_json, quantity, table, write_atomically
 from ..tree import Tolerances, TreeReport, analyse_tree, build_tree, sample_profile
 from ..units import format_quantity, parse_quantity
-from .common import add_membrane_options, dump_json, quantity, read_membrane, table, whole_number, write_atomically
+from .common import add_membrane_options, read_membrane, whole_number
 
 _TYPE_NAMES = {"soma": 1, "axon": 2, "basal": 3, "apical": 4}
 _DEFAULT_TOLERANCE = Tolerances()

@@ -7,7 +7,7 @@
 * Markdown: headed tables with the values as the screen shows them, and the caveat.
 * PNG / SVG: the view's plot drawn by matplotlib (imported here, lazily).
 
-Files are written atomically (:func:`cabletheory.cli.common.write_atomically`), never over an
+Files are written atomically (:func:`cabletheory.output.write_atomically`), never over an
 input file of the view.
 """
 
@@ -22,8 +22,8 @@ from typing import Any
 
 import numpy as np
 
-from ..cli.common import dump_json, write_atomically
 from ..errors import InputError
+from ..output import dump_json, write_atomically
 from .report import PlotSpec, Report, Row, Table, cell_text, row_text, row_unit
 
 __all__ = ["DATA_FORMATS", "PLOT_FORMATS", "export", "plot_bytes", "to_csv", "to_json", "to_markdown"]

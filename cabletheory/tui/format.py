@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..cable import CableSummary, Cylinder, summarise
-from ..cli.common import end_description
+from ..output import far_end_text
 from ..units import format_quantity
 from .forms import (
     EXACT_TOLERANCE,
@@ -55,10 +55,6 @@ def distance_text(x: float) -> str:
     return "0 µm" if x == 0 else format_quantity(x, "length")
 
 
-def _end_text(cylinder: Cylinder) -> str:
-    return "none (semi-infinite)" if math.isinf(cylinder.length) else end_description(cylinder)
-
-
 def cable_report(s: CableSummary) -> Report:
     """Inputs, steady and sinusoidal results, the V(X) profile table and its plot."""
     c = s.cylinder
@@ -71,7 +67,7 @@ def cable_report(s: CableSummary) -> Report:
             "membrane_capacitance"),
         Row("diameter", "d   diameter", c.diameter, "length"),
         Row("length", "ℓ   length", c.length, "length", shown="semi-infinite" if semi_infinite else None),
-        Row("end_conductance", "far end", c.end_conductance, "conductance", shown=_end_text(c)),
+        Row("end_conductance", "far end", c.end_conductance, "conductance", shown=far_end_text(c)),
         Row("frequency", "f   frequency", s.frequency, "frequency",
             shown=None if s.frequency is not None else "steady state only"),
     ]
@@ -101,7 +97,7 @@ def cable_report(s: CableSummary) -> Report:
     if s.segments_needed is not None:
         results.append(Row("segments_needed", f"segments for ≤ {s.segment_fraction:g} λ at "
                                               f"{s.advice_frequency:g} Hz (advice)", s.segments_needed))
-    X = s.positions / s.length_constant
+    X = s.electrotonic_positions
     columns = [
         Column("position", "x", s.positions, "length"),
         Column("electrotonic_position", "X = x/λ", X, "dimensionless"),
@@ -109,8 +105,8 @@ def cable_report(s: CableSummary) -> Report:
         Column("transfer_resistance", "transfer R", s.transfer_resistance, "resistance"),
     ]
     series = [Series("steady", X, np.asarray(s.voltage_ratio))]
-    if s.transfer_impedance is not None and s.input_impedance is not None:
-        ac_ratio = np.abs(s.transfer_impedance / s.input_impedance)
+    if s.ac_voltage_ratio is not None:
+        ac_ratio = s.ac_voltage_ratio
         columns.append(Column("ac_voltage_ratio", "|V(X)/V(0)| at f", ac_ratio, "dimensionless"))
         series.append(Series(f"{s.frequency:g} Hz", X, ac_ratio))
     plot = PlotSpec("Voltage along the cable, input at X = 0", "X = x/λ", "V(X)/V(0)", tuple(series))
@@ -154,7 +150,7 @@ def _model_rows(setup: CaseSetup) -> list[Row]:
         rows += [Row("length", "length", cylinder.length, "length",
                      shown="semi-infinite" if math.isinf(cylinder.length) else None),
                  Row("end_conductance", "far end", cylinder.end_conductance, "conductance",
-                     shown=_end_text(cylinder))]
+                     shown=far_end_text(cylinder))]
     if isinstance(m, BallAndStick):
         rows.append(Row("soma_diameter", "soma diameter", m.soma_diameter, "length"))
     return rows
@@ -176,7 +172,7 @@ def charging_report(setup: ChargingSetup, tolerance: float = 1e-10) -> Report:
     ]
     cylinder = m.cylinder if isinstance(m, BallAndStick) else m
     if not isinstance(m, InfiniteCable) and math.isfinite(cylinder.length):
-        results.append(Row("electrotonic_length", "L   electrotonic length", cylinder.length / lam,
+        results.append(Row("electrotonic_length", "L   electrotonic length", cylinder.electrotonic_length,
                            "dimensionless"))
     if isinstance(m, BallAndStick):
         results.append(Row("conductance_ratio", "ρ   dendrite/soma conductance", m.conductance_ratio,
@@ -361,12 +357,17 @@ def tree_report(r: TreeReport) -> Report:
 # ---------------------------------------------------------------------------------------------
 @dataclass(frozen=True, slots=True)
 class CheckAnalysis:
-    """What the worker computes: the recording, the exact case, the comparison, per-sample errors."""
+    """What the worker computes: the recording, the exact case and the comparison (which keeps the
+    error of every sample)."""
 
     recording: Recording
     case: ExactCase
     comparison: Comparison
-    errors: np.ndarray  # V, simulated − exact at every sample
+
+    @property
+    def errors(self) -> np.ndarray:
+        """V, simulated − exact at every sample (the comparison's own)."""
+        return self.comparison.errors
 
 
 def analyse_check(setup: CheckSetup) -> CheckAnalysis:
@@ -387,11 +388,7 @@ def analyse_check(setup: CheckSetup) -> CheckAnalysis:
                                time_offset=setup.onset, allow_negative_positions=infinite)
     case = exact_case(setup.case.case, EXACT_TOLERANCE)
     comparison = compare(recording, case, setup.tolerance, relative=setup.relative)
-    exact = np.zeros(recording.times.size)
-    after = recording.times >= 0  # before the onset the exact answer is rest (as in verify.compare)
-    if np.any(after):
-        exact[after] = case.evaluate(recording.times[after], np.minimum(recording.positions[after], case.length))[0]
-    return CheckAnalysis(recording, case, comparison, recording.voltage - exact)
+    return CheckAnalysis(recording, case, comparison)
 
 
 def _voltage_scale(largest: float) -> tuple[float, str]:

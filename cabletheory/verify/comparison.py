@@ -1,8 +1,8 @@
 r"""Compare a recording with an exact solution, and measure observed orders of convergence.
 
 * :func:`compare` evaluates an :class:`ExactCase` at exactly the recorded points and reports
-  maximum and RMS absolute and relative errors, where and when the worst error occurs, and a
-  verdict against a tolerance;
+  maximum and RMS absolute and relative errors, where and when the worst error occurs, the
+  error of every sample, and a verdict against a tolerance;
 * :func:`convergence` estimates the observed orders in Δx and Δt from several runs and sets
   them beside the scheme's theoretical orders (second order in Δx for the usual three-point
   difference [CP]; first order in Δt for backward Euler, second for Crank–Nicolson, Crank &
@@ -63,7 +63,8 @@ class Comparison:
     """Errors of one recording against the exact solution (SI; errors = simulated − exact).
 
     Relative errors are divided by the largest |exact voltage| of the run (``scale``), not
-    point by point, so that samples near rest (e.g. at t = 0) do not blow them up.
+    point by point, so that samples near rest (e.g. at t = 0) do not blow them up. ``exact`` and
+    ``errors`` hold every sample, in the recording's order, so that no view recomputes them.
     """
 
     name: str
@@ -84,6 +85,8 @@ class Comparison:
     reference_bound: float  # V, largest error bound of the exact values
     sites: Array  # m
     site_max_abs_error: Array  # V, worst error at each site
+    exact: Array  # V, the exact voltage at every sample (0 before the onset)
+    errors: Array  # V, simulated − exact at every sample
 
 
 def compare(recording: Recording, exact: ExactCase, tolerance: float, *, relative: bool = False) -> Comparison:
@@ -134,7 +137,7 @@ def compare(recording: Recording, exact: ExactCase, tolerance: float, *, relativ
                       worst_line=int(recording.lines[k]), worst_simulated=float(recording.voltage[k]),
                       worst_exact=float(v_exact[k]), tolerance=float(tolerance), relative=relative,
                       passed=bool(passed), reference_bound=float(np.max(bound)) if bound.size else 0.0,
-                      sites=sites, site_max_abs_error=site_err)
+                      sites=sites, site_max_abs_error=site_err, exact=v_exact, errors=err)
 
 
 # ======================================================================================
