@@ -1,5 +1,34 @@
-"""``python -m cabletheory`` runs the command line."""
+"""The ``cabletheory`` program: the command line, which can also open the terminal app.
 
-from .cli import entry
+This module sits above both front ends so that neither imports the other: it runs
+:func:`cabletheory.cli.main` and hands it the function that opens the app (``cabletheory ui``),
+which imports :mod:`cabletheory.tui` (and textual) only when that command runs.
+"""
 
-entry()
+from __future__ import annotations
+
+import sys
+from collections.abc import Sequence
+
+from .cli import main
+
+
+def open_app(*, view: str, swc: str | None, simulation: str | None) -> None:
+    """Open the terminal app on ``view`` (textual is imported here, never at start-up)."""
+    from .tui import launch
+
+    launch(view=view, swc=swc, simulation=simulation)
+
+
+def run(argv: Sequence[str] | None = None) -> int:
+    """The command line with the terminal app available; returns the exit status."""
+    return main(argv, open_app=open_app)
+
+
+def entry() -> None:
+    """Console-script entry point."""
+    sys.exit(run())
+
+
+if __name__ == "__main__":
+    entry()

@@ -101,11 +101,14 @@ def write_atomically(path: str | os.PathLike[str], data: str | bytes, *,
     directory = target.parent if str(target.parent) else Path(".")
     if not directory.is_dir():
         raise InputError(f"output {str(target)!r}: folder {str(directory)!r} does not exist")
-    mode = "wb" if isinstance(data, bytes) else "w"
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", dir=directory)
     try:
-        with os.fdopen(fd, mode, **({} if mode == "wb" else {"encoding": "utf-8", "newline": ""})) as fh:
-            fh.write(data)
+        if isinstance(data, bytes):
+            with os.fdopen(fd, "wb") as binary:
+                binary.write(data)
+        else:
+            with os.fdopen(fd, "w", encoding="utf-8", newline="") as text:
+                text.write(data)
         os.replace(tmp, target)
     except BaseException:
         if os.path.exists(tmp):

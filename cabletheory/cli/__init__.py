@@ -19,7 +19,7 @@ import os
 import re
 import sys
 import warnings
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 
 from .. import __version__
 from ..errors import CableTheoryError, ImplausibleValueWarning, InputError
@@ -109,8 +109,11 @@ def _attach_negative_values(argv: Sequence[str]) -> list[str]:
     return out
 
 
-def main(argv: Sequence[str] | None = None) -> int:
+def main(argv: Sequence[str] | None = None, *, open_app: Callable[..., None] | None = None) -> int:
     """Run the command line; return the exit status.
+
+    ``open_app(view=..., swc=..., simulation=...)`` opens the terminal app for ``cabletheory ui``;
+    the program (:mod:`cabletheory.__main__`) passes it, so that the command line never imports the app.
 
     0 done (or check passed), 1 check failed, 2 bad input (one line on stderr: ``cabletheory:
     error: ...``), 130 interrupted, 70 an internal error (a bug: one line; set the environment
@@ -126,7 +129,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             warnings.simplefilter("error", RuntimeWarning)
             warnings.simplefilter("always", ImplausibleValueWarning)
             warnings.showwarning = _show_warning
-            return _run(arguments)
+            return _run(arguments, open_app)
     except CableTheoryError as exc:
         _error(str(exc))
         return 2
@@ -150,7 +153,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 70
 
 
-def _run(arguments: list[str]) -> int:
+def _run(arguments: list[str], open_app: Callable[..., None] | None = None) -> int:
     parser = build_parser(arguments[0] if arguments else None)
     if not [a for a in arguments if a != "--"]:
         raise InputError(f"no command given; choose one of {', '.join(COMMANDS)} ('cabletheory --help' "
@@ -159,6 +162,7 @@ def _run(arguments: list[str]) -> int:
     if getattr(args, "run", None) is None:
         raise InputError(f"no command given; choose one of {', '.join(COMMANDS)} ('cabletheory --help' "
                          "describes them)")
+    args.open_app = open_app
     limit = getattr(args, "max_file_size", None)
     with input_size_limit(limit or max_input_bytes()):
         return int(args.run(args))
@@ -190,5 +194,6 @@ def _silence_stdout() -> None:
 
 
 def entry() -> None:
-    """Console-script entry point."""
+    """Console-script entry point of the command line alone (the ``cabletheory`` program is
+    :func:`cabletheory.__main__.entry`, which can also open the app)."""
     sys.exit(main())

@@ -11,7 +11,15 @@ from typing import Any
 
 from ..cable import Cylinder
 from ..errors import InputError
+
+# the output helpers live below both front ends (cabletheory.output); these names stay importable
+# from here for the commands, so that one command line reads the same whichever module it imports
+from ..output import dump_json, echo_cylinder, end_description, quantity, table, write_atomically
 from ..units import parse_quantity
+
+__all__ = ["DEFAULT_CM", "add_cable_options", "add_membrane_options", "add_truncation_option", "dump_json",
+           "echo_cylinder", "end_description", "parse_end", "quantity", "read_cylinder", "read_membrane",
+           "read_truncation", "read_truncation_voltage", "table", "whole_number", "write_atomically"]
 
 # Cm ≈ 1 µF/cm² is common practice (Gentet, Stuart & Clements 2000 measured 0.9); Rm and Ri vary
 # tenfold between cells, so they have no default.

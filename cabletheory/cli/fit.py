@@ -11,8 +11,9 @@ from typing import Any
 from .. import PASSIVE_CAVEAT
 from ..errors import InputError
 from ..inputs import read_rest
+from ..output import dump_json, quantity, table, write_atomically
 from ..units import format_quantity, parse_quantity
-from .common import DEFAULT_CM, dump_json, quantity, table, whole_number, write_atomically
+from .common import DEFAULT_CM, whole_number
 
 MODEL_CHOICES = ("ball-and-stick", "cylinder", "exponentials")
 FIT_CAVEAT = ("The fits assume a passive, linear, uniform membrane, a current injected and recorded at the soma "

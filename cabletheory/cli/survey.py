@@ -10,6 +10,7 @@ from pathlib import Path
 
 from .. import PASSIVE_CAVEAT
 from ..errors import InputError
+from ..output import table, write_atomically
 from ..survey import (
     DaskRunner,
     PoolRunner,
@@ -24,7 +25,7 @@ from ..survey import (
 )
 from ..tree import Tolerances
 from ..units import format_quantity, parse_quantity
-from .common import add_membrane_options, read_membrane, table, whole_number, write_atomically
+from .common import add_membrane_options, read_membrane, whole_number
 from .tree import parse_types
 
 _DEFAULT_TOLERANCE = Tolerances()

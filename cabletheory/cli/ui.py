@@ -1,4 +1,8 @@
-"""``cabletheory ui``: the terminal app (textual, imported only when the command runs)."""
+"""``cabletheory ui``: check the arguments and open the terminal app.
+
+The app is opened through the function the ``cabletheory`` program (:mod:`cabletheory.__main__`)
+passes to :func:`cabletheory.cli.main`, so that the command line never imports the app; textual is
+imported only when the command runs."""
 
 from __future__ import annotations
 
@@ -44,7 +48,9 @@ def run(args: argparse.Namespace) -> int:
     view = args.view or ("tree" if swc else "check" if check else "cylinder")
     if view not in VIEW_NAMES:  # pragma: no cover - argparse checks choices
         raise InputError(f"--view: unknown view {view!r}")
-    from ..tui.app import CableApp  # textual is imported here, never at start-up
-
-    CableApp(view=view, swc=swc, simulation=check).run()
+    open_app = getattr(args, "open_app", None)
+    if open_app is None:
+        raise InputError("the terminal app opens from the cabletheory program ('cabletheory ui' or "
+                         "'python -m cabletheory ui')")
+    open_app(view=view, swc=swc, simulation=check)  # the program passes it in: the CLI never imports the app
     return 0
