@@ -279,10 +279,10 @@ def exact_input_conductances(tree: Tree, membrane_resistivity: float, axial_resi
                              ) -> tuple[Array, float]:
     r"""Exact steady input conductance of every piece looking away from the root, and of the root.
 
-    :func:`input_admittances` at steady state. Pieces are combined from the tips inward: the load of a piece is the sum of its
-    children's input conductances, and at a tip its end conductance (0 sealed, infinite killed,
-    or leaky: ``tree.ends``, or ``tip_conductance`` in S at every tip when given;
-    ``killed_tips=True`` is ``tip_conductance=inf``), and
+    :func:`input_admittances` at steady state. Pieces are combined from the tips inward: the load
+    of a piece is the sum of its children's input conductances, and at a tip its end conductance
+    (0 sealed, infinite killed, or leaky: ``tree.ends``, or ``tip_conductance`` in S at every tip
+    when given; ``killed_tips=True`` is ``tip_conductance=inf``), and
 
     .. math:: G_{in} = G_\infty \frac{B + \tanh L}{1 + B\tanh L},\qquad B = G_{load}/G_\infty
 
