@@ -273,7 +273,7 @@ def _is_morphology(path: Path) -> bool:
 
 
 def find_files(patterns: Iterable[str]) -> list[str]:
-    """The morphology files named by folders (searched recursively for .swc, .tree and .outline),
+    """The morphology files named by folders (searched recursively for .swc and .outline),
     glob patterns (``**`` allowed) or file names; sorted, each once.
 
     Raises :class:`~cabletheory.errors.InputError` naming a pattern that matches nothing.
@@ -283,7 +283,7 @@ def find_files(patterns: Iterable[str]) -> list[str]:
         p = Path(pattern)
         if p.is_dir():
             hits = [str(q) for q in p.rglob("*") if _is_morphology(q)]
-            what = "holds no morphology file (.swc, .tree or .outline)"
+            what = "holds no morphology file (.swc or .outline)"
         elif p.is_file():
             hits = [pattern]
             what = ""

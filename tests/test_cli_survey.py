@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import shutil
 from pathlib import Path
 
 import pytest
@@ -156,3 +157,18 @@ def test_survey_reads_tree_outlines_with_their_tip_ends(capsys, tmp_path):
     assert {r["format"] for r in rows.values()} == {"outline"}
     assert rows["demo.outline"]["reducible"] in {"True", "true", "1", "yes"}
     assert rows["leaky.outline"]["reducible"] in {"False", "false", "0", "no"}
+
+
+def test_outlines_are_surveyed_and_a_leaky_tip_is_recorded(capsys, tmp_path):
+    demo = Path(__file__).resolve().parent.parent / "cabletheory" / "data" / "morphologies"
+    shutil.copy(demo / "lumenia_demo.outline", tmp_path / "demo.outline")
+    shutil.copy(next(ARCHIVE.rglob("lumenia_00003.swc")), tmp_path / "cell.swc")
+    output = tmp_path / "t.csv"
+    status, _, err = run(capsys, ["survey", str(tmp_path), *MEMBRANE, "--output", str(output), "--workers", "1",
+                                  "--tips", "0.5 nS"])
+    assert status == 0, err
+    assert "# tips: 5e-10 S" in output.read_text(encoding="utf-8")
+    rows = {Path(r["path"]).name: r for r in _rows(output)}
+    assert rows["demo.outline"]["format"] == "outline"
+    assert rows["cell.swc"]["format"] == "SWC"
+    assert {r["status"] for r in rows.values()} == {"ok"}

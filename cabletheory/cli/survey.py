@@ -40,7 +40,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser = subparsers.add_parser(
         "survey",
         help="audit every morphology of an archive against Rall's conditions: one table, one row per cell",
-        description="Read every morphology under the given folders or glob patterns (.swc, .tree, .outline), "
+        description="Read every morphology under the given folders or glob patterns (.swc, .outline), "
                     "audit each against Rall's conditions, reduce it to an equivalent cylinder and compute its "
                     "exact and reduced input resistance, with one set of membrane values and tolerances; write "
                     "one table (CSV or Parquet) with one row per file and the settings in its header. A file "
@@ -64,8 +64,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                                "(default: every type except the axon)")
     geometry.add_argument("--axon", action="store_true", help="SWC: keep the axon (type 2)")
     geometry.add_argument("--tips", metavar="END",
-                          help="the end of every tip: 'sealed' or 'killed' (default: as each file says; sealed "
-                               "unless it states otherwise)")
+                          help="the end of every tip: 'sealed', 'killed' or a conductance to rest such as "
+                               "'0.5 nS' (default: as each file says; sealed unless an outline gives end=)")
     audit = parser.add_argument_group("audit tolerances (as in 'cabletheory tree')")
     audit.add_argument("--ratio-tolerance", default=str(_DEFAULT_TOLERANCE.branch_ratio), metavar="T",
                        help="largest |Σd_child^3/2 / d_parent^3/2 − 1| at a branch point, and largest relative "
