@@ -78,7 +78,9 @@ def run(args: argparse.Namespace) -> int:
         text = as_csv(case, response)
     else:
         text = as_text(case, response, args.digits, features)
-    if args.output:
+    if args.output is not None:
+        if not args.output.strip():
+            raise InputError("--output: empty file name; give a file such as 'course.json'")
         write_atomically(args.output, text if text.endswith("\n") else text + "\n")
     else:
         print(text)

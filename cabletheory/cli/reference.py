@@ -10,9 +10,10 @@ import numpy as np
 
 from .. import PASSIVE_CAVEAT
 from ..case import Case, CaseFieldError
-from ..errors import InputError, MissingFileError
+from ..errors import InputError
 from ..inputs import read_rest
 from ..output import write_atomically
+from ..textfile import read_input_text
 from ..units import format_quantity, parse_quantity, parse_series
 from ..verify.comparison import ExactCase
 from ..verify.reading import Recording, read_recording
@@ -52,13 +53,7 @@ def parser_for_quantities(text: str, kind: str, where: str) -> float:
 
 def read_run(path: str, args: argparse.Namespace) -> Recording:
     """Read one simulator output file with the layout options of ``args``."""
-    p = Path(path)
-    if not p.is_file():
-        raise MissingFileError(f"{path}: no such file")
-    try:
-        text = p.read_text(encoding="utf-8-sig")
-    except UnicodeDecodeError:
-        raise InputError(f"{path}: not a UTF-8 text file") from None
+    text = read_input_text(path, "simulator output")
     rest: float | str = read_rest(args.rest, "--rest") if getattr(args, "rest", None) else 0.0
     onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) \
         if getattr(args, "onset", None) else 0.0
