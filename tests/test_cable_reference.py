@@ -104,18 +104,18 @@ def test_demo_cable_ac(frequency, lambda_f_um, z_inf_mohm, z_inf_deg, z_sealed_m
 
 
 def test_ac_length_constant_against_high_frequency_form():
-    """Slow membrane, thin neurite (docs/sources.md): radius 1 µm, Rm 50 kΩ·cm², Ri 100 Ω·cm,
-    Cm 1 µF/cm², so τ = 50 ms and λ_DC = 1581 µm. At 100 Hz the exact AC length constant λ/Re(q)
-    is 392.6442312 µm, below the high-frequency approximation √(d/(4πf Ri Cm)) = 398.9422804 µm
+    """Slow membrane, thin neurite (docs/sources.md, invented): d 1.5 µm, Rm 40 kΩ·cm², Ri 120 Ω·cm,
+    Cm 0.9 µF/cm², so τ = 36 ms and λ_DC = 1118.033989 µm. At 200 Hz the exact AC length constant
+    λ/Re(q) is 232.4953145 µm, below the high-frequency approximation √(d/(4πf Ri Cm)) = 235.0789931 µm
     (both forms: Koch 1999 ch. 2 [Koch1999] [MEM]; values computed with mpmath [mpmath2023])."""
-    lam = cable.length_constant(5.0, 1.0, 2e-6)
-    tau = cable.membrane_time_constant(5.0, 0.01)
-    assert float(tau) == pytest.approx(0.050, rel=1e-12)
-    assert float(lam) * 1e6 == pytest.approx(1581.138830, rel=1e-9)
-    exact = float(cable.ac_length_constant(lam, 100.0, tau))
-    assert exact * 1e6 == pytest.approx(392.6442312, rel=1e-9)
-    high_frequency = math.sqrt(2e-6 / (4 * math.pi * 100.0 * 1.0 * 0.01))  # √(d / (4π f Ri Cm))
-    assert high_frequency * 1e6 == pytest.approx(398.9422804, rel=1e-9)
+    lam = cable.length_constant(4.0, 1.2, 1.5e-6)
+    tau = cable.membrane_time_constant(4.0, 0.009)
+    assert float(tau) == pytest.approx(0.036, rel=1e-12)
+    assert float(lam) * 1e6 == pytest.approx(1118.033989, rel=1e-9)
+    exact = float(cable.ac_length_constant(lam, 200.0, tau))
+    assert exact * 1e6 == pytest.approx(232.4953145, rel=1e-9)
+    high_frequency = math.sqrt(1.5e-6 / (4 * math.pi * 200.0 * 1.2 * 0.009))  # √(d / (4π f Ri Cm))
+    assert high_frequency * 1e6 == pytest.approx(235.0789931, rel=1e-9)
     assert exact < high_frequency
 
 
