@@ -23,7 +23,7 @@ def test_text_output_echoes_inputs_and_caveat(capsys):
         assert text in out
 
 
-def test_json_sealed_cylinder_matches_checks_table(capsys):
+def test_json_sealed_cylinder_matches_the_demo_table(capsys):
     """L = 0.7071, sealed: final 73.93466931 mV at 100 pA (computed; R∞ coth L, Rall 1959 [Rall1959])."""
     status, out, _ = run(capsys, "--length", "500", "--current", "100pA", "--times", "0, 1000 ms", "--json")
     assert status == 0
