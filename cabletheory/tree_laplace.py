@@ -27,7 +27,8 @@ Koch & Poggio 1985; Holmes 1986):
 
 Only tanh, sech = 2e^{-u}/(1 + e^{-2u}) and products of ratios of modulus ≤ 1 appear, so nothing
 overflows for long pieces or large |s|. Sites inside a piece are handled by cutting the piece
-there (exact for cylinders); pieces of zero length are contracted into their parent node.
+there (exact: a cut cylinder is two cylinders, a cut frustum two frusta); pieces of zero length are
+contracted into their parent node.
 
 **Eigenvalues.** The decay rates :math:`1/\tau_n` of the tree are counted, not searched for:
 with :math:`s = -\lambda` real, the number of rates below λ is the number of negative pivots of
@@ -37,9 +38,13 @@ recalled from memory [MEM]). Bisection on that integer count brackets every rate
 included, with no poles to step over; a rate is seen at the root when the root admittance
 vanishes there, and its residue follows from the root admittance's slope.
 
-Frusta (tapered pieces) are refused here: their Laplace-domain two-port needs Bessel functions
-of complex argument and is not implemented. The model is passive, linear and uniform within
-each piece (:data:`cabletheory.PASSIVE_CAVEAT`).
+**Frusta** (tapered pieces) use the exact two-port of the tapered cable equation, modified Bessel
+functions of order 1 and 2 (:func:`cabletheory.tree.frustum_transfer`) with every argument
+multiplied by q, in exponentially scaled form; the general two-port formulas
+:math:`Y_{in} = (T_{21} + T_{22}Y_L)/(T_{11} + T_{12}Y_L)` replace the symmetric ones there. The
+time constants of trees with frusta are not counted (the count needs the rates of each frustum
+held at rest at both ends, which have no closed form) and are refused. The model is passive,
+linear and uniform within each piece (:data:`cabletheory.PASSIVE_CAVEAT`).
 
 References
 ----------
@@ -111,7 +116,7 @@ class PassiveTree:
 
     Attributes
     ----------
-    tree : the pieces (cylinders; frusta are refused), parents before children
+    tree : the pieces (cylinders or frusta), parents before children
     membrane_resistivity : Rm, Ω·m², one value or one per piece
     axial_resistivity : Ri, Ω·m (uniform)
     membrane_capacitance : Cm, F/m², one value or one per piece
@@ -138,10 +143,6 @@ class PassiveTree:
         ri = float(self.axial_resistivity)
         if not (math.isfinite(ri) and ri > 0):
             raise InputError(f"axial_resistivity must be finite and positive, got {self.axial_resistivity!r}")
-        d0, d1 = np.asarray(self.tree.proximal_diameters), np.asarray(self.tree.distal_diameters)
-        if np.any(np.abs(d1 - d0) > _TAPER_THRESHOLD * 0.5 * (d0 + d1)):
-            raise InputError(f"{self.tree.source}: tapered pieces (frusta) are not supported by the time-domain "
-                             "solution; read the tree with cylinders")
         self.tip_conductances()  # validates the tip words
         if self.tree.soma_area is not None:
             self.soma_constants()
@@ -293,6 +294,12 @@ class _Network:
     levels: tuple[IntArray, ...]  # pieces by depth, root side first
     depth: IntArray  # depth of each node (root 0)
     parent_node: IntArray  # node at the proximal end of each piece
+    tapered: IntArray  # pieces that are frusta (the rest are cylinders)
+    lengths: Array  # m, of the tapered pieces
+    proximal: Array  # m, proximal diameter of the tapered pieces
+    distal: Array  # m, distal diameter of the tapered pieces
+    membrane_resistivity: Array  # Ω·m², of the tapered pieces
+    axial_resistivity: float  # Ω·m
 
     @property
     def size(self) -> int:
@@ -304,6 +311,8 @@ def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
     n = len(tree)
     lengths = np.asarray(tree.lengths, dtype=float)
     diam = np.asarray(tree.distal_diameters, dtype=float)
+    prox = np.asarray(tree.proximal_diameters, dtype=float)
+    taper = np.abs(diam - prox) > _TAPER_THRESHOLD * 0.5 * (diam + prox)
     rm = _per_piece(cell.membrane_resistivity, n, "membrane_resistivity")
     cm = _per_piece(cell.membrane_capacitance, n, "membrane_capacitance")
     ri = float(cell.axial_resistivity)
@@ -321,6 +330,8 @@ def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
     cut_node: dict[tuple[int, float], int] = {}
     new_par: list[int] = []
     new_len: list[float] = []
+    new_d0: list[float] = []
+    new_d1: list[float] = []
     src: list[int] = []
     shunt_at: dict[int, float] = {}
     killed_at: set[int] = set()
@@ -343,6 +354,8 @@ def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
         for x in [*sorted(set(cuts[i])), float(lengths[i])]:
             new_par.append(start - 1)
             new_len.append(x - previous)
+            new_d0.append(prox[i] + (diam[i] - prox[i]) * previous / lengths[i])
+            new_d1.append(prox[i] + (diam[i] - prox[i]) * x / lengths[i])
             src.append(i)
             start = len(new_par)
             cut_node[(i, x)] = start
@@ -379,9 +392,18 @@ def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
     bounds = np.searchsorted(depth[1:][order], np.arange(1, int(depth.max()) + 2))
     levels = tuple(order[bounds[j]:bounds[j + 1]] for j in range(bounds.size - 1))
     g_s, tau_s = cell.soma_constants()
-    return _Network(parents=par, electrotonic=np.asarray(new_len) / lam[source], g_inf=ginf[source],
+    piece_len = np.asarray(new_len)
+    d0, d1 = np.asarray(new_d0), np.asarray(new_d1)
+    tapered = np.flatnonzero(taper[source])
+    # a frustum's steady electrotonic length, ∫dx/λ(x) (frustum_electrotonic_length of cabletheory.tree)
+    electrotonic = piece_len / lam[source]
+    mean_root = (0.5 * (np.sqrt(d0[tapered]) + np.sqrt(d1[tapered]))) ** 2  # L = ℓ/λ(d̄), cabletheory.tree
+    electrotonic[tapered] = piece_len[tapered] / np.asarray(length_constant(rm[source][tapered], ri, mean_root))
+    return _Network(parents=par, electrotonic=electrotonic, g_inf=ginf[source],
                     tau=(rm * cm)[source], shunt=shunt, killed=killed, soma_conductance=g_s, soma_tau=tau_s,
-                    nodes=np.asarray(nodes, dtype=np.int64), levels=levels, depth=depth, parent_node=par + 1)
+                    nodes=np.asarray(nodes, dtype=np.int64), levels=levels, depth=depth, parent_node=par + 1,
+                    tapered=tapered, lengths=piece_len[tapered], proximal=d0[tapered], distal=d1[tapered],
+                    membrane_resistivity=rm[source][tapered], axial_resistivity=ri)
 
 
 def _check_site(tree: Tree, site: Site) -> tuple[int, float]:
@@ -416,6 +438,40 @@ class _Solution:
     pivots: ComplexArray | None  # elimination pivot at each node (for counting)
 
 
+def _frustum_two_port(net: _Network, q: ComplexArray) -> tuple[ComplexArray, ...]:
+    r"""Two-port of each frustum in the Laplace domain, times :math:`e^{-\mathrm{Re}\,u}`, and that factor.
+
+    The steady solution of :func:`cabletheory.tree.frustum_transfer` with :math:`c = 4R_i/R_m`
+    replaced by :math:`c\,q^2` (the membrane admittance per area is :math:`(1 + s\tau)/R_m`), so
+    every Bessel argument is multiplied by q: :math:`z = 2q\sqrt{c\,d}/|d'|`. Exponentially scaled
+    Bessel functions of complex argument (scipy.special.ive, kve) keep it finite.
+
+    Returns (T11, T12 in Ω, T21 in S, T22, e^{-Re u}), each of shape (tapered pieces, n_s).
+    """
+    from scipy.special import ive, kve
+
+    ell, a, b = net.lengths[:, None], net.proximal[:, None], net.distal[:, None]
+    ri = net.axial_resistivity
+    slope = (b - a) / ell
+    c = 4.0 * ri / net.membrane_resistivity[:, None]
+    z0 = 2.0 * np.sqrt(c * a) / np.abs(slope) * q
+    z1 = 2.0 * np.sqrt(c * b) / np.abs(slope) * q
+    k = np.pi * slope / (4.0 * ri)
+    u_re = (net.electrotonic[net.tapered][:, None] * q).real
+    # I(z0)K(z1) carries e^{Re z0 - z1}, K(z0)I(z1) carries e^{Re z1 - z0}; both times e^{-Re u}
+    e_ik = np.exp(z0.real - z1 - u_re)
+    e_ki = np.exp(z1.real - z0 - u_re)
+    i1_0, i1_1, k1_0, k1_1 = ive(1, z0), ive(1, z1), kve(1, z0), kve(1, z1)
+    p0, p1 = 0.5 * z0 * ive(2, z0), 0.5 * z1 * ive(2, z1)
+    q0, q1 = 0.5 * z0 * kve(2, z0), 0.5 * z1 * kve(2, z1)
+    ratio = np.sqrt(b / a)
+    t11 = 2.0 * ratio * (i1_0 * q1 * e_ik + k1_0 * p1 * e_ki)
+    t12 = 2.0 / (k * np.sqrt(a * b)) * (k1_0 * i1_1 * e_ki - i1_0 * k1_1 * e_ik)
+    t21 = 2.0 * k * np.sqrt(a * b) * (q0 * p1 * e_ki - p0 * q1 * e_ik)
+    t22 = 2.0 / ratio * (p0 * k1_1 * e_ik + q0 * i1_1 * e_ki)
+    return t11, t12, t21, t22, np.exp(-u_re) * np.ones_like(q)
+
+
 def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution:
     """Both passes for a vector of complex s (1/s); see the module docstring."""
     s = np.asarray(s, dtype=complex).ravel()
@@ -431,6 +487,10 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
     y_in = np.empty((n, s.size), dtype=complex)
     down = np.empty((n, s.size), dtype=complex)
     killed = net.killed
+    row = np.full(n, -1)
+    row[net.tapered] = np.arange(net.tapered.size)
+    if net.tapered.size:
+        t11, t12, t21, t22, scale = _frustum_two_port(net, q[net.tapered])
     with np.errstate(divide="ignore", invalid="ignore"):
         for idx in reversed(net.levels):
             yl = load[idx + 1]
@@ -442,6 +502,15 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
             if np.any(k):
                 y[k] = g[k] / t[k]
                 h[k] = 0.0
+            f = np.flatnonzero(row[idx] >= 0)
+            if f.size:  # frusta: the general two-port, (T21 + T22 Y_L)/(T11 + T12 Y_L)
+                r = row[idx[f]]
+                den_f = t11[r] + t12[r] * yl[f]
+                y[f] = (t21[r] + t22[r] * yl[f]) / den_f
+                h[f] = scale[r] / den_f
+                kf = killed[idx[f]]
+                y[f[kf]] = t22[r[kf]] / t12[r[kf]]
+                h[f[kf]] = 0.0
             y_in[idx] = y
             down[idx] = h
             np.add.at(load, net.parent_node[idx], y)
@@ -455,6 +524,12 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
             den = g + back * t
             up[idx] = g * sech[idx] / den
             total[idx + 1] = load[idx + 1] + g * (back + g * t) / den
+            f = np.flatnonzero(row[idx] >= 0)
+            if f.size:  # frusta, seen from the distal end: T11 and T22 swap (a reciprocal two-port)
+                r = row[idx[f]]
+                den_f = t22[r] + t12[r] * back[f]
+                up[idx[f]] = scale[r] / den_f
+                total[idx[f] + 1] = load[idx[f] + 1] + (t21[r] + t11[r] * back[f]) / den_f
         total[1:][killed] = np.inf
         piv = None
         if pivots:
@@ -547,6 +622,9 @@ def transfer_impedance(cell: PassiveTree, s: ArrayLike, source: Site | None, rec
 # --------------------------------------------------------------------------------------
 def _count(net: _Network, rates: Array) -> IntArray:
     """Number of decay rates of the tree (1/s) strictly below each of ``rates`` (Wittrick-Williams)."""
+    if net.tapered.size:
+        raise InputError("the time constants of a tree with tapered pieces (frusta) are not computed yet; read "
+                         "the tree with cylinders for them")
     rates = np.asarray(rates, dtype=float)
     sol = _solve(net, -rates.astype(complex), pivots=True)
     assert sol.pivots is not None
@@ -678,8 +756,9 @@ def transfer_impedance_precise(cell: PassiveTree, s: complex, source: Site | Non
                                digits: int = 30):
     r"""The transfer impedance of :func:`transfer_impedance` at one s, in mpmath at ``digits`` digits.
 
-    The same two-port recursion written with mpmath's tanh and cosh (no scaled forms), one piece
-    at a time; for checks only (slow). Returns an ``mpmath.mpc`` in Ω.
+    The same recursion written with each piece's two-port matrix in plain cosh and sinh (cylinders)
+    or unscaled mpmath Bessel functions (frusta) and the general two-port formulas throughout, one
+    piece at a time; for checks only (slow). Returns an ``mpmath.mpc`` in Ω.
 
     References
     ----------
@@ -688,39 +767,60 @@ def transfer_impedance_precise(cell: PassiveTree, s: complex, source: Site | Non
     import mpmath
 
     net = _network(cell, [record] if source is None else [record, source])
+    tapered = set(net.tapered.tolist())
+    row = {k: j for j, k in enumerate(net.tapered.tolist())}
     with mpmath.workdps(digits):
         s_mp = mpmath.mpc(s)
         n = net.size
-        q = [mpmath.sqrt(1 + mpmath.mpf(float(net.tau[k])) * s_mp) for k in range(n)]
-        gq = [mpmath.mpf(float(net.g_inf[k])) * q[k] for k in range(n)]
-        u = [mpmath.mpf(float(net.electrotonic[k])) * q[k] for k in range(n)]
+        two_port = []
+        for k in range(n):
+            q = mpmath.sqrt(1 + mpmath.mpf(float(net.tau[k])) * s_mp)
+            if k in tapered:  # cabletheory.tree.frustum_transfer with z scaled by q (unscaled Bessel functions)
+                j = row[k]
+                a, b = mpmath.mpf(float(net.proximal[j])), mpmath.mpf(float(net.distal[j]))
+                slope = (b - a) / mpmath.mpf(float(net.lengths[j]))
+                c = 4 * mpmath.mpf(net.axial_resistivity) / mpmath.mpf(float(net.membrane_resistivity[j]))
+                z0, z1 = (2 * mpmath.sqrt(c * d) / abs(slope) * q for d in (a, b))
+                kk = mpmath.pi * slope / (4 * mpmath.mpf(net.axial_resistivity))
+                i1_0, i1_1 = mpmath.besseli(1, z0), mpmath.besseli(1, z1)
+                k1_0, k1_1 = mpmath.besselk(1, z0), mpmath.besselk(1, z1)
+                p0, p1 = z0 / 2 * mpmath.besseli(2, z0), z1 / 2 * mpmath.besseli(2, z1)
+                q0, q1 = z0 / 2 * mpmath.besselk(2, z0), z1 / 2 * mpmath.besselk(2, z1)
+                ratio = mpmath.sqrt(b / a)
+                two_port.append((2 * ratio * (i1_0 * q1 + k1_0 * p1),
+                                 2 / (kk * mpmath.sqrt(a * b)) * (k1_0 * i1_1 - i1_0 * k1_1),
+                                 2 * kk * mpmath.sqrt(a * b) * (q0 * p1 - p0 * q1),
+                                 2 / ratio * (p0 * k1_1 + q0 * i1_1)))
+            else:  # [[cosh u, sinh u/(G∞q)], [G∞q sinh u, cosh u]]
+                u = mpmath.mpf(float(net.electrotonic[k])) * q
+                gq = mpmath.mpf(float(net.g_inf[k])) * q
+                two_port.append((mpmath.cosh(u), mpmath.sinh(u) / gq, gq * mpmath.sinh(u), mpmath.cosh(u)))
         load = [mpmath.mpc(0)] + [mpmath.mpc(float(g)) for g in net.shunt]
         y_in: list = [None] * n
         for k in range(n - 1, -1, -1):
-            if net.killed[k]:
-                y_in[k] = gq[k] * mpmath.coth(u[k])
-            else:
-                t = mpmath.tanh(u[k])
-                y_in[k] = gq[k] * (load[k + 1] + gq[k] * t) / (gq[k] + load[k + 1] * t)
+            t11, t12, t21, t22 = two_port[k]
+            y_in[k] = t22 / t12 if net.killed[k] else (t21 + t22 * load[k + 1]) / (t11 + t12 * load[k + 1])
             load[int(net.parent_node[k])] += y_in[k]
         load[0] += mpmath.mpf(net.soma_conductance) * (1 + mpmath.mpf(net.soma_tau) * s_mp)
         total: list = [load[0]] + [None] * n
         back: list = [None] * n
         for k in range(n):
+            t11, t12, t21, t22 = two_port[k]
             back[k] = total[int(net.parent_node[k])] - y_in[k]
-            t = mpmath.tanh(u[k])
             total[k + 1] = (mpmath.inf if net.killed[k] else
-                            load[k + 1] + gq[k] * (back[k] + gq[k] * t) / (gq[k] + back[k] * t))
-        b = int(net.nodes[0])
-        a = b if source is None else int(net.nodes[1])
-        if total[a] == mpmath.inf:
+                            load[k + 1] + (t21 + t11 * back[k]) / (t22 + t12 * back[k]))
+        b_node = int(net.nodes[0])
+        a_node = b_node if source is None else int(net.nodes[1])
+        if total[a_node] == mpmath.inf:
             return mpmath.mpc(0)
-        z = 1 / total[a]
-        up, down = _path(net, a, b)
+        z = 1 / total[a_node]
+        up, down = _path(net, a_node, b_node)
         for k in up.tolist():
-            z /= mpmath.cosh(u[k]) + back[k] / gq[k] * mpmath.sinh(u[k])
+            t11, t12, t21, t22 = two_port[k]
+            z /= t22 + t12 * back[k]
         for k in down.tolist():
             if net.killed[k]:
                 return mpmath.mpc(0)
-            z /= mpmath.cosh(u[k]) + load[k + 1] / gq[k] * mpmath.sinh(u[k])
+            t11, t12, t21, t22 = two_port[k]
+            z /= t11 + t12 * load[k + 1]
         return z

@@ -282,8 +282,7 @@ def test_bad_input_is_refused_in_one_line():
     with pytest.raises(InputError, match="tips must be"):
         PassiveTree(tree, RM, RI, CM, tips="open")
     with pytest.raises(InputError, match="frusta"):
-        PassiveTree(tree.__class__(**{**{f: getattr(tree, f) for f in tree.__dataclass_fields__},
-                                      "proximal_diameters": tree.proximal_diameters * 1.5}), RM, RI, CM)
+        root_modes(PassiveTree(tapered_tree(), RM, RI, CM), 2)
     cell = PassiveTree(tree, RM, RI, CM)
     with pytest.raises(InputError, match="outside piece"):
         input_impedance(cell, [0.0], [Site(0, 1.0)])
@@ -333,3 +332,89 @@ def test_sites_along_a_path():
     np.testing.assert_allclose(z / z[0], cable.voltage_ratio(x, big_l, 0.0), rtol=1e-12)
     with pytest.raises(InputError, match="count"):
         sites_along(tree, root_site(), Site(3, 0.0), 1)
+
+
+# --------------------------------------------------------------------------------------
+# frusta
+# --------------------------------------------------------------------------------------
+def tapered_tree(soma=15.0) -> Tree:
+    """Four frusta, three narrowing and one widening, on a soma (µm in, SI out)."""
+    n = 4
+    return Tree(source="tapered", labels=tuple(f"f{i}" for i in range(n)), parents=np.array([-1, 0, 0, 1]),
+                lengths=np.array([200.0, 300.0, 150.0, 400.0]) * UM,
+                proximal_diameters=np.array([4.0, 2.5, 1.0, 1.5]) * UM,
+                distal_diameters=np.array([3.0, 1.5, 2.0, 0.4]) * UM, types=np.full(n, 3),
+                lines=np.arange(1, n + 1), soma_area=None if soma is None else math.pi * (soma * UM) ** 2,
+                geometry="frusta")
+
+
+@pytest.mark.parametrize("tips", ["sealed", "killed"])
+@pytest.mark.parametrize("make", [tapered_tree, lambda: build_tree(read_swc(DATA / "lumenia_pv7_interneuron.swc"),
+                                                                   taper=True)])
+def test_frusta_steady_state_is_the_exact_tapered_input_resistance(make, tips):
+    """At s = 0 the Laplace-domain frustum is the exact Bessel solution of cabletheory.tree
+    (checked there against scipy.integrate.solve_bvp [SciPy2020]), for a tree of frusta and the
+    bundled cell read with tapers."""
+    tree = make()
+    cell = PassiveTree(tree, RM, RI, CM, tips=tips)
+    z = input_impedance(cell, [0.0], [root_site()])[0, 0]
+    _, g_dend = exact_input_conductances(tree, RM, RI, killed_tips=tips == "killed")
+    g_soma = 0.0 if tree.soma_area is None else tree.soma_area / RM
+    assert z.real == pytest.approx(1.0 / (g_dend + g_soma), rel=1e-11)
+
+
+@pytest.mark.parametrize("s_tau", [0.3 + 2j, -0.9 + 0.5j, 2e4 + 3e4j, -30 + 1e-3j])
+@pytest.mark.parametrize(("source", "record"), [
+    (None, Site(3, 250e-6)), (Site(2, 150e-6), Site(3, 400e-6)), (root_site(), Site(1, 10e-6))])
+def test_frusta_agree_with_mpmath_bessel_functions(s_tau, source, record):
+    """Scaled scipy Bessel functions of complex argument against unscaled mpmath ones at 40 digits
+    [mpmath2023], through the general two-port recursion, on narrowing and widening frusta."""
+    cell = PassiveTree(tapered_tree(), RM, RI, CM, tips=0.3e-9)
+    s = s_tau / TAU
+    fast = transfer_impedance(cell, [s], source, [record])[0, 0]
+    slow = complex(transfer_impedance_precise(cell, s, source, record, digits=40))
+    assert fast == pytest.approx(slow, rel=1e-10, abs=1e-300)
+
+
+def test_frusta_are_the_limit_of_fine_cylinder_chains():
+    """A frustum cut into k cylinders (midpoint diameters) converges to it at second order in 1/k at
+    complex s: an independent route to the tapered two-port (the stepped cable is common practice
+    [CP])."""
+    tree = tapered_tree()
+    cell = PassiveTree(tree, RM, RI, CM)
+    s = np.array([0.0, 50 + 300j, -20 + 5000j])
+    exact = transfer_impedance(cell, s, Site(3, 400e-6), [root_site()])[:, 0]
+    errors = []
+    for k in (8, 16, 32):
+        parents, lengths, diameters, last = [], [], [], {-1: -1}
+        for i in range(len(tree)):
+            parent = last[int(tree.parents[i])]
+            a, b = tree.proximal_diameters[i], tree.distal_diameters[i]
+            for j in range(k):
+                parents.append(parent)
+                lengths.append(tree.lengths[i] / k)
+                diameters.append(a + (b - a) * (j + 0.5) / k)
+                parent = len(parents) - 1
+            last[i] = parent
+        chain = sections_tree(parents, lengths, diameters, 15e-6)
+        z = transfer_impedance(PassiveTree(chain, RM, RI, CM), s, Site(len(chain) - 1, lengths[-1]),
+                               [root_site()])[:, 0]
+        errors.append(np.abs(z / exact - 1))
+    ratios = np.asarray(errors[0]) / np.asarray(errors[1]), np.asarray(errors[1]) / np.asarray(errors[2])
+    assert np.all((np.array(ratios) > 3.4) & (np.array(ratios) < 4.4)), (errors, ratios)
+
+
+def test_a_point_inside_a_frustum_is_the_same_as_cutting_it():
+    """Cutting a frustum at a point gives two frusta with the diameter there (linear taper)."""
+    tree = tapered_tree()
+    x = 120e-6
+    d_mid = 2.5e-6 + (1.5e-6 - 2.5e-6) * x / 300e-6
+    cut = Tree(source="cut", labels=("f0", "f1a", "f1b", "f2", "f3"), parents=np.array([-1, 0, 1, 0, 2]),
+               lengths=np.array([200e-6, x, 300e-6 - x, 150e-6, 400e-6]),
+               proximal_diameters=np.array([4e-6, 2.5e-6, d_mid, 1e-6, 1.5e-6]),
+               distal_diameters=np.array([3e-6, d_mid, 1.5e-6, 2e-6, 0.4e-6]), types=np.full(5, 3),
+               lines=np.arange(1, 6), soma_area=tree.soma_area, geometry="frusta")
+    s = np.array([0.0, 30.0 + 100j, 2j * math.pi * 300])
+    a = transfer_impedance(PassiveTree(tree, RM, RI, CM), s, Site(1, x), [Site(3, 400e-6)])
+    b = transfer_impedance(PassiveTree(cut, RM, RI, CM), s, Site(1, x), [Site(4, 400e-6)])
+    np.testing.assert_allclose(a, b, rtol=1e-11)

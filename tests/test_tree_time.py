@@ -169,6 +169,21 @@ def test_error_estimates_hold_against_mpmath(stimulus, at, record):
     assert mine.error_bound <= 1e-10 * mine.reference_voltage
 
 
+@pytest.mark.parametrize("tolerance", [1e-6, 1e-13])
+@pytest.mark.parametrize("stimulus", [case.CurrentStep(0.1 * NA), case.AlphaCurrent(0.1 * NA, 0.05e-3)],
+                         ids=["step", "fast alpha"])
+def test_error_estimates_hold_at_the_edges(stimulus, tolerance):
+    """Killed tips, times from 10 ns to 100 τm, the loosest and tightest tolerances: the estimate
+    still holds against the 30-digit reference [mpmath2023], and stays within the tolerance."""
+    cell = PassiveTree(demo(240.0, soma=20.0), RM, RI, CM, tips="killed")
+    t = np.array([1e-8, 1e-6, 2.0])
+    at, record = Site(3, 120e-6), Site(3, 120e-6)
+    mine = tree_response(cell, stimulus, t, at, [record], tolerance=tolerance)
+    ref = np.array([_mp_reference(cell, stimulus, at, record, tt) for tt in t])
+    assert np.all(np.abs(mine.voltage[:, 0] - ref) <= mine.errors[:, 0])
+    assert mine.error_bound <= tolerance * mine.reference_voltage
+
+
 def test_steady_state_is_the_exact_input_resistance():
     """A long step at a tip of an unreduced tree settles to I·R_in at that tip; at the root the
     final voltage is I times the tips-inward input resistance (Rall 1959 [Rall1959])."""
@@ -390,3 +405,48 @@ def test_the_documented_example_prints_what_the_page_says():
     finally:
         os.chdir(here)
     assert out.getvalue().splitlines() == printed.splitlines()
+
+
+# --------------------------------------------------------------------------------------
+# frusta
+# --------------------------------------------------------------------------------------
+def test_tapered_time_course_is_the_limit_of_cylinder_chains():
+    """The time course of a tree of frusta (narrowing and widening) at a tip and at the soma: chains
+    of k cylinders with midpoint diameters converge to it at second order in 1/k (the stepped
+    cable, common practice [CP]); the delays of the electrotonic map agree with mpmath's
+    derivative of the 40-digit Bessel recursion [mpmath2023]."""
+    n = 4
+    tree = Tree(source="tapered", labels=tuple(f"f{i}" for i in range(n)), parents=np.array([-1, 0, 0, 1]),
+                lengths=np.array([200.0, 300.0, 150.0, 400.0]) * UM,
+                proximal_diameters=np.array([4.0, 2.5, 1.0, 1.5]) * UM,
+                distal_diameters=np.array([3.0, 1.5, 2.0, 0.4]) * UM, types=np.full(n, 3),
+                lines=np.arange(1, n + 1), soma_area=math.pi * (15 * UM) ** 2, geometry="frusta")
+    cell = PassiveTree(tree, RM, RI, CM)
+    times = np.array([2e-4, 1e-3, 5e-3, 2e-2])
+    alpha = case.AlphaCurrent(0.05 * NA, 0.3e-3)
+    exact = tree_response(cell, alpha, times, Site(3, 400e-6), [Site(3, 400e-6), root_site()]).voltage
+    errors = []
+    for k in (16, 32, 64):
+        parents, lengths, diameters, last = [], [], [], {-1: -1}
+        for i in range(n):
+            parent = last[int(tree.parents[i])]
+            a, b = tree.proximal_diameters[i], tree.distal_diameters[i]
+            for j in range(k):
+                parents.append(parent)
+                lengths.append(tree.lengths[i] / k)
+                diameters.append(a + (b - a) * (j + 0.5) / k)
+                parent = len(parents) - 1
+            last[i] = parent
+        chain = PassiveTree(sections_tree(parents, lengths, diameters, 15e-6), RM, RI, CM)
+        tip = Site(len(parents) - 1, lengths[-1])
+        v = tree_response(chain, alpha, times, tip, [tip, root_site()]).voltage
+        errors.append(np.max(np.abs(v - exact)))
+    ratios = [a / b for a, b in itertools.pairwise(errors)]
+    assert all(3.5 < r < 4.5 for r in ratios), (errors, ratios)
+    m = electrotonic_map(cell)
+    with mpmath.workdps(40):  # central difference, step 1e-12 /s
+        z = lambda s: transfer_impedance_precise(cell, s, root_site(), Site(3, 400e-6), digits=40)  # noqa: E731
+        want = float((-mpmath.diff(z, 0, h=mpmath.mpf("1e-12")) / z(0)).real)
+    assert m.transfer_delay[4] == pytest.approx(want, rel=1e-9)
+    with pytest.raises(InputError, match="frusta"):
+        reduction_cost(cell, case.CurrentStep(NA), [1e-3])
