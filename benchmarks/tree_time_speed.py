@@ -103,6 +103,22 @@ def main() -> int:
     peak = tracemalloc.get_traced_memory()[1]
     tracemalloc.stop()
     final = result.reference_voltage
+    growth = []
+    for branches in (250, 500):  # memory and time against tree size (the same recipe, fewer branches)
+        small = PassiveTree(tree_from_sections(generate(branches)[0]), RM, RI, CM)
+        small_tips = np.flatnonzero(np.bincount(small.tree.parents[small.tree.parents >= 0],
+                                                minlength=len(small.tree)) == 0)
+        at = Site(int(small_tips[0]), float(small.tree.lengths[small_tips[0]]))
+        start = time.perf_counter()
+        tree_response(small, step, times, at, [root_site(), at], tolerance=TOLERANCE)
+        seconds = time.perf_counter() - start
+        tracemalloc.start()
+        tree_response(small, step, times, at, [root_site(), at], tolerance=TOLERANCE)
+        growth.append((branches, len(small.tree), seconds, tracemalloc.get_traced_memory()[1]))
+        tracemalloc.stop()
+    growth.append((BRANCHES, len(tree), exact_time, peak))
+    print("size: " + "; ".join(f"{b} branches ({n} cylinders) {t:.3f} s, {m / 2**20:.1f} MiB"
+                                for b, n, t, m in growth))
     print(f"exact (Laplace + hyperbolic contours): {exact_time:.3f} s (best of {RUNS}), peak memory "
           f"{peak / 2**20:.1f} MiB; estimated error {result.error_bound / final:.2g} of the final voltage "
           f"({final * 1e3:.4g} mV); {result.method}")

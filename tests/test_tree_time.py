@@ -184,6 +184,21 @@ def test_error_estimates_hold_at_the_edges(stimulus, tolerance):
     assert mine.error_bound <= tolerance * mine.reference_voltage
 
 
+def test_late_times_agree_with_the_slowest_modes():
+    """Two independent routes on an unreduced tree: after 10 ms the inverted step response at the
+    soma equals V∞(1 − Σ C_n e^{−t/τ_n}) over the six slowest modes seen there (Rall 1969
+    [Rall1969]; residues counted by bisection), within the inversion's own error estimate."""
+    cell = PassiveTree(demo(240.0, soma=20.0), RM, RI, CM)
+    modes = root_modes(cell, 6)
+    t = np.array([0.01, 0.02, 0.05, 0.1])
+    r = tree_response(cell, case.CurrentStep(0.1 * NA), t, root_site(), [root_site()])
+    assert r.steady_state is not None
+    v_inf = r.steady_state[0]
+    series = v_inf * (1 - (modes.coefficients * np.exp(-t[:, None] / modes.time_constants)).sum(axis=1))
+    assert np.all(np.abs(r.voltage[:, 0] - series) <= r.errors[:, 0])
+    assert np.all(np.diff(modes.time_constants) < 0)
+
+
 def test_steady_state_is_the_exact_input_resistance():
     """A long step at a tip of an unreduced tree settles to I·R_in at that tip; at the root the
     final voltage is I times the tips-inward input resistance (Rall 1959 [Rall1959])."""
