@@ -30,8 +30,8 @@ import tracemalloc
 import numpy as np
 
 from cabletheory import compartment
+from cabletheory.case import CurrentStep
 from cabletheory.morphology import Outline
-from cabletheory.transient import CurrentStep
 from cabletheory.tree import tree_from_outline
 from cabletheory.tree_laplace import PassiveTree, Site, root_site
 from cabletheory.tree_time import tree_response
@@ -105,7 +105,7 @@ def main() -> int:
     final = result.reference_voltage
     growth = []
     for branches in (250, 500):  # memory and time against tree size (the same recipe, fewer branches)
-        small = PassiveTree(tree_from_sections(generate(branches)[0]), RM, RI, CM)
+        small = PassiveTree(tree_from_outline(generate(branches)[0]), RM, RI, CM)
         small_tips = np.flatnonzero(np.bincount(small.tree.parents[small.tree.parents >= 0],
                                                 minlength=len(small.tree)) == 0)
         at = Site(int(small_tips[0]), float(small.tree.lengths[small_tips[0]]))

@@ -120,7 +120,8 @@ class PassiveTree:
     membrane_resistivity : Rm, Ω·m², one value or one per piece
     axial_resistivity : Ri, Ω·m (uniform)
     membrane_capacitance : Cm, F/m², one value or one per piece
-    tips : "sealed", "killed", or a conductance to rest in S (one value for every tip, or an
+    tips : None (default): each tip as the tree says (``Tree.ends``, sealed unless stated);
+        or "sealed", "killed", or a conductance to rest in S (one value for every tip, or an
         array with one value per piece of which only the tips' are used; inf = killed)
     soma_membrane_resistivity, soma_membrane_capacitance : the soma's Rm and Cm; default the
         dendrites' (which must then be one value)
@@ -130,7 +131,7 @@ class PassiveTree:
     membrane_resistivity: float | Array
     axial_resistivity: float
     membrane_capacitance: float | Array
-    tips: str | float | Array = "sealed"
+    tips: str | float | Array | None = None
     soma_membrane_resistivity: float | None = None
     soma_membrane_capacitance: float | None = None
 
@@ -151,6 +152,8 @@ class PassiveTree:
         """Conductance (S) from each piece's distal node to rest: 0 sealed, inf killed (tips only)."""
         n = len(self.tree)
         tip = _tips(self.tree.parents)
+        if self.tips is None:
+            return np.where(tip, self.tree.tip_conductances(), 0.0)
         if isinstance(self.tips, str):
             word = end_from_word(self.tips)
             if word is None:

@@ -46,7 +46,7 @@ from __future__ import annotations
 import functools
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -62,7 +62,6 @@ from .tree_laplace import (
     _path,
     _Solution,
     _solve,
-    _tips,
     _transfer,
     node_sites,
     root_modes,
@@ -535,7 +534,8 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     r"""Compare the root's response of a tree with that of its Rall reduction, in time.
 
     The reduction is the equivalent cylinder of :func:`cabletheory.tree.analyse_tree` (same
-    membrane area, trunk diameter :math:`(\sum d_{stem}^{3/2})^{2/3}`, the same tip condition),
+    membrane area, trunk diameter :math:`(\sum d_{stem}^{3/2})^{2/3}`, a far end that leaks what
+    the tips leak together),
     with the soma when the tree has one; its response comes from the exact series of
     :func:`cabletheory.transient.charge`. The stimulus is applied at the root of both (input
     at one dendritic site has no counterpart on the cylinder). τ0, τ1 and C1/C0 of the tree
@@ -557,10 +557,6 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     cm = np.asarray(cell.membrane_capacitance, dtype=float).ravel()
     if rm.size != 1 or cm.size != 1:
         raise InputError("the reduction needs one membrane resistivity and capacitance for the whole tree")
-    ends = np.unique(cell.tip_conductances()[_tips(tree.parents)])
-    if ends.size != 1 or ends[0] not in (0.0, math.inf):
-        raise InputError("the reduction needs every tip sealed or every tip killed")
-    killed = bool(ends[0] == math.inf)
     if tree.soma_area is not None:
         g_s, tau_s = cell.soma_constants()
         if not math.isclose(tau_s, float(rm[0] * cm[0]), rel_tol=1e-12) or not math.isclose(
@@ -571,10 +567,13 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     if np.any(np.abs(tree.distal_diameters - tree.proximal_diameters) > 3e-7 * tree.distal_diameters):
         raise InputError("the cost of reduction needs the tree's time constants, which are not computed yet for "
                          "tapered pieces (frusta); read the tree with cylinders")
-    report = analyse_tree(tree, float(rm[0]), float(cell.axial_resistivity), float(cm[0]), killed_tips=killed)
+    # the tips as this cell has them; the cylinder's far end leaks what the tips leak together
+    report = analyse_tree(replace(tree, ends=cell.tip_conductances()), float(rm[0]), float(cell.axial_resistivity),
+                          float(cm[0]))
     eq = report.equivalent_cylinder
+    end = report.end_conductance_ratio / eq.semi_infinite_input_resistance
     cylinder = Cylinder(float(rm[0]), float(cell.axial_resistivity), float(cm[0]), eq.diameter, eq.length,
-                        math.inf if killed else 0.0)
+                        math.inf if math.isinf(report.end_conductance_ratio) else end)
     model: Cylinder | BallAndStick = cylinder
     name = "equivalent cylinder"
     if tree.soma_area is not None:
