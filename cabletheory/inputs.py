@@ -145,3 +145,23 @@ def read_rest(text: str, label: str = "--rest") -> float | str:
     if text.strip().lower() == "first":
         return "first"
     return parse_quantity(text, "voltage", label, allow_zero=True, allow_negative=True)
+
+
+def read_column_positions(text: str, label: str = "--column-at") -> float | dict[str, float]:
+    """Where a recording's voltage columns were recorded: one position for a file's single voltage
+    column ('250 um'), or column names mapped to positions ('v_soma=0 um, v_tip=500 um'; names in
+    any case; bare numbers in µm)."""
+    if "=" not in text:
+        return parse_quantity(text, "length", label, allow_zero=True, allow_negative=True)
+    mapping: dict[str, float] = {}
+    for item in text.split(","):
+        column, sep, position = item.partition("=")
+        column = column.strip().lower()
+        if not sep or not column:
+            raise InputError(f"{label}: {item.strip()!r} is not NAME=POSITION; expected e.g. 'v_soma=0 um, "
+                             "v_tip=500 um'")
+        if column in mapping:
+            raise InputError(f"{label}: column {column!r} is given twice")
+        mapping[column] = parse_quantity(position, "length", f"{label} {column}", allow_zero=True,
+                                         allow_negative=True)
+    return mapping

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import math
 
 import numpy as np
 
@@ -45,6 +46,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     check.add_argument("--pass-within", default="1%", metavar="ERR",
                        help="largest acceptable error: a voltage such as '10 uV' or a percentage of the peak "
                             "exact voltage such as '1%%' (default 1%%)")
+    check.add_argument("--skip-onset-sample", action="store_true",
+                       help="leave out the samples recorded exactly at the onset (simulators differ on whether "
+                            "that sample already includes the stimulus)")
     check.add_argument("--dx", metavar="LIST", help="segment length of each run, e.g. '50, 25, 12.5 um' "
                                                    "(or '# dx = 25 um' in each file)")
     check.add_argument("--dt", metavar="LIST", help="time step of each run, e.g. '0.1, 0.05 ms' "
@@ -71,7 +75,7 @@ def run(args: argparse.Namespace) -> int:
     recordings = [read_run(path, args) for path in args.runs]
     for recording in recordings:
         check_recorded_positions(cell_case, recording)
-    results = [compare(r, case, tolerance, relative=relative) for r in recordings]
+    results = [compare(r, case, tolerance, relative=relative, skip_onset=args.skip_onset_sample) for r in recordings]
     order: Convergence | None = None
     if len(recordings) > 1:
         file_dx, file_dt = run_spacings(recordings, parser_for_quantities)
@@ -104,8 +108,8 @@ def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparis
             "time_offset": quantity(r.time_offset, "time"),
             "max_abs_error": quantity(c.max_abs_error, "voltage"),
             "rms_abs_error": quantity(c.rms_abs_error, "voltage"),
-            "max_rel_error": c.max_rel_error,
-            "rms_rel_error": c.rms_rel_error,
+            "max_rel_error": c.max_rel_error if math.isfinite(c.max_rel_error) else None,
+            "rms_rel_error": c.rms_rel_error if math.isfinite(c.rms_rel_error) else None,
             "peak_exact_voltage": quantity(c.scale, "voltage"),
             "worst": {"time": quantity(c.worst_time, "time"), "position": quantity(c.worst_position, "length"),
                       "line": c.worst_line, "simulated": quantity(c.worst_simulated, "voltage"),
@@ -115,6 +119,7 @@ def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparis
             "pass_within": c.tolerance if c.relative else quantity(c.tolerance, "voltage"),
             "pass_within_is_relative": c.relative,
             "passed": c.passed,
+            "hints": list(c.hints),
             "exact_error_bound": quantity(c.reference_bound, "voltage"),
         })
     parameters, stimulus = split_stimulus(case.parameters, case.stimulus_shape)
@@ -171,7 +176,8 @@ def as_text(case: ExactCase, recordings: list[Recording], results: list[Comparis
         if r.resting_potential or r.time_offset:
             lines.append(f"  subtracted: resting potential {_v(r.resting_potential)}, "
                          f"onset {format_quantity(r.time_offset, 'time')}")
-        pct = (f"{c.max_rel_error * 100:.3g} %", f"{c.rms_rel_error * 100:.3g} %")
+        pct = tuple(f"{value * 100:.3g} %" if math.isfinite(value) else "n/a (the exact voltage is 0 at every sample)"
+                    for value in (c.max_rel_error, c.rms_rel_error))
         lines += [
             f"  max error  {_v(c.max_abs_error)} at {_x(c.worst_position)}, {_when(c.worst_time, r.time_offset)}"
             f"line {c.worst_line}: simulated "
@@ -182,6 +188,7 @@ def as_text(case: ExactCase, recordings: list[Recording], results: list[Comparis
         ]
         limit = f"{c.tolerance * 100:.3g} % of the peak" if c.relative else _v(c.tolerance)
         lines.append(f"  verdict    {'PASS' if c.passed else 'FAIL'} (pass within {limit})")
+        lines += [f"  hint       {hint}" for hint in c.hints]
     if order is not None:
         lines += ["", f"Observed order of convergence ({order.scheme}):"]
         for e in order.estimates:

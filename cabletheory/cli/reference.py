@@ -11,7 +11,7 @@ import numpy as np
 from .. import PASSIVE_CAVEAT
 from ..case import Case, CaseFieldError
 from ..errors import InputError
-from ..inputs import read_rest
+from ..inputs import read_column_positions, read_rest
 from ..output import write_atomically
 from ..textfile import read_input_text
 from ..units import format_quantity, parse_quantity, parse_series
@@ -57,8 +57,7 @@ def read_run(path: str, args: argparse.Namespace) -> Recording:
     rest: float | str = read_rest(args.rest, "--rest") if getattr(args, "rest", None) else 0.0
     onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) \
         if getattr(args, "onset", None) else 0.0
-    site = (parse_quantity(args.column_at, "length", "--column-at", allow_zero=True, allow_negative=True)
-            if getattr(args, "column_at", None) else None)
+    site = read_column_positions(args.column_at) if getattr(args, "column_at", None) else None
     return read_recording(text, path, parser_for_quantities, time_unit=args.time_unit,
                           position_unit=args.position_unit, voltage_unit=args.voltage_unit,
                           resting_potential=rest, time_offset=onset, site=site,
@@ -75,8 +74,10 @@ def add_layout_options(parser: argparse.ArgumentParser) -> None:
                        help="resting potential to subtract, e.g. '-65 mV', or 'first' to use each site's "
                             "first sample (default 0: the file already holds deviations from rest)")
     group.add_argument("--onset", metavar="T", help="stimulus onset in the file's clock (default 0)")
-    group.add_argument("--column-at", metavar="X", help="position of the only voltage column of a wide table "
-                                                        "whose header does not say it")
+    group.add_argument("--column-at", metavar="X",
+                       help="where the voltage columns were recorded when the header does not say it: one "
+                            "position for a single column ('250 um'), or names mapped to positions "
+                            "('v_soma=0 um, v_tip=500 um')")
 
 
 def on_file_clock(table: ReferenceTable, since_onset: np.ndarray, onset: float) -> ReferenceTable:

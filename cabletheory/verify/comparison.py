@@ -87,9 +87,12 @@ class Comparison:
     site_max_abs_error: Array  # V, worst error at each site
     exact: Array  # V, the exact voltage at every sample (0 before the onset)
     errors: Array  # V, simulated − exact at every sample
+    used: NDArray[np.bool_] | None = None  # the samples counted in the figures (None: all)
+    hints: tuple[str, ...] = ()  # what looks wrong about the file's units, rest or onset, and what to try
 
 
-def compare(recording: Recording, exact: ExactCase, tolerance: float, *, relative: bool = False) -> Comparison:
+def compare(recording: Recording, exact: ExactCase, tolerance: float, *, relative: bool = False,
+            skip_onset: bool = False) -> Comparison:
     """Compare a recording with the exact solution at exactly its recorded points.
 
     Parameters
@@ -98,9 +101,13 @@ def compare(recording: Recording, exact: ExactCase, tolerance: float, *, relativ
     exact : the exact case (same parameters and stimulus as the simulation)
     tolerance : largest acceptable error, V (``relative=False``) or a fraction of the
         largest exact voltage (``relative=True``)
+    skip_onset : leave the samples recorded exactly at the onset (t = 0) out of every figure:
+        simulators differ on whether the sample at the switch already includes the stimulus
 
     The verdict passes when the maximum error is within the tolerance. Samples before the
-    stimulus onset (negative time) are compared with rest (0 V).
+    stimulus onset (negative time) are compared with rest (0 V). The result's ``hints`` say what
+    looks wrong when the figures suggest a unit, resting-potential or onset mistake
+    (:func:`diagnose`).
     """
     if not (math.isfinite(tolerance) and tolerance > 0):
         raise InputError(f"tolerance must be positive, got {tolerance!r}")
@@ -122,22 +129,64 @@ def compare(recording: Recording, exact: ExactCase, tolerance: float, *, relativ
     if np.any(after):
         v_exact[after], bound[after] = exact.evaluate(recording.times[after], positions[after])
     err = recording.voltage - v_exact
-    k = int(np.argmax(np.abs(err)))
+    used = ~(recording.times == 0) if skip_onset else np.ones(err.size, dtype=bool)
+    if not used.any():
+        raise InputError(f"{recording.name}: every sample is at the onset; nothing is left to compare")
+    counted = np.where(used, np.abs(err), -1.0)
+    k = int(np.argmax(counted))
     max_abs = float(abs(err[k]))
-    rms_abs = float(np.sqrt(np.mean(err**2)))
-    scale = float(np.max(np.abs(v_exact)))
+    rms_abs = float(np.sqrt(np.mean(err[used] ** 2)))
+    scale = float(np.max(np.abs(v_exact[used])))
     max_rel = max_abs / scale if scale > 0 else math.inf
     rms_rel = rms_abs / scale if scale > 0 else math.inf
     sites = np.unique(recording.positions)
-    site_err = np.array([np.max(np.abs(err[recording.positions == s])) for s in sites])
+    site_err = np.array([np.max(counted[recording.positions == s], initial=0.0) for s in sites])
     passed = (max_rel if relative else max_abs) <= tolerance
-    return Comparison(name=recording.name, samples=int(err.size), max_abs_error=max_abs, rms_abs_error=rms_abs,
+    hints = diagnose(recording, v_exact, err, used)
+    return Comparison(name=recording.name, samples=int(used.sum()), max_abs_error=max_abs, rms_abs_error=rms_abs,
                       max_rel_error=max_rel, rms_rel_error=rms_rel, scale=scale,
                       worst_time=float(recording.times[k]), worst_position=float(recording.positions[k]),
                       worst_line=int(recording.lines[k]), worst_simulated=float(recording.voltage[k]),
                       worst_exact=float(v_exact[k]), tolerance=float(tolerance), relative=relative,
                       passed=bool(passed), reference_bound=float(np.max(bound)) if bound.size else 0.0,
-                      sites=sites, site_max_abs_error=site_err, exact=v_exact, errors=err)
+                      sites=sites, site_max_abs_error=site_err, exact=v_exact, errors=err,
+                      used=None if used.all() else used, hints=hints)
+
+
+def diagnose(recording: Recording, exact: Array, errors: Array, used: NDArray[np.bool_]) -> tuple[str, ...]:
+    """What looks wrong when a recording is far from the exact solution, and what to try.
+
+    The rules, each checked on the samples counted: (1) no exact voltage above 0, yet the file
+    records a response (the onset is probably later than the file's clock says); (2) the samples
+    before the onset sit far from 0 (the resting potential was probably not subtracted); (3) the
+    worst error exceeds half the largest exact voltage while a unit was assumed rather than read
+    from the file (the file is probably in other units, e.g. SI); (4) the simulated and exact
+    peaks differ by a factor near 1000 (a unit prefix mix-up). Each hint names the option to use.
+    """
+    hints: list[str] = []
+    v, t = recording.voltage[used], recording.times[used]
+    peak_exact = float(np.max(np.abs(exact[used]), initial=0.0))
+    peak_file = float(np.max(np.abs(v), initial=0.0))
+    if peak_exact == 0 and peak_file > 0:
+        hints.append("the exact voltage is 0 at every sample (all at or before the onset?): check --onset, the "
+                     "stimulus onset on the file's own clock")
+    before = v[t < 0]
+    if before.size and abs(float(np.median(before))) > max(1e-3, 0.5 * peak_exact):
+        hints.append(f"the samples before the onset sit at {float(np.median(before)) * 1e3:.4g} mV, not at rest: "
+                     "give --rest (the resting potential, or 'first')")
+    worst = float(np.max(np.abs(errors[used]), initial=0.0))
+    if recording.assumed and peak_exact > 0 and worst > 0.5 * peak_exact:
+        assumed = ", ".join(f"{k} in {recording.units[k]}" for k in recording.assumed)
+        hints.append(f"the file declares no unit for {', '.join(recording.assumed)} (read as {assumed}); if it "
+                     "holds other units, put them in the header ('time (s)') or give --time-unit, --voltage-unit "
+                     "or --position-unit")
+    if peak_exact > 0 and peak_file > 0:
+        ratio = peak_file / peak_exact
+        for factor, word in ((1e3, "1000 times larger"), (1e-3, "1000 times smaller")):
+            if 0.5 * factor < ratio < 2 * factor:
+                hints.append(f"the file's peak is about {word} than the exact one: a unit prefix (V against mV, "
+                             "s against ms) looks mixed up")
+    return tuple(hints)
 
 
 # ======================================================================================

@@ -47,6 +47,7 @@ _VOLTAGE_NAMES = {"voltage", "v", "vm", "v_m", "membrane potential", "potential"
 _CELL = re.compile(r"^\s*(?P<name>.*?)\s*(?:[\(\[]\s*(?P<unit>[^\)\]]*?)\s*[\)\]])?\s*$")
 _SITE = re.compile(r"^(?:(?:v|vm|voltage)\s*(?:at|@)\s*|(?:x|site)\s*=\s*|@\s*)?"
                    r"(?P<pos>[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?\s*[A-Za-zµμ]*)$", re.IGNORECASE)
+_UNIT_SUFFIXES = {"s", "ms", "us", "µs", "m", "mm", "um", "µm", "V", "mV", "uV", "µV"}  # in 'time_s' and alike
 _META = re.compile(r"^#\s*(?P<key>[^=:]+?)\s*[=:]\s*(?P<value>.*?)\s*$")
 
 
@@ -174,11 +175,27 @@ def _number(name: str, header: list[str], line: int, cells: list[str], col: int)
     return value
 
 
+def _all_numbers(cells: Sequence[str]) -> bool:
+    try:
+        for cell in cells:
+            float(cell)
+    except ValueError:
+        return False
+    return bool(cells)
+
+
 def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: str | None = None,
                    position_unit: str | None = None, voltage_unit: str | None = None,
                    resting_potential: float | str = 0.0, time_offset: float = 0.0,
-                   site: float | None = None, allow_negative_positions: bool = False) -> Recording:
+                   site: float | Mapping[str, float] | None = None,
+                   allow_negative_positions: bool = False) -> Recording:
     """Read a simulator's CSV (or tab-separated) output (long or wide layout, see docs/verify.md).
+
+    Besides headers of the form ``time (ms)``, a column may be named with an SI unit after an
+    underscore as the package writes them (``time_s``, ``position_m``, ``voltage_V``: the long
+    rows of ``charge --csv``), and a file may have no header at all: two columns are read as time
+    and voltage (the site given by ``site``), three as time, position and voltage, in the units of
+    the options or the customary ms, µm and mV (reported as assumed).
 
     Parameters
     ----------
@@ -191,7 +208,9 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
         site, the value recorded at its first time (which must be at or before the onset)
     time_offset : s to subtract from every time (the stimulus onset in the file's clock)
     site : position (m) of the only site when a wide table has a single voltage column named
-        like "voltage (mV)" rather than by its position
+        like "voltage (mV)" rather than by its position; or a mapping from column names (as in the
+        header, any case) to positions (m), for wide tables whose columns are named freely
+        (``t, v_soma, v_tip``)
     allow_negative_positions : accept positions below 0 (an infinite cable, recorded on both
         sides of its input); otherwise a negative position is an error
 
@@ -200,10 +219,23 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
     FileFormatError : naming the file, line and column of the first problem
     """
     header, header_line, rows, metadata = _table(text, name)
+    if _all_numbers(header):  # no header: the first line is data
+        rows.insert(0, (header_line, header))
+        if len(header) not in (2, 3):
+            raise FileFormatError(f"{name}, line {header_line}: no header and {len(header)} columns; a file "
+                                  "without a header has 2 columns (time, voltage) or 3 (time, position, voltage)")
+        header = ["time", "voltage"] if len(header) == 2 else ["time", "position", "voltage"]
 
     parsed = [_CELL.match(cell) for cell in header]
     names = [(m.group("name") if m else cell).strip().lower() for m, cell in zip(parsed, header, strict=True)]
     units = [(m.group("unit") or None) if m else None for m in parsed]
+    given_names = list(names)  # as written (lower case, without a bracketed unit): what --column-at maps
+    for i, label in enumerate(names):  # 'time_s', 'position_m', 'voltage_V': an SI unit after an underscore
+        stem, _, suffix = header[i].strip().rpartition("_")
+        if units[i] is None and label not in _TIME_NAMES | _POSITION_NAMES | _VOLTAGE_NAMES and (
+                suffix in _UNIT_SUFFIXES and stem.lower() in _TIME_NAMES | _POSITION_NAMES | _VOLTAGE_NAMES):
+            names[i] = stem.lower()
+            units[i] = suffix
     time_cols = [i for i, n in enumerate(names) if n in _TIME_NAMES]
     pos_cols = [i for i, n in enumerate(names) if n in _POSITION_NAMES]
     volt_cols = [i for i, n in enumerate(names) if n in _VOLTAGE_NAMES]
@@ -268,7 +300,10 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
         for col in site_cols:
             where = _where(name, header_line, col + 1, header[col])
             label = names[col]
-            if label in _VOLTAGE_NAMES:
+            mapped = site.get(given_names[col]) if isinstance(site, Mapping) else None
+            if mapped is not None:
+                position = float(mapped)
+            elif label in _VOLTAGE_NAMES and not isinstance(site, Mapping):
                 if site is None or len(site_cols) != 1:
                     raise FileFormatError(f"{where}: column does not say where it was recorded; name it by "
                                           "its position ('V at 250 um (mV)') or give --column-at")
@@ -277,7 +312,8 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
                 m = _SITE.match(label)
                 if not m:
                     raise FileFormatError(f"{where}: not a recording site; expected a position such as "
-                                          "'V at 250 um (mV)' or '250 um'")
+                                          "'V at 250 um (mV)' or '250 um', or map the name to a position with "
+                                          f"--column-at '{header[col].strip()}=250 um'")
                 pos_text = m.group("pos").strip()
                 if re.search(r"[A-Za-zµμ]", pos_text):
                     position = parse(pos_text, "length", where)
@@ -295,6 +331,12 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
             v_assumed = v_assumed or assumed_here
             positions.append(position)
             v_factors.append(factor)
+        if isinstance(site, Mapping):
+            unknown = sorted(set(site) - {given_names[col] for col in site_cols})
+            if unknown:
+                columns = ", ".join(header[c].strip() for c in site_cols)
+                raise FileFormatError(f"{name}, line {header_line}: no voltage column named {unknown[0]!r} "
+                                      f"(--column-at); the columns are {columns}")
         if len(set(positions)) != len(positions):
             raise FileFormatError(f"{name}, line {header_line}: two columns record the same position")
         assumed += [k for k, a in (("position", x_assumed), ("voltage", v_assumed)) if a]
