@@ -334,9 +334,9 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
         if isinstance(site, Mapping):
             unknown = sorted(set(site) - {given_names[col] for col in site_cols})
             if unknown:
-                columns = ", ".join(header[c].strip() for c in site_cols)
+                listed = ", ".join(header[c].strip() for c in site_cols)
                 raise FileFormatError(f"{name}, line {header_line}: no voltage column named {unknown[0]!r} "
-                                      f"(--column-at); the columns are {columns}")
+                                      f"(--column-at); the columns are {listed}")
         if len(set(positions)) != len(positions):
             raise FileFormatError(f"{name}, line {header_line}: two columns record the same position")
         assumed += [k for k, a in (("position", x_assumed), ("voltage", v_assumed)) if a]
