@@ -41,10 +41,11 @@ vanishes there, and its residue follows from the root admittance's slope.
 **Frusta** (tapered pieces) use the exact two-port of the tapered cable equation, modified Bessel
 functions of order 1 and 2 (:func:`cabletheory.tree.frustum_transfer`) with every argument
 multiplied by q, in exponentially scaled form; the general two-port formulas
-:math:`Y_{in} = (T_{21} + T_{22}Y_L)/(T_{11} + T_{12}Y_L)` replace the symmetric ones there. The
-time constants of trees with frusta are not counted (the count needs the rates of each frustum
-held at rest at both ends, which have no closed form) and are refused. The model is passive,
-linear and uniform within each piece (:data:`cabletheory.PASSIVE_CAVEAT`).
+:math:`Y_{in} = (T_{21} + T_{22}Y_L)/(T_{11} + T_{12}Y_L)` replace the symmetric ones there. For
+counting, a frustum's own rates with both ends at rest have no closed form, so frusta are first
+cut short enough that none of them has such a rate below the largest rate counted (a Rayleigh
+bound, :math:`\mu_1 \ge d_{min}^2\pi^2/(c\,d_{max}\ell^2)`); cutting a frustum changes nothing else.
+The model is passive, linear and uniform within each piece (:data:`cabletheory.PASSIVE_CAVEAT`).
 
 References
 ----------
@@ -70,7 +71,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from .cable import length_constant, semi_infinite_input_conductance
 from .case import end_from_word
-from .errors import InputError
+from .errors import ConvergenceError, InputError
 from .tree import Tree
 
 __all__ = [
@@ -538,6 +539,8 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
         if pivots:
             piv = load.copy()
             piv[1:] += gq / th  # the piece's own end stiffness G∞q·coth u
+            if net.tapered.size:  # a frustum's: T11/T12 (current into the distal end, proximal end at rest)
+                piv[net.tapered + 1] += t11 / t12 - (gq / th)[net.tapered]
             piv[1:][killed] = np.inf
     return _Solution(y_in=y_in, total=total, down=down, up=up, pivots=piv)
 
@@ -625,17 +628,49 @@ def transfer_impedance(cell: PassiveTree, s: ArrayLike, source: Site | None, rec
 # --------------------------------------------------------------------------------------
 def _count(net: _Network, rates: Array) -> IntArray:
     """Number of decay rates of the tree (1/s) strictly below each of ``rates`` (Wittrick-Williams)."""
-    if net.tapered.size:
-        raise InputError("the time constants of a tree with tapered pieces (frusta) are not computed yet; read "
-                         "the tree with cylinders for them")
     rates = np.asarray(rates, dtype=float)
     sol = _solve(net, -rates.astype(complex), pivots=True)
     assert sol.pivots is not None
     piv = sol.pivots
     negative = (np.isfinite(piv) & (piv.real < 0)).sum(axis=0)
     k = np.sqrt(np.maximum(net.tau[:, None] * rates[None, :] - 1.0, 0.0))
-    held = np.floor(net.electrotonic[:, None] * k / math.pi - 1e-15).clip(min=0).sum(axis=0)
-    return (negative + held).astype(np.int64)
+    held = np.floor(net.electrotonic[:, None] * k / math.pi - 1e-15).clip(min=0)
+    if net.tapered.size:
+        # frusta are cut short enough (_short_frusta) that none has a held rate below these rates
+        if np.any(np.max(rates) * net.tau[net.tapered] - 1.0 >= _held_floor(net)):
+            raise ConvergenceError("a frustum is too long for the rates counted; cut it shorter")
+        held[net.tapered] = 0.0
+    return (negative + held.sum(axis=0)).astype(np.int64)
+
+
+def _held_floor(net: _Network) -> Array:
+    r"""Lower bound of μ = λτ − 1 for each frustum's first rate with both ends at rest.
+
+    With both ends at rest, :math:`-(d^2V')' = \mu\,c\,d\,V` (:math:`c = 4R_i/R_m`); the Rayleigh
+    quotient gives :math:`\mu_1 \ge d_{min}^2\pi^2/(c\,d_{max}\ell^2)` [CP].
+    """
+    lo, hi = np.minimum(net.proximal, net.distal), np.maximum(net.proximal, net.distal)
+    c = 4.0 * net.axial_resistivity / net.membrane_resistivity
+    return lo**2 * math.pi**2 / (c * hi * net.lengths**2)
+
+
+def _short_frusta(cell: PassiveTree, rate: float) -> list[Site]:
+    """Cuts that leave no frustum with a rate held at both ends below ``rate`` (1/s)."""
+    tree = cell.tree
+    n = len(tree)
+    d0, d1 = np.asarray(tree.proximal_diameters), np.asarray(tree.distal_diameters)
+    ell = np.asarray(tree.lengths, dtype=float)
+    rm = _per_piece(cell.membrane_resistivity, n, "membrane_resistivity")
+    mu = np.maximum(rate * cell.time_constants - 1.0, 0.0)
+    c = 4.0 * float(cell.axial_resistivity) / rm
+    # pieces m with (ℓ/m)² < d_min²π²/(c d_max μ), with 10 % to spare
+    need = np.ceil(1.1 * ell * np.sqrt(mu * c * np.maximum(d0, d1)) / (math.pi * np.minimum(d0, d1)))
+    tapered = np.abs(d1 - d0) > _TAPER_THRESHOLD * 0.5 * (d0 + d1)
+    sites = []
+    for i in np.flatnonzero(tapered & (need > 1)).tolist():
+        m = int(need[i])
+        sites += [Site(i, ell[i] * k / m) for k in range(1, m)]
+    return sites
 
 
 def eigenvalue_count(cell: PassiveTree, rates: ArrayLike) -> IntArray:
@@ -648,7 +683,7 @@ def eigenvalue_count(cell: PassiveTree, rates: ArrayLike) -> IntArray:
     r = np.atleast_1d(np.asarray(rates, dtype=float))
     if not (np.all(np.isfinite(r)) and np.all(r >= 0)):
         raise InputError("rates must be finite and >= 0 (1/s)")
-    return _count(_network(cell, []), r)
+    return _count(_network(cell, _short_frusta(cell, float(r.max(initial=0.0)))), r)
 
 
 @dataclass(frozen=True, slots=True)
@@ -698,7 +733,10 @@ def _classified(net: _Network, modes: int, high: float, z0: float, tau_max: floa
             distinct.append(r)
             mult.append(1)
     rate = np.asarray(distinct)
-    step = 1e-20 * np.maximum(rate, 1.0 / tau_max)
+    # a complex step: exact for numpy's elementary functions at any size; the Bessel functions of a
+    # frustum near the imaginary axis keep only absolute accuracy in their imaginary part, so there
+    # the step is 1e-7 (its O(step²) error is below 1e-13)
+    step = (1e-7 if net.tapered.size else 1e-20) * np.maximum(rate, 1.0 / tau_max)
     y = _solve(net, -rate + 1j * step).total[0]
     # at a visible rate Y vanishes (to the bisection's precision); at a hidden one a branch's
     # admittance has a pole there, so |Y| is huge: the steady conductance separates the two
@@ -729,20 +767,24 @@ def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeM
     """
     if not (isinstance(count, int) and count >= 1):
         raise InputError(f"count must be a whole number >= 1, got {count!r}")
-    net = _network(cell, [])
-    tau_max = max(float(net.tau.max()), net.soma_tau)
+    tau_max = max(float(cell.time_constants.max()), cell.soma_constants()[1])
     z0 = float(transfer_impedance(cell, [0.0], None, [root_site()])[0, 0].real)
     high = 2.0 / tau_max
-    total = int(_count(net, np.array([high]))[0])
+
+    def counted(rate: float) -> tuple[_Network, int]:
+        net = _network(cell, _short_frusta(cell, rate))
+        return net, int(_count(net, np.array([rate]))[0])
+
+    net, total = counted(high)
     while total < min(search, 4 * count + 8) and high < 1e30:
         high *= 2.0
-        total = int(_count(net, np.array([high]))[0])
+        net, total = counted(high)
     while True:
         rate, mult, visible, slope = _classified(net, min(total, search), high, z0, tau_max)
         if int(visible.sum()) >= count or total >= search or high >= 1e30:
             break
         high *= 2.0
-        total = int(_count(net, np.array([high]))[0])
+        net, total = counted(high)
     taus = 1.0 / rate
     vis = np.flatnonzero(visible)[:count]
     residues = 1.0 / slope[vis]

@@ -564,9 +564,6 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
             raise InputError("the reduction needs the soma's membrane to be the dendrites'")
     if isinstance(stimulus, VoltageStep):
         raise InputError("the cost of reduction is computed for current stimuli at the root")
-    if np.any(np.abs(tree.distal_diameters - tree.proximal_diameters) > 3e-7 * tree.distal_diameters):
-        raise InputError("the cost of reduction needs the tree's time constants, which are not computed yet for "
-                         "tapered pieces (frusta); read the tree with cylinders")
     # the tips as this cell has them; the cylinder's far end leaks what the tips leak together
     report = analyse_tree(replace(tree, ends=cell.tip_conductances()), float(rm[0]), float(cell.axial_resistivity),
                           float(cm[0]))

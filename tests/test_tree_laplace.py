@@ -281,8 +281,6 @@ def test_bad_input_is_refused_in_one_line():
     tree = demo()
     with pytest.raises(InputError, match="tips must be"):
         PassiveTree(tree, RM, RI, CM, tips="open")
-    with pytest.raises(InputError, match="frusta"):
-        root_modes(PassiveTree(tapered_tree(), RM, RI, CM), 2)
     cell = PassiveTree(tree, RM, RI, CM)
     with pytest.raises(InputError, match="outside piece"):
         input_impedance(cell, [0.0], [Site(0, 1.0)])
@@ -418,3 +416,35 @@ def test_a_point_inside_a_frustum_is_the_same_as_cutting_it():
     a = transfer_impedance(PassiveTree(tree, RM, RI, CM), s, Site(1, x), [Site(3, 400e-6)])
     b = transfer_impedance(PassiveTree(cut, RM, RI, CM), s, Site(1, x), [Site(4, 400e-6)])
     np.testing.assert_allclose(a, b, rtol=1e-11)
+
+
+def test_frusta_modes():
+    """Time constants and step coefficients of a tree of frusta: each rate is a pole of the root
+    impedance of the 30-digit mpmath Bessel recursion [mpmath2023] (|Y| vanishes there), and chains
+    of k cylinders with midpoint diameters converge to the rates and coefficients at second order
+    (the stepped cable [CP]); the count rises by one across each rate."""
+    tree = tapered_tree()
+    cell = PassiveTree(tree, RM, RI, CM)
+    modes = root_modes(cell, 3)
+    assert modes.time_constants[0] == pytest.approx(TAU, rel=1e-12)
+    y0 = abs(1 / transfer_impedance_precise(cell, 0.0, None, root_site(), digits=30))
+    for tau in modes.time_constants[1:]:
+        assert abs(1 / transfer_impedance_precise(cell, -1 / tau, None, root_site(), digits=30)) < 1e-11 * y0
+        assert eigenvalue_count(cell, [0.999 / tau])[0] + 1 == eigenvalue_count(cell, [1.001 / tau])[0]
+    errors = []
+    for k in (8, 16, 32):
+        parents, lengths, diameters, last = [], [], [], {-1: -1}
+        for i in range(len(tree)):
+            parent = last[int(tree.parents[i])]
+            a, b = tree.proximal_diameters[i], tree.distal_diameters[i]
+            for j in range(k):
+                parents.append(parent)
+                lengths.append(tree.lengths[i] / k)
+                diameters.append(a + (b - a) * (j + 0.5) / k)
+                parent = len(parents) - 1
+            last[i] = parent
+        chain = root_modes(PassiveTree(sections_tree(parents, lengths, diameters, 15e-6), RM, RI, CM), 3)
+        errors.append(np.concatenate((chain.time_constants / modes.time_constants - 1,
+                                      chain.coefficients / modes.coefficients - 1))[[1, 2, 4, 5]])
+    ratios = np.abs(errors[0] / errors[1]), np.abs(errors[1] / errors[2])
+    assert np.all((np.array(ratios) > 3.6) & (np.array(ratios) < 4.4)), ratios

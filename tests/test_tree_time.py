@@ -478,5 +478,6 @@ def test_tapered_time_course_is_the_limit_of_cylinder_chains():
         z = lambda s: transfer_impedance_precise(cell, s, root_site(), Site(3, 400e-6), digits=40)  # noqa: E731
         want = float((-mpmath.diff(z, 0, h=mpmath.mpf("1e-12")) / z(0)).real)
     assert m.transfer_delay[4] == pytest.approx(want, rel=1e-9)
-    with pytest.raises(InputError, match="frusta"):
-        reduction_cost(cell, case.CurrentStep(NA), [1e-3])
+    cost = reduction_cost(cell, case.CurrentStep(0.1 * NA), np.geomspace(1e-4, 0.1, 12))
+    assert cost.tree_modes.time_constants[0] == pytest.approx(TAU, rel=1e-12)  # uniform membrane, sealed tips
+    assert cost.largest_difference > 0
