@@ -28,7 +28,10 @@ How the fit is made (each step is stated in the result's ``method``):
 * **fitting window**: given, or chosen as the earliest start (from the first sample after the
   onset, then 2, 4, 8 ... samples later, up to a fifth of the record) whose chosen fit leaves
   residuals that pass the runs test: the electrode's own fast charging spoils the first samples,
-  and this skips them only as far as the data show it is needed.
+  and this skips them only as far as the data show it is needed. A component with a negative
+  coefficient is flagged as well: at the injection site of a passive cell every coefficient is an
+  eigenfunction squared over its norm, hence positive (Rall 1969), so such a term is the electrode's,
+  and a model fit should start five of its time constants later (``artefact_end``).
 
 Every interpretation in terms of L and ρ assumes a passive, linear, uniform membrane.
 
@@ -483,6 +486,8 @@ class ExponentialDecomposition:
     window : (start, end), s since onset, of the samples fitted
     window_chosen : whether the start was chosen by the rule (module docstring) or given
     window_starts : the starts tried by the rule, s (empty when given)
+    artefact_end : s since onset, five time constants of the slowest component with a negative
+        coefficient (None when every coefficient is positive); see :func:`decompose`
     notes : plain-language remarks
     method : how the fit was made, in words
     """
@@ -492,6 +497,7 @@ class ExponentialDecomposition:
     window: tuple[float, float]
     window_chosen: bool
     window_starts: tuple[float, ...] = ()
+    artefact_end: float | None = None
     notes: tuple[str, ...] = field(default_factory=tuple)
     method: str = ""
 
@@ -605,6 +611,16 @@ def decompose(times: ArrayLike, voltage: ArrayLike, *, standard_error: ArrayLike
                      + ", ".join(str(c.components) for c in rivals) + " (difference below 2)")
     if best_n == max_components:
         notes.append(f"the largest count tried ({max_components}) was chosen; more exponentials may be present")
+    artefact_end = None
+    coefficients = fit.coefficients
+    if coefficients is not None and np.any(coefficients < 0):
+        # at the injection site every C_k is the square of an eigenfunction over its norm, so > 0
+        bad = np.flatnonzero(coefficients < 0)
+        artefact_end = float(5.0 * fit.time_constants[bad].max())
+        notes.append(f"{len(bad)} component(s) with a negative coefficient (τ = "
+                     + ", ".join(f"{fit.time_constants[k] * 1e3:.3g} ms" for k in bad)
+                     + "): a passive cell recorded where the current enters has only positive ones, so this is "
+                     f"most likely the electrode; a model fit should start after {artefact_end * 1e3:.3g} ms")
     notes += list(fit.condition.statements())
     if fit.residual_check.structured:
         notes.append(fit.residual_check.describe())
@@ -614,6 +630,7 @@ def decompose(times: ArrayLike, voltage: ArrayLike, *, standard_error: ArrayLike
               + (f" and a {fit.bootstrap_draws}-draw residual bootstrap (seed {seed})" if fit.bootstrap_draws else ""))
     return ExponentialDecomposition(fit=fit, candidates=cands, window=(float(t_used[0]), float(t_used[-1])),
                                     window_chosen=start is None, window_starts=tuple(starts), notes=tuple(notes),
+                                    artefact_end=artefact_end,
                                     method=method)
 
 

@@ -225,7 +225,8 @@ def fit_model(times: ArrayLike, voltage: ArrayLike, *, model: str = "ball-and-st
     standard_error : V per sample (relative weights), or None for equal weights
     duration : s, the length of a current pulse; None for a step lasting the whole record
     window : (start, end) s since onset; a None start is chosen by the rule of
-        :func:`cabletheory.fit_exponentials.decompose`, a None end is the last sample
+        :func:`cabletheory.fit_exponentials.decompose` (and moved past an electrode component it
+        finds, ``artefact_end``), a None end is the last sample
     level : confidence level of the intervals
     membrane_capacitance, axial_resistivity : assumed Cm (F/m²) and Ri (Ω·m) of the equivalent cell
     baseline_error : V, standard error of the baseline subtracted from the trace; it moves every
@@ -266,8 +267,8 @@ def fit_model(times: ArrayLike, voltage: ArrayLike, *, model: str = "ball-and-st
         try:
             rule = decompose(t_all[charging], y_all[charging], standard_error=1.0 / w_all[charging],
                              offset=True)
-            start_t = rule.window[0]
-            notes += [n for n in rule.notes if "left out" in n]
+            start_t = max(rule.window[0], rule.artefact_end or 0.0)
+            notes += [n for n in rule.notes if "left out" in n or "negative coefficient" in n]
         except (InputError, ConvergenceError):
             start_t = float(t_all[keep][0]) if keep.any() else 0.0
     keep &= t_all >= start_t

@@ -185,3 +185,20 @@ def test_figure_never_overwrites_the_recording(capsys, tmp_path):
     assert status == 2
     assert same.read_text(encoding="utf-8") == "x"
     assert path.read_bytes() == before
+
+
+def test_worked_example_intervals_hold_the_cell_that_made_the_recording():
+    """worked/fitting: every 95 % interval of the ball-and-stick fit printed in expected.txt holds the
+    parameters that worked/fitting/make_recording.py used (τm 25 ms, L 0.8, ρ 4, R_N 300 MΩ), so a
+    regenerated expected.txt cannot hide a wrong fit."""
+    import pathlib
+    import re
+
+    root = pathlib.Path(__file__).resolve().parents[1]
+    text = (root / "worked" / "fitting" / "expected.txt").read_text(encoding="utf-8")
+    truth = {"membrane time constant τm": 25.0, "electrotonic length L": 0.8,
+             "dendrite/soma conductance ρ": 4.0, "input resistance R_N": 300.0}
+    for label, value in truth.items():
+        line = next(x for x in text.splitlines() if x.strip().startswith(label))
+        lo, hi = (float(x) for x in re.search(r"\[([\d.]+)[^,]*, ([\d.]+)", line).groups())
+        assert lo < value < hi, line

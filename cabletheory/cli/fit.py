@@ -168,7 +168,9 @@ def run(args: argparse.Namespace) -> int:
     if args.model != "exponentials":
         from ..fit_model import DEFAULT_RI, fit_model
 
-        start = v["fit_from"] if v["fit_from"] is not None else decomposition.window[0]
+        start = v["fit_from"]
+        if start is None:
+            start = max(decomposition.window[0], decomposition.artefact_end or 0.0)
         model = fit_model(t, y, model=args.model, current=v["current"], standard_error=se, duration=v["duration"],
                           window=(start, window[1]), level=v["level"], membrane_capacitance=v["Cm"],
                           axial_resistivity=v["Ri"] if v["Ri"] is not None else DEFAULT_RI,
@@ -323,6 +325,8 @@ def as_json(v: dict[str, Any], trace: Any, decomposition: Any, peel: Any, model:
             "residual_runs_p": f.residual_check.runs_p,
             "residual_autocorrelation": f.residual_check.autocorrelation,
             "residuals_structured": f.residual_check.structured,
+            "electrode_component_end": (quantity(decomposition.artefact_end, "time")
+                                        if decomposition.artefact_end is not None else None),
             "notes": list(decomposition.notes),
         },
         "assumptions": f"{FIT_CAVEAT} {PASSIVE_CAVEAT}",
