@@ -42,6 +42,35 @@ COMMANDS: dict[str, str] = {
 }
 
 
+# one example per command, shown at the end of its --help (on the bundled or invented demo data)
+EXAMPLES: dict[str, str] = {
+    "cable": "cabletheory cable --Rm '20 kΩ·cm²' --Ri '200 Ω·cm' --diameter 2um --length 500um --frequency 100Hz",
+    "charge": "cabletheory charge --Rm 20000 --Ri 200 --diameter 2 --length 500 --shape alpha --current 100pA "
+              "--time-to-peak 0.5ms --stimulus-at 250um --positions '0, 250, 500 um' --times 0:20:2ms",
+    "peel": "cabletheory peel --tau0 '31.5 ms' --tau1 '3.12 ms' --c0 0.851 --c1 0.126 --input-resistance '240 MΩ'",
+    "fit": "cabletheory fit sweeps.csv --model ball-and-stick",
+    "derive": "cabletheory derive --origin soma --end sealed --part laplace",
+    "tree": "cabletheory tree cabletheory/data/morphologies/lumenia_lw1_conforming.swc --Rm 20000 --Ri 200",
+    "survey": "cabletheory survey cabletheory/data/archive --Rm 20000 --Ri 200 --output survey.csv",
+    "reference": "cabletheory reference --Rm 20000 --Ri 200 --diameter 2 --length 500 --current 100pA "
+                 "--times 0:20:0.5ms --positions '0, 250, 500 um' --output exact.csv",
+    "compare": "cabletheory compare cabletheory/data/runs/lumenia_coarse.csv --Rm 20000 --Ri 200 --diameter 2 "
+               "--length 500 --current 100pA --rest -62mV --onset 1ms --pass-within 20uV",
+    "advise": "cabletheory advise --Rm 20000 --Ri 200 --diameter 2 --length 500 --quantity time-course --target 1%",
+    "demo": "cabletheory demo",
+    "ui": "cabletheory ui cabletheory/data/morphologies/lumenia_pv7_interneuron.swc",
+}
+
+
+class _HelpFormatter(argparse.HelpFormatter):
+    """argparse's formatter, except that a paragraph starting with '$ ' (an example command line)
+    is printed as it is, so that it can be copied."""
+
+    def _fill_text(self, text: str, width: int, indent: str) -> str:
+        return "\n\n".join(indent + part if part.startswith("$ ") else super(_HelpFormatter, self)._fill_text(
+            part, width, indent) for part in text.split("\n\n"))
+
+
 _NEGATIVE = re.compile(r"^-(\d|\.\d|inf)")
 
 # commands that read the user's files, and so take --max-file-size
@@ -89,6 +118,10 @@ def build_parser(only: str | None = None) -> argparse.ArgumentParser:
                 raise
             continue  # command not built yet
         module.register(sub)
+        command = sub.choices.get(name)
+        if command is not None and name in EXAMPLES:
+            command.formatter_class = _HelpFormatter
+            command.epilog = "\n\n".join(part for part in (command.epilog, f"Example:\n\n$ {EXAMPLES[name]}") if part)
         if name in READS_FILES and name in sub.choices:
             sub.choices[name].add_argument(
                 "--max-file-size", type=file_size, default=None, metavar="SIZE",
