@@ -475,7 +475,13 @@ def parse_series(text: str, kind: str, field: str, *, allow_zero: bool = True,
         if step <= 0:
             raise InputError(f"{field}: step in {_shown(raw)} must be positive")
         if stop < start:
-            raise InputError(f"{field}: range {_shown(raw)} ends before it starts")
+            hint = " (ranges are start:stop:step)" if step > start else ""
+            raise InputError(f"{field}: range {_shown(raw)} ends before it starts{hint}")
+        if step > stop - start and stop > start:
+            parts = [p.strip() for p in match.group(1, 2, 3)]
+            raise InputError(f"{field}: range {_shown(raw)} is start:stop:step, and its step is larger than the span "
+                             f"from start to stop, so it holds one value; did you mean "
+                             f"{parts[0]}:{parts[2]}:{parts[1]}{(' ' + unit) if unit else ''}?")
         count = math.floor((stop - start) / step * (1 + 1e-12)) + 1
         if count > max_points:
             raise InputError(f"{field}: range {_shown(raw)} has {count} points; at most {max_points} allowed")

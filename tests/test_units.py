@@ -127,3 +127,15 @@ def test_format_uses_compact_prefixes_and_the_fields_forms(value, kind, expected
 def test_format_digits():
     assert format_quantity(318.30988e6, "resistance", digits=3) == "318 MΩ"
     assert format_quantity(1.234567e-3, "length", digits=6) == "1.23457 mm"
+
+
+def test_a_range_that_reads_like_start_step_stop_is_refused_with_the_likely_meaning():
+    """'0:100:500' is start:stop:step with a step larger than its span: one value, almost surely
+    meant as 0 to 500 in steps of 100; the message says so (issue: daily use)."""
+    from cabletheory.units import parse_series
+
+    with pytest.raises(InputError, match=r"did you mean 0:500:100 ms\?"):
+        parse_series("0:100:500 ms", "time", "--times")
+    assert parse_series("5:5:1 ms", "time", "--times") == [pytest.approx(5e-3)]
+    with pytest.raises(InputError, match="ends before it starts"):
+        parse_series("10:5:1", "time", "--times")
