@@ -24,6 +24,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from .errors import InputError
+
 __all__ = [
     "CableSummary",
     "Cylinder",
@@ -214,7 +216,7 @@ def segments_needed(length: ArrayLike, ac_length_constant: ArrayLike,
     compartmental models; it is advice, not an error bound.
     """
     if not fraction > 0:
-        raise ValueError(f"fraction must be positive, got {fraction!r}")
+        raise InputError(f"fraction must be positive, got {fraction!r}")
     ratio = np.asarray(length, dtype=float) / (fraction * np.asarray(ac_length_constant))
     # a tiny tolerance keeps 5.000000000001 from becoming 6 through rounding noise
     return np.maximum(1, np.ceil(ratio - 1e-9)).astype(np.int64)
@@ -282,7 +284,7 @@ def _green(q: Wavenumber, electrotonic_length: ArrayLike, ratio: ArrayLike, posi
 def _check_positions(position: ArrayLike, electrotonic_length: ArrayLike) -> None:
     x = np.asarray(position, dtype=float)
     if np.any(x < 0) or np.any(x > np.asarray(electrotonic_length)):
-        raise ValueError("electrotonic position must lie in [0, L]")
+        raise InputError("electrotonic position must lie in [0, L]")
 
 
 def input_resistance(semi_infinite_resistance: ArrayLike, electrotonic_length: ArrayLike,
@@ -450,7 +452,7 @@ class UniformMembrane:
         for name in ("membrane_resistivity", "axial_resistivity", "membrane_capacitance", "diameter"):
             value = getattr(self, name)
             if not (np.isfinite(value) and value > 0):
-                raise ValueError(f"{name} must be finite and positive, got {value!r}")
+                raise InputError(f"{name} must be finite and positive, got {value!r}")
 
     @property
     def length_constant(self) -> float:
@@ -487,9 +489,9 @@ class Cylinder(UniformMembrane):
     def __post_init__(self) -> None:
         self._check_membrane()
         if not self.length > 0:
-            raise ValueError(f"length must be positive (inf for semi-infinite), got {self.length!r}")
+            raise InputError(f"length must be positive (inf for semi-infinite), got {self.length!r}")
         if not self.end_conductance >= 0:
-            raise ValueError(f"end_conductance must be >= 0 (inf for killed), got {self.end_conductance!r}")
+            raise InputError(f"end_conductance must be >= 0 (inf for killed), got {self.end_conductance!r}")
 
     @property
     def electrotonic_length(self) -> float:
@@ -547,7 +549,7 @@ def summarise(cylinder: Cylinder, positions: ArrayLike = (), frequency: float | 
     b = cylinder.end_conductance_ratio
     x = np.atleast_1d(np.asarray(positions, dtype=float))
     if np.any(x < 0) or np.any(x > cylinder.length):
-        raise ValueError("positions must lie between 0 and the cable's length")
+        raise InputError("positions must lie between 0 and the cable's length")
     X = x / lam
     z_in = z_x = lam_f = None
     if frequency is not None:

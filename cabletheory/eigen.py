@@ -527,7 +527,7 @@ def tail_bound(first_excluded: int, normalised_time: ArrayLike, electrotonic_len
     L = float(electrotonic_length)
     N = int(first_excluded)
     if N < 1:
-        raise ValueError("tail bounds need first_excluded >= 1")
+        raise InputError("tail bounds need first_excluded >= 1")
     a = float(branch_lower_bounds(1, L, origin=origin, start=N)[0])
     k = 4.0 / L
     lattice = L / np.pi
@@ -555,5 +555,5 @@ def tail_bound(first_excluded: int, normalised_time: ArrayLike, electrotonic_len
         elif kind == "smooth":
             out = k * rate * (1.0 / (1 + a * a) ** 2 + lattice / (3 * a**3)) * np.ones_like(T)
         else:
-            raise ValueError(f"unknown tail kind {kind!r}")
+            raise InputError(f"unknown tail kind {kind!r}")
     return out

@@ -37,3 +37,13 @@ class ImplausibleValueWarning(UserWarning):
 
 class ConvergenceError(CableTheoryError, ArithmeticError):
     """A root or series did not meet its stated accuracy; the message says by how much."""
+
+
+class DerivationError(CableTheoryError, ArithmeticError):
+    """A symbolic derivation failed one of its own checks (a basis that does not solve its equation,
+    a result of the wrong form); the message names the expression."""
+
+
+class UsageError(CableTheoryError, RuntimeError):
+    """The package was called out of order (for example, a journal written before it was opened):
+    a mistake in the calling code, not in the user's input."""

@@ -111,7 +111,7 @@ def read_case(texts: Mapping[str, str | None], label: Label) -> Case:
         if text is None:
             continue
         if field not in FIELDS:
-            raise ValueError(f"{field!r} is not a case field")  # a programming error, not user input
+            raise InputError(f"{field!r} is not a case field")  # a programming error, not user input
         try:
             values[field] = read_field(field, text, name(field))
         except InputError as exc:

@@ -56,7 +56,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from .errors import FileFormatError
+from .errors import FileFormatError, InputError
 from .textfile import read_input_bytes
 
 __all__ = [
@@ -633,5 +633,5 @@ def read_morphology(path: str | Path, read_value: ValueReader | None = None) -> 
         if len(first) == 7 and all(_is_float(t) for t in first):
             return parse_swc(text, source)
     if read_value is None:
-        raise ValueError("read_morphology: reading a tree outline needs read_value (the unit reader)")
+        raise InputError("read_morphology: reading a tree outline needs read_value (the unit reader)")
     return parse_outline(text, read_value, source)

@@ -38,7 +38,7 @@ from typing import Any, Protocol
 import numpy as np
 
 from . import PASSIVE_CAVEAT, __version__
-from .errors import CableTheoryError, InputError, MissingFileError
+from .errors import CableTheoryError, InputError, MissingFileError, UsageError
 from .morphology import Outline, ValueReader, read_morphology
 from .tree import Tolerances, TreeReport, analyse_tree, build_tree
 
@@ -508,7 +508,7 @@ class Journal:
 
     def _write(self, items: Sequence[dict[str, Any]]) -> None:
         if self._handle is None:
-            raise RuntimeError("journal is not open")
+            raise UsageError("journal is not open")
         self._handle.write("".join(json.dumps(item, ensure_ascii=False) + "\n" for item in items))
         self._handle.flush()
         os.fsync(self._handle.fileno())

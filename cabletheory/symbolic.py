@@ -36,7 +36,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from .errors import InputError
+from .errors import DerivationError, InputError
 
 __all__ = [
     "ASSUMPTIONS",
@@ -456,12 +456,12 @@ def _basis(general: Any, X: Any, functions: Sequence[Any], ode: Any, f: Any) -> 
     for g in functions:
         residual = sp.expand(_eq_at(ode, f, g, X, X))
         if residual != 0:
-            raise ArithmeticError(f"basis function {g} does not solve {ode}")
+            raise DerivationError(f"basis function {g} does not solve {ode}")
     wronskian = sp.simplify(sp.expand(sp.wronskian(list(functions), X)).rewrite(sp.exp))
     if wronskian == 0:
-        raise ArithmeticError("basis functions are linearly dependent")
+        raise DerivationError("basis functions are linearly dependent")
     if len(general.free_symbols - {X} - ode.free_symbols) < 2:
-        raise ArithmeticError(f"dsolve gave no two-constant general solution: {general}")
+        raise DerivationError(f"dsolve gave no two-constant general solution: {general}")
 
 
 @functools.cache
@@ -662,7 +662,7 @@ def _wronskian_form(green: Any) -> Any:
             values = {k: v + shift for k, v in probe.items()}
             values[X0] = values.get(X0, 0) / 2
             if abs(sp.N((den - den0).subs(values), 30)) > 1e-20:
-                raise ArithmeticError(f"denominator {den} depends on X0")
+                raise DerivationError(f"denominator {den} depends on X0")
         pieces.append((sp.factor_terms(num) / den0, cond))
     return sp.Piecewise(*pieces)
 

@@ -44,7 +44,7 @@ def max_input_bytes() -> int:
 def input_size_limit(limit: int) -> Iterator[None]:
     """Within the block, input files up to ``limit`` bytes are read (restored afterwards)."""
     if limit < 1:
-        raise ValueError(f"input size limit must be at least 1 byte, got {limit}")
+        raise InputError(f"input size limit must be at least 1 byte, got {limit}")
     previous = _limit[0]
     _limit[0] = limit
     try:

@@ -179,7 +179,7 @@ def _kind(kind: str) -> Kind:
     try:
         return KINDS[kind]
     except KeyError:
-        raise ValueError(f"unknown quantity kind {kind!r}") from None
+        raise InputError(f"unknown quantity kind {kind!r}") from None
 
 
 def _a(name: str) -> str:

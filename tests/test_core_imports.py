@@ -14,6 +14,7 @@ Two kinds of check:
 from __future__ import annotations
 
 import ast
+import builtins
 import pathlib
 import re
 import subprocess
@@ -259,3 +260,37 @@ def test_the_program_opens_the_app_without_the_command_line_importing_it(monkeyp
     assert calls == [{"view": "tree", "swc": None, "simulation": None}]
     assert main(["ui"]) == 2
     assert "cabletheory ui" in capsys.readouterr().err
+
+
+# ---------------------------------------------------------------------------------------------
+# the core's errors are the package's
+# ---------------------------------------------------------------------------------------------
+BUILTIN_ERRORS = {name for name, value in vars(builtins).items()
+                  if isinstance(value, type) and issubclass(value, BaseException)}
+
+
+def builtin_raises(source: str, name: str) -> list[str]:
+    """``raise ValueError(...)`` and the like in ``source``: a builtin exception raised by name
+    (re-raising a caught exception is not counted)."""
+    found = []
+    for node in ast.walk(ast.parse(source, name)):
+        if isinstance(node, ast.Raise) and node.exc is not None:
+            raised = node.exc.func if isinstance(node.exc, ast.Call) else node.exc
+            if isinstance(raised, ast.Name) and raised.id in BUILTIN_ERRORS:
+                found.append(f"{name}:{node.lineno} raises {raised.id}")
+    return found
+
+
+def test_the_core_raises_only_the_packages_errors():
+    """Every error raised on purpose below the front ends is a CableTheoryError (errors.py; its
+    subclasses also inherit the builtin, so ``except ValueError`` still catches an InputError)."""
+    found = [line for path in sorted(PACKAGE.rglob("*.py"))
+             if component(module_name(path, PACKAGE)) not in FRONT_ENDS
+             for line in builtin_raises(path.read_text(encoding="utf-8"), str(path.relative_to(PACKAGE.parent)))]
+    # units.format_quantity refuses a complex value with TypeError (a call with the wrong type)
+    assert [line for line in found if not line.startswith("cabletheory/units.py:")] == []
+
+
+def test_the_raise_check_sees_a_builtin_raise():
+    source = "def f(x):\n    if x:\n        raise ValueError('no')\n    raise InputError('ok')\n"
+    assert builtin_raises(source, "probe.py") == ["probe.py:3 raises ValueError"]

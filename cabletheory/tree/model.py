@@ -15,7 +15,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 from numpy.typing import NDArray
 
-from ..errors import FileFormatError
+from ..errors import FileFormatError, InputError
 from ..morphology import Outline, SwcPoints
 
 __all__ = ["SWC_NAMES", "Tree", "build_tree", "prune_empty_branches", "scale_lengths", "tree_from_outline",
@@ -71,22 +71,22 @@ class Tree:
         n = len(self.labels)
         for name in ("parents", "lengths", "proximal_diameters", "distal_diameters", "types", "lines"):
             if np.asarray(getattr(self, name)).shape != (n,):
-                raise ValueError(f"Tree.{name} must have one entry per piece ({n})")
+                raise InputError(f"Tree.{name} must have one entry per piece ({n})")
         p = np.asarray(self.parents)
         if n and np.any((p < -1) | (p >= np.arange(n))):
-            raise ValueError("Tree.parents: each parent must be -1 or an earlier piece")
+            raise InputError("Tree.parents: each parent must be -1 or an earlier piece")
         if np.any(~np.isfinite(self.lengths)) or np.any(np.asarray(self.lengths) < 0):
-            raise ValueError("Tree.lengths must be finite and >= 0")
+            raise InputError("Tree.lengths must be finite and >= 0")
         for name in ("proximal_diameters", "distal_diameters"):
             d = np.asarray(getattr(self, name))
             if np.any(~np.isfinite(d)) or np.any(d <= 0):
-                raise ValueError(f"Tree.{name} must be finite and positive")
+                raise InputError(f"Tree.{name} must be finite and positive")
         if self.ends is not None:
             e = np.asarray(self.ends)
             if e.shape != (n,) or np.any(np.isnan(e)) or np.any(e < 0):
-                raise ValueError("Tree.ends must have one conductance >= 0 per piece")
+                raise InputError("Tree.ends must have one conductance >= 0 per piece")
             if n and np.any(e[p[p >= 0]] != 0):
-                raise ValueError("Tree.ends: only tips may have an end conductance")
+                raise InputError("Tree.ends: only tips may have an end conductance")
 
     def tip_conductances(self) -> Array:
         """Conductance from each piece's distal node to rest, S (zeros when every tip is sealed)."""
