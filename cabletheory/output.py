@@ -21,7 +21,31 @@ from .cable import Cylinder
 from .errors import InputError
 from .units import format_quantity, si_unit
 
-__all__ = ["dump_json", "echo_cylinder", "end_description", "far_end_text", "quantity", "table", "write_atomically"]
+__all__ = ["CYLINDER_LABELS", "dump_json", "echo_cylinder", "end_description", "end_label", "far_end_text",
+           "input_resistance_label", "quantity", "table", "write_atomically"]
+
+CYLINDER_LABELS: dict[str, str] = {
+    "membrane_resistivity": "Rm (specific membrane resistance)",
+    "axial_resistivity": "Ri (axial resistivity)",
+    "membrane_capacitance": "Cm (specific membrane capacitance)",
+    "diameter": "diameter",
+    "length": "length",
+    "end_conductance": "far end",
+    "frequency": "frequency",
+    "length_constant": "length constant λ",
+    "membrane_time_constant": "membrane time constant τm",
+    "electrotonic_length": "electrotonic length L = ℓ/λ",
+    "semi_infinite_input_resistance": "semi-infinite input resistance R∞",
+    "semi_infinite_input_conductance": "semi-infinite input conductance G∞",
+    "end_conductance_ratio": "end conductance ratio B = G_end/G∞",
+    "input_conductance": "input conductance G_in",
+    "far_end_voltage_ratio": "far-end voltage ratio V(ℓ)/V(0)",
+    "input_impedance_magnitude": "input impedance |Z_in|",
+    "input_impedance_phase": "input impedance phase",
+    "ac_length_constant": "AC length constant λ_f",
+}
+"""The label of each result of one cylinder (keys of :class:`cabletheory.cable.CableSummary` and of
+the ``cable`` command's JSON): the command line and the app show the same words for the same number."""
 
 
 def end_description(cylinder: Cylinder) -> str:
@@ -36,17 +60,30 @@ def end_description(cylinder: Cylinder) -> str:
 
 def echo_cylinder(cylinder: Cylinder) -> list[tuple[str, str]]:
     """The inputs as (label, value with unit) rows, so that nothing is silent."""
+    labels = CYLINDER_LABELS
     return [
-        ("Rm (specific membrane resistance)", format_quantity(cylinder.membrane_resistivity,
-                                                                "membrane_resistivity")),
-        ("Ri (axial resistivity)", format_quantity(cylinder.axial_resistivity, "axial_resistivity")),
-        ("Cm (specific membrane capacitance)", format_quantity(cylinder.membrane_capacitance,
-                                                                "membrane_capacitance")),
-        ("diameter", format_quantity(cylinder.diameter, "length")),
-        ("length", "semi-infinite" if math.isinf(cylinder.length) else format_quantity(cylinder.length,
-                                                                                        "length")),
-        ("far end", far_end_text(cylinder)),
+        (labels["membrane_resistivity"], format_quantity(cylinder.membrane_resistivity, "membrane_resistivity")),
+        (labels["axial_resistivity"], format_quantity(cylinder.axial_resistivity, "axial_resistivity")),
+        (labels["membrane_capacitance"], format_quantity(cylinder.membrane_capacitance, "membrane_capacitance")),
+        (labels["diameter"], format_quantity(cylinder.diameter, "length")),
+        (labels["length"], "semi-infinite" if math.isinf(cylinder.length) else format_quantity(cylinder.length,
+                                                                                                "length")),
+        (labels["end_conductance"], far_end_text(cylinder)),
     ]
+
+
+def end_label(cylinder: Cylinder) -> str:
+    """The far end in one or two words, for labels: sealed end, killed end, leaky end, semi-infinite."""
+    if math.isinf(cylinder.length):
+        return "semi-infinite"
+    if cylinder.end_conductance == 0:
+        return "sealed end"
+    return "killed end" if math.isinf(cylinder.end_conductance) else "leaky end"
+
+
+def input_resistance_label(cylinder: Cylinder) -> str:
+    """The input resistance's label, which names the far end it holds for."""
+    return f"input resistance R_in ({end_label(cylinder)})"
 
 
 def far_end_text(cylinder: Cylinder) -> str:

@@ -247,8 +247,8 @@ def test_markdown_export_has_caveat_and_tables():
     text = export.to_markdown(demo_report())
     assert text.startswith("# Single cylinder")
     assert f"> {PASSIVE_CAVEAT}" in text
-    assert "| λ   length constant | 707.1 µm |" in text
-    assert "| \\|Z\\| input impedance at f | 120.8 MΩ |" in text
+    assert "| length constant λ | 707.1 µm |" in text
+    assert "| input impedance \\|Z_in\\| | 120.8 MΩ |" in text
     assert "## Profile (input at the origin)" in text
 
 

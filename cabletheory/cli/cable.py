@@ -11,7 +11,7 @@ import numpy as np
 from .. import PASSIVE_CAVEAT
 from ..cable import CableSummary, Cylinder, summarise
 from ..errors import InputError
-from ..output import dump_json, echo_cylinder, quantity, table
+from ..output import CYLINDER_LABELS, dump_json, echo_cylinder, input_resistance_label, quantity, table
 from ..units import format_quantity, parse_quantity, parse_series
 from .common import add_cable_options, read_cylinder, whole_number
 
@@ -210,14 +210,6 @@ def as_json(s: CableSummary) -> dict:
     return out
 
 
-def _end_label(s: CableSummary) -> str:
-    if math.isinf(s.cylinder.length):
-        return "semi-infinite"
-    if s.cylinder.end_conductance == 0:
-        return "sealed end"
-    return "killed end" if math.isinf(s.cylinder.end_conductance) else "leaky end"
-
-
 def as_text(s: CableSummary, digits: int = 4, *, no_length: bool = False) -> str:
     """A readable report: inputs echoed with units, results with units, the profile, the caveat.
 
@@ -233,22 +225,23 @@ def as_text(s: CableSummary, digits: int = 4, *, no_length: bool = False) -> str
     if no_length:
         echo = [row for row in echo if row[0] not in ("length", "far end")] + [("length", "not given")]
     blocks = [table(echo, "Inputs")]
+    labels = CYLINDER_LABELS
     rows = [
-        ("length constant λ", fmt(s.length_constant, "length")),
-        ("membrane time constant τm", fmt(s.membrane_time_constant, "time")),
-        ("electrotonic length L = ℓ/λ", fmt(s.electrotonic_length, "dimensionless")),
+        (labels["length_constant"], fmt(s.length_constant, "length")),
+        (labels["membrane_time_constant"], fmt(s.membrane_time_constant, "time")),
+        (labels["electrotonic_length"], fmt(s.electrotonic_length, "dimensionless")),
         ("membrane resistance × length r_m", per_length(s.membrane_resistance_per_length, "MΩ·cm", 1e-4)),
         ("axial resistance per length r_i", per_length(s.axial_resistance_per_length, "MΩ/cm", 1e-8)),
         ("membrane capacitance per length c_m", per_length(s.membrane_capacitance_per_length, "pF/cm", 1e10)),
-        ("semi-infinite input resistance R∞", fmt(s.semi_infinite_input_resistance, "resistance")),
-        ("semi-infinite input conductance G∞", fmt(s.semi_infinite_input_conductance, "conductance")),
+        (labels["semi_infinite_input_resistance"], fmt(s.semi_infinite_input_resistance, "resistance")),
+        (labels["semi_infinite_input_conductance"], fmt(s.semi_infinite_input_conductance, "conductance")),
     ]
     if not math.isinf(s.cylinder.length) and 0 < s.cylinder.end_conductance < math.inf:
-        rows.append(("end conductance ratio B = G_end/G∞", fmt(s.end_conductance_ratio, "dimensionless")))
+        rows.append((labels["end_conductance_ratio"], fmt(s.end_conductance_ratio, "dimensionless")))
     rows += [
-        (f"input resistance R_in ({_end_label(s)})", fmt(s.input_resistance, "resistance")),
-        ("input conductance G_in", fmt(s.input_conductance, "conductance")),
-        ("far-end voltage ratio V(ℓ)/V(0)", fmt(s.far_end_voltage_ratio, "dimensionless")),
+        (input_resistance_label(s.cylinder), fmt(s.input_resistance, "resistance")),
+        (labels["input_conductance"], fmt(s.input_conductance, "conductance")),
+        (labels["far_end_voltage_ratio"], fmt(s.far_end_voltage_ratio, "dimensionless")),
     ]
     if no_length:
         rows = [row for row in rows if not row[0].startswith(("electrotonic length", "input ", "far-end"))]
@@ -257,9 +250,9 @@ def as_text(s: CableSummary, digits: int = 4, *, no_length: bool = False) -> str
         z = s.input_impedance
         phase = math.degrees(math.atan2(z.imag, z.real))
         blocks.append(table([
-            ("input impedance |Z_in|", fmt(abs(z), "resistance")),
-            ("input impedance phase", f"{fmt(phase, 'dimensionless')}°"),
-            ("AC length constant λ_f", fmt(s.ac_length_constant, "length")),
+            (labels["input_impedance_magnitude"], fmt(abs(z), "resistance")),
+            (labels["input_impedance_phase"], f"{fmt(phase, 'dimensionless')}°"),
+            (labels["ac_length_constant"], fmt(s.ac_length_constant, "length")),
         ], f"Sinusoidal input at {fmt(s.frequency, 'frequency')}"))
     if s.positions.size:
         blocks.append(_profile_table(s, digits))

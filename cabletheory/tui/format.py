@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..cable import CableSummary, Cylinder, summarise
-from ..output import far_end_text
+from ..output import CYLINDER_LABELS, far_end_text, input_resistance_label
 from ..units import format_quantity
 from .forms import (
     EXACT_TOLERANCE,
@@ -59,40 +59,36 @@ def cable_report(s: CableSummary) -> Report:
     """Inputs, steady and sinusoidal results, the V(X) profile table and its plot."""
     c = s.cylinder
     semi_infinite = math.isinf(c.length)
+    labels = CYLINDER_LABELS
     inputs = [
-        Row("membrane_resistivity", "Rm  specific membrane resistance", c.membrane_resistivity,
-            "membrane_resistivity"),
-        Row("axial_resistivity", "Ri  axial resistivity", c.axial_resistivity, "axial_resistivity"),
-        Row("membrane_capacitance", "Cm  specific membrane capacitance", c.membrane_capacitance,
-            "membrane_capacitance"),
-        Row("diameter", "d   diameter", c.diameter, "length"),
-        Row("length", "ℓ   length", c.length, "length", shown="semi-infinite" if semi_infinite else None),
-        Row("end_conductance", "far end", c.end_conductance, "conductance", shown=far_end_text(c)),
-        Row("frequency", "f   frequency", s.frequency, "frequency",
+        Row("membrane_resistivity", labels["membrane_resistivity"], c.membrane_resistivity, "membrane_resistivity"),
+        Row("axial_resistivity", labels["axial_resistivity"], c.axial_resistivity, "axial_resistivity"),
+        Row("membrane_capacitance", labels["membrane_capacitance"], c.membrane_capacitance, "membrane_capacitance"),
+        Row("diameter", labels["diameter"], c.diameter, "length"),
+        Row("length", labels["length"], c.length, "length", shown="semi-infinite" if semi_infinite else None),
+        Row("end_conductance", labels["end_conductance"], c.end_conductance, "conductance", shown=far_end_text(c)),
+        Row("frequency", labels["frequency"], s.frequency, "frequency",
             shown=None if s.frequency is not None else "steady state only"),
     ]
-    end_word = ("semi-infinite" if semi_infinite else "sealed" if c.end_conductance == 0
-                else "killed" if math.isinf(c.end_conductance) else "leaky")
     results = [
-        Row("length_constant", "λ   length constant", s.length_constant, "length"),
-        Row("membrane_time_constant", "τm  membrane time constant", s.membrane_time_constant, "time"),
-        Row("electrotonic_length", "L   electrotonic length ℓ/λ", s.electrotonic_length, "dimensionless"),
-        Row("semi_infinite_input_resistance", "R∞  semi-infinite input resistance",
+        Row("length_constant", labels["length_constant"], s.length_constant, "length"),
+        Row("membrane_time_constant", labels["membrane_time_constant"], s.membrane_time_constant, "time"),
+        Row("electrotonic_length", labels["electrotonic_length"], s.electrotonic_length, "dimensionless"),
+        Row("semi_infinite_input_resistance", labels["semi_infinite_input_resistance"],
             s.semi_infinite_input_resistance, "resistance"),
-        Row("input_resistance", f"Rin input resistance ({end_word})", s.input_resistance, "resistance"),
-        Row("input_conductance", "Gin input conductance", s.input_conductance, "conductance"),
-        Row("far_end_voltage_ratio", "V(ℓ)/V(0) steady far-end ratio", s.far_end_voltage_ratio,
-            "dimensionless"),
+        Row("input_resistance", input_resistance_label(c), s.input_resistance, "resistance"),
+        Row("input_conductance", labels["input_conductance"], s.input_conductance, "conductance"),
+        Row("far_end_voltage_ratio", labels["far_end_voltage_ratio"], s.far_end_voltage_ratio, "dimensionless"),
     ]
     if not semi_infinite and 0 < c.end_conductance < math.inf:
-        results.insert(4, Row("end_conductance_ratio", "B   end conductance ratio", s.end_conductance_ratio,
+        results.insert(4, Row("end_conductance_ratio", labels["end_conductance_ratio"], s.end_conductance_ratio,
                               "dimensionless"))
     if s.frequency is not None and s.input_impedance is not None:
         z = s.input_impedance
         results += [
-            Row("input_impedance_magnitude", "|Z| input impedance at f", abs(z), "resistance"),
-            Row("input_impedance_phase", "∠Z  phase at f", math.atan2(z.imag, z.real), "angle"),
-            Row("ac_length_constant", "λf  length constant at f", s.ac_length_constant, "length"),
+            Row("input_impedance_magnitude", labels["input_impedance_magnitude"], abs(z), "resistance"),
+            Row("input_impedance_phase", labels["input_impedance_phase"], math.atan2(z.imag, z.real), "angle"),
+            Row("ac_length_constant", labels["ac_length_constant"], s.ac_length_constant, "length"),
         ]
     if s.segments_needed is not None:
         results.append(Row("segments_needed", f"segments for ≤ {s.segment_fraction:g} λ at "
@@ -141,9 +137,11 @@ def _model_rows(setup: CaseSetup) -> list[Row]:
     cylinder = m.cylinder if isinstance(m, BallAndStick) else m
     rows = [
         Row("model", "model", MODEL_CHOICES[setup.model_choice]),
-        Row("membrane_resistivity", "Rm", cylinder.membrane_resistivity, "membrane_resistivity"),
-        Row("axial_resistivity", "Ri", cylinder.axial_resistivity, "axial_resistivity"),
-        Row("membrane_capacitance", "Cm", cylinder.membrane_capacitance, "membrane_capacitance"),
+        Row("membrane_resistivity", CYLINDER_LABELS["membrane_resistivity"], cylinder.membrane_resistivity,
+            "membrane_resistivity"),
+        Row("axial_resistivity", CYLINDER_LABELS["axial_resistivity"], cylinder.axial_resistivity, "axial_resistivity"),
+        Row("membrane_capacitance", CYLINDER_LABELS["membrane_capacitance"], cylinder.membrane_capacitance,
+            "membrane_capacitance"),
         Row("diameter", "diameter", cylinder.diameter, "length"),
     ]
     if not isinstance(m, InfiniteCable):
@@ -167,12 +165,12 @@ def charging_report(setup: ChargingSetup, tolerance: float = 1e-10) -> Report:
     over_space = charge(m, case.stimulus, setup.moments, setup.positions, tolerance=tolerance)
     lam, tau = over_time.length_constant, over_time.membrane_time_constant
     results = [
-        Row("length_constant", "λ   length constant", lam, "length"),
-        Row("membrane_time_constant", "τm  membrane time constant", tau, "time"),
+        Row("length_constant", CYLINDER_LABELS["length_constant"], lam, "length"),
+        Row("membrane_time_constant", CYLINDER_LABELS["membrane_time_constant"], tau, "time"),
     ]
     cylinder = m.cylinder if isinstance(m, BallAndStick) else m
     if not isinstance(m, InfiniteCable) and math.isfinite(cylinder.length):
-        results.append(Row("electrotonic_length", "L   electrotonic length", cylinder.electrotonic_length,
+        results.append(Row("electrotonic_length", CYLINDER_LABELS["electrotonic_length"], cylinder.electrotonic_length,
                            "dimensionless"))
     if isinstance(m, BallAndStick):
         results.append(Row("conductance_ratio", "ρ   dendrite/soma conductance", m.conductance_ratio,
