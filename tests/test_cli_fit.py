@@ -202,3 +202,68 @@ def test_worked_example_intervals_hold_the_cell_that_made_the_recording():
         line = next(x for x in text.splitlines() if x.strip().startswith(label))
         lo, hi = (float(x) for x in re.search(r"\[([\d.]+)[^,]*, ([\d.]+)", line).groups())
         assert lo < value < hi, line
+
+
+OUTLINE = """# an unequal little tree with a soma (invented)
+soma diameter=12
+a length=150 diameter=3
+  b length=400 diameter=1.6
+    d length=250 diameter=1
+    e length=600 diameter=0.9
+  c length=120 diameter=2
+    f length=300 diameter=1.2
+"""
+
+
+def test_morphology_fit(capsys, tmp_path):
+    """A reconstructed cell's Rm, Ri and Cm come back within their intervals from a recording made
+    by the exact tree time course (cabletheory.tree_time; Rall 1959 [Rall1959]) with noise."""
+    from cabletheory.fit_tree import _cell
+    from cabletheory.inputs import read_outline_value
+    from cabletheory.morphology import read_morphology
+    from cabletheory.transient import CurrentStep
+    from cabletheory.tree import build_tree
+    from cabletheory.tree_laplace import root_site
+    from cabletheory.tree_time import tree_response
+
+    outline = tmp_path / "cell.outline"
+    outline.write_text(OUTLINE, encoding="utf-8")
+    tree = build_tree(read_morphology(outline, read_outline_value))
+    truth = {"membrane_resistivity": 2.5, "axial_resistivity": 1.2, "membrane_capacitance": 0.009}
+    t = np.arange(700) * 0.1e-3
+    v = np.zeros(t.size)
+    after = t > 0.01
+    v[after] = tree_response(_cell(tree, truth), CurrentStep(-40e-12), t[after] - 0.01, root_site(),
+                             [root_site()]).voltage[:, 0]
+    rng = np.random.default_rng(8)
+    data = -0.06 + v + rng.normal(0, 0.1e-3, (3, t.size))
+    rows = ["time (ms),s1 (mV),s2 (mV),s3 (mV)"] + [
+        f"{t[i] * 1e3:.1f}," + ",".join(f"{x * 1e3:.5f}" for x in data[:, i]) for i in range(t.size)]
+    rec = tmp_path / "rec.csv"
+    rec.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    status, out, err = run(capsys, str(rec), "--morphology", str(outline), "--current", "-40 pA", "--onset",
+                           "10 ms", "--bootstrap", "0", "--json")
+    assert status == 0, err
+    fit = json.loads(out)["morphology_fit"]
+    for name, value in truth.items():
+        p = fit["parameters"][name]
+        assert p["interval"]["low"]["value"] < value < p["interval"]["high"]["value"], name
+    status, out, err = run(capsys, str(rec), "--morphology", str(outline), "--current", "-40 pA", "--onset",
+                           "10 ms", "--bootstrap", "0")
+    assert status == 0, err
+    assert "Reconstructed cell fitted to the trace" in out
+    assert "specific membrane resistance Rm" in out
+
+
+@pytest.mark.parametrize(("args", "message"), [
+    (["--model", "morphology"], "--morphology FILE"),
+    (["--soma-shunt"], "--soma-shunt"),
+    (["--morphology", "cabletheory/data/morphologies/lumenia_demo.outline"], "--current"),
+    (["--morphology", "cabletheory/data/morphologies/lumenia_demo.outline", "--current", "10pA", "--model",
+      "cylinder"], "--morphology"),
+])
+def test_morphology_option_refusals(capsys, recording, args, message):
+    status, out, err = run(capsys, str(recording), *args)
+    assert status == 2
+    assert message in err
+    assert out == ""

@@ -15,7 +15,7 @@ from ..output import dump_json, quantity, table, write_atomically
 from ..units import format_quantity, parse_quantity
 from .common import DEFAULT_CM, whole_number
 
-MODEL_CHOICES = ("ball-and-stick", "cylinder", "exponentials")
+MODEL_CHOICES = ("ball-and-stick", "cylinder", "morphology", "exponentials")
 FIT_CAVEAT = ("The fits assume a passive, linear, uniform membrane, a current injected and recorded at the soma "
               "through a perfectly compensated electrode, and independent noise; intervals are only as good as "
               "those assumptions (look at the residual checks).")
@@ -51,9 +51,15 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     stim.add_argument("--duration", metavar="T", help="length of the current pulse, e.g. '50 ms' (default: a step "
                                                       "lasting past the end of the record)")
     how = parser.add_argument_group("fitting")
-    how.add_argument("--model", choices=MODEL_CHOICES, default="ball-and-stick",
+    how.add_argument("--model", choices=MODEL_CHOICES, default=None,
                      help="the cell fitted to the trace: ball-and-stick (τm, L, ρ, R_N), cylinder (τm, L, R_N), "
-                          "or exponentials only (default ball-and-stick)")
+                          "morphology (Rm, Ri, Cm of --morphology), or exponentials only (default ball-and-stick, "
+                          "or morphology when --morphology is given)")
+    how.add_argument("--morphology", metavar="FILE",
+                     help="the reconstructed cell (SWC, or a tree outline as 'cabletheory tree' reads it): fit its "
+                          "uniform Rm, Ri and Cm (needs --current)")
+    how.add_argument("--soma-shunt", action="store_true",
+                     help="with --morphology, also fit a conductance from the soma to rest (electrode damage)")
     how.add_argument("--fit-from", metavar="T", help="start of the fitted window, time after the onset "
                                                      "(default: chosen, see docs/fit.md)")
     how.add_argument("--fit-until", metavar="T", help="end of the fitted window, time after the onset (default: the "
@@ -122,6 +128,22 @@ def read_inputs(args: argparse.Namespace) -> dict[str, Any]:
         "Cm": parse_quantity(args.Cm, "membrane_capacitance", "--Cm"),
         "Ri": parse_quantity(args.Ri, "axial_resistivity", "--Ri") if args.Ri is not None else None,
     }
+    model = args.model or ("morphology" if args.morphology else "ball-and-stick")
+    if model == "morphology" and args.morphology is None:
+        raise InputError("--model morphology: give the reconstructed cell with --morphology FILE")
+    if args.morphology is not None and model != "morphology":
+        raise InputError(f"--morphology: the cell is fitted as a morphology, not as --model {model}; drop one")
+    if args.soma_shunt and model != "morphology":
+        raise InputError("--soma-shunt: only a morphology fit (--morphology FILE) takes a soma shunt")
+    if model == "morphology" and values["current"] is None:
+        raise InputError("--morphology: give the injected current (--current); Rm, Ri and Cm depend on it")
+    values["model"] = model
+    if args.morphology is not None:
+        from ..inputs import read_outline_value
+        from ..morphology import read_morphology
+        from ..tree import build_tree
+
+        values["tree"] = build_tree(read_morphology(args.morphology, read_outline_value))
     if values["current"] == 0:
         raise InputError("--current: a current of 0 gives no response; give the injected current, e.g. 100 pA")
     if values["fit_from"] is not None and values["fit_until"] is not None and values["fit_until"] <= values["fit_from"]:
@@ -153,7 +175,7 @@ def run(args: argparse.Namespace) -> int:
     trace = prepare_trace(v["times"], v["sweeps"], onset=v["onset"], rest=v["rest"])
     t, y, se = trace.after_onset()
     end = v["fit_until"]
-    if v["duration"] is not None and args.model == "exponentials":
+    if v["duration"] is not None and v["model"] == "exponentials":
         end = min(end, v["duration"]) if end is not None else v["duration"]
     window = (v["fit_from"], end)
     charging_end = v["duration"] if v["duration"] is not None else end
@@ -164,20 +186,31 @@ def run(args: argparse.Namespace) -> int:
     peel = None
     if decomposition.fit.components >= 2:
         peel = peeling_from_fit(decomposition.fit)
-    model = None
-    if args.model != "exponentials":
+    model: Any = None
+    if v["model"] == "morphology":
+        from ..fit_tree import fit_morphology
+
+        if v["duration"] is not None:
+            raise InputError("--duration: a morphology fit takes a step lasting the whole record; fit the "
+                             "charging part with --fit-until")
+        start = v["fit_from"]
+        if start is None:
+            start = max(decomposition.window[0], decomposition.artefact_end or 0.0)
+        model = fit_morphology(t, y, v["tree"], v["current"], standard_error=se, shunt=args.soma_shunt,
+                               window=(start, window[1]), level=v["level"])
+    elif v["model"] != "exponentials":
         from ..fit_model import DEFAULT_RI, fit_model
 
         start = v["fit_from"]
         if start is None:
             start = max(decomposition.window[0], decomposition.artefact_end or 0.0)
-        model = fit_model(t, y, model=args.model, current=v["current"], standard_error=se, duration=v["duration"],
+        model = fit_model(t, y, model=v["model"], current=v["current"], standard_error=se, duration=v["duration"],
                           window=(start, window[1]), level=v["level"], membrane_capacitance=v["Cm"],
                           axial_resistivity=v["Ri"] if v["Ri"] is not None else DEFAULT_RI,
                           baseline_error=trace.baseline_error)
     if args.figure:
         write_atomically(args.figure, figure(trace, decomposition, model, Path(args.figure).suffix.lower()),
-                         protected=args.recordings)
+                         protected=[*args.recordings, *([args.morphology] if args.morphology else [])])
     if args.json:
         print(dump_json(as_json(v, trace, decomposition, peel, model)))
     else:
@@ -200,6 +233,10 @@ def _iv(lo: float, hi: float, kind: str, digits: int) -> str:
 
 _KIND = {"membrane_time_constant": "time", "electrotonic_length": "dimensionless",
          "conductance_ratio": "dimensionless", "input_resistance": "resistance"}
+_TREE = {"membrane_resistivity": ("specific membrane resistance Rm", "membrane_resistivity", "Rm"),
+         "axial_resistivity": ("axial resistivity Ri", "axial_resistivity", "Ri"),
+         "membrane_capacitance": ("specific membrane capacitance Cm", "membrane_capacitance", "Cm"),
+         "soma_shunt": ("soma shunt conductance", "conductance", "g_shunt")}
 _LABEL = {"membrane_time_constant": "membrane time constant τm", "electrotonic_length": "electrotonic length L",
           "conductance_ratio": "dendrite/soma conductance ρ", "input_resistance": "input resistance R_N"}
 
@@ -253,7 +290,25 @@ def as_text(v: dict[str, Any], trace: Any, decomposition: Any, peel: Any, model:
         rows.append(("L (sealed cylinder, from τ0/τ1)", f"{peel.estimate.cylinder_length:.{digits}g}"))
         lines.append(table(rows))
         lines += [f"  note: {n}" for n in peel.estimate.notes]
-    if model is not None:
+    if model is not None and model.model == "reconstructed-cell":
+        lines += ["", f"Reconstructed cell fitted to the trace from {_q(model.window[0], 'time', digits)} to "
+                      f"{_q(model.window[1], 'time', digits)} after the onset (uniform membrane):"]
+        rows = []
+        for k, name in enumerate(model.names):
+            label, kind, _ = _TREE[name]
+            rows.append((label, f"{_q(model.estimates[k], kind, digits)}  {pct} "
+                                f"{_iv(model.intervals[k, 0], model.intervals[k, 1], kind, digits)}"))
+        rows.append(("membrane time constant Rm·Cm", _q(model.membrane_time_constant, "time", digits)))
+        lines.append(table(rows))
+        symbols = [_TREE[n][2] for n in model.names]
+        lines.append("  correlations: " + "; ".join(
+            f"{symbols[i]}-{symbols[j]} {model.correlation[i, j]:+.2f}"
+            for i in range(len(symbols)) for j in range(i + 1, len(symbols))))
+        lines.append(f"  residuals: {model.residual_check.describe()}")
+        if model.condition.separable:
+            lines.append("  the data separate every fitted parameter (no correlation beyond 0.95, no flat direction)")
+        lines += [f"  note: {n}" for n in model.notes]
+    elif model is not None:
         lines += ["", f"{model.model.replace('-', ' ').capitalize()} fitted to the trace from "
                       f"{_q(model.window[0], 'time', digits)} to {_q(model.window[1], 'time', digits)} "
                       "after the onset:"]
@@ -345,7 +400,25 @@ def as_json(v: dict[str, Any], trace: Any, decomposition: Any, peel: Any, model:
             "cylinder_length": peel.estimate.cylinder_length,
             "notes": list(peel.estimate.notes),
         }
-    if model is not None:
+    if model is not None and model.model == "reconstructed-cell":
+        out["morphology_fit"] = {
+            "method": model.method,
+            "window": {"start": quantity(model.window[0], "time"), "end": quantity(model.window[1], "time")},
+            "parameters": {name: {"estimate": quantity(float(model.estimates[k]), _TREE[name][1]),
+                                  "interval": _interval(float(model.intervals[k, 0]), float(model.intervals[k, 1]),
+                                                        _TREE[name][1])}
+                           for k, name in enumerate(model.names)},
+            "parameter_order": list(model.names),
+            "membrane_time_constant": quantity(model.membrane_time_constant, "time"),
+            "correlation": [[None if not math.isfinite(x) else float(x) for x in row] for row in model.correlation],
+            "separable": model.condition.separable,
+            "residual_runs_z": model.residual_check.runs_z,
+            "residuals_structured": model.residual_check.structured,
+            "converged": model.converged,
+            "evaluations": model.evaluations,
+            "notes": list(model.notes),
+        }
+    elif model is not None:
         params = {}
         for k, name in enumerate(model.names):
             kind = _KIND[name]

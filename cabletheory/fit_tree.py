@@ -1,0 +1,238 @@
+r"""Rm, Ri and Cm of a reconstructed cell (and a soma shunt) fitted to a recorded soma response.
+
+With the morphology known, the soma response to a current step depends on the specific membrane
+resistance Rm, the axial resistivity Ri and the specific capacitance Cm (uniform over the cell)
+and, where the electrode has damaged the soma, on an extra conductance :math:`g_{sh}` from the soma
+to rest (Major et al. 1994 [MEM]). This module fits those three or four numbers to the trace with
+the exact time course of any passive tree (:func:`cabletheory.tree_time.tree_response`, the
+Laplace-domain solution inverted on a hyperbolic contour), by nonlinear least squares over their
+logarithms, with Student-t intervals from the linearised covariance, the correlation matrix and
+the plain statements of :mod:`cabletheory.fit_stats` when the data cannot separate them (Rall et
+al. 1992: with a shunt in particular, Rm and the shunt trade off).
+
+The soma shunt enters as the soma's own membrane resistivity
+:math:`R_{m,S} = A_S/(A_S/R_m + g_{sh})` (same Cm), so a tree without a soma cannot take one.
+
+Every result assumes a passive, linear membrane, uniform over the dendrites, and a morphology
+whose diameters and lengths are right: errors there go straight into Rm, Ri and Cm.
+
+References
+----------
+Major G, Larkman AU, Jonas P, Sakmann B & Jack JJB (1994) J. Neurosci. 14:4613 [Major1994] (fitting
+the transient of a reconstructed cell; the soma shunt) [MEM].
+Rall W et al. (1992) Physiol. Rev. 72:S159 [Rall1992] (non-uniqueness) [MEM].
+Bates DM & Watts DG (1988) [BatesWatts1988] (intervals).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from . import fit_stats
+from .errors import ConvergenceError, InputError
+from .fit_exponentials import _prepare, decompose
+
+__all__ = ["MorphologyFit", "fit_morphology"]
+
+Array = NDArray[np.float64]
+
+TOLERANCE = 1e-8  # error of the exact tree time course, relative to its reference voltage
+_BOUNDS = {"membrane_resistivity": (0.01, 100.0), "axial_resistivity": (0.05, 50.0),
+           "membrane_capacitance": (1e-4, 0.1), "soma_shunt": (1e-13, 1e-6)}
+_SYMBOLS = {"membrane_resistivity": "Rm", "axial_resistivity": "Ri", "membrane_capacitance": "Cm",
+            "soma_shunt": "g_shunt"}
+
+
+@dataclass(frozen=True, slots=True)
+class MorphologyFit:
+    """Rm, Ri, Cm (and a soma shunt) of a reconstructed cell fitted to a trace.
+
+    Attributes
+    ----------
+    names : fitted parameters (``membrane_resistivity`` Ω·m², ``axial_resistivity`` Ω·m,
+        ``membrane_capacitance`` F/m², ``soma_shunt`` S)
+    estimates, intervals : SI values and (p, 2) intervals at ``level``
+    correlation : correlation of the log-parameters
+    condition, residual_check : as in :mod:`cabletheory.fit_stats`
+    membrane_time_constant : Rm·Cm of the dendrites, s
+    times, data, fitted, standard_error : s since onset and V over the fitted window
+    chi_square, dof, noise_scale : goodness of fit
+    level, converged, evaluations, window, at_bounds, notes, method : as in
+        :class:`cabletheory.fit_model.ModelFit`
+    cell : the fitted :class:`~cabletheory.tree_laplace.PassiveTree`
+    """
+
+    names: tuple[str, ...]
+    estimates: Array
+    intervals: Array
+    correlation: Array
+    condition: fit_stats.ConditionReport
+    residual_check: fit_stats.ResidualCheck
+    membrane_time_constant: float
+    times: Array
+    data: Array
+    fitted: Array
+    standard_error: Array
+    chi_square: float
+    dof: int
+    noise_scale: float
+    level: float
+    converged: bool
+    evaluations: int
+    window: tuple[float, float]
+    at_bounds: tuple[str, ...]
+    cell: Any
+    notes: tuple[str, ...] = field(default_factory=tuple)
+    method: str = ""
+
+    @property
+    def residuals(self) -> Array:
+        """data - fitted, V."""
+        return self.data - self.fitted
+
+    @property
+    def model(self) -> str:
+        """The kind of cell fitted, in the words of :class:`cabletheory.fit_model.ModelFit`."""
+        return "reconstructed-cell"
+
+    def value(self, name: str) -> float:
+        """The estimate of one parameter by its canonical name, SI."""
+        return float(self.estimates[self.names.index(name)])
+
+    def interval(self, name: str) -> tuple[float, float]:
+        """The interval of one parameter by its canonical name, SI."""
+        lo, hi = self.intervals[self.names.index(name)]
+        return float(lo), float(hi)
+
+
+def _cell(tree: Any, p: dict[str, float]) -> Any:
+    from .tree_laplace import PassiveTree
+
+    rm, ri, cm = p["membrane_resistivity"], p["axial_resistivity"], p["membrane_capacitance"]
+    shunt = p.get("soma_shunt", 0.0)
+    soma_rm = None
+    if shunt > 0:
+        area = float(tree.soma_area)
+        soma_rm = area / (area / rm + shunt)
+    return PassiveTree(tree, rm, ri, cm, soma_membrane_resistivity=soma_rm,
+                       soma_membrane_capacitance=cm if soma_rm is not None else None)
+
+
+def fit_morphology(times: ArrayLike, voltage: ArrayLike, tree: Any, current: float, *,
+                   standard_error: ArrayLike | None = None, shunt: bool = False,
+                   window: tuple[float | None, float | None] | None = None, level: float = 0.95,
+                   start: dict[str, float] | None = None) -> MorphologyFit:
+    r"""Fit Rm, Ri, Cm (and a soma shunt) of ``tree`` to the soma response to a current step.
+
+    Parameters
+    ----------
+    times : s since the onset of the step (injected and recorded at the root, the soma)
+    voltage : V, deviation from rest
+    tree : :class:`cabletheory.tree.model.Tree` of cylinders (as read for the tree commands)
+    current : A, the step's amplitude (sign included)
+    standard_error : V per sample (relative weights), or None
+    shunt : also fit a conductance from the soma to rest (the tree needs a soma)
+    window : (start, end) s since onset; a None start is chosen by the rule of
+        :func:`cabletheory.fit_exponentials.decompose` (and moved past an electrode term)
+    level : confidence level
+    start : starting values by canonical name (SI); the default takes Cm = 1 µF/cm², Rm = τ0/Cm
+        from the slowest exponential, Ri = 150 Ω·cm and a shunt of a tenth of the soma's
+        membrane conductance
+
+    References
+    ----------
+    Major et al. (1994) [Major1994]; Rall et al. (1992) [Rall1992]; Bates & Watts (1988)
+    [BatesWatts1988].
+    """
+    from scipy.optimize import least_squares
+
+    from .transient import CurrentStep
+    from .tree_laplace import root_site
+    from .tree_time import tree_response
+
+    amp = float(current)
+    if not (math.isfinite(amp) and amp != 0):
+        raise InputError(f"current must be finite and not zero, got {current!r}")
+    if shunt and not tree.soma_area:
+        raise InputError("a soma shunt needs a soma in the morphology")
+    t_all, y_all, w_all = _prepare(times, voltage, standard_error)
+    first, last = window if window is not None else (None, None)
+    keep = t_all > 0
+    if last is not None:
+        keep &= t_all <= last
+    notes: list[str] = []
+    tau0 = None
+    try:
+        rule = decompose(t_all[keep], y_all[keep], standard_error=1.0 / w_all[keep], offset=True,
+                         window=(first, None), max_components=3)
+        tau0 = float(rule.fit.time_constants[0])
+        if first is None:
+            first = max(rule.window[0], rule.artefact_end or 0.0)
+            notes += [n for n in rule.notes if "left out" in n or "negative coefficient" in n]
+    except (InputError, ConvergenceError):
+        pass
+    if first is not None:
+        keep &= t_all >= first
+    t, y, w = t_all[keep], y_all[keep], w_all[keep]
+    names = ("membrane_resistivity", "axial_resistivity", "membrane_capacitance") + (("soma_shunt",) if shunt else ())
+    if t.size < len(names) + 6:
+        raise InputError(f"only {t.size} samples lie in the fitting window; at least {len(names) + 6} are needed")
+    guess = {"membrane_capacitance": 0.01, "axial_resistivity": 1.5,
+             "membrane_resistivity": (tau0 / 0.01) if tau0 else 2.0}
+    if shunt:
+        guess["soma_shunt"] = 0.1 * float(tree.soma_area) / guess["membrane_resistivity"]
+    guess.update(start or {})
+    lo = np.log([_BOUNDS[n][0] for n in names])
+    hi = np.log([_BOUNDS[n][1] for n in names])
+    x0 = np.clip(np.log([guess[n] for n in names]), lo + 1e-6, hi - 1e-6)
+    counter = [0]
+    stimulus = CurrentStep(amp)
+    root = root_site()
+
+    def course(x: Array) -> Array:
+        counter[0] += 1
+        cell = _cell(tree, dict(zip(names, np.exp(x).tolist(), strict=True)))
+        return tree_response(cell, stimulus, t, root, [root], tolerance=TOLERANCE).voltage[:, 0]
+
+    def residual(x: Array) -> Array:
+        return (course(x) - y) * w
+
+    result = least_squares(residual, x0, bounds=(lo, hi), method="trf", x_scale=1.0, diff_step=1e-5,
+                           xtol=1e-8, ftol=1e-8, gtol=1e-8, max_nfev=15 * (x0.size + 1))
+    x = result.x
+    r = np.asarray(result.fun, dtype=float)
+    J = np.asarray(result.jac, dtype=float)
+    chi = float(r @ r)
+    cov, _ = fit_stats.linearised_covariance(J, chi)
+    dof = t.size - x.size
+    log_iv = np.array([fit_stats.t_interval(float(x[j]), float(cov[j, j]), level, dof) for j in range(x.size)])
+    with np.errstate(over="ignore"):
+        intervals = np.exp(log_iv)
+    estimates = np.exp(x)
+    symbols = tuple(_SYMBOLS[n] for n in names)
+    condition = fit_stats.identifiability(J, cov, symbols)
+    at_bounds = tuple(n for n, xi, a, b in zip(names, x, lo, hi, strict=True) if xi - a < 1e-3 or b - xi < 1e-3)
+    for n in at_bounds:
+        notes.append(f"{_SYMBOLS[n]} ended at the edge of its search range {_BOUNDS[n]} (SI): the estimate and "
+                     f"its interval are not trustworthy")
+    notes += list(condition.statements())
+    check = fit_stats.check_residuals(r)
+    if check.structured:
+        notes.append(check.describe())
+    p = dict(zip(names, estimates.tolist(), strict=True))
+    method = (f"exact soma response of the reconstructed tree (Laplace-domain solution inverted on a hyperbolic "
+              f"contour, error {TOLERANCE:g} of the reference voltage) fitted by nonlinear least squares over the "
+              f"logarithms of {', '.join(symbols)} (scipy least_squares, trf); {100 * level:g} % intervals from "
+              f"the linearised covariance (Student t, {dof} degrees of freedom, on the log scale)")
+    return MorphologyFit(
+        names=names, estimates=estimates, intervals=intervals, correlation=fit_stats.correlation_matrix(cov),
+        condition=condition, residual_check=check,
+        membrane_time_constant=p["membrane_resistivity"] * p["membrane_capacitance"], times=t, data=y,
+        fitted=y + r / w, standard_error=1.0 / w, chi_square=chi, dof=dof, noise_scale=math.sqrt(chi / max(dof, 1)),
+        level=level, converged=bool(result.status > 0), evaluations=counter[0], window=(float(t[0]), float(t[-1])),
+        at_bounds=at_bounds, cell=_cell(tree, p), notes=tuple(notes), method=method)
