@@ -172,3 +172,22 @@ def test_outlines_are_surveyed_and_a_leaky_tip_is_recorded(capsys, tmp_path):
     assert rows["demo.outline"]["format"] == "outline"
     assert rows["cell.swc"]["format"] == "SWC"
     assert {r["status"] for r in rows.values()} == {"ok"}
+
+
+def test_progress_line_shows_cells_rate_and_time_left(capsys, monkeypatch):
+    from cabletheory.cli import survey as command
+
+    clock = iter([0.0, 0.0, 0.0, 10.0, 20.0] + [30.0] * 5)
+    monkeypatch.setattr(command.time, "monotonic", lambda: next(clock))
+    progress = command.Progress(enabled=True)
+    progress(0, 300)
+    progress(100, 300)
+    progress(300, 300)
+    progress.finish()
+    err = capsys.readouterr().err
+    assert "\rsurvey: 100/300 cells (33 %), 10.0 cells/s, about 20 s left" in err
+    assert "\rsurvey: 300/300 cells (100 %), 15.0 cells/s\x1b[K\n" in err
+    quiet = command.Progress(enabled=False)
+    quiet(5, 10)
+    quiet.finish()
+    assert capsys.readouterr().err == ""
