@@ -61,6 +61,7 @@ __all__ = [
     "Stimulus",
     "VoltageStep",
     "build_case",
+    "build_stimulus",
     "describe_end",
     "end_from_word",
     "fields_used",
@@ -353,9 +354,19 @@ def build_case(values: Mapping[str, Any]) -> Case:
         raise
     except ValueError as exc:  # the model's own checks (Rm, Ri, Cm, d positive and finite ...)
         raise CaseFieldError(_blame(str(exc)), str(exc)) from None
-    site = float(values.get("stimulus_at") or 0.0)
-    for field, example in (("duration", "0.5 ms"), ("time_to_peak", "1 ms")):
-        if field in used:
+    stimulus = build_stimulus(values, shape, float(values.get("stimulus_at") or 0.0))
+    positions = values.get("positions")
+    return Case(model, stimulus, tuple(float(x) for x in positions) if positions is not None else ())
+
+
+def build_stimulus(values: Mapping[str, Any], shape: str, site: float = 0.0) -> Stimulus:
+    """The stimulus of ``shape`` from the SI field values ``current`` or ``voltage``, ``duration``,
+    ``time_to_peak`` (the stimulus rules of :func:`build_case`, shared by the tree case), at ``site`` (m)."""
+    if shape not in STIMULUS_SHAPES:
+        raise CaseFieldError("shape", f"{shape!r} is not a stimulus shape; expected one of "
+                                      f"{', '.join(STIMULUS_SHAPES)}")
+    for field, example, wanted in (("duration", "0.5 ms", "pulse"), ("time_to_peak", "1 ms", "alpha")):
+        if shape == wanted:
             value = _required(values, field, example)
             if not (math.isfinite(value) and value > 0):
                 raise CaseFieldError(field, f"must be finite and positive, got {value!r} s")
@@ -364,17 +375,13 @@ def build_case(values: Mapping[str, Any]) -> Case:
     for field, value in (("voltage" if shape == "clamp" else "current", amplitude), ("stimulus_at", site)):
         if not math.isfinite(value):
             raise CaseFieldError(field, f"must be finite, got {value!r}")
-    stimulus: Stimulus
     if shape == "clamp":
-        stimulus = VoltageStep(amplitude, site)
-    elif shape == "pulse":
-        stimulus = CurrentPulse(amplitude, _required(values, "duration", "0.5 ms"), site)
-    elif shape == "alpha":
-        stimulus = AlphaCurrent(amplitude, _required(values, "time_to_peak", "1 ms"), site)
-    else:
-        stimulus = CurrentStep(amplitude, site)
-    positions = values.get("positions")
-    return Case(model, stimulus, tuple(float(x) for x in positions) if positions is not None else ())
+        return VoltageStep(amplitude, site)
+    if shape == "pulse":
+        return CurrentPulse(amplitude, _required(values, "duration", "0.5 ms"), site)
+    if shape == "alpha":
+        return AlphaCurrent(amplitude, _required(values, "time_to_peak", "1 ms"), site)
+    return CurrentStep(amplitude, site)
 
 
 def _blame(message: str) -> str:

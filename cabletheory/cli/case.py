@@ -42,7 +42,7 @@ def add_case_options(parser: argparse.ArgumentParser) -> None:
     The stimulus amplitude (``--current`` or ``--voltage``) has no default, so a forgotten amplitude
     is an error rather than a silent 100 pA.
     """
-    add_cable_options(parser, length_required=False)
+    add_cable_options(parser, length_required=False, diameter_required=False)
     cell = parser.add_argument_group("cell (default: the cylinder above, its origin sealed)")
     cell.add_argument("--soma-diameter", metavar="D",
                       help="spherical soma at the origin (ball and stick), e.g. '20 um'; same Rm and Cm")

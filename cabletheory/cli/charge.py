@@ -18,6 +18,7 @@ from ..units import format_quantity, parse_series
 from ..waveform import ResponseFeatures, response_features
 from .case import add_case_options, read_case_options
 from .common import add_truncation_option, read_truncation, whole_number
+from .tree_charge import add_tree_options, run_tree
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -30,6 +31,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         epilog=PASSIVE_CAVEAT,
     )
     add_case_options(parser)
+    add_tree_options(parser)
     out = parser.add_argument_group("output")
     out.add_argument("--times", metavar="TIMES",
                      help="times after onset: a list '0, 1, 5 ms' or a range '0:20:2 ms' (bare: ms; "
@@ -58,6 +60,17 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.morphology is not None:
+        times = None if args.times is None else parse_series(args.times, "time", "--times")
+        relative, absolute = _truncation_text(args.truncation)
+        if absolute:
+            raise InputError("--truncation: on a tree give a relative truncation such as 1e-8")
+        text = run_tree(args, times, relative)
+        if args.output is not None:
+            write_atomically(args.output, text + "\n")
+        else:
+            print(text)
+        return 0
     case = read_case_options(args, args.positions)
     if not case.positions:
         case = case.with_positions([case.stimulus.position])
@@ -90,6 +103,18 @@ def run(args: argparse.Namespace) -> int:
 FEATURE_POSITIONS = 20  # response features are read off the exact solution at up to this many positions
 
 _CELL_NAMES = {"infinite": "infinite cable", "ball-and-stick": "ball and stick"}
+
+
+def _truncation_text(text: str) -> tuple[float, bool]:
+    """(relative fraction, False), or (nan, True) when the text is a voltage (absolute)."""
+    raw = text.strip()
+    try:
+        value = float(raw[:-1]) / 100 if raw.endswith("%") else float(raw)
+    except ValueError:
+        return float("nan"), True
+    if not 0 < value < 1:
+        raise InputError(f"--truncation: {raw!r} must lie between 0 and 1")
+    return value, False
 
 
 def _cell_name(case: Case) -> str:

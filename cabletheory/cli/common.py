@@ -42,11 +42,12 @@ def read_membrane(args: argparse.Namespace) -> tuple[float, float, float]:
             parse_quantity(args.Cm, "membrane_capacitance", "--Cm"))
 
 
-def add_cable_options(parser: argparse.ArgumentParser, *, length_required: bool = True) -> None:
+def add_cable_options(parser: argparse.ArgumentParser, *, length_required: bool = True,
+                      diameter_required: bool = True) -> None:
     """--Rm --Ri --Cm --diameter --length --end, shared by every command about one cylinder."""
     group = parser.add_argument_group("cable (bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS)")
     add_membrane_options(group)
-    group.add_argument("--diameter", required=True, metavar="D", help="cylinder diameter, e.g. 2um")
+    group.add_argument("--diameter", required=diameter_required, metavar="D", help="cylinder diameter, e.g. 2um")
     group.add_argument("--length", required=length_required, metavar="LEN",
                        help="cylinder length, e.g. 500um; 'inf' for a semi-infinite cable")
     group.add_argument("--end", default="sealed", metavar="END",

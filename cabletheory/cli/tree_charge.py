@@ -1,0 +1,134 @@
+"""``cabletheory charge --morphology FILE``: the exact time course on a whole reconstructed tree.
+
+The tree is read as ``cabletheory tree`` reads it (SWC or an outline), the stimulus options are
+the case options of every other cell, and the sites are the morphology's own point labels
+(``--stimulus-at 412 --positions 'soma, 412, 977'``). The solution is the Laplace-domain recursion
+from the tips inverted on a contour with an error estimate (:mod:`cabletheory.tree_time`).
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import io
+
+import numpy as np
+
+from .. import PASSIVE_CAVEAT
+from ..case import CaseFieldError
+from ..errors import InputError
+from ..inputs import read_end, read_field, read_outline_value
+from ..output import dump_json, quantity, table
+from ..units import format_quantity
+from .case import OPTIONS
+from .common import read_membrane
+
+# cylinder options that a morphology replaces
+CYLINDER_ONLY = {"diameter": "--diameter", "length": "--length", "soma_diameter": "--soma-diameter"}
+
+
+def add_tree_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("whole tree (instead of a cylinder)")
+    group.add_argument("--morphology", metavar="FILE",
+                       help="a reconstructed tree (SWC or outline, read as 'cabletheory tree' reads it); the "
+                            "sites are then point labels: --stimulus-at 412 --positions 'soma, 412'")
+    group.add_argument("--tips", metavar="END",
+                       help="every tip's end with --morphology: sealed, killed or a conductance to rest "
+                            "(default: as the file says, else sealed)")
+
+
+def _labels(text: str | None) -> list[str] | None:
+    if text is None:
+        return None
+    labels = [item.strip() for item in text.split(",")]
+    if not all(labels):
+        raise InputError(f"--positions: empty point label in {text!r}; expected e.g. 'soma, 412, 977'")
+    return labels
+
+
+def read_tree_case(args: argparse.Namespace):  # -> tree_case.TreeCase
+    """The tree case of the options (every value checked; messages name the option)."""
+    from ..morphology import read_morphology
+    from ..tree import build_tree
+    from ..tree_case import build_tree_case
+    from ..tree_laplace import PassiveTree
+
+    for field, option in CYLINDER_ONLY.items():
+        if getattr(args, field) is not None:
+            raise InputError(f"{option}: the morphology gives the geometry; leave {option} out with --morphology")
+    if args.infinite:
+        raise InputError("--infinite: a morphology is a finite tree; leave --infinite out")
+    if args.end != "sealed":
+        raise InputError("--end: a tree has tips, not one far end; give --tips")
+    rm, ri, cm = read_membrane(args)
+    tree = build_tree(read_morphology(args.morphology, read_outline_value))
+    tips = read_end(args.tips, "--tips") if args.tips is not None else None
+    cell = PassiveTree(tree, rm, ri, cm, tips=tips)
+    values: dict[str, object] = {}
+    for field in ("shape", "current", "voltage", "duration", "time_to_peak"):
+        text = getattr(args, field)
+        if text is not None:
+            values[field] = read_field(field, text, OPTIONS[field])
+    try:
+        return build_tree_case(cell, values, args.stimulus_at, _labels(args.positions))
+    except CaseFieldError as exc:
+        raise InputError(f"{OPTIONS.get(exc.field, exc.field)}: {exc}") from None
+
+
+def run_tree(args: argparse.Namespace, times: list[float] | None, tolerance: float) -> str:
+    """The text, JSON or CSV of a tree case's time course."""
+    from ..tree_time import tree_response
+
+    case = read_tree_case(args)
+    t = np.linspace(0.0, 2 * case.membrane_time_constant, 11) if times is None else np.asarray(times)
+    response = tree_response(case.cell, case.stimulus, t, case.stimulus_site, case.sites,
+                             tolerance=max(tolerance, 1e-14))
+    if args.json:
+        return dump_json({
+            "inputs": {"morphology": str(args.morphology), "case": case.describe(),
+                       "stimulus_at": case.stimulus_label, "positions": list(case.labels),
+                       "parameters": {k: {"value": v, "unit": u} for k, (v, u) in case.parameters().items()}},
+            "times": quantity(response.times, "time"),
+            "positions": list(case.labels),
+            "voltage": quantity(response.voltage, "voltage"),
+            "error_estimates": quantity(response.errors, "voltage"),
+            "error_bound": quantity(response.error_bound, "voltage"),
+            "steady_state": None if response.steady_state is None else quantity(response.steady_state, "voltage"),
+            "method": response.method,
+            "assumptions": PASSIVE_CAVEAT,
+        })
+    if args.csv:
+        buffer = io.StringIO()
+        buffer.write(f"# cabletheory charge: exact voltage time course on a tree\n# case: {case.describe()}\n"
+                     f"# method: {response.method}\n# error bound: {response.error_bound!r} V\n"
+                     f"# assumptions: {PASSIVE_CAVEAT}\n")
+        writer = csv.writer(buffer, lineterminator="\n")
+        writer.writerow(["time_s", "point", "voltage_V"])
+        for i, time in enumerate(response.times):
+            for j, label in enumerate(case.labels):
+                writer.writerow([repr(float(time)), label, repr(float(response.voltage[i, j]))])
+        return buffer.getvalue().rstrip("\n")
+    digits = args.digits
+    echo = [("morphology", f"{args.morphology} ({len(case.cell.tree)} pieces)")]
+    echo += [(name.replace("_", " "), format_quantity(value, _KIND[unit], digits))
+             for name, (value, unit) in case.parameters().items()]
+    echo += [("applied at", "the soma" if case.stimulus_site.piece == -1 else f"point {case.stimulus_label}"),
+             ("tips", "as in the file" if args.tips is None else args.tips)]
+    header = ["t"] + [f"V at {label}" for label in case.labels]
+    rows = [[format_quantity(time, "time", digits) if time else "0"]
+            + [format_quantity(v, "voltage", digits) for v in response.voltage[i]] for i, time in enumerate(t)]
+    if response.steady_state is not None:
+        rows.append(["final"] + [format_quantity(v, "voltage", digits) for v in response.steady_state])
+    widths = [max(len(h), *(len(r[j]) for r in rows)) for j, h in enumerate(header)]
+    lines = ["Voltage (deviation from rest)", "-" * 29,
+             "  " + "  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
+    lines += ["  " + "  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
+    blocks = [table(echo, "Inputs (whole tree)"), "\n".join(lines),
+              f"Error estimate: every voltage above is within {format_quantity(response.error_bound, 'voltage')} "
+              f"of the exact solution ({response.method}).",
+              *[f"Note: {note}." for note in response.notes], f"Note: {PASSIVE_CAVEAT}"]
+    return "\n\n".join(blocks)
+
+
+_KIND = {"ohm*m**2": "membrane_resistivity", "ohm*m": "axial_resistivity", "F/m**2": "membrane_capacitance",
+         "s": "time", "A": "current", "V": "voltage"}
