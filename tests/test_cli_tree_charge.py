@@ -81,7 +81,7 @@ def test_text_output_names_points_and_the_error_estimate(capsys):
     (["--voltage", "10 mV", "--stimulus-at", "412"], "--stimulus-at: a voltage clamp on a tree holds the root"),
     (["--duration", "1 ms"], "--duration: does not apply to a step"),
     (["--tips", "floppy"], "--tips"),
-    (["--truncation", "1e-9 mV"], "--truncation: on a tree give a relative truncation"),
+    (["--truncation", "2"], "--truncation"),
 ])
 def test_bad_tree_options_give_one_line(capsys, extra, message):
     argv = ["charge", *MEMBRANE, "--morphology", str(PV7), *extra]
@@ -92,3 +92,22 @@ def test_bad_tree_options_give_one_line(capsys, extra, message):
     assert status == 2
     assert message in err
     assert err.count("\n") == 1
+
+
+def test_reference_writes_the_tree_table(tmp_path, capsys):
+    """reference --morphology writes the same values as charge --morphology, as CSV rows or JSON."""
+    argv = [*MEMBRANE, "--morphology", str(PV7), "--current", "50pA", "--stimulus-at", "412",
+            "--positions", "soma, 412", "--times", "0:4:2 ms"]
+    out = tmp_path / "tree.csv"
+    assert main(["reference", *argv, "--output", str(out)]) == 0
+    rows = [line for line in out.read_text(encoding="utf-8").splitlines() if not line.startswith("#")]
+    assert rows[0] == "time_s,point,voltage_V"
+    assert len(rows) == 1 + 3 * 2
+    assert "wrote" in capsys.readouterr().out
+    charge = _json(capsys, ["charge", *argv])
+    values = [float(r.split(",")[2]) for r in rows[1:]]
+    np.testing.assert_allclose(values, np.ravel(charge["voltage"]["value"]), rtol=1e-6, atol=1e-15)
+    data_path = tmp_path / "tree.json"
+    assert main(["reference", *argv, "--output", str(data_path)]) == 0
+    assert json.loads(data_path.read_text(encoding="utf-8"))["positions"] == ["soma", "412"]
+    assert main(["reference", *argv[:-4], "--output", str(tmp_path / "x.csv")]) == 2

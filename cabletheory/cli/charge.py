@@ -62,10 +62,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     if args.morphology is not None:
         times = None if args.times is None else parse_series(args.times, "time", "--times")
-        relative, absolute = _truncation_text(args.truncation)
-        if absolute:
-            raise InputError("--truncation: on a tree give a relative truncation such as 1e-8")
-        text = run_tree(args, times, relative)
+        text = run_tree(args, times)
         if args.output is not None:
             write_atomically(args.output, text + "\n")
         else:
@@ -103,18 +100,6 @@ def run(args: argparse.Namespace) -> int:
 FEATURE_POSITIONS = 20  # response features are read off the exact solution at up to this many positions
 
 _CELL_NAMES = {"infinite": "infinite cable", "ball-and-stick": "ball and stick"}
-
-
-def _truncation_text(text: str) -> tuple[float, bool]:
-    """(relative fraction, False), or (nan, True) when the text is a voltage (absolute)."""
-    raw = text.strip()
-    try:
-        value = float(raw[:-1]) / 100 if raw.endswith("%") else float(raw)
-    except ValueError:
-        return float("nan"), True
-    if not 0 < value < 1:
-        raise InputError(f"--truncation: {raw!r} must lie between 0 and 1")
-    return value, False
 
 
 def _cell_name(case: Case) -> str:

@@ -20,6 +20,7 @@ from ..verify.reading import Recording, read_recording
 from ..verify.tables import ReferenceTable, reference_csv, reference_json, reference_npz, reference_table
 from .case import add_case_options, read_case_options
 from .common import add_truncation_option, read_truncation_voltage
+from .tree_charge import add_tree_options, tree_table
 
 FORMATS = ("csv", "json", "npz")
 
@@ -102,6 +103,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         epilog=PASSIVE_CAVEAT,
     )
     add_case_options(parser)
+    add_tree_options(parser)
     add_exact_truncation(parser)
     grid = parser.add_argument_group("grid")
     grid.add_argument("--times", metavar="RANGE", help="times since onset: '0:20:0.5 ms' or '1, 2, 5 ms'")
@@ -118,6 +120,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    if getattr(args, "morphology", None) is not None:
+        return _run_tree(args)
     if args.like and (args.times or args.positions):
         raise InputError("give either --like FILE or --times/--positions, not both")
     cell_case, case = exact_from_options(args, args.positions)
@@ -155,4 +159,23 @@ def run(args: argparse.Namespace) -> int:
     print(f"wrote {args.output} ({fmt.upper()}, {table.times.size} times × {table.positions.size} positions"
           f"{'' if layout == 'wide' else ' paired'}; largest error bound "
           f"{format_quantity(table.largest_bound, 'voltage')})")
+    return 0
+
+
+def _run_tree(args: argparse.Namespace) -> int:
+    """``reference --morphology``: the exact table on a tree, long CSV rows (time_s, point, voltage_V)
+    after '#' lines, or JSON; the points are the file's own labels."""
+    if args.like:
+        raise InputError("--like: on a tree give --times and --positions (point labels)")
+    if not (args.times and args.positions):
+        raise InputError("give --times and --positions (point labels such as 'soma, 412')")
+    fmt = args.format or (Path(args.output).suffix.lstrip(".").lower() if args.output else "csv")
+    if fmt not in ("csv", "json"):
+        raise InputError(f"--output: a tree's table is written as .csv or .json, not {fmt!r}")
+    text = tree_table(args, parse_series(args.times, "time", "--times"), fmt)
+    if args.output is None:
+        print(text)
+        return 0
+    write_atomically(args.output, text + "\n")
+    print(f"wrote {args.output} ({fmt.upper()}, exact time course on a tree)")
     return 0

@@ -75,15 +75,29 @@ def read_tree_case(args: argparse.Namespace):  # -> tree_case.TreeCase
         raise InputError(f"{OPTIONS.get(exc.field, exc.field)}: {exc}") from None
 
 
-def run_tree(args: argparse.Namespace, times: list[float] | None, tolerance: float) -> str:
-    """The text, JSON or CSV of a tree case's time course."""
+def run_tree(args: argparse.Namespace, times: list[float] | None) -> str:
+    """The text, JSON or CSV of a tree case's time course (``charge --morphology``)."""
+    return tree_table(args, times, "json" if args.json else "csv" if args.csv else "text")
+
+
+def tree_table(args: argparse.Namespace, times: list[float] | None, form: str) -> str:
+    """A tree case's exact time course as ``form``: "text", "json" or "csv" (long rows), with the
+    ``--truncation`` of the options (relative, or a voltage turned relative by the case's reference
+    voltage, as for every other cell)."""
     from ..tree_time import tree_response
+    from .common import _truncation
 
     case = read_tree_case(args)
     t = np.linspace(0.0, 2 * case.membrane_time_constant, 11) if times is None else np.asarray(times)
-    response = tree_response(case.cell, case.stimulus, t, case.stimulus_site, case.sites,
-                             tolerance=max(tolerance, 1e-14))
-    if args.json:
+    value, relative = _truncation(args.truncation)
+    if relative and not 0 < value < 1:
+        raise InputError(f"--truncation: {args.truncation.strip()!r} must lie between 0 and 1 (or be a voltage)")
+    if not relative:
+        probe = tree_response(case.cell, case.stimulus, [0.0], case.stimulus_site, case.sites[:1])
+        value = value / probe.reference_voltage if probe.reference_voltage > 0 else 1e-10
+    tolerance = min(max(value, 1e-14), 1e-2)
+    response = tree_response(case.cell, case.stimulus, t, case.stimulus_site, case.sites, tolerance=tolerance)
+    if form == "json":
         return dump_json({
             "inputs": {"morphology": str(args.morphology), "case": case.describe(),
                        "stimulus_at": case.stimulus_label, "positions": list(case.labels),
@@ -97,10 +111,10 @@ def run_tree(args: argparse.Namespace, times: list[float] | None, tolerance: flo
             "method": response.method,
             "assumptions": PASSIVE_CAVEAT,
         })
-    if args.csv:
+    if form == "csv":
         buffer = io.StringIO()
-        buffer.write(f"# cabletheory charge: exact voltage time course on a tree\n# case: {case.describe()}\n"
-                     f"# method: {response.method}\n# error bound: {response.error_bound!r} V\n"
+        buffer.write(f"# cabletheory: exact voltage time course on a tree\n# case: {case.describe()}\n"
+                     f"# method: {response.method}\n# largest error estimate: {response.error_bound!r} V\n"
                      f"# assumptions: {PASSIVE_CAVEAT}\n")
         writer = csv.writer(buffer, lineterminator="\n")
         writer.writerow(["time_s", "point", "voltage_V"])
