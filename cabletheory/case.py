@@ -65,6 +65,7 @@ __all__ = [
     "describe_end",
     "end_from_word",
     "fields_used",
+    "shape_of",
 ]
 
 # --------------------------------------------------------------------------------------
@@ -359,6 +360,15 @@ def build_case(values: Mapping[str, Any]) -> Case:
     return Case(model, stimulus, tuple(float(x) for x in positions) if positions is not None else ())
 
 
+def shape_of(stimulus: Stimulus) -> str:
+    """The shape word of a stimulus (a key of :data:`STIMULUS_SHAPES`), for every kind of cell."""
+    if isinstance(stimulus, VoltageStep):
+        return "clamp"
+    if isinstance(stimulus, CurrentPulse):
+        return "pulse"
+    return "alpha" if isinstance(stimulus, AlphaCurrent) else "step"
+
+
 def build_stimulus(values: Mapping[str, Any], shape: str, site: float = 0.0) -> Stimulus:
     """The stimulus of ``shape`` from the SI field values ``current`` or ``voltage``, ``duration``,
     ``time_to_peak`` (the stimulus rules of :func:`build_case`, shared by the tree case), at ``site`` (m)."""
@@ -442,10 +452,7 @@ class Case:
     @property
     def shape(self) -> str:
         """The stimulus shape: a key of :data:`STIMULUS_SHAPES`."""
-        s = self.stimulus
-        if isinstance(s, VoltageStep):
-            return "clamp"
-        return "pulse" if isinstance(s, CurrentPulse) else "alpha" if isinstance(s, AlphaCurrent) else "step"
+        return shape_of(self.stimulus)
 
     @property
     def cylinder(self) -> Cylinder | None:

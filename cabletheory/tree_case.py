@@ -24,7 +24,16 @@ from typing import Any
 
 import numpy as np
 
-from .case import STIMULUS_SHAPES, AlphaCurrent, CaseFieldError, CurrentPulse, Stimulus, VoltageStep, build_stimulus
+from .case import (
+    STIMULUS_SHAPES,
+    AlphaCurrent,
+    CaseFieldError,
+    CurrentPulse,
+    Stimulus,
+    VoltageStep,
+    build_stimulus,
+    shape_of,
+)
 from .errors import InputError
 from .tree_laplace import PassiveTree, Site, site_at
 
@@ -68,10 +77,7 @@ class TreeCase:
     @property
     def shape(self) -> str:
         """The stimulus shape: a key of :data:`cabletheory.case.STIMULUS_SHAPES`."""
-        s = self.stimulus
-        if isinstance(s, VoltageStep):
-            return "clamp"
-        return "pulse" if isinstance(s, CurrentPulse) else "alpha" if isinstance(s, AlphaCurrent) else "step"
+        return shape_of(self.stimulus)
 
     @property
     def stimulus_site(self) -> Site:
