@@ -84,6 +84,7 @@ __all__ = [
     "root_modes",
     "root_site",
     "site_at",
+    "site_on_branch",
     "sites_along",
     "transfer_impedance",
     "transfer_impedance_precise",
@@ -227,6 +228,33 @@ def site_at(tree: Tree, label: str) -> Site:
     except ValueError:
         raise InputError(f"{tree.source}: no point {text!r} in the tree") from None
     return Site(i, float(tree.lengths[i]))
+
+
+def site_on_branch(tree: Tree, branch: int, distance: float) -> Site:
+    """The site ``distance`` (m) from the proximal end of branch ``branch``.
+
+    Branches are the unbranched runs of pieces between the root, branch points and tips,
+    numbered as :func:`cabletheory.tree.geometry.branch_ids` numbers them (parents first).
+    """
+    from .tree.geometry import branch_ids
+
+    parents = np.asarray(tree.parents)
+    children = np.bincount(parents[parents >= 0], minlength=len(tree))
+    ids = branch_ids(parents, children)
+    pieces = np.flatnonzero(ids == int(branch))
+    if not (isinstance(branch, int | np.integer) and pieces.size):
+        raise InputError(f"{tree.source}: branch {branch!r} does not exist (0..{int(ids.max())})")
+    ends = np.cumsum(np.asarray(tree.lengths)[pieces])
+    x = float(distance)
+    if not (math.isfinite(x) and 0.0 <= x <= ends[-1] * (1 + 1e-12)):
+        raise InputError(f"{tree.source}: distance {x!r} m lies outside branch {branch} (0..{float(ends[-1])!r} m)")
+    k = min(int(np.searchsorted(ends, x, side="left")), pieces.size - 1)
+    if k and x - float(ends[k - 1]) <= 1e-12 * float(ends[-1]):
+        k -= 1  # on the node between two pieces: the end of the first
+    start = float(ends[k - 1]) if k else 0.0
+    length = float(tree.lengths[pieces[k]])
+    at_end = abs(float(ends[k]) - x) <= 1e-12 * float(ends[-1])
+    return Site(int(pieces[k]), length if at_end else min(max(x - start, 0.0), length))
 
 
 def node_sites(tree: Tree) -> tuple[Site, ...]:

@@ -34,6 +34,7 @@ from cabletheory.tree_laplace import (
     root_modes,
     root_site,
     site_at,
+    site_on_branch,
     sites_along,
     transfer_impedance,
     transfer_impedance_precise,
@@ -448,3 +449,18 @@ def test_frusta_modes():
                                       chain.coefficients / modes.coefficients - 1))[[1, 2, 4, 5]])
     ratios = np.abs(errors[0] / errors[1]), np.abs(errors[1] / errors[2])
     assert np.all((np.array(ratios) > 3.6) & (np.array(ratios) < 4.4)), ratios
+
+
+def test_site_on_branch():
+    """A branch is the run of pieces between branch points: 100 µm into the second branch of a
+    chain of three 50 µm pieces that then forks is the end of its second piece."""
+    tree = sections_tree([-1, 0, 1, 2, 2], np.array([50, 50, 50, 30, 40]) * UM, np.full(5, 1.0) * UM)
+    assert site_on_branch(tree, 0, 100e-6) == Site(1, tree.lengths[1])  # the node between two pieces
+    site = site_on_branch(tree, 0, 120e-6)
+    assert site.piece == 2
+    assert site.distance == pytest.approx(20e-6, rel=1e-12)
+    assert site_on_branch(tree, 2, 40e-6) == Site(4, tree.lengths[4])
+    with pytest.raises(InputError, match="outside branch"):
+        site_on_branch(tree, 1, 31e-6)
+    with pytest.raises(InputError, match="does not exist"):
+        site_on_branch(tree, 3, 0.0)
