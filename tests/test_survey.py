@@ -297,3 +297,20 @@ def test_ctrl_c_stops_the_survey_keeps_the_journal_and_resume_finishes_it(tmp_pa
     whole = subprocess.run([*argv[:-1], str(tmp_path / "clean.csv")], capture_output=True, text=True)
     assert whole.returncode == 0, whole.stderr
     assert (tmp_path / "t.csv").read_bytes() == (tmp_path / "clean.csv").read_bytes()
+
+
+def test_a_tree_built_to_rall_s_conditions_has_its_cylinder_s_input_resistance():
+    """Rall 1959 [Rall1959]: a tree that meets the 3/2 rule and has every tip at the same
+    electrotonic distance has the input conductance of its equivalent cylinder. In the bundled
+    archive, the cells built that way differ only by the rounding of their coordinates."""
+    files = find_files([str(ARCHIVE)])
+    rows = [audit_file(f, SETTINGS) for f in files]
+    built = [r for r in rows if r["status"] == "ok" and r["tip_spread"] < 1e-5 and abs(r["ratio_worst"] - 1) < 1e-5
+             and r["branch_change_max"] == 0.0]
+    assert len(built) >= 5
+    for r in built:
+        assert abs(r["difference_percent"]) < 1e-3, r["path"]
+        assert r["reducible"] is True
+    broken = [r for r in rows if r["status"] == "ok" and r["tip_spread"] > 0.5]
+    assert broken
+    assert all(abs(r["difference_percent"]) > 1.0 for r in broken)
