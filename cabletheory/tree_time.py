@@ -51,7 +51,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from .case import AlphaCurrent, CurrentPulse, CurrentStep, VoltageStep
+from .case import AlphaCurrent, CurrentPulse, CurrentStep, VoltageStep, shape_of
 from .errors import InputError
 from .tree_laplace import (
     PassiveTree,
@@ -268,12 +268,12 @@ class TreeResponse:
 
 def _current_shape(stimulus: Stimulus) -> tuple[float, Callable[[ComplexArray], ComplexArray]]:
     """(amplitude in A, Laplace transform of the current per ampere)."""
-    if isinstance(stimulus, CurrentStep | CurrentPulse):
-        return stimulus.amplitude, lambda s: 1.0 / s
     if isinstance(stimulus, AlphaCurrent):
         tp = stimulus.time_to_peak
         return stimulus.peak, lambda s: math.e / (tp * (s + 1.0 / tp) ** 2)
-    raise InputError(f"unknown stimulus {type(stimulus).__name__}")
+    if isinstance(stimulus, CurrentStep | CurrentPulse):
+        return stimulus.amplitude, lambda s: 1.0 / s
+    raise InputError(f"a {shape_of(stimulus)} is not a current stimulus")
 
 
 def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: Site,
