@@ -68,6 +68,11 @@ def test_single_spike_perturbation_is_found_where_it_was_put() -> None:
     assert result.worst_line == 17 + 2  # header on line 1, t = 0 on line 2
     assert result.passed
     assert not vf.compare(rec, CASE, 4e-6).passed
+    # the comparison keeps every sample (file order), so no view recomputes them
+    spiked = int(np.flatnonzero(rec.lines == 17 + 2)[1])  # second voltage column of that line: 250 µm
+    assert result.errors[spiked] == pytest.approx(5e-6, rel=1e-9)
+    assert np.count_nonzero(np.abs(result.errors) > 1e-12) == 1
+    np.testing.assert_array_equal(result.errors, rec.voltage - result.exact)
 
 
 def test_proportional_perturbation_gives_known_relative_error() -> None:
