@@ -30,7 +30,8 @@ overflows for long pieces or large |s|. Sites inside a piece are handled by cutt
 there (exact: a cut cylinder is two cylinders, a cut frustum two frusta); pieces of zero length are
 contracted into their parent node.
 
-**Eigenvalues.** The decay rates :math:`1/\tau_n` of the tree are counted, not searched for:
+**Eigenvalues** (:mod:`cabletheory.tree_modes`). The decay rates :math:`1/\tau_n` of the tree are
+counted, not searched for:
 with :math:`s = -\lambda` real, the number of rates below λ is the number of negative pivots of
 the tips-inward elimination plus, for every piece, the number of its rates with both ends held
 at rest, :math:`\#\{n \ge 1: (1 + (n\pi/L)^2)/\tau < \lambda\}` (Wittrick & Williams 1971,
@@ -71,17 +72,14 @@ from numpy.typing import ArrayLike, NDArray
 
 from .cable import length_constant, semi_infinite_input_conductance
 from .case import end_from_word
-from .errors import ConvergenceError, InputError
+from .errors import InputError
 from .tree import Tree
 
 __all__ = [
     "PassiveTree",
     "Site",
-    "TreeModes",
-    "eigenvalue_count",
     "input_impedance",
     "node_sites",
-    "root_modes",
     "root_site",
     "site_at",
     "site_on_branch",
@@ -649,177 +647,6 @@ def transfer_impedance(cell: PassiveTree, s: ArrayLike, source: Site | None, rec
             a = b if source is None else int(net.nodes[-1])
             out[part, j] = _transfer(net, sol, a, b)
     return out
-
-
-# --------------------------------------------------------------------------------------
-# eigenvalues: counting, bisection, residues at the root
-# --------------------------------------------------------------------------------------
-def _count(net: _Network, rates: Array) -> IntArray:
-    """Number of decay rates of the tree (1/s) strictly below each of ``rates`` (Wittrick-Williams)."""
-    rates = np.asarray(rates, dtype=float)
-    sol = _solve(net, -rates.astype(complex), pivots=True)
-    assert sol.pivots is not None
-    piv = sol.pivots
-    negative = (np.isfinite(piv) & (piv.real < 0)).sum(axis=0)
-    k = np.sqrt(np.maximum(net.tau[:, None] * rates[None, :] - 1.0, 0.0))
-    held = np.floor(net.electrotonic[:, None] * k / math.pi - 1e-15).clip(min=0)
-    if net.tapered.size:
-        # frusta are cut short enough (_short_frusta) that none has a held rate below these rates
-        if np.any(np.max(rates) * net.tau[net.tapered] - 1.0 >= _held_floor(net)):
-            raise ConvergenceError("a frustum is too long for the rates counted; cut it shorter")
-        held[net.tapered] = 0.0
-    return (negative + held.sum(axis=0)).astype(np.int64)
-
-
-def _held_floor(net: _Network) -> Array:
-    r"""Lower bound of μ = λτ − 1 for each frustum's first rate with both ends at rest.
-
-    With both ends at rest, :math:`-(d^2V')' = \mu\,c\,d\,V` (:math:`c = 4R_i/R_m`); the Rayleigh
-    quotient gives :math:`\mu_1 \ge d_{min}^2\pi^2/(c\,d_{max}\ell^2)` [CP].
-    """
-    lo, hi = np.minimum(net.proximal, net.distal), np.maximum(net.proximal, net.distal)
-    c = 4.0 * net.axial_resistivity / net.membrane_resistivity
-    return lo**2 * math.pi**2 / (c * hi * net.lengths**2)
-
-
-def _short_frusta(cell: PassiveTree, rate: float) -> list[Site]:
-    """Cuts that leave no frustum with a rate held at both ends below ``rate`` (1/s)."""
-    tree = cell.tree
-    n = len(tree)
-    d0, d1 = np.asarray(tree.proximal_diameters), np.asarray(tree.distal_diameters)
-    ell = np.asarray(tree.lengths, dtype=float)
-    rm = _per_piece(cell.membrane_resistivity, n, "membrane_resistivity")
-    mu = np.maximum(rate * cell.time_constants - 1.0, 0.0)
-    c = 4.0 * float(cell.axial_resistivity) / rm
-    # pieces m with (ℓ/m)² < d_min²π²/(c d_max μ), with 10 % to spare
-    need = np.ceil(1.1 * ell * np.sqrt(mu * c * np.maximum(d0, d1)) / (math.pi * np.minimum(d0, d1)))
-    tapered = np.abs(d1 - d0) > _TAPER_THRESHOLD * 0.5 * (d0 + d1)
-    sites = []
-    for i in np.flatnonzero(tapered & (need > 1)).tolist():
-        m = int(need[i])
-        sites += [Site(i, ell[i] * k / m) for k in range(1, m)]
-    return sites
-
-
-def eigenvalue_count(cell: PassiveTree, rates: ArrayLike) -> IntArray:
-    """How many decay rates 1/τ_n of the whole tree lie below each given rate (1/s).
-
-    References
-    ----------
-    Wittrick & Williams (1971) Q. J. Mech. Appl. Math. 24:263 [MEM] (module docstring).
-    """
-    r = np.atleast_1d(np.asarray(rates, dtype=float))
-    if not (np.all(np.isfinite(r)) and np.all(r >= 0)):
-        raise InputError("rates must be finite and >= 0 (1/s)")
-    return _count(_network(cell, _short_frusta(cell, float(r.max(initial=0.0)))), r)
-
-
-@dataclass(frozen=True, slots=True)
-class TreeModes:
-    """The slowest modes of a tree seen at the root, SI.
-
-    Attributes
-    ----------
-    time_constants : τ_n of the modes with a voltage at the root, slowest first, s
-    coefficients : C_n of the root's step response, :math:`V/V_\\infty = 1 - \\sum C_n e^{-t/\\tau_n}`
-    residues : residue of the root input impedance :math:`Z(s)` at :math:`s = -1/\\tau_n`, Ω/s
-    hidden : time constants of the whole tree's modes with no voltage at the root (in the same
-        range), s, each listed once per multiplicity
-    multiplicities : how many independent modes share each visible τ_n
-    """
-
-    time_constants: Array
-    coefficients: Array
-    residues: Array
-    hidden: Array
-    multiplicities: IntArray
-
-
-def _bisect_rates(net: _Network, indices: IntArray, high: float) -> Array:
-    lo = np.zeros(indices.size)
-    hi = np.full(indices.size, high)
-    for _ in range(200):
-        mid = 0.5 * (lo + hi)
-        above = _count(net, mid) > indices
-        hi = np.where(above, mid, hi)
-        lo = np.where(above, lo, mid)
-        if np.all(hi - lo <= 4e-16 * hi):
-            break
-    return 0.5 * (lo + hi)
-
-
-def _classified(net: _Network, modes: int, high: float, z0: float, tau_max: float
-                ) -> tuple[Array, IntArray, NDArray[np.bool_], Array]:
-    """The first ``modes`` distinct rates below ``high``: (rates, multiplicities, seen at the root, Y'(s_n))."""
-    rates = _bisect_rates(net, np.arange(modes), high) if modes else np.zeros(0)
-    distinct: list[float] = []
-    mult: list[int] = []
-    for r in rates.tolist():
-        if distinct and abs(r - distinct[-1]) <= 1e-9 * r:
-            mult[-1] += 1
-        else:
-            distinct.append(r)
-            mult.append(1)
-    rate = np.asarray(distinct)
-    # a complex step: exact for numpy's elementary functions at any size; the Bessel functions of a
-    # frustum near the imaginary axis keep only absolute accuracy in their imaginary part, so there
-    # the step is 1e-7 (its O(step²) error is below 1e-13)
-    step = (1e-7 if net.tapered.size else 1e-20) * np.maximum(rate, 1.0 / tau_max)
-    y = _solve(net, -rate + 1j * step).total[0]
-    # at a visible rate Y vanishes (to the bisection's precision); at a hidden one a branch's
-    # admittance has a pole there, so |Y| is huge: the steady conductance separates the two
-    with np.errstate(invalid="ignore"):
-        visible = np.abs(y.real) <= 1e-3 / z0
-    return rate, np.asarray(mult, dtype=np.int64), visible, y.imag / step
-
-
-def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeModes:
-    r"""The ``count`` slowest modes with a voltage at the root: τ_n, step coefficients, residues.
-
-    Every decay rate of the tree is bracketed by bisection on :func:`eigenvalue_count` (so
-    multiple rates of symmetric trees are found, each once per multiplicity). A rate is seen at
-    the root when the root admittance :math:`Y(s)` vanishes at :math:`s = -1/\tau_n`; the root
-    impedance's residue there is :math:`r_n = 1/Y'(s_n)` (Y' by a complex step, Squire &
-    Trapp 1998), and the coefficient of a current step at the root is
-    :math:`C_n = r_n\tau_n / Z(0)`.
-
-    Parameters
-    ----------
-    count : how many visible modes, >= 1
-    search : largest number of tree modes examined (hidden ones included)
-
-    References
-    ----------
-    Wittrick & Williams (1971) [MEM]; Rall (1969) Biophys. J. 9:1483 (C_n, τ_n of a step);
-    Squire W & Trapp G (1998) SIAM Rev. 40:110 (complex-step derivative).
-    """
-    if not (isinstance(count, int) and count >= 1):
-        raise InputError(f"count must be a whole number >= 1, got {count!r}")
-    tau_max = max(float(cell.time_constants.max()), cell.soma_constants()[1])
-    z0 = float(transfer_impedance(cell, [0.0], None, [root_site()])[0, 0].real)
-    high = 2.0 / tau_max
-
-    def counted(rate: float) -> tuple[_Network, int]:
-        net = _network(cell, _short_frusta(cell, rate))
-        return net, int(_count(net, np.array([rate]))[0])
-
-    net, total = counted(high)
-    while total < min(search, 4 * count + 8) and high < 1e30:
-        high *= 2.0
-        net, total = counted(high)
-    while True:
-        rate, mult, visible, slope = _classified(net, min(total, search), high, z0, tau_max)
-        if int(visible.sum()) >= count or total >= search or high >= 1e30:
-            break
-        high *= 2.0
-        net, total = counted(high)
-    taus = 1.0 / rate
-    vis = np.flatnonzero(visible)[:count]
-    residues = 1.0 / slope[vis]
-    hidden = np.repeat(taus, mult)[np.repeat(~visible, mult)]
-    return TreeModes(time_constants=taus[vis], coefficients=residues * taus[vis] / z0, residues=residues,
-                     hidden=hidden[hidden >= (taus[vis].min() if vis.size else 0.0)],
-                     multiplicities=np.asarray(mult, dtype=np.int64)[vis])
 
 
 # --------------------------------------------------------------------------------------

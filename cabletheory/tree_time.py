@@ -56,7 +56,6 @@ from .errors import InputError
 from .tree_laplace import (
     PassiveTree,
     Site,
-    TreeModes,
     _Network,
     _network,
     _path,
@@ -64,10 +63,10 @@ from .tree_laplace import (
     _solve,
     _transfer,
     node_sites,
-    root_modes,
     root_site,
     transfer_impedance,
 )
+from .tree_modes import TreeModes, root_modes
 
 __all__ = [
     "SAFETY",
@@ -504,7 +503,7 @@ class ReductionCost:
     reduced_error_bound : V
     reduced_model : "equivalent cylinder" or "soma and equivalent cylinder"
     electrotonic_length, conductance_ratio : L and ρ of the reduction (ρ None without a soma)
-    tree_modes : τ_n and C_n of the tree at the root (:func:`~cabletheory.tree_laplace.root_modes`)
+    tree_modes : τ_n and C_n of the tree at the root (:func:`~cabletheory.tree_modes.root_modes`)
     reduced_time_constants, reduced_coefficients : τ0, τ1 (s) and C0, C1 of the reduction
     peeled_length : L a sealed cylinder would need for the tree's τ0/τ1 (Rall 1969)
     peeled_ball_and_stick : (L, ρ) of a ball and stick with the tree's τ0/τ1 and C1/C0, if any
@@ -539,7 +538,7 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     with the soma when the tree has one; its response comes from the exact series of
     :func:`cabletheory.transient.charge`. The stimulus is applied at the root of both (input
     at one dendritic site has no counterpart on the cylinder). τ0, τ1 and C1/C0 of the tree
-    are those seen at the root (:func:`~cabletheory.tree_laplace.root_modes`); the L and ρ that
+    are those seen at the root (:func:`~cabletheory.tree_modes.root_modes`); the L and ρ that
     peeling them would report come from :func:`cabletheory.inverse.estimate_from_peeling`.
 
     References

@@ -29,9 +29,7 @@ from cabletheory.tree import Tree, build_tree, exact_input_conductances, tree_fr
 from cabletheory.tree_laplace import (
     PassiveTree,
     Site,
-    eigenvalue_count,
     input_impedance,
-    root_modes,
     root_site,
     site_at,
     site_on_branch,
@@ -39,6 +37,7 @@ from cabletheory.tree_laplace import (
     transfer_impedance,
     transfer_impedance_precise,
 )
+from cabletheory.tree_modes import eigenvalue_count, root_modes
 
 RM, RI, CM = 2.0, 2.0, 0.01  # 20 kΩ·cm², 200 Ω·cm, 1 µF/cm² (τm = 20 ms)
 TAU = RM * CM
