@@ -239,7 +239,6 @@ class InfiniteCable(UniformMembrane):
 Model = Cylinder | BallAndStick | InfiniteCable
 
 
-
 class CaseFieldError(InputError):
     """A case rule is broken; ``field`` is the canonical name (a key of :data:`FIELDS`) to blame.
 

@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import Any
 
 from .cable import Cylinder
+from .case import describe_end
 from .errors import InputError
 from .units import format_quantity, si_unit
 
@@ -51,10 +52,8 @@ the ``cable`` command's JSON): the command line and the app show the same words 
 def end_description(cylinder: Cylinder) -> str:
     """The far end of a finite cylinder in words: sealed, killed, or leaky with its conductance and B."""
     g = cylinder.end_conductance
-    if g == 0:
-        return "sealed"
-    if math.isinf(g):
-        return "killed (clamped to rest)"
+    if g == 0 or math.isinf(g):
+        return describe_end(g)  # the case model's words for a sealed or killed end
     return f"leaky, {format_quantity(g, 'conductance')} (B = {cylinder.end_conductance_ratio:.4g})"
 
 
