@@ -42,6 +42,7 @@ __all__ = ["MorphologyFit", "fit_morphology"]
 Array = NDArray[np.float64]
 
 TOLERANCE = 1e-8  # error of the exact tree time course, relative to its reference voltage
+MAX_STEPS = 15  # trial points of the search (each with p more courses for its Jacobian)
 _BOUNDS = {"membrane_resistivity": (0.01, 100.0), "axial_resistivity": (0.05, 50.0),
            "membrane_capacitance": (1e-4, 0.1), "soma_shunt": (1e-13, 1e-6)}
 _SYMBOLS = {"membrane_resistivity": "Rm", "axial_resistivity": "Ri", "membrane_capacitance": "Cm",
@@ -203,7 +204,7 @@ def fit_morphology(times: ArrayLike, voltage: ArrayLike, tree: Any, current: flo
         return (course(x) - y) * w
 
     result = least_squares(residual, x0, bounds=(lo, hi), method="trf", x_scale=1.0, diff_step=1e-5,
-                           xtol=1e-8, ftol=1e-8, gtol=1e-8, max_nfev=15 * (x0.size + 1))
+                           xtol=1e-8, ftol=1e-8, gtol=1e-8, max_nfev=MAX_STEPS)
     x = result.x
     r = np.asarray(result.fun, dtype=float)
     J = np.asarray(result.jac, dtype=float)
@@ -220,6 +221,10 @@ def fit_morphology(times: ArrayLike, voltage: ArrayLike, tree: Any, current: flo
     for n in at_bounds:
         notes.append(f"{_SYMBOLS[n]} ended at the edge of its search range {_BOUNDS[n]} (SI): the estimate and "
                      f"its interval are not trustworthy")
+    if not result.status > 0:
+        notes.append(f"the search stopped after {counter[0]} exact time courses without meeting its tolerance: the "
+                     "data barely move the fit along some direction (see the correlations); the values are the "
+                     "best found, and their intervals are wide for that reason")
     notes += list(condition.statements())
     check = fit_stats.check_residuals(r)
     if check.structured:
