@@ -348,7 +348,12 @@ def _assemble(t: Array, y: Array, w: Array, taus: Array, coef: Array, offset: bo
         parameter_names=names, covariance=cov, times=t, data=y, fitted=fitted, standard_error=1.0 / w,
         chi_square=chi, dof=dof, noise_scale=math.sqrt(chi / max(dof, 1)),
         aicc=fit_stats.aicc(chi, t.size, p), residual_check=fit_stats.check_residuals(r),
-        condition=fit_stats.identifiability(J, cov, names), level=level, converged=converged)
+        condition=fit_stats.identifiability(J, cov, _display(names)), level=level, converged=converged)
+
+
+def _display(names: tuple[str, ...]) -> tuple[str, ...]:
+    """Names for sentences: V∞ for the offset, τk for ln τk."""
+    return tuple("V∞" if n == "c" else n.replace("ln tau", "τ") for n in names)
 
 
 def _prepare(times: ArrayLike, voltage: ArrayLike, standard_error: ArrayLike | None
