@@ -33,8 +33,8 @@ def compartment_time(exact: np.ndarray) -> tuple[float, str]:
     tau, lam = cylinder.time_constant, cylinder.length_constant
     times = T * tau
     final = 1.0 / np.tanh(L)  # V(0, ∞) in units of I·R∞
-    for segments, substeps in ((16, 2), (32, 4), (64, 8), (128, 16), (256, 32), (512, 64)):
-        c = compartment.discretise_cable(cylinder, segments)
+    for compartments, substeps in ((16, 2), (32, 4), (64, 8), (128, 16), (256, 32), (512, 64)):
+        c = compartment.discretise_cable(cylinder, compartments)
         current = np.zeros(c.size)
         current[0] = 1.0 / cylinder.semi_infinite_input_resistance  # so that V comes out in units of I·R∞
         start = time.perf_counter()
@@ -43,8 +43,8 @@ def compartment_time(exact: np.ndarray) -> tuple[float, str]:
         elapsed = time.perf_counter() - start
         error = np.abs(approx - exact).max() / final
         if error <= 1e-4:
-            return elapsed, f"{segments} segments, Δt = τm/{round(substeps / T[1])}: worst error {error:.1e}"
-    return elapsed, f"did not reach 1e-4 (worst error {error:.1e} with {segments} segments)"
+            return elapsed, f"{compartments} compartments, Δt = τm/{round(substeps / T[1])}: worst error {error:.1e}"
+    return elapsed, f"did not reach 1e-4 (worst error {error:.1e} with {compartments} compartments)"
 
 
 def main() -> None:

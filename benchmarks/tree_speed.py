@@ -4,8 +4,8 @@ Goal (issue 4): audit + exact steady-state input resistance of a generated tree 
 SWC points in at most 1 s, growing linearly with the number of points.
 
 The tree is generated (deterministic seed): a soma and 8 stems that branch in two, with
-unbranched sections of 10–60 points whose diameters shrink along the way. The SWC text is
-parsed once (timed separately); "analysis" is tree_from_swc + analyse_tree (sections, 3/2
+branches of 10–60 points whose diameters shrink along the way. The SWC text is
+parsed once (timed separately); "analysis" is tree_from_swc + analyse_tree (branches, 3/2
 ratios, tip distances, equivalent cylinder and cable, exact tips-inward input resistance).
 Best of 3 runs. Prints the figures and exits 1 if the 100,000-point goal is missed.
 """

@@ -67,15 +67,15 @@ def generate(branches: int = BRANCHES, seed: int = 16) -> tuple[Outline, list[in
                 open_ends.append((parent, max(0.3, (share * d_end**1.5) ** (2 / 3) * rng.uniform(0.9, 1.3))))
     n = len(parents)
     d = np.asarray(diameters)
-    sections = Outline(source="generated", names=tuple(f"p{i}" for i in range(n)),
+    outline = Outline(source="generated", names=tuple(f"p{i}" for i in range(n)),
                            parents=np.asarray(parents, dtype=np.int64), lengths=np.asarray(lengths), diameters=d,
                            end_diameters=d, lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=20e-6)
-    return sections, ends
+    return outline, ends
 
 
 def main() -> int:
-    sections, _ = generate()
-    tree = tree_from_outline(sections)
+    outline, _ = generate()
+    tree = tree_from_outline(outline)
     cell = PassiveTree(tree, RM, RI, CM)
     has_child = np.zeros(len(tree), dtype=bool)
     has_child[tree.parents[tree.parents >= 0]] = True
@@ -131,9 +131,9 @@ def main() -> int:
         c = compartment.discretise_tree(tree.parents, tree.lengths, tree.distal_diameters, RM, RI, CM, n,
                                         soma_area=tree.soma_area)
         # record sites as nodes: root, stimulated tip, and the middle of each chosen piece
-        idx = [0, int(compartment.section_nodes(c, stim_piece)[-1])]
+        idx = [0, int(compartment.branch_nodes(c, stim_piece)[-1])]
         for i in chosen:
-            own = compartment.section_nodes(c, int(i))
+            own = compartment.branch_nodes(c, int(i))
             idx.append(int(own[len(own) // 2]) if n % 2 == 0 else -1)
         current = np.zeros(c.size)
         current[idx[1]] = step.amplitude

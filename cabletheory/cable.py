@@ -30,18 +30,18 @@ __all__ = [
     "CableSummary",
     "Cylinder",
     "UniformMembrane",
-    "ac_length_constant",
     "axial_resistance_per_length",
+    "compartments_needed",
     "electrotonic_length",
     "far_end_voltage_ratio",
     "input_conductance",
     "input_impedance",
     "input_resistance",
     "length_constant",
+    "length_constant_at_frequency",
     "membrane_capacitance_per_length",
     "membrane_resistance_per_length",
     "membrane_time_constant",
-    "segments_needed",
     "semi_infinite_input_conductance",
     "semi_infinite_input_resistance",
     "summarise",
@@ -190,7 +190,7 @@ def wavenumber(frequency: ArrayLike, time_constant: ArrayLike) -> NDArray[np.com
     return np.sqrt(1.0 + 1j * omega_tau)
 
 
-def ac_length_constant(length_constant: ArrayLike, frequency: ArrayLike,
+def length_constant_at_frequency(length_constant: ArrayLike, frequency: ArrayLike,
                        time_constant: ArrayLike) -> Array:
     r"""Length constant for a sinusoid of frequency f, :math:`\lambda_f = \lambda / \mathrm{Re}\,q`.
 
@@ -206,9 +206,10 @@ def ac_length_constant(length_constant: ArrayLike, frequency: ArrayLike,
     return np.asarray(length_constant) / wavenumber(frequency, time_constant).real
 
 
-def segments_needed(length: ArrayLike, ac_length_constant: ArrayLike,
+def compartments_needed(length: ArrayLike, length_constant_at_frequency: ArrayLike,
                     fraction: float = 0.1) -> NDArray[np.int64]:
-    r"""Number of equal segments so that each is at most ``fraction`` of :math:`\lambda_f`.
+    r"""Number of equal compartments so that each is at most ``fraction`` of :math:`\lambda_f`, the length
+    constant at the rule frequency (:func:`length_constant_at_frequency`).
 
     .. math:: n = \max\left(1, \left\lceil \frac{\ell}{\text{fraction}\cdot\lambda_f}\right\rceil\right)
 
@@ -217,7 +218,7 @@ def segments_needed(length: ArrayLike, ac_length_constant: ArrayLike,
     """
     if not fraction > 0:
         raise InputError(f"fraction must be positive, got {fraction!r}")
-    ratio = np.asarray(length, dtype=float) / (fraction * np.asarray(ac_length_constant))
+    ratio = np.asarray(length, dtype=float) / (fraction * np.asarray(length_constant_at_frequency))
     # a tiny tolerance keeps 5.000000000001 from becoming 6 through rounding noise
     return np.maximum(1, np.ceil(ratio - 1e-9)).astype(np.int64)
 
@@ -528,18 +529,18 @@ class CableSummary:
     input_impedance: complex | None = None  # Ω
     transfer_impedance: NDArray[np.complex128] | None = None  # Ω, at each position
     ac_voltage_ratio: Array | None = None  # |V(x)/V(0)| at ``frequency`` = |Z_transfer / Z_in|
-    ac_length_constant: float | None = None  # m
-    segments_needed: int | None = None
-    segment_fraction: float = 0.1
+    length_constant_at_frequency: float | None = None  # m
+    compartments_needed: int | None = None
+    compartment_fraction: float = 0.1
     advice_frequency: float = 100.0  # Hz
 
 
 def summarise(cylinder: Cylinder, positions: ArrayLike = (), frequency: float | None = None,
-              segment_fraction: float = 0.1, advice_frequency: float = 100.0) -> CableSummary:
+              compartment_fraction: float = 0.1, advice_frequency: float = 100.0) -> CableSummary:
     """Evaluate every closed form of this module for one cylinder.
 
     ``positions`` are physical distances from the origin (m), each in [0, ℓ].
-    Segment advice uses λ at ``advice_frequency`` (default 100 Hz, common practice) and is
+    Compartment advice uses the length constant at ``advice_frequency`` (default 100 Hz, common practice) and is
     omitted for a semi-infinite cable.
     """
     lam = cylinder.length_constant
@@ -555,11 +556,11 @@ def summarise(cylinder: Cylinder, positions: ArrayLike = (), frequency: float | 
     if frequency is not None:
         z_in = complex(input_impedance(r_inf, L, b, frequency, tau))
         z_x = transfer_impedance(r_inf, L, b, frequency, tau, X)
-        lam_f = float(ac_length_constant(lam, frequency, tau))
+        lam_f = float(length_constant_at_frequency(lam, frequency, tau))
     n_seg = None
     if np.isfinite(cylinder.length):
-        n_seg = int(segments_needed(cylinder.length, ac_length_constant(lam, advice_frequency, tau),
-                                    segment_fraction))
+        n_seg = int(compartments_needed(cylinder.length, length_constant_at_frequency(lam, advice_frequency, tau),
+                                        compartment_fraction))
     r_in = float(input_resistance(r_inf, L, b))
     return CableSummary(
         cylinder=cylinder,
@@ -586,8 +587,8 @@ def summarise(cylinder: Cylinder, positions: ArrayLike = (), frequency: float | 
         input_impedance=z_in,
         transfer_impedance=z_x,
         ac_voltage_ratio=None if z_x is None or z_in is None else np.abs(z_x / z_in),
-        ac_length_constant=lam_f,
-        segments_needed=n_seg,
-        segment_fraction=segment_fraction,
+        length_constant_at_frequency=lam_f,
+        compartments_needed=n_seg,
+        compartment_fraction=compartment_fraction,
         advice_frequency=advice_frequency,
     )

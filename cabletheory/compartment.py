@@ -7,13 +7,13 @@ compartmental simulator's discretisation error looks like and how it shrinks.
 Scheme (vertex-centred finite volumes; common practice [CP], e.g. Hines 1984, Mascagni &
 Sherman 1998, recalled from memory [MEM]):
 
-* a section of length ℓ cut into ``n`` equal segments of length ``h = ℓ/n`` has nodes at
-  both ends of every segment, so a node sits exactly at the origin (X = 0) and at every
-  tip and branch point; sections meeting at a branch point share that node;
-* two neighbouring nodes of one section are coupled by the axial conductance
+* a branch of length ℓ cut into ``n`` equal compartments of length ``h = ℓ/n`` has nodes at
+  both ends of every compartment, so a node sits exactly at the origin (X = 0) and at every
+  tip and branch point; branches meeting at a branch point share that node;
+* two neighbouring nodes of one branch are coupled by the axial conductance
   :math:`g_a = \pi d^2 / (4 R_i h)`;
-* every node owns the membrane of the half-segments next to it (area :math:`\pi d h/2`
-  per half-segment), giving leak :math:`A/R_m` and capacitance :math:`A C_m`;
+* every node owns the membrane of the half-compartments next to it (area :math:`\pi d h/2`
+  per half-compartment), giving leak :math:`A/R_m` and capacitance :math:`A C_m`;
 * a lumped soma adds its area's leak and capacitance to the root node 0;
 * a leaky tip adds its end conductance to the tip node; a killed tip node is held at rest
   (V = 0), as is a voltage-clamped node.
@@ -30,7 +30,7 @@ usual ([CP]; Rannacher 1984, Numer. Math. 43:309, [MEM]) the first two Crank–N
 are replaced by four backward-Euler half-steps, which keeps second order.
 
 Everything is in SI (m, s, Ω, S, F, A, V) and in plain numpy / scipy; voltages are
-deviations from rest. The model is passive, linear and uniform within each section.
+deviations from rest. The model is passive, linear and uniform within each branch.
 """
 
 from __future__ import annotations
@@ -52,13 +52,13 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = [
     "SCHEMES",
     "Compartments",
+    "branch_nodes",
     "discretise_cable",
     "discretise_tree",
     "expected_order",
     "integrate",
     "node_input_resistance",
     "sample",
-    "section_nodes",
     "steady_state",
 ]
 
@@ -88,17 +88,17 @@ class Compartments:
         diagonal. Symmetric positive (semi-)definite; steady states solve G V = I.
     capacitance : (n,) node capacitances in F (membrane area × Cm, soma included at node 0).
     distance : (n,) path distance of each node from the root node 0, in m.
-    section : (n,) index of the section each node belongs to. A branch point belongs to the
-        section that ends there; the root node 0 belongs to the first section attached to
+    branch : (n,) index of the branch each node belongs to. A branch point belongs to the
+        branch that ends there; the root node 0 belongs to the first branch attached to
         the root (the soma, when given, is lumped into node 0, so -1 never occurs here).
     held : (n,) True where a node is held at rest (V = 0): killed tips.
-    proximal : (sections,) index of the node at the proximal end of each section.
+    proximal : (branches,) index of the node at the proximal end of each branch.
     """
 
     conductance: scipy.sparse.csr_matrix
     capacitance: Array
     distance: Array
-    section: NDArray[np.int64]
+    branch: NDArray[np.int64]
     held: NDArray[np.bool_] | None = None
     proximal: NDArray[np.int64] | None = None
 
@@ -111,43 +111,43 @@ class Compartments:
 # --------------------------------------------------------------------------------------
 # building the matrices
 # --------------------------------------------------------------------------------------
-def discretise_cable(cylinder: Cylinder, segments: int, *, soma_area: float | None = None) -> Compartments:
-    """Discretise one cylinder into ``segments`` equal segments (``segments + 1`` nodes).
+def discretise_cable(cylinder: Cylinder, compartments: int, *, soma_area: float | None = None) -> Compartments:
+    """Discretise one cylinder into ``compartments`` equal compartments (``compartments + 1`` nodes).
 
-    Node 0 is the origin X = 0 (where the closed forms inject), node ``segments`` the far
+    Node 0 is the origin X = 0 (where the closed forms inject), node ``compartments`` the far
     end, which is sealed, leaky or killed as ``cylinder.end_conductance`` says.
 
     Parameters
     ----------
     cylinder : the cable; its length must be finite
-    segments : number of equal segments, >= 1
+    compartments : number of equal compartments, >= 1
     soma_area : optional lumped soma membrane area in m², added to node 0
     """
     if not math.isfinite(cylinder.length):
         raise InputError("a semi-infinite cable cannot be discretised; give a finite --length")
     return discretise_tree([-1], [cylinder.length], [cylinder.diameter], cylinder.membrane_resistivity,
-                           cylinder.axial_resistivity, cylinder.membrane_capacitance, segments,
+                           cylinder.axial_resistivity, cylinder.membrane_capacitance, compartments,
                            soma_area=soma_area, end_conductances=[cylinder.end_conductance])
 
 
 def discretise_tree(parents: Sequence[int] | ArrayLike, lengths: ArrayLike, diameters: ArrayLike,
                     membrane_resistivity: float, axial_resistivity: float, membrane_capacitance: float,
-                    segments: int | Sequence[int] | ArrayLike, *, soma_area: float | None = None,
+                    compartments: int | Sequence[int] | ArrayLike, *, soma_area: float | None = None,
                     end_conductances: ArrayLike | None = None) -> Compartments:
-    """Discretise a tree of uniform cylindrical sections.
+    """Discretise a tree of uniform cylindrical branches.
 
     Parameters
     ----------
-    parents : parent section of each section, or -1 for a section attached to the root
+    parents : parent branch of each branch, or -1 for a branch attached to the root
         node 0 (the soma, if any). A parent must come before its children.
-    lengths, diameters : per section, m
+    lengths, diameters : per branch, m
     membrane_resistivity : Rm, Ω·m² (same everywhere)
     axial_resistivity : Ri, Ω·m
     membrane_capacitance : Cm, F/m²
-    segments : number of equal segments, one int for all sections or one per section
+    compartments : number of equal compartments, one int for all branches or one per branch
     soma_area : optional lumped soma area in m² (adds area/Rm and area·Cm to node 0)
-    end_conductances : per section, conductance (S) from its distal end to rest; only tips
-        (sections without children) may have one. 0 sealed (default), inf killed.
+    end_conductances : per branch, conductance (S) from its distal end to rest; only tips
+        (branches without children) may have one. 0 sealed (default), inf killed.
 
     Returns
     -------
@@ -158,12 +158,12 @@ def discretise_tree(parents: Sequence[int] | ArrayLike, lengths: ArrayLike, diam
     parent = np.asarray(parents, dtype=np.int64).ravel()
     count = parent.size
     if count == 0:
-        raise InputError("a tree needs at least one section")
-    length = _per_section(lengths, count, "lengths")
-    diameter = _per_section(diameters, count, "diameters")
-    n_seg = np.broadcast_to(np.asarray(segments), (count,))
+        raise InputError("a tree needs at least one branch")
+    length = _per_branch(lengths, count, "lengths")
+    diameter = _per_branch(diameters, count, "diameters")
+    n_seg = np.broadcast_to(np.asarray(compartments), (count,))
     if not np.all(np.asarray(n_seg) == np.round(np.asarray(n_seg, dtype=float))) or np.any(n_seg < 1):
-        raise InputError(f"segments must be whole numbers >= 1, got {segments!r}")
+        raise InputError(f"compartments must be whole numbers >= 1, got {compartments!r}")
     n_seg = n_seg.astype(np.int64)
     for name, value in (("membrane_resistivity", membrane_resistivity),
                         ("axial_resistivity", axial_resistivity),
@@ -172,12 +172,12 @@ def discretise_tree(parents: Sequence[int] | ArrayLike, lengths: ArrayLike, diam
             raise InputError(f"{name} must be finite and positive, got {value!r}")
     for i, p in enumerate(parent):
         if not -1 <= p < i:
-            raise InputError(f"section {i}: parent {p} must be -1 or an earlier section")
+            raise InputError(f"branch {i}: parent {p} must be -1 or an earlier branch")
     if not (np.all(np.isfinite(length)) and np.all(length > 0)):
         raise InputError("lengths must be finite and positive")
     if not (np.all(np.isfinite(diameter)) and np.all(diameter > 0)):
         raise InputError("diameters must be finite and positive")
-    ends = np.zeros(count) if end_conductances is None else _per_section(end_conductances, count,
+    ends = np.zeros(count) if end_conductances is None else _per_branch(end_conductances, count,
                                                                            "end_conductances")
     if np.any(np.isnan(ends)) or np.any(ends < 0):
         raise InputError("end_conductances must be >= 0 (inf for a killed end)")
@@ -185,16 +185,16 @@ def discretise_tree(parents: Sequence[int] | ArrayLike, lengths: ArrayLike, diam
     has_child[parent[parent >= 0]] = True
     if np.any(ends[has_child] != 0):
         bad = int(np.flatnonzero(has_child & (ends != 0))[0])
-        raise InputError(f"section {bad} has children; only tips can have an end conductance")
+        raise InputError(f"branch {bad} has children; only tips can have an end conductance")
     soma = 0.0 if soma_area is None else float(soma_area)
     if not (math.isfinite(soma) and soma >= 0):
         raise InputError(f"soma_area must be finite and >= 0, got {soma_area!r}")
 
     n_nodes = 1 + int(n_seg.sum())
     distance = np.zeros(n_nodes)
-    section = np.zeros(n_nodes, dtype=np.int64)
+    branch = np.zeros(n_nodes, dtype=np.int64)
     roots = np.flatnonzero(parent == -1)
-    section[0] = int(roots[0]) if roots.size else 0
+    branch[0] = int(roots[0]) if roots.size else 0
     area = np.zeros(n_nodes)
     diag_extra = np.zeros(n_nodes)
     held = np.zeros(n_nodes, dtype=bool)
@@ -212,8 +212,8 @@ def discretise_tree(parents: Sequence[int] | ArrayLike, lengths: ArrayLike, diam
         next_node += n
         proximal[i], distal[i] = start, nodes[-1]
         distance[nodes[1:]] = distance[start] + h * np.arange(1, n + 1)
-        section[nodes[1:]] = i
-        # half-segment membrane on each side of a node (finite-volume control areas)
+        branch[nodes[1:]] = i
+        # half-compartment membrane on each side of a node (finite-volume control areas)
         half = np.pi * diameter[i] * h / 2.0
         np.add.at(area, nodes[:-1], half)
         np.add.at(area, nodes[1:], half)
@@ -234,15 +234,15 @@ def discretise_tree(parents: Sequence[int] | ArrayLike, lengths: ArrayLike, diam
     diagonal = coupling + area / membrane_resistivity + diag_extra
     conductance = (off + scipy.sparse.diags(diagonal)).tocsr()
     return Compartments(conductance=conductance, capacitance=area * membrane_capacitance, distance=distance,
-                        section=section, held=held, proximal=proximal)
+                        branch=branch, held=held, proximal=proximal)
 
 
-def _per_section(values: ArrayLike, count: int, name: str) -> Array:
+def _per_branch(values: ArrayLike, count: int, name: str) -> Array:
     arr = np.asarray(values, dtype=float).ravel()
     if arr.size == 1 and count > 1:
         arr = np.full(count, arr[0])
     if arr.size != count:
-        raise InputError(f"{name}: expected {count} values (one per section), got {arr.size}")
+        raise InputError(f"{name}: expected {count} values (one per branch), got {arr.size}")
     return arr
 
 
@@ -408,29 +408,29 @@ def _checked_source(current: Callable[[float], ArrayLike], n: int) -> Callable[[
 
 
 # --------------------------------------------------------------------------------------
-# reading results along a section
+# reading results along a branch
 # --------------------------------------------------------------------------------------
-def section_nodes(c: Compartments, section: int) -> NDArray[np.int64]:
-    """Node indices along one section, proximal end first (the proximal node is shared)."""
-    if c.proximal is None or not 0 <= section < c.proximal.size:
-        raise InputError(f"section {section} does not exist")
-    own = np.flatnonzero(c.section == section)
-    own = own[own != 0]  # node 0 is the root, never a section's own node
-    return np.concatenate(([c.proximal[section]], own[np.argsort(c.distance[own], kind="stable")]))
+def branch_nodes(c: Compartments, branch: int) -> NDArray[np.int64]:
+    """Node indices along one branch, proximal end first (the proximal node is shared)."""
+    if c.proximal is None or not 0 <= branch < c.proximal.size:
+        raise InputError(f"branch {branch} does not exist")
+    own = np.flatnonzero(c.branch == branch)
+    own = own[own != 0]  # node 0 is the root, never a branch's own node
+    return np.concatenate(([c.proximal[branch]], own[np.argsort(c.distance[own], kind="stable")]))
 
 
-def sample(c: Compartments, values: ArrayLike, distance: ArrayLike, section: int = 0) -> Array:
-    """Interpolate node values linearly along one section at path distances (m) from the root.
+def sample(c: Compartments, values: ArrayLike, distance: ArrayLike, branch: int = 0) -> Array:
+    """Interpolate node values linearly along one branch at path distances (m) from the root.
 
     ``values`` is ``(..., n)`` (e.g. ``V[time, node]``); the result is ``(..., len(distance))``.
     Linear interpolation between nodes keeps the scheme's second order in Δx.
     """
-    nodes = section_nodes(c, section)
+    nodes = branch_nodes(c, branch)
     x = c.distance[nodes]
     d = np.atleast_1d(np.asarray(distance, dtype=float))
     tol = 1e-9 * max(x[-1], 1e-12)
     if np.any(d < x[0] - tol) or np.any(d > x[-1] + tol):
-        raise InputError(f"distances must lie on section {section}, between {x[0]!r} and {x[-1]!r} m")
+        raise InputError(f"distances must lie on branch {branch}, between {x[0]!r} and {x[-1]!r} m")
     vals = np.asarray(values, dtype=float)[..., nodes]
     idx = np.clip(np.searchsorted(x, d, side="right") - 1, 0, x.size - 2)
     w = np.clip((d - x[idx]) / (x[idx + 1] - x[idx]), 0.0, 1.0)

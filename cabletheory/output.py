@@ -43,7 +43,7 @@ CYLINDER_LABELS: dict[str, str] = {
     "far_end_voltage_ratio": "far-end voltage ratio V(ℓ)/V(0)",
     "input_impedance_magnitude": "input impedance |Z_in|",
     "input_impedance_phase": "input impedance phase",
-    "ac_length_constant": "AC length constant λ_f",
+    "length_constant_at_frequency": "length constant at {frequency}",
 }
 """The label of each result of one cylinder (keys of :class:`cabletheory.cable.CableSummary` and of
 the ``cable`` command's JSON): the command line and the app show the same words for the same number."""

@@ -91,7 +91,7 @@ def test_sealed_far_end_attenuation(electrotonic_length, expected):
     ],
 )
 def test_demo_cable_ac(frequency, lambda_f_um, z_inf_mohm, z_inf_deg, z_sealed_mohm, z_sealed_deg, attenuation):
-    lam_f = cable.ac_length_constant(LAM, frequency, TAU)
+    lam_f = cable.length_constant_at_frequency(LAM, frequency, TAU)
     assert float(lam_f) * 1e6 == pytest.approx(lambda_f_um, rel=1e-9)
     z_inf = complex(cable.input_impedance(R_INF, math.inf, 0.0, frequency, TAU))
     assert abs(z_inf) / 1e6 == pytest.approx(z_inf_mohm, rel=1e-9)
@@ -112,22 +112,22 @@ def test_ac_length_constant_against_high_frequency_form():
     tau = cable.membrane_time_constant(4.0, 0.009)
     assert float(tau) == pytest.approx(0.036, rel=1e-12)
     assert float(lam) * 1e6 == pytest.approx(1118.033989, rel=1e-9)
-    exact = float(cable.ac_length_constant(lam, 200.0, tau))
+    exact = float(cable.length_constant_at_frequency(lam, 200.0, tau))
     assert exact * 1e6 == pytest.approx(232.4953145, rel=1e-9)
     high_frequency = math.sqrt(1.5e-6 / (4 * math.pi * 200.0 * 1.2 * 0.009))  # √(d / (4π f Ri Cm))
     assert high_frequency * 1e6 == pytest.approx(235.0789931, rel=1e-9)
     assert exact < high_frequency
 
 
-def test_segment_advice_rule():
-    """Common practice [CP]: segments no longer than 0.1 λ at 100 Hz. For the demo cable
-    λ_100 = 271.1023147 µm (computed, Koch 1999 [Koch1999]), so 500 µm needs ceil(500 / 27.11) = 19 segments."""
-    lam_100 = cable.ac_length_constant(LAM, 100.0, TAU)
-    assert int(cable.segments_needed(ELL, lam_100)) == 19
-    assert int(cable.segments_needed(ELL, lam_100, fraction=0.05)) == 37
-    assert int(cable.segments_needed(1e-9, lam_100)) == 1
+def test_compartment_advice_rule():
+    """Common practice [CP]: compartments no longer than 0.1 of the length constant at 100 Hz. For the demo cable
+    λ_100 = 271.1023147 µm (computed, Koch 1999 [Koch1999]), so 500 µm needs ceil(500 / 27.11) = 19 compartments."""
+    lam_100 = cable.length_constant_at_frequency(LAM, 100.0, TAU)
+    assert int(cable.compartments_needed(ELL, lam_100)) == 19
+    assert int(cable.compartments_needed(ELL, lam_100, fraction=0.05)) == 37
+    assert int(cable.compartments_needed(1e-9, lam_100)) == 1
     with pytest.raises(ValueError, match="fraction"):
-        cable.segments_needed(ELL, lam_100, fraction=0.0)
+        cable.compartments_needed(ELL, lam_100, fraction=0.0)
 
 
 def test_semi_infinite_cable_is_the_long_limit():
@@ -145,7 +145,7 @@ def test_cylinder_summary_matches_functions():
     assert s.input_resistance / 1e6 == pytest.approx(529.5528737, rel=1e-9)  # computed, Rall 1959 [Rall1959]
     assert s.voltage_ratio[0] == pytest.approx(1.0, rel=1e-15)
     assert s.transfer_resistance[0] == pytest.approx(s.input_resistance, rel=1e-14)
-    assert s.segments_needed == 19
+    assert s.compartments_needed == 19
 
 
 @pytest.mark.parametrize("field", ["membrane_resistivity", "axial_resistivity", "membrane_capacitance", "diameter"])

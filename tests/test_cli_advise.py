@@ -1,4 +1,4 @@
-"""``cabletheory advise``: segment advice for a cable and a tree, against exact values."""
+"""``cabletheory advise``: compartment advice for a cable and a tree, against exact values."""
 
 from __future__ import annotations
 
@@ -12,12 +12,12 @@ CABLE = ["--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "500"]
 
 
 def test_cable_advice_json(capsys) -> None:
-    """Sealed demo cable (docs/sources.md): exact R_in 739.3466931 MΩ, computed; rule of thumb 19 segments
+    """Sealed demo cable (docs/sources.md): exact R_in 739.3466931 MΩ, computed; rule of thumb 19 compartments
     ([CP])."""
     assert main(["advise", *CABLE, "--target", "0.1%", "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["relative_error"] <= 1e-3
-    assert data["rule_of_thumb"]["segments"] == [19]
+    assert data["rule_of_thumb"]["compartments"] == [19]
     assert data["rule_of_thumb"]["relative_error"] < data["relative_error"]
 
 
@@ -40,7 +40,7 @@ def test_tree_advice(capsys) -> None:
     assert main(argv) == 0
     out = capsys.readouterr().out
     assert "exact |Z|              44.87 MΩ" in out
-    assert "Segments per section" in out
+    assert "Compartments per branch" in out
 
 
 @pytest.mark.parametrize(
@@ -61,15 +61,16 @@ def test_bad_advice_requests(argv: list[str], fragment: str, capsys) -> None:
                                    ["--soma-diameter", "20um"]])
 def test_time_course_advice_for_any_end_and_a_soma(extra: list[str], capsys) -> None:
     """Exact time course from cabletheory.transient (Rall 1969 [Rall1969] series / images): the advised count meets
-    1 % and, at second order in Δx ([CP]), lies below the rule of thumb's 19 segments (computed, docs/sources.md)."""
+    1 % and, at second order in Δx ([CP]), lies below the rule of thumb's 19 compartments (computed,
+    docs/sources.md)."""
     assert main(["advise", *CABLE, *extra, "--quantity", "time-course", "--target", "1%", "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["relative_error"] <= 0.01
-    (n,) = data["segments"]
-    assert 4 <= n < data["rule_of_thumb"]["segments"][0] == 19
+    (n,) = data["compartments"]
+    assert 4 <= n < data["rule_of_thumb"]["compartments"][0] == 19
 
 
-# the demo tree of docs/sources.md as SWC points (no soma: input at the root point); each segment's length is
+# the demo tree of docs/sources.md as SWC points (no soma: input at the root point); each piece's length is
 # the distance to its parent (300 µm trunk and daughters, 200 µm granddaughters)
 SWC_TREE = """# demo tree of docs/sources.md
 1 3 0 0 0 2.0 -1
@@ -101,7 +102,7 @@ def test_tree_advice_on_the_bundled_swc(capsys) -> None:
                  "cabletheory/data/morphologies/lumenia_pv7_interneuron.swc", "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["relative_error"] <= 0.01
-    assert len(data["segments"]) > 100
+    assert len(data["compartments"]) > 100
 
 
 @pytest.mark.parametrize(("extra", "message"), [

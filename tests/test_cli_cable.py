@@ -39,7 +39,7 @@ def test_json_keys_and_si_values(capsys):
     data = json.loads(out)
     for key in ("length_constant", "membrane_time_constant", "electrotonic_length",
                 "semi_infinite_input_resistance", "input_resistance", "far_end_voltage_ratio",
-                "input_impedance_magnitude", "input_impedance_phase", "ac_length_constant"):
+                "input_impedance_magnitude", "input_impedance_phase", "length_constant_at_frequency"):
         assert set(data[key]) == {"value", "unit"}, key
     assert data["length_constant"] == {"value": pytest.approx(1e-3, rel=1e-12), "unit": "m"}
     assert data["membrane_time_constant"] == {"value": pytest.approx(0.02, rel=1e-12), "unit": "s"}

@@ -76,14 +76,14 @@ def test_steady_profile_matches_sealed_attenuation() -> None:
     assert v[0] == pytest.approx(73.93466931e-3, rel=1e-5)
 
 
-def demo_tree(segments: int, soma_area: float | None = None) -> cp.Compartments:
+def demo_tree(compartments: int, soma_area: float | None = None) -> cp.Compartments:
     """Three-order 3/2-rule demo tree of docs/sources.md (invented numbers)."""
     d0 = 4.0
     d1, d2 = d0 * 2 ** (-2 / 3), d0 * 4 ** (-2 / 3)
     parents = [-1, 0, 0, 1, 1, 2, 2]
     lengths = np.array([300, 300, 300, 200, 200, 200, 200]) * UM
     diameters = np.array([d0, d1, d1, d2, d2, d2, d2]) * UM
-    return cp.discretise_tree(parents, lengths, diameters, RM, RI, CM, segments, soma_area=soma_area)
+    return cp.discretise_tree(parents, lengths, diameters, RM, RI, CM, compartments, soma_area=soma_area)
 
 
 def test_branched_tree_input_resistance_converges() -> None:
@@ -107,7 +107,7 @@ def test_tree_with_soma_gives_rho_and_rn() -> None:
 def test_tip_input_resistance_and_reciprocity() -> None:
     """Input at one tip: R_tip = 403.0239523 MΩ, transfer tip→root 136.2391908 MΩ, computed."""
     c = demo_tree(40)
-    tip = int(cp.section_nodes(c, 3)[-1])
+    tip = int(cp.branch_nodes(c, 3)[-1])
     assert cp.node_input_resistance(c, tip) == pytest.approx(403.0239523 * MOHM, rel=2e-4)
     unit_tip = np.zeros(c.size)
     unit_tip[tip] = 1.0
@@ -125,11 +125,11 @@ CHARGING_T = np.array([0.1, 0.5, 1.0])
 CHARGING_L1 = np.array([0.2629635738, 0.5374585210, 0.7198225011])  # computed
 
 
-def charging_error(segments: int, steps_per_tau: int, scheme: str) -> np.ndarray:
+def charging_error(compartments: int, steps_per_tau: int, scheme: str) -> np.ndarray:
     cylinder = demo_cable(length=demo_cable().length_constant)  # L = 1
     tau = cylinder.time_constant
     final = cylinder.semi_infinite_input_resistance / math.tanh(1.0)  # V(0,∞)/I = R∞ coth L
-    c = cp.discretise_cable(cylinder, segments)
+    c = cp.discretise_cable(cylinder, compartments)
     current = np.zeros(c.size)
     current[0] = 1.0
     v = cp.integrate(c, current, CHARGING_T * tau, scheme=scheme, step=tau / steps_per_tau)
@@ -211,8 +211,8 @@ def test_membrane_totals_are_conserved(d: float, length: float, n: int, end: flo
 @pytest.mark.parametrize(
     ("kwargs", "message"),
     [
-        ({"segments": 0}, "segments"),
-        ({"segments": 2.5}, "segments"),
+        ({"compartments": 0}, "compartments"),
+        ({"compartments": 2.5}, "compartments"),
         ({"parents": [-1, 1]}, "parent"),
         ({"lengths": [1e-4, -1e-4]}, "lengths"),
         ({"end_conductances": [1e-9, 0.0]}, "children"),
@@ -220,11 +220,11 @@ def test_membrane_totals_are_conserved(d: float, length: float, n: int, end: flo
     ],
 )
 def test_bad_tree_input_is_rejected(kwargs: dict, message: str) -> None:
-    args = {"parents": [-1, 0], "lengths": [1e-4, 1e-4], "diameters": [1e-6, 1e-6], "segments": 4}
+    args = {"parents": [-1, 0], "lengths": [1e-4, 1e-4], "diameters": [1e-6, 1e-6], "compartments": 4}
     args.update(kwargs)
     with pytest.raises(InputError, match=message):
         cp.discretise_tree(args.pop("parents"), args.pop("lengths"), args.pop("diameters"), RM, RI, CM,
-                           args.pop("segments"), **args)
+                           args.pop("compartments"), **args)
 
 
 def test_bad_integration_input_is_rejected() -> None:
@@ -290,4 +290,4 @@ def test_time_course_converges_to_the_exact_transient(name: str) -> None:
         errors.append(float(np.max(np.abs(cp.sample(c, v, sites) - exact.voltage))) / peak)
     orders = observed_orders(errors)
     assert orders == pytest.approx(2.0, abs=0.1)
-    assert errors[-1] < 3e-4  # 40 segments: 0.5e-4 to 2.2e-4 of the peak
+    assert errors[-1] < 3e-4  # 40 compartments: 0.5e-4 to 2.2e-4 of the peak

@@ -70,10 +70,10 @@ def test_numeric_overflow_in_a_command_is_reported_not_printed(capsys, monkeypat
     assert err.count("\n") == 1
 
 
-def test_one_segment_is_singular(capsys):
+def test_one_compartment_is_singular(capsys):
     main(["cable", "--Rm", "20000", "--Ri", "200", "--diameter", "2", "--length", "5"])
     out, _ = capsys.readouterr()
-    assert "Segment advice: 1 equal segment keeps each within 0.1 λ" in out
+    assert "Compartment advice: 1 equal compartment keeps each within 0.1 of the length constant" in out
 
 
 def test_rall_series_of_the_check_agrees_with_the_transients_for_a_very_short_cable():

@@ -46,7 +46,7 @@ MOHM = 1e6
 DATA = Path(__file__).resolve().parent.parent / "cabletheory" / "data" / "morphologies"
 
 
-def sections_tree(parents, lengths, diameters, soma_diameter=None) -> Tree:
+def outline_tree(parents, lengths, diameters, soma_diameter=None) -> Tree:
     n = len(parents)
     d = np.asarray(diameters, dtype=float)
     return tree_from_outline(Outline(
@@ -59,7 +59,7 @@ def demo(granddaughter_1=200.0, soma=None) -> Tree:
     """The demo tree of docs/sources.md (µm in, SI out)."""
     d0, d1, d2 = 4.0, 4.0 * 2 ** (-2 / 3), 4.0 * 4 ** (-2 / 3)
     lengths = np.array([300, 300, 300, granddaughter_1, 200, 200, 200]) * UM
-    return sections_tree([-1, 0, 0, 1, 1, 2, 2], lengths, np.array([d0, d1, d1, d2, d2, d2, d2]) * UM,
+    return outline_tree([-1, 0, 0, 1, 1, 2, 2], lengths, np.array([d0, d1, d1, d2, d2, d2, d2]) * UM,
                          None if soma is None else soma * UM)
 
 
@@ -132,7 +132,7 @@ def test_one_cylinder_matches_the_closed_forms(end, s_tau):
     to the far end at s = iω, with q = √(1 + sτ) (Rall 1959 [Rall1959]; the closed forms take a
     frequency, so s = iω there and any complex s through q for the input impedance)."""
     d, ell = 1.2e-6, 450e-6
-    tree = sections_tree([-1], [ell], [d])
+    tree = outline_tree([-1], [ell], [d])
     cell = PassiveTree(tree, RM, RI, CM, tips=end)
     s = s_tau / TAU
     r_inf = float(cable.semi_infinite_input_resistance(RM, RI, d))
@@ -180,7 +180,7 @@ def test_reciprocity(spec, fa, fb, s_tau, tips):
     """Z_ab(s) = Z_ba(s) at any complex s between any two points of any tree (reciprocity of a
     passive linear network; Koch & Poggio 1985 [KochPoggio1985])."""
     parents, lengths, diameters, soma = spec
-    tree = sections_tree(list(parents), np.array(lengths) * UM, np.array(diameters) * UM,
+    tree = outline_tree(list(parents), np.array(lengths) * UM, np.array(diameters) * UM,
                          None if soma is None else soma * UM)
     cell = PassiveTree(tree, RM, RI, CM, tips=tips)
     n = len(tree)
@@ -196,7 +196,7 @@ def test_reciprocity(spec, fa, fb, s_tau, tips):
 def test_a_point_inside_a_piece_is_the_same_as_cutting_the_piece():
     """Cutting a cylinder into two at the site changes nothing (electrotonic lengths add)."""
     tree = demo(240.0)
-    cut = sections_tree([-1, 0, 0, 1, 1, 2, 2, 3], np.array([300, 300, 300, 90, 200, 200, 200, 150]) * UM,
+    cut = outline_tree([-1, 0, 0, 1, 1, 2, 2, 3], np.array([300, 300, 300, 90, 200, 200, 200, 150]) * UM,
                         np.array([4.0, 4 * 2 ** (-2 / 3), 4 * 2 ** (-2 / 3)] + [4 * 4 ** (-2 / 3)] * 5) * UM)
     s = np.array([0.0, 30.0 + 100j, 2j * math.pi * 200])
     a = transfer_impedance(PassiveTree(tree, RM, RI, CM), s, Site(3, 90e-6), [Site(5, 200e-6), Site(3, 240e-6)])
@@ -213,7 +213,7 @@ def test_sealed_cylinder_modes(big_l):
     coefficients of cabletheory.transient (its own eigen-series)."""
     d = 2e-6
     lam = float(cable.length_constant(RM, RI, d))
-    cell = PassiveTree(sections_tree([-1], [big_l * lam], [d]), RM, RI, CM)
+    cell = PassiveTree(outline_tree([-1], [big_l * lam], [d]), RM, RI, CM)
     modes = root_modes(cell, 4)
     want = TAU / (1 + (np.arange(4) * math.pi / big_l) ** 2)
     np.testing.assert_allclose(modes.time_constants, want, rtol=1e-12)
@@ -230,7 +230,7 @@ def test_cylinder_modes_with_a_killed_or_leaky_end(end):
     cabletheory.transient for a step at the sealed origin."""
     d, big_l = 2e-6, 1.3
     lam = float(cable.length_constant(RM, RI, d))
-    cell = PassiveTree(sections_tree([-1], [big_l * lam], [d]), RM, RI, CM, tips=end)
+    cell = PassiveTree(outline_tree([-1], [big_l * lam], [d]), RM, RI, CM, tips=end)
     modes = root_modes(cell, 4)
     cyl = cable.Cylinder(RM, RI, CM, d, big_l * lam, math.inf if end == "killed" else end)
     reference = transient.charge(cyl, case.CurrentStep(1e-10), [0.01], [0.0], modes=4)
@@ -264,7 +264,7 @@ def test_two_equal_branches_hide_their_odd_modes():
     Sturm-Liouville facts of the cable equation [CP]."""
     d, big_l = 1e-6, 0.8
     ell = big_l * float(cable.length_constant(RM, RI, d))
-    cell = PassiveTree(sections_tree([-1, -1], [ell, ell], [d, d]), RM, RI, CM)
+    cell = PassiveTree(outline_tree([-1, -1], [ell, ell], [d, d]), RM, RI, CM)
     modes = root_modes(cell, 3)
     np.testing.assert_allclose(modes.time_constants, TAU / (1 + (np.arange(3) * math.pi / big_l) ** 2),
                                rtol=1e-12)
@@ -297,7 +297,7 @@ def test_bad_input_is_refused_in_one_line():
 def test_per_piece_membrane_changes_the_answer_where_it_should():
     """A piece with another Rm: the steady state follows Rall's rule with that piece's λ and G∞
     (cabletheory.cable), checked against the tips-inward conductance with per-piece constants."""
-    tree = sections_tree([-1, 0], [200e-6, 300e-6], [2e-6, 1e-6])
+    tree = outline_tree([-1, 0], [200e-6, 300e-6], [2e-6, 1e-6])
     rm = np.array([2.0, 0.5])
     cell = PassiveTree(tree, rm, RI, CM)
     g1 = float(cable.semi_infinite_input_conductance(0.5, RI, 1e-6))
@@ -322,7 +322,7 @@ def test_sites_along_a_path():
     assert [(s.piece, round(s.distance * 1e6, 6)) for s in sites] == [
         (3, 100.0), (1, 212.5), (1, 25.0), (2, 162.5), (6, 50.0)]
     d, ell = 1e-6, 600e-6
-    cell = PassiveTree(sections_tree([-1], [ell], [d]), RM, RI, CM)
+    cell = PassiveTree(outline_tree([-1], [ell], [d]), RM, RI, CM)
     sites, distance = sites_along(cell.tree, root_site(), Site(0, ell), 7)
     z = transfer_impedance(cell, [0.0], root_site(), sites)[0].real
     big_l = ell / float(cable.length_constant(RM, RI, d))
@@ -394,7 +394,7 @@ def test_frusta_are_the_limit_of_fine_cylinder_chains():
                 diameters.append(a + (b - a) * (j + 0.5) / k)
                 parent = len(parents) - 1
             last[i] = parent
-        chain = sections_tree(parents, lengths, diameters, 15e-6)
+        chain = outline_tree(parents, lengths, diameters, 15e-6)
         z = transfer_impedance(PassiveTree(chain, RM, RI, CM), s, Site(len(chain) - 1, lengths[-1]),
                                [root_site()])[:, 0]
         errors.append(np.abs(z / exact - 1))
@@ -443,7 +443,7 @@ def test_frusta_modes():
                 diameters.append(a + (b - a) * (j + 0.5) / k)
                 parent = len(parents) - 1
             last[i] = parent
-        chain = root_modes(PassiveTree(sections_tree(parents, lengths, diameters, 15e-6), RM, RI, CM), 3)
+        chain = root_modes(PassiveTree(outline_tree(parents, lengths, diameters, 15e-6), RM, RI, CM), 3)
         errors.append(np.concatenate((chain.time_constants / modes.time_constants - 1,
                                       chain.coefficients / modes.coefficients - 1))[[1, 2, 4, 5]])
     ratios = np.abs(errors[0] / errors[1]), np.abs(errors[1] / errors[2])
@@ -453,7 +453,7 @@ def test_frusta_modes():
 def test_site_on_branch():
     """A branch is the run of pieces between branch points: 100 µm into the second branch of a
     chain of three 50 µm pieces that then forks is the end of its second piece."""
-    tree = sections_tree([-1, 0, 1, 2, 2], np.array([50, 50, 50, 30, 40]) * UM, np.full(5, 1.0) * UM)
+    tree = outline_tree([-1, 0, 1, 2, 2], np.array([50, 50, 50, 30, 40]) * UM, np.full(5, 1.0) * UM)
     assert site_on_branch(tree, 0, 100e-6) == Site(1, tree.lengths[1])  # the node between two pieces
     site = site_on_branch(tree, 0, 120e-6)
     assert site.piece == 2

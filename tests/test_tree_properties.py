@@ -4,7 +4,7 @@
 * Electrotonic distance is ∫dx/λ, linear in length: scaling every length by k scales every
   electrotonic distance (and L of the equivalent cylinder) by k (Rall 1959 [Rall1959]).
 * Cylinders of one diameter in series are one cylinder (Rall 1959 [Rall1959]): a chain of many short
-  segments gives R∞ coth L of the whole; this also shows that deep trees need no recursion.
+  pieces gives R∞ coth L of the whole; this also shows that deep trees need no recursion.
 """
 
 from __future__ import annotations
@@ -95,7 +95,7 @@ def test_exact_resistance_lies_between_bounds(spec):
 
 
 def test_long_chain_is_one_cylinder_and_needs_no_recursion():
-    """50,000 segments in series (far deeper than Python's recursion limit) equal one cylinder."""
+    """50,000 pieces in series (far deeper than Python's recursion limit) equal one cylinder."""
     n = 50_000
     d, ell = 1.2 * UM, 0.03 * UM
     tree = make_tree(np.arange(-1, n - 1), np.full(n, ell), np.full(n, d))

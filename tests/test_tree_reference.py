@@ -124,7 +124,7 @@ def test_violations_are_found_and_named():
 # Rall 1959 [Rall1959]: a conforming tree equals its equivalent cylinder to 1e-12
 # --------------------------------------------------------------------------------------
 def conforming_tree(seed: int, depth: int = 5, target: float = 1.3, stems: int = 3) -> Tree:
-    """Uneven 3/2-rule splits, random section lengths, every tip at X = target."""
+    """Uneven 3/2-rule splits, random branch lengths, every tip at X = target."""
     rng = np.random.default_rng(seed)
     parents, lengths, diameters = [], [], []
     stack = [(-1, d, target, depth) for d in rng.uniform(1.0, 3.0, stems) * UM]
@@ -217,8 +217,8 @@ def test_one_step_is_cable_input_conductance():
 # --------------------------------------------------------------------------------------
 # independent solver: sparse compartmental steady state
 # --------------------------------------------------------------------------------------
-def _compartmental(tree: Tree, segments: int) -> float:
-    c = discretise_tree(tree.parents, tree.lengths, tree.distal_diameters, RM, RI, CM, segments,
+def _compartmental(tree: Tree, compartments: int) -> float:
+    c = discretise_tree(tree.parents, tree.lengths, tree.distal_diameters, RM, RI, CM, compartments,
                         soma_area=tree.soma_area)
     return node_input_resistance(c, 0)
 

@@ -1,4 +1,4 @@
-"""From SWC points to segments: soma conventions, type selection, tapers, the bundled cells.
+"""From SWC points to pieces: soma conventions, type selection, tapers, the bundled cells.
 
 Geometry facts used as checks are elementary [CP]: sphere area 4πr², lateral area of a
 cylinder π d ℓ, the area of a polygon (shoelace formula).
@@ -119,7 +119,7 @@ def test_bundled_realistic_cell_is_not_reducible_and_says_why():
 
 
 def test_bundled_demo_tree_file():
-    """The section-list demo file holds the demo tree of docs/sources.md (Rall 1959
+    """The outline demo file holds the demo tree of docs/sources.md (Rall 1959
     [Rall1959], 1964 [Rall1964])."""
     report = analyse_tree(build_tree(read_morphology(DATA / "lumenia_demo.outline", read_outline_value)), RM, RI)
     assert report.reducible

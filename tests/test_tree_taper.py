@@ -1,4 +1,4 @@
-"""Tapered segments (frusta): exact electrotonic length and the exact two-port, checked independently.
+"""Tapered pieces (frusta): exact electrotonic length and the exact two-port, checked independently.
 
 * scipy.integrate.quad [SciPy2020] of dx/λ(x) for the electrotonic length (the definition, Rall 1962
   [Rall1962] [MEM]);
@@ -64,7 +64,7 @@ def _bvp_input_conductance(ell, d0, d1, load):
     sol = solve_bvp(rhs, bc, xi, np.vstack([np.ones_like(xi), np.zeros_like(xi)]), tol=1e-8,
                     bc_tol=1e-12, max_nodes=100000)
     assert sol.success, sol.message
-    return -current_scale * sol.sol(0.0)[1]  # axial current into the segment for V(0) = 1
+    return -current_scale * sol.sol(0.0)[1]  # axial current into the piece for V(0) = 1
 
 
 @pytest.mark.parametrize(("ell", "d0", "d1"), [(300e-6, 3e-6, 1e-6), (150e-6, 0.8e-6, 2.4e-6),
@@ -161,5 +161,5 @@ def test_frustum_tree_equivalent_cable_keeps_area():
     area_factor = math.pi * math.sqrt(RM / (4 * RI))  # membrane area per unit X per unit d^3/2
     assert integral * area_factor == pytest.approx(report.membrane_area, rel=1e-12)
     assert report.membrane_area == pytest.approx(math.pi * 2e-6 * 500e-6, rel=1e-12)
-    assert not report.reducible  # a taper changes d^3/2 along the section
+    assert not report.reducible  # a taper changes d^3/2 along the branch
     assert report.violations[0].kind == "branch_diameter"

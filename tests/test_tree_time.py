@@ -47,7 +47,7 @@ UM = 1e-6
 NA = 1e-9
 
 
-def sections_tree(parents, lengths, diameters, soma_diameter=None) -> Tree:
+def outline_tree(parents, lengths, diameters, soma_diameter=None) -> Tree:
     n = len(parents)
     d = np.asarray(diameters, dtype=float)
     return tree_from_outline(Outline(
@@ -60,7 +60,7 @@ def demo(granddaughter_1=200.0, soma=None) -> Tree:
     """The demo tree of docs/sources.md: 3/2 rule at both branch points, equal tip distances."""
     d0, d1, d2 = 4.0, 4.0 * 2 ** (-2 / 3), 4.0 * 4 ** (-2 / 3)
     lengths = np.array([300, 300, 300, granddaughter_1, 200, 200, 200]) * UM
-    return sections_tree([-1, 0, 0, 1, 1, 2, 2], lengths, np.array([d0, d1, d1, d2, d2, d2, d2]) * UM,
+    return outline_tree([-1, 0, 0, 1, 1, 2, 2], lengths, np.array([d0, d1, d1, d2, d2, d2, d2]) * UM,
                          None if soma is None else soma * UM)
 
 
@@ -230,7 +230,7 @@ def test_compartmental_solution_converges_to_the_tree_solution():
     for n in (4, 8, 16, 32):
         c = compartment.discretise_tree(tree.parents, tree.lengths, tree.distal_diameters, RM, RI, CM, n,
                                         soma_area=tree.soma_area)
-        tip_node = int(compartment.section_nodes(c, 3)[-1])
+        tip_node = int(compartment.branch_nodes(c, 3)[-1])
         current = np.zeros(c.size)
         current[tip_node] = 0.1 * NA
         v = compartment.integrate(c, current, times, step=1e-3 / (2 * n))
@@ -271,7 +271,7 @@ def test_centroid_delay_of_an_isopotential_cell_is_tau():
     is τm (Z = R/(1 + sτm), −Z'/Z = τm at s = 0). A soma with a 0.1 µm stub is isopotential to 1e-9.
     From the stub's tip the delay to the soma is the share of the stub's axial resistance R_a in
     R_a + R_S (an instantaneous resistor in series with the soma's RC; to first order in the stub)."""
-    tree = sections_tree([-1], [0.1e-6], [1e-6], soma_diameter=20e-6)
+    tree = outline_tree([-1], [0.1e-6], [1e-6], soma_diameter=20e-6)
     m = electrotonic_map(PassiveTree(tree, RM, RI, CM))
     assert m.local_delay[0] == pytest.approx(TAU, rel=1e-9)
     r_axial = 4 * RI * 0.1e-6 / (math.pi * 1e-12)
@@ -287,7 +287,7 @@ def test_centroid_delays_along_a_long_cable():
     d = 1e-6
     lam = float(cable.length_constant(RM, RI, d))
     n = 8
-    tree = sections_tree([-1, *range(n - 1)], [5 * lam] * n, [d] * n)
+    tree = outline_tree([-1, *range(n - 1)], [5 * lam] * n, [d] * n)
     cell = PassiveTree(tree, RM, RI, CM)
     m = electrotonic_map(cell)
     assert m.local_delay[0] == pytest.approx(TAU / 2, rel=1e-10)
@@ -409,7 +409,7 @@ def test_bundled_cell_slowest_mode_and_convergence():
         c = compartment.discretise_tree(tree.parents, np.maximum(tree.lengths, 1e-12), tree.distal_diameters,
                                         RM, RI, CM, n, soma_area=tree.soma_area)
         current = np.zeros(c.size)
-        current[int(compartment.section_nodes(c, tip)[-1])] = step.amplitude
+        current[int(compartment.branch_nodes(c, tip)[-1])] = step.amplitude
         errors.append(np.max(np.abs(compartment.integrate(c, current, times, step=0.125e-3 / n)[:, 0] - exact)))
     ratios = [a / b for a, b in itertools.pairwise(errors)]
     assert all(3.3 < r < 4.7 for r in ratios), (errors, ratios)
@@ -468,7 +468,7 @@ def test_tapered_time_course_is_the_limit_of_cylinder_chains():
                 diameters.append(a + (b - a) * (j + 0.5) / k)
                 parent = len(parents) - 1
             last[i] = parent
-        chain = PassiveTree(sections_tree(parents, lengths, diameters, 15e-6), RM, RI, CM)
+        chain = PassiveTree(outline_tree(parents, lengths, diameters, 15e-6), RM, RI, CM)
         tip = Site(len(parents) - 1, lengths[-1])
         v = tree_response(chain, alpha, times, tip, [tip, root_site()]).voltage
         errors.append(np.max(np.abs(v - exact)))

@@ -115,7 +115,7 @@ def test_charging_view_exports_csv(tmp_path):
 
     drive(script)
     lines = target.read_text(encoding="utf-8").splitlines()
-    assert lines[0] == "section,quantity,index,value,unit"
+    assert lines[0] == "part,quantity,index,value,unit"
     last_time = next(line for line in lines if line.startswith("time_course,time,240,"))
     assert float(last_time.split(",")[3]) == pytest.approx(0.06)  # the "V(t) until" field
     assert last_time.endswith(",s")

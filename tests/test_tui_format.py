@@ -105,7 +105,7 @@ def test_cable_report_matches_reference_values():
     assert result(report, "semi_infinite_input_resistance") == pytest.approx(450.1581581e6, rel=1e-9)
     assert result(report, "input_resistance") == pytest.approx(739.3466931e6, rel=1e-9)
     assert result(report, "far_end_voltage_ratio") == pytest.approx(0.7932781817, rel=1e-9)
-    assert result(report, "ac_length_constant") == pytest.approx(271.1023147e-6, rel=1e-9)
+    assert result(report, "length_constant_at_frequency") == pytest.approx(271.1023147e-6, rel=1e-9)
     assert result(report, "input_impedance_magnitude") == pytest.approx(120.8122622e6, rel=1e-9)
     assert math.degrees(result(report, "input_impedance_phase")) == pytest.approx(-41.97365288, rel=1e-9)
     profile = report.tables[0]
@@ -140,7 +140,7 @@ def test_semi_infinite_cable_is_shown_over_five_length_constants():
     assert x[-1] == pytest.approx(5.0)
     assert np.asarray(report.plots[0].series[0].y) == pytest.approx(np.exp(-x), rel=1e-12)  # e^-X
     assert len(report.plots[0].series) == 1  # no frequency, no AC curve
-    assert not any(r.key == "segments_needed" for r in report.results)
+    assert not any(r.key == "compartments_needed" for r in report.results)
 
 
 def test_profile_positions_span_the_cable():
@@ -221,7 +221,7 @@ def test_json_export_is_si_with_units():
     assert data["results"]["input_resistance"] == {"value": pytest.approx(739.3466931e6, rel=1e-9),
                                                    "unit": "ohm"}
     assert data["results"]["electrotonic_length"]["unit"] == ""
-    assert data["results"]["segments_needed"] == 19
+    assert data["results"]["compartments_needed"] == 19
     profile = data["tables"]["profile"]
     assert profile["position"]["unit"] == "m"
     assert len(profile["position"]["value"]) == 41
@@ -235,8 +235,8 @@ def test_json_export_writes_infinity_as_text():
 
 def test_csv_export_is_a_tidy_table():
     rows = list(csv.DictReader(io.StringIO(export.to_csv(demo_report()))))
-    assert list(rows[0]) == ["section", "quantity", "index", "value", "unit"]
-    by_key = {(r["section"], r["quantity"], r["index"]): r for r in rows}
+    assert list(rows[0]) == ["part", "quantity", "index", "value", "unit"]
+    by_key = {(r["part"], r["quantity"], r["index"]): r for r in rows}
     assert float(by_key["results", "input_resistance", ""]["value"]) == pytest.approx(739.3466931e6, rel=1e-9)
     assert by_key["results", "input_resistance", ""]["unit"] == "ohm"
     assert float(by_key["profile", "position", "40"]["value"]) == pytest.approx(5e-4)
@@ -291,7 +291,7 @@ def test_every_key_is_unique_within_its_scope():
 
 
 def test_key_labels():
-    assert key_label("ctrl+s") == "^S"
+    assert key_label("ctrl+s") == "ctrl+s"  # spelled out, as the help panel and docs/ui.md write keys
     assert key_label("f1") == "F1"
     assert key_label("escape,q") == "escape"
 

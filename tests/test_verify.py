@@ -163,22 +163,22 @@ def test_positions_beyond_the_cable_are_rejected() -> None:
 # ---------------------------------------------------------------------------------------------
 # observed orders: BE 1, CN 2 (Crank & Nicolson 1947 [CrankNicolson1947]), and Δx² (three-point difference [CP])
 # ---------------------------------------------------------------------------------------------
-def simulated_run(segments: int, step: float, scheme: str) -> vf.Recording:
+def simulated_run(compartments: int, step: float, scheme: str) -> vf.Recording:
     times = np.array([10.0, 20.0]) * MS  # T = 0.5 and 1 for τm = 20 ms
-    c = cp.discretise_cable(DEMO, segments)
+    c = cp.discretise_cable(DEMO, compartments)
     current = np.zeros(c.size)
     current[0] = 100e-12
     v = cp.sample(c, cp.integrate(c, current, times, scheme=scheme, step=step), SITES)
-    return vf.read_recording(wide_csv(times, SITES, v), f"{scheme}-{segments}-{step}.csv", parse)
+    return vf.read_recording(wide_csv(times, SITES, v), f"{scheme}-{compartments}-{step}.csv", parse)
 
 
-@pytest.mark.parametrize(("scheme", "segments", "expected"), [("backward-euler", 200, 1.0),
+@pytest.mark.parametrize(("scheme", "compartments", "expected"), [("backward-euler", 200, 1.0),
                                                               ("crank-nicolson", 800, 2.0)])
-def test_observed_time_order_matches_theory(scheme: str, segments: int, expected: float) -> None:
+def test_observed_time_order_matches_theory(scheme: str, compartments: int, expected: float) -> None:
     """Crank & Nicolson (1947) [CrankNicolson1947]: backward Euler is first order in Δt, Crank–Nicolson second."""
     steps = np.array([1.0, 0.5, 0.25]) * MS
-    errors = [vf.compare(simulated_run(segments, s, scheme), CASE, 1.0).max_abs_error for s in steps]
-    order = vf.convergence(errors, [DEMO.length / segments] * 3, steps, scheme)
+    errors = [vf.compare(simulated_run(compartments, s, scheme), CASE, 1.0).max_abs_error for s in steps]
+    order = vf.convergence(errors, [DEMO.length / compartments] * 3, steps, scheme)
     (estimate,) = order.estimates
     assert estimate.axis == "time"
     assert estimate.observed == pytest.approx(expected, abs=0.1)
@@ -218,14 +218,14 @@ def test_sealed_step_series_matches_checks_at_each_length() -> None:
 
 
 def test_advice_meets_target_and_is_minimal_for_a_cable() -> None:
-    """Segments for 0.1 % in R_in (exact R∞ coth L = 739.3466931 MΩ, computed)."""
+    """Compartments for 0.1 % in R_in (exact R∞ coth L = 739.3466931 MΩ, computed)."""
     advice = vf.advise_cable(DEMO, "input-resistance", 1e-3)
     assert advice.exact_value.real == pytest.approx(739.3466931e6, rel=1e-9)
-    n = int(advice.segments[0])
+    n = int(advice.compartments[0])
     assert advice.error <= 1e-3
     coarser = cp.node_input_resistance(cp.discretise_cable(DEMO, n - 1))
     assert abs(coarser - 739.3466931e6) / 739.3466931e6 > 1e-3
-    assert advice.rule_segments[0] == 19  # 0.1 λ at 100 Hz: λ_f = 271.1023147 µm (computed) [CP]
+    assert advice.rule_compartments[0] == 19  # 0.1 λ at 100 Hz: λ_f = 271.1023147 µm (computed) [CP]
 
 
 def test_tree_advice_uses_exact_tree_values() -> None:

@@ -13,7 +13,7 @@ Outside references named beside each check:
   λ = 707.1067812 µm, τm = 20 ms).
 
 Every recommendation is re-checked here without the advice code: ``compartment.integrate`` at
-the advised segments and Δt against the exact course.
+the advised compartments and Δt against the exact course.
 """
 
 from __future__ import annotations
@@ -50,10 +50,10 @@ def advise(times, target: float, scheme: str, model=DEMO, site: float = 500 * UM
                            exact_time_course=exact_course(model, site), times=times, scheme=scheme, **extra)
 
 
-def solve(cylinder: Cylinder, segments: int, times, step: float, scheme: str, site: float,
+def solve(cylinder: Cylinder, compartments: int, times, step: float, scheme: str, site: float,
           soma_area: float | None = None, amplitude: float = 100e-12):
     """The reference discretisation, run by hand: V(site) in V for a step of ``amplitude`` at the origin."""
-    c = cp.discretise_cable(cylinder, segments, soma_area=soma_area)
+    c = cp.discretise_cable(cylinder, compartments, soma_area=soma_area)
     current = np.zeros(c.size)
     current[0] = amplitude
     return cp.sample(c, cp.integrate(c, current, times, scheme=scheme, step=step), [site])[:, 0]
@@ -68,7 +68,7 @@ GRID = np.arange(0, 10.0001, 0.5) * MS  # 0 to 10 ms every 0.5 ms
 
 @pytest.mark.parametrize(("scheme", "target"), [("backward-euler", 2e-3), ("crank-nicolson", 1e-3)])
 def test_advised_step_meets_the_target_against_the_independent_series(scheme: str, target: float) -> None:
-    """Sealed demo cable, far end: solve at the advised (segments, Δt) and compare with Rall's (1969) [Rall1969]
+    """Sealed demo cable, far end: solve at the advised (compartments, Δt) and compare with Rall's (1969) [Rall1969]
     series (verify.sealed_step_voltage, 100 pA): within the target, and equal to the verified error."""
     a = advise(GRID, target, scheme)
     s = a.time_step
@@ -78,13 +78,13 @@ def test_advised_step_meets_the_target_against_the_independent_series(scheme: st
     assert s.space_target == pytest.approx(target / 2)
     assert s.time_target == pytest.approx(target / 2)
     assert s.step * s.divisions == pytest.approx(0.5 * MS, rel=1e-12)  # Δt divides the output spacing
-    v = solve(DEMO, int(a.segments[0]), GRID, s.step, scheme, 500 * UM)
+    v = solve(DEMO, int(a.compartments[0]), GRID, s.step, scheme, 500 * UM)
     exact, _ = vf.sealed_step_voltage(DEMO, 100e-12, GRID, np.full(GRID.size, 500 * UM), 1e-18)
     error = relative_max_error(v, exact)
     assert error <= target
     assert error == pytest.approx(s.error, rel=1e-6)
     assert s.time_error <= s.time_target
-    assert a.error <= s.space_target  # the segments meet their share with a negligible Δt
+    assert a.error <= s.space_target  # the compartments meet their share with a negligible Δt
     assert s.error <= a.error + s.time_error + 1e-12  # triangle inequality: the two parts add at most
 
 
@@ -99,7 +99,7 @@ def test_advised_step_meets_the_target_for_a_soma_and_other_ends(model, site: fl
     s = a.time_step
     cylinder = model.cylinder if isinstance(model, tr.BallAndStick) else model
     soma = math.pi * model.soma_diameter**2 if isinstance(model, tr.BallAndStick) else None
-    v = solve(cylinder, int(a.segments[0]), GRID, s.step, "backward-euler", site, soma)
+    v = solve(cylinder, int(a.compartments[0]), GRID, s.step, "backward-euler", site, soma)
     exact = tr.charge(model, tr.CurrentStep(100e-12), GRID, [site], modes=0).voltage[:, 0]
     assert relative_max_error(v, exact) <= 2e-3
     assert relative_max_error(v, exact) == pytest.approx(s.error, rel=1e-6)
@@ -112,7 +112,7 @@ def test_advised_step_is_the_largest_that_divides_the_output_spacing() -> None:
     a = advise(GRID, 2e-3, "backward-euler")
     s = a.time_step
     assert 2 < s.divisions < 50
-    n = int(a.segments[0])
+    n = int(a.compartments[0])
     reference = solve(DEMO, n, GRID, 0.5 * MS / 400, "crank-nicolson", 500 * UM)
     at = solve(DEMO, n, GRID, s.step, "backward-euler", 500 * UM)
     coarser = solve(DEMO, n, GRID, 0.5 * MS / (s.divisions - 1), "backward-euler", 500 * UM)
@@ -129,7 +129,7 @@ def test_advised_step_is_the_largest_that_divides_the_output_spacing() -> None:
 def test_halving_the_target_shrinks_the_step_by_the_schemes_order(scheme, targets, ratio) -> None:
     """Δt(target)/Δt(target/2) = 2^(1/p); Δt = spacing/m with m a whole number (here m >= 15), so the
     ratio is met to within the rounding of m plus the small change of the error constant with the
-    segment count."""
+    compartment count."""
     grid = np.arange(0, 20.0001, 2.0) * MS
     loose, tight = (advise(grid, t, scheme).time_step for t in targets)
     assert min(loose.divisions, tight.divisions) >= 15
@@ -154,26 +154,31 @@ def test_output_spacing_limits_the_step_and_the_order_predicts_beyond_it() -> No
     assert wider.time_error <= wider.time_target
 
 
-def test_rule_of_thumb_step_error_is_measured_or_refused() -> None:
-    """The fixed 25 µs step ([CP]): its error with the advised segments equals a hand solve; with
-    output times it does not divide (every 30 µs) it is not compared."""
+def test_a_fixed_step_is_compared_only_when_asked() -> None:
+    """A fixed step of the user's choosing (here 25 µs, one example among 10, 50, 100 µs): its error
+    with the advised compartments equals a hand solve; with output times it does not divide
+    (every 30 µs) it is not compared; without one, nothing is compared."""
     times = np.arange(0, 2.00001, 0.05) * MS
-    a = advise(times, 1e-3, "backward-euler")
+    a = advise(times, 1e-3, "backward-euler", compare_step=25e-6)
     s = a.time_step
-    assert s.rule_step == 25e-6
-    v = solve(DEMO, int(a.segments[0]), times, 25e-6, "backward-euler", 500 * UM)
+    assert s.compare_step == 25e-6
+    v = solve(DEMO, int(a.compartments[0]), times, 25e-6, "backward-euler", 500 * UM)
     exact, _ = vf.sealed_step_voltage(DEMO, 100e-12, times, np.full(times.size, 500 * UM), 1e-18)
-    assert s.rule_error == pytest.approx(relative_max_error(v, exact), rel=1e-6)
-    assert s.rule_error > 1e-3  # backward Euler at 25 µs misses 0.1 % on this cable
-    odd = advise(np.arange(0, 31) * 30e-6, 1e-2, "crank-nicolson").time_step
-    assert odd.rule_error is None
+    assert s.compare_error == pytest.approx(relative_max_error(v, exact), rel=1e-6)
+    assert s.compare_error > 1e-3  # backward Euler at 25 µs misses 0.1 % on this cable
+    odd = advise(np.arange(0, 31) * 30e-6, 1e-2, "crank-nicolson", compare_step=25e-6).time_step
+    assert odd.compare_step == 25e-6
+    assert odd.compare_error is None
+    plain = advise(np.arange(0, 31) * 30e-6, 1e-2, "crank-nicolson").time_step
+    assert plain.compare_step is None
+    assert plain.compare_error is None
 
 
 @pytest.mark.parametrize(("extra", "fragment"), [
     ({"scheme": "forward-euler"}, "scheme 'forward-euler'"),
     ({"space_share": 1.0}, "space share"),
     ({"space_share": 0.0}, "space share"),
-    ({"rule_step": -25e-6}, "rule-of-thumb time step"),
+    ({"compare_step": -25e-6}, "time step to compare"),
 ])
 def test_bad_library_arguments(extra: dict, fragment: str) -> None:
     with pytest.raises(InputError, match=fragment):
@@ -198,27 +203,33 @@ def test_cli_time_step_json_and_text(capsys) -> None:
     assert step["time_relative_error"] <= 1e-3
     assert data["space_target_relative_error"] == pytest.approx(1e-3)
     assert data["relative_error"] <= 1e-3
-    assert step["rule_of_thumb"]["step"] == {"value": 2.5e-5, "unit": "s"}
+    assert "fixed_step" not in step  # only with --compare-step
     assert step["window"] == {"value": pytest.approx(0.01), "unit": "s"}
     assert step["sample_times"] == 21
     # the recommendation, checked by hand against Rall's (1969) [Rall1969] series
-    v = solve(DEMO, data["segments"][0], GRID, step["step"]["value"], "backward-euler", 500 * UM)
+    v = solve(DEMO, data["compartments"][0], GRID, step["step"]["value"], "backward-euler", 500 * UM)
     exact, _ = vf.sealed_step_voltage(DEMO, 100e-12, GRID, np.full(GRID.size, 500 * UM), 1e-18)
     assert relative_max_error(v, exact) <= 2e-3
     assert main(argv) == 0
     out = capsys.readouterr().out
     assert "Time step (backward-euler, order 1 in Δt)" in out
-    assert "0.1 % to the segments, 0.1 % to the time step" in out
-    assert f"{data['segments'][0]} segments and Δt" in out
-    assert "rule of thumb (25.00 µs step)" in out
+    assert "0.1 % to the compartments, 0.1 % to the time step" in out
+    assert f"{data['compartments'][0]} compartments and Δt" in out
+    assert "fixed step" not in out
+    assert main([*argv, "--compare-step", "50 us", "--json"]) == 0
+    fixed = json.loads(capsys.readouterr().out)["time_step"]["fixed_step"]
+    assert fixed["step"] == {"value": pytest.approx(5e-5), "unit": "s"}
+    assert fixed["relative_error"] > 0
+    assert main([*argv, "--compare-step", "50 us"]) == 0
+    assert "fixed step 50.00 µs (asked for)" in capsys.readouterr().out
 
 
 @pytest.mark.parametrize(("argv", "fragment"), [
     (["--quantity", "time-course", "--scheme", "forward-euler"], "--scheme"),
     (["--quantity", "input-resistance", "--scheme", "crank-nicolson"], "--scheme: only --quantity time-course"),
-    (["--quantity", "attenuation", "--rule-step", "25us"], "--rule-step: only --quantity time-course"),
-    (["--quantity", "time-course", "--rule-step", "-25us"], "--rule-step"),
-    (["--quantity", "time-course", "--rule-step", "5 mV"], "--rule-step"),
+    (["--quantity", "attenuation", "--compare-step", "25us"], "--compare-step: only --quantity time-course"),
+    (["--quantity", "time-course", "--compare-step", "-25us"], "--compare-step"),
+    (["--quantity", "time-course", "--compare-step", "5 mV"], "--compare-step"),
     (["--quantity", "time-course", "--times", "0 ms"], "at least one time after the onset"),
     (["--quantity", "time-course", "--times", "0,1,1.0000001 ms"], "share no step coarser"),
 ])

@@ -1,4 +1,4 @@
-"""``cabletheory advise``: segments per section for a target error, beside the rule of thumb."""
+"""``cabletheory advise``: compartments per branch for a target error, beside the rule of thumb."""
 
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ from ..compartment import SCHEMES
 from ..errors import InputError
 from ..output import dump_json, echo_cylinder, quantity, table
 from ..units import format_quantity, parse_quantity, parse_series
-from ..verify.advice import OUTPUTS, RULE_STEP, Advice, StepAdvice, advise_cable, advise_tree
+from ..verify.advice import OUTPUTS, Advice, StepAdvice, advise_cable, advise_tree
 from .common import add_membrane_options, parse_end, read_cylinder, read_membrane
 
 TREE_QUANTITIES = ("input-resistance", "impedance")
@@ -22,13 +22,14 @@ TREE_QUANTITIES = ("input-resistance", "impedance")
 def register(subparsers: argparse._SubParsersAction) -> None:
     parser = subparsers.add_parser(
         "advise",
-        help="segments per section needed for a target error, beside the 0.1 λ(100 Hz) rule",
-        description="How many equal segments a compartmental model needs so that one output is within a "
+        help="compartments per branch needed for a target error, beside a rule of thumb",
+        description="How many equal compartments a compartmental model needs so that one output is within a "
                     "target relative error, found by solving a reference discretisation (second order in "
-                    "Δx) against the exact answer; shown beside the rule of thumb (segments no longer than "
-                    "a fraction of λ at 100 Hz) and the error that rule gives. For --quantity time-course also the "
-                    "largest time step of --scheme, with half the target given to the segments and half to "
-                    "the time step, verified against the exact course. For one cable use the cable "
+                    "Δx) against the exact answer; shown beside the rule of thumb (compartments no longer than "
+                    "a fraction of the length constant at 100 Hz) and the error that rule gives. For --quantity "
+                    "time-course also the largest time step of --scheme, with half the target given to the "
+                    "compartments and half to the time step, verified against the exact course. For one cable "
+                    "use the cable "
                     "options; for a tree give --tree FILE (SWC or tree outline) or --parents/--lengths/--diameters.",
         epilog=PASSIVE_CAVEAT,
     )
@@ -41,11 +42,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                             "conductance such as 0.5nS (default sealed)")
     tree = parser.add_argument_group("tree instead of one cable")
     tree.add_argument("--tree", metavar="FILE",
-                      help="morphology read as the tree command reads it: SWC (segments as cylinders, axon left "
+                      help="morphology read as the tree command reads it: SWC (pieces as cylinders, axon left "
                            "out, soma lumped) or a tree outline; tapered branches are not allowed")
-    tree.add_argument("--parents", metavar="LIST", help="parent of each section, -1 for the root: '-1,0,0'")
-    tree.add_argument("--lengths", metavar="LIST", help="section lengths: '300,300,300 um'")
-    tree.add_argument("--diameters", metavar="LIST", help="section diameters: '4,2.52,2.52 um'")
+    tree.add_argument("--parents", metavar="LIST", help="parent of each branch, -1 for the root: '-1,0,0'")
+    tree.add_argument("--lengths", metavar="LIST", help="branch lengths: '300,300,300 um'")
+    tree.add_argument("--diameters", metavar="LIST", help="branch diameters: '4,2.52,2.52 um'")
     parser.add_argument("--soma-diameter", metavar="D",
                         help="lumped spherical soma at the origin/root (area π d²), e.g. 20um")
     parser.add_argument("--quantity", default="input-resistance", choices=list(OUTPUTS),
@@ -60,10 +61,12 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.add_argument("--scheme", choices=list(SCHEMES), default=None,
                         help="time-course only: the time scheme whose largest Δt is advised (default "
                              "crank-nicolson)")
-    parser.add_argument("--rule-step", metavar="DT",
-                        help="time-course only: the rule of thumb's fixed time step (default 25 us)")
+    parser.add_argument("--compare-step", metavar="DT",
+                        help="time-course only: also measure the error of this fixed time step with the advised "
+                             "compartments, e.g. '10 us', '25 us' or '50 us' (default: none)")
     parser.add_argument("--rule-fraction", default="0.1", metavar="FRACTION",
-                        help="rule of thumb: segment length as a fraction of λ at --rule-frequency (default 0.1)")
+                        help="rule of thumb: compartment length as a fraction of the length constant at "
+                             "--rule-frequency (default 0.1)")
     parser.add_argument("--rule-frequency", default="100 Hz", metavar="F",
                         help="rule of thumb: frequency of the length constant (default 100 Hz)")
     parser.add_argument("--json", action="store_true", help="print one JSON object with SI values")
@@ -109,27 +112,27 @@ def _tree_arrays(args: argparse.Namespace) -> tuple[np.ndarray, np.ndarray, np.n
     diameters = np.array(parse_series(args.diameters, "length", "--diameters", allow_zero=False))
     for name, arr in (("--lengths", lengths), ("--diameters", diameters)):
         if arr.size != parents.size:
-            raise InputError(f"{name}: {arr.size} values for {parents.size} sections")
-    return parents, lengths, diameters, None, f"{parents.size} sections"
+            raise InputError(f"{name}: {arr.size} values for {parents.size} branches")
+    return parents, lengths, diameters, None, f"{parents.size} branches"
 
 
 def parse_parents(text: str) -> np.ndarray:
-    """'-1,0,0' -> the parent index of each section: -1 for the first (the root), and for every other
-    section the index of a section before it; anything else is refused naming --parents."""
+    """'-1,0,0' -> the parent index of each branch: -1 for the first (the root), and for every other
+    branch the index of a branch before it; anything else is refused naming --parents."""
     items = [item.strip() for item in text.split(",")]
     if len(items) > 100_000:
-        raise InputError(f"--parents: {len(items)} sections; at most 100000")
+        raise InputError(f"--parents: {len(items)} branches; at most 100000")
     parents: list[int] = []
     for i, item in enumerate(items):
         if not re.fullmatch(r"-?[0-9]{1,6}", item):
             raise InputError(f"--parents: item {i + 1} ({item[:20]!r}) is not a whole number; expected a list such "
-                             "as '-1,0,0' (-1 for the root, then the index of each section's parent)")
+                             "as '-1,0,0' (-1 for the root, then the index of each branch's parent)")
         parent = int(item)
         if i == 0 and parent != -1:
-            raise InputError(f"--parents: the first section is the root, so its parent must be -1, not {parent}")
+            raise InputError(f"--parents: the first branch is the root, so its parent must be -1, not {parent}")
         if i > 0 and not 0 <= parent < i:
-            raise InputError(f"--parents: section {i} has parent {parent}; expected the index of an earlier "
-                             f"section (0 to {i - 1}), counting from 0")
+            raise InputError(f"--parents: branch {i} has parent {parent}; expected the index of an earlier "
+                             f"branch (0 to {i - 1}), counting from 0")
         parents.append(parent)
     return np.array(parents, dtype=np.int64)
 
@@ -141,11 +144,11 @@ def run(args: argparse.Namespace) -> int:
     rule_fraction = parse_quantity(args.rule_fraction, "dimensionless", "--rule-fraction")
     rule_frequency = parse_quantity(args.rule_frequency, "frequency", "--rule-frequency")
     if args.quantity != "time-course":
-        for option, value in (("--scheme", args.scheme), ("--rule-step", args.rule_step)):
+        for option, value in (("--scheme", args.scheme), ("--compare-step", args.compare_step)):
             if value is not None:
                 raise InputError(f"{option}: only --quantity time-course has a time step to advise")
     scheme = args.scheme or "crank-nicolson"
-    rule_step = RULE_STEP if args.rule_step is None else parse_quantity(args.rule_step, "time", "--rule-step")
+    compare_step = None if args.compare_step is None else parse_quantity(args.compare_step, "time", "--compare-step")
     frequency = parse_quantity(args.frequency, "frequency", "--frequency")
     soma_diameter = None
     if args.soma_diameter:
@@ -187,7 +190,7 @@ def run(args: argparse.Namespace) -> int:
         advice = advise_cable(cylinder, args.quantity, target, site=site, frequency=frequency,
                               soma_area=math.pi * soma_diameter**2 if soma_diameter else 0.0,
                               rule_fraction=rule_fraction, rule_frequency=rule_frequency,
-                              exact_time_course=exact_course, times=times, scheme=scheme, rule_step=rule_step)
+                              exact_time_course=exact_course, times=times, scheme=scheme, compare_step=compare_step)
         inputs = echo_cylinder(cylinder)
     if soma_diameter:
         inputs.append(("soma diameter", format_quantity(soma_diameter, "length")))
@@ -222,16 +225,16 @@ def as_json(a: Advice) -> dict:
         "quantity": a.output,
         "definition": OUTPUTS[a.output],
         "target_relative_error": a.target,
-        "segments": a.segments.tolist(),
+        "compartments": a.compartments.tolist(),
         "relative_error": a.error,
         "rule_of_thumb": {
-            "segments": a.rule_segments.tolist(),
+            "compartments": a.rule_compartments.tolist(),
             "relative_error": a.rule_error,
             "fraction_of_length_constant": a.rule_fraction,
             "frequency": quantity(a.rule_frequency, "frequency"),
         },
         "length_constants": quantity(a.length_constants, "length"),
-        "ac_length_constants": quantity(a.ac_length_constants, "length"),
+        "length_constants_at_frequency": quantity(a.length_constants_at_frequency, "length"),
         "electrotonic_lengths": quantity(a.electrotonic_lengths, "dimensionless"),
         "assumptions": PASSIVE_CAVEAT,
     }
@@ -245,12 +248,13 @@ def as_json(a: Advice) -> dict:
     return out
 
 
-SPLIT = ("{space} to the segments (measured with a negligible time step) and {time} to the time step (measured "
-         "against a time-converged run with the same segments); the two errors add to at most the target")
+SPLIT = ("{space} to the compartments (measured with a negligible time step) and {time} to the time step "
+         "(measured against a time-converged run with the same compartments); the two errors add to at most the "
+         "target")
 
 
 def _step_json(s: StepAdvice) -> dict:
-    return {
+    out = {
         "scheme": s.scheme,
         "expected_order": s.order,
         "budget_split": SPLIT.format(space=_percent(s.space_target), time=_percent(s.time_target)),
@@ -263,19 +267,21 @@ def _step_json(s: StepAdvice) -> dict:
         "steps_per_output_spacing": s.divisions,
         "time_relative_error": s.time_error,
         "relative_error": s.error,
-        "verified": "one solve with the advised segments and time step, compared with the exact course",
+        "verified": "one solve with the advised compartments and time step, compared with the exact course",
         "limited_by_output_spacing": s.limited_by_output,
         "step_estimate_without_output_limit": None if s.step_estimate is None else quantity(s.step_estimate, "time"),
         "reference_step": quantity(s.reference_step, "time"),
         "reference_time_relative_error": s.reference_error,
         "solves": s.solves,
-        "rule_of_thumb": {
-            "step": quantity(s.rule_step, "time"),
-            "relative_error": s.rule_error,
-            "note": "a fixed step common in compartmental modelling (common practice), with the advised segments"
-                    if s.rule_error is not None else "the step does not divide the sample times; not compared",
-        },
     }
+    if s.compare_step is not None:
+        out["fixed_step"] = {
+            "step": quantity(s.compare_step, "time"),
+            "relative_error": s.compare_error,
+            "note": "the fixed step asked for with --compare-step, with the advised compartments"
+                    if s.compare_error is not None else "the step does not divide the sample times; not compared",
+        }
+    return out
 
 
 def _percent(x: float) -> str:
@@ -303,55 +309,63 @@ def as_text(a: Advice, inputs: list[tuple[str, str]]) -> str:
                  ("exact peak V/I", f"{format_quantity(a.exact_value.real, 'resistance')} "
                                     "(relative errors are per the peak voltage)")]
     blocks.append(table(rows, "Question"))
-    n_sections = a.segments.size
+    n_branches = a.compartments.size
     share = a.time_step.space_target if a.time_step is not None else a.target
-    if n_sections == 1:
+    if n_branches == 1:
         need = ("needed for the target" if a.time_step is None
                 else f"needed for the space share ({_percent(share)})")
         rows = [
-            (need, f"{int(a.segments[0])} segments, error {_percent(a.error)}"),
-            (f"rule of thumb ({a.rule_fraction:g} λ at {format_quantity(a.rule_frequency, 'frequency')})",
-             f"{int(a.rule_segments[0])} segments, error {_percent(a.rule_error)}"),
-            ("λ, λ at the rule frequency", f"{format_quantity(float(a.length_constants[0]), 'length')}, "
-                                           f"{format_quantity(float(a.ac_length_constants[0]), 'length')}"),
+            (need, f"{int(a.compartments[0])} compartments, error {_percent(a.error)}"),
+            (f"rule of thumb ({a.rule_fraction:g} × length constant at "
+             f"{format_quantity(a.rule_frequency, 'frequency')})",
+             f"{int(a.rule_compartments[0])} compartments, error {_percent(a.rule_error)}"),
+            ("length constant", format_quantity(float(a.length_constants[0]), "length")),
+            (f"length constant at {format_quantity(a.rule_frequency, 'frequency')}",
+             format_quantity(float(a.length_constants_at_frequency[0]), "length")),
             ("electrotonic length L", f"{float(a.electrotonic_lengths[0]):.4g}"),
         ]
-        blocks.append(table(rows, "Segments"))
+        blocks.append(table(rows, "Compartments"))
     else:
-        lines = ["Segments per section", "--------------------",
-                 "  section       L   needed   rule of thumb"]
-        for i in range(n_sections):
-            lines.append(f"  {i:>7} {a.electrotonic_lengths[i]:7.4f} {a.segments[i]:8d} {a.rule_segments[i]:15d}")
-        lines.append(f"  total           {int(a.segments.sum()):8d} {int(a.rule_segments.sum()):15d}")
+        lines = ["Compartments per branch", "-----------------------",
+                 "   branch       L   needed   rule of thumb"]
+        for i in range(n_branches):
+            lines.append(f"  {i:>7} {a.electrotonic_lengths[i]:7.4f} {a.compartments[i]:8d} "
+                         f"{a.rule_compartments[i]:15d}")
+        lines.append(f"  total           {int(a.compartments.sum()):8d} {int(a.rule_compartments.sum()):15d}")
         lines.append(f"  error at the root: needed {_percent(a.error)}, rule of thumb {_percent(a.rule_error)}")
         blocks.append("\n".join(lines))
     verdict = "meets" if a.rule_error <= share else "misses"
     goal = "the target" if a.time_step is None else "the space share"
-    blocks.append(f"The rule of thumb {verdict} {goal} for this output. Segment counts assume equal "
-                  "segments with nodes at both ends (second order in Δx); errors were measured, not guessed.")
+    blocks.append(f"The rule of thumb {verdict} {goal} for this output. Compartment counts assume equal "
+                  "compartments with nodes at both ends (second order in Δx); errors were measured, not guessed.")
     if a.time_step is not None:
-        blocks.append(_step_text(a.time_step, int(a.segments[0]), a.target))
+        blocks.append(_step_text(a.time_step, int(a.compartments[0]), a.target))
     blocks.append(PASSIVE_CAVEAT)
     return "\n\n".join(blocks)
 
 
-def _step_text(s: StepAdvice, segments: int, target: float) -> str:
+def _step_text(s: StepAdvice, compartments: int, target: float) -> str:
     dt = format_quantity(s.step, "time")
     spacing = format_quantity(s.output_spacing, "time")
     largest = (f"{dt} = the output spacing" if s.divisions == 1
                else f"{dt} = output spacing {spacing} / {s.divisions}")
     rows = [
-        ("error budget", f"{_percent(s.space_target)} to the segments, {_percent(s.time_target)} to the time step"),
+        ("error budget", f"{_percent(s.space_target)} to the compartments, {_percent(s.time_target)} to the "
+                         "time step"),
         ("largest Δt", f"{largest}, time error {_percent(s.time_error)}"),
     ]
     if s.limited_by_output and s.step_estimate is not None:
         rows.append(("coarser steps", f"about {format_quantity(s.step_estimate, 'time')} would do by the order "
                                       "(not verified: Δt must divide the output times; give coarser --times)"))
     rows += [
-        ("verified error", f"{_percent(s.error)} with {segments} segments and Δt {dt} (target {_percent(target)})"),
-        (f"rule of thumb ({format_quantity(s.rule_step, 'time')} step)",
-         f"error {_percent(s.rule_error)} with {segments} segments" if s.rule_error is not None
-         else "does not divide the output times; not compared"),
+        ("verified error", f"{_percent(s.error)} with {compartments} compartments and Δt {dt} "
+                           f"(target {_percent(target)})"),
+    ]
+    if s.compare_step is not None:
+        rows.append((f"fixed step {format_quantity(s.compare_step, 'time')} (asked for)",
+                     f"error {_percent(s.compare_error)} with {compartments} compartments"
+                     if s.compare_error is not None else "does not divide the output times; not compared"))
+    rows += [
         ("time-converged reference", f"Crank–Nicolson Δt {format_quantity(s.reference_step, 'time')}, own time "
                                      f"error {s.reference_error * 100:.2g} % (Richardson estimate)"),
     ]
@@ -359,8 +373,8 @@ def _step_text(s: StepAdvice, segments: int, target: float) -> str:
     note = ("The target is split: " + SPLIT.format(space=_percent(s.space_target), time=_percent(s.time_target))
             + ". The largest Δt was predicted from the scheme's order and measured; the verified error is one "
               "solve with both, compared with the exact course.")
-    if s.rule_error is not None:
-        verdict = "meets" if s.rule_error <= target else "misses"
-        note += (f" The fixed {format_quantity(s.rule_step, 'time')} step common in compartmental modelling "
-                 f"{verdict} the target with these segments.")
+    if s.compare_step is not None and s.compare_error is not None:
+        verdict = "meets" if s.compare_error <= target else "misses"
+        note += (f" The fixed {format_quantity(s.compare_step, 'time')} step you asked about {verdict} the target "
+                 "with these compartments.")
     return table(rows, title) + "\n\n" + note

@@ -29,16 +29,16 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                         help="tabulate the results over several values of one input, e.g. 'diameter=0.5, 1, 2, 4 um' "
                              f"or 'length=100:1000:100 um'; INPUT is one of {', '.join(VARIABLE)}")
     parser.add_argument("--frequency", metavar="F",
-                        help="also give the impedance and AC length constant at this frequency (bare: Hz)")
+                        help="also give the impedance and the length constant at this frequency (bare: Hz)")
     parser.add_argument("--positions", metavar="POSITIONS",
                         help="distances from the origin for the voltage profile: a list '0, 100, 200 um' "
                              "or a range '0:500:50 um' (bare: µm)")
     parser.add_argument("--rule-fraction", default="0.1", metavar="FRACTION",
-                        help="segment advice (rule of thumb): largest segment as a fraction of λ at the rule "
-                             "frequency (default 0.1)")
+                        help="compartment advice (rule of thumb): longest compartment as a fraction of the "
+                             "length constant at the rule frequency (default 0.1)")
     parser.add_argument("--rule-frequency", default="100 Hz", metavar="F",
-                        help="segment advice (rule of thumb): frequency whose λ sets the segment size "
-                             "(default 100 Hz)")
+                        help="compartment advice (rule of thumb): frequency whose length constant sets the "
+                             "compartment size (default 100 Hz)")
     parser.add_argument("--digits", type=whole_number(2, 15), default=4, metavar="N",
                         help="significant digits in the human-readable output (default 4)")
     parser.add_argument("--json", action="store_true", help="print one JSON object with SI values")
@@ -184,9 +184,9 @@ def as_json(s: CableSummary) -> dict:
         "input_resistance": quantity(s.input_resistance, "resistance"),
         "input_conductance": quantity(s.input_conductance, "conductance"),
         "far_end_voltage_ratio": quantity(s.far_end_voltage_ratio, "dimensionless"),
-        "segment_advice": {
-            "segments": s.segments_needed,
-            "fraction_of_length_constant": s.segment_fraction,
+        "compartment_advice": {
+            "compartments": s.compartments_needed,
+            "fraction_of_length_constant": s.compartment_fraction,
             "frequency": quantity(s.advice_frequency, "frequency"),
         },
         "assumptions": PASSIVE_CAVEAT,
@@ -198,12 +198,12 @@ def as_json(s: CableSummary) -> dict:
             "voltage_ratio": quantity(s.voltage_ratio, "dimensionless"),
             "transfer_resistance": quantity(s.transfer_resistance, "resistance"),
         }
-    if s.frequency is not None and s.input_impedance is not None and s.ac_length_constant is not None:
+    if s.frequency is not None and s.input_impedance is not None and s.length_constant_at_frequency is not None:
         out["frequency"] = quantity(s.frequency, "frequency")
         out["input_impedance_magnitude"] = quantity(abs(s.input_impedance), "resistance")
         out["input_impedance_phase"] = quantity(math.atan2(s.input_impedance.imag, s.input_impedance.real),
                                                 "angle")
-        out["ac_length_constant"] = quantity(s.ac_length_constant, "length")
+        out["length_constant_at_frequency"] = quantity(s.length_constant_at_frequency, "length")
         if s.transfer_impedance is not None and s.positions.size:
             out["profile"]["transfer_impedance_magnitude"] = quantity(np.abs(s.transfer_impedance), "resistance")
             out["profile"]["transfer_impedance_phase"] = quantity(np.angle(s.transfer_impedance), "angle")
@@ -246,22 +246,23 @@ def as_text(s: CableSummary, digits: int = 4, *, no_length: bool = False) -> str
     if no_length:
         rows = [row for row in rows if not row[0].startswith(("electrotonic length", "input ", "far-end"))]
     blocks.append(table(rows, "Steady state (input at the origin)"))
-    if s.frequency is not None and s.input_impedance is not None and s.ac_length_constant is not None:
+    if s.frequency is not None and s.input_impedance is not None and s.length_constant_at_frequency is not None:
         z = s.input_impedance
         phase = math.degrees(math.atan2(z.imag, z.real))
         blocks.append(table([
             (labels["input_impedance_magnitude"], fmt(abs(z), "resistance")),
             (labels["input_impedance_phase"], f"{fmt(phase, 'dimensionless')}°"),
-            (labels["ac_length_constant"], fmt(s.ac_length_constant, "length")),
+            (labels["length_constant_at_frequency"].format(frequency=fmt(s.frequency, "frequency")),
+             fmt(s.length_constant_at_frequency, "length")),
         ], f"Sinusoidal input at {fmt(s.frequency, 'frequency')}"))
     if s.positions.size:
         blocks.append(_profile_table(s, digits))
-    if s.segments_needed is not None:
+    if s.compartments_needed is not None:
         blocks.append(
-            f"Segment advice: {s.segments_needed} equal segment{'s' if s.segments_needed != 1 else ''} keep"
-            f"{'s' if s.segments_needed == 1 else ''} each within "
-            f"{s.segment_fraction:g} λ at {fmt(s.advice_frequency, 'frequency')} (a rule of common practice, "
-            f"not an error bound).")
+            f"Compartment advice: {s.compartments_needed} equal compartment"
+            f"{'s' if s.compartments_needed != 1 else ''} keep{'s' if s.compartments_needed == 1 else ''} each "
+            f"within {s.compartment_fraction:g} of the length constant at {fmt(s.advice_frequency, 'frequency')} "
+            "(a rule of common practice, not an error bound; `advise` measures the error).")
     if no_length:
         blocks.append("Without --length: λ, τm and the per-length values hold for any length of this cylinder; "
                       "R∞ is the input resistance of a semi-infinite one.")

@@ -49,7 +49,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     check.add_argument("--skip-onset-sample", action="store_true",
                        help="leave out the samples recorded exactly at the onset (simulators differ on whether "
                             "that sample already includes the stimulus)")
-    check.add_argument("--dx", metavar="LIST", help="segment length of each run, e.g. '50, 25, 12.5 um' "
+    check.add_argument("--dx", metavar="LIST", help="compartment length of each run, e.g. '50, 25, 12.5 um' "
                                                    "(or '# dx = 25 um' in each file)")
     check.add_argument("--dt", metavar="LIST", help="time step of each run, e.g. '0.1, 0.05 ms' "
                                                    "(or '# dt = 0.05 ms' in each file)")

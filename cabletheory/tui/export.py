@@ -2,7 +2,7 @@
 
 * JSON: ``{"view", "title", "inputs", "results", "tables", "notes", "assumptions"}``; every
   quantity is ``{"value": <SI number>, "unit": "<SI unit>"}`` as in the command line's JSON.
-* CSV: one tidy table ``section,quantity,index,value,unit`` (SI); scalars have an empty index,
+* CSV: one tidy table ``part,quantity,index,value,unit`` (SI); scalars have an empty index,
   table columns one line per point, so a spreadsheet or pandas can pivot it.
 * Markdown: headed tables with the values as the screen shows them, and the caveat.
 * PNG / SVG: the view's plot drawn by matplotlib (imported here, lazily).
@@ -82,10 +82,10 @@ def _csv_value(value: Any) -> str:
 def to_csv(report: Report) -> str:
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(["section", "quantity", "index", "value", "unit"])
-    for section, rows in (("inputs", report.inputs), ("results", report.results)):
+    writer.writerow(["part", "quantity", "index", "value", "unit"])
+    for part, rows in (("inputs", report.inputs), ("results", report.results)):
         for row in rows:
-            writer.writerow([section, row.key, "", _csv_value(row.value), row_unit(row.kind, row.unit)])
+            writer.writerow([part, row.key, "", _csv_value(row.value), row_unit(row.kind, row.unit)])
     for table in report.tables:
         for column in table.columns:
             unit = row_unit(column.kind, column.unit)

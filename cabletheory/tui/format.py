@@ -88,11 +88,13 @@ def cable_report(s: CableSummary) -> Report:
         results += [
             Row("input_impedance_magnitude", labels["input_impedance_magnitude"], abs(z), "resistance"),
             Row("input_impedance_phase", labels["input_impedance_phase"], math.atan2(z.imag, z.real), "angle"),
-            Row("ac_length_constant", labels["ac_length_constant"], s.ac_length_constant, "length"),
+            Row("length_constant_at_frequency",
+                labels["length_constant_at_frequency"].format(frequency=format_quantity(s.frequency, "frequency")),
+                s.length_constant_at_frequency, "length"),
         ]
-    if s.segments_needed is not None:
-        results.append(Row("segments_needed", f"segments for ≤ {s.segment_fraction:g} λ at "
-                                              f"{s.advice_frequency:g} Hz (advice)", s.segments_needed))
+    if s.compartments_needed is not None:
+        results.append(Row("compartments_needed", f"compartments, {s.compartment_fraction:g} λ at "
+                                                  f"{s.advice_frequency:g} Hz rule", s.compartments_needed))
     X = s.electrotonic_positions
     columns = [
         Column("position", "x", s.positions, "length"),

@@ -18,7 +18,7 @@ class Key:
 VIEWS: dict[str, tuple[str, str]] = {
     "cylinder": ("Cylinder", "one uniform cable: constants, input resistance, V(X)"),
     "charging": ("Charging", "exact transients: V(t) and V(X) after a stimulus"),
-    "tree": ("Tree", "SWC morphology: 3/2 audit, equivalent cylinder"),
+    "tree": ("Tree", "SWC or tree outline: 3/2 audit, equivalent cylinder"),
     "check": ("Check", "simulator output against the exact solution"),
 }
 
@@ -31,7 +31,7 @@ GLOBAL_KEYS: tuple[Key, ...] = (
     Key("ctrl+t", "next_view", "next view"),
     Key("ctrl+s", "export_data", "save this view's inputs and results (.json .csv .md)"),
     Key("ctrl+g", "export_plot", "save this view's plot (.png .svg)"),
-    Key("ctrl+o", "open_file", "open a file (tree view: SWC; check view: simulator CSV)"),
+    Key("ctrl+o", "open_file", "open a file (tree view: SWC, outline; check view: CSV)"),
     Key("ctrl+q", "quit", "quit"),
 )
 
@@ -57,8 +57,6 @@ MOVE_KEYS: tuple[tuple[str, str], ...] = (
 
 
 def key_label(key: str) -> str:
-    """'ctrl+s' -> '^S', 'f1' -> 'F1' (the first key of a comma list)."""
+    """'ctrl+s' -> 'ctrl+s', 'f1' -> 'F1' (the first key of a comma list), spelled out as in the help."""
     first = key.split(",")[0]
-    if first.startswith("ctrl+"):
-        return "^" + first.removeprefix("ctrl+").upper()
     return first.upper() if first.startswith("f") and first[1:].isdigit() else first

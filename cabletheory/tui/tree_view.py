@@ -26,7 +26,7 @@ _SPECS = {spec.name: spec for spec in TREE_FIELDS}
 
 
 class TreeView(Vertical):
-    """Form on the left; the outline of sections, the verdict and the equivalent cable on the right.
+    """Form on the left; the outline of branch points and tips, the verdict and the equivalent cable on the right.
 
     Reading and auditing run in a worker thread (large trees take a moment).
     """

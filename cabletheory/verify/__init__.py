@@ -17,7 +17,7 @@ verdict. A simulator with active conductances is outside what this package can c
 
 from __future__ import annotations
 
-from .advice import OUTPUTS, RULE_STEP, Advice, StepAdvice, advise_cable, advise_tree
+from .advice import OUTPUTS, Advice, StepAdvice, advise_cable, advise_tree
 from .comparison import Comparison, Convergence, ExactCase, OrderEstimate, compare, convergence
 from .exact import exact_case, sealed_step_case, sealed_step_voltage, transient_case
 from .reading import QuantityParser, Recording, read_recording, run_spacings
@@ -35,7 +35,6 @@ from .tables import (
 
 __all__ = [
     "OUTPUTS",
-    "RULE_STEP",
     "STIMULUS_KEYS",
     "Advice",
     "Comparison",

@@ -1,11 +1,12 @@
 r"""Discretisation advice: the compartments a target accuracy needs, and the time step.
 
-:func:`advise_cable` and :func:`advise_tree` find the segments per section that meet a target
+:func:`advise_cable` and :func:`advise_tree` find the compartments per branch that meet a target
 error in a chosen output, using the exact answer and the reference discretisation of
-:mod:`cabletheory.compartment`, beside the common rule of thumb ([CP]: segments no longer than
-0.1 λ at 100 Hz) and the error that rule gives; for a time course also the largest time step of
-backward Euler or Crank–Nicolson (:class:`StepAdvice`), predicted from the scheme's order,
-measured, and verified against the exact course, beside a common fixed step ([CP]).
+:mod:`cabletheory.compartment`, beside the common rule of thumb ([CP]: compartments no longer than
+0.1 of the length constant at 100 Hz) and the error that rule gives; for a time course also the
+largest time step of backward Euler or Crank–Nicolson (:class:`StepAdvice`), predicted from the
+scheme's order, measured, and verified against the exact course, and, when asked, the error of a
+fixed time step of the user's choosing.
 
 Every exact answer assumes a passive, linear membrane with uniform properties; so does every
 verdict. A simulator with active conductances is outside what this package can check.
@@ -27,7 +28,6 @@ from ..tree.geometry import input_admittances
 
 __all__ = [
     "OUTPUTS",
-    "RULE_STEP",
     "Advice",
     "StepAdvice",
     "advise_cable",
@@ -52,10 +52,10 @@ OUTPUTS: dict[str, str] = {
 
 @dataclass(frozen=True, slots=True)
 class StepAdvice:
-    """The largest time step Δt for a time course, with the segments of the same advice.
+    """The largest time step Δt for a time course, with the compartments of the same advice.
 
-    The target is split: ``space_target`` (segments, Δt negligible) plus ``time_target`` (Δt,
-    measured against a time-converged solve with the same segments). The fully discrete error
+    The target is split: ``space_target`` (compartments, Δt negligible) plus ``time_target`` (Δt,
+    measured against a time-converged solve with the same compartments). The fully discrete error
     is the sum of the two parts, so by the triangle inequality it stays within their sum, the
     whole target; ``error`` is that total, measured against the exact course. Every error is
     the maximum over the sample times, relative to the peak exact voltage.
@@ -63,7 +63,7 @@ class StepAdvice:
 
     scheme: str  # key of compartment.SCHEMES
     order: int  # theoretical order in Δt (1 backward Euler, 2 Crank–Nicolson; Crank & Nicolson 1947)
-    space_target: float  # relative error budget given to the segments
+    space_target: float  # relative error budget given to the compartments
     time_target: float  # relative error budget given to the time step
     step: float  # s, recommended Δt = output_spacing / divisions
     divisions: int  # steps per output spacing
@@ -71,37 +71,37 @@ class StepAdvice:
     last_time: float  # s, the end of the output window (the step is at t = 0)
     samples: int  # number of sample times
     time_error: float  # relative time error at ``step`` (against the time-converged solve)
-    error: float  # relative total error at (segments, step) against the exact course (verified)
+    error: float  # relative total error at (compartments, step) against the exact course (verified)
     limited_by_output: bool  # True: the output spacing itself meets the time budget
     step_estimate: float | None  # s, if limited: Δt the order predicts for the budget (not verified)
     reference_step: float  # s, Δt of the time-converged Crank–Nicolson solve
     reference_error: float  # relative time error of that solve (Richardson estimate)
-    solves: int  # integrations spent on the time step (reference, search, rule)
-    rule_step: float  # s, the rule of thumb's fixed step
-    rule_error: float | None  # relative total error at (segments, rule_step); None if it does not
-    #                           divide the sample times
+    solves: int  # integrations spent on the time step (reference, search, compared step)
+    compare_step: float | None = None  # s, a fixed step the user asked about (None: not asked)
+    compare_error: float | None = None  # relative total error at (compartments, compare_step); None if not
+    #                                     asked or it does not divide the sample times
 
 
 @dataclass(frozen=True, slots=True)
 class Advice:
-    """Segments per section for a target error in one output, beside the rule of thumb.
+    """Compartments per branch for a target error in one output, beside the rule of thumb.
 
     Errors are relative (see :data:`OUTPUTS`) and measured: the reference discretisation
-    with that many segments is solved and compared with the exact answer.
+    with that many compartments is solved and compared with the exact answer.
     """
 
     output: str
     target: float  # relative error
     exact_value: complex  # exact output (Ω for resistance/impedance, 1 for attenuation, V for time course)
-    segments: NDArray[np.int64]  # per section, to meet the target
-    error: float  # relative error with ``segments``
-    rule_segments: NDArray[np.int64]  # per section, by the rule of thumb
-    rule_error: float  # relative error with ``rule_segments``
-    rule_fraction: float  # segment length as a fraction of λ_f
+    compartments: NDArray[np.int64]  # per branch, to meet the target
+    error: float  # relative error with ``compartments``
+    rule_compartments: NDArray[np.int64]  # per branch, by the rule of thumb
+    rule_error: float  # relative error with ``rule_compartments``
+    rule_fraction: float  # compartment length as a fraction of the length constant at rule_frequency
     rule_frequency: float  # Hz
-    length_constants: Array  # m, per section (steady λ)
-    ac_length_constants: Array  # m, per section, at ``rule_frequency``
-    electrotonic_lengths: Array  # per section
+    length_constants: Array  # m, per branch (steady λ)
+    length_constants_at_frequency: Array  # m, per branch, at ``rule_frequency``
+    electrotonic_lengths: Array  # per branch
     site: float | None = None  # m, for "attenuation" and "time-course"
     frequency: float | None = None  # Hz, for "impedance"
     step: float | None = None  # s, Δt used for the time course (fine enough to be negligible)
@@ -160,11 +160,11 @@ def _search(error_at: Callable[[NDArray[np.int64]], float], electrotonic: Array,
         h *= min(0.9, 0.95 * math.sqrt(target / err)) if err > 0 else 0.5
         n = counts(h)
         if n.sum() > max_nodes:
-            raise ConvergenceError(f"a relative error of {target:.3g} needs more than {max_nodes} segments; "
+            raise ConvergenceError(f"a relative error of {target:.3g} needs more than {max_nodes} compartments; "
                                    "ask for a looser target")
         err = error_at(n)
     else:  # pragma: no cover - the h² model always converges within 60 steps
-        raise ConvergenceError(f"no segment count met the target {target:.3g}")
+        raise ConvergenceError(f"no compartment count met the target {target:.3g}")
     # the jump may overshoot: coarsen while the target is still met (at most a few tries)
     best_n, best_err = counts(h), err
     for factor in (1.5, 1.25, 1.1):
@@ -176,24 +176,24 @@ def _search(error_at: Callable[[NDArray[np.int64]], float], electrotonic: Array,
     return best_n, best_err
 
 
-MAX_SEGMENTS = 200_000
+MAX_COMPARTMENTS = 200_000
 
 
 def _rule(lengths: Array, diameters: Array, rm: float, ri: float, cm: float, fraction: float,
           frequency: float) -> tuple[NDArray[np.int64], Array, Array]:
     lam = cb.length_constant(rm, ri, diameters)
-    lam_f = cb.ac_length_constant(lam, frequency, rm * cm)
-    return cb.segments_needed(lengths, lam_f, fraction), np.asarray(lam, dtype=float), np.asarray(lam_f)
+    lam_f = cb.length_constant_at_frequency(lam, frequency, rm * cm)
+    return cb.compartments_needed(lengths, lam_f, fraction), np.asarray(lam, dtype=float), np.asarray(lam_f)
 
 
 def advise_tree(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike, membrane_resistivity: float,
                 axial_resistivity: float, membrane_capacitance: float, output: str, target: float, *,
                 end_conductances: ArrayLike | None = None, soma_area: float = 0.0, frequency: float = 100.0,
                 rule_fraction: float = 0.1, rule_frequency: float = 100.0) -> Advice:
-    """Segments per section of a tree for a target relative error at the root.
+    """Compartments per branch of a tree for a target relative error at the root.
 
     Outputs for trees: ``"input-resistance"`` and ``"impedance"`` (at ``frequency``), with
-    the exact value from :func:`cabletheory.tree.geometry.input_admittances`. Segments are spread with equal
+    the exact value from :func:`cabletheory.tree.geometry.input_admittances`. Compartments are spread with equal
     electrotonic spacing, which is where the second-order error is even.
     """
     if output not in ("input-resistance", "impedance"):
@@ -214,11 +214,11 @@ def advise_tree(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike, me
     rule_n, lam, lam_f = _rule(ell, d, membrane_resistivity, axial_resistivity, membrane_capacitance,
                                rule_fraction, rule_frequency)
     electrotonic = ell / lam
-    n, err = _search(error_at, electrotonic, target, MAX_SEGMENTS)
+    n, err = _search(error_at, electrotonic, target, MAX_COMPARTMENTS)
     return Advice(output=output, target=target, exact_value=1.0 / exact_y if output == "impedance"
-                  else complex((1.0 / exact_y).real), segments=n, error=err, rule_segments=rule_n,
+                  else complex((1.0 / exact_y).real), compartments=n, error=err, rule_compartments=rule_n,
                   rule_error=error_at(rule_n), rule_fraction=rule_fraction, rule_frequency=rule_frequency,
-                  length_constants=lam, ac_length_constants=lam_f, electrotonic_lengths=electrotonic,
+                  length_constants=lam, length_constants_at_frequency=lam_f, electrotonic_lengths=electrotonic,
                   frequency=f if output == "impedance" else None)
 
 
@@ -227,8 +227,7 @@ def _check_target(target: float) -> None:
         raise InputError(f"target relative error must lie in [1e-9, 1), got {target!r}")
 
 
-SPACE_SHARE = 0.5  # fraction of a time-course target given to the segments; the rest goes to Δt
-RULE_STEP = 25e-6  # s: the fixed 25 µs step common in compartmental modelling [CP]
+SPACE_SHARE = 0.5  # fraction of a time-course target given to the compartments; the rest goes to Δt
 REFERENCE_MARGIN = 50  # the time-converged reference may use 1/50 of the smaller share
 MAX_TIME_STEPS = 400_000  # time steps in one solve, at most
 
@@ -237,8 +236,8 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
                  frequency: float = 100.0, soma_area: float = 0.0, rule_fraction: float = 0.1,
                  rule_frequency: float = 100.0, exact_time_course: Callable[[Array], Array] | None = None,
                  times: ArrayLike | None = None, scheme: str = "crank-nicolson", space_share: float = SPACE_SHARE,
-                 rule_step: float = RULE_STEP) -> Advice:
-    """Segments for one finite cylinder (input at its origin) to meet a target relative error.
+                 compare_step: float | None = None) -> Advice:
+    """Compartments for one finite cylinder (input at its origin) to meet a target relative error.
 
     Parameters
     ----------
@@ -248,18 +247,20 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
     site : m, where "attenuation" and "time-course" are read (default: the far end)
     frequency : Hz, for "impedance"
     soma_area : m², lumped soma at the origin ("input-resistance", "impedance", "time-course")
-    rule_fraction, rule_frequency : the rule of thumb (0.1 λ at 100 Hz, [CP])
+    rule_fraction, rule_frequency : the rule of thumb (compartments within 0.1 of the length constant
+        at 100 Hz, [CP])
     exact_time_course : for "time-course", ``times -> exact V (V) at site`` for a 1 A step at
         the origin (from :mod:`cabletheory.transient`); ``times`` in s are where it is sampled
     scheme : for "time-course", the time scheme whose Δt is advised (a key of
         :data:`cabletheory.compartment.SCHEMES`)
-    space_share : for "time-course", the fraction of ``target`` given to the segments; the rest
+    space_share : for "time-course", the fraction of ``target`` given to the compartments; the rest
         goes to the time step (default one half each)
-    rule_step : s, for "time-course", the rule of thumb's fixed Δt (25 µs, [CP])
+    compare_step : s, for "time-course", a fixed Δt whose error (with the advised compartments) is
+        also measured, for comparison; ``None`` (default) measures none
 
     Notes
     -----
-    For "time-course" the segments meet ``space_share * target`` with Δt negligible, and
+    For "time-course" the compartments meet ``space_share * target`` with Δt negligible, and
     :attr:`Advice.time_step` holds the largest Δt that keeps the time error within the rest
     (see :class:`StepAdvice`).
     """
@@ -303,8 +304,8 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
         cp.expected_order(scheme)  # names the scheme in the error if it is unknown
         if not (math.isfinite(space_share) and 0 < space_share < 1):
             raise InputError(f"space share of the target must lie strictly between 0 and 1, got {space_share!r}")
-        if not (math.isfinite(rule_step) and rule_step > 0):
-            raise InputError(f"rule-of-thumb time step must be a finite positive time in s, got {rule_step!r}")
+        if compare_step is not None and not (math.isfinite(compare_step) and compare_step > 0):
+            raise InputError(f"time step to compare must be a finite positive time in s, got {compare_step!r}")
         t = np.asarray(times, dtype=float)
         spacing = _output_spacing(t)
         v_exact = np.asarray(exact_time_course(t), dtype=float)
@@ -315,7 +316,7 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
         exact = complex(peak)
         space_target = target * space_share
         # a Crank–Nicolson Δt whose own time error is negligible beside both shares, found on a
-        # probe grid (the time error hardly depends on the segment count)
+        # probe grid (the time error hardly depends on the compartment count)
         negligible = min(space_target, target - space_target) / REFERENCE_MARGIN
         probe = cp.discretise_cable(cylinder, int(np.clip(rule_n[0], 8, 400)), soma_area=soma_area or None)
         start = math.ceil(spacing / (cylinder.time_constant / 2000))  # first try: Δt near τm/2000
@@ -327,15 +328,15 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
             return float(np.max(np.abs(_step_course(c, where, t, fine, "crank-nicolson") - v_exact))) / peak
 
     electrotonic = np.array([cylinder.electrotonic_length])
-    n, err = _search(error_at, electrotonic, space_target, 20_000 if output == "time-course" else MAX_SEGMENTS)
+    n, err = _search(error_at, electrotonic, space_target, 20_000 if output == "time-course" else MAX_COMPARTMENTS)
     time_step = None
     if output == "time-course":
         c = cp.discretise_cable(cylinder, int(n[0]), soma_area=soma_area or None)
         time_step, err, step = _advise_step(c, where, t, v_exact, peak, spacing, round(spacing / fine), scheme,
-                                            space_target, target - space_target, negligible, rule_step)
-    return Advice(output=output, target=target, exact_value=exact, segments=n, error=err, rule_segments=rule_n,
+                                            space_target, target - space_target, negligible, compare_step)
+    return Advice(output=output, target=target, exact_value=exact, compartments=n, error=err, rule_compartments=rule_n,
                   rule_error=error_at(rule_n), rule_fraction=rule_fraction, rule_frequency=rule_frequency,
-                  length_constants=lam, ac_length_constants=lam_f, electrotonic_lengths=electrotonic,
+                  length_constants=lam, length_constants_at_frequency=lam_f, electrotonic_lengths=electrotonic,
                   site=where if output in ("attenuation", "time-course") else None,
                   frequency=frequency if output == "impedance" else None, step=step, time_step=time_step)
 
@@ -396,11 +397,11 @@ def _time_converged(c: cp.Compartments, where: float, times: Array, spacing: flo
 
 def _advise_step(c: cp.Compartments, where: float, times: Array, v_exact: Array, peak: float, spacing: float,
                  divisions: int, scheme: str, space_target: float, time_target: float, negligible: float,
-                 rule_step: float) -> tuple[StepAdvice, float, float]:
+                 compare_step: float | None) -> tuple[StepAdvice, float, float]:
     """The largest Δt = spacing/m (m a whole number) whose time error meets ``time_target``.
 
     The time error of a run at Δt is its distance from a time-converged run with the same
-    segments; it must stay within ``time_target`` less that run's own (estimated) time error.
+    compartments; it must stay within ``time_target`` less that run's own (estimated) time error.
     The scheme's order p (e ∝ Δt^p; Crank & Nicolson 1947) predicts m from each measured error;
     the prediction is measured, refined until it meets the budget, then coarsened by bisection
     on m to the largest passing Δt (exact for m < 50, to 2 % above). Returns the advice, the
@@ -443,15 +444,15 @@ def _advise_step(c: cp.Compartments, where: float, times: Array, v_exact: Array,
     e1 = tried[1][0]
     limited = m == 1
     estimate = spacing * (budget / e1) ** (1.0 / order) if limited and e1 > 0 else None
-    rule_error = None
-    if _divides(rule_step, times):
-        rule = _step_course(c, where, times, rule_step, scheme)
-        rule_error = float(np.max(np.abs(rule - v_exact))) / peak
+    compare_error = None
+    if compare_step is not None and _divides(compare_step, times):
+        fixed = _step_course(c, where, times, compare_step, scheme)
+        compare_error = float(np.max(np.abs(fixed - v_exact))) / peak
         solves += 1
     advice = StepAdvice(scheme=scheme, order=order, space_target=space_target, time_target=time_target,
                         step=spacing / m, divisions=m, output_spacing=spacing, last_time=float(times[-1]),
                         samples=int(times.size), time_error=time_error, error=total,
                         limited_by_output=limited, step_estimate=estimate, reference_step=ref_step,
-                        reference_error=ref_error, solves=solves + len(tried), rule_step=rule_step,
-                        rule_error=rule_error)
+                        reference_error=ref_error, solves=solves + len(tried), compare_step=compare_step,
+                        compare_error=compare_error)
     return advice, space_error, ref_step

@@ -28,7 +28,7 @@ SITES = np.array([0.0, 250.0, 500.0]) * UM
 SAMPLE_EVERY = 0.25 * MS
 DURATION = 10 * MS
 
-# name -> (segments, time step)
+# name -> (compartments, time step)
 RUNS = {
     "coarse.csv": (4, 0.25 * MS),
     "refined.csv": (40, 0.025 * MS),
@@ -38,8 +38,8 @@ RUNS = {
 }
 
 
-def simulate(segments: int, step: float) -> str:
-    c = cp.discretise_cable(DENDRITE, segments)
+def simulate(compartments: int, step: float) -> str:
+    c = cp.discretise_cable(DENDRITE, compartments)
     current = np.zeros(c.size)
     current[0] = AMPLITUDE
     after = np.arange(0.0, DURATION - ONSET + SAMPLE_EVERY / 2, SAMPLE_EVERY)
@@ -47,7 +47,7 @@ def simulate(segments: int, step: float) -> str:
     before = np.arange(0.0, ONSET - SAMPLE_EVERY / 2, SAMPLE_EVERY)
     lines = [
         "# Tidewater Station cable simulator (stand-in), Lumenia vadosa mantle-edge dendrite",
-        f"# dx = {DENDRITE.length / segments / UM:g} um",
+        f"# dx = {DENDRITE.length / compartments / UM:g} um",
         f"# dt = {step / MS:g} ms",
         "# scheme = crank-nicolson",
         "time (ms)," + ",".join(f"V at {x / UM:g} um (mV)" for x in SITES),
@@ -59,6 +59,6 @@ def simulate(segments: int, step: float) -> str:
 
 
 if __name__ == "__main__":
-    for name, (segments, step) in RUNS.items():
-        (HERE / name).write_text(simulate(segments, step), encoding="utf-8")
-        print(f"wrote {name}: {segments} segments, dt {step / MS:g} ms")
+    for name, (compartments, step) in RUNS.items():
+        (HERE / name).write_text(simulate(compartments, step), encoding="utf-8")
+        print(f"wrote {name}: {compartments} compartments, dt {step / MS:g} ms")

@@ -23,14 +23,14 @@ except ValueError:  # run from elsewhere: use the absolute path
 CASE = ["--Rm", "20 kΩ·cm²", "--Ri", "200 Ω·cm", "--Cm", "1 µF/cm²", "--diameter", "2 µm", "--length", "500 µm",
         "--end", "sealed", "--current", "100 pA", "--rest", "-62 mV", "--onset", "1 ms"]
 STEPS = [
-    ("1. The first run (4 segments, Δt 0.25 ms) against the exact solution, tolerance 20 µV:",
+    ("1. The first run (4 compartments, Δt 0.25 ms) against the exact solution, tolerance 20 µV:",
      ["compare", f"{FOLDER}/coarse.csv", *CASE, "--pass-within", "20 uV"]),
-    ("2. The refined run (40 segments, Δt 0.025 ms):",
+    ("2. The refined run (40 compartments, Δt 0.025 ms):",
      ["compare", f"{FOLDER}/refined.csv", *CASE, "--pass-within", "20 uV"]),
     ("3. Three runs refined in space only (Δt 0.0125 ms): is the simulator second order in Δx?",
      ["compare", f"{FOLDER}/grid_10.csv", f"{FOLDER}/grid_20.csv", f"{FOLDER}/grid_40.csv", *CASE,
       "--pass-within", "20 uV"]),
-    ("4. How many segments would the steady input resistance need for 0.1 %?",
+    ("4. How many compartments would the steady input resistance need for 0.1 %?",
      ["advise", *CASE[:12], "--quantity", "input-resistance", "--target", "0.1%"]),
 ]
 
