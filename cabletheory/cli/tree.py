@@ -11,12 +11,11 @@ from pathlib import Path
 import numpy as np
 
 from .. import PASSIVE_CAVEAT
-from ..case import describe_end
 from ..errors import InputError
 from ..inputs import read_end, read_outline_value
 from ..morphology import SWC_TYPES, Outline, read_morphology
 from ..output import dump_json, quantity, table, write_atomically
-from ..tree import Tolerances, TreeReport, analyse_tree, build_tree, sample_profile
+from ..tree import Tolerances, TreeReport, analyse_tree, build_tree, describe_tips, sample_profile
 from ..units import format_quantity, parse_quantity
 from .common import add_membrane_options, read_membrane, whole_number
 
@@ -131,18 +130,7 @@ def _end_json(conductance: float) -> str | dict:
 
 def tips_text(r: TreeReport) -> str:
     """How the tips end: the asked-for end, or a count of the file's own ends."""
-    if r.tip_conductance is not None:
-        return describe_end(r.tip_conductance)
-    ends = r.tips.ends
-    killed = int(np.count_nonzero(np.isinf(ends)))
-    sealed = int(np.count_nonzero(ends == 0))
-    if sealed == ends.size:
-        return "sealed"
-    if killed == ends.size:
-        return describe_end(math.inf)
-    leaky = ends.size - killed - sealed
-    parts = [f"{n} {word}" for n, word in ((sealed, "sealed"), (killed, "killed"), (leaky, "leaky")) if n]
-    return "as in the file: " + ", ".join(parts)
+    return describe_tips(r)
 
 
 def as_json(r: TreeReport, file_format: str = "SWC", points: int = 0) -> dict:

@@ -33,7 +33,7 @@ from .geometry import (
 )
 from .model import SWC_NAMES, Tree, build_tree, prune_empty_branches, scale_lengths, tree_from_outline, tree_from_swc
 from .reduction import EquivalentCable, EquivalentCylinder, sample_profile
-from .report import TreeReport, analyse_tree
+from .report import TreeReport, analyse_tree, describe_tips
 
 __all__ = [
     "SWC_NAMES",
@@ -49,6 +49,7 @@ __all__ = [
     "Violation",
     "analyse_tree",
     "build_tree",
+    "describe_tips",
     "electrotonic_distances",
     "exact_input_conductances",
     "frustum_electrotonic_length",

@@ -31,7 +31,7 @@ from .reduction import (
     reduced_input_conductance,
 )
 
-__all__ = ["TreeReport", "analyse_tree"]
+__all__ = ["TreeReport", "analyse_tree", "describe_tips"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -71,6 +71,25 @@ class TreeReport:
     end_conductance_ratio: float = 0.0  # B at the far end of the equivalent cylinder
     notes: tuple[str, ...] = field(default_factory=tuple)
 
+
+
+def describe_tips(report: TreeReport) -> str:
+    """How the tips end, in words: the end asked for at every tip, or a count of the tree's own ends."""
+    def one(g: float) -> str:
+        if g == 0:
+            return "sealed"
+        return "killed (held at rest)" if math.isinf(g) else f"leaky, {g * 1e9:.4g} nS to rest"
+
+    if report.tip_conductance is not None:
+        return one(report.tip_conductance)
+    ends = report.tips.ends
+    killed = int(np.count_nonzero(np.isinf(ends)))
+    sealed = int(np.count_nonzero(ends == 0))
+    if sealed == ends.size or killed == ends.size:
+        return one(0.0 if sealed == ends.size else math.inf)
+    leaky = ends.size - killed - sealed
+    parts = [f"{n} {word}" for n, word in ((sealed, "sealed"), (killed, "killed"), (leaky, "leaky")) if n]
+    return "as in the file: " + ", ".join(parts)
 
 
 def _check_membrane(membrane_resistivity: float, axial_resistivity: float, membrane_capacitance: float) -> None:

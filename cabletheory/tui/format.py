@@ -292,13 +292,15 @@ def tree_outline(r: TreeReport) -> list[OutlineNode]:
 
 def tree_report(r: TreeReport) -> Report:
     """Verdict with reasons, equivalent cylinder, exact and reduced input resistance, tables, plot."""
+    from ..tree import describe_tips
+
     t, c = r.tree, r.equivalent_cylinder
     inputs = [
         Row("file", "file", t.source),
         Row("membrane_resistivity", "Rm", r.membrane_resistivity, "membrane_resistivity"),
         Row("axial_resistivity", "Ri", r.axial_resistivity, "axial_resistivity"),
         Row("membrane_capacitance", "Cm", r.membrane_capacitance, "membrane_capacitance"),
-        Row("tips", "tips", "killed" if r.killed_tips else "sealed"),
+        Row("tips", "tips", describe_tips(r)),
         Row("branch_ratio_tolerance", "ratio tolerance", r.tolerances.branch_ratio),
         Row("tip_spread_tolerance", "tip spread tolerance (λ)", r.tolerances.tip_spread),
     ]
