@@ -127,3 +127,21 @@ def test_tapered_tree_is_refused_in_one_line(tmp_path, capsys) -> None:
     assert err.startswith("cabletheory: error: --tree: ")
     assert "tapered" in err
     assert err.count("\n") == 1
+
+
+def test_tree_rows_are_named_by_the_file(capsys):
+    """Each row of a tree's advice is the file's own branch (outline names, SWC ids), not an index,
+    so it can be traced back to the morphology (issue: daily use)."""
+    import json
+    import pathlib
+
+    outline = pathlib.Path(__file__).resolve().parents[1] / "cabletheory" / "data" / "morphologies" / (
+        "lumenia_demo.outline")
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(outline), "--target", "1%"]) == 0
+    out = capsys.readouterr().out
+    assert "    trunk  0.3000" in out
+    assert "  right.b  0.3175" in out
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(outline), "--target", "1%", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["branches"] == ["trunk", "left", "left.a", "left.b", "right", "right.a", "right.b"]
+    assert len(data["branches"]) == len(data["compartments"])

@@ -81,9 +81,11 @@ def parse_relative(text: str, field: str) -> float:
     return parse_quantity(raw, "dimensionless", field)
 
 
-def _tree_arrays(args: argparse.Namespace) -> tuple[np.ndarray, np.ndarray, np.ndarray, float | None, str]:
+def _tree_arrays(args: argparse.Namespace
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, float | None, str, list[str]]:
     """Pieces of the tree (parents, lengths, diameters in SI), the soma area from the file (m², or
-    None) and a label. ``--tree`` is read as the ``tree`` command reads it (SWC or tree outline, told
+    None), a label and the name of every piece (the file's own point ids or branch names; the index
+    for --parents lists). ``--tree`` is read as the ``tree`` command reads it (SWC or tree outline, told
     apart by :func:`cabletheory.morphology.read_morphology`; SWC with its defaults: each piece a
     cylinder with its own point's diameter, axon left out, soma lumped at the root)."""
     if args.tree:
@@ -104,7 +106,7 @@ def _tree_arrays(args: argparse.Namespace) -> tuple[np.ndarray, np.ndarray, np.n
                              "than zero")
         what = "branches" if isinstance(morphology, Outline) else "SWC pieces"
         return (tree.parents, tree.lengths, tree.proximal_diameters, tree.soma_area,
-                f"{args.tree} ({len(tree)} {what})")
+                f"{args.tree} ({len(tree)} {what})", [str(label) for label in tree.labels])
     if not (args.parents and args.lengths and args.diameters):
         raise InputError("a tree needs --parents, --lengths and --diameters together (or --tree FILE)")
     parents = parse_parents(args.parents)
@@ -113,7 +115,7 @@ def _tree_arrays(args: argparse.Namespace) -> tuple[np.ndarray, np.ndarray, np.n
     for name, arr in (("--lengths", lengths), ("--diameters", diameters)):
         if arr.size != parents.size:
             raise InputError(f"{name}: {arr.size} values for {parents.size} branches")
-    return parents, lengths, diameters, None, f"{parents.size} branches"
+    return parents, lengths, diameters, None, f"{parents.size} branches", [str(i) for i in range(parents.size)]
 
 
 def parse_parents(text: str) -> np.ndarray:
@@ -160,7 +162,7 @@ def run(args: argparse.Namespace) -> int:
         if args.quantity not in TREE_QUANTITIES:
             raise InputError(f"--quantity: {args.quantity} is not available for a tree; choose "
                              f"{' or '.join(TREE_QUANTITIES)}")
-        parents, lengths, diameters, file_soma_area, label = _tree_arrays(args)
+        parents, lengths, diameters, file_soma_area, label, names = _tree_arrays(args)
         soma_area = math.pi * soma_diameter**2 if soma_diameter else (file_soma_area or 0.0)
         rm, ri, cm = read_membrane(args)
         end = parse_end(args.end)
@@ -194,7 +196,8 @@ def run(args: argparse.Namespace) -> int:
         inputs = echo_cylinder(cylinder)
     if soma_diameter:
         inputs.append(("soma diameter", format_quantity(soma_diameter, "length")))
-    print(dump_json(as_json(advice)) if args.json else as_text(advice, inputs))
+    names_or_none = names if is_tree else None
+    print(dump_json(as_json(advice, names_or_none)) if args.json else as_text(advice, inputs, names_or_none))
     return 0
 
 
@@ -220,12 +223,13 @@ def _exact_time_course(cylinder, soma_diameter, site):
     return course
 
 
-def as_json(a: Advice) -> dict:
+def as_json(a: Advice, names: list[str] | None = None) -> dict:
     out = {
         "quantity": a.output,
         "definition": OUTPUTS[a.output],
         "target_relative_error": a.target,
         "compartments": a.compartments.tolist(),
+        **({"branches": list(names)} if names is not None else {}),
         "relative_error": a.error,
         "rule_of_thumb": {
             "compartments": a.rule_compartments.tolist(),
@@ -288,7 +292,7 @@ def _percent(x: float) -> str:
     return f"{x * 100:.3g} %"
 
 
-def as_text(a: Advice, inputs: list[tuple[str, str]]) -> str:
+def as_text(a: Advice, inputs: list[tuple[str, str]], names: list[str] | None = None) -> str:
     blocks = [table(inputs, "Inputs")]
     what = OUTPUTS[a.output]
     if a.site is not None:
@@ -326,12 +330,15 @@ def as_text(a: Advice, inputs: list[tuple[str, str]]) -> str:
         ]
         blocks.append(table(rows, "Compartments"))
     else:
-        lines = ["Compartments per branch", "-----------------------",
-                 "   branch       L   needed   rule of thumb"]
+        labels = names if names is not None else [str(i) for i in range(n_branches)]
+        width = max(6, *(len(label) for label in labels))
+        lines = ["Compartments per branch (named as in the file)", "-" * 46,
+                 f"  {'branch':>{width}}       L   needed   rule of thumb"]
         for i in range(n_branches):
-            lines.append(f"  {i:>7} {a.electrotonic_lengths[i]:7.4f} {a.compartments[i]:8d} "
+            lines.append(f"  {labels[i]:>{width}} {a.electrotonic_lengths[i]:7.4f} {a.compartments[i]:8d} "
                          f"{a.rule_compartments[i]:15d}")
-        lines.append(f"  total           {int(a.compartments.sum()):8d} {int(a.rule_compartments.sum()):15d}")
+        lines.append(f"  {'total':>{width}}         {int(a.compartments.sum()):8d} "
+                     f"{int(a.rule_compartments.sum()):15d}")
         lines.append(f"  error at the root: needed {_percent(a.error)}, rule of thumb {_percent(a.rule_error)}")
         blocks.append("\n".join(lines))
     verdict = "meets" if a.rule_error <= share else "misses"
