@@ -74,7 +74,7 @@ class _HelpFormatter(argparse.HelpFormatter):
 _NEGATIVE = re.compile(r"^-(\d|\.\d|inf)")
 
 # commands that read the user's files, and so take --max-file-size
-READS_FILES = ("tree", "reference", "compare", "advise", "ui", "fit")
+READS_FILES = ("tree", "reference", "compare", "advise", "ui", "fit", "survey")
 _SIZE = re.compile(r"^\s*(\d+(?:\.\d+)?(?:[eE]\+?\d+)?)\s*(|B|kB|KB|MB|GB|TB|KiB|MiB|GiB|TiB)\s*$", re.IGNORECASE)
 _SIZE_FACTORS = {"": 1, "b": 1, "kb": 10**3, "mb": 10**6, "gb": 10**9, "tb": 10**12, "kib": 2**10, "mib": 2**20,
                  "gib": 2**30, "tib": 2**40}
@@ -152,24 +152,29 @@ def main(argv: Sequence[str] | None = None, *, open_app: Callable[..., None] | N
     error: ...``), 130 interrupted, 70 an internal error (a bug: one line; set the environment
     variable ``CABLETHEORY_TRACEBACK=1`` to see the traceback). ``cabletheory`` with no command is
     a usage error (status 2). A value far outside the range met in neurons is used but draws one
-    ``cabletheory: warning: ...`` line on stderr.
+    ``cabletheory: warning: ...`` line on stderr; if the computation then fails, the error names
+    those options (status 2).
     """
     arguments = _attach_negative_values(sys.argv[1:] if argv is None else argv)
+    flagged: list[str] = []  # options whose values drew an implausible-value warning
+
+    def show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+        if issubclass(category, ImplausibleValueWarning):
+            field = str(message).split(": ", 1)[0]
+            if field not in flagged:
+                flagged.append(field)
+        _show_warning(message, category, filename, lineno, file, line)
+
     try:
         with warnings.catch_warnings():
             # a floating-point overflow or invalid operation means the inputs are outside what the
             # formulas can evaluate: report it instead of printing inf or nan
             warnings.simplefilter("error", RuntimeWarning)
             warnings.simplefilter("always", ImplausibleValueWarning)
-            warnings.showwarning = _show_warning
+            warnings.showwarning = show_warning
             return _run(arguments, open_app)
     except CableTheoryError as exc:
         _error(str(exc))
-        return 2
-    except (OverflowError, FloatingPointError, RuntimeWarning) as exc:
-        detail = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-        _error(f"the inputs give numbers too large or too small to evaluate ({detail}); check the magnitudes "
-               "and units")
         return 2
     except BrokenPipeError:  # e.g. piped into `head`
         _silence_stdout()
@@ -177,13 +182,31 @@ def main(argv: Sequence[str] | None = None, *, open_app: Callable[..., None] | N
     except KeyboardInterrupt:
         _error("interrupted", prefix="cabletheory: ")
         return 130
-    except Exception as exc:  # a bug, not bad input: one line unless asked for the traceback
+    except (ArithmeticError, RuntimeWarning) as exc:  # overflow, division by zero, invalid operation
+        _error(f"the inputs give numbers too large or too small to evaluate ({_detail(exc)}); "
+               + _suspects(flagged))
+        return 2
+    except Exception as exc:
+        if flagged and not os.environ.get("CABLETHEORY_TRACEBACK"):
+            # values far outside the range met in neurons broke a computation: bad input, not a bug
+            _error(f"the computation failed for these inputs ({_detail(exc)}); " + _suspects(flagged))
+            return 2
         if os.environ.get("CABLETHEORY_TRACEBACK"):
             raise
-        detail = " ".join(str(exc).split())[:200]
-        _error(f"{type(exc).__name__}: {detail} (a bug in cabletheory; run again with CABLETHEORY_TRACEBACK=1 "
-               "set for the details and please report it)", prefix="cabletheory: internal error: ")
+        _error(f"{_detail(exc)} (a bug in cabletheory; run again with CABLETHEORY_TRACEBACK=1 set for the "
+               "details and please report it)", prefix="cabletheory: internal error: ")
         return 70
+
+
+def _detail(exc: BaseException) -> str:
+    text = " ".join(str(exc).split())[:200]
+    return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
+
+
+def _suspects(flagged: list[str]) -> str:
+    if flagged:
+        return f"check {', '.join(flagged)}: far outside the values met in neurons (see the warnings)"
+    return "check the magnitudes and units of the inputs"
 
 
 def _run(arguments: list[str], open_app: Callable[..., None] | None = None) -> int:
