@@ -447,7 +447,7 @@ def _warn_if_implausible(value: float, kind: str, k: Kind, field: str, raw: str)
     warnings.warn(f"{field}: {shown} is {reason}; check the unit", ImplausibleValueWarning, stacklevel=3)
 
 
-_RANGE = re.compile(r"^\s*([^:]+):([^:]+):([^:]+?)\s*([A-Za-zµμΩ\u2126°%][^:]*)?$")
+_RANGE = re.compile(rf"^\s*([^:]+):([^:]+):\s*([+-]?{_FLOAT})\s*([A-Za-zµμΩ\u2126°%][^:]*)?$")
 
 
 def parse_series(text: str, kind: str, field: str, *, allow_zero: bool = True,
