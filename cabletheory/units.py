@@ -107,24 +107,23 @@ class Plausible:
 # outside its band is used as given, with one warning line (ImplausibleValueWarning).
 PLAUSIBLE: dict[str, Plausible] = {
     "membrane_resistivity": Plausible(1e-3, 1e3, "0.1 to 200 kΩ·cm²",
-                                      "Clements & Redman 1989 (somatic 0.1–0.42 kΩ·cm²); Major et al. 1994 "
-                                      "(120–200 kΩ·cm², [MEM])"),
+                                      "Clements & Redman 1989 [ClementsRedman1989] (somatic 0.1–0.42 kΩ·cm²); "
+                                      "Major et al. 1994 [Major1994] (120–200 kΩ·cm², [MEM])"),
     "axial_resistivity": Plausible(0.1, 100.0, "70 to 340 Ω·cm",
-                                   "Fleshman, Segev & Burke 1988 (70 Ω·cm); Major et al. 1994 (170–340 Ω·cm, "
-                                   "[MEM])"),
-    "membrane_capacitance": Plausible(1e-3, 0.2, "0.7 to 2.4 µF/cm²",
-                                      "Gentet, Stuart & Clements 2000 (0.9 µF/cm²); Thurbon et al. 1998 "
-                                      "(2.4 µF/cm²)"),
+                                   "Fleshman, Segev & Burke 1988 [FleshmanSegevBurke1988] (70 Ω·cm); Major et al. "
+                                   "1994 [Major1994] (170–340 Ω·cm, [MEM])"),
+    "membrane_capacitance": Plausible(1e-3, 0.2, "0.7 to 2 µF/cm²",
+                                      "Gentet, Stuart & Clements 2000 [GentetStuartClements2000] (0.9 µF/cm²); "
+                                      "Trevelyan & Jack 2002 [TrevelyanJack2002] (0.78–0.94 µF/cm²); up to about "
+                                      "2 µF/cm² in young neurons [MEM]"),
     "length": Plausible(1e-9, 10.0, "0.1 µm (spine necks) to about 1 m (the longest axons)", "[CP]"),
     "conductance": Plausible(1e-15, 1e-3, "1 pS (one channel) to 10 µS (a whole cell)", "[CP]"),
     "current": Plausible(1e-15, 1e-6, "1 pA to 100 nA", "[CP]"),
     "voltage": Plausible(None, 1.0, "up to about 150 mV from rest", "[CP]"),
     "time": Plausible(None, 1e5, "up to minutes", "[CP]"),
     "frequency": Plausible(None, 1e6, "up to about 10 kHz", "[CP]"),
-    "resistance": Plausible(1e3, 1e12, "1 MΩ to 10 GΩ (input resistances)",
-                            "Chevaleyre & Siegelbaum 2010, Table 1 (76–108 MΩ); [CP]"),
-    "capacitance": Plausible(1e-15, 1e-6, "1 pF to 1 nF (whole cells)",
-                             "Chevaleyre & Siegelbaum 2010, Table 1 (150–305 pF); [CP]"),
+    "resistance": Plausible(1e3, 1e12, "1 MΩ to 10 GΩ (input resistances)", "[CP]"),
+    "capacitance": Plausible(1e-15, 1e-6, "1 pF to 1 nF (whole cells)", "[CP]"),
     "area": Plausible(1e-15, 1e-4, "1 µm² to 1 mm²", "[CP]"),
     "specific_conductance": Plausible(1e-3, 1e3, "0.005 to 10 mS/cm² (1/Rm)", "[CP]"),
     "temperature": Plausible(223.15, 373.15, "about 5 to 40 °C", "[CP]"),
