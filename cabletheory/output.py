@@ -27,8 +27,8 @@ from .case import describe_end
 from .errors import InputError
 from .units import format_quantity, si_unit
 
-__all__ = ["CYLINDER_LABELS", "dump_json", "echo_cylinder", "end_description", "end_label", "far_end_text",
-           "input_resistance_label", "quantity", "table", "write_atomically"]
+__all__ = ["CYLINDER_LABELS", "check_output", "dump_json", "echo_cylinder", "end_description", "end_label",
+           "far_end_text", "input_resistance_label", "quantity", "table", "write_atomically"]
 
 CYLINDER_LABELS: dict[str, str] = {
     "membrane_resistivity": "Rm (specific membrane resistance)",
@@ -146,6 +146,30 @@ def write_atomically(path: str | os.PathLike[str], data: str | bytes, *,
     :class:`~cabletheory.errors.InputError` line naming ``what`` and the file, with nothing left
     behind.
     """
+    target, existing = _checked_target(path, protected, what)
+    label = f"{what} {str(target)!r}"
+    folder = target.parent
+    mode = stat.S_IMODE(existing.st_mode) if existing is not None else 0o666 & ~_umask()
+    owner = (existing.st_uid, existing.st_gid) if existing is not None else None
+    payload = data if isinstance(data, bytes) else data.encode("utf-8")
+    try:
+        with _cleanup_on_signals():
+            _replace(folder, target, payload, mode, owner)
+    except OSError as exc:
+        raise InputError(f"{label}: cannot write ({_reason(exc)}); nothing was changed") from None
+    return target
+
+
+def check_output(path: str | os.PathLike[str], *, protected: Iterable[str | os.PathLike[str]] = (),
+                 what: str = "output") -> None:
+    """Refuse now, before any work, an output that :func:`write_atomically` would refuse later
+    (no such folder, a folder, device, pipe, socket or symbolic link in the way, a name too long,
+    an input file); nothing is written."""
+    _checked_target(path, protected, what)
+
+
+def _checked_target(path: str | os.PathLike[str], protected: Iterable[str | os.PathLike[str]],
+                    what: str) -> tuple[Path, os.stat_result | None]:
     target = Path(path)
     label = f"{what} {str(target)!r}" if what else repr(str(target))
     if not str(path):
@@ -178,15 +202,7 @@ def write_atomically(path: str | os.PathLike[str], data: str | bytes, *,
     if len(os.fsencode(target.name)) > name_max:
         raise InputError(f"{label}: the file name is {len(os.fsencode(target.name))} bytes long, more than the "
                          f"{name_max} this file system allows")
-    mode = stat.S_IMODE(existing.st_mode) if existing is not None else 0o666 & ~_umask()
-    owner = (existing.st_uid, existing.st_gid) if existing is not None else None
-    payload = data if isinstance(data, bytes) else data.encode("utf-8")
-    try:
-        with _cleanup_on_signals():
-            _replace(folder, target, payload, mode, owner)
-    except OSError as exc:
-        raise InputError(f"{label}: cannot write ({_reason(exc)}); nothing was changed") from None
-    return target
+    return target, existing
 
 
 def _umask() -> int:

@@ -39,6 +39,8 @@ from importlib import resources
 from pathlib import Path
 
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from cabletheory.cli import main
 
@@ -267,3 +269,37 @@ def test_bad_input_in_a_subprocess(workspace, fragment, words):
 
 def test_the_subprocess_sample_is_not_empty():
     assert len(SUBPROCESS_SAMPLE) >= 5
+
+
+# --------------------------------------------------------------------------------------
+# arbitrary text in an option, end to end: an answer, or one line and status 2
+# --------------------------------------------------------------------------------------
+_TEXT = st.one_of(
+    st.text(st.sampled_from(list("0123456789.,;:+-*/^()eE %µΩ²·−umsAVSFHzkMnp \t'\"[]_")), max_size=40),
+    st.text(max_size=30),
+)
+_OPTIONS = [("cable", "--diameter"), ("cable", "--Rm"), ("cable", "--end"), ("cable", "--positions"),
+            ("cable", "--frequency"), ("cable", "--vary"), ("advise", "--target"), ("peel", "--uncertainty")]
+
+
+@settings(derandomize=True, max_examples=150, deadline=None,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
+@given(text=_TEXT, where=st.sampled_from(_OPTIONS))
+def test_any_option_text_is_answered_or_refused_in_one_line(capsys, text, where):
+    command, option = where
+    base = {"cable": ["--Rm", "20000", "--Ri", "100", "--diameter", "2", "--length", "500"],
+            "advise": ["--Rm", "20000", "--Ri", "100", "--diameter", "2", "--length", "500"],
+            "peel": ["--tau0", "20", "--tau1", "2"]}[command]
+    argv = [command, *[w for i, w in enumerate(base) if not (w == option or (i and base[i - 1] == option))],
+            f"{option}={text}"]
+    with hang_guard(GUARD):
+        status = main(argv)
+    err = capsys.readouterr().err
+    assert "Traceback" not in err
+    errors = [line for line in err.splitlines() if not line.startswith("cabletheory: warning: ")]
+    if status == 2:
+        assert len(errors) == 1, err
+        assert errors[0].startswith("cabletheory: error: ")
+    else:
+        assert status == 0, err
+        assert errors == []

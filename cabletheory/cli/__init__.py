@@ -198,6 +198,19 @@ def main(argv: Sequence[str] | None = None, *, open_app: Callable[..., None] | N
         return 70
 
 
+# options that name a file a command writes; checked before any work so that a bad place fails at once
+OUTPUT_OPTIONS = ("output", "report", "plot", "figure")
+
+
+def _check_outputs(args: argparse.Namespace) -> None:
+    for option in OUTPUT_OPTIONS:
+        value = getattr(args, option, None)
+        if isinstance(value, str):
+            from ..output import check_output
+
+            check_output(value, what=f"--{option}")
+
+
 def _detail(exc: BaseException) -> str:
     text = " ".join(str(exc).split())[:200]
     return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
@@ -219,6 +232,7 @@ def _run(arguments: list[str], open_app: Callable[..., None] | None = None) -> i
         raise InputError(f"no command given; choose one of {', '.join(COMMANDS)} ('cabletheory --help' "
                          "describes them)")
     args.open_app = open_app
+    _check_outputs(args)
     limit = getattr(args, "max_file_size", None)
     with input_size_limit(limit or max_input_bytes()):
         return int(args.run(args))
