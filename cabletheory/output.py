@@ -194,7 +194,7 @@ def _checked_target(path: str | os.PathLike[str], protected: Iterable[str | os.P
         if not stat.S_ISREG(existing.st_mode):
             raise InputError(f"{label} is not a regular file (a device, pipe or socket); it is never replaced")
     if not folder.is_dir():
-        raise InputError(f"{label}: folder {str(folder)!r} does not exist")
+        raise InputError(f"{what}: folder {str(folder)!r} does not exist")
     try:
         name_max = os.pathconf(folder, "PC_NAME_MAX")
     except (OSError, ValueError):
