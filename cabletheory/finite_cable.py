@@ -29,7 +29,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from . import eigen
+from . import contour, eigen
 from .errors import ConvergenceError, InputError
 from .kernels import clamp_steady, end_weights, point_source_alpha, point_source_step, semi_infinite_clamp, steady_green
 from .truncation import (
@@ -42,11 +42,13 @@ from .truncation import (
     reflections_needed,
 )
 
-__all__ = ["clamp_response", "current_response"]
+__all__ = ["CONTOUR_MODES", "EARLY_REFLECTIONS", "clamp_response", "current_response"]
 
 Array = NDArray[np.float64]
 
 _IMAGE_COST = 25.0  # cost of one image term relative to one eigen term (erfcx vs multiply-add)
+EARLY_REFLECTIONS = 4  # images with at most this many reflections per side are always preferred
+CONTOUR_MODES = 4000  # eigen-series needing more modes than this give way to the contour inversion
 _CHUNK = 1 << 22  # elements per temporary array in the series sums
 
 
@@ -116,13 +118,17 @@ def _clamp_images(X: Array, T: Array, L: float, sigma: float, K: int) -> Array:
     return total
 
 
-def _shape_images(shape: Shape, X: Array, X0: float, T: Array, L: float, sign: float, K: int) -> Array:
+def _shape_images(shape: Shape, X: Array, X0: float, T: Array, L: float, sign: float, K: int,
+                  delayed: Array | None = None) -> Array:
+    """Image sums of a step, pulse (a step minus the step delayed to ``delayed`` = T - D, formed
+    by the caller without cancellation) or alpha current."""
     if shape.kind == "alpha":
         a = shape.time_to_peak
         return _point_images(lambda d, t: point_source_alpha(d, t, a), X, X0, T, L, sign, K)
     values = _point_images(point_source_step, X, X0, T, L, sign, K)
     if shape.kind == "pulse":
-        values = values - _point_images(point_source_step, X, X0, T - shape.duration, L, sign, K)
+        later = T - shape.duration if delayed is None else delayed
+        values = values - _point_images(point_source_step, X, X0, later, L, sign, K)
     return values
 
 
@@ -138,8 +144,8 @@ def _series(time_factor, spatial: Array, T: Array, count: int) -> Array:
 
 def current_response(position: ArrayLike, source: float, normalised_time: ArrayLike, electrotonic_length: float,
                      end_conductance_ratio: float = 0.0, soma_ratio: float = 0.0, *, shape: str = "step",
-                     duration: float = 0.0, time_to_peak: float = 0.0,
-                     tolerance: float = 1e-10) -> tuple[Array, Array, str]:
+                     duration: float = 0.0, time_to_peak: float = 0.0, tolerance: float = 1e-10,
+                     delayed_time: ArrayLike | None = None) -> tuple[Array, Array, str]:
     r"""Voltage :math:`V/(IR_\infty)` on the grid T × X for a current input at X0 on a cylinder.
 
     The cylinder has a sealed origin (or a soma of ratio :math:`y = G_S/G_\infty`) and a far end
@@ -151,7 +157,16 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
     (eigen-series; :math:`h_n = e^{-\mu_n T}/\mu_n` for a step, :math:`\mu_n = 1+\alpha_n^2`) or the
     image sum of :func:`point_source_step` / :func:`point_source_alpha`, per T, whichever needs
     fewer operations for a truncation error ≤ ``tolerance`` (absolute, in units of
-    :math:`IR_\infty`).
+    :math:`IR_\infty`); images are also preferred at early times whenever they need at most
+    :data:`EARLY_REFLECTIONS` reflections, because they are then accurate relative to each value
+    (the eigen-series subtracts from the steady state). A soma, or a leaky end whose bracket is
+    too wide, at times whose eigen-series would need more than :data:`CONTOUR_MODES` modes,
+    uses the Laplace-domain solution inverted on a contour (:func:`cabletheory.laplace.current_inversion`),
+    whose error estimate is the bound there.
+
+    ``delayed_time`` (pulse only): T - D for each T, formed by the caller from the SI times
+    (``(t - duration)/τm``) so that the moments just after the pulse ends keep their digits;
+    default ``T - duration``.
 
     Returns
     -------
@@ -176,42 +191,56 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
     bound = np.zeros((T.size, X.size))
     plan = _Plan()
     live = np.flatnonzero(T > 0)
+    delayed = (T - shp.duration if delayed_time is None
+               else np.atleast_1d(np.asarray(delayed_time, dtype=float)))
     if math.isinf(L):
         if y != 0:
             raise InputError("a soma needs a finite cylinder")
         Tl = T[live]
-        out[live] = _shape_images(shp, X, X0, Tl, math.inf, 1.0, 0)
+        out[live] = _shape_images(shp, X, X0, Tl, math.inf, 1.0, 0, delayed[live])
         return out, bound, "closed form (semi-infinite cable: source and its image in the sealed end)"
     w_s, w_k = end_weights(B)
     images_exact = y == 0 and (w_k == 0 or w_s == 0)
     leaky = y == 0 and not images_exact
     sign = 1.0 if w_k == 0 else -1.0
     Tl = T[live]
-    mode_bound = current_bound(shp, L)
+    Dl = delayed[live]
     tol = float(tolerance)  # in units of the kernel's scale, so it may exceed 1
     if not (math.isfinite(tol) and tol > 0):
         raise InputError(f"tolerance must be finite and positive, got {tolerance!r}")
-    n_need, _ = modes_needed(Tl, tol, L, mode_bound)
+    if shp.kind == "pulse":
+        # the modes of a pulse decay from its end: bound them at T - D once the pulse is over
+        effective = np.where(Dl > 0, Dl, Tl)
+
+        def mode_bound(n: int, t: Array) -> Array:
+            return eigen.tail_bound(n, t, L, kind="step")
+
+        n_need, _ = modes_needed(effective, tol, L, mode_bound)
+    else:
+        effective = Tl
+        mode_bound = current_bound(shp, L)
+        n_need, _ = modes_needed(Tl, tol, L, mode_bound)
     use_eigen = np.ones(Tl.size, dtype=bool)
     if images_exact or leaky:
         tails = [image_tail]
         reflections = reflections_needed(Tl, L, tol / (2 if shp.kind == "pulse" else 1), tails[0])
         cost_images = (2 * reflections + 1) * 2 * _IMAGE_COST * (2 if leaky else 1) * (2 if shp.kind == "pulse" else 1)
         cost_images *= 16 if shp.kind == "alpha" else 1
-        prefer = cost_images < n_need
+        prefer = (cost_images < n_need) | (reflections <= EARLY_REFLECTIONS)
         for k in np.unique(reflections[prefer]).astype(int):
             idx = np.flatnonzero(prefer & (reflections == k))
             Tk = Tl[idx]
+            Dk = Dl[idx]
             tail = image_tail(np.float64(k), Tk, L)
             if shp.kind == "pulse":
-                tail = tail + image_tail(np.float64(k), Tk - shp.duration, L)
+                tail = tail + image_tail(np.float64(k), Dk, L)
             if images_exact:
-                values = _shape_images(shp, X, X0, Tk, L, sign, k)
+                values = _shape_images(shp, X, X0, Tk, L, sign, k, Dk)
                 err = np.broadcast_to(tail[:, None], values.shape)
                 accepted = np.ones(idx.size, dtype=bool)
             else:
-                upper = _shape_images(shp, X, X0, Tk, L, 1.0, k)
-                lower = _shape_images(shp, X, X0, Tk, L, -1.0, k)
+                upper = _shape_images(shp, X, X0, Tk, L, 1.0, k, Dk)
+                lower = _shape_images(shp, X, X0, Tk, L, -1.0, k, Dk)
                 values = 0.5 * (upper + lower)
                 err = 0.5 * np.abs(upper - lower) + tail[:, None]
                 accepted = np.all(err <= tol, axis=1)
@@ -222,13 +251,22 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
         img_T = Tl[~use_eigen]
         plan.add("sealed/killed bracket of images" if leaky else "images", img_T,
                  int(reflections[~use_eigen].max()) if img_T.size else 0, "reflections per side")
+    # early times the images cannot take (a soma, or a leaky end near the end): contour inversion
+    early = np.flatnonzero(use_eigen & (n_need > CONTOUR_MODES))
+    if early.size:
+        values, err = _inverted(shp, X, X0, Tl[early], Dl[early], L, B, y)
+        accepted = np.all(err <= tol, axis=1) | (n_need[early] > MAX_MODES)
+        out[live[early[accepted]]] = values[accepted]
+        bound[live[early[accepted]]] = err[accepted]
+        use_eigen[early[accepted]] = False
+        plan.add("Laplace-domain solution inverted on a contour", Tl[early[accepted]], contour.FINE, "nodes")
     idx = np.flatnonzero(use_eigen)
     if idx.size:
         Te = Tl[idx]
-        if np.any(n_need[idx] > MAX_MODES):
+        if np.any(n_need[idx] > MAX_MODES):  # pragma: no cover - the contour takes these times
             worst = Te[n_need[idx] > MAX_MODES].min()
             raise ConvergenceError(f"the eigen-series needs more than {MAX_MODES} modes at T = {worst:.3g} "
-                                   f"for tolerance {tol:.3g}; choose a later time or a looser tolerance")
+                                   f"for tolerance {tol:.3g}; choose a later time or a looser truncation")
         count = int(n_need[idx].max())
         alpha = eigen._eigenvalues(L, B, count, "sealed", y)
         mu = 1.0 + alpha**2
@@ -239,9 +277,10 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
             values = steady[None, :] - _series(lambda s: np.exp(-mu[s] * Tc) / mu[s], residues, Te, count)
         elif shp.kind == "pulse":
             D = shp.duration
-            after = Tc > D
+            De = Dl[idx][:, None]
+            after = De > 0
             values = np.where(after, 0.0, steady[None, :]) - _series(
-                lambda s: np.where(after, np.expm1(-mu[s] * D) * np.exp(-mu[s] * np.where(after, Tc - D, 0.0)),
+                lambda s: np.where(after, np.expm1(-mu[s] * D) * np.exp(-mu[s] * np.where(after, De, 0.0)),
                                    np.exp(-mu[s] * Tc)) / mu[s], residues, Te, count)
         else:
             a = shp.time_to_peak
@@ -249,9 +288,24 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
             values = f * steady[None, :] - _series(lambda s: f / mu[s] - _alpha_mode(mu[s], Tc, a), residues, Te,
                                                    count)
         out[live[idx]] = values
-        bound[live[idx]] = mode_bound(count, Te)[:, None]
+        bound[live[idx]] = mode_bound(count, effective[idx])[:, None]
         plan.add("eigen-series", Te, count, "modes")
     return out, bound, plan.text()
+
+
+def _inverted(shp: Shape, X: Array, X0: float, T: Array, delayed: Array, L: float, B: float,
+              y: float) -> tuple[Array, Array]:
+    """Contour inversion of the Laplace-domain solution for a step, pulse (step minus the step
+    at ``delayed``) or alpha current: (values, error estimates) on the grid T × X."""
+    from . import laplace
+
+    if shp.kind == "alpha":
+        return laplace.current_inversion(X, X0, T, L, B, y, shape="alpha", time_to_peak=shp.time_to_peak)
+    values, err = laplace.current_inversion(X, X0, T, L, B, y)
+    if shp.kind == "pulse":
+        later, later_err = laplace.current_inversion(X, X0, delayed, L, B, y)
+        values, err = values - later, err + later_err
+    return values, err
 
 
 def clamp_response(position: ArrayLike, normalised_time: ArrayLike, electrotonic_length: float,

@@ -58,7 +58,11 @@ def point_source_step(distance: ArrayLike, normalised_time: ArrayLike) -> Array:
 
     evaluated as :math:`\tfrac14 e^{-d^2/4T - T}[\mathrm{erfcx}(z) - \mathrm{erfcx}(w)]`
     (z ≥ 0) or :math:`\tfrac14[2e^{-d} - e^{-d^2/4T-T}(\mathrm{erfcx}(-z) + \mathrm{erfcx}(w))]`
-    (z < 0), finite for every d ≥ 0 and T. Final value :math:`e^{-d}/2`; 0 for T ≤ 0.
+    (z < 0), finite for every d ≥ 0 and T. Near the source at early times (z < 1/2 and T < 1)
+    both forms subtract nearly equal numbers, so there the same value is summed as
+    :math:`\tfrac14[e^{d}\mathrm{erf}(w) - e^{-d}\mathrm{erf}(z) - 2\sinh d]`, which keeps its
+    relative accuracy (at d = 0 it is :math:`\mathrm{erf}\sqrt T/2` exactly). Final value
+    :math:`e^{-d}/2`; 0 for T ≤ 0.
 
     Parameters
     ----------
@@ -80,6 +84,14 @@ def point_source_step(distance: ArrayLike, normalised_time: ArrayLike) -> Array:
         neg = z < 0
         za = np.abs(z)
         value = np.where(neg, 2.0 * e_d - big_e * (erfcx(za) + erfcx(w)), big_e * (erfcx(za) - erfcx(w)))
+        near = (z < 0.5) & (Tp < 1.0)
+        if near.any():
+            from scipy.special import erf
+
+            d = np.broadcast_to(np.abs(np.asarray(distance, dtype=float)), value.shape)
+            zn, wn, dn = np.broadcast_to(z, value.shape)[near], np.broadcast_to(w, value.shape)[near], d[near]
+            value = np.array(value, dtype=float)
+            value[near] = np.exp(dn) * erf(wn) - np.exp(-dn) * erf(zn) - 2.0 * np.sinh(dn)
     return np.where(positive, 0.25 * value, 0.0)
 
 

@@ -155,10 +155,17 @@ def _shape_value(kind, T, D, a):
     return T / a * mp.exp(1 - T / a)
 
 
-def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=None):
-    """One value of :func:`cabletheory.transient.current_response` in mpmath (current mp.dps)."""
+def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=None, delayed=None):
+    """One value of :func:`cabletheory.transient.current_response` in mpmath (current mp.dps).
+
+    ``delayed`` (pulse): T - D formed by the caller from the SI times, default T - D. Where the
+    eigen-series would need more than :data:`MAX_PRECISE_MODES` modes (a soma or a leaky end at
+    very early times), the value is the float contour inversion of :mod:`cabletheory.laplace`
+    with its error estimate as the bound.
+    """
     X, X0, T = mp.mpf(X), mp.mpf(X0), mp.mpf(T)
     D, a = mp.mpf(D), mp.mpf(a) if a else mp.mpf(0)
+    Td = T - D if delayed is None else mp.mpf(delayed)
     if T <= 0:
         return mp.mpf(0), 0.0
 
@@ -166,7 +173,7 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
         if kind == "alpha":
             return point_source_alpha(d, t, a)
         v = point_source_step(d, t)
-        return v - point_source_step(d, t - D) if kind == "pulse" else v
+        return v - point_source_step(d, Td + (t - T)) if kind == "pulse" else v
 
     if infinite:
         return kern(X - X0, T), 0.0
@@ -187,13 +194,19 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
                 s = sign ** abs(k)
                 total += s * (kern(X - X0 - 2 * k * Lm, T) + kern(X + X0 - 2 * k * Lm, T))
             return total, float(image_tail(np.float64(K), np.float64(tf), float(L)))
-    bound = current_bound(Shape(kind, float(D), float(a)), float(L))
-    tf = np.array([float(T)])
+    if kind == "pulse":
+        def bound(n, t):
+            return eigen.tail_bound(n, t, float(L), kind="step")
+
+        tf = np.array([float(Td) if Td > 0 else float(T)])
+    else:
+        bound = current_bound(Shape(kind, float(D), float(a)), float(L))
+        tf = np.array([float(T)])
     n = 1
     while float(bound(n, tf)[0]) > tol:
         n *= 2
         if n > MAX_PRECISE_MODES:
-            raise ConvergenceError(f"precise eigen-series needs more than {MAX_PRECISE_MODES} modes at T = {T}")
+            return _inverted(float(X), float(X0), float(T), float(Td), float(L), float(B), float(y), kind, float(a))
     key = (float(L), float(B), float(y), n)
     if _cache is not None and key in _cache:
         alphas = _cache[key]
@@ -203,7 +216,7 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
             _cache[key] = alphas
     ym = mp.mpf(y)
     total = mp.mpf(0)
-    f = _shape_value(kind, T, D, a)
+    f = (mp.mpf(1) if Td <= 0 else mp.mpf(0)) if kind == "pulse" else _shape_value(kind, T, D, a)
     g = _steady(X, X0, Lm, B, ym)
     for al in alphas:
         mu = 1 + al * al
@@ -219,10 +232,24 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
             total += r * mp.exp(-mu * T) / mu
         elif kind == "pulse":
             # before the end of the pulse a step; after it the difference of two steps (no steady state)
-            total += r * (mp.exp(-mu * T) if T <= D else mp.exp(-mu * T) - mp.exp(-mu * (T - D))) / mu
+            total += r * (mp.exp(-mu * T) if Td <= 0 else mp.exp(-mu * T) - mp.exp(-mu * Td)) / mu
         else:
             total += r * (f / mu - _alpha_mode(mu, T, a))
     return f * g - total, float(bound(n, tf)[0])
+
+
+def _inverted(X, X0, T, Td, L, B, y, kind, a):
+    """The float contour inversion (cabletheory.laplace) of one value: (mpf value, bound)."""
+    from . import laplace
+
+    if kind == "alpha":
+        v, e = laplace.current_inversion([X], X0, [T], L, B, y, shape="alpha", time_to_peak=a)
+    else:
+        v, e = laplace.current_inversion([X], X0, [T], L, B, y)
+        if kind == "pulse":
+            v2, e2 = laplace.current_inversion([X], X0, [Td], L, B, y)
+            v, e = v - v2, e + e2
+    return mp.mpf(float(v[0, 0])), float(e[0, 0])
 
 
 def clamp_value(X, T, L, B, tol, infinite=False, source=0.0, _cache=None):
@@ -269,19 +296,22 @@ def clamp_value(X, T, L, B, tol, infinite=False, source=0.0, _cache=None):
     return steady - total, float(eigen.tail_bound(n, tf, float(L), kind="clamp", origin="clamped")[0])
 
 
-def current_grid(X, X0, T, L, B, y, kind, D, a, tol, digits, infinite=False):
-    """:func:`current_value` on the grid T × X at ``digits`` decimal digits; float arrays out."""
+def current_grid(X, X0, T, L, B, y, kind, D, a, tol, digits, infinite=False, delayed=None):
+    """:func:`current_value` on the grid T × X at ``digits`` decimal digits; float arrays out.
+    ``delayed``: T - D per T for a pulse, formed by the caller (default T - D)."""
     out = np.zeros((len(T), len(X)))
     bound = np.zeros_like(out)
     cache: dict = {}
     with mp.workdps(int(digits)):
         for i, t in enumerate(T):
+            later = None if delayed is None else float(delayed[i])
             for j, x in enumerate(X):
                 v, b = current_value(float(x), float(X0), float(t), float(L), float(B), float(y), kind, D, a, tol,
-                                     infinite=infinite, _cache=cache)
+                                     infinite=infinite, _cache=cache, delayed=later)
                 out[i, j] = float(v)
                 bound[i, j] = b
-    return out, bound, f"mpmath at {int(digits)} digits (images or eigen-series per point)"
+    return out, bound, (f"mpmath at {int(digits)} digits (images or eigen-series per point; a contour inversion in "
+                        "floats where the series would need too many modes)")
 
 
 def clamp_grid(X, T, L, B, tol, digits, infinite=False, source=0.0):
@@ -296,4 +326,5 @@ def clamp_grid(X, T, L, B, tol, digits, infinite=False, source=0.0):
                                    _cache=cache)
                 out[i, j] = float(v)
                 bound[i, j] = b
-    return out, bound, f"mpmath at {int(digits)} digits (images or eigen-series per point)"
+    return out, bound, (f"mpmath at {int(digits)} digits (images or eigen-series per point; a contour inversion in "
+                        "floats where the series would need too many modes)")

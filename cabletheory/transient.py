@@ -17,7 +17,15 @@ has a truncation error below the requested tolerance, and the bound is reported:
 * a **leaky end** (0 < B < ∞) at small T is bracketed: for a non-negative input the voltage
   lies between the killed-end and sealed-end image sums (comparison principle), so their
   mean is used when half their difference is below the tolerance; otherwise the eigen-series.
+* a **soma** (ball and stick), or a leaky end whose bracket is too wide, at times so early that
+  the eigen-series would need thousands of modes: the Laplace-domain solution
+  (:mod:`cabletheory.laplace`) inverted on a parabolic contour (:mod:`cabletheory.contour`),
+  whose error estimate is the bound there; so every T > 0 is answered.
 * semi-infinite and infinite cables use the closed forms directly.
+
+A pulse is a step minus the step delayed by its duration; the delayed time is formed as
+``(t - duration)/τm`` from the SI inputs, so a time a few ulps after the pulse ends keeps its
+digits.
 
 The closed forms live in :mod:`cabletheory.kernels`, the finite-cable engines in
 :mod:`cabletheory.finite_cable` and the truncation rules in :mod:`cabletheory.truncation`; this
@@ -26,9 +34,16 @@ and re-exports the dimensionless functions.
 
 The tolerance is relative to the reference voltage of the stimulus: the final voltage at
 the stimulus site for a current step of the same amplitude (peak for an alpha current), or
-the clamp step. Floating-point rounding is not part of the truncation bound; the reported
-``error_bound`` adds an allowance of :data:`ROUNDING_ALLOWANCE` times the reference voltage
-(measured against mpmath at 30 digits in the tests).
+the clamp step. Every value has a bound of its own (:attr:`Response.bounds`): its truncation
+bound plus a rounding allowance of :data:`ROUNDING_ALLOWANCE` times the rounding scale, which
+is the reference voltage or, on a cylinder whose far end conducts (B > 0), at least
+:math:`|I|R_\infty\min(1, \sqrt{T_{max}})` (the size of the image terms that cancel near a
+killed end, where the reference voltage itself goes to zero), and, for a current input,
+:math:`8\epsilon(|X| + |X_0|)|I|R_\infty` for the rounding of positions into units of λ (it
+matters for a site close to an input far down a long cable at very early times). A current
+injected exactly at a
+killed end leaves the cable at rest: the values are exactly 0 with bound 0. The accuracy
+contract, and the tests that hold the code to it, are in docs/accuracy.md.
 
 Every result assumes a passive, linear membrane with uniform Rm, Ri and Cm.
 
@@ -110,7 +125,9 @@ class Response:
     times : s, shape (nT,)
     positions : m, shape (nX,)
     voltage : V, shape (nT, nX), ``voltage[i, j]`` at ``times[i]``, ``positions[j]``
-    error_bound : V, bound on the truncation error of every value plus the rounding allowance
+    bounds : V, shape (nT, nX), bound on the error of each value (truncation plus rounding
+        allowance); ``bounds / abs(voltage)`` is the bound relative to each value
+    error_bound : V, the largest of ``bounds``
     time_constants : s, equalising time constants τ_n of the modes, slowest first (empty for
         semi-infinite and infinite cables)
     coefficients : shape (len(time_constants), nX); C_n of the *step* response at each
@@ -127,6 +144,7 @@ class Response:
     times: Array
     positions: Array
     voltage: Array
+    bounds: Array
     error_bound: float
     time_constants: Array
     coefficients: Array
@@ -232,6 +250,9 @@ def charge(model: Model, stimulus: Stimulus, times: ArrayLike, positions: ArrayL
     amplitude = _amplitude(stimulus)
     clamp = isinstance(stimulus, VoltageStep)
     notes: list[str] = []
+    # a pulse's end: t - duration is exact in floating point near the end (Sterbenz), T - D is not
+    delayed = (t - stimulus.duration) / tau if isinstance(stimulus, CurrentPulse) else None
+    rounding = 0.0
     if clamp:
         scale = amplitude
         reference = abs(amplitude)
@@ -244,14 +265,25 @@ def charge(model: Model, stimulus: Stimulus, times: ArrayLike, positions: ArrayL
         site = case.site_factor
         reference = case.reference_voltage
         tol = tolerance * site
-    if precision is not None:
+        if not infinite and B > 0:
+            # near a (nearly) killed end the images cancel: round relative to their size
+            rounding = abs(scale) * min(1.0, math.sqrt(max(float(T.max(initial=0.0)), 0.0)))
+    rounding = ROUNDING_ALLOWANCE * max(reference, rounding)
+    if not clamp and reference == 0.0:
+        # a current into a killed end (or a zero amplitude) leaves the whole cable at rest
+        zero = np.zeros((T.size, X.size))
+        values, bounds, method = zero, zero.copy(), "exact: the input leaves the cable at rest (V = 0)"
+        rounding = 0.0
+        notes.append("a current injected at a killed end flows straight out through it: V = 0 everywhere")
+    elif precision is not None:
         from . import precise
 
         if clamp:
             values, bounds, method = precise.clamp_grid(X, T, L, B, tol, precision, infinite=infinite, source=X0)
         else:
             values, bounds, method = precise.current_grid(X, X0, T, L, B, y, shape.kind, shape.duration,
-                                                           shape.time_to_peak, tol, precision, infinite=infinite)
+                                                           shape.time_to_peak, tol, precision, infinite=infinite,
+                                                           delayed=delayed)
     elif infinite:
         d = np.abs(X - X0)[None, :]
         Tc = T[:, None]
@@ -261,8 +293,8 @@ def charge(model: Model, stimulus: Stimulus, times: ArrayLike, positions: ArrayL
             values = point_source_alpha(d, Tc, shape.time_to_peak)
         else:
             values = point_source_step(d, Tc)
-            if shape.kind == "pulse":
-                values = values - point_source_step(d, Tc - shape.duration)
+            if shape.kind == "pulse" and delayed is not None:
+                values = values - point_source_step(d, delayed[:, None])
         values = np.broadcast_to(values, (T.size, X.size)).copy()
         bounds = np.zeros_like(values)
         method = "closed form (infinite cable, Hodgkin-Rushton)"
@@ -270,7 +302,8 @@ def charge(model: Model, stimulus: Stimulus, times: ArrayLike, positions: ArrayL
         values, bounds, method = clamp_response(X, T, L, B, tolerance=tol)
     else:
         values, bounds, method = current_response(X, X0, T, L, B, y, shape=shape.kind, duration=shape.duration,
-                                                  time_to_peak=shape.time_to_peak, tolerance=tol)
+                                                  time_to_peak=shape.time_to_peak, tolerance=tol,
+                                                  delayed_time=delayed)
     # time constants and step coefficients
     if math.isfinite(L) and modes > 0:
         origin = "clamped" if clamp else "sealed"
@@ -294,8 +327,14 @@ def charge(model: Model, stimulus: Stimulus, times: ArrayLike, positions: ArrayL
         steady = scale * (np.exp(-np.abs(X - X0)) if infinite else clamp_steady(X, L, B))
     elif shape.kind == "step":
         steady = scale * (0.5 * np.exp(-np.abs(X - X0)) if infinite else steady_green(X, X0, L, B, y))
-    error_bound = float(np.max(bounds, initial=0.0)) * abs(scale) + ROUNDING_ALLOWANCE * reference
-    return Response(times=t, positions=x, voltage=scale * values, error_bound=error_bound,
+    per_value = np.broadcast_to(np.asarray(bounds, dtype=float), (T.size, X.size)) * abs(scale) + rounding
+    if not clamp and reference > 0:
+        # X = x/λ and X0 are rounded (relative ε) before their difference is formed; a current
+        # input's voltage changes by at most 2|I|R∞ per unit of X (the axial current is at most
+        # the input's), so allow 8ε(|X| + |X0|)|I|R∞ per value for it
+        per_value = per_value + (8 * np.finfo(float).eps * abs(scale) * (np.abs(X) + abs(X0)))[None, :]
+    error_bound = float(np.max(per_value, initial=0.0))
+    return Response(times=t, positions=x, voltage=scale * values, bounds=per_value, error_bound=error_bound,
                     time_constants=time_constants, coefficients=coefficients, method=method, steady_state=steady,
                     reference_voltage=reference, tolerance=float(tolerance), length_constant=lam,
                     membrane_time_constant=tau, precision=precision, notes=tuple(notes))

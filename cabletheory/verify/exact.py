@@ -46,6 +46,15 @@ def sealed_step_voltage(cylinder: cb.Cylinder, amplitude: float, times: ArrayLik
     :math:`\frac{2}{L}\sum_{n>N} e^{-(1+k_n^2)T}/k_n^2 \le \frac{2L}{\pi^2 N} e^{-(1+k_{N+1}^2)T}`,
     and N grows until that bound, times :math:`|I| R_\infty`, is below ``tolerance`` (V).
 
+    At early times, :math:`T < L^2/16`, where the series would need about
+    :math:`(L/\pi)\sqrt{\ln(1/\text{tolerance})/T}` terms, the same voltage is summed as images
+    of the infinite-cable solution reflected at both sealed ends (Hodgkin & Rushton 1946; Jack,
+    Noble & Tsien 1975 ch. 3, recalled from memory),
+    :math:`2\sum_k P(|X - 2kL|, T)` with P of :func:`cabletheory.kernels.point_source_step`,
+    with K reflections per side until the tail bound
+    :math:`4e^{-(KL)^2/T}[\sqrt{T/\pi} + T/(4L)]` (:func:`cabletheory.truncation.image_tail`),
+    times :math:`|I|R_\infty`, is below ``tolerance``. So every T > 0 is answered.
+
     Parameters
     ----------
     cylinder : finite cylinder (its end conductance is ignored: sealed)
@@ -67,26 +76,52 @@ def sealed_step_voltage(cylinder: cb.Cylinder, amplitude: float, times: ArrayLik
     steady = np.exp(-X) * (1 + np.exp(-2 * (L - X))) / -np.expm1(-2 * L)  # expm1: short cables stay accurate
     voltage = np.zeros(t.shape)
     bound = np.zeros(t.shape)
-    live = T > 0  # at T = 0 the cable is at rest exactly
+    early = (T > 0) & (T < L * L / 16)
+    if np.any(early):
+        voltage[early], bound[early] = _sealed_images(X[early], T[early], L, tolerance / scale if scale else 1.0)
+        voltage[early] *= amplitude * cylinder.semi_infinite_input_resistance
+        bound[early] = bound[early] * scale + 1e-15 * scale * np.maximum(1.0, 1.0 / L)
+    live = T >= L * L / 16  # at T = 0 the cable is at rest exactly
     Tl, Xl = T[live], X[live]
     total = np.exp(-Tl)
     tail = np.full(Tl.shape, np.inf)
     active = np.ones(Tl.shape, dtype=bool)
     n0, chunk = 0, 64
     while np.any(active):
-        if n0 > 10_000_000:
-            raise ConvergenceError(f"series did not reach {tolerance:.3g} V at the earliest times")
+        if n0 > 10_000_000:  # pragma: no cover - images take the early times
+            raise ConvergenceError(f"series did not reach {tolerance:.3g} V at the earliest times; "
+                                   "loosen the exact values' truncation")
         n = np.arange(n0 + 1, n0 + chunk + 1)
         k = n * np.pi / L
         ta, xa = Tl[active, None], Xl[active, None]
         total[active] += np.sum(2 * np.cos(k * xa) * np.exp(-(1 + k * k) * ta) / (1 + k * k), axis=1)
         last = n0 + chunk
-        tail[active] = scale * 2 / (np.pi**2 * last) * np.exp(-(1 + ((last + 1) * np.pi / L) ** 2) * Tl[active])
+        # 2L/(π² N)·e^{-(1+k_{N+1}²)T}: the tail bound of the docstring, with its factor L
+        tail[active] = scale * 2 * L / (np.pi**2 * last) * np.exp(-(1 + ((last + 1) * np.pi / L) ** 2) * Tl[active])
         active &= tail > tolerance
         n0, chunk = last, min(chunk * 2, 65536)
     voltage[live] = amplitude * cylinder.semi_infinite_input_resistance * (steady[live] - total / L)
     bound[live] = tail + 1e-15 * scale * np.maximum(1.0, 1.0 / L)  # truncation plus rounding
     return voltage, bound
+
+
+def _sealed_images(X: Array, T: Array, L: float, tolerance: float) -> tuple[Array, Array]:
+    """Images of a step at X = 0 between two sealed ends, pointwise: (V/(IR∞), truncation bound)."""
+    from ..kernels import point_source_step
+    from ..truncation import image_tail
+
+    K = np.ones(T.shape)
+    while True:
+        bad = image_tail(K, T, L) > tolerance
+        if not bad.any():
+            break
+        K = np.where(bad, K + 1, K)
+    total = 2 * point_source_step(X, T)
+    for k in range(1, int(K.max()) + 1):
+        use = k <= K
+        total = total + np.where(use, 2 * (point_source_step(np.abs(X - 2 * k * L), T)
+                                           + point_source_step(X + 2 * k * L, T)), 0.0)
+    return total, image_tail(K, T, L)
 
 
 def sealed_step_case(cylinder: cb.Cylinder, amplitude: float, tolerance: float = 1e-12) -> ExactCase:
@@ -177,7 +212,7 @@ def transient_case(case: Case, tolerance: float = 1e-12) -> ExactCase:
         if unique_t.size * unique_x.size <= GRID_FACTOR * t.size + GRID_SLACK:
             r = tr.charge(model, stimulus, unique_t, unique_x, tolerance=relative, modes=0)
             voltage[:] = r.voltage[ti, xi]
-            bound[:] = r.error_bound
+            bound[:] = r.bounds[ti, xi]
         else:  # scattered pairs: blocks of neighbouring positions, each on its own small grid
             order = np.argsort(x, kind="stable")
             for begin in range(0, order.size, SCATTER_BLOCK):
@@ -186,7 +221,7 @@ def transient_case(case: Case, tolerance: float = 1e-12) -> ExactCase:
                 bx, bxi = np.unique(x[at], return_inverse=True)
                 r = tr.charge(model, stimulus, bt, bx, tolerance=relative, modes=0)
                 voltage[at] = r.voltage[bti, bxi]
-                bound[at] = r.error_bound
+                bound[at] = r.bounds[bti, bxi]
         return voltage.reshape(np.shape(times)), bound.reshape(np.shape(times))
 
     return ExactCase(evaluate=evaluate, description=case.describe(), method=method, parameters=params,
