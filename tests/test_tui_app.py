@@ -15,7 +15,7 @@ import pytest
 
 pytest.importorskip("textual")
 
-from textual.widgets import Input, RadioButton
+from textual.widgets import Input
 
 from cabletheory import PASSIVE_CAVEAT
 from cabletheory.tui.app import CableApp
@@ -111,7 +111,7 @@ def test_typing_a_wrong_unit_flags_the_field_and_fixing_it_restores_results():
         await type_into(pilot, app, "Rm", "5uF")
         field = app.query_one("#field-Rm", QuantityField)
         assert field.has_class("bad")
-        message = text_of(app, "#field-Rm .field-message")
+        message = text_of(app, "#field-Rm .field-echo")
         assert message == "Rm: '5uF' is a capacitance, expected a specific membrane resistance such as 20 kΩ·cm²"
         assert "wait for valid inputs" in text_of(app, "#cylinder-results")
         assert app.query_one("#cylinder").report is None
@@ -132,38 +132,20 @@ def test_results_follow_each_keystroke():
     drive(script)
 
 
-def test_ctrl_b_cycles_the_far_end_and_the_leaky_end_asks_for_a_conductance():
+def test_the_far_end_is_typed_as_in_every_view_and_its_reading_is_echoed():
     async def script(app, pilot):
-        view = app.query_one("#cylinder")
-        conductance = app.query_one("#field-end_conductance")
-        assert not conductance.display
-        await pilot.press("ctrl+b")
-        await pilot.pause()
-        assert view.end_choice == "killed"
+        await type_into(pilot, app, "end", "killed")
         assert "274.1 MΩ" in text_of(app, "#cylinder-results")  # R∞ tanh L, computed
-        await pilot.press("ctrl+b")
-        await pilot.pause()
-        assert view.end_choice == "leaky"
-        assert conductance.display
+        assert "killed" in app.query_one("#field-end", QuantityField).echo_text
         # B = 1: G_end = G∞ = 1/450.158 MΩ gives R_in = R∞ for every L (Rall 1959 [Rall1959])
-        await type_into(pilot, app, "end_conductance", "2.2214411 nS")
+        await type_into(pilot, app, "end", "2.2214411")  # bare number: nS
         results = text_of(app, "#cylinder-results")
         assert "input resistance R_in (leaky end)" in results
         assert "450.2 MΩ" in results
-        await pilot.press("ctrl+b")
-        await pilot.pause()
-        assert view.end_choice == "sealed"
-        assert not conductance.display
-
-    drive(script)
-
-
-def test_clicking_a_radio_button_chooses_the_end():
-    async def script(app, pilot):
-        await pilot.click("#end-killed")
-        await pilot.pause()
-        assert app.query_one("#end-killed", RadioButton).value
-        assert "input resistance R_in (killed end)" in text_of(app, "#cylinder-results")
+        assert app.query_one("#field-end", QuantityField).echo_text == "= 2.221 nS to rest"
+        await type_into(pilot, app, "end", "open")
+        assert app.query_one("#field-end", QuantityField).has_class("bad")
+        assert "is not 'sealed', 'killed' or a conductance" in text_of(app, "#field-end .field-echo")
 
     drive(script)
 

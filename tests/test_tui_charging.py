@@ -74,7 +74,7 @@ def test_charging_view_keys_switch_model_and_stimulus():
         view = app.query_one("#charging")
         soma = app.query_one("#field-ch-soma")
         assert not soma.display
-        await pilot.press("ctrl+b")
+        await pilot.press("ctrl+l")
         await settle(app, pilot)
         assert view.model_choice == "ball-and-stick"
         assert soma.display
@@ -96,7 +96,7 @@ def test_charging_view_flags_a_position_beyond_the_cable():
         await type_into(pilot, app, "ch-watch", "0, 900")
         await settle(app, pilot)
         assert app.query_one("#field-ch-watch").has_class("bad")
-        assert "900.0 µm lies outside the cable" in text_of(app, "#field-ch-watch .field-message")
+        assert "900.0 µm lies outside the cable" in text_of(app, "#field-ch-watch .field-echo")
         assert app.query_one("#charging").report is None
 
     drive(script)
@@ -127,7 +127,7 @@ def test_charging_view_shows_progress_while_the_worker_runs():
         await settle(app, pilot)
         view = app.query_one("#charging")
         results = app.query_one("#charging-results")
-        view.refresh_results()
+        view.refresh_results(again=True)
         assert results.border_subtitle == "computing…"  # set before the worker is started
         assert app.query_one("#charging .plots").loading
         await settle(app, pilot)

@@ -190,12 +190,12 @@ def test_killed_end_and_pulse_chosen_by_keys_find_the_perturbed_sample(tmp_path)
         await settle(app, pilot)
         assert "FLAGGED" in str(app.query_one("#check-results").render())
         # a ball and stick of infinite length is flagged at the length field; nothing crashes
-        await pilot.press("ctrl+b")
+        await pilot.press("ctrl+l")
         await pilot.pause()
         assert view.model_choice == "ball-and-stick"
         app.query_one("#ck-length", Input).value = "inf"
         await settle(app, pilot)
-        assert "needs a finite cylinder length" in str(app.query_one("#field-ck-length .field-message").render())
+        assert "needs a finite cylinder length" in str(app.query_one("#field-ck-length .field-echo").render())
         assert view.report is None
 
     drive(script, view="check")

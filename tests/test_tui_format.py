@@ -29,7 +29,9 @@ DEMO = {"Rm": "20 kΩ·cm²", "Ri": "200 Ω·cm", "Cm": "1 µF/cm²", "diameter"
 
 
 def demo_report(end: str = "sealed", **changes: str) -> Report:
-    cylinder, frequency, errors = read_cylinder_form({**DEMO, **changes}, end)
+    # a leaky end is typed as its conductance, as in every view
+    typed = changes.pop("end_conductance") if end == "leaky" else end
+    cylinder, frequency, errors = read_cylinder_form({**DEMO, **changes, "end": typed})
     assert not errors
     assert cylinder is not None
     return cable_report(cable_summary(cylinder, frequency))
@@ -41,7 +43,7 @@ def result(report: Report, key: str) -> float:
 
 # -- forms ----------------------------------------------------------------------------------------
 def test_form_defaults_are_the_demo_cable():
-    cylinder, frequency, errors = read_cylinder_form({}, "sealed")
+    cylinder, frequency, errors = read_cylinder_form({})
     assert errors == {}
     assert cylinder is not None
     assert (cylinder.membrane_resistivity, cylinder.axial_resistivity, cylinder.membrane_capacitance) == (
@@ -52,7 +54,7 @@ def test_form_defaults_are_the_demo_cable():
 
 
 def test_wrong_unit_is_reported_per_field_with_the_unit_boundary_message():
-    cylinder, _, errors = read_cylinder_form({**DEMO, "Rm": "1uF/cm^2", "diameter": "-2"}, "sealed")
+    cylinder, _, errors = read_cylinder_form({**DEMO, "Rm": "1uF/cm^2", "diameter": "-2"})
     assert cylinder is None
     assert errors == {
         "Rm": "Rm: '1uF/cm^2' is a specific membrane capacitance, expected a specific membrane resistance "
@@ -61,24 +63,22 @@ def test_wrong_unit_is_reported_per_field_with_the_unit_boundary_message():
     }
 
 
-def test_end_conductance_is_read_only_for_a_leaky_end():
-    # a nonsense end conductance does not matter while the end is sealed or killed
-    for end in ("sealed", "killed"):
-        assert read_cylinder_form({**DEMO, "end_conductance": "oops"}, end)[2] == {}
-    cylinder, _, errors = read_cylinder_form({**DEMO, "end_conductance": "oops"}, "leaky")
+def test_far_end_is_read_by_the_one_far_end_reader():
+    assert read_cylinder_form({**DEMO, "end": "killed"})[0].end_conductance == math.inf
+    assert read_cylinder_form({**DEMO, "end": " Sealed "})[0].end_conductance == 0.0
+    cylinder, _, errors = read_cylinder_form({**DEMO, "end": "oops"})
     assert cylinder is None
-    assert set(errors) == {"end_conductance"}
-    cylinder, _, _ = read_cylinder_form({**DEMO, "end_conductance": "0.5"}, "leaky")
+    assert set(errors) == {"end"}
+    cylinder, _, _ = read_cylinder_form({**DEMO, "end": "0.5"})  # bare number: nS
     assert cylinder is not None
     assert cylinder.end_conductance == pytest.approx(0.5e-9)
-    assert read_cylinder_form({}, "killed")[0].end_conductance == math.inf
 
 
 def test_blank_frequency_means_steady_state_only_and_blank_required_field_is_flagged():
-    _cylinder, frequency, errors = read_cylinder_form({**DEMO, "frequency": " "}, "sealed")
+    _cylinder, frequency, errors = read_cylinder_form({**DEMO, "frequency": " "})
     assert errors == {}
     assert frequency is None
-    assert "empty value" in read_cylinder_form({**DEMO, "Ri": ""}, "sealed")[2]["Ri"]
+    assert "empty value" in read_cylinder_form({**DEMO, "Ri": ""})[2]["Ri"]
 
 
 def test_read_form_series_field():
@@ -92,7 +92,7 @@ def test_read_form_series_field():
 
 
 def test_every_cable_field_default_is_valid():
-    assert read_form(CABLE_FIELDS, {}).ok
+    assert read_form([s for s in CABLE_FIELDS if s.name != "end"], {}).ok  # the far end: read_end
 
 
 # -- cable report: the values shown are the core's, checked against external values --------------
@@ -144,7 +144,7 @@ def test_semi_infinite_cable_is_shown_over_five_length_constants():
 
 
 def test_profile_positions_span_the_cable():
-    cylinder, _, _ = read_cylinder_form(DEMO, "sealed")
+    cylinder, _, _ = read_cylinder_form(DEMO)
     x = profile_positions(cylinder, 11)
     assert x[0] == 0
     assert x[-1] == pytest.approx(5e-4)
@@ -220,7 +220,7 @@ def test_json_export_is_si_with_units():
     assert data["inputs"]["end_conductance"] == {"value": 0.0, "unit": "S"}
     assert data["results"]["input_resistance"] == {"value": pytest.approx(739.3466931e6, rel=1e-9),
                                                    "unit": "ohm"}
-    assert data["results"]["electrotonic_length"]["unit"] == ""
+    assert data["results"]["electrotonic_length"]["unit"] == "dimensionless"  # as the command line writes it
     assert data["results"]["compartments_needed"] == 19
     profile = data["tables"]["profile"]
     assert profile["position"]["unit"] == "m"
@@ -291,9 +291,11 @@ def test_every_key_is_unique_within_its_scope():
 
 
 def test_key_labels():
-    assert key_label("ctrl+s") == "ctrl+s"  # spelled out, as the help panel and docs/ui.md write keys
+    """The help, the key strip and the form labels write keys one way."""
+    assert key_label("ctrl+s") == "ctrl+s"
     assert key_label("f1") == "F1"
-    assert key_label("escape,q") == "escape"
+    assert key_label("f1,question_mark") == "F1 / ?"
+    assert key_label("f6,b") == "F6 / b"
 
 
 # -- charging report: the exact transients, checked against external values ------------------------
@@ -318,7 +320,7 @@ def test_charging_sealed_cylinder_matches_rall_series():
     r_inf = 450.1581581e6  # demo cable R∞, computed
     assert final == pytest.approx(100e-12 * r_inf / math.tanh(1.0), rel=1e-9)
     assert table["time"][-1] == pytest.approx(0.02)
-    assert table["voltage_at_0"][-1] / final == pytest.approx(0.7198225011, rel=1e-8)
+    assert table["voltage_at_0um"][-1] / final == pytest.approx(0.7198225011, rel=1e-8)
     assert result(report, "time_constant_0") / result(report, "time_constant_1") == pytest.approx(
         10.86960440, rel=1e-8)
     assert result(report, "error_bound") < 1e-9
@@ -330,7 +332,7 @@ def test_charging_infinite_cable_is_erf_sqrt_t():
     report = charging("infinite", span="20 ms", watch="0 µm")
     table = {c.key: np.asarray(c.values) for c in report.tables[0].columns}
     final = 100e-12 * 450.1581581e6 / 2  # doubly infinite cable injected mid-way: R∞/2 [CP]
-    assert table["voltage_at_0"][-1] / final == pytest.approx(0.8427007929, rel=1e-8)
+    assert table["voltage_at_0um"][-1] / final == pytest.approx(0.8427007929, rel=1e-8)
     assert row_text(next(r for r in report.results if r.key == "time_constants")).startswith("none")
     x = np.asarray(report.plots[1].series[0].x)
     assert x[0] == pytest.approx(-5.0)

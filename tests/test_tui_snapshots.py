@@ -22,7 +22,9 @@ async def steady(pilot) -> None:
     """Stop the input cursors blinking and let workers finish, so the picture is stable."""
     for box in pilot.app.query(Input):
         box.cursor_blink = False
-    await pilot.app.workers.wait_for_complete()
+    for _ in range(2):  # a view computes its first result after its first frame
+        await pilot.pause()
+        await pilot.app.workers.wait_for_complete()
     await pilot.pause()
 
 
@@ -43,8 +45,13 @@ def test_cylinder_view_flags_a_wrong_unit(snap_compare):
 
 
 def test_cylinder_view_leaky_end(snap_compare):
-    """The leaky end shows its conductance field and the end conductance ratio B."""
-    assert snap_compare(CableApp(), terminal_size=SIZE, press=["ctrl+b", "ctrl+b"], run_before=steady)
+    """A leaky end typed as its conductance (bare: nS), echoed beside the field; the ratio B is listed."""
+
+    async def leaky(pilot) -> None:
+        pilot.app.query_one("#end", Input).value = "1"
+        await steady(pilot)
+
+    assert snap_compare(CableApp(), terminal_size=SIZE, run_before=leaky)
 
 
 def test_help_panel(snap_compare):
@@ -61,7 +68,7 @@ def test_charging_view_ball_and_stick_alpha(snap_compare):
     """An alpha current into a ball and stick: the soma field appears, ρ is listed."""
 
     async def choose(pilot) -> None:
-        await pilot.press("ctrl+b", "ctrl+n", "ctrl+n")
+        await pilot.press("ctrl+l", "ctrl+n", "ctrl+n")
         await steady(pilot)
 
     assert snap_compare(CableApp(view="charging"), terminal_size=SIZE, run_before=choose)
@@ -120,3 +127,19 @@ def test_check_view_killed_end_pulse(snap_compare, tmp_path):
         await pilot.pause()
 
     assert snap_compare(CableApp(view="check"), terminal_size=SIZE, run_before=choose)
+
+
+# -- the least terminal a view is designed for: 80 × 24 ------------------------------------------------
+SMALL = (80, 24)
+
+
+@pytest.mark.parametrize("view", ["cylinder", "charging", "tree"])
+def test_views_at_80_by_24(snap_compare, view):
+    """Each view at 80×24: a narrower form, the main results in a focusable, scrollable panel
+    (the tree's outline above its results)."""
+    assert snap_compare(CableApp(view=view), terminal_size=SMALL, run_before=steady)
+
+
+def test_help_panel_at_80_by_24(snap_compare):
+    """The help fits an 80×24 terminal and scrolls."""
+    assert snap_compare(CableApp(), terminal_size=SMALL, press=["f1"], run_before=steady)

@@ -138,7 +138,7 @@ def test_tree_view_flags_a_missing_file_and_a_bad_membrane_value():
         box.focus()
         await pilot.press("enter")
         await settle(app, pilot)
-        assert "does not exist" in text_of(app, "#field-tr-file .field-message")
+        assert "does not exist" in text_of(app, "#field-tr-file .field-echo")
         assert app.query_one("#tree").report is None
         app.query_one("#tr-file", Input).value = str(PV7)
         await pilot.press("enter")
@@ -146,7 +146,7 @@ def test_tree_view_flags_a_missing_file_and_a_bad_membrane_value():
         assert app.query_one("#tree").report is not None
         app.query_one("#tr-Ri", Input).value = "200 µF/cm²"
         await settle(app, pilot)
-        assert "is a specific membrane capacitance" in text_of(app, "#field-tr-Ri .field-message")
+        assert "is a specific membrane capacitance" in text_of(app, "#field-tr-Ri .field-echo")
         assert app.query_one("#tree").report is None
 
     drive(script)
@@ -205,7 +205,7 @@ def test_check_view_tolerance_field_and_plot_export(tmp_path):
         assert "within tolerance" in text_of(app, "#check-results")
         app.query_one("#ck-pass_within", Input).value = "5 pA"
         await settle(app, pilot)
-        assert "is a current" in text_of(app, "#field-ck-pass_within .field-message")
+        assert "is a current" in text_of(app, "#field-ck-pass_within .field-echo")
         app.query_one("#ck-pass_within", Input).value = "20 µV"
         await settle(app, pilot)
         await pilot.press("ctrl+g")

@@ -11,17 +11,17 @@ from rich.text import Text
 from textual.app import App, ComposeResult
 from textual.binding import Binding, BindingType
 from textual.widget import Widget
-from textual.widgets import ContentSwitcher, Static
+from textual.widgets import ContentSwitcher, Input, Static
 
 from .. import PASSIVE_CAVEAT
 from ..errors import ImplausibleValueWarning
-from .keys import GLOBAL_KEYS, VIEWS, key_label
+from .keys import GLOBAL_KEYS, VIEWS, key_label, typed_character
 
 __all__ = ["CableApp"]
 
 
 # the bottom strip: keys spelled out as the help panel writes them, short enough for 80 columns
-STATUS_KEYS = (("f1", "all keys"), ("ctrl+s", "save data"), ("ctrl+g", "save plot"), ("ctrl+o", "open"),
+STATUS_KEYS = (("f1,question_mark", "keys"), ("ctrl+s", "save data"), ("ctrl+g", "save plot"), ("ctrl+o", "open"),
                ("ctrl+q", "quit"))
 
 
@@ -37,7 +37,7 @@ class ViewBar(Static):
             style = "bold #0d1b24 on #f2b84b" if view == current else "#c9d1d9"
             text.append(label, style=Style.parse(style) + Style(meta={"@click": f"app.show_view('{view}')"}))
             text.append(" ")
-        text.append("   F1 keys", style="dim")
+        text.append(f"   {key_label(GLOBAL_KEYS[0].key)} keys", style="dim")
         self.update(text)
 
 
@@ -47,8 +47,13 @@ class CableApp(App[None]):
     CSS_PATH = Path(__file__).with_name("app.tcss")
     TITLE = "cabletheory"
     ENABLE_COMMAND_PALETTE = False
+    # below 110 columns the screen gets the class -narrow: narrower forms, stacked tree panels
+    HORIZONTAL_BREAKPOINTS: ClassVar[list[tuple[int, str]]] = [(0, "-narrow"), (110, "-wide")]
+    # keys that type a character ('?') are bindings of lower priority than a focused field, so that
+    # they act only when the user is not typing; the others act everywhere
     BINDINGS: ClassVar[list[BindingType]] = [
-        Binding(k.key, k.action, k.description, priority=True, show=False) for k in GLOBAL_KEYS]
+        Binding(key, k.action, k.description, priority=not typed_character(key), show=False)
+        for k in GLOBAL_KEYS for key in k.key.split(",")]
 
     def __init__(self, *, view: str = "cylinder", swc: str | None = None, simulation: str | None = None) -> None:
         super().__init__()
@@ -57,6 +62,7 @@ class CableApp(App[None]):
         # a value far outside the range met in neurons is used as typed; a warning printed on
         # stderr would scribble over the screen, so the app does not print it
         warnings.filterwarnings("ignore", category=ImplausibleValueWarning)
+        self.cell_texts: dict[str, str] = {}  # the shared cell (fields.SHARED_CELL) as last typed
         self.start_view = view
         self.swc = swc
         self.simulation = simulation
@@ -67,6 +73,16 @@ class CableApp(App[None]):
             yield self._make_view(self.start_view)  # the others are built when first shown
         yield Static(f"⚠ {PASSIVE_CAVEAT}", id="caveat")
         yield Static("", id="status")
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        """Under an open dialog the global keys are inert, except quitting and closing the help."""
+        from textual.screen import ModalScreen
+
+        if not isinstance(self.screen, ModalScreen) or action == "quit":
+            return True
+        from .dialogs import HelpScreen
+
+        return action == "toggle_help" and isinstance(self.screen, HelpScreen)
 
     def _make_view(self, view: str) -> Widget:
         if view == "cylinder":
@@ -128,6 +144,20 @@ class CableApp(App[None]):
             self.screen.dismiss(None)
         else:
             self.push_screen(HelpScreen(self.current_view))
+
+    # -- the shared cell -----------------------------------------------------------------------
+    def on_input_changed(self, event: Input.Changed) -> None:
+        """A field of the cell typed in one view is the same field in every other view."""
+        from .fields import SHARED_CELL
+
+        name = (event.input.id or "").rsplit("-", 1)[-1]
+        if name not in SHARED_CELL:
+            return
+        self.cell_texts[name] = event.value
+        for view in self.query_one("#views", ContentSwitcher).children:
+            for box in view.query(Input):
+                if box is not event.input and (box.id or "").rsplit("-", 1)[-1] == name and box.value != event.value:
+                    box.value = event.value
 
     # -- export ---------------------------------------------------------------------------------
     def _view_widget(self):

@@ -12,7 +12,7 @@ from textual.widgets import Input, Label, RadioSet, Static
 from textual.worker import get_current_worker
 
 from .fields import CHARGING_FIELDS, charging_fields_used
-from .widgets import CaseChoices, CurvePlot, QuantityField, QuantityList, case_form, waiting_message
+from .widgets import CaseChoices, CurvePlot, QuantityField, QuantityList, case_form, shared_texts, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
     from .forms import ChargingSetup
@@ -31,19 +31,20 @@ class ChargingView(CaseChoices, Vertical):
 
     case_prefix = PREFIX
     BINDINGS: ClassVar[list[BindingType]] = [
-        Binding("ctrl+b", "next_model", "next model"),
+        Binding("ctrl+l", "next_model", "next model"),
         Binding("ctrl+n", "next_stimulus", "next stimulus"),
         Binding("ctrl+r", "run", "compute again now"),
     ]
 
     report: Report | None = None
     active = False  # the solver first runs when the view is shown
+    wanted: ChargingSetup | None = None  # the set-up the form holds now; a result of another is stale
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="columns"):
             with VerticalScroll(classes="form", id="charging-form", can_focus=False):
                 yield Static("exact transients", classes="form-title")
-                yield from case_form(PREFIX, _SPECS)
+                yield from case_form(PREFIX, _SPECS, shared_texts(self))
                 yield Label("curves", classes="group-label")
                 for name in CURVE_GROUP:
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
@@ -56,14 +57,18 @@ class ChargingView(CaseChoices, Vertical):
                     yield CurvePlot(id="charging-space-plot")
 
     def activate(self) -> None:
-        """Called when the view is shown; the first time, solve the form's defaults."""
-        if not self.active:
-            self.active = True
-            self.refresh_results()
+        """Called when the view is shown: solve the form (the defaults the first time, or a cell
+        edited in another view since)."""
+        self.active = True
+        self.refresh_results()
+
+    @property
+    def shown(self) -> bool:
+        return self.app.current_view == self.id  # type: ignore[attr-defined]
 
     def on_input_changed(self, event: Input.Changed) -> None:
-        event.stop()
-        if self.active:
+        # not stopped: the app shares the cell's texts with the other views
+        if self.active and self.shown:
             self.refresh_results()
 
     def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
@@ -73,10 +78,11 @@ class ChargingView(CaseChoices, Vertical):
 
     def action_run(self) -> None:
         self.active = True
-        self.refresh_results()
+        self.refresh_results(again=True)
 
-    def refresh_results(self) -> None:
-        """Check the form at once; hand a valid set-up to the solver worker."""
+    def refresh_results(self, again: bool = False) -> None:
+        """Check the form at once; hand a valid set-up to the solver worker (unless its result is
+        already on screen or on its way, and ``again`` is not asked)."""
         from .forms import read_charging_form
 
         model, stimulus = self.model_choice, self.stimulus_choice
@@ -88,6 +94,9 @@ class ChargingView(CaseChoices, Vertical):
         for name, field in fields.items():
             field.flag(errors.get(name))
         results = self.query_one("#charging-results", QuantityList)
+        if setup is not None and setup == self.wanted and not again:
+            return
+        self.wanted = setup
         if setup is None:
             self.workers.cancel_group(self, "solve")
             self.report = None
@@ -115,9 +124,11 @@ class ChargingView(CaseChoices, Vertical):
         except CableTheoryError as exc:
             report = str(exc)
         if not worker.is_cancelled:
-            self.app.call_from_thread(self._show, report)
+            self.app.call_from_thread(self._show, setup, report)
 
-    def _show(self, report: Report | str) -> None:
+    def _show(self, setup: ChargingSetup, report: Report | str) -> None:
+        if setup != self.wanted:
+            return  # the form changed while the worker ran: a newer result is on its way
         self._busy(False)
         results = self.query_one("#charging-results", QuantityList)
         if isinstance(report, str):

@@ -13,7 +13,8 @@ from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 from textual.worker import get_current_worker
 
 from .fields import CHECK_FIELDS, check_fields_used
-from .widgets import CaseChoices, CurvePlot, QuantityField, QuantityList, case_form, waiting_message
+from .keys import key_label
+from .widgets import CaseChoices, CurvePlot, QuantityField, QuantityList, case_form, shared_texts, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
     from .forms import CheckSetup
@@ -32,13 +33,14 @@ class CheckView(CaseChoices, Vertical):
 
     case_prefix = PREFIX
     BINDINGS: ClassVar[list[BindingType]] = [
-        Binding("ctrl+b", "next_model", "next model"),
+        Binding("ctrl+l", "next_model", "next model"),
         Binding("ctrl+n", "next_stimulus", "next stimulus"),
         Binding("ctrl+p", "next_axis", "error over time or over space"),
         Binding("ctrl+r", "run", "compare again"),
     ]
 
     report: Report | None = None
+    wanted: CheckSetup | None = None  # the set-up the form holds now; a result of another is stale
     open_title = "Open a simulator's output (CSV: long or wide layout)"
 
     def __init__(self, *, id: str, file: str | None = None) -> None:
@@ -62,11 +64,11 @@ class CheckView(CaseChoices, Vertical):
             with VerticalScroll(classes="form", id="check-form", can_focus=False):
                 yield Static("simulator against the exact answer", classes="form-title")
                 yield QuantityField(_SPECS["file"], prefix=PREFIX, value=self.initial_file)
-                yield from case_form(PREFIX, _SPECS)
+                yield from case_form(PREFIX, _SPECS, shared_texts(self))
                 yield Label("the file", classes="group-label")
                 for name in ("rest", "onset", "pass_within"):
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
-                yield Label("error plotted  (ctrl+p switches)", classes="group-label")
+                yield Label(f"error plotted  ({key_label('ctrl+p')} switches)", classes="group-label")
                 with RadioSet(id="ck-axis", compact=True):
                     yield RadioButton("over time, at each site", value=True, id="axis-time", compact=True)
                     yield RadioButton("over space, largest per site", id="axis-space", compact=True)
@@ -86,9 +88,14 @@ class CheckView(CaseChoices, Vertical):
             self.query_one("#check-results", QuantityList).update(
                 "Open a simulator's output: type its path in the file field and press enter, or press ctrl+o.")
 
+    def activate(self) -> None:
+        """Called when the view is shown: catch up with a cell edited in another view."""
+        if self.query_one(f"#{PREFIX}file", Input).value.strip():
+            self.refresh_results()
+
     def open_path(self, path: str) -> None:
         self.query_one(f"#{PREFIX}file", Input).value = path
-        self.refresh_results()
+        self.refresh_results(again=True)
 
     @property
     def axis(self) -> str:
@@ -97,14 +104,14 @@ class CheckView(CaseChoices, Vertical):
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
         event.stop()
-        self.refresh_results()
+        self.refresh_results(again=True)
 
     def on_input_changed(self, event: Input.Changed) -> None:
-        event.stop()
+        # not stopped: the app shares the cell's texts with the other views
         if event.input.id == f"{PREFIX}file":
             self.query_one(f"#field-{PREFIX}file", QuantityField).flag(None)
             return  # a file is opened with enter, not at every keystroke
-        if self.query_one(f"#{PREFIX}file", Input).value.strip():
+        if self.app.current_view == self.id and self.query_one(f"#{PREFIX}file", Input).value.strip():  # type: ignore[attr-defined]
             self.refresh_results()
 
     def _show_fields(self) -> set[str]:
@@ -128,9 +135,9 @@ class CheckView(CaseChoices, Vertical):
         self.query_one(f"#{target}", RadioButton).value = True
 
     def action_run(self) -> None:
-        self.refresh_results()
+        self.refresh_results(again=True)
 
-    def refresh_results(self) -> None:
+    def refresh_results(self, again: bool = False) -> None:
         from .forms import read_check_form
 
         used = self._show_fields()
@@ -142,6 +149,9 @@ class CheckView(CaseChoices, Vertical):
                 field.flag(None)
         for name, field in fields.items():
             field.flag(errors.get(name))
+        if setup is not None and setup == self.wanted and not again:
+            return
+        self.wanted = setup
         if setup is None:
             self.workers.cancel_group(self, "compare")
             self._clear(waiting_message(errors))
@@ -170,9 +180,11 @@ class CheckView(CaseChoices, Vertical):
         except CableTheoryError as exc:
             result = str(exc)
         if not worker.is_cancelled:
-            self.app.call_from_thread(self._show, result)
+            self.app.call_from_thread(self._show, setup, result)
 
-    def _show(self, result: Report | str) -> None:
+    def _show(self, setup: CheckSetup, result: Report | str) -> None:
+        if setup != self.wanted:
+            return  # the form changed while the worker ran: a newer result is on its way
         self._busy(False)
         if isinstance(result, str):
             self.query_one(f"#field-{PREFIX}file", QuantityField).flag(result)

@@ -2,15 +2,14 @@
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, ClassVar
+from typing import TYPE_CHECKING
 
 from textual.app import ComposeResult
-from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
-from textual.widgets import Input, Label, RadioButton, RadioSet, Static
+from textual.widgets import Input, Static
 
-from .fields import CABLE_FIELDS, END_CHOICES
-from .widgets import CurvePlot, QuantityField, QuantityList, waiting_message
+from .fields import CABLE_FIELDS
+from .widgets import CurvePlot, QuantityField, QuantityList, shared_text, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
     from .report import Report
@@ -21,8 +20,6 @@ _FIELDS = {spec.name: spec for spec in CABLE_FIELDS}
 class CylinderView(Vertical):
     """Inputs on the left (checked as you type), results and the profile plot on the right."""
 
-    BINDINGS: ClassVar[list[BindingType]] = [Binding("ctrl+b", "next_end", "next far-end condition")]
-
     report: Report | None = None
     _last: tuple | None = None  # the inputs of the results on screen
     _ready = False  # inputs announce their first value when mounted; compute after the first frame
@@ -31,16 +28,11 @@ class CylinderView(Vertical):
         with Horizontal(classes="columns"):
             with VerticalScroll(classes="form", id="cylinder-form", can_focus=False):
                 yield Static("uniform cylinder · input at X = 0", classes="form-title")
-                for name in ("Rm", "Ri", "Cm", "diameter", "length"):
-                    yield QuantityField(_FIELDS[name])
-                yield Label("far end  (ctrl+b cycles)", classes="group-label")
-                with RadioSet(id="end", compact=True):
-                    for key, label in END_CHOICES.items():
-                        yield RadioButton(label, value=key == "sealed", id=f"end-{key}", compact=True)
-                yield QuantityField(_FIELDS["end_conductance"])
-                yield QuantityField(_FIELDS["frequency"])
-                yield Static("bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS, Hz\nlength 'inf': semi-infinite",
-                             classes="hint")
+                for name in ("Rm", "Ri", "Cm", "diameter", "length", "end", "frequency"):
+                    yield QuantityField(_FIELDS[name], value=shared_text(self, name))
+                yield Static("bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS, Hz\nlength 'inf': semi-infinite\n"
+                             "far end: sealed, killed or a conductance to rest\n"
+                             "the cell is shared with the charging and check views", classes="hint")
             with Vertical(classes="output"):
                 yield QuantityList(id="cylinder-results", classes="results")
                 yield CurvePlot(id="cylinder-plot")
@@ -54,25 +46,15 @@ class CylinderView(Vertical):
         self._ready = True
         self.refresh_results()
 
-    @property
-    def end_choice(self) -> str:
-        pressed = self.query_one("#end", RadioSet).pressed_button
-        return (pressed.id or "end-sealed").removeprefix("end-") if pressed is not None else "sealed"
+    def activate(self) -> None:
+        """Called when the view is shown: catch up with a cell edited in another view."""
+        if self._ready:
+            self.refresh_results()
 
     def on_input_changed(self, event: Input.Changed) -> None:
-        event.stop()
+        # not stopped: the app shares the cell's texts with the other views
         if self._ready:
             self.refresh_results()
-
-    def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
-        event.stop()
-        if self._ready:
-            self.refresh_results()
-
-    def action_next_end(self) -> None:
-        keys = list(END_CHOICES)
-        following = keys[(keys.index(self.end_choice) + 1) % len(keys)]
-        self.query_one(f"#end-{following}", RadioButton).value = True
 
     def refresh_results(self) -> None:
         """Read the form; flag bad fields at the field; show fresh results when all are good."""
@@ -80,15 +62,13 @@ class CylinderView(Vertical):
         from .format import cable_report, cable_summary
         from .forms import read_cylinder_form
 
-        end = self.end_choice
         fields = {f.spec.name: f for f in self.query(QuantityField)}
-        fields["end_conductance"].display = end == "leaky"
         texts = {name: field.input.value for name, field in fields.items()}
-        key = (end, *sorted(texts.items()))
+        key = tuple(sorted(texts.items()))
         if key == self._last:
             return  # nothing changed (inputs announce their first value when mounted)
         self._last = key
-        cylinder, frequency, errors = read_cylinder_form(texts, end)
+        cylinder, frequency, errors = read_cylinder_form(texts)
         for name, field in fields.items():
             field.flag(errors.get(name))
         results = self.query_one("#cylinder-results", QuantityList)

@@ -9,7 +9,7 @@ from typing import ClassVar
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.containers import Vertical
+from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import DirectoryTree, Input, Label, Static
 
@@ -40,7 +40,7 @@ def help_text(view: str) -> Text:
 class HelpScreen(ModalScreen[None]):
     """The keys, for the view that was showing."""
 
-    BINDINGS: ClassVar[list[BindingType]] = [Binding("escape,f1,q", "dismiss", "close")]
+    BINDINGS: ClassVar[list[BindingType]] = [Binding("escape,f1,q,question_mark", "dismiss", "close")]
 
     def __init__(self, view: str) -> None:
         super().__init__()
@@ -48,8 +48,12 @@ class HelpScreen(ModalScreen[None]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="help-box", classes="dialog"):
-            yield Static(help_text(self.view), id="help-text")
-            yield Label("escape or F1 closes", classes="dialog-hint")
+            with VerticalScroll(id="help-scroll"):  # focused: arrows and page keys scroll it
+                yield Static(help_text(self.view), id="help-text")
+            yield Label("↑ ↓ page up / down scroll · escape, F1 or ? closes", classes="dialog-hint")
+
+    def on_mount(self) -> None:
+        self.query_one("#help-scroll").focus()
 
     def action_dismiss(self, result: None = None) -> None:
         self.dismiss(None)

@@ -28,6 +28,12 @@ from .report import PlotSpec, Report, Row, Table, cell_text, row_text, row_unit
 
 __all__ = ["DATA_FORMATS", "PLOT_FORMATS", "export", "plot_bytes", "to_csv", "to_json", "to_markdown"]
 
+# matplotlib's "tab10" colours, line styles and markers of the saved plots
+COLOURS = ("#1f77b4", "#ff7f0e", "#2ca02c", "#d62728", "#9467bd", "#8c564b", "#e377c2", "#7f7f7f",
+           "#bcbd22", "#17becf")
+LINE_STYLES = ("-", "--", "-.", ":")
+MARKERS = ("o", "s", "^", "D", "v")
+
 DATA_FORMATS = {".json": "JSON", ".csv": "CSV", ".md": "Markdown", ".markdown": "Markdown"}
 PLOT_FORMATS = {".png": "PNG", ".svg": "SVG"}
 
@@ -138,17 +144,25 @@ def plot_bytes(specs: Sequence[PlotSpec], fmt: str, caveat: str = "") -> bytes:
     figure = Figure(figsize=(7.0, 1.0 + 3.4 * len(specs)), layout="constrained")
     for index, spec in enumerate(specs, start=1):
         axes = figure.add_subplot(len(specs), 1, index)
-        for series in spec.series:
-            axes.plot(np.asarray(series.x, dtype=float), np.asarray(series.y, dtype=float), label=series.label,
-                      drawstyle="steps-post" if spec.steps else "default")
+        for number, series in enumerate(spec.series):
+            x, y = np.asarray(series.x, dtype=float), np.asarray(series.y, dtype=float)
+            # colour, line style and marker all change from curve to curve: curves stay apart in
+            # grey print, and no two of the first 40 look alike
+            axes.plot(x, y, label=series.label, drawstyle="steps-post" if spec.steps else "default",
+                      color=COLOURS[number % len(COLOURS)], linestyle=LINE_STYLES[number % len(LINE_STYLES)],
+                      marker=MARKERS[number % len(MARKERS)], markevery=max(1, x.size // 8), markersize=4)
+        if spec.y_span and not spec.y_log:
+            low, high = axes.get_ylim()
+            if high - low < spec.y_span:
+                middle = 0.5 * (low + high)
+                axes.set_ylim(middle - 0.5 * spec.y_span, middle + 0.5 * spec.y_span)
         if spec.y_log:
             axes.set_yscale("log")
         axes.set_title(spec.title)
         axes.set_xlabel(spec.x_label)
         axes.set_ylabel(spec.y_label)
         axes.grid(True, alpha=0.3)
-        if len(spec.series) > 1:
-            axes.legend()
+        axes.legend()  # also for one curve: the file says which it is
     if caveat:
         figure.suptitle(caveat, fontsize=7, wrap=True)
     buffer = io.BytesIO()

@@ -11,8 +11,8 @@ from pathlib import Path
 
 from ..case_fields import fields_for
 
-__all__ = ["CABLE_FIELDS", "CASE_FIELDS", "CHARGING_FIELDS", "CHECK_FIELDS", "DEMO_SWC", "END_CHOICES",
-           "MODEL_CHOICES", "STIMULUS_CHOICES", "TREE_FIELDS", "FieldSpec", "bundled_morphologies",
+__all__ = ["CABLE_FIELDS", "CASE_FIELDS", "CHARGING_FIELDS", "CHECK_FIELDS", "DEMO_SWC",
+           "MODEL_CHOICES", "SHARED_CELL", "STIMULUS_CHOICES", "TREE_FIELDS", "FieldSpec", "bundled_morphologies",
            "charging_fields_used", "check_fields_used", "fields_used"]
 
 
@@ -37,13 +37,6 @@ class FieldSpec:
     max_points: int = 200
 
 
-# far-end choices: id -> label shown in the selector
-END_CHOICES: dict[str, str] = {
-    "sealed": "sealed (no current leaves)",
-    "killed": "killed (held at rest)",
-    "leaky": "leaky (conductance to rest)",
-}
-
 # The defaults are the invented Tidewater Station demo dendrite (DEVELOPERS.md, demo scenario).
 CABLE_FIELDS: tuple[FieldSpec, ...] = (
     FieldSpec("Rm", "Rm", "membrane_resistivity", "20 kΩ·cm²"),
@@ -51,7 +44,7 @@ CABLE_FIELDS: tuple[FieldSpec, ...] = (
     FieldSpec("Cm", "Cm", "membrane_capacitance", "1 µF/cm²"),
     FieldSpec("diameter", "diameter", "length", "2 µm"),
     FieldSpec("length", "length", "length", "500 µm", allow_inf=True),
-    FieldSpec("end_conductance", "end conductance", "conductance", "1 nS", allow_zero=True),
+    FieldSpec("end", "far end", "conductance", "sealed", placeholder="sealed, killed or e.g. 0.5 nS"),
     FieldSpec("frequency", "frequency", "frequency", "100 Hz", allow_zero=True, blank_ok=True,
               placeholder="blank: steady state only"),
 )
@@ -85,6 +78,9 @@ CASE_FIELDS: tuple[FieldSpec, ...] = (
     FieldSpec("time_to_peak", "time to peak", "time", "0.5 ms"),
     FieldSpec("site", "stimulus at", "length", "0 µm", allow_zero=True, allow_negative=True),
 )
+# the cell every view shares: typed in one view, it is the cell of the others (the tree view, which
+# reads its geometry from a file, shares the membrane only)
+SHARED_CELL = ("Rm", "Ri", "Cm", "diameter", "length", "end")
 CABLE_GROUP = ("Rm", "Ri", "Cm", "diameter", "length", "end", "soma")  # shown under the model choice
 STIMULUS_GROUP = ("current", "clamp", "duration", "time_to_peak", "site")  # under the stimulus choice
 

@@ -28,12 +28,26 @@ from .forms import (
 from .report import Column, PlotSpec, Report, Row, Series, Table
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..tree import TreeReport
+    from pathlib import Path
+
+    from ..tree import Tree, TreeReport
     from ..verify.comparison import Comparison, ExactCase
     from ..verify.reading import Recording
 
-__all__ = ["analyse_check", "analyse_file", "cable_report", "cable_summary", "charging_report", "check_report",
-           "profile_positions", "tree_outline", "tree_report"]
+__all__ = [
+    "analyse_check",
+    "analyse_file",
+    "audit_tree",
+    "cable_report",
+    "cable_summary",
+    "charging_report",
+    "check_report",
+    "profile_positions",
+    "read_tree",
+    "tree_outline",
+    "tree_report",
+    "worst_points",
+]
 
 PROFILE_POINTS = 41
 SEMI_INFINITE_SPAN = 5.0  # a semi-infinite cable is shown over 0 ≤ X ≤ 5 (e^-5 < 1 %)
@@ -156,6 +170,13 @@ def _model_rows(setup: CaseSetup) -> list[Row]:
     return rows
 
 
+def curve_key(value: float, kind: str) -> str:
+    """The key of a saved curve, naming where or when it was taken: 'voltage_at_800um',
+    'voltage_at_-50um', 'voltage_at_2.5ms' (µm for positions, ms for times, up to 6 digits)."""
+    number, unit = (value * 1e6, "um") if kind == "length" else (value * 1e3, "ms")
+    return f"voltage_at_{number:.6g}{unit}"
+
+
 def charging_report(setup: ChargingSetup, tolerance: float = 1e-10) -> Report:
     """Run the exact solver twice (V(t) at the watched sites, V(X) at the chosen moments) and
     arrange the time constants, the error bound and both families of curves."""
@@ -196,24 +217,39 @@ def charging_report(setup: ChargingSetup, tolerance: float = 1e-10) -> Report:
     moment_labels = [f"t = {format_quantity(t, 'time')}" for t in setup.moments]
     t = np.asarray(over_time.times)
     X = np.asarray(over_space.positions) / lam
+    # a curve below a thousandth of the case's reference voltage is drawn flat: round-off (a killed
+    # end's 1e-18 V) is not magnified into what looks like a charging curve
+    least = 1e-3 * setup.case.case.reference_voltage * 1e3  # mV
     time_plot = PlotSpec("V(t) at the chosen positions", "t (ms)", "V (mV)", tuple(
-        Series(label, t * 1e3, over_time.voltage[:, j] * 1e3) for j, label in enumerate(watch_labels)))
+        Series(label, t * 1e3, over_time.voltage[:, j] * 1e3) for j, label in enumerate(watch_labels)),
+        y_span=least)
     space_plot = PlotSpec("V(X) at the chosen times", "X = x/λ", "V (mV)", tuple(
-        Series(label, X, over_space.voltage[i, :] * 1e3) for i, label in enumerate(moment_labels)))
+        Series(label, X, over_space.voltage[i, :] * 1e3) for i, label in enumerate(moment_labels)), y_span=least)
     tables = (
         Table("time_course", "V(t) at the chosen positions", (
             Column("time", "t", t, "time"),
-            *(Column(f"voltage_at_{j}", f"V at {label[4:]}", over_time.voltage[:, j], "voltage")
-              for j, label in enumerate(watch_labels)))),
+            *(Column(curve_key(x, "length"), f"V at {label[4:]}", over_time.voltage[:, j], "voltage")
+              for j, (x, label) in enumerate(zip(setup.watch, watch_labels, strict=True))))),
         Table("profile", "V(X) at the chosen times", (
             Column("position", "x", over_space.positions, "length"),
             Column("electrotonic_position", "X", X, "dimensionless"),
-            *(Column(f"voltage_at_{i}", f"V at {label[4:]}", over_space.voltage[i, :], "voltage")
-              for i, label in enumerate(moment_labels)))),
+            *(Column(curve_key(moment, "time"), f"V at {label[4:]}", over_space.voltage[i, :], "voltage")
+              for i, (moment, label) in enumerate(zip(setup.moments, moment_labels, strict=True))))),
     )
-    notes = (*over_time.notes, f"requested tolerance {tolerance:g} of the reference voltage")
+    reference = case.case.reference_voltage
+    notes = (*over_time.notes, f"requested truncation {tolerance:g} of the reference voltage "
+                               f"{format_quantity(reference, 'voltage')} = "
+                               f"{format_quantity(tolerance * reference, 'voltage')}")
     title = f"Charging: {STIMULUS_CHOICES[case.stimulus_choice]} into a {MODEL_CHOICES[case.model_choice]}"
-    return Report("charging", title, tuple(_model_rows(case) + _stimulus_rows(case)), tuple(results),
+    curves = [
+        *(Row(f"time_course_position_{j + 1}", f"V(t) at ({j + 1})", x, "length") for j, x in enumerate(setup.watch)),
+        Row("time_course_until", "V(t) until", setup.times[-1], "time"),
+        *(Row(f"profile_time_{i + 1}", f"V(X) at ({i + 1})", t, "time") for i, t in enumerate(setup.moments)),
+        Row("reference_voltage", "reference voltage", reference, "voltage"),
+        Row("truncation", "truncation (share of the reference voltage)", tolerance, "dimensionless"),
+        Row("truncation_voltage", "truncation", tolerance * reference, "voltage"),
+    ]
+    return Report("charging", title, tuple(_model_rows(case) + _stimulus_rows(case) + curves), tuple(results),
                   tables, (time_plot, space_plot), notes)
 
 
@@ -230,17 +266,43 @@ class OutlineNode:
     flag: bool  # departs from Rall's conditions beyond the tolerance
 
 
-def analyse_file(setup: TreeSetup) -> TreeReport:
-    """Read the morphology, build the tree and audit it (the worker's job)."""
+def read_tree(path: Path) -> Tree:
+    """Read a morphology (SWC or tree outline) and build its tree: the slow part for a large file,
+    done once per file (the view keeps the tree while only membrane values or tolerances change)."""
     from ..inputs import read_outline_value
     from ..morphology import read_morphology
-    from ..tree import Tolerances, analyse_tree, build_tree
+    from ..tree import build_tree
 
-    morphology = read_morphology(setup.path, read_outline_value)
-    tree = build_tree(morphology)
+    return build_tree(read_morphology(path, read_outline_value))
+
+
+def audit_tree(tree: Tree, setup: TreeSetup) -> TreeReport:
+    """Audit a tree already read with the membrane, tips and tolerances of the form."""
+    from ..tree import Tolerances, analyse_tree
+
     tolerances = Tolerances(branch_ratio=setup.branch_ratio_tolerance, tip_spread=setup.tip_spread_tolerance)
     return analyse_tree(tree, setup.membrane_resistivity, setup.axial_resistivity, setup.membrane_capacitance,
                         tolerances=tolerances, killed_tips=setup.killed_tips)
+
+
+def analyse_file(setup: TreeSetup) -> TreeReport:
+    """Read the morphology, build the tree and audit it."""
+    return audit_tree(read_tree(setup.path), setup)
+
+
+def worst_points(r: TreeReport) -> tuple[str | None, str | None]:
+    """The outline keys of the branch point furthest from the 3/2 power rule (largest |ratio − 1|)
+    and of the tip furthest from the middle of the tips' range of electrotonic distance (None when
+    the tree has no branch point, or no tip)."""
+    worst_branch = worst_tip = None
+    ratios = np.asarray(r.branch_points.ratios, dtype=float)
+    if ratios.size:
+        worst_branch = f"seg-{r.branch_points.ids[int(np.argmax(np.abs(ratios - 1.0)))]}"
+    tip_x = np.asarray(r.tips.electrotonic_distances, dtype=float)
+    if tip_x.size:
+        middle = 0.5 * (float(tip_x.max()) + float(tip_x.min()))
+        worst_tip = f"seg-{r.tips.ids[int(np.argmax(np.abs(tip_x - middle)))]}"
+    return worst_branch, worst_tip
 
 
 def tree_outline(r: TreeReport) -> list[OutlineNode]:
@@ -413,7 +475,7 @@ def check_report(setup: CheckSetup, a: CheckAnalysis) -> Report:
         Row("resting_potential", "resting V subtracted", rec.resting_potential, "voltage",
             shown="each site's first sample" if setup.rest == "first" else None),
         Row("onset", "stimulus onset in the file's clock", setup.onset, "time"),
-        Row("tolerance", "tolerance", c.tolerance, None if setup.relative else "voltage",
+        Row("tolerance", "tolerance", c.tolerance, "dimensionless" if setup.relative else "voltage",
             shown=f"{100 * c.tolerance:g} % of the peak exact voltage" if setup.relative else None),
     ]
     results = [

@@ -27,7 +27,6 @@ from .fields import (
     CASE_FIELDS,
     CHARGING_FIELDS,
     CHECK_FIELDS,
-    END_CHOICES,
     MODEL_CHOICES,
     PROFILE_POINTS,
     PROFILE_SPAN,
@@ -38,8 +37,8 @@ from .fields import (
     fields_used,
 )
 
-__all__ = ["END_CHOICES", "CaseSetup", "ChargingSetup", "CheckSetup", "FieldSpec", "FormResult", "read_case",
-           "read_charging_form", "read_check_form", "read_cylinder_form", "read_form", "read_tree_form"]
+__all__ = ["CaseSetup", "ChargingSetup", "CheckSetup", "FieldSpec", "FormResult", "read_case",
+           "read_charging_form", "read_check_form", "read_cylinder_form", "read_form", "read_tree_form", "reading"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -76,6 +75,48 @@ def _read_series(spec: FieldSpec, text: str) -> tuple[float, ...]:
                               allow_negative=spec.allow_negative, max_points=spec.max_points))
 
 
+@lru_cache(maxsize=512)
+def reading(spec: FieldSpec, text: str) -> tuple[str, str]:
+    """How an accepted field text was read, for the echo beside the field, and the warning of a
+    value far outside the range met in neurons (empty strings when there is nothing to say).
+
+    ``'2'`` in a diameter field echoes ``'= 2.000 µm'``; ``'3'`` in Rm echoes ``'= 3.000 Ω·cm²'``
+    with the warning of :class:`~cabletheory.errors.ImplausibleValueWarning`. A text that cannot
+    be read echoes nothing (its error is shown instead).
+    """
+    import warnings
+
+    from ..errors import ImplausibleValueWarning
+    from ..inputs import read_end, read_pass_within, read_rest
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", ImplausibleValueWarning)
+        try:
+            if spec.name == "file" or (not text.strip() and spec.blank_ok):
+                return "", ""
+            if spec.name == "end":
+                value = read_end(text, spec.label)
+                echo = ("sealed" if value == 0 else "killed (held at rest)" if math.isinf(value)
+                        else f"{format_quantity(value, 'conductance')} to rest")
+            elif spec.name == "rest":
+                rest = read_rest(text, spec.label)
+                echo = "each site's first sample" if rest == "first" else format_quantity(float(rest), "voltage")
+            elif spec.name == "pass_within":
+                threshold, relative = read_pass_within(text, spec.label)
+                echo = (f"{threshold * 100:.4g} % of the peak" if relative
+                        else format_quantity(threshold, "voltage"))
+            elif spec.series:
+                values = _read_series.__wrapped__(spec, text)  # uncached: its warnings are wanted here
+                shown = [format_quantity(v, spec.kind) for v in values[:4]]
+                echo = ", ".join(shown) + (f", … ({len(values)} values)" if len(values) > 4 else "")
+            else:
+                echo = format_quantity(_read_quantity.__wrapped__(spec, text), spec.kind)
+        except (InputError, ValueError):
+            return "", ""
+    warning = "; ".join(str(w.message) for w in caught if issubclass(w.category, ImplausibleValueWarning))
+    return f"= {echo}", warning
+
+
 def read_form(specs: Sequence[FieldSpec], texts: Mapping[str, str]) -> FormResult:
     """Read every field; a missing text counts as the field's default."""
     values: dict[str, float | list[float] | None] = {}
@@ -91,24 +132,24 @@ def read_form(specs: Sequence[FieldSpec], texts: Mapping[str, str]) -> FormResul
 # ---------------------------------------------------------------------------------------------
 # the single-cable form
 # ---------------------------------------------------------------------------------------------
-def read_cylinder_form(texts: Mapping[str, str], end: str) -> tuple[Cylinder | None, float | None,
-                                                                     dict[str, str]]:
+def read_cylinder_form(texts: Mapping[str, str]) -> tuple[Cylinder | None, float | None, dict[str, str]]:
     """The :class:`Cylinder` and frequency (Hz, or None) of the single-cable form, or messages.
 
-    ``end`` is a key of :data:`END_CHOICES`; the end-conductance field is read only when the
-    end is leaky. Returns ``(None, None, errors)`` when any field is wrong.
+    The far end is read as everywhere else (:func:`cabletheory.inputs.read_end`: 'sealed',
+    'killed' or a conductance to rest). Returns ``(None, None, errors)`` when any field is wrong.
     """
-    if end not in END_CHOICES:
-        raise ValueError(f"unknown end choice {end!r}")
-    specs = [s for s in CABLE_FIELDS if s.name != "end_conductance" or end == "leaky"]
-    form = read_form(specs, texts)
+    from ..inputs import read_end
+
+    form = read_form([s for s in CABLE_FIELDS if s.name != "end"], texts)
     errors = dict(form.errors)
+    end_conductance = 0.0
+    try:
+        end_conductance = read_end(texts.get("end", "sealed"), "far end")
+    except InputError as exc:
+        errors["end"] = str(exc)
     if errors:
         return None, None, errors
     v = form.values
-    end_conductance = {"sealed": 0.0, "killed": math.inf}.get(end)
-    if end_conductance is None:
-        end_conductance = float(v["end_conductance"])  # type: ignore[arg-type]
     cylinder = Cylinder(float(v["Rm"]), float(v["Ri"]), float(v["Cm"]),  # type: ignore[arg-type]
                         float(v["diameter"]), float(v["length"]), end_conductance)  # type: ignore[arg-type]
     frequency = v["frequency"]

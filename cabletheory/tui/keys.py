@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["GLOBAL_KEYS", "MOVE_KEYS", "VIEWS", "VIEW_KEYS", "Key", "key_label"]
+__all__ = ["GLOBAL_KEYS", "MOVE_KEYS", "VIEWS", "VIEW_KEYS", "Key", "key_label", "typed_character"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -23,7 +23,7 @@ VIEWS: dict[str, tuple[str, str]] = {
 }
 
 GLOBAL_KEYS: tuple[Key, ...] = (
-    Key("f1", "toggle_help", "show or hide the list of keys"),
+    Key("f1,question_mark", "toggle_help", "show or hide the list of keys ('?' when not typing)"),
     Key("f2", "show_view('cylinder')", "cylinder view"),
     Key("f3", "show_view('charging')", "charging view"),
     Key("f4", "show_view('tree')", "tree view"),
@@ -37,12 +37,14 @@ GLOBAL_KEYS: tuple[Key, ...] = (
 
 # keys that work inside one view only (bound on the view)
 VIEW_KEYS: dict[str, tuple[Key, ...]] = {
-    "cylinder": (Key("ctrl+b", "next_end", "next far-end condition: sealed, killed, leaky"),),
-    "charging": (Key("ctrl+b", "next_model", "next model"),
+    "cylinder": (),
+    "charging": (Key("ctrl+l", "next_model", "next model"),
                  Key("ctrl+n", "next_stimulus", "next stimulus"),
                  Key("ctrl+r", "run", "compute again now")),
-    "tree": (Key("ctrl+r", "run", "audit the tree again with the current membrane values"),),
-    "check": (Key("ctrl+b", "next_model", "next model"),
+    "tree": (Key("ctrl+r", "run", "audit the tree again with the current membrane values"),
+             Key("f6,b", "worst_branch_point", "jump to the branch point furthest from the 3/2 rule"),
+             Key("f7,t", "worst_tip", "jump to the tip furthest from the others' X")),
+    "check": (Key("ctrl+l", "next_model", "next model"),
               Key("ctrl+n", "next_stimulus", "next stimulus"),
               Key("ctrl+p", "next_axis", "error plotted over time or over space"),
               Key("ctrl+r", "run", "compare again")),
@@ -53,10 +55,27 @@ MOVE_KEYS: tuple[tuple[str, str], ...] = (
     ("↑ ↓ ← →", "choose in a list or tree"),
     ("enter / space", "pick, open or expand"),
     ("escape", "close a dialog"),
+    ("page up / page down", "scroll the panel in focus (tab reaches the results)"),
 )
 
 
+_CHARACTERS = {"question_mark": "?"}
+
+
+def typed_character(key: str) -> bool:
+    """True for a key that types a character in a field ('?', 'b'), False for ctrl+s, f1, ..."""
+    return key in _CHARACTERS or len(key) == 1
+
+
 def key_label(key: str) -> str:
-    """'ctrl+s' -> 'ctrl+s', 'f1' -> 'F1' (the first key of a comma list), spelled out as in the help."""
-    first = key.split(",")[0]
-    return first.upper() if first.startswith("f") and first[1:].isdigit() else first
+    """How the help, the key strip and the form labels write a key: 'ctrl+s' -> 'ctrl+s',
+    'f1' -> 'F1', 'question_mark' -> '?'; the keys of a comma list joined by ' / '."""
+    labels = []
+    for one in key.split(","):
+        if one in _CHARACTERS:
+            labels.append(_CHARACTERS[one])
+        elif one.startswith("f") and one[1:].isdigit():
+            labels.append(one.upper())
+        else:
+            labels.append(one)
+    return " / ".join(labels)

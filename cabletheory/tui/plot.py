@@ -36,6 +36,20 @@ class Picture:
     legend: tuple[str, ...]
 
 
+# curve colours, in drawing order (chosen for contrast on a dark background); ten before a repeat,
+# and each curve also has its own dash pattern, so a colour met again comes with another pattern
+PALETTE = ("#f2b84b", "#5cc8d6", "#d77ac4", "#9bd36a", "#f07f5f", "#a7a7f0", "#e8e8e8", "#4fa3ff",
+           "#c8a165", "#ff9ecf")
+# dash patterns of the curves (1 = a dot drawn, 0 = a gap, along the line) and the legend swatch of each
+DASHES = ((1,), (1, 1, 1, 1, 0, 0), (1, 0), (1, 1, 1, 1, 1, 1, 0, 0, 1, 0, 0, 0))
+SWATCHES = ("━━━", "╺━╸", "┈┈┈", "━╸·")
+
+
+def curve_style(index: int) -> tuple[str, str]:
+    """The colour and the legend swatch of curve ``index`` (no two of the first 40 alike)."""
+    return PALETTE[index % len(PALETTE)], SWATCHES[(index // len(PALETTE) + index) % len(DASHES)]
+
+
 class Canvas:
     """A grid of braille cells onto which curves are drawn in data coordinates."""
 
@@ -62,18 +76,21 @@ class Canvas:
         return col, row
 
     def line(self, xs: Sequence[float], ys: Sequence[float], curve: int = 0) -> None:
-        """Join the points (xs[i], ys[i]) with straight dot lines; NaN/inf break the line."""
+        """Join the points (xs[i], ys[i]) with straight dot lines; NaN/inf break the line.
+
+        Each curve has its own dash pattern (:data:`DASHES`), so that curves differ without colour."""
+        pattern = DASHES[(curve // len(PALETTE) + curve) % len(DASHES)]
+        drawn = 0
         previous: tuple[int, int] | None = None
         for x, y in zip(xs, ys, strict=True):
             if not (math.isfinite(x) and math.isfinite(y)):
                 previous = None
                 continue
             point = self._to_dots(x, y)
-            if previous is None:
-                self._dot(*point, curve)
-            else:
-                for col, row in _segment(previous, point):
+            for col, row in ([point] if previous is None else _segment(previous, point)[1:]):
+                if pattern[drawn % len(pattern)]:
                     self._dot(col, row, curve)
+                drawn += 1
             previous = point
 
     def text_rows(self) -> list[str]:
@@ -129,7 +146,8 @@ def tick_label(value: float) -> str:
     return text.replace("e-0", "e-").replace("e+0", "e").replace("e+", "e")
 
 
-def _finite_range(arrays: Sequence[np.ndarray], include_zero: bool) -> tuple[float, float]:
+def _finite_range(arrays: Sequence[np.ndarray], include_zero: bool, least_span: float = 0.0
+                  ) -> tuple[float, float]:
     values = np.concatenate([np.asarray(a, dtype=float).ravel() for a in arrays]) if arrays else np.array([])
     values = values[np.isfinite(values)]
     if values.size == 0:
@@ -137,6 +155,14 @@ def _finite_range(arrays: Sequence[np.ndarray], include_zero: bool) -> tuple[flo
     low, high = float(values.min()), float(values.max())
     if include_zero:
         low, high = min(low, 0.0), max(high, 0.0)
+    if high - low < least_span:  # round-off is not magnified into a curve
+        if include_zero and low >= 0.0:
+            high = low + least_span
+        elif include_zero and high <= 0.0:
+            low = high - least_span
+        else:
+            middle = 0.5 * (low + high)
+            low, high = middle - 0.5 * least_span, middle + 0.5 * least_span
     if low == high:
         pad = abs(low) * 0.1 or 1.0
         low, high = low - pad, high + pad
@@ -153,7 +179,7 @@ def draw(spec: PlotSpec, width: int, height: int) -> Picture:
     series = tuple(_as_steps(s) for s in spec.series) if spec.steps else spec.series
     ys = [_y_values(s.y, spec.y_log) for s in series]
     x_low, x_high = _finite_range([s.x for s in series], include_zero=False)
-    y_low, y_high = _finite_range(ys, include_zero=not spec.y_log)
+    y_low, y_high = _finite_range(ys, include_zero=not spec.y_log, least_span=0.0 if spec.y_log else spec.y_span)
     y_ticks = nice_ticks(y_low, y_high, max(3, min(6, (height - 2) // 2)))
     if y_ticks:
         y_low, y_high = min(y_low, y_ticks[0]), max(y_high, y_ticks[-1])

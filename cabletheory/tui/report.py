@@ -81,6 +81,7 @@ class PlotSpec:
     series: tuple[Series, ...]
     y_log: bool = False
     steps: bool = False  # a step function: y[i] holds from x[i] to x[i + 1]
+    y_span: float = 0.0  # the least y range drawn (display units), so that round-off stays flat
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -138,8 +139,8 @@ def _pretty(unit: str) -> str:
 
 
 def row_unit(kind: str | None, unit: str | None = None) -> str:
-    """The SI unit written beside a value in JSON and CSV ('' for text and pure numbers)."""
+    """The SI unit written beside a value in JSON and CSV, as the command line writes it
+    (:func:`cabletheory.output.quantity`: 'dimensionless' for a pure number; '' for text)."""
     if kind is not None:
-        unit_text = si_unit(kind)
-        return "" if unit_text == "dimensionless" else unit_text
+        return si_unit(kind)
     return unit or ""

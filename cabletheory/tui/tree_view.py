@@ -14,9 +14,11 @@ from textual.widgets import Input, Label, RadioButton, RadioSet, Static, Tree
 from textual.worker import get_current_worker
 
 from .fields import DEMO_SWC, TREE_FIELDS, bundled_morphologies
-from .widgets import CurvePlot, QuantityField, QuantityList, waiting_message
+from .keys import key_label
+from .widgets import CurvePlot, QuantityField, QuantityList, shared_text, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
+    from ..tree import Tree
     from .format import OutlineNode
     from .forms import TreeSetup
     from .report import Report
@@ -33,15 +35,23 @@ class TreeView(Vertical):
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("ctrl+r", "run", "audit again"),
+        Binding("f6,b", "worst_branch_point", "worst branch point"),
+        Binding("f7,t", "worst_tip", "worst tip"),
     ]
 
     report: Report | None = None
+    wanted: TreeSetup | None = None  # the set-up the form holds now; a result of another is stale
+    worst: tuple[str | None, str | None] = (None, None)  # outline keys of the worst branch point and tip
     open_title = "Open a morphology (.swc, or a tree outline .outline)"
 
     def __init__(self, *, id: str, swc: str | None = None) -> None:
         super().__init__(id=id)
         self.initial_file = swc or str(bundled_morphologies() / DEMO_SWC)
         self.loaded = False
+        self.opened = ""  # the file text last opened (its message stays until the text changes)
+        # the tree last read, by (path, size, modification time): membrane or tolerance edits
+        # re-audit it without reading the file again (read by the worker, kept on the main thread)
+        self._tree_cache: tuple[tuple[str, int, int], Tree] | None = None
 
     @property
     def open_folder(self) -> Path:
@@ -61,7 +71,7 @@ class TreeView(Vertical):
                 yield Static("tree audit · Rall's conditions", classes="form-title")
                 yield QuantityField(_SPECS["file"], prefix=PREFIX, value=self.initial_file)
                 for name in ("Rm", "Ri", "Cm"):
-                    yield QuantityField(_SPECS[name], prefix=PREFIX)
+                    yield QuantityField(_SPECS[name], prefix=PREFIX, value=shared_text(self, name))
                 yield Label("tips", classes="group-label")
                 with RadioSet(id="tr-tips", compact=True):
                     yield RadioButton("as in the file (sealed)", value=True, id="tips-sealed", compact=True)
@@ -69,7 +79,8 @@ class TreeView(Vertical):
                 yield Label("tolerances", classes="group-label")
                 for name in ("ratio_tolerance", "tip_tolerance"):
                     yield QuantityField(_SPECS[name], prefix=PREFIX)
-                yield Static("enter in the file field opens it; ctrl+o picks a file.\n"
+                yield Static(f"enter in the file field opens it; {key_label('ctrl+o')} picks a file; "
+                             f"{key_label('f6,b')} worst branch point, {key_label('f7,t')} worst tip.\n"
                              "✓ within tolerance · ✗ outside · ratio = Σd_child^3/2 / d_parent^3/2 · "
                              "X = electrotonic distance from the input site", classes="hint")
             with Vertical(classes="output"):
@@ -80,28 +91,31 @@ class TreeView(Vertical):
 
     # -- opening -----------------------------------------------------------------------------------
     def activate(self) -> None:
-        """Called when the view is shown; the first time, read the file named in the form."""
+        """Called when the view is shown: the first time, read the file named in the form; later,
+        catch up with membrane values edited in another view."""
         if not self.loaded:
             self.loaded = True
+            self.refresh_results(again=True)
+        else:
             self.refresh_results()
 
     def open_path(self, path: str) -> None:
         self.query_one(f"#{PREFIX}file", Input).value = path
         self.loaded = True
-        self.refresh_results()
+        self.refresh_results(again=True)
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
         event.stop()
         self.loaded = True
-        self.refresh_results()
+        self.refresh_results(again=True)
 
     def on_input_changed(self, event: Input.Changed) -> None:
-        event.stop()
+        # not stopped: the app shares the membrane's texts with the other views
         if event.input.id == f"{PREFIX}file":
-            field = self.query_one(f"#field-{PREFIX}file", QuantityField)
-            field.flag(None)
+            if event.value != self.opened:
+                self.query_one(f"#field-{PREFIX}file", QuantityField).flag(None)
             return  # a path is opened with enter, not at every keystroke
-        if self.loaded:
+        if self.loaded and self.app.current_view == self.id:  # type: ignore[attr-defined]
             self.refresh_results()
 
     def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
@@ -111,58 +125,99 @@ class TreeView(Vertical):
 
     def action_run(self) -> None:
         self.loaded = True
-        self.refresh_results()
+        self._tree_cache = None  # read the file again, it may have changed
+        self.refresh_results(again=True)
+
+    def _jump(self, key: str | None, what: str) -> None:
+        outline = self.query_one("#tree-outline", Tree)
+        if key is None:
+            self.app.bell()
+            return
+        for node in _walk(outline.root):
+            if node.data == key:
+                outline.focus()
+                outline.move_cursor(node)
+                outline.scroll_to_node(node)
+                return
+
+    def action_worst_branch_point(self) -> None:
+        """Move the outline's cursor to the branch point furthest from the 3/2 power rule."""
+        self._jump(self.worst[0], "branch point")
+
+    def action_worst_tip(self) -> None:
+        """Move the outline's cursor to the tip furthest from the others' electrotonic distance."""
+        self._jump(self.worst[1], "tip")
 
     @property
     def tips_choice(self) -> str:
         pressed = self.query_one("#tr-tips", RadioSet).pressed_button
         return "killed" if pressed is not None and pressed.id == "tips-killed" else "sealed"
 
-    def refresh_results(self) -> None:
+    def refresh_results(self, again: bool = False) -> None:
         from .forms import read_tree_form
 
         fields = {f.spec.name: f for f in self.query(QuantityField)}
         setup, errors = read_tree_form({n: f.input.value for n, f in fields.items()}, self.tips_choice)
+        if setup is not None and setup == self.wanted and not again:
+            return
+        self.wanted = setup
         for name, field in fields.items():
-            field.flag(errors.get(name))
+            if name != "file" or name in errors or not again:
+                field.flag(errors.get(name))
         if setup is None:
             self.workers.cancel_group(self, "audit")
             self._clear(waiting_message(errors))
             return
         self._busy(True)
-        self.audit(setup)
+        cached = self._tree_cache
+        self.audit(setup, cached[1] if cached is not None and cached[0] == _file_key(setup.path) else None)
 
     def _clear(self, message: str) -> None:
         self._busy(False)
         self.report = None
+        self.worst = (None, None)
         self.query_one("#tree-results", QuantityList).update(message)
         self.query_one(CurvePlot).spec = None
+        outline = self.query_one("#tree-outline", Tree)
+        outline.clear()
+        outline.root.set_label("no tree")
 
     def _busy(self, busy: bool) -> None:
         self.query_one("#tree-results", QuantityList).border_subtitle = "reading and auditing…" if busy else ""
         self.query_one("#tree-outline", Tree).loading = busy
 
     @work(exclusive=True, thread=True, group="audit")
-    def audit(self, setup: TreeSetup) -> None:
+    def audit(self, setup: TreeSetup, tree: Tree | None) -> None:
+        """Read the file unless ``tree`` is its tree already, then audit it."""
         from ..errors import CableTheoryError
-        from .format import analyse_file, tree_outline, tree_report
+        from .format import audit_tree, read_tree, tree_outline, tree_report, worst_points
 
         worker = get_current_worker()
+        key = _file_key(setup.path)
         try:
-            analysed = analyse_file(setup)
-            result: tuple[Report, list[OutlineNode]] | str = (tree_report(analysed), tree_outline(analysed))
+            if tree is None:
+                tree = read_tree(setup.path)
+            analysed = audit_tree(tree, setup)
+            result: Shown | str = (tree_report(analysed), tree_outline(analysed), worst_points(analysed), key, tree)
         except CableTheoryError as exc:
             result = str(exc)
         if not worker.is_cancelled:
-            self.app.call_from_thread(self._show, result)
+            self.app.call_from_thread(self._show, setup, result)
 
-    def _show(self, result: tuple[Report, list[OutlineNode]] | str) -> None:
+    def _show(self, setup: TreeSetup, result: Shown | str) -> None:
+        if setup != self.wanted:
+            return  # the form changed while the worker ran: a newer result is on its way
         self._busy(False)
         if isinstance(result, str):
+            self._tree_cache = None
+            self.opened = self.query_one(f"#{PREFIX}file", Input).value
             self.query_one(f"#field-{PREFIX}file", QuantityField).flag(result)
             self._clear("The file could not be read; see the message under the file field.")
             return
-        report, outline = result
+        report, outline, self.worst, key, tree = result
+        self._tree_cache = (key, tree)
+        self.opened = self.query_one(f"#{PREFIX}file", Input).value
+        self.query_one(f"#field-{PREFIX}file", QuantityField).flag(None)
         self.report = report
         self.query_one("#tree-results", QuantityList).show(report.results, report.notes[:3])
         self.query_one(CurvePlot).spec = report.plots[0]
@@ -182,3 +237,22 @@ class TreeView(Vertical):
             else:
                 nodes.append(parent.add_leaf(label, data=item.key))
         widget.root.expand_all()
+
+
+Shown = tuple["Report", "list[OutlineNode]", tuple[str | None, str | None], tuple[str, int, int], "Tree"]
+
+
+def _file_key(path: Path) -> tuple[str, int, int]:
+    """A file's identity for the tree cache: resolved path, size and modification time."""
+    try:
+        status = path.stat()
+    except OSError:
+        return (str(path), -1, -1)
+    return (str(path.resolve()), status.st_size, status.st_mtime_ns)
+
+
+def _walk(node):  # type: ignore[no-untyped-def]
+    """Every node under ``node`` (depth first)."""
+    for child in node.children:
+        yield child
+        yield from _walk(child)

@@ -3,21 +3,21 @@
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, ClassVar
 
 from rich.text import Text
 from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
 from textual.reactive import reactive
 from textual.widget import Widget
 from textual.widgets import Input, Label, RadioButton, RadioSet, Static
 
 from .fields import CABLE_GROUP, MODEL_CHOICES, STIMULUS_CHOICES, STIMULUS_GROUP, FieldSpec
+from .keys import key_label
 
 if TYPE_CHECKING:  # pragma: no cover
     from .report import PlotSpec, Row
 
-# curve colours, in drawing order (chosen for contrast on a dark background)
-PALETTE = ("#f2b84b", "#5cc8d6", "#d77ac4", "#9bd36a", "#f07f5f", "#a7a7f0")
 
 
 class CurvePlot(Widget):
@@ -34,14 +34,14 @@ class CurvePlot(Widget):
         width, height = self.content_size.width, self.content_size.height
         if spec is None or not spec.series or width < 12 or height < 5:
             return Text("no curve yet", style="dim")
-        from .plot import draw  # numpy: not needed for the first, empty frame
+        from .plot import curve_style, draw  # numpy: not needed for the first, empty frame
 
         legend = legend_lines(spec.x_label, [s.label for s in spec.series], width)
         picture = draw(spec, width, height - len(legend))
         out = Text(no_wrap=True, overflow="crop")
         for line, owners in zip(picture.rows, picture.owners, strict=True):
             for char, owner in zip(line, owners, strict=True):
-                out.append(char, style=PALETTE[owner % len(PALETTE)] if owner >= 0 else "")
+                out.append(char, style=curve_style(owner)[0] if owner >= 0 else "")
             out.append("\n")
         for number, items in enumerate(legend):
             if number:
@@ -50,7 +50,8 @@ class CurvePlot(Widget):
                 if index < 0:
                     out.append(item, style="bold")
                 else:
-                    out.append("━━ ", style=PALETTE[index % len(PALETTE)])
+                    colour, swatch = curve_style(index)
+                    out.append(f"{swatch} ", style=colour)
                     out.append(item)
         return out
 
@@ -63,7 +64,7 @@ def legend_lines(x_label: str, labels: Sequence[str], width: int) -> list[list[t
     lines: list[list[tuple[int, str]]] = [[(-1, f"{x_label}   ")]]
     used = len(x_label) + 3
     for index, label in enumerate(labels):
-        size = len(label) + 5  # "━━ " + label + two spaces
+        size = len(label) + 6  # "━━━ " + label + two spaces
         if used + size > width and used > 0:
             lines.append([])
             used = 0
@@ -72,27 +73,56 @@ def legend_lines(x_label: str, labels: Sequence[str], width: int) -> list[list[t
     return lines
 
 
-class QuantityList(Static):
-    """Label-value lines for a sequence of :class:`Row`; flagged rows are highlighted."""
+class QuantityList(Static, can_focus=True):
+    """Label-value lines for a sequence of :class:`Row`; flagged rows are highlighted.
+
+    Focusable (tab reaches it) and scrolled by keys when it holds more than fits."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("up", "scroll_up", show=False), Binding("down", "scroll_down", show=False),
+        Binding("pageup", "page_up", show=False), Binding("pagedown", "page_down", show=False),
+        Binding("home", "scroll_home", show=False), Binding("end", "scroll_end", show=False),
+    ]
+
+    _shown: tuple[Sequence[Row], Sequence[str]] | None = None
 
     def show(self, rows: Sequence[Row], notes: Sequence[str] = ()) -> None:
+        """Label and value on one line each; labels too long for a narrow panel are cut with '…'
+        so that the values stay in one column (the whole label is in saved files and the help)."""
         from .report import row_text
 
+        self._shown = (rows, notes)
+        values = [row_text(row) for row in rows]
         width = max((len(row.label) for row in rows), default=0)
+        room = self.content_size.width
+        if room > 0:
+            # a long text value (a method, a verdict) wraps; the numbers keep their column
+            numbers = max((len(v) for v in values if len(v) <= 16), default=0)
+            width = max(8, min(width, room - 2 - numbers))
         text = Text(no_wrap=False)
-        for row in rows:
+        for row, value in zip(rows, values, strict=True):
             style = "bold #ff6b6b" if row.flag else ""
-            text.append(row.label.ljust(width + 2), style="#9aa5b1" if not row.flag else style)
-            text.append(row_text(row), style=style or "bold")
+            label = row.label if len(row.label) <= width else row.label[:width - 1] + "…"
+            text.append(label.ljust(width + 2), style="#9aa5b1" if not row.flag else style)
+            text.append(value, style=style or "bold")
             text.append("\n")
         for note in notes:
             text.append(f"{note}\n", style="italic")
         self.update(text)
 
+    def update(self, content="", *, layout: bool = True) -> None:  # type: ignore[no-untyped-def, override]
+        if not isinstance(content, Text) or content.plain == "":
+            self._shown = None  # a message, not rows: nothing to lay out again on resize
+        super().update(content, layout=layout)
+
+    def on_resize(self) -> None:
+        if self._shown is not None:
+            self.show(*self._shown)
+
 
 class QuantityField(Widget):
-    """A field: label and one-line input side by side, and under them the message of its current
-    problem (made only when there is one; few widgets keep start-up quick)."""
+    """A field: label and one-line input side by side; under them, dim, how the value was read
+    (``= 15.00 µm``) with any warning of an implausible value, or the message of its problem."""
 
     DEFAULT_CLASSES = "field"
 
@@ -105,25 +135,42 @@ class QuantityField(Widget):
         self._value = spec.default if value is None else value
 
     def compose(self) -> ComposeResult:
-        yield Label(self._label, classes="field-label")
-        yield Input(self._value, placeholder=self.spec.placeholder, id=f"{self.prefix}{self.spec.name}",
-                    compact=True)
+        from textual.containers import Horizontal
+
+        with Horizontal(classes="field-row"):
+            yield Label(self._label, classes="field-label")
+            yield Input(self._value, placeholder=self.spec.placeholder, id=f"{self.prefix}{self.spec.name}",
+                        compact=True)
+        yield Static("", classes="field-echo")
 
     @property
     def input(self) -> Input:
         return self.query_one(Input)
 
+    @property
+    def echo_text(self) -> str:
+        """The echo line as shown (for tests)."""
+        return str(self.query_one(".field-echo", Static).render())
+
     def flag(self, message: str | None) -> None:
-        """Show ``message`` under the field and mark it, or clear both (``None``)."""
-        shown = self.query(".field-message")
-        if message:
-            if shown:
-                shown.first(Static).update(message)
-            else:
-                self.mount(Static(message, classes="field-message"))
-        elif shown:
-            shown.first(Static).update("")
+        """Show ``message`` under the field and mark it, or clear both (``None``); without a
+        message, the echo line says how the current text is read."""
+        echo = self.query_one(".field-echo", Static)
         self.set_class(bool(message), "bad")
+        if message:
+            echo.display = True
+            echo.update(Text(message, style="#ff8a80"))
+            self.set_class(False, "warned")
+            return
+        from .forms import reading  # the units boundary: loaded after the first frame
+
+        said, warning = reading(self.spec, self.input.value)
+        line = Text(said, style="#8796a3")
+        if warning:
+            line.append(("\n" if said else "") + f"⚠ {warning}", style="#f2d49b")
+        self.set_class(bool(warning), "warned")
+        echo.update(line)
+        echo.display = bool(line.plain)  # a file field says nothing here: no empty line
 
 
 class ChoiceSet(RadioSet):
@@ -151,7 +198,7 @@ class ChoiceSet(RadioSet):
 
 
 class CaseChoices:
-    """The model and stimulus choices (and their ctrl+b / ctrl+n actions) of a view whose form
+    """The model and stimulus choices (and their ctrl+l / ctrl+n actions) of a view whose form
     holds :func:`case_form` composed with the view's ``case_prefix``."""
 
     case_prefix: str = ""
@@ -171,17 +218,31 @@ class CaseChoices:
         self.query_one(f"#{self.case_prefix}stimulus", ChoiceSet).cycle()  # type: ignore[attr-defined]
 
 
-def case_form(prefix: str, specs: Mapping[str, FieldSpec]) -> ComposeResult:
+def case_form(prefix: str, specs: Mapping[str, FieldSpec], values: Mapping[str, str]) -> ComposeResult:
     """The model and stimulus part of a form (shared by the charging and check views): a model
     choice with the cable fields, then a stimulus choice with its fields, as in ``cli/case.py``."""
-    yield Label("model  (ctrl+b cycles)", classes="group-label")
+    yield Label(f"model  ({key_label('ctrl+l')} cycles)", classes="group-label")
     yield ChoiceSet(MODEL_CHOICES, "cylinder", id=f"{prefix}model")
     for name in CABLE_GROUP:
-        yield QuantityField(specs[name], prefix=prefix)
-    yield Label("stimulus  (ctrl+n cycles)", classes="group-label")
+        yield QuantityField(specs[name], prefix=prefix, value=values.get(name))
+    yield Label(f"stimulus  ({key_label('ctrl+n')} cycles)", classes="group-label")
     yield ChoiceSet(STIMULUS_CHOICES, "step", id=f"{prefix}stimulus")
     for name in STIMULUS_GROUP:
         yield QuantityField(specs[name], prefix=prefix)
+
+
+def shared_texts(widget: Widget) -> Mapping[str, str]:
+    """The texts of the shared cell's fields as last typed in any view (a field not typed yet
+    is absent: it keeps its default)."""
+    from .app import CableApp
+
+    app = widget.app
+    return app.cell_texts if isinstance(app, CableApp) else {}
+
+
+def shared_text(widget: Widget, name: str) -> str | None:
+    """The text of one field of the shared cell as last typed in any view (None: the default)."""
+    return shared_texts(widget).get(name)
 
 
 def waiting_message(errors: Mapping[str, str]) -> str:
