@@ -18,7 +18,9 @@ from .keys import key_label
 from .widgets import CurvePlot, QuantityField, QuantityList, shared_text, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..tree import Tree
+    from textual.widgets.tree import TreeNode
+
+    from ..tree import Tree as Morphology  # the core's tree; Tree here is the outline widget
     from .format import OutlineNode
     from .forms import TreeSetup
     from .report import Report
@@ -51,7 +53,9 @@ class TreeView(Vertical):
         self.opened = ""  # the file text last opened (its message stays until the text changes)
         # the tree last read, by (path, size, modification time): membrane or tolerance edits
         # re-audit it without reading the file again (read by the worker, kept on the main thread)
-        self._tree_cache: tuple[tuple[str, int, int], Tree] | None = None
+        self._tree_cache: tuple[tuple[str, int, int], Morphology] | None = None
+        self._outline_shape: list[tuple[str, int]] = []  # (key, parent) of each outline line shown
+        self._outline_nodes: list[TreeNode[str]] = []  # the widget's nodes of those lines, root excluded
 
     @property
     def open_folder(self) -> Path:
@@ -181,13 +185,14 @@ class TreeView(Vertical):
         outline = self.query_one("#tree-outline", Tree)
         outline.clear()
         outline.root.set_label("no tree")
+        self._outline_shape, self._outline_nodes = [], []
 
     def _busy(self, busy: bool) -> None:
         self.query_one("#tree-results", QuantityList).border_subtitle = "reading and auditing…" if busy else ""
         self.query_one("#tree-outline", Tree).loading = busy
 
     @work(exclusive=True, thread=True, group="audit")
-    def audit(self, setup: TreeSetup, tree: Tree | None) -> None:
+    def audit(self, setup: TreeSetup, tree: Morphology | None) -> None:
         """Read the file unless ``tree`` is its tree already, then audit it."""
         from ..errors import CableTheoryError
         from .format import audit_tree, read_tree, tree_outline, tree_report, worst_points
@@ -225,6 +230,14 @@ class TreeView(Vertical):
 
     def _fill_outline(self, outline: list[OutlineNode]) -> None:
         widget = self.query_one("#tree-outline", Tree)
+        shape = [(item.key, item.parent) for item in outline]
+        if shape == self._outline_shape:
+            # the same tree audited again: relabel its lines in place (rebuilding thousands of
+            # lines costs seconds; the cursor and the folded branches stay where they were)
+            widget.root.set_label(Text(outline[0].text, style="bold"))
+            for node, item in zip(self._outline_nodes, outline[1:], strict=True):
+                node.set_label(Text(item.text, style="bold #ff6b6b" if item.flag else ""))
+            return
         widget.clear()
         widget.root.set_label(Text(outline[0].text, style="bold"))
         nodes = [widget.root]
@@ -237,9 +250,11 @@ class TreeView(Vertical):
             else:
                 nodes.append(parent.add_leaf(label, data=item.key))
         widget.root.expand_all()
+        self._outline_shape = shape
+        self._outline_nodes = nodes[1:]
 
 
-Shown = tuple["Report", "list[OutlineNode]", tuple[str | None, str | None], tuple[str, int, int], "Tree"]
+Shown = tuple["Report", "list[OutlineNode]", tuple[str | None, str | None], tuple[str, int, int], "Morphology"]
 
 
 def _file_key(path: Path) -> tuple[str, int, int]:
