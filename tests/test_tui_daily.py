@@ -202,7 +202,7 @@ def test_every_view_shows_its_main_answer_at_80_by_24(view):
             results.focus()
             await pilot.press("pagedown")
             await pilot.pause()
-            assert "Rin input resistance" in text_of(app, "#cylinder-results")
+            assert "input resistance R_in" in text_of(app, "#cylinder-results")
 
     drive(script, size=(80, 24), view=view)
 

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from typing import TYPE_CHECKING, ClassVar
+from typing import TYPE_CHECKING, ClassVar, Protocol, runtime_checkable
 
 from rich.text import Text
 from textual.app import ComposeResult
@@ -231,13 +231,18 @@ def case_form(prefix: str, specs: Mapping[str, FieldSpec], values: Mapping[str, 
         yield QuantityField(specs[name], prefix=prefix)
 
 
+@runtime_checkable
+class SharesCell(Protocol):
+    """An app that keeps the texts of the shared cell's fields (:class:`~cabletheory.tui.app.CableApp`)."""
+
+    cell_texts: dict[str, str]
+
+
 def shared_texts(widget: Widget) -> Mapping[str, str]:
     """The texts of the shared cell's fields as last typed in any view (a field not typed yet
     is absent: it keeps its default)."""
-    from .app import CableApp
-
     app = widget.app
-    return app.cell_texts if isinstance(app, CableApp) else {}
+    return app.cell_texts if isinstance(app, SharesCell) else {}
 
 
 def shared_text(widget: Widget, name: str) -> str | None:
