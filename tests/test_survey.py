@@ -271,6 +271,12 @@ def test_a_killed_survey_resumes_and_gives_the_uninterrupted_table(tmp_path):
     assert output.read_text(encoding="utf-8").count("\n") > total
 
 
+def _default_interrupt() -> None:
+    """In the child: Ctrl-C's default action, even when the tests run in the background (a shell
+    starts background jobs with SIGINT ignored, and the survey would inherit that)."""
+    signal.signal(signal.SIGINT, signal.SIG_DFL)
+
+
 @pytest.mark.slow
 def test_ctrl_c_stops_the_survey_keeps_the_journal_and_resume_finishes_it(tmp_path):
     """Ctrl-C (SIGINT to the whole process group, as a terminal sends it): status 130, one line
@@ -282,7 +288,7 @@ def test_ctrl_c_stops_the_survey_keeps_the_journal_and_resume_finishes_it(tmp_pa
             "--batch", "2", "--output", str(tmp_path / "t.csv")]
     for _attempt in range(3):  # on a loaded machine the run can end before the signal lands: try again
         process = subprocess.Popen(argv, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
-                                   start_new_session=True)
+                                   start_new_session=True, preexec_fn=_default_interrupt)
         _wait_for_rows(tmp_path / "t.csv.journal", 4, process)
         os.killpg(process.pid, signal.SIGINT)
         out, err = process.communicate(timeout=120)

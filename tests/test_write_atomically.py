@@ -199,6 +199,12 @@ OLD = b"O" * 1000
 NEW_SIZE = 8_000_000
 
 
+def _default_interrupt() -> None:
+    """In the child: Ctrl-C's default action, even when this test runs in the background (where a
+    shell starts jobs with SIGINT ignored, which the child would inherit)."""
+    signal.signal(signal.SIGINT, signal.SIG_DFL)
+
+
 @pytest.mark.parametrize(
     ("mode", "signum"),
     [("unnamed", signal.SIGKILL), ("unnamed", signal.SIGTERM), ("named", signal.SIGTERM), ("named", signal.SIGINT),
@@ -211,7 +217,8 @@ def test_a_kill_at_a_random_moment_leaves_the_old_file_or_the_new(tmp_path, mode
     target = tmp_path / "result.bin"
     for _ in range(8):
         target.write_bytes(OLD)
-        child = subprocess.Popen([sys.executable, "-c", WRITER, str(target), mode], stdout=subprocess.PIPE)
+        child = subprocess.Popen([sys.executable, "-c", WRITER, str(target), mode], stdout=subprocess.PIPE,
+                                 preexec_fn=_default_interrupt)
         assert child.stdout.readline() == b"ready\n"
         time.sleep(rng.uniform(0.0, 0.15))
         child.send_signal(signum)
