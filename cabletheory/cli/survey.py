@@ -26,9 +26,8 @@ from ..survey import (
 from ..tree import Tolerances
 from ..units import format_quantity, parse_quantity
 from .common import add_membrane_options, read_membrane, whole_number
-from .tree import parse_types
+from .tree import add_tree_reading_options, parse_types
 
-_DEFAULT_TOLERANCE = Tolerances()
 _TABLE_SUFFIXES = (".csv", ".parquet")
 
 
@@ -55,23 +54,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                              "(quote it), or a file")
     group = parser.add_argument_group("membrane, the same for every cell (bare numbers: Ω·cm², Ω·cm, µF/cm²)")
     add_membrane_options(group)
-    geometry = parser.add_argument_group("geometry (as in 'cabletheory tree')")
-    geometry.add_argument("--taper", action="store_true",
-                          help="SWC: treat each piece between two points as a frustum from its parent point's "
-                               "diameter to its own (default: a cylinder with its own point's diameter)")
-    geometry.add_argument("--types", metavar="LIST",
-                          help="SWC: keep only these point types, e.g. '3,4' or 'basal,apical' "
-                               "(default: every type except the axon)")
-    geometry.add_argument("--axon", action="store_true", help="SWC: keep the axon (type 2)")
-    geometry.add_argument("--tips", metavar="END",
-                          help="the end of every tip: 'sealed', 'killed' or a conductance to rest such as "
-                               "'0.5 nS' (default: as each file says; sealed unless an outline gives end=)")
-    audit = parser.add_argument_group("audit tolerances (as in 'cabletheory tree')")
-    audit.add_argument("--ratio-tolerance", default=str(_DEFAULT_TOLERANCE.branch_ratio), metavar="T",
-                       help="largest |Σd_child^3/2 / d_parent^3/2 − 1| at a branch point, and largest relative "
-                            "change of d^3/2 along a branch (default %(default)s)")
-    audit.add_argument("--tip-tolerance", default=str(_DEFAULT_TOLERANCE.tip_spread), metavar="ΔX",
-                       help="largest spread of tip electrotonic distances, in λ (default %(default)s)")
+    add_tree_reading_options(parser, each_file=True)
     work = parser.add_argument_group("where the work runs")
     work.add_argument("--workers", type=whole_number(1, 1024), default=None, metavar="N",
                       help="worker processes of the local pool (default: one per core, here "

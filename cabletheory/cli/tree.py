@@ -23,6 +23,29 @@ _TYPE_NAMES = {"soma": 1, "axon": 2, "basal": 3, "apical": 4}
 _DEFAULT_TOLERANCE = Tolerances()
 
 
+def add_tree_reading_options(parser: argparse.ArgumentParser, *, each_file: bool = False) -> None:
+    """How a morphology is read and audited (--taper --types --axon --tips --ratio-tolerance
+    --tip-tolerance): one definition for ``tree`` and ``survey``, same names, same meanings."""
+    geometry = parser.add_argument_group("geometry")
+    geometry.add_argument("--taper", action="store_true",
+                          help="SWC: treat each piece between two points as a frustum from its parent point's "
+                               "diameter to its own (default: a cylinder with its own point's diameter)")
+    geometry.add_argument("--types", metavar="LIST",
+                          help="SWC: keep only these point types, e.g. '3,4' or 'basal,apical' "
+                               "(default: every type except the axon)")
+    geometry.add_argument("--axon", action="store_true", help="SWC: keep the axon (type 2)")
+    geometry.add_argument("--tips", metavar="END",
+                          help="the end of every tip: 'sealed', 'killed' or a conductance to rest such as "
+                               f"'0.5 nS' (default: as {'each' if each_file else 'the'} file says; sealed unless an "
+                               "outline gives end=)")
+    audit = parser.add_argument_group("audit tolerances")
+    audit.add_argument("--ratio-tolerance", default=str(_DEFAULT_TOLERANCE.branch_ratio), metavar="T",
+                       help="largest |Σd_child^3/2 / d_parent^3/2 − 1| at a branch point, and largest relative "
+                            "change of d^3/2 along a branch (default %(default)s)")
+    audit.add_argument("--tip-tolerance", default=str(_DEFAULT_TOLERANCE.tip_spread), metavar="ΔX",
+                       help="largest spread of tip electrotonic distances, in λ (default %(default)s)")
+
+
 def register(subparsers: argparse._SubParsersAction) -> None:
     parser = subparsers.add_parser(
         "tree",
@@ -36,23 +59,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     parser.add_argument("file", metavar="FILE", help="morphology: .swc, or a tree outline (.outline; see docs/tree.md)")
     group = parser.add_argument_group("membrane (bare numbers: Ω·cm², Ω·cm, µF/cm²)")
     add_membrane_options(group)
-    geometry = parser.add_argument_group("geometry")
-    geometry.add_argument("--taper", action="store_true",
-                          help="SWC: treat each piece between two points as a frustum from its parent point's "
-                               "diameter to its own (default: a cylinder with its own point's diameter)")
-    geometry.add_argument("--types", metavar="LIST",
-                          help="SWC: keep only these point types, e.g. '3,4' or 'basal,apical' "
-                               "(default: every type except the axon)")
-    geometry.add_argument("--axon", action="store_true", help="SWC: keep the axon (type 2)")
-    geometry.add_argument("--tips", metavar="END",
-                          help="the end of every tip: 'sealed', 'killed' or a conductance to rest such as "
-                               "'0.5 nS' (default: as the file says; sealed unless an outline gives end=)")
-    audit = parser.add_argument_group("audit tolerances")
-    audit.add_argument("--ratio-tolerance", default=str(_DEFAULT_TOLERANCE.branch_ratio), metavar="T",
-                       help="largest |Σd_child^3/2 / d_parent^3/2 − 1| at a branch point, and largest relative "
-                            "change of d^3/2 along a branch (default %(default)s)")
-    audit.add_argument("--tip-tolerance", default=str(_DEFAULT_TOLERANCE.tip_spread), metavar="ΔX",
-                       help="largest spread of tip electrotonic distances, in λ (default %(default)s)")
+    add_tree_reading_options(parser)
     out = parser.add_argument_group("output")
     out.add_argument("--bins", type=int, default=12, metavar="N",
                      help="rows of the equivalent-cable table (default 12)")
