@@ -217,7 +217,7 @@ def peel_start(times: ArrayLike, voltage: ArrayLike, components: int, *, offset:
 # one fit with a given number of exponentials
 # --------------------------------------------------------------------------------------
 @dataclass(frozen=True, slots=True)
-class ExponentialFit:
+class ExponentialFit(fit_stats.TraceFit):
     r"""A sum of ``components`` exponentials fitted to a trace, :math:`c + \sum a_k e^{-t/\tau_k}`.
 
     Attributes
@@ -274,11 +274,6 @@ class ExponentialFit:
     bootstrap_amplitude_intervals: Array | None = None
     bootstrap_offset_interval: Array | None = None
     bootstrap_draws: int = 0
-
-    @property
-    def residuals(self) -> Array:
-        """data - fitted, V."""
-        return self.data - self.fitted
 
     @property
     def coefficients(self) -> Array | None:

@@ -108,7 +108,7 @@ def model_case(model: str, membrane_time_constant: float, electrotonic_length: f
 
 
 @dataclass(frozen=True, slots=True)
-class ModelFit:
+class ModelFit(fit_stats.NamedEstimates):
     """A passive model fitted to a trace.
 
     Attributes
@@ -164,19 +164,6 @@ class ModelFit:
     notes: tuple[str, ...] = field(default_factory=tuple)
     method: str = ""
 
-    @property
-    def residuals(self) -> Array:
-        """data - fitted, V."""
-        return self.data - self.fitted
-
-    def value(self, name: str) -> float:
-        """The estimate of one parameter by its canonical name, SI."""
-        return float(self.estimates[self.names.index(name)])
-
-    def interval(self, name: str) -> tuple[float, float]:
-        """The interval of one parameter by its canonical name, SI."""
-        lo, hi = self.intervals[self.names.index(name)]
-        return float(lo), float(hi)
 
 
 def _names(model: str) -> tuple[str, ...]:
@@ -307,24 +294,12 @@ def fit_model(times: ArrayLike, voltage: ArrayLike, *, model: str = "ball-and-st
     result = least_squares(residual, x0, bounds=(lo, hi), method="trf", x_scale=1.0, diff_step=1e-6,
                            xtol=1e-10, ftol=1e-10, gtol=1e-10, max_nfev=100 * (x0.size + 1))
     x = result.x
-    r = np.asarray(result.fun, dtype=float)
-    fitted = y + r / w
-    chi = float(r @ r)
-    J = np.asarray(result.jac, dtype=float)  # forward differences at the solution
-    cov, _ = fit_stats.linearised_covariance(J, chi)
-    dof = t.size - x.size
     k_rn = names.index("input_resistance")
     steady = abs(float(np.exp(x[k_rn])) * amp)
-    if baseline_error > 0 and steady > 0:
-        cov = cov.copy()
-        cov[k_rn, k_rn] += (baseline_error / steady) ** 2
-    log_iv = np.array([fit_stats.t_interval(float(x[j]), float(cov[j, j]), level, dof) for j in range(x.size)])
-    with np.errstate(over="ignore"):
-        intervals = np.exp(log_iv)
-    estimates = np.exp(x)
     symbols = tuple(_SYMBOLS[n] if current_known or n != "input_resistance" else "V∞" for n in names)
-    condition = fit_stats.identifiability(J, cov, symbols)
-    at_bounds = tuple(n for n, xi, a, b in zip(names, x, lo, hi, strict=True) if xi - a < 1e-3 or b - xi < 1e-3)
+    stats = fit_stats.log_scale_fit(result, names, symbols, (lo, hi), level, extra_variance=(
+        {k_rn: (baseline_error / steady) ** 2} if baseline_error > 0 and steady > 0 else None))
+    at_bounds, dof = stats.at_bounds, stats.dof
     p = parameters(x)
     case, props = model_case(model, p["membrane_time_constant"], p["electrotonic_length"], p["conductance_ratio"],
                              p["input_resistance"], amp, membrane_capacitance=membrane_capacitance,
@@ -335,10 +310,9 @@ def fit_model(times: ArrayLike, voltage: ArrayLike, *, model: str = "ball-and-st
         else:
             notes.append(f"{_SYMBOLS[n]} ended at the edge of its search range {_BOUNDS[n]}: the estimate and its "
                          f"interval are not trustworthy")
-    notes += list(condition.statements())
-    check = fit_stats.check_residuals(r)
-    if check.structured:
-        notes.append(check.describe())
+    notes += list(stats.condition.statements())
+    if stats.residual_check.structured:
+        notes.append(stats.residual_check.describe())
     if not current_known:
         notes.append("the injected current was not given, so only V∞ = I·R_N is determined, not R_N")
     method = (f"exact soma response of the {model.replace('-', ' ')} (cabletheory charge, truncation "
@@ -346,11 +320,11 @@ def fit_model(times: ArrayLike, voltage: ArrayLike, *, model: str = "ball-and-st
               f"{', '.join(_SYMBOLS[n] for n in names)} (scipy least_squares, trf); {how}; {100 * level:g} % "
               f"intervals from the linearised covariance (Student t, {dof} degrees of freedom, on the log scale)")
     return ModelFit(
-        model=model, names=names, estimates=estimates, intervals=intervals,
-        correlation=fit_stats.correlation_matrix(cov), condition=condition, residual_check=check, case=case,
-        properties=props, current=amp, current_known=current_known, times=t, data=y, fitted=fitted,
-        standard_error=1.0 / w, chi_square=chi, dof=dof, noise_scale=math.sqrt(chi / max(dof, 1)),
-        aicc=fit_stats.aicc(chi, t.size, x.size), level=level, converged=bool(result.status > 0),
+        model=model, names=names, estimates=stats.estimates, intervals=stats.intervals,
+        correlation=stats.correlation, condition=stats.condition, residual_check=stats.residual_check, case=case,
+        properties=props, current=amp, current_known=current_known, times=t, data=y, fitted=y + stats.residuals / w,
+        standard_error=1.0 / w, chi_square=stats.chi_square, dof=dof, noise_scale=stats.noise_scale,
+        aicc=fit_stats.aicc(stats.chi_square, t.size, x.size), level=level, converged=bool(result.status > 0),
         window=(float(t[0]), float(t[-1])), window_chosen=chosen, at_bounds=at_bounds, evaluations=counter[0],
         membrane_capacitance=membrane_capacitance, axial_resistivity=axial_resistivity, notes=tuple(notes),
         method=method)

@@ -34,6 +34,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -41,13 +42,17 @@ from numpy.typing import NDArray
 __all__ = [
     "CORRELATION_LIMIT",
     "ConditionReport",
+    "LogScaleFit",
+    "NamedEstimates",
     "ResidualCheck",
+    "TraceFit",
     "aicc",
     "check_residuals",
     "correlation_matrix",
     "identifiability",
     "lag_one_autocorrelation",
     "linearised_covariance",
+    "log_scale_fit",
     "runs_test",
     "t_interval",
     "t_quantile",
@@ -308,3 +313,94 @@ def identifiability(jacobian: Array, covariance: Array, names: tuple[str, ...]) 
     unbounded = tuple(n for n, v in zip(names, np.diag(covariance), strict=True) if not np.isfinite(v))
     return ConditionReport(tuple(pairs), tuple((n, float(v)) for n, v in zip(names, direction, strict=True)),
                            flatness, unbounded)
+
+
+class TraceFit:
+    """A mixin for every fitted-trace result class (they carry ``data`` and ``fitted``, V)."""
+
+    __slots__ = ()
+    data: Array
+    fitted: Array
+
+    @property
+    def residuals(self) -> Array:
+        """data - fitted, V."""
+        return self.data - self.fitted
+
+
+class NamedEstimates(TraceFit):
+    """What a fit of named parameters answers besides its residuals: one value or interval by name.
+
+    A mixin for the frozen result classes of :mod:`cabletheory.fit_model` and
+    :mod:`cabletheory.fit_tree`, which carry ``names``, ``estimates`` and ``intervals``.
+    """
+
+    __slots__ = ()
+    names: tuple[str, ...]
+    estimates: Array
+    intervals: Array
+
+    def value(self, name: str) -> float:
+        """The estimate of one parameter by its canonical name, SI."""
+        return float(self.estimates[self.names.index(name)])
+
+    def interval(self, name: str) -> tuple[float, float]:
+        """The interval of one parameter by its canonical name, SI."""
+        lo, hi = self.intervals[self.names.index(name)]
+        return float(lo), float(hi)
+
+
+@dataclass(frozen=True, slots=True)
+class LogScaleFit:
+    """The statistics of a least-squares fit searched over the logarithms of its parameters.
+
+    ``estimates`` and ``intervals`` are back on the natural scale (Student-t intervals of the
+    log-parameters, exponentiated, so they are never negative and are asymmetric as the
+    uncertainty of a scale parameter should be); ``at_bounds`` names the parameters that ended
+    within 1e-3 (in the logarithm) of their search range.
+    """
+
+    residuals: Array  # weighted residuals at the solution
+    chi_square: float
+    dof: int
+    covariance: Array  # of the log-parameters
+    estimates: Array
+    intervals: Array
+    correlation: Array
+    condition: ConditionReport
+    residual_check: ResidualCheck
+    at_bounds: tuple[str, ...]
+
+    @property
+    def noise_scale(self) -> float:
+        """√(χ²/(N - p)), the residual scale in units of the standard errors."""
+        return math.sqrt(self.chi_square / max(self.dof, 1))
+
+
+def log_scale_fit(result: Any, names: tuple[str, ...], symbols: tuple[str, ...], bounds: tuple[Array, Array],
+                  level: float, *, extra_variance: dict[int, float] | None = None) -> LogScaleFit:
+    """The covariance, intervals, identifiability and residual checks of a log-scale fit.
+
+    ``result`` is what :func:`scipy.optimize.least_squares` returned for weighted residuals over
+    the logarithms of the parameters ``names`` (``symbols`` are their names for the reader), with
+    ``bounds`` the (lower, upper) logarithmic search range. ``extra_variance`` adds a known
+    variance to diagonal entries of the covariance (e.g. a baseline's uncertainty) before the
+    intervals are taken. Method: Bates & Watts (1988) ch. 2 [BatesWatts1988].
+    """
+    x = np.asarray(result.x, dtype=float)
+    r = np.asarray(result.fun, dtype=float)
+    jacobian = np.asarray(result.jac, dtype=float)
+    chi = float(r @ r)
+    cov, _ = linearised_covariance(jacobian, chi)
+    if extra_variance:
+        cov = cov.copy()
+        for k, variance in extra_variance.items():
+            cov[k, k] += variance
+    dof = r.size - x.size
+    log_iv = np.array([t_interval(float(x[j]), float(cov[j, j]), level, dof) for j in range(x.size)])
+    with np.errstate(over="ignore"):
+        intervals = np.exp(log_iv)
+    lo, hi = bounds
+    at_bounds = tuple(n for n, xi, a, b in zip(names, x, lo, hi, strict=True) if xi - a < 1e-3 or b - xi < 1e-3)
+    return LogScaleFit(r, chi, dof, cov, np.exp(x), intervals, correlation_matrix(cov),
+                       identifiability(jacobian, cov, symbols), check_residuals(r), at_bounds)

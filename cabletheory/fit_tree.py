@@ -50,7 +50,7 @@ _SYMBOLS = {"membrane_resistivity": "Rm", "axial_resistivity": "Ri", "membrane_c
 
 
 @dataclass(frozen=True, slots=True)
-class MorphologyFit:
+class MorphologyFit(fit_stats.NamedEstimates):
     """Rm, Ri, Cm (and a soma shunt) of a reconstructed cell fitted to a trace.
 
     Attributes
@@ -92,23 +92,10 @@ class MorphologyFit:
     method: str = ""
 
     @property
-    def residuals(self) -> Array:
-        """data - fitted, V."""
-        return self.data - self.fitted
-
-    @property
     def model(self) -> str:
         """The kind of cell fitted, in the words of :class:`cabletheory.fit_model.ModelFit`."""
         return "reconstructed-cell"
 
-    def value(self, name: str) -> float:
-        """The estimate of one parameter by its canonical name, SI."""
-        return float(self.estimates[self.names.index(name)])
-
-    def interval(self, name: str) -> tuple[float, float]:
-        """The interval of one parameter by its canonical name, SI."""
-        lo, hi = self.intervals[self.names.index(name)]
-        return float(lo), float(hi)
 
 
 def _cell(tree: Any, p: dict[str, float]) -> Any:
@@ -205,39 +192,29 @@ def fit_morphology(times: ArrayLike, voltage: ArrayLike, tree: Any, current: flo
 
     result = least_squares(residual, x0, bounds=(lo, hi), method="trf", x_scale=1.0, diff_step=1e-5,
                            xtol=1e-8, ftol=1e-8, gtol=1e-8, max_nfev=MAX_STEPS)
-    x = result.x
-    r = np.asarray(result.fun, dtype=float)
-    J = np.asarray(result.jac, dtype=float)
-    chi = float(r @ r)
-    cov, _ = fit_stats.linearised_covariance(J, chi)
-    dof = t.size - x.size
-    log_iv = np.array([fit_stats.t_interval(float(x[j]), float(cov[j, j]), level, dof) for j in range(x.size)])
-    with np.errstate(over="ignore"):
-        intervals = np.exp(log_iv)
-    estimates = np.exp(x)
     symbols = tuple(_SYMBOLS[n] for n in names)
-    condition = fit_stats.identifiability(J, cov, symbols)
-    at_bounds = tuple(n for n, xi, a, b in zip(names, x, lo, hi, strict=True) if xi - a < 1e-3 or b - xi < 1e-3)
-    for n in at_bounds:
+    stats = fit_stats.log_scale_fit(result, names, symbols, (lo, hi), level)
+    dof = stats.dof
+    for n in stats.at_bounds:
         notes.append(f"{_SYMBOLS[n]} ended at the edge of its search range {_BOUNDS[n]} (SI): the estimate and "
                      f"its interval are not trustworthy")
     if not result.status > 0:
         notes.append(f"the search stopped after {counter[0]} exact time courses without meeting its tolerance: the "
                      "data barely move the fit along some direction (see the correlations); the values are the "
                      "best found, and their intervals are wide for that reason")
-    notes += list(condition.statements())
-    check = fit_stats.check_residuals(r)
-    if check.structured:
-        notes.append(check.describe())
-    p = dict(zip(names, estimates.tolist(), strict=True))
+    notes += list(stats.condition.statements())
+    if stats.residual_check.structured:
+        notes.append(stats.residual_check.describe())
+    p = dict(zip(names, stats.estimates.tolist(), strict=True))
     method = (f"exact soma response of the reconstructed tree (Laplace-domain solution inverted on a hyperbolic "
               f"contour, error {TOLERANCE:g} of the reference voltage) fitted by nonlinear least squares over the "
               f"logarithms of {', '.join(symbols)} (scipy least_squares, trf); {100 * level:g} % intervals from "
               f"the linearised covariance (Student t, {dof} degrees of freedom, on the log scale)")
     return MorphologyFit(
-        names=names, estimates=estimates, intervals=intervals, correlation=fit_stats.correlation_matrix(cov),
-        condition=condition, residual_check=check,
+        names=names, estimates=stats.estimates, intervals=stats.intervals, correlation=stats.correlation,
+        condition=stats.condition, residual_check=stats.residual_check,
         membrane_time_constant=p["membrane_resistivity"] * p["membrane_capacitance"], times=t, data=y,
-        fitted=y + r / w, standard_error=1.0 / w, chi_square=chi, dof=dof, noise_scale=math.sqrt(chi / max(dof, 1)),
-        level=level, converged=bool(result.status > 0), evaluations=counter[0], window=(float(t[0]), float(t[-1])),
-        at_bounds=at_bounds, cell=_cell(tree, p), notes=tuple(notes), method=method)
+        fitted=y + stats.residuals / w, standard_error=1.0 / w, chi_square=stats.chi_square, dof=dof,
+        noise_scale=stats.noise_scale, level=level, converged=bool(result.status > 0), evaluations=counter[0],
+        window=(float(t[0]), float(t[-1])), at_bounds=stats.at_bounds, cell=_cell(tree, p), notes=tuple(notes),
+        method=method)
