@@ -46,7 +46,7 @@ def test_known_offset_is_reported_and_judged(tmp_path, capsys) -> None:
     capsys.readouterr()
     # 'first' needs a sample at or before the onset; this file starts after it
     assert main(["compare", str(run), *CASE_ARGS, "--rest", "first", "--pass-within", "1%"]) == 2
-    assert "line 2: the first sample at this site is after the stimulus onset" in capsys.readouterr().err
+    assert ":2: the first sample at this site is after the stimulus onset" in capsys.readouterr().err
 
 
 def test_bad_input_exits_2_and_writes_nothing(tmp_path, capsys) -> None:
@@ -56,7 +56,7 @@ def test_bad_input_exits_2_and_writes_nothing(tmp_path, capsys) -> None:
     assert main(["compare", str(bad), *CASE_ARGS, "--report", str(report)]) == 2
     err = capsys.readouterr().err
     assert err.startswith("cabletheory: error: ")
-    assert "bad.csv, line 3, column 2" in err
+    assert "bad.csv:3:2" in err
     assert err.count("\n") == 1
     assert not report.exists()
     assert main(["compare", str(tmp_path / "missing.csv"), *CASE_ARGS]) == 2

@@ -164,7 +164,7 @@ def test_bad_files(capsys, tmp_path):
     bad.write_text("time (ms),V (mV)\n0,1\n1,oops\n", encoding="utf-8")
     status, _, err = run(capsys, str(bad))
     assert status == 2
-    assert "line 3" in err
+    assert "bad.csv:3:2" in err
     flat = tmp_path / "flat.csv"
     flat.write_text("time (ms),V (mV)\n" + "".join(f"{i},{-65 + 0.01 * math.sin(i)}\n" for i in range(100)),
                     encoding="utf-8")

@@ -64,8 +64,8 @@ def test_undeclared_units_are_customary_and_said_so():
     ("time (ms),V (mV)\n", "no data rows"),
     ("t (ms),time (ms),V\n0,0,1\n", "more than one time column"),
     ("time (ms)\n0\n1\n", "no voltage columns"),
-    ("time (ms),V (mV)\n0,1\n0,2\n", "line 3.*does not increase"),
-    ("time (ms),V (mV)\n0,1\n1,x\n", "line 3, column 2.*cannot read 'x'"),
+    ("time (ms),V (mV)\n0,1\n0,2\n", ":3.*does not increase"),
+    ("time (ms),V (mV)\n0,1\n1,x\n", ":3:2.*cannot read 'x'"),
     ("time (ms),V (mV)\n0,1\n1,nan\n", "not a finite"),
     ("time (ms),V (mV)\n0,1,2\n", "3 columns"),
 ])
@@ -75,7 +75,7 @@ def test_read_sweeps_refusals_name_the_line(text, message):
 
 
 def test_a_unit_of_the_wrong_kind_names_the_column():
-    with pytest.raises(InputError, match=r"line 1, column 2.*expected a voltage"):
+    with pytest.raises(InputError, match=r":1:2.*expected a voltage"):
         read_sweeps("time (ms),V (kg)\n0,1\n", "bad.csv", parse)
 
 

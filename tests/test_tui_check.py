@@ -106,7 +106,7 @@ def test_infinite_cable_alpha_current_on_both_sides_passes(tmp_path):
     assert float(np.sort(np.abs(analysis.errors))[-2]) < 1e-12  # every other sample is exact
     # the same file against a cylinder: negative positions are refused with file and line, no crash
     setup, _ = read_check_form({"file": str(run), "time_to_peak": "1 ms"}, "cylinder", "alpha")
-    with pytest.raises(CableTheoryError, match=r"infinite\.csv, line 1.*negative"):
+    with pytest.raises(CableTheoryError, match=r"infinite\.csv:1.*negative"):
         analyse_check(setup)
 
 

@@ -125,17 +125,17 @@ def test_units_by_option_and_assumed_units() -> None:
     [
         ("", FileFormatError, ["bad.csv", "empty file"]),
         ("# only a comment\n", FileFormatError, ["empty file"]),
-        ("time (ms),V at 0 um (mV)\n", FileFormatError, ["line 1", "no data rows"]),
-        ("position (um),voltage (mV)\n0,1\n", FileFormatError, ["line 1", "no time column"]),
-        ("time (ms),position (um)\n1,0\n", FileFormatError, ["line 1", "exactly one position and one voltage"]),
-        ("time (ms),V at 0 um (mV)\n0,1\n0.5,nan\n", FileFormatError, ["line 3", "column 2", "not a finite"]),
-        ("time (ms),V at 0 um (mV)\n0,1\n0.5,\n", FileFormatError, ["line 3", "column 2", "missing value"]),
-        ("time (ms),V at 0 um (mV)\n0,1\n0.5,abc\n", FileFormatError, ["line 3", "column 2", "'abc'"]),
-        ("time (ms),V at 0 um (mV)\n0,1\n1,2\n0.5,3\n", FileFormatError, ["line 4", "column 1", "does not increase"]),
-        ("time (ms),position (um),voltage (mV)\n1,0,1\n1,0,2\n", FileFormatError, ["line 3", "does not increase"]),
-        ("time (mV),V at 0 um (mV)\n0,1\n", UnitKindError, ["line 1", "column 1", "expected a time"]),
-        ("time (ms),V at 0 um (ms)\n0,1\n", UnitKindError, ["line 1", "column 2", "expected a voltage"]),
-        ("time (ms),V at 0 um (mV)\n0,1,2\n", FileFormatError, ["line 2", "3 columns"]),
+        ("time (ms),V at 0 um (mV)\n", FileFormatError, [":1:",  "no data rows"]),
+        ("position (um),voltage (mV)\n0,1\n", FileFormatError, [":1:",  "no time column"]),
+        ("time (ms),position (um)\n1,0\n", FileFormatError, [":1:",  "exactly one position and one voltage"]),
+        ("time (ms),V at 0 um (mV)\n0,1\n0.5,nan\n", FileFormatError, [":3:2",  "not a finite"]),
+        ("time (ms),V at 0 um (mV)\n0,1\n0.5,\n", FileFormatError, [":3:2",  "missing value"]),
+        ("time (ms),V at 0 um (mV)\n0,1\n0.5,abc\n", FileFormatError, [":3:2",  "'abc'"]),
+        ("time (ms),V at 0 um (mV)\n0,1\n1,2\n0.5,3\n", FileFormatError, [":4:1",  "does not increase"]),
+        ("time (ms),position (um),voltage (mV)\n1,0,1\n1,0,2\n", FileFormatError, [":3:",  "does not increase"]),
+        ("time (mV),V at 0 um (mV)\n0,1\n", UnitKindError, [":1:1",  "expected a time"]),
+        ("time (ms),V at 0 um (ms)\n0,1\n", UnitKindError, [":1:2",  "expected a voltage"]),
+        ("time (ms),V at 0 um (mV)\n0,1,2\n", FileFormatError, [":2:",  "3 columns"]),
         ("time (ms),temperature (degC)\n0,1\n", FileFormatError, ["column 2", "not a recording site"]),
         ("time (ms),V at 0 um (mV),V at 0 um (mV)\n0,1,1\n", FileFormatError, ["same position"]),
     ],
@@ -150,13 +150,13 @@ def test_bad_files_name_line_and_column(text: str, error: type, fragments: list[
 
 
 def test_header_unit_contradicting_option_is_an_error() -> None:
-    with pytest.raises(FileFormatError, match=r"line 1, column 1 .*declares 'ms' but --time-unit says 's'"):
+    with pytest.raises(FileFormatError, match=r":1:1 .*declares 'ms' but --time-unit says 's'"):
         vf.read_recording("time (ms),V at 0 um (mV)\n0,1\n", "bad.csv", parse, time_unit="s")
 
 
 def test_positions_beyond_the_cable_are_rejected() -> None:
     rec = vf.read_recording("time (ms),V at 600 um (mV)\n1,1\n", "far.csv", parse)
-    with pytest.raises(FileFormatError, match=r"far.csv, line 2: position .* beyond"):
+    with pytest.raises(FileFormatError, match=r"far.csv:2: position .* beyond"):
         vf.compare(rec, CASE, 1e-6)
 
 

@@ -101,7 +101,7 @@ def _tree_arrays(args: argparse.Namespace
                              "advice treats uniform cylinders only (split each taper into steps)")
         short = np.flatnonzero(tree.lengths <= 0)
         if short.size:
-            raise InputError(f"--tree: {args.tree}, line {int(tree.lines[short[0]])}: piece "
+            raise InputError(f"--tree: {args.tree}:{int(tree.lines[short[0]])}: piece "
                              f"{tree.labels[short[0]]!r} has zero length; advice needs every piece longer "
                              "than zero")
         what = "branches" if isinstance(morphology, Outline) else "SWC pieces"

@@ -114,13 +114,13 @@ def compare(recording: Recording, exact: ExactCase, tolerance: float, *, relativ
     beyond = recording.positions > exact.length * (1 + 1e-9)
     if np.any(beyond):
         k = int(np.argmax(beyond))
-        raise FileFormatError(f"{recording.name}, line {int(recording.lines[k])}: position "
+        raise FileFormatError(f"{recording.name}:{int(recording.lines[k])}: position "
                               f"{recording.positions[k]:.6g} m lies beyond the cable's length "
                               f"{exact.length:.6g} m")
     before = recording.positions < exact.start
     if np.any(before):
         k = int(np.argmax(before))
-        raise FileFormatError(f"{recording.name}, line {int(recording.lines[k])}: position "
+        raise FileFormatError(f"{recording.name}:{int(recording.lines[k])}: position "
                               f"{recording.positions[k]:.6g} m lies before the cable's origin")
     positions = np.minimum(recording.positions, exact.length)
     after = recording.times >= 0

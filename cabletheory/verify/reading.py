@@ -99,15 +99,15 @@ def _cells(raw: str, name: str, line: int, delimiter: str = ",") -> list[str]:
     except csv.Error as exc:
         limit = csv.field_size_limit()
         if "field limit" in str(exc):
-            raise FileFormatError(f"{name}, line {line}: a cell is longer than {limit} characters; expected "
+            raise FileFormatError(f"{name}:{line}: a cell is longer than {limit} characters; expected "
                                   "numbers") from None
-        raise FileFormatError(f"{name}, line {line}: cannot split the line into cells ({exc})") from None
+        raise FileFormatError(f"{name}:{line}: cannot split the line into cells ({exc})") from None
     except StopIteration:  # pragma: no cover - a non-empty line always gives a row
         return []
 
 
 def _where(name: str, line: int, column: int, cell: str) -> str:
-    return f"{name}, line {line}, column {column} ({cell.strip()!r})"
+    return f"{name}:{line}:{column} ({cell.strip()!r})"
 
 
 def _unit_factor(parse: QuantityParser, declared: str | None, option: str | None, kind: str,
@@ -155,7 +155,7 @@ def _table(text: str, name: str) -> tuple[list[str], int, list[tuple[int, list[s
         raise FileFormatError(f"{name}: empty file; expected a header such as "
                               "'time (ms),position (um),voltage (mV)'")
     if not rows:
-        raise FileFormatError(f"{name}, line {header_line}: header but no data rows")
+        raise FileFormatError(f"{name}:{header_line}: header but no data rows")
     return header, header_line, rows, metadata
 
 
@@ -222,7 +222,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
     if _all_numbers(header):  # no header: the first line is data
         rows.insert(0, (header_line, header))
         if len(header) not in (2, 3):
-            raise FileFormatError(f"{name}, line {header_line}: no header and {len(header)} columns; a file "
+            raise FileFormatError(f"{name}:{header_line}: no header and {len(header)} columns; a file "
                                   "without a header has 2 columns (time, voltage) or 3 (time, position, voltage)")
         header = ["time", "voltage"] if len(header) == 2 else ["time", "position", "voltage"]
 
@@ -241,7 +241,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
     volt_cols = [i for i, n in enumerate(names) if n in _VOLTAGE_NAMES]
     if len(time_cols) != 1:
         what = "no time column" if not time_cols else "more than one time column"
-        raise FileFormatError(f"{name}, line {header_line}: {what}; expected a column named 'time' "
+        raise FileFormatError(f"{name}:{header_line}: {what}; expected a column named 'time' "
                               "with its unit, e.g. 'time (ms)'")
     tc = time_cols[0]
     t_factor, t_unit, t_assumed = _unit_factor(parse, units[tc], time_unit, "time",
@@ -254,12 +254,12 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
     for line, cells in rows:
         if len(cells) != len(header) and not (len(cells) > len(header) and not any(c.strip() for c in
                                                                                   cells[len(header):])):
-            raise FileFormatError(f"{name}, line {line}: {len(cells)} columns, but the header "
+            raise FileFormatError(f"{name}:{line}: {len(cells)} columns, but the header "
                                   f"(line {header_line}) has {len(header)}")
 
     if pos_cols:  # ---------------- long layout
         if len(pos_cols) != 1 or len(volt_cols) != 1:
-            raise FileFormatError(f"{name}, line {header_line}: a long table needs exactly one position "
+            raise FileFormatError(f"{name}:{header_line}: a long table needs exactly one position "
                                   "and one voltage column, e.g. 'time (ms),position (um),voltage (mV)'")
         pc, vc = pos_cols[0], volt_cols[0]
         x_factor, x_unit, x_assumed = _unit_factor(parse, units[pc], position_unit, "length",
@@ -290,7 +290,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
     else:  # ------------------------ wide layout
         site_cols = [i for i in range(len(header)) if i != tc]
         if not site_cols:
-            raise FileFormatError(f"{name}, line {header_line}: no voltage columns; expected a long table "
+            raise FileFormatError(f"{name}:{header_line}: no voltage columns; expected a long table "
                                   "'time, position, voltage' or a wide one 'time (ms),V at 0 um (mV),...'")
         positions: list[float] = []
         v_factors: list[float] = []
@@ -335,10 +335,10 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
             unknown = sorted(set(site) - {given_names[col] for col in site_cols})
             if unknown:
                 listed = ", ".join(header[c].strip() for c in site_cols)
-                raise FileFormatError(f"{name}, line {header_line}: no voltage column named {unknown[0]!r} "
+                raise FileFormatError(f"{name}:{header_line}: no voltage column named {unknown[0]!r} "
                                       f"(--column-at); the columns are {listed}")
         if len(set(positions)) != len(positions):
-            raise FileFormatError(f"{name}, line {header_line}: two columns record the same position")
+            raise FileFormatError(f"{name}:{header_line}: two columns record the same position")
         assumed += [k for k, a in (("position", x_assumed), ("voltage", v_assumed)) if a]
         times = np.array([number_at(ln, c, tc) for ln, c in rows]) * t_factor
         bad = np.flatnonzero(np.diff(times) <= 0)
@@ -365,7 +365,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
             at = np.flatnonzero(x == position)
             first = at[np.argmin(t[at])]
             if t[first] > 0:
-                raise FileFormatError(f"{name}, line {int(lines[first])}: the first sample at this site is "
+                raise FileFormatError(f"{name}:{int(lines[first])}: the first sample at this site is "
                                       "after the stimulus onset, so it cannot serve as the resting potential")
             rest[at] = v[first]
         v = v - rest
@@ -427,12 +427,12 @@ def read_sweeps(text: str, name: str, parse: QuantityParser, *, time_unit: str |
     time_cols = [i for i, n in enumerate(names) if n in _TIME_NAMES]
     if len(time_cols) != 1:
         what = "no time column" if not time_cols else "more than one time column"
-        raise FileFormatError(f"{name}, line {header_line}: {what}; expected a column named 'time' "
+        raise FileFormatError(f"{name}:{header_line}: {what}; expected a column named 'time' "
                               "with its unit, e.g. 'time (ms)'")
     tc = time_cols[0]
     sweep_cols = [i for i in range(len(header)) if i != tc]
     if not sweep_cols:
-        raise FileFormatError(f"{name}, line {header_line}: no voltage columns; expected e.g. "
+        raise FileFormatError(f"{name}:{header_line}: no voltage columns; expected e.g. "
                               "'time (ms),sweep 1 (mV),sweep 2 (mV)'")
     t_factor, t_unit, t_assumed = _unit_factor(parse, units[tc], time_unit, "time",
                                                _where(name, header_line, tc + 1, header[tc]), "--time-unit")
@@ -448,7 +448,7 @@ def read_sweeps(text: str, name: str, parse: QuantityParser, *, time_unit: str |
     for line, cells in rows:
         if len(cells) != len(header) and not (len(cells) > len(header) and not any(c.strip() for c in
                                                                                   cells[len(header):])):
-            raise FileFormatError(f"{name}, line {line}: {len(cells)} columns, but the header "
+            raise FileFormatError(f"{name}:{line}: {len(cells)} columns, but the header "
                                   f"(line {header_line}) has {len(header)}")
     times = np.array([_number(name, header, ln, c, tc) for ln, c in rows]) * t_factor
     bad = np.flatnonzero(np.diff(times) <= 0)
