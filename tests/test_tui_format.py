@@ -323,7 +323,7 @@ def test_charging_sealed_cylinder_matches_rall_series():
     assert table["voltage_at_0um"][-1] / final == pytest.approx(0.7198225011, rel=1e-8)
     assert result(report, "time_constant_0") / result(report, "time_constant_1") == pytest.approx(
         10.86960440, rel=1e-8)
-    assert result(report, "error_bound") < 1e-9
+    assert result(report, "largest_error_bound") < 1e-9
     assert {p.x_label for p in report.plots} == {"t (ms)", "X = x/λ"}
 
 
@@ -387,7 +387,7 @@ def test_charging_export_has_both_plots(tmp_path):
     assert "V(X) at the chosen times" in svg
     data = json.loads(export.to_json(report))
     assert data["tables"]["time_course"]["time"]["unit"] == "s"
-    assert data["results"]["error_bound"]["unit"] == "V"
+    assert data["results"]["largest_error_bound"]["unit"] == "V"
 
 
 # -- the ui command ----------------------------------------------------------------------------------

@@ -210,7 +210,7 @@ def charging_report(setup: ChargingSetup, tolerance: float = 1e-10) -> Report:
                                float(v), "voltage"))
     bound = max(over_time.error_bound, over_space.error_bound)
     results += [
-        Row("error_bound", "error bound of every value", bound, "voltage"),
+        Row("largest_error_bound", "error bound of every value", bound, "voltage"),
         Row("method", "method", over_time.method),
     ]
     watch_labels = [f"x = {distance_text(x)}" for x in setup.watch]
