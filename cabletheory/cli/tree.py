@@ -29,7 +29,8 @@ def add_tree_reading_options(parser: argparse.ArgumentParser, *, each_file: bool
     geometry = parser.add_argument_group("geometry")
     geometry.add_argument("--taper", action="store_true",
                           help="SWC: treat each piece between two points as a frustum from its parent point's "
-                               "diameter to its own (default: a cylinder with its own point's diameter)")
+                               "diameter to its own; a branch's first piece keeps its own first diameter "
+                               "(default: a cylinder with its own point's diameter)")
     geometry.add_argument("--types", metavar="LIST",
                           help="SWC: keep only these point types, e.g. '3,4' or 'basal,apical' "
                                "(default: every type except the axon)")

@@ -201,6 +201,32 @@ def _soma_area(points: SwcPoints, soma: NDArray[np.bool_], taper: bool) -> tuple
                                "(lateral area, no end caps), lumped and isopotential at the root")
 
 
+_FIRST_PIECE_NOTE = ("the first piece of a branch (after a branch point, or on the soma) is a cylinder of its "
+                     "first point's diameter, because a branch point's diameter belongs to its parent branch")
+
+
+def _taper_start_diameters(parent_points: IntArray, from_root: NDArray[np.bool_], has_soma: bool, distal: Array,
+                           radii: Array, point_count: int) -> Array:
+    """Proximal diameter (m) of each kept piece read as a frustum (``taper=True``).
+
+    A piece runs from its parent point's diameter to its own when the parent point continues
+    one branch (it has exactly one kept child and is not the soma). Where the parent point is a
+    branch point (two or more kept children) or the soma, the parent point's diameter is the
+    parent branch's own (its end), not the daughters': each daughter's first piece then
+    starts at the daughter's own first diameter and is a cylinder, so that the diameters on
+    the two sides of a branch point are those the reconstruction gives, and a tree whose
+    branches are uniform is the same with frusta as with cylinders. Without a soma the root
+    point is the first point of the one stem it carries (a frustum from its diameter), or, with
+    several stems, a branch point like any other.
+
+    This reading of a branch point's diameter is the package's convention (docs/tree.md,
+    "Reading morphologies"); an SWC file gives one diameter per point and no more.
+    """
+    kept_children = np.bincount(parent_points, minlength=point_count)
+    continues = (kept_children[parent_points] == 1) & ~(from_root & has_soma)
+    return np.where(continues, 2.0 * radii[parent_points], distal)
+
+
 def tree_from_swc(points: SwcPoints, *, taper: bool = False, types: set[int] | None = None,
                   include_axon: bool = False) -> Tree:
     """Turn SWC points into pieces.
@@ -209,7 +235,9 @@ def tree_from_swc(points: SwcPoints, *, taper: bool = False, types: set[int] | N
     ----------
     points : from :func:`cabletheory.morphology.read_swc`
     taper : False (default): the piece between a point and its parent is a cylinder with
-        the point's own diameter. True: a frustum from the parent's diameter to the point's.
+        the point's own diameter. True: a frustum from the parent's diameter to the point's,
+        except the first piece of each branch after a branch point or on the soma, a cylinder
+        with its own point's diameter (:func:`_taper_start_diameters`).
     types : keep only points of these SWC types (default: every type except the axon);
         a point whose parent is dropped is dropped too
     include_axon : keep the axon (type 2) in the default selection
@@ -252,14 +280,11 @@ def tree_from_swc(points: SwcPoints, *, taper: bool = False, types: set[int] | N
     if has_soma:
         delta = np.where(from_root, np.maximum(delta - points.radii[par], 0.0), delta)
     distal = 2.0 * points.radii[idx]
-    proximal = distal.copy()
-    if taper:
-        use_parent = ~(from_root & has_soma)
-        proximal = np.where(use_parent, 2.0 * points.radii[par], distal)
+    proximal = _taper_start_diameters(par, from_root, has_soma, distal, points.radii, n) if taper else distal.copy()
     new_index = np.cumsum(keep_arr) - 1
     seg_parents = np.where(from_root, -1, new_index[par]).astype(np.int64)
-    notes = [("pieces: each is a frustum from its parent point's diameter to its own" if taper else
-              "pieces: each is a cylinder with its own point's diameter (use frusta for tapers)")]
+    notes = [(f"pieces: each is a frustum from its parent point's diameter to its own; {_FIRST_PIECE_NOTE}"
+              if taper else "pieces: each is a cylinder with its own point's diameter (use frusta for tapers)")]
     if has_soma:
         area, convention, soma_note = _soma_area(points, soma_arr, taper)
         notes.append(soma_note)
