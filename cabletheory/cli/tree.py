@@ -18,6 +18,7 @@ from ..output import dump_json, quantity, table, write_atomically
 from ..tree import Tolerances, TreeReport, analyse_tree, build_tree, describe_tips, sample_profile
 from ..units import format_quantity, parse_quantity
 from .common import add_membrane_options, read_membrane, whole_number
+from .tree_views import add_view_options, chosen_view
 
 _TYPE_NAMES = {"soma": 1, "axon": 2, "basal": 3, "apical": 4}
 _DEFAULT_TOLERANCE = Tolerances()
@@ -66,10 +67,14 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                      help="rows of the equivalent-cable table (default 12)")
     out.add_argument("--show", type=int, default=10, metavar="N",
                      help="departures listed in the text report (default 10; --json lists all)")
-    out.add_argument("--plot", metavar="FILE", help="also draw the equivalent-cable profile (.png or .svg)")
+    out.add_argument("--plot", metavar="FILE",
+                     help="also draw the report: the equivalent-cable profile (.png or .svg); with --map the tree "
+                          "coloured by the map, with --frequencies the impedance, with --reduction-cost the two "
+                          "soma responses (.png, .svg or .pdf)")
     out.add_argument("--digits", type=whole_number(2, 15), default=4, metavar="N",
                      help="significant digits in the text report (default 4)")
     out.add_argument("--json", action="store_true", help="print one JSON object with SI values")
+    add_view_options(parser)
     parser.set_defaults(run=run)
 
 
@@ -102,7 +107,8 @@ def run(args: argparse.Namespace) -> int:
         raise InputError(f"--bins: {args.bins} is out of range; expected 1 to 1000")
     if args.show < 0:
         raise InputError(f"--show: {args.show} is negative")
-    if args.plot is not None and Path(args.plot).suffix.lower() not in (".png", ".svg"):
+    view = chosen_view(args)
+    if view is None and args.plot is not None and Path(args.plot).suffix.lower() not in (".png", ".svg"):
         raise InputError(f"--plot: {args.plot!r} must end in .png or .svg")
     types = parse_types(args.types) if args.types is not None else None
     if types is not None and args.axon:
@@ -110,6 +116,11 @@ def run(args: argparse.Namespace) -> int:
     tip_conductance = read_end(args.tips, "--tips") if args.tips is not None else None
     morphology = read_morphology(args.file, read_outline_value)
     tree = build_tree(morphology, taper=args.taper, types=types, include_axon=args.axon)
+    if view is not None:
+        from .tree_views import run_view
+
+        print(run_view(view, args, tree, morphology, tip_conductance, (rm, ri, cm)))
+        return 0
     report = analyse_tree(tree, rm, ri, cm, tolerances=tolerances, tip_conductance=tip_conductance)
     fmt = "outline" if isinstance(morphology, Outline) else "SWC"
     if args.plot is not None:
