@@ -130,3 +130,62 @@ def test_python_notebook_numbers_match_outside_values():
     ends = [line.split(":", 1)[1] for line in text.splitlines() if line.startswith(("at     0 µm", "at   500 µm"))]
     assert len(ends) == 2
     assert ends[0] == ends[1]
+
+
+def _sr3_steady_state():
+    """Input resistance at the soma and the soma-to-tip attenuations of the invented SR-3 outline
+    (worked/tree_in_time), computed here from Rall's steady-state cylinder formulas (Rall 1959
+    [Rall1959]; Jack, Noble & Tsien 1975 [JackNobleTsien1975]): a sealed-or-loaded cylinder of
+    characteristic conductance G∞ = (π/2) d^3/2 / sqrt(Rm Ri) and L = ℓ/λ, λ = sqrt(Rm d / 4 Ri),
+    has G_in = G∞ (G_L + G∞ tanh L) / (G∞ + G_L tanh L) and V_near/V_far = cosh L + (G_L/G∞) sinh L."""
+    import math
+
+    rm, ri = 1.5, 1.8  # Ω·m², Ω·m
+    branches = {"trunk": (None, 250e-6, 3e-6), "oblique": ("trunk", 120e-6, 0.8e-6),
+                "tuft": ("trunk", 400e-6, 2.2e-6), "tuft.a": ("tuft", 250e-6, 1.2e-6),
+                "tuft.b": ("tuft", 450e-6, 1.4e-6)}
+
+    def g_inf(d):
+        return math.pi / 2 * d**1.5 / math.sqrt(rm * ri)
+
+    def electrotonic(length, d):
+        return length / math.sqrt(rm * d / (4 * ri))
+
+    def load(name):  # conductance at the distal end of ``name``: its children's inputs
+        return sum(g_in(child) for child, (parent, _, _) in branches.items() if parent == name)
+
+    def g_in(name):
+        _, length, d = branches[name]
+        g, gl, big_l = g_inf(d), load(name), electrotonic(length, d)
+        return g * (gl + g * math.tanh(big_l)) / (g + gl * math.tanh(big_l))
+
+    def ratio(name):  # V at the proximal end / V at the distal end
+        _, length, d = branches[name]
+        big_l = electrotonic(length, d)
+        return math.cosh(big_l) + load(name) / g_inf(d) * math.sinh(big_l)
+
+    soma = math.pi * 18e-6**2 / rm
+    resistance = 1 / (soma + g_in("trunk"))
+    to_tip = {tip: ratio("trunk") * ratio("tuft") * ratio(tip) for tip in ("tuft.a", "tuft.b")}
+    to_tip["oblique"] = ratio("trunk") * ratio("oblique")
+    return resistance, to_tip
+
+
+def test_tree_in_time_example_matches_rall_steady_state():
+    import os
+
+    resistance, to_tip = _sr3_steady_state()
+    cwd = os.getcwd()
+    os.chdir(ROOT)
+    try:
+        _, data = _json(_load_argv("tree_in_time"))
+    finally:
+        os.chdir(cwd)
+    assert data["input_impedance"]["value"][0] == pytest.approx(resistance, rel=1e-10)
+    for tip, attenuation in to_tip.items():
+        k = data["points"].index(tip)
+        assert data["attenuation_from_soma"]["value"][k] == pytest.approx(attenuation, rel=1e-10)
+    text = (ROOT / "worked" / "tree_in_time" / "expected.txt").read_text(encoding="utf-8")
+    assert f"input resistance at the soma       {resistance / 1e6:.1f} MΩ" in text
+    # sealed tips, uniform membrane: the slowest time constant is τm = Rm Cm = 15 ms (Rall 1969 [Rall1969])
+    assert "  0  15.00 ms   1.000" in text
