@@ -238,13 +238,14 @@ def draw_reduction_cost(times: Array, tree_voltage: Array, reduced_voltage: Arra
     reduced_mv = np.asarray(reduced_voltage, dtype=float) * 1e3
     fig = Figure(figsize=(9.0, 3.8), layout="constrained")
     left, right = fig.subplots(1, 2)
-    left.plot(t, tree_mv, color="#1b4f72", linewidth=2.0, label="whole tree (exact)")
+    dots = "." if t.size <= 40 else None  # a coarse grid shows its samples
+    left.plot(t, tree_mv, color="#1b4f72", linewidth=2.0, marker=dots, label="whole tree (exact)")
     left.plot(t, reduced_mv, color="#d35400", linewidth=1.4, linestyle="--", label=reduced_model)
     left.set_xlabel("time (ms)")
     left.set_ylabel("soma voltage from rest (mV)")
     left.legend(loc="best", fontsize="small", frameon=False)
     left.set_title("the same stimulus at the soma", fontsize="medium")
-    right.plot(t, reduced_mv - tree_mv, color="#7d3c98", linewidth=1.6)
+    right.plot(t, reduced_mv - tree_mv, color="#7d3c98", linewidth=1.6, marker=dots)
     right.axhline(0.0, color="#888888", linewidth=0.8)
     if math.isfinite(when):
         k = int(np.argmin(np.abs(t - when * 1e3)))
