@@ -24,6 +24,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from functools import cache, lru_cache
 from importlib import resources
+from types import ModuleType
 from typing import TYPE_CHECKING
 
 from .errors import ImplausibleValueWarning, InputError, UnitKindError
@@ -149,6 +150,46 @@ _TOKEN = re.compile(r"\s*(?:(?P<name>[A-Za-z_%°][A-Za-z_0-9]*)|(?P<op>\*\*|\*|/
                     r"|(?P<num>[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?))")
 _PLAIN_SI = {"ohm*m**2", "ohm*m", "F/m**2", "S/m**2", "m**2", "dimensionless", "rad"}
 
+# What pint computes for the units people usually write, written out so that bare numbers and
+# these spellings are read, and every result printed, without importing pint (about a third of a
+# second at start-up); any other unit text goes to pint. tests/test_units_without_pint.py checks
+# every entry, and format_quantity's output, against the pint registry.
+# unit text (as _normalise writes it) -> (SI unit, factor to it)
+_KNOWN_UNITS: dict[str, tuple[str, float]] = {
+    "kohm*cm**2": ("ohm*m**2", 0.1), "ohm*cm**2": ("ohm*m**2", 0.0001), "Mohm*cm**2": ("ohm*m**2", 100.0),
+    "ohm*m**2": ("ohm*m**2", 1.0),
+    "ohm*cm": ("ohm*m", 0.01), "kohm*cm": ("ohm*m", 10.0), "ohm*m": ("ohm*m", 1.0), "ohm*mm": ("ohm*m", 0.001),
+    "uF/cm**2": ("F/m**2", 0.01), "fF/um**2": ("F/m**2", 0.0010000000000000002), "F/m**2": ("F/m**2", 1.0),
+    "nm": ("m", 1e-09), "um": ("m", 1e-06), "micron": ("m", 1e-06), "mm": ("m", 0.001), "cm": ("m", 0.01),
+    "m": ("m", 1.0),
+    "pS": ("S", 1e-12), "nS": ("S", 1e-09), "uS": ("S", 1e-06), "mS": ("S", 0.001), "S": ("S", 1.0),
+    "fA": ("A", 1e-15), "pA": ("A", 1e-12), "nA": ("A", 1e-09), "uA": ("A", 1e-06), "mA": ("A", 0.001),
+    "A": ("A", 1.0),
+    "uV": ("V", 1e-06), "mV": ("V", 0.001), "V": ("V", 1.0),
+    "ns": ("s", 1e-09), "us": ("s", 1e-06), "ms": ("s", 0.001), "s": ("s", 1.0), "min": ("s", 60.0),
+    "mHz": ("Hz", 0.001), "Hz": ("Hz", 1.0), "kHz": ("Hz", 1000.0),
+    "ohm": ("ohm", 1.0), "kohm": ("ohm", 1000.0), "Mohm": ("ohm", 1000000.0), "Gohm": ("ohm", 1000000000.0),
+    "fF": ("F", 1e-15), "pF": ("F", 1e-12), "nF": ("F", 1e-09), "uF": ("F", 1e-06), "F": ("F", 1.0),
+    "um**2": ("m**2", 1e-12), "mm**2": ("m**2", 1e-06), "cm**2": ("m**2", 0.0001), "m**2": ("m**2", 1.0),
+    "pS/um**2": ("S/m**2", 1.0), "mS/cm**2": ("S/m**2", 10.0), "S/cm**2": ("S/m**2", 10000.0),
+    "S/m**2": ("S/m**2", 1.0),
+    "rad": ("rad", 1.0), "degree": ("rad", 0.017453292519943295), "deg": ("rad", 0.017453292519943295),
+}
+# SI unit -> display unit of the kinds shown in the field's customary unit
+_DISPLAY_FACTOR: dict[tuple[str, str], float] = {
+    ("ohm*m**2", "kohm*cm**2"): 10.0, ("ohm*m", "ohm*cm"): 100.0, ("F/m**2", "uF/cm**2"): 100.0,
+    ("m**2", "um**2"): 1000000000000.0001, ("S/m**2", "mS/cm**2"): 0.1, ("rad", "degree"): 57.29577951308232,
+}
+# SI units printed with a compact decimal prefix, and their symbols (pint's '~P' format)
+_UNIT_SYMBOL = {"m": "m", "S": "S", "A": "A", "V": "V", "s": "s", "Hz": "Hz", "ohm": "Ω", "F": "F"}
+# the decimal prefixes of data/units.txt whose power of ten is a multiple of 3, and their symbols
+_PREFIX_SYMBOL = {-30: "q", -27: "r", -24: "y", -21: "z", -18: "a", -15: "f", -12: "p", -9: "n", -6: "µ",
+                  -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T", 15: "P", 18: "E", 21: "Z", 24: "Y",
+                  27: "R", 30: "Q"}
+# how a bare number's customary unit is named in a warning (pint's '~P' format of the unit)
+_CUSTOMARY_SYMBOL = {"um": "µm", "nS": "nS", "pA": "pA", "mV": "mV", "ms": "ms", "Hz": "Hz", "Mohm": "MΩ",
+                     "pF": "pF", "dimensionless": "", "rad": "rad"}
+
 
 @cache
 def registry() -> pint.UnitRegistry:
@@ -157,12 +198,40 @@ def registry() -> pint.UnitRegistry:
     The definitions are few, so building the registry is fast and no on-disk cache is used: no
     file that another user could write is ever loaded, and a damaged or unwritable cache folder
     cannot break a run.
+
+    pint is imported with Dask hidden from it (:func:`_import_pint`): pint imports Dask whenever
+    Dask is installed (it is, with the ``cluster`` extra), which doubles pint's import time, and
+    this package never hands pint a Dask array.
     """
-    import pint
+    pint_module = _import_pint()
 
     with resources.as_file(resources.files("cabletheory") / "data" / "units.txt") as definitions:
-        ureg: pint.UnitRegistry = pint.UnitRegistry(str(definitions), cache_folder=None)
+        ureg: pint.UnitRegistry = pint_module.UnitRegistry(str(definitions), cache_folder=None)
     return ureg
+
+
+def _import_pint() -> ModuleType:
+    """``import pint``, without letting pint import Dask (about 0.1 s at start-up).
+
+    pint checks ``importlib.util.find_spec("dask")`` when it is first imported and then imports
+    ``dask.base``; a ``None`` entry in ``sys.modules`` makes that check answer "not installed". The
+    entry is removed at once, so Dask itself stays importable, and nothing changes when Dask or
+    pint was imported before. The only effect: pint quantities made in this process do not wrap
+    Dask arrays, which this package never gives them.
+    """
+    import sys
+
+    if "pint" in sys.modules or "dask" in sys.modules:
+        import pint
+
+        return pint
+    sys.modules["dask"] = None  # type: ignore[assignment]
+    try:
+        import pint
+    finally:
+        if sys.modules.get("dask", 0) is None:
+            del sys.modules["dask"]
+    return pint
 
 
 def _normalise(text: str) -> str:
@@ -333,7 +402,11 @@ def _check_unit_text(unit: str, raw: str, k: Kind, field: str) -> str:
 
 def _convert(magnitude: float, unit: str, raw: str, k: Kind, field: str) -> float:
     if not unit:
-        return magnitude * _si_factor(k.customary, k.si) if math.isfinite(magnitude) else magnitude
+        if not math.isfinite(magnitude):
+            return magnitude
+        if k.si == "K":  # a bare temperature is in °C: an offset, not a factor
+            return magnitude + 273.15
+        return magnitude * _si_factor(k.customary, k.si)
     text = _check_unit_text(unit, raw, k, field)
     factor = _unit_factor(text, k, raw, field)
     if not math.isfinite(magnitude):
@@ -358,9 +431,11 @@ def _unit_factor(text: str, k: Kind, raw: str, field: str) -> float:
 @lru_cache(maxsize=512)
 def _factor_or_reason(text: str, si: str) -> float | tuple[str, str]:
     """(cached) SI factor of checked unit text, or (reason, detail) when it cannot convert."""
-    import pint
-
+    known = _KNOWN_UNITS.get(text)
+    if known is not None and known[0] == si:  # a usual spelling ('2 um', '20 kohm*cm**2'): no pint needed
+        return known[1]
     ureg = registry()
+    pint = _import_pint()
     try:
         parsed = ureg.parse_expression(text)
     except pint.UndefinedUnitError as exc:
@@ -398,6 +473,9 @@ def _describe_dimension(quantity: pint.Quantity) -> str:
 def _si_factor(unit: str, si: str) -> float:
     if unit == si:
         return 1.0
+    known = _KNOWN_UNITS.get(unit)
+    if known is not None and known[0] == si:
+        return known[1]
     return float(registry().Quantity(1.0, unit).to(si).magnitude)
 
 
@@ -439,7 +517,8 @@ def _warn_if_implausible(value: float, kind: str, k: Kind, field: str, raw: str)
     if reason is None:
         return
     if _NUMBER.match(raw):
-        label = _CUSTOMARY_LABELS.get(kind) or f"{registry().Unit(k.customary):~P}"
+        label = _CUSTOMARY_LABELS.get(kind) or _CUSTOMARY_SYMBOL.get(k.customary) \
+            or f"{registry().Unit(k.customary):~P}"
         shown = f"{_shown(raw)} (read as {raw} {label}: bare numbers are in {label})"
     else:
         shown = _shown(raw)
@@ -530,18 +609,34 @@ def format_quantity(value: float, kind: str, digits: int = 4) -> str:
         return f"{value}" if k.si == "dimensionless" else f"{value} {_plain_label(k)}"
     if k.si == "dimensionless":
         return _significant(value, digits)
-    ureg = registry()
     if k.display is not None:
-        magnitude = ureg.Quantity(value, k.si).to(k.display).magnitude
+        factor = _DISPLAY_FACTOR.get((k.si, k.display))
+        magnitude = (value * factor if factor is not None
+                     else registry().Quantity(value, k.si).to(k.display).magnitude)
         return f"{_significant(magnitude, digits)} {k.display_label}"
     if value == 0:
         return f"0 {_plain_label(k)}"
-    compact = ureg.Quantity(value, k.si).to_compact()
-    return f"{_significant(compact.magnitude, digits)} {compact.units:~P}"
+    symbol = _UNIT_SYMBOL.get(k.si)
+    if symbol is None:
+        compact = registry().Quantity(value, k.si).to_compact()
+        return f"{_significant(compact.magnitude, digits)} {compact.units:~P}"
+    magnitude, prefix = _compact(value)
+    return f"{_significant(magnitude, digits)} {prefix}{symbol}"
+
+
+def _compact(value: float) -> tuple[float, str]:
+    """(magnitude, prefix symbol) of a finite, non-zero SI value, as pint's ``to_compact`` gives
+    them for a unit of power 1: the prefix whose power of ten, a multiple of 3 from -30 to 30, is the
+    largest at most the value's, and the value times the conversion factor pint computes
+    (``1 / 1e{power}``)."""
+    power = min(max(math.floor(math.log10(abs(value)) / 3) * 3, -30), 30)
+    if power == 0:
+        return value, ""
+    return value * (1.0 / float(f"1e{power}")), _PREFIX_SYMBOL[power]
 
 
 def _plain_label(k: Kind) -> str:
-    return k.display_label or f"{registry().Unit(k.si):~P}"
+    return k.display_label or _UNIT_SYMBOL.get(k.si) or f"{registry().Unit(k.si):~P}"
 
 
 def _significant(x: float, digits: int) -> str:
