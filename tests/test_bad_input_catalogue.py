@@ -126,6 +126,14 @@ FILES: dict[str, str | bytes] = {
     "dx_word.csv": "# dx = plenty\n" + _HEADER + "0,0,0\n1,0,0\n",
     "ok.csv": _HEADER + "0,0,0\n0.5,0.1,0.01\n1,0.2,0.02\n",
     "ok2.csv": _HEADER + "0,0,0\n0.5,0.1,0.01\n1,0.2,0.02\n",
+    # --- simulator output recorded at tree points (compare --morphology, on {swc})
+    "tree_unknown.csv": "time (ms),V@soma (mV),V@9999 (mV)\n0,0,0\n",
+    "tree_beyond.csv": "time (ms),V@branch 30 +300 um (mV)\n0,0\n",
+    "tree_inside.csv": "time (ms),V@branch 20 +5 um (mV)\n0,0\n",
+    "tree_twice.csv": "time (ms),V@soma (mV),V@1 (mV)\n0,0,0\n",
+    "tree_distance.csv": "time (ms),V@250 um (mV)\n0,0\n",
+    "tree_long.csv": "time (ms),point,voltage (mV)\n0,soma,0\n0,12345,0\n",
+    "tree_free.csv": "time (ms),v_a,v_b\n0,0,0\n",
     # --- tree outlines (tree)
     "bad_length.outline": "trunk length=2,3um diameter=4um\n",
     "tower.outline": "trunk length=9^9^9um diameter=4um\n",

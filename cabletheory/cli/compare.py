@@ -25,6 +25,7 @@ from .reference import (
     parser_for_quantities,
     read_run,
 )
+from .tree_charge import add_tree_options
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
@@ -40,6 +41,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     )
     parser.add_argument("runs", nargs="+", metavar="RUN.csv", help="simulator output files, coarse to fine")
     add_case_options(parser)
+    add_tree_options(parser)
     add_exact_truncation(parser)
     add_layout_options(parser)
     check = parser.add_argument_group("verdict and convergence")
@@ -57,7 +59,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                        help="the simulator's time scheme, for the expected orders (default crank-nicolson)")
     parser.add_argument("--report", metavar="FILE", help="also write the results as JSON to FILE (atomically)")
     parser.add_argument("--json", action="store_true", help="print JSON instead of text")
-    parser.set_defaults(run=run)
+    parser.set_defaults(run=run, positions=None)
 
 
 def _list(text: str | None, kind: str, field: str, count: int) -> np.ndarray:
@@ -71,11 +73,16 @@ def _list(text: str | None, kind: str, field: str, count: int) -> np.ndarray:
 
 def run(args: argparse.Namespace) -> int:
     tolerance, relative = read_pass_within(args.pass_within, "--pass-within")
-    cell_case, case = exact_from_options(args)
-    recordings = [read_run(path, args) for path in args.runs]
-    for recording in recordings:
-        check_recorded_positions(cell_case, recording)
-    results = [compare(r, case, tolerance, relative=relative, skip_onset=args.skip_onset_sample) for r in recordings]
+    points: list[tuple[str, ...]] | None = None
+    if args.morphology is not None:
+        case, recordings, results, points = _compare_tree(args, tolerance, relative)
+    else:
+        cell_case, case = exact_from_options(args)
+        recordings = [read_run(path, args) for path in args.runs]
+        for recording in recordings:
+            check_recorded_positions(cell_case, recording)
+        results = [compare(r, case, tolerance, relative=relative, skip_onset=args.skip_onset_sample)
+                   for r in recordings]
     order: Convergence | None = None
     if len(recordings) > 1:
         file_dx, file_dt = run_spacings(recordings, parser_for_quantities)
@@ -86,18 +93,85 @@ def run(args: argparse.Namespace) -> int:
         if np.any(np.isfinite(dx)) or np.any(np.isfinite(dt)):
             order = convergence([c.max_abs_error for c in results], dx, dt, args.scheme)
     if args.report:
-        write_atomically(args.report, dump_json(as_json(case, recordings, results, order)), protected=args.runs)
+        write_atomically(args.report, dump_json(as_json(case, recordings, results, order, points)),
+                         protected=[*args.runs, *([args.morphology] if args.morphology else [])])
     if args.json:
-        print(dump_json(as_json(case, recordings, results, order)))
+        print(dump_json(as_json(case, recordings, results, order, points)))
     else:
-        print(as_text(case, recordings, results, order))
+        print(as_text(case, recordings, results, order, points))
     return 0 if all(c.passed for c in results) else 1
 
 
+def read_column_points(text: str) -> str | dict[str, str]:
+    """``--column-at`` on a tree: one site ('412', 'branch 443 +25 um') for a file's single voltage
+    column, or column names mapped to sites ('v_soma=soma, v_tip=443'; names in any case)."""
+    if "=" not in text:
+        return text.strip()
+    mapping: dict[str, str] = {}
+    for item in text.split(","):
+        column, sep, where = item.partition("=")
+        column = column.strip().lower()
+        if not sep or not column or not where.strip():
+            raise InputError(f"--column-at: {item.strip()!r} is not NAME=POINT; expected e.g. 'v_soma=soma, "
+                             "v_tip=443'")
+        if column in mapping:
+            raise InputError(f"--column-at: column {column!r} is given twice")
+        mapping[column] = where.strip()
+    return mapping
+
+
+def _compare_tree(args: argparse.Namespace, tolerance: float, relative: bool
+                  ) -> tuple[ExactCase, list[Recording], list[Comparison], list[tuple[str, ...]]]:
+    """``compare --morphology``: every run read at tree points (docs/verify.md, "On a whole tree") and
+    compared with the exact solution of the tree case at exactly its points."""
+    from ..inputs import read_rest
+    from ..textfile import read_input_text
+    from ..units import parse_quantity
+    from ..verify.exact import tree_exact_case
+    from ..verify.tree_reading import read_tree_recording
+    from .common import _truncation
+    from .tree_charge import read_tree_case
+
+    tree_case = read_tree_case(args)
+    value, relative_truncation = _truncation(args.truncation)
+    if relative_truncation and not 0 < value < 1:
+        raise InputError(f"--truncation: {args.truncation.strip()!r} must lie between 0 and 1 (or be a voltage)")
+    rest: float | str = read_rest(args.rest, "--rest") if args.rest else 0.0
+    onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) if args.onset else 0.0
+    columns = read_column_points(args.column_at) if args.column_at else None
+    recordings, results, points = [], [], []
+    case: ExactCase | None = None
+    for path in args.runs:
+        text = read_input_text(path, "simulator output")
+        read = read_tree_recording(text, path, parser_for_quantities, tree_case.cell.tree, columns=columns,
+                                   time_unit=args.time_unit, distance_unit=args.position_unit,
+                                   voltage_unit=args.voltage_unit, resting_potential=rest, time_offset=onset)
+        case = tree_exact_case(tree_case, read.sites, value, relative=relative_truncation)
+        recordings.append(read.recording)
+        results.append(compare(read.recording, case, tolerance, relative=relative, skip_onset=args.skip_onset_sample))
+        points.append(read.labels)
+    assert case is not None  # argparse asks for at least one run
+    return case, recordings, results, points
+
+
+def _point(labels: tuple[str, ...], number: float) -> str:
+    return labels[int(number)]
+
+
+def _on_tree(label: str) -> str:
+    """A tree point in words: 'the soma', 'point 412', 'branch 443 +25 um'."""
+    if label in ("soma", "root"):
+        return f"the {label}"
+    return label if label.startswith("branch ") else f"point {label}"
+
+
 def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparison],
-            order: Convergence | None) -> dict:
+            order: Convergence | None, points: list[tuple[str, ...]] | None = None) -> dict:
+    """The JSON report; on a tree (``points``: the labels of each run's sites) every position is the
+    point's text in the column syntax instead of a length."""
     runs = []
-    for r, c in zip(recordings, results, strict=True):
+    for k, (r, c) in enumerate(zip(recordings, results, strict=True)):
+        labels = points[k] if points is not None else None
         runs.append({
             "file": r.name,
             "layout": r.layout,
@@ -111,10 +185,12 @@ def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparis
             "max_rel_error": c.max_rel_error if math.isfinite(c.max_rel_error) else None,
             "rms_rel_error": c.rms_rel_error if math.isfinite(c.rms_rel_error) else None,
             "peak_exact_voltage": quantity(c.scale, "voltage"),
-            "worst": {"time": quantity(c.worst_time, "time"), "position": quantity(c.worst_position, "length"),
+            "worst": {"time": quantity(c.worst_time, "time"),
+                      "position": quantity(c.worst_position, "length") if labels is None
+                      else _point(labels, c.worst_position),
                       "line": c.worst_line, "simulated": quantity(c.worst_simulated, "voltage"),
                       "exact": quantity(c.worst_exact, "voltage")},
-            "sites": quantity(c.sites, "length"),
+            "sites": quantity(c.sites, "length") if labels is None else [_point(labels, x) for x in c.sites],
             "site_max_abs_error": quantity(c.site_max_abs_error, "voltage"),
             "pass_within": c.tolerance if c.relative else quantity(c.tolerance, "voltage"),
             "pass_within_is_relative": c.relative,
@@ -163,15 +239,17 @@ def _v(x: float) -> str:
 
 
 def as_text(case: ExactCase, recordings: list[Recording], results: list[Comparison],
-            order: Convergence | None) -> str:
+            order: Convergence | None, points: list[tuple[str, ...]] | None = None) -> str:
     lines = [f"Exact case: {case.description}", f"  method: {case.method}"]
-    for r, c in zip(recordings, results, strict=True):
+    for k, (r, c) in enumerate(zip(recordings, results, strict=True)):
         sites = r.sites
+        labels = points[k] if points is not None else None
         assumed = f" (assumed: {', '.join(r.assumed)})" if r.assumed else ""
+        where = (f"{sites.size} site(s); units time {r.units['time']}, position {r.units['position']}"
+                 if labels is None else f"{sites.size} tree point(s); units time {r.units['time']}")
         lines += [
             "",
-            f"{r.name}: {r.layout} table, {c.samples} samples at {sites.size} site(s); units time "
-            f"{r.units['time']}, position {r.units['position']}, voltage {r.units['voltage']}{assumed}",
+            f"{r.name}: {r.layout} table, {c.samples} samples at {where}, voltage {r.units['voltage']}{assumed}",
         ]
         if r.resting_potential or r.time_offset:
             lines.append(f"  subtracted: resting potential {_v(r.resting_potential)}, "
@@ -179,7 +257,9 @@ def as_text(case: ExactCase, recordings: list[Recording], results: list[Comparis
         pct = tuple(f"{value * 100:.3g} %" if math.isfinite(value) else "n/a (the exact voltage is 0 at every sample)"
                     for value in (c.max_rel_error, c.rms_rel_error))
         lines += [
-            f"  max error  {_v(c.max_abs_error)} at {_x(c.worst_position)}, {_when(c.worst_time, r.time_offset)}"
+            f"  max error  {_v(c.max_abs_error)} at "
+            f"{_x(c.worst_position) if labels is None else _on_tree(_point(labels, c.worst_position))}, "
+            f"{_when(c.worst_time, r.time_offset)}"
             f"line {c.worst_line}: simulated "
             f"{_v(c.worst_simulated)}, exact {_v(c.worst_exact)})",
             f"  RMS error  {_v(c.rms_abs_error)}",

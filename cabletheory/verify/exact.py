@@ -12,6 +12,7 @@ verdict. A simulator with active conductances is outside what this package can c
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -19,6 +20,8 @@ from numpy.typing import ArrayLike, NDArray
 from .. import cable as cb
 from ..case import Case
 from ..errors import ConvergenceError, InputError
+from ..tree_case import TreeCase
+from ..tree_laplace import Site
 from .comparison import ExactCase
 
 __all__ = [
@@ -26,6 +29,7 @@ __all__ = [
     "sealed_step_case",
     "sealed_step_voltage",
     "transient_case",
+    "tree_exact_case",
 ]
 
 Array = NDArray[np.float64]
@@ -252,3 +256,63 @@ def exact_case(case: Case, tolerance: float = 1e-12) -> ExactCase:
             and cylinder.end_conductance == 0 and case.shape == "step" and case.stimulus.position == 0):
         return sealed_step_case(cylinder, case.amplitude, tolerance)
     return transient_case(case, tolerance)
+
+
+# ======================================================================================
+# a case on a whole tree, at any of its sites
+# ======================================================================================
+def tree_exact_case(case: TreeCase, sites: Sequence[Site], tolerance: float = 1e-12, *,
+                    relative: bool = False) -> ExactCase:
+    """A :class:`~cabletheory.tree_case.TreeCase` as an :class:`ExactCase` over the tree ``sites``.
+
+    ``evaluate(times, positions)`` takes as positions the numbers 0, 1, 2 ... of ``sites`` (as
+    :func:`cabletheory.verify.tree_reading.read_tree_recording` numbers a file's points) and returns
+    the exact voltage there (the Laplace-domain solution of the tree inverted on a contour,
+    :func:`cabletheory.tree_time.tree_response`) with its error estimate.
+
+    Parameters
+    ----------
+    case : the tree, its stimulus and its stimulus point
+    sites : the tree sites the positions stand for
+    tolerance : error allowed in each exact value: V, or (``relative=True``) a fraction of the
+        case's reference voltage (the final voltage at the stimulus site for a step of the same
+        amplitude, or the clamp step); kept within [1e-14, 1e-2] of that reference
+
+    References
+    ----------
+    Holmes WR (1986) Biol. Cybern. 55:115 [Holmes1986]; Weideman JAC & Trefethen LN (2007)
+    Math. Comp. 76:1341 [WeidemanTrefethen2007].
+    """
+    from ..tree_time import tree_response
+
+    if not (math.isfinite(tolerance) and tolerance > 0):
+        raise InputError(f"exact tolerance must be positive, got {tolerance!r}")
+    sites = tuple(sites)
+    if not sites:
+        raise InputError("give at least one tree site")
+    probe = tree_response(case.cell, case.stimulus, [0.0], case.stimulus_site, sites[:1])
+    reference = probe.reference_voltage
+    fraction = tolerance if relative else (tolerance / reference if reference > 0 else 1e-10)
+    fraction = min(max(fraction, 1e-14), 1e-2)
+    params = dict(case.parameters())
+    params["exact_tolerance"] = (fraction * reference, "V")
+
+    def evaluate(times: Array, positions: Array) -> tuple[Array, Array]:
+        t = np.asarray(times, dtype=float).ravel()
+        x = np.asarray(positions, dtype=float).ravel()
+        voltage = np.zeros(t.size)
+        bound = np.zeros(t.size)
+        if t.size == 0:
+            return voltage, bound
+        unique_t, ti = np.unique(t, return_inverse=True)
+        unique_x, xi = np.unique(x, return_inverse=True)
+        at = [sites[int(k)] for k in unique_x]
+        r = tree_response(case.cell, case.stimulus, unique_t, case.stimulus_site, at, tolerance=fraction)
+        voltage[:] = r.voltage[ti, xi]
+        bound[:] = r.errors[ti, xi]
+        return voltage.reshape(np.shape(times)), bound.reshape(np.shape(times))
+
+    method = (f"Laplace-domain solution of the tree (Holmes 1986) inverted on a hyperbolic contour (Weideman & "
+              f"Trefethen 2007); estimated error of each value <= {fraction * reference:.2g} V")
+    return ExactCase(evaluate=evaluate, description=case.describe(), method=method, parameters=params,
+                     stimulus_shape=case.shape)

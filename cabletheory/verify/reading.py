@@ -25,6 +25,7 @@ from ..errors import FileFormatError, InputError
 __all__ = [
     "QuantityParser",
     "Recording",
+    "SiteReader",
     "Sweeps",
     "read_recording",
     "read_sweeps",
@@ -36,13 +37,16 @@ Array = NDArray[np.float64]
 # The command line passes a function built on units.parse_quantity; ``where`` names file,
 # line and column so that its error messages do too.
 QuantityParser = Callable[[str, str, str], float]
+# (text, where) -> the number standing for a site that is not a distance (a tree point); see
+# read_recording's ``read_site``
+SiteReader = Callable[[str, str], float]
 
 
 # ======================================================================================
 # reading a simulator's output
 # ======================================================================================
 _TIME_NAMES = {"time", "t"}
-_POSITION_NAMES = {"position", "distance", "x", "site", "location"}
+_POSITION_NAMES = {"position", "distance", "x", "site", "location", "point"}
 _VOLTAGE_NAMES = {"voltage", "v", "vm", "v_m", "membrane potential", "potential"}
 _CELL = re.compile(r"^\s*(?P<name>.*?)\s*(?:[\(\[]\s*(?P<unit>[^\)\]]*?)\s*[\)\]])?\s*$")
 _SITE = re.compile(r"^(?:(?:v|vm|voltage)\s*(?:at|@)\s*|(?:x|site)\s*=\s*|@\s*)?"
@@ -175,6 +179,31 @@ def _number(name: str, header: list[str], line: int, cells: list[str], col: int)
     return value
 
 
+def _twins(positions: Sequence[float], columns: Sequence[int]) -> tuple[int, int]:
+    """The first two columns (0-based) that record the same position."""
+    seen: dict[float, int] = {}
+    for position, column in zip(positions, columns, strict=True):
+        if position in seen:
+            return seen[position], column
+        seen[position] = column
+    raise InputError("no two columns share a position")  # pragma: no cover - called only when two do
+
+
+def _read_named_site(read_site: SiteReader, text: str, where: str) -> float:
+    """A wide column's site by ``read_site``, its refusal as a FileFormatError at ``where``."""
+    try:
+        return float(read_site(text.strip(), where))
+    except InputError as exc:
+        raise FileFormatError(f"{where}: {exc}") from None
+
+
+def _site_cell(read_site: SiteReader, name: str, header: list[str], line: int, cells: list[str], col: int) -> float:
+    """A long row's site by ``read_site`` (file, line and column named in a refusal)."""
+    if col >= len(cells) or not cells[col].strip():
+        raise FileFormatError(f"{_where(name, line, col + 1, header[col])}: missing value")
+    return _read_named_site(read_site, cells[col], _where(name, line, col + 1, cells[col]))
+
+
 def _all_numbers(cells: Sequence[str]) -> bool:
     try:
         for cell in cells:
@@ -188,7 +217,8 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
                    position_unit: str | None = None, voltage_unit: str | None = None,
                    resting_potential: float | str = 0.0, time_offset: float = 0.0,
                    site: float | Mapping[str, float] | None = None,
-                   allow_negative_positions: bool = False) -> Recording:
+                   allow_negative_positions: bool = False,
+                   read_site: SiteReader | None = None) -> Recording:
     """Read a simulator's CSV (or tab-separated) output (long or wide layout, see docs/verify.md).
 
     Besides headers of the form ``time (ms)``, a column may be named with an SI unit after an
@@ -213,6 +243,12 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
         (``t, v_soma, v_tip``)
     allow_negative_positions : accept positions below 0 (an infinite cable, recorded on both
         sides of its input); otherwise a negative position is an error
+    read_site : for sites that are not distances along one cable (the points of a tree): reads
+        the text of a long table's position cell, or a wide table's column name (as written,
+        without its bracketed unit), into the number that stands for the site (``positions``
+        then hold those numbers, ``units["position"]`` is "point"); it raises
+        :class:`~cabletheory.errors.InputError` naming what is wrong, and the reader adds the
+        file, line and column
 
     Raises
     ------
@@ -262,15 +298,21 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
             raise FileFormatError(f"{name}:{header_line}: a long table needs exactly one position "
                                   "and one voltage column, e.g. 'time (ms),position (um),voltage (mV)'")
         pc, vc = pos_cols[0], volt_cols[0]
-        x_factor, x_unit, x_assumed = _unit_factor(parse, units[pc], position_unit, "length",
-                                                   _where(name, header_line, pc + 1, header[pc]),
-                                                   "--position-unit")
+        if read_site is None:
+            x_factor, x_unit, x_assumed = _unit_factor(parse, units[pc], position_unit, "length",
+                                                       _where(name, header_line, pc + 1, header[pc]),
+                                                       "--position-unit")
+        else:
+            x_factor, x_unit, x_assumed = 1.0, "point", False
         v_factor, v_unit, v_assumed = _unit_factor(parse, units[vc], voltage_unit, "voltage",
                                                    _where(name, header_line, vc + 1, header[vc]),
                                                    "--voltage-unit")
         assumed += [k for k, a in (("position", x_assumed), ("voltage", v_assumed)) if a]
         t = np.array([number_at(ln, c, tc) for ln, c in rows]) * t_factor
-        x = np.array([number_at(ln, c, pc) for ln, c in rows]) * x_factor
+        if read_site is None:
+            x = np.array([number_at(ln, c, pc) for ln, c in rows]) * x_factor
+        else:
+            x = np.array([_site_cell(read_site, name, header, ln, c, pc) for ln, c in rows])
         v = np.array([number_at(ln, c, vc) for ln, c in rows]) * v_factor
         lines = np.array([ln for ln, _ in rows], dtype=np.int64)
         columns = np.full(lines.size, vc + 1, dtype=np.int64)
@@ -295,7 +337,7 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
         positions: list[float] = []
         v_factors: list[float] = []
         v_unit_seen: str | None = None
-        x_unit = position_unit or _CUSTOMARY["length"]
+        x_unit = "point" if read_site is not None else position_unit or _CUSTOMARY["length"]
         x_assumed = v_assumed = False
         for col in site_cols:
             where = _where(name, header_line, col + 1, header[col])
@@ -303,6 +345,10 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
             mapped = site.get(given_names[col]) if isinstance(site, Mapping) else None
             if mapped is not None:
                 position = float(mapped)
+            elif read_site is not None and not (label in _VOLTAGE_NAMES and site is not None
+                                                and not isinstance(site, Mapping)):
+                match = parsed[col]
+                position = _read_named_site(read_site, match.group("name") if match else header[col], where)
             elif label in _VOLTAGE_NAMES and not isinstance(site, Mapping):
                 if site is None or len(site_cols) != 1:
                     raise FileFormatError(f"{where}: column does not say where it was recorded; name it by "
@@ -338,7 +384,10 @@ def read_recording(text: str, name: str, parse: QuantityParser, *, time_unit: st
                 raise FileFormatError(f"{name}:{header_line}: no voltage column named {unknown[0]!r} "
                                       f"(--column-at); the columns are {listed}")
         if len(set(positions)) != len(positions):
-            raise FileFormatError(f"{name}:{header_line}: two columns record the same position")
+            what = "point" if read_site is not None else "position"
+            first, second = _twins(positions, site_cols)
+            raise FileFormatError(f"{name}:{header_line}: columns {first + 1} ({header[first].strip()!r}) "
+                                  f"and {second + 1} ({header[second].strip()!r}) record the same {what}")
         assumed += [k for k, a in (("position", x_assumed), ("voltage", v_assumed)) if a]
         times = np.array([number_at(ln, c, tc) for ln, c in rows]) * t_factor
         bad = np.flatnonzero(np.diff(times) <= 0)
