@@ -184,6 +184,7 @@ def draw_map(tree: Tree, colouring: MapColouring, *, points: SwcPoints | None = 
         x, y, radius = laid
         drawing = "x-y projection of the file's coordinates"
     values = np.asarray(colouring.values, dtype=float)
+    values = np.where(np.isfinite(values), values, np.nan)  # killed tips: drawn grey, outside the scale
     per = max(1, min(8, 4000 // max(parents.size, 1)))
     segments, colour = _strokes(parents, x * 1e6, y * 1e6, values, colouring.log, per)
     finite = values[np.isfinite(values)]
@@ -198,9 +199,15 @@ def draw_map(tree: Tree, colouring: MapColouring, *, points: SwcPoints | None = 
         norm = Normalize(vmin=low, vmax=high if high > low else low + 1e-9)
     diameters = np.asarray(tree.distal_diameters, dtype=float) * 1e6
     widths = np.repeat(np.clip(0.6 + 0.5 * diameters, 0.6, 4.0), per)
-    fig = Figure(figsize=(7.2, 5.6), layout="constrained")
+    size = (7.2, 5.6)
+    if laid is not None:  # equal axes: a figure shaped like the cell, plus room for the colour bar
+        span_x, span_y = float(np.ptp(x)), float(np.ptp(y))
+        if span_x > 0 and span_y > 0:
+            size = (min(max(5.0 * span_x / span_y + 2.2, 6.4), 11.0), 5.6)
+    fig = Figure(figsize=size, layout="constrained")
     ax = fig.add_subplot()
-    lines = LineCollection(list(segments), array=colour, cmap="cividis", norm=norm, linewidths=widths,
+    palette = matplotlib.colormaps["cividis"].with_extremes(bad="#b0b0b0")
+    lines = LineCollection(list(segments), array=colour, cmap=palette, norm=norm, linewidths=widths,
                            capstyle="round")
     ax.add_collection(lines)
     root_size = max(radius * 1e6, 0.0)
@@ -217,7 +224,15 @@ def draw_map(tree: Tree, colouring: MapColouring, *, points: SwcPoints | None = 
         ax.set_ylabel("y (µm)")
     bar = fig.colorbar(lines, ax=ax, shrink=0.85)
     bar.set_label(colouring.label)
-    ax.set_title(f"{title or 'electrotonic map'}\n{drawing}. {note}".strip(), fontsize="medium")
+    if colouring.log:  # plain numbers (3, not 3×10⁰); minor ticks labelled too over a short range
+        from matplotlib.ticker import FuncFormatter, NullFormatter
+
+        plain = FuncFormatter(lambda v, _: f"{v:g}")
+        bar.ax.yaxis.set_major_formatter(plain)
+        bar.ax.yaxis.set_minor_formatter(plain if high < 10 * low else NullFormatter())
+    fig.suptitle(title or "electrotonic map", fontsize="medium")
+    grey = " Grey: killed tips, held at rest." if np.isnan(values).any() else ""
+    fig.supxlabel(f"{drawing}. {note}{grey}".strip(), fontsize="x-small", color="#444444")
     ax.legend(loc="best", fontsize="small", frameon=False)
     return _figure_bytes(fig, image_format)
 

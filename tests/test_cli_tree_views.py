@@ -263,3 +263,11 @@ def test_reduction_cost_text_and_csv(capsys):
     rows = [line for line in out.splitlines() if not line.startswith("#")]
     assert rows[0] == "time_s,tree_voltage_V,reduced_voltage_V,difference_V"
     assert len(rows) == 22
+
+
+def test_killed_tips_are_named_as_held_at_rest(capsys):
+    status, out, err = run(capsys, ["tree", DEMO, *MEMBRANE, "--tips", "killed", "--map"])
+    assert status == 0, err
+    assert out.count("held at rest (killed tip)") == 4
+    assert "nan" not in out.split("Points")[1].split("How to read")[0]
+    assert "largest attenuation from the soma  3.619 (point left)" in out

@@ -256,17 +256,27 @@ def map_view(args: argparse.Namespace, cell, source: str, tips: str, points) -> 
     parents = np.asarray(tree.parents)
     children = np.bincount(parents[parents >= 0], minlength=len(tree))
     keep = np.concatenate(([True], children != 1)) if len(names) > _LISTED else np.ones(len(names), dtype=bool)
-    rows = [[names[k], _quantity_or_zero(float(distance[k]), "length", d),
-             format_quantity(float(m.attenuation_to_root[k]), "dimensionless", d),
-             format_quantity(float(m.attenuation_from_root[k]), "dimensionless", d),
-             _quantity_or_zero(float(m.delay_to_root[k]), "time", d),
-             _quantity_or_zero(float(m.delay_from_root[k]), "time", d)]
+    held = m.input_impedance == 0  # killed tips: held at rest, nothing to attenuate or delay
+
+    def cells(k: int) -> list[str]:
+        if held[k]:
+            return ["held at rest (killed tip)", "", "", ""]
+        return [format_quantity(float(m.attenuation_to_root[k]), "dimensionless", d),
+                format_quantity(float(m.attenuation_from_root[k]), "dimensionless", d),
+                _quantity_or_zero(float(m.delay_to_root[k]), "time", d),
+                _quantity_or_zero(float(m.delay_from_root[k]), "time", d)]
+
+    rows = [[names[k], _quantity_or_zero(float(distance[k]), "length", d), *cells(k)]
             for k in np.flatnonzero(keep).tolist()]
     listed = ("every point" if keep.all() else
               f"the soma, branch points and tips: {int(keep.sum())} of {len(names)} points; --json and --csv "
               "list them all")
-    far_a = int(np.nanargmax(m.attenuation_to_root))
-    far_d = int(np.nanargmax(m.delay_to_root))
+
+    def largest(values: np.ndarray) -> int:
+        return int(np.nanargmax(np.where(held, np.nan, values)))
+
+    far_a, far_from, far_d = (largest(m.attenuation_to_root), largest(m.attenuation_from_root),
+                              largest(m.delay_to_root))
     tau = float(np.asarray(cell.time_constants).ravel()[0])
     summary = [
         ("frequency of the attenuations", when),
@@ -275,11 +285,12 @@ def map_view(args: argparse.Namespace, cell, source: str, tips: str, points) -> 
         ("largest attenuation to the soma",
          f"{format_quantity(float(m.attenuation_to_root[far_a]), 'dimensionless', d)} (point {names[far_a]})"),
         ("largest attenuation from the soma",
-         f"{format_quantity(float(np.nanmax(m.attenuation_from_root)), 'dimensionless', d)} "
-         f"(point {names[int(np.nanargmax(m.attenuation_from_root))]})"),
+         f"{format_quantity(float(m.attenuation_from_root[far_from]), 'dimensionless', d)} (point {names[far_from]})"),
         ("longest delay to the soma", f"{format_quantity(float(m.delay_to_root[far_d]), 'time', d)} "
                                       f"(point {names[far_d]}; τm = {format_quantity(tau, 'time', d)})"),
         ("local delay at the soma", format_quantity(float(m.local_delay[0]), "time", d)),
+        *([("killed tips", f"{int(held.sum())}, held at rest: no attenuation or delay to give ('nan' or 'inf' "
+                           "in --json and --csv)")] if held.any() else []),
     ]
     blocks = [table(_inputs(cell, source, tips, args.digits), "Inputs (whole tree)"),
               table(summary, f"Electrotonic map of {Path(source).name}"),
