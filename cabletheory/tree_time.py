@@ -1,32 +1,12 @@
 r"""Time courses, frequency responses, centroid delays and the cost of reduction for passive trees.
 
 The Laplace-domain solution of :mod:`cabletheory.tree_laplace` is turned into time courses by
-numerical inversion of the Bromwich integral on a hyperbolic contour (Weideman & Trefethen
-2007): with :math:`z(u) = \mu\,(1 + \sin(iu - \alpha))` and the trapezoid rule of step h,
-
-.. math:: f(t) \approx \frac{h}{\pi}\,\mathrm{Im}\Big[\tfrac12 e^{z_0t}F(z_0)z'_0
-          + \sum_{k=1}^{N} e^{z_kt}F(z_k)z'_k\Big],\qquad u_k = kh,
-
-for every t of a window :math:`[t_0, \Lambda t_0]` at once (F is real on the real axis, so the
-lower half of the contour is the mirror image). The error model of that paper, derived for
-singularities on the negative real axis (the tree's poles, the step's pole at 0 and an alpha
-current's double pole all lie there), balances three terms: the discretisation errors from the
-two edges of the strip of analyticity, :math:`e^{\mu\Lambda t_0 - 2\pi\alpha/h}` and
-:math:`e^{-\pi(\pi - 2\alpha)/h}`, and the truncation :math:`e^{\mu t_0(1 - \sin\alpha\cosh Nh)}`.
-Equating them gives
-
-.. math:: \mu t_0 = \frac{4\pi\alpha - \pi^2}{h\Lambda},\qquad
-          h = \frac{1}{N}\,\mathrm{arccosh}\frac{(\pi - 2\alpha)\Lambda + 4\alpha - \pi}{(4\alpha - \pi)\sin\alpha},
-          \qquad \text{error} \approx e^{-\pi(\pi - 2\alpha)/h},
-
-and α is chosen to minimise that error plus the rounding error
-:math:`\epsilon\,e^{\mu\Lambda t_0(1 - \sin\alpha)}`. The reported error estimate of each value
-is that model times :data:`SAFETY` times the reference voltage, plus the rounding of the sum;
-tests/test_tree_time.py checks it against the same recursion in mpmath inverted with mpmath's
-own Talbot routine. The times are grouped into windows, and N per window is the smallest that
-meets the tolerance (windows chosen to minimise the number of evaluations of the tree).
-
-This is our own small inversion routine; a shared contour-inversion module may replace it.
+numerical inversion of the Bromwich integral on hyperbolic contours shared by windows of times
+(:func:`cabletheory.contour.invert_windowed`; Weideman & Trefethen 2007), so that the tree is
+evaluated at a few dozen values of s for any number of times. Each value's error estimate is the
+contour's error model times the reference voltage (the final voltage of a step of the same
+amplitude at the stimulus site), plus the rounding of the sum; tests/test_tree_time.py checks it
+against the same recursion in mpmath inverted with mpmath's own Talbot routine.
 
 Every result assumes a passive, linear membrane (:data:`cabletheory.PASSIVE_CAVEAT`).
 
@@ -43,7 +23,6 @@ Holmes WR (1986) Biol. Cybern. 55:115 [Holmes1986] (inverting the tree's transfo
 
 from __future__ import annotations
 
-import functools
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field, replace
@@ -52,6 +31,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .case import AlphaCurrent, CurrentPulse, CurrentStep, VoltageStep, shape_of
+from .contour import invert_windowed
 from .errors import InputError
 from .tree_laplace import (
     PassiveTree,
@@ -69,16 +49,12 @@ from .tree_laplace import (
 from .tree_modes import TreeModes, root_modes
 
 __all__ = [
-    "SAFETY",
-    "Contour",
     "ElectrotonicMap",
     "FrequencyResponse",
     "ReductionCost",
     "TreeResponse",
     "electrotonic_map",
     "frequency_response",
-    "hyperbolic_contour",
-    "invert",
     "reduction_cost",
     "tree_response",
 ]
@@ -86,147 +62,6 @@ __all__ = [
 Array = NDArray[np.float64]
 ComplexArray = NDArray[np.complex128]
 Stimulus = CurrentStep | CurrentPulse | AlphaCurrent | VoltageStep
-
-SAFETY = 20.0  # factor on the error model (its constants are not tracked); measured ratios stay below ~12
-_EPS = 2.2e-16
-_MAX_NODES = 60
-_TIME_CHUNK = 1 << 20  # times × contour nodes per temporary array
-
-
-# --------------------------------------------------------------------------------------
-# inversion on a hyperbolic contour
-# --------------------------------------------------------------------------------------
-@dataclass(frozen=True, slots=True)
-class Contour:
-    """Nodes and weights of the hyperbolic contour for the window [first, last] (s).
-
-    ``f(t) ≈ Im Σ_k weights[k]·exp(nodes[k]·t)·F(nodes[k])``; ``predicted`` is the relative
-    error of the model in the module docstring (without :data:`SAFETY`).
-    """
-
-    nodes: ComplexArray
-    weights: ComplexArray
-    first: float
-    last: float
-    predicted: float
-
-
-@functools.lru_cache(maxsize=256)
-def _design(count: int, ratio: float) -> tuple[float, float, float, float]:
-    """(α, h, μ·t0, predicted error) for N = ``count`` and Λ = ``ratio`` (Weideman & Trefethen 2007)."""
-    alpha = np.linspace(math.pi / 4 + 1e-4, math.pi / 2 - 1e-4, 4000)
-    arg = ((math.pi - 2 * alpha) * ratio + 4 * alpha - math.pi) / ((4 * alpha - math.pi) * np.sin(alpha))
-    h = np.arccosh(arg) / count
-    discretisation = np.exp(-math.pi * (math.pi - 2 * alpha) / h)
-    mu_last = (4 * math.pi * alpha - math.pi**2) / h  # μ·Λ·t0
-    with np.errstate(over="ignore"):
-        rounding = _EPS * np.exp(mu_last * (1 - np.sin(alpha)))
-    total = discretisation + rounding
-    k = int(np.argmin(total))
-    return float(alpha[k]), float(h[k]), float(mu_last[k] / ratio), float(total[k])
-
-
-def hyperbolic_contour(first: float, last: float, count: int) -> Contour:
-    r"""The contour of Weideman & Trefethen (2007) for times in [first, last] with N + 1 nodes.
-
-    Parameters
-    ----------
-    first, last : the window's first and last time, s (0 < first <= last)
-    count : N, the number of nodes beyond the real axis (N + 1 evaluations of F)
-
-    References
-    ----------
-    Weideman & Trefethen (2007) Math. Comp. 76:1341 (hyperbolic contour, parameters derived in
-    this module's docstring from their error analysis).
-    """
-    if not (0 < first <= last and math.isfinite(last)):
-        raise InputError(f"the time window must satisfy 0 < first <= last, got {first!r}, {last!r}")
-    alpha, h, mu_t0, predicted = _design(int(count), float(last / first))
-    mu = mu_t0 / first
-    u = h * np.arange(count + 1)
-    nodes = mu * (1.0 + np.sin(1j * u - alpha))
-    weights = (h / math.pi) * 1j * mu * np.cos(1j * u - alpha)
-    weights[0] *= 0.5
-    return Contour(nodes=nodes, weights=weights, first=first, last=last, predicted=predicted)
-
-
-def _nodes_needed(ratio: float, tolerance: float) -> int | None:
-    for count in range(6, _MAX_NODES + 1):
-        if SAFETY * _design(count, ratio)[3] <= tolerance:
-            return count
-    return None
-
-
-def _windows(times: Array, tolerance: float) -> list[tuple[Array, int]]:
-    """Group sorted positive times into windows; pick the window ratio with the fewest evaluations."""
-    span = float(times[-1] / times[0])
-    best: tuple[float, list[tuple[Array, int]]] | None = None
-    for ratio in sorted({min(r, max(span, 1.0)) for r in (2.0, 4.0, 8.0, 16.0, 32.0, 64.0, 128.0)}):
-        count = _nodes_needed(ratio, tolerance) or _MAX_NODES
-        groups = []
-        start = 0
-        while start < times.size:
-            stop = int(np.searchsorted(times, times[start] * ratio * (1 + 1e-12), side="right"))
-            groups.append((times[start:stop], count))
-            start = stop
-        cost = sum(c + 1 for _, c in groups) + (1e9 if _nodes_needed(ratio, tolerance) is None else 0)
-        if best is None or cost < best[0]:
-            best = (cost, groups)
-    assert best is not None
-    return best[1]
-
-
-def invert(transform: Callable[[ComplexArray], ComplexArray], times: ArrayLike, *, tolerance: float,
-           scale: float) -> tuple[Array, Array, str]:
-    r"""Invert a Laplace transform given at many s at once, with an error estimate for every value.
-
-    Parameters
-    ----------
-    transform : ``F(s)`` for a vector of complex s (1/s), returning shape (n_s, m) (m signals
-        sharing the transform's singularities, all on the negative real axis)
-    times : s; values at t <= 0 are 0 (the signals start from rest)
-    tolerance : error allowed relative to ``scale``
-    scale : the reference size of the signals (e.g. the final voltage of a step at its site)
-
-    Returns
-    -------
-    (values (n_t, m), error estimates (n_t, m), description of the windows and nodes).
-
-    References
-    ----------
-    Weideman & Trefethen (2007) Math. Comp. 76:1341.
-    """
-    t = np.atleast_1d(np.asarray(times, dtype=float)).ravel()
-    positive = np.unique(t[t > 0])
-    values: dict[float, Array] = {}
-    errors: dict[float, Array] = {}
-    parts = []
-    m = None
-    for window, count in (_windows(positive, tolerance) if positive.size else []):
-        contour = hyperbolic_contour(float(window[0]), float(window[-1]), count)
-        weighted = contour.weights[:, None] * np.asarray(transform(contour.nodes))  # (N + 1, m)
-        m = weighted.shape[1]
-        model = SAFETY * contour.predicted * abs(scale)
-        step = max(1, _TIME_CHUNK // contour.nodes.size)
-        for start in range(0, window.size, step):
-            part = window[start:start + step]
-            kernel = np.exp(np.outer(part, contour.nodes))  # (times, N + 1)
-            v = (kernel @ weighted).imag
-            rounding = 8 * _EPS * (np.abs(kernel) @ np.abs(weighted))
-            for j, tt in enumerate(part.tolist()):
-                values[tt] = v[j]
-                errors[tt] = rounding[j] + model
-        parts.append(f"{window[0]:.3g}..{window[-1]:.3g} s: {count + 1} nodes")
-    if m is None:
-        m = np.asarray(transform(np.array([1.0 + 0j]))).shape[1]
-    out = np.zeros((t.size, m))
-    err = np.zeros((t.size, m))
-    for i, tt in enumerate(t.tolist()):
-        if tt > 0:
-            out[i], err[i] = values[tt], errors[tt]
-    method = ("Laplace transform inverted on hyperbolic contours (Weideman & Trefethen 2007); windows "
-              + ("; ".join(parts) if parts else "none (all times at rest)"))
-    return out, err, method
 
 
 # --------------------------------------------------------------------------------------
@@ -349,11 +184,13 @@ def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: S
             steady = amplitude * transfer_impedance(cell, [0.0], at, record)[0].real
     if isinstance(stimulus, CurrentPulse):
         later = t - stimulus.duration
-        both, err, method = invert(transform, np.concatenate((t, later)), tolerance=tolerance / 2, scale=reference)
-        voltage = both[:t.size] - both[t.size:]
-        errors = err[:t.size] + err[t.size:]
+        both = invert_windowed(transform, np.concatenate((t, later)), tolerance=tolerance / 2, scale=reference)
+        voltage = both.values[:t.size] - both.values[t.size:]
+        errors = both.error_estimate[:t.size] + both.error_estimate[t.size:]
+        method = both.method
     else:
-        voltage, errors, method = invert(transform, t, tolerance=tolerance, scale=reference)
+        inversion = invert_windowed(transform, t, tolerance=tolerance, scale=reference)
+        voltage, errors, method = inversion.values, inversion.error_estimate, inversion.method
     return TreeResponse(times=t, sites=record, stimulus_site=at, voltage=voltage, errors=errors,
                         error_bound=float(np.max(errors, initial=0.0)), reference_voltage=float(reference),
                         tolerance=float(tolerance), steady_state=steady, method=method, notes=tuple(notes))

@@ -27,6 +27,7 @@ import pytest
 from scipy.special import erf
 
 from cabletheory import cable, case, compartment, transient
+from cabletheory.contour import hyperbolic_contour, invert_windowed
 from cabletheory.errors import InputError
 from cabletheory.morphology import Outline
 from cabletheory.tree import Tree, analyse_tree, exact_input_conductances, tree_from_outline
@@ -35,8 +36,6 @@ from cabletheory.tree_modes import root_modes
 from cabletheory.tree_time import (
     electrotonic_map,
     frequency_response,
-    hyperbolic_contour,
-    invert,
     reduction_cost,
     tree_response,
 )
@@ -74,10 +73,10 @@ def test_inversion_of_the_semi_infinite_cable():
     """1/(s√(1+s)) is erf(√T) (the semi-infinite cable's input, Hodgkin & Rushton 1946
     [HodgkinRushton1946]); the estimate holds from T = 1e-4 to 30."""
     t = np.geomspace(1e-4, 30, 40)
-    v, err, _ = invert(lambda s: (1 / (s * np.sqrt(1 + s)))[:, None], t, tolerance=1e-11, scale=1.0)
-    actual = np.abs(v[:, 0] - erf(np.sqrt(t)))
-    assert np.all(actual <= err[:, 0])
-    assert err.max() <= 2e-11
+    result = invert_windowed(lambda s: (1 / (s * np.sqrt(1 + s)))[:, None], t, tolerance=1e-11, scale=1.0)
+    actual = np.abs(result.values[:, 0] - erf(np.sqrt(t)))
+    assert np.all(actual <= result.error_estimate[:, 0])
+    assert result.error_estimate.max() <= 2e-11
 
 
 def test_contour_nodes_cross_right_of_the_origin():
