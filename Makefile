@@ -15,8 +15,8 @@ test: $(TESTS)           ## install with test extras, lint, type-check the core,
 	$(BIN)/mypy
 	$(BIN)/python -m pytest -q
 
-bench: $(BASE)           ## speed and memory figures (not part of the tests)
-	$(BIN)/python benchmarks/run_all.py
+bench: $(BASE)           ## speed figures against their goals, one table (ROWS="startup app" for some)
+	$(BIN)/python benchmarks/run_all.py $(ROWS)
 
 lint: $(TESTS)
 	$(BIN)/ruff check cabletheory tests benchmarks worked scripts

@@ -1,0 +1,71 @@
+"""Rows of the benchmark table: each benchmark script reports its figures against their goals.
+
+A script prints its details for people, then calls :func:`report` with its rows. Run alone, the
+script ends with its own short table; run by ``run_all.py`` (environment ``BENCH_ROWS=1``), each
+row is also printed as one ``bench-row {json}`` line that ``run_all.py`` collects into one table.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import statistics
+from collections.abc import Sequence
+from dataclasses import asdict, dataclass
+
+MARK = "bench-row "
+
+
+@dataclass(frozen=True, slots=True)
+class Row:
+    """One line of the table: what was measured, the figure, the goal, and whether it is met
+    (None: a figure with no goal, or not measured)."""
+
+    what: str
+    measured: str
+    goal: str
+    met: bool | None
+
+
+def median(values: Sequence[float]) -> float:
+    return float(statistics.median(values))
+
+
+def p90(values: Sequence[float]) -> float:
+    """90th percentile (linear interpolation between order statistics; numpy's default rule)."""
+    ordered = sorted(values)
+    if len(ordered) == 1:
+        return float(ordered[0])
+    position = 0.9 * (len(ordered) - 1)
+    low = int(position)
+    high = min(low + 1, len(ordered) - 1)
+    return float(ordered[low] + (ordered[high] - ordered[low]) * (position - low))
+
+
+def verdict(met: bool | None) -> str:
+    return {True: "met", False: "NOT met", None: "—"}[met]
+
+
+def markdown(rows: Sequence[Row]) -> str:
+    """The rows as a Markdown table (the README's benchmark table is pasted from this)."""
+    lines = ["| what | measured | goal | met? |", "|---|---|---|---|"]
+    lines += [f"| {r.what} | {r.measured} | {r.goal} | {verdict(r.met)} |" for r in rows]
+    return "\n".join(lines)
+
+
+def report(rows: Sequence[Row]) -> int:
+    """Print the rows (as a table, and as machine lines under run_all.py); 1 if a goal is missed."""
+    if os.environ.get("BENCH_ROWS") == "1":
+        for row in rows:
+            print(MARK + json.dumps(asdict(row), ensure_ascii=False), flush=True)
+    else:
+        print()
+        print(markdown(rows))
+    return 1 if any(r.met is False for r in rows) else 0
+
+
+def parse(line: str) -> Row | None:
+    """The row carried by one output line of a script, or None."""
+    if not line.startswith(MARK):
+        return None
+    return Row(**json.loads(line[len(MARK):]))
