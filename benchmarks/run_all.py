@@ -33,7 +33,7 @@ BENCHMARKS: dict[str, tuple[str, str]] = {
     "derive": ("derive_speed.py", "`derive --origin soma --end leaky --part steady`"),
     "tree-time": ("tree_time_speed.py", "exact time course of a 1,000-branch tree; compartmental ratio"),
     "fit": ("fit_speed.py", "ball-and-stick and morphology fits"),
-    "tests": ("test_suite.py", "the test suite on two cores"),
+    "tests": ("suite_speed.py", "the test suite on two cores"),
     # not in the default run (figures of older issues; long)
     "tree-audit": ("tree_speed.py", "audit of generated trees of 25,000-200,000 points"),
     "survey": ("survey_speed.py", "survey of 1,000 invented cells (long)"),
