@@ -136,7 +136,7 @@ def test_units_by_option_and_assumed_units() -> None:
         ("time (mV),V at 0 um (mV)\n0,1\n", UnitKindError, [":1:1",  "expected a time"]),
         ("time (ms),V at 0 um (ms)\n0,1\n", UnitKindError, [":1:2",  "expected a voltage"]),
         ("time (ms),V at 0 um (mV)\n0,1,2\n", FileFormatError, [":2:",  "3 columns"]),
-        ("time (ms),temperature (degC)\n0,1\n", FileFormatError, ["column 2", "not a recording site"]),
+        ("time (ms),temperature (degC)\n0,1\n", FileFormatError, [":1:2", "not a recording site"]),
         ("time (ms),V at 0 um (mV),V at 0 um (mV)\n0,1,1\n", FileFormatError, ["same position"]),
     ],
 )
