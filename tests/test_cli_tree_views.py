@@ -11,6 +11,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from cabletheory.cli import main
 
@@ -271,3 +273,25 @@ def test_killed_tips_are_named_as_held_at_rest(capsys):
     assert out.count("held at rest (killed tip)") == 4
     assert "nan" not in out.split("Points")[1].split("How to read")[0]
     assert "largest attenuation from the soma  3.619 (point left)" in out
+
+
+@settings(derandomize=True, max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(text=st.one_of(st.text(st.sampled_from(list("abcdefghijklmnopqrstuvwxyz.,:-0123456789 ")), max_size=30),
+                      st.text(max_size=20)),
+       option=st.sampled_from(["--positions", "--stimulus-at", "--frequencies"]))
+def test_any_point_or_frequency_text_is_answered_or_refused_in_one_line(capsys, text, option):
+    argv = ["tree", DEMO, *MEMBRANE, "--frequencies", "10 Hz"]
+    if option == "--frequencies":
+        argv = argv[:-2]
+    status = main([*argv, f"{option}={text}"])
+    out, err = capsys.readouterr()
+    assert "Traceback" not in err
+    errors = [line for line in err.splitlines() if not line.startswith("cabletheory: warning: ")]
+    if status == 2:
+        assert len(errors) == 1, err
+        assert errors[0].startswith("cabletheory: error: ")
+        assert out == ""
+    else:
+        assert status == 0, err
+        assert "Impedance" in out
