@@ -107,10 +107,7 @@ def _time(text: str | None, option: str, *, allow_zero: bool = True) -> float | 
 
 def read_inputs(args: argparse.Namespace) -> dict[str, Any]:
     """Every option as SI (or None), each checked with its option's name; and the pooled sweeps."""
-    import numpy as np
-
-    from ..textfile import read_input_text
-    from ..verify.reading import read_sweeps
+    from ..fit_recording import pool_sweeps, read_recordings
     from .reference import parser_for_quantities
 
     if args.figure is not None and Path(args.figure).suffix.lower() not in (".png", ".svg", ".pdf"):
@@ -148,19 +145,10 @@ def read_inputs(args: argparse.Namespace) -> dict[str, Any]:
         raise InputError("--current: a current of 0 gives no response; give the injected current, e.g. 100 pA")
     if values["fit_from"] is not None and values["fit_until"] is not None and values["fit_until"] <= values["fit_from"]:
         raise InputError("--fit-until must come after --fit-from")
-    files = []
-    for path in args.recordings:
-        text = read_input_text(path, "recording")
-        files.append(read_sweeps(text, path, parser_for_quantities, time_unit=args.time_unit,
-                                 voltage_unit=args.voltage_unit))
-    first = files[0]
-    for other in files[1:]:
-        if other.times.size != first.times.size or not np.allclose(other.times, first.times, rtol=1e-9, atol=0):
-            raise InputError(f"{other.name}: its sample times differ from those of {first.name}; pooled sweeps "
-                             "must share one clock")
+    files = read_recordings(args.recordings, parser_for_quantities, time_unit=args.time_unit,
+                            voltage_unit=args.voltage_unit)
     values["files"] = files
-    values["times"] = first.times
-    values["sweeps"] = np.vstack([f.voltages for f in files])
+    values["times"], values["sweeps"] = pool_sweeps(files)
     return values
 
 
@@ -168,46 +156,18 @@ def read_inputs(args: argparse.Namespace) -> dict[str, Any]:
 # running
 # --------------------------------------------------------------------------------------
 def run(args: argparse.Namespace) -> int:
-    from ..fit_exponentials import decompose, peeling_from_fit
-    from ..trace import prepare_trace
+    from ..fit_recording import FitRequest, fit_recording
 
     v = read_inputs(args)
-    trace = prepare_trace(v["times"], v["sweeps"], onset=v["onset"], rest=v["rest"])
-    t, y, se = trace.after_onset()
-    end = v["fit_until"]
-    if v["duration"] is not None and v["model"] == "exponentials":
-        end = min(end, v["duration"]) if end is not None else v["duration"]
-    window = (v["fit_from"], end)
-    charging_end = v["duration"] if v["duration"] is not None else end
-    exp_window = (v["fit_from"], charging_end)
-    decomposition = decompose(t, y, standard_error=se, offset=True, window=exp_window,
-                              max_components=args.exponentials, level=v["level"], bootstrap=args.bootstrap,
-                              seed=args.seed)
-    peel = None
-    if decomposition.fit.components >= 2:
-        peel = peeling_from_fit(decomposition.fit)
-    model: Any = None
-    if v["model"] == "morphology":
-        from ..fit_tree import fit_morphology
-
-        if v["duration"] is not None:
-            raise InputError("--duration: a morphology fit takes a step lasting the whole record; fit the "
-                             "charging part with --fit-until")
-        start = v["fit_from"]
-        if start is None:
-            start = max(decomposition.window[0], decomposition.artefact_end or 0.0)
-        model = fit_morphology(t, y, v["tree"], v["current"], standard_error=se, shunt=args.soma_shunt,
-                               window=(start, window[1]), level=v["level"])
-    elif v["model"] != "exponentials":
-        from ..fit_model import DEFAULT_RI, fit_model
-
-        start = v["fit_from"]
-        if start is None:
-            start = max(decomposition.window[0], decomposition.artefact_end or 0.0)
-        model = fit_model(t, y, model=v["model"], current=v["current"], standard_error=se, duration=v["duration"],
-                          window=(start, window[1]), level=v["level"], membrane_capacitance=v["Cm"],
-                          axial_resistivity=v["Ri"] if v["Ri"] is not None else DEFAULT_RI,
-                          baseline_error=trace.baseline_error)
+    request = FitRequest(model=v["model"], current=v["current"], duration=v["duration"], onset=v["onset"],
+                         rest=v["rest"], fit_from=v["fit_from"], fit_until=v["fit_until"], level=v["level"],
+                         membrane_capacitance=v["Cm"], axial_resistivity=v["Ri"], shunt=args.soma_shunt,
+                         max_components=args.exponentials, bootstrap=args.bootstrap, seed=args.seed)
+    if v["model"] == "morphology" and v["duration"] is not None:
+        raise InputError("--duration: a morphology fit takes a step lasting the whole record; fit the "
+                         "charging part with --fit-until")
+    result = fit_recording(v["times"], v["sweeps"], request, v.get("tree"))
+    trace, decomposition, peel, model = result.trace, result.decomposition, result.peel, result.model
     if args.figure:
         write_atomically(args.figure, figure(trace, decomposition, model, Path(args.figure).suffix.lower()),
                          protected=[*args.recordings, *([args.morphology] if args.morphology else [])])

@@ -12,14 +12,14 @@ from pathlib import Path
 from .. import PASSIVE_CAVEAT
 from ..errors import InputError, MissingFileError
 
-VIEW_NAMES = ("cylinder", "charging", "tree", "check")
+VIEW_NAMES = ("cylinder", "charging", "tree", "check", "fit", "survey")
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
     parser = subparsers.add_parser(
         "ui",
-        help="terminal app: cylinder, charging, tree and check views with plots and export",
-        description="Open the keyboard-first terminal app. F1 lists every key; F2-F5 switch views; "
+        help="terminal app: cylinder, charging, tree, check, fit and survey views with plots and export",
+        description="Open the keyboard-first terminal app. F1 lists every key; F2-F5, F8 and F9 switch views; "
                     "ctrl+s saves a view's inputs and results, ctrl+g its plot, ctrl+q quits.",
         epilog=PASSIVE_CAVEAT,
     )

@@ -32,8 +32,10 @@ class ViewBar(Static):
         text = Text()
         text.append(" cabletheory ", style="bold #0d1b24 on #5cc8d6")
         text.append("  ")
-        for number, (view, (title, _)) in enumerate(VIEWS.items(), start=2):
-            label = f" F{number} {title} "
+        keys = {k.action: key_label(k.key) for k in GLOBAL_KEYS}
+        for view, (title, _) in VIEWS.items():
+            action = f"show_view('{view}')"
+            label = f" {keys[action]} {title} "
             style = "bold #0d1b24 on #f2b84b" if view == current else "#c9d1d9"
             text.append(label, style=Style.parse(style) + Style(meta={"@click": f"app.show_view('{view}')"}))
             text.append(" ")
@@ -97,6 +99,11 @@ class CableApp(App[None]):
             from .tree_view import TreeView
 
             return TreeView(id="tree", swc=self.swc)
+        if view in ("fit", "survey"):
+            from .fit_view import FitView
+            from .survey_view import SurveyView
+
+            return FitView(id="fit") if view == "fit" else SurveyView(id="survey")
         from .check_view import CheckView
 
         return CheckView(id="check", file=self.simulation)
@@ -196,7 +203,8 @@ class CableApp(App[None]):
         view = self._view_widget()
         opener = getattr(view, "open_path", None)
         if opener is None:
-            self.set_status("This view opens no files; F4 (tree) reads SWC, F5 (check) reads CSV.", error=True)
+            self.set_status("This view opens no files; F4 (tree) reads SWC, F5 (check) and F8 (fit) CSV, "
+                            "F9 a survey table.", error=True)
             return
 
         def done(path: str | None) -> None:

@@ -20,6 +20,8 @@ VIEWS: dict[str, tuple[str, str]] = {
     "charging": ("Charging", "exact transients: V(t) and V(X) after a stimulus"),
     "tree": ("Tree", "SWC or tree outline: 3/2 audit, equivalent cylinder"),
     "check": ("Check", "simulator output against the exact solution"),
+    "fit": ("Fit", "recorded sweeps: passive parameters with 95 % intervals"),
+    "survey": ("Survey", "a survey table: one row per cell, summary of a column"),
 }
 
 GLOBAL_KEYS: tuple[Key, ...] = (
@@ -28,10 +30,12 @@ GLOBAL_KEYS: tuple[Key, ...] = (
     Key("f3", "show_view('charging')", "charging view"),
     Key("f4", "show_view('tree')", "tree view"),
     Key("f5", "show_view('check')", "check view"),
+    Key("f8", "show_view('fit')", "fitting view"),
+    Key("f9", "show_view('survey')", "survey table view"),
     Key("ctrl+t", "next_view", "next view"),
     Key("ctrl+s", "export_data", "save this view's inputs and results (.json .csv .md)"),
     Key("ctrl+g", "export_plot", "save this view's plot (.png .svg)"),
-    Key("ctrl+o", "open_file", "open a file (tree view: SWC, outline; check view: CSV)"),
+    Key("ctrl+o", "open_file", "open a file (tree: SWC, outline; check: CSV; fit: sweeps; survey: table)"),
     Key("ctrl+q", "quit", "quit"),
 )
 
@@ -48,6 +52,10 @@ VIEW_KEYS: dict[str, tuple[Key, ...]] = {
               Key("ctrl+n", "next_stimulus", "next stimulus"),
               Key("ctrl+p", "next_axis", "error plotted over time or over space"),
               Key("ctrl+r", "run", "compare again")),
+    "fit": (Key("ctrl+l", "next_model", "next cell to fit"),
+            Key("ctrl+r", "run", "fit again (enter in a field does too)")),
+    "survey": (Key("ctrl+l", "next_column", "summarise the next numeric column"),
+               Key("ctrl+r", "run", "read the table again")),
 }
 
 MOVE_KEYS: tuple[tuple[str, str], ...] = (
