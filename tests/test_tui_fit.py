@@ -211,7 +211,7 @@ def test_a_bad_recording_is_one_line_naming_file_and_line(tmp_path):
         assert field.has_class("bad")
         message = field.echo_text
         assert "\n" not in message
-        assert message.startswith(f"{bad}, line 6")
+        assert message == f"{bad}:6:2 ('sweep 1 (mV)'): cannot read '-59.9x' as a number"
         assert app.query_one("#fit").report is None
 
     drive(script, view="fit")

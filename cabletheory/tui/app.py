@@ -28,19 +28,29 @@ STATUS_KEYS = (("f1,question_mark", "keys"), ("ctrl+s", "save data"), ("ctrl+g",
 class ViewBar(Static):
     """The view names with their keys; the current one highlighted; click to switch."""
 
+    current = ""
+
     def show(self, current: str) -> None:
+        """Below 100 columns the names sit closer and the keys hint is left to the status line."""
+        self.current = current
+        wide = self.app.size.width >= 100
         text = Text()
         text.append(" cabletheory ", style="bold #0d1b24 on #5cc8d6")
-        text.append("  ")
+        text.append("  " if wide else " ")
         keys = {k.action: key_label(k.key) for k in GLOBAL_KEYS}
         for view, (title, _) in VIEWS.items():
             action = f"show_view('{view}')"
-            label = f" {keys[action]} {title} "
+            label = f" {keys[action]} {title} " if wide else f"{keys[action]} {title}"
             style = "bold #0d1b24 on #f2b84b" if view == current else "#c9d1d9"
             text.append(label, style=Style.parse(style) + Style(meta={"@click": f"app.show_view('{view}')"}))
             text.append(" ")
-        text.append(f"   {key_label(GLOBAL_KEYS[0].key)} keys", style="dim")
+        if wide:
+            text.append(f"   {key_label(GLOBAL_KEYS[0].key)} keys", style="dim")
         self.update(text)
+
+    def on_resize(self) -> None:
+        if self.current:
+            self.show(self.current)
 
 
 class CableApp(App[None]):
