@@ -56,6 +56,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .errors import ConvergenceError, InputError
+from .kernels import end_weights
 
 __all__ = [
     "ORIGINS",
@@ -84,14 +85,6 @@ _EPS = np.finfo(float).eps
 # --------------------------------------------------------------------------------------
 # parameters
 # --------------------------------------------------------------------------------------
-def _weights(end_conductance_ratio: float) -> tuple[float, float]:
-    """(w_sealed, w_killed) with B = w_killed/w_sealed and max weight 1 (B = inf exact)."""
-    b = float(end_conductance_ratio)
-    if not b >= 0:
-        raise InputError(f"end conductance ratio B must be >= 0 (inf for killed), got {b!r}")
-    return (1.0, b) if b <= 1.0 else (1.0 / b, 1.0)
-
-
 def _check_length(electrotonic_length: float) -> float:
     L = float(electrotonic_length)
     if not (math.isfinite(L) and L > 0):
@@ -127,7 +120,7 @@ def soma_ratio(electrotonic_length: float, end_conductance_ratio: float = 0.0, *
     if semi_infinite_conductance_ratio is not None:
         return 1.0 / ratio
     L = _check_length(electrotonic_length)
-    w_s, w_k = _weights(end_conductance_ratio)
+    w_s, w_k = end_weights(end_conductance_ratio)
     t = math.tanh(L)
     dendrite = (w_k + w_s * t) / (w_s + w_k * t)  # G_D / G∞
     return dendrite / ratio
@@ -164,7 +157,7 @@ def eigenvalue_function(alpha: ArrayLike, electrotonic_length: float, end_conduc
     """
     a = np.asarray(alpha, dtype=float)
     L = float(electrotonic_length)
-    w_s, w_k = _weights(end_conductance_ratio)
+    w_s, w_k = end_weights(end_conductance_ratio)
     if origin == "sealed":
         y = float(soma_ratio)
         return (w_k - w_s * y * a * a) * np.cos(a * L) - a * (w_s + y * w_k) * np.sin(a * L)
@@ -246,7 +239,7 @@ def eigenvalues(electrotonic_length: float, end_conductance_ratio: float = 0.0, 
 
 
 def _eigenvalues(L: float, B: float, count: int, origin: str, y: float, start: int = 0) -> Array:
-    w_s, w_k = _weights(B)
+    w_s, w_k = end_weights(B)
     n = np.arange(start, start + count, dtype=float)
     exact = _closed_form(n, L, w_s, w_k, origin, y)
     if exact is not None:
@@ -491,7 +484,7 @@ def ball_and_stick_coefficients(electrotonic_length: float, conductance_ratio: f
     y = soma_ratio(L, end_conductance_ratio, conductance_ratio=conductance_ratio)
     alpha = _eigenvalues(L, float(end_conductance_ratio), count, "sealed", y)
     residue = mode_residues(alpha, 0.0, 0.0, L, soma_ratio=y)
-    w_s, w_k = _weights(end_conductance_ratio)
+    w_s, w_k = end_weights(end_conductance_ratio)
     t = math.tanh(L)
     steady = (w_s + w_k * t) / (y * (w_s + w_k * t) + (w_k + w_s * t))  # g(0,0) = 1/(y + G_D/G∞)
     return alpha, residue / ((1 + alpha**2) * steady)

@@ -211,7 +211,25 @@ def point_source_alpha(distance: ArrayLike, normalised_time: ArrayLike, time_to_
 # steady states
 # --------------------------------------------------------------------------------------
 def end_weights(end_conductance_ratio: float) -> tuple[float, float]:
+    r"""The far end as a pair of weights: :math:`(w_s, w_k)` with :math:`B = w_k/w_s` and the larger 1.
+
+    A leaky end :math:`\psi = \cosh(L-X) + B\sinh(L-X)` is written
+    :math:`w_s\cosh(L-X) + w_k\sinh(L-X)`, which is finite for every B: (1, 0) sealed, (0, 1)
+    killed (B = inf, exactly), (1, B) for B <= 1 and (1/B, 1) above. The one definition for the
+    float paths (eigenvalues, images, steady states, the Laplace domain); :mod:`cabletheory.precise`
+    has the mpmath counterpart.
+
+    Parameters
+    ----------
+    end_conductance_ratio : B = G_end/G∞ (0 sealed, inf killed)
+
+    Raises
+    ------
+    InputError : B negative or NaN
+    """
     b = float(end_conductance_ratio)
+    if not b >= 0:
+        raise InputError(f"end conductance ratio B must be >= 0 (inf for killed), got {b!r}")
     return (1.0, b) if b <= 1.0 else (1.0 / b, 1.0)
 
 

@@ -32,16 +32,12 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from . import contour
+from .kernels import end_weights
 
 __all__ = ["current_inversion", "green"]
 
 Array = NDArray[np.float64]
 Complex = NDArray[np.complex128]
-
-
-def _weights(end_conductance_ratio: float) -> tuple[float, float]:
-    b = float(end_conductance_ratio)
-    return (1.0, b) if b <= 1.0 else (1.0 / b, 1.0)
 
 
 def green(s: ArrayLike, position: ArrayLike, source: float, electrotonic_length: float,
@@ -70,7 +66,7 @@ def green(s: ArrayLike, position: ArrayLike, source: float, electrotonic_length:
     X = np.atleast_1d(np.asarray(position, dtype=float))[None, :]
     L = float(electrotonic_length)
     y = float(soma_ratio)
-    w_s, w_k = _weights(end_conductance_ratio)
+    w_s, w_k = end_weights(end_conductance_ratio)
     q = np.sqrt(1.0 + s)
     near = np.minimum(X, source)
     far = np.maximum(X, source)

@@ -148,3 +148,24 @@ def test_bad_inputs():
         eigen.eigenvalues(1.0, 0.0, 3, origin="middle")
     with pytest.raises(InputError):
         eigen.soma_ratio(1.0, conductance_ratio=1.0, semi_infinite_conductance_ratio=2.0)
+
+
+@pytest.mark.parametrize("B", [0.0, 0.3, 1.0, 7.0, 1e300, math.inf])
+def test_end_weights_carry_the_ratio_with_the_larger_weight_one(B):
+    """w_k/w_s = B and max(w_s, w_k) = 1, exact at sealed (1, 0) and killed (0, 1); one definition
+    serves eigen, images and the Laplace domain (a fact of the representation [CP])."""
+    from cabletheory.kernels import end_weights
+
+    w_s, w_k = end_weights(B)
+    assert max(w_s, w_k) == 1.0
+    assert (w_k / w_s if w_s else math.inf) == pytest.approx(B, rel=1e-15)
+    if B == 0.0:
+        assert (w_s, w_k) == (1.0, 0.0)
+    if math.isinf(B):
+        assert (w_s, w_k) == (0.0, 1.0)
+
+
+@pytest.mark.parametrize("B", [-0.1, math.nan])
+def test_eigenvalues_refuse_a_negative_or_nan_end_ratio(B):
+    with pytest.raises(InputError, match="end conductance ratio B"):
+        eigen.time_constants(0.02, 1.0, B, 3)
