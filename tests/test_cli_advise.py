@@ -107,8 +107,8 @@ def test_tree_advice_on_the_bundled_swc(capsys) -> None:
 
 @pytest.mark.parametrize(("extra", "message"), [
     (["--quantity", "attenuation"], "--quantity: attenuation is not available for a tree; choose "
-                                    "input-resistance or impedance"),
-    (["--quantity", "time-course"], "--quantity: time-course is not available for a tree"),
+                                    "input-resistance, impedance or (with --morphology) time-course"),
+    (["--quantity", "time-course", "--read-at", "nowhere"], "--read-at: no point 'nowhere'"),
 ])
 def test_tree_quantity_errors_name_the_option(tmp_path, capsys, extra: list[str], message: str) -> None:
     swc = tmp_path / "cell.swc"

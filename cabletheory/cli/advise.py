@@ -30,7 +30,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                     "time-course also the largest time step of --scheme, with half the target given to the "
                     "compartments and half to the time step, verified against the exact course. For one cable "
                     "use the cable "
-                    "options; for a tree give --tree FILE (SWC or tree outline) or --parents/--lengths/--diameters.",
+                    "options; for a tree give --morphology FILE (SWC or tree outline) or --parents/--lengths/"
+                    "--diameters. With --morphology, --quantity time-course reads a current step at the soma at the "
+                    "--read-at points of the tree ('soma, 412, branch 443 +25 um', the column syntax of compare).",
         epilog=PASSIVE_CAVEAT,
     )
     group = parser.add_argument_group("cable (bare numbers: Ω·cm², Ω·cm, µF/cm², µm, nS)")
@@ -41,9 +43,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                        help="far end of the cable, or of every tip of a tree: sealed, killed or a "
                             "conductance such as 0.5nS (default sealed)")
     tree = parser.add_argument_group("tree instead of one cable")
-    tree.add_argument("--tree", metavar="FILE",
+    tree.add_argument("--morphology", metavar="FILE",
                       help="morphology read as the tree command reads it: SWC (pieces as cylinders, axon left "
                            "out, soma lumped) or a tree outline; tapered branches are not allowed")
+    tree.add_argument("--tree", metavar="FILE", help="the same as --morphology (the older name)")
     tree.add_argument("--parents", metavar="LIST", help="parent of each branch, -1 for the root: '-1,0,0'")
     tree.add_argument("--lengths", metavar="LIST", help="branch lengths: '300,300,300 um'")
     tree.add_argument("--diameters", metavar="LIST", help="branch diameters: '4,2.52,2.52 um'")
@@ -54,7 +57,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                              "input-resistance or impedance")
     parser.add_argument("--target", default="1%", metavar="ERROR",
                         help="largest relative error, e.g. 1%% or 0.001 (default 1%%)")
-    parser.add_argument("--read-at", metavar="X", help="where attenuation/time-course is read (default: far end)")
+    parser.add_argument("--read-at", metavar="X",
+                        help="where attenuation/time-course is read (default: far end); on a tree, points such as "
+                             "'soma, 412, branch 443 +25 um' (default: the soma)")
     parser.add_argument("--frequency", default="100 Hz", metavar="F", help="for impedance (default 100 Hz)")
     parser.add_argument("--times", default="0:2:0.05 ms", metavar="RANGE",
                         help="sample times for time-course, e.g. '0:2:0.05 ms' (default)")
@@ -89,24 +94,9 @@ def _tree_arrays(args: argparse.Namespace
     apart by :func:`cabletheory.morphology.read_morphology`; SWC with its defaults: each piece a
     cylinder with its own point's diameter, axon left out, soma lumped at the root)."""
     if args.tree:
-        from ..inputs import read_outline_value
-        from ..morphology import Outline, read_morphology
-        from ..tree import build_tree
-
-        morphology = read_morphology(args.tree, read_outline_value)
-        tree = build_tree(morphology)
-        tapered = np.flatnonzero(~np.isclose(tree.proximal_diameters, tree.distal_diameters, rtol=1e-12))
-        if tapered.size:
-            raise InputError(f"--tree: {args.tree}: piece {tree.labels[tapered[0]]!r} is tapered (a frustum); "
-                             "advice treats uniform cylinders only (split each taper into steps)")
-        short = np.flatnonzero(tree.lengths <= 0)
-        if short.size:
-            raise InputError(f"--tree: {args.tree}:{int(tree.lines[short[0]])}: piece "
-                             f"{tree.labels[short[0]]!r} has zero length; advice needs every piece longer "
-                             "than zero")
-        what = "branches" if isinstance(morphology, Outline) else "SWC pieces"
-        return (tree.parents, tree.lengths, tree.proximal_diameters, tree.soma_area,
-                f"{args.tree} ({len(tree)} {what})", [str(label) for label in tree.labels])
+        tree, label = _read_tree(args)
+        return (tree.parents, tree.lengths, tree.proximal_diameters, tree.soma_area, label,
+                [str(name) for name in tree.labels])
     if not (args.parents and args.lengths and args.diameters):
         raise InputError("a tree needs --parents, --lengths and --diameters together (or --tree FILE)")
     parents = parse_parents(args.parents)
@@ -116,6 +106,67 @@ def _tree_arrays(args: argparse.Namespace
         if arr.size != parents.size:
             raise InputError(f"{name}: {arr.size} values for {parents.size} branches")
     return parents, lengths, diameters, None, f"{parents.size} branches", [str(i) for i in range(parents.size)]
+
+
+def _read_tree(args: argparse.Namespace):  # -> tuple[tree.Tree, str]
+    """The tree of ``--morphology`` (or ``--tree``) and a label for it; tapered pieces and pieces of
+    zero length are refused, naming the option."""
+    from ..inputs import read_outline_value
+    from ..morphology import Outline, read_morphology
+    from ..tree import build_tree
+
+    option = args.tree_option
+    morphology = read_morphology(args.tree, read_outline_value)
+    tree = build_tree(morphology)
+    tapered = np.flatnonzero(~np.isclose(tree.proximal_diameters, tree.distal_diameters, rtol=1e-12))
+    if tapered.size:
+        raise InputError(f"{option}: {args.tree}: piece {tree.labels[tapered[0]]!r} is tapered (a frustum); "
+                         "advice treats uniform cylinders only (split each taper into steps)")
+    short = np.flatnonzero(tree.lengths <= 0)
+    if short.size:
+        raise InputError(f"{option}: {args.tree}:{int(tree.lines[short[0]])}: piece "
+                         f"{tree.labels[short[0]]!r} has zero length; advice needs every piece longer "
+                         "than zero")
+    what = "branches" if isinstance(morphology, Outline) else "SWC pieces"
+    return tree, f"{args.tree} ({len(tree)} {what})"
+
+
+def _tree_course(args: argparse.Namespace, target: float, scheme: str, compare_step: float | None,
+                 soma_diameter: float | None, rule_fraction: float, rule_frequency: float):
+    """``advise --morphology FILE --quantity time-course``: the advice, the echoed inputs, the pieces'
+    names and the read points' texts."""
+    import dataclasses
+
+    from ..tree_laplace import PassiveTree
+    from ..verify.advice import advise_tree_course
+    from ..verify.tree_reading import TreePoints
+    from .reference import parser_for_quantities
+
+    tree, label = _read_tree(args)
+    if soma_diameter:
+        tree = dataclasses.replace(tree, soma_area=math.pi * soma_diameter**2)
+    rm, ri, cm = read_membrane(args)
+    cell = PassiveTree(tree, rm, ri, cm, tips=parse_end(args.end))
+    points = TreePoints(tree, parser_for_quantities)
+    texts = [item.strip() for item in (args.read_at or "soma").split(",")]
+    read, labels = [], []
+    for text in texts:
+        try:
+            point = points.point(text)
+        except InputError as exc:
+            raise InputError(f"--read-at: {exc}") from None
+        if point.label not in labels:
+            read.append(point.site)
+            labels.append(point.label)
+    times = np.array(parse_series(args.times, "time", "--times"))
+    advice = advise_tree_course(cell, read, target, times=times, scheme=scheme, compare_step=compare_step,
+                                rule_fraction=rule_fraction, rule_frequency=rule_frequency)
+    inputs = [("tree", label), ("Rm", format_quantity(rm, "membrane_resistivity")),
+              ("Ri", format_quantity(ri, "axial_resistivity")), ("Cm", format_quantity(cm, "membrane_capacitance")),
+              ("tips", args.end), ("stimulus", "current step at the soma (root)"), ("read at", ", ".join(labels))]
+    if tree.soma_area and not soma_diameter:
+        inputs.append(("soma area (from the file)", format_quantity(tree.soma_area, "area")))
+    return advice, inputs, [str(name) for name in tree.labels], labels
 
 
 def parse_parents(text: str) -> np.ndarray:
@@ -140,6 +191,10 @@ def parse_parents(text: str) -> np.ndarray:
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.morphology and args.tree:
+        raise InputError("--morphology: give the tree once, with --morphology (--tree is its older name)")
+    args.tree_option = "--tree" if args.tree else "--morphology"
+    args.tree = args.morphology or args.tree
     target = parse_relative(args.target, "--target")
     if not 1e-9 <= target < 1:
         raise InputError(f"--target: {args.target!r} must lie between 1e-7 % and 100 % (e.g. 1%)")
@@ -156,12 +211,20 @@ def run(args: argparse.Namespace) -> int:
     if args.soma_diameter:
         soma_diameter = parse_quantity(args.soma_diameter, "length", "--soma-diameter")
     is_tree = bool(args.tree or args.parents or args.lengths or args.diameters)
-    if is_tree:
+    read_labels: list[str] | None = None
+    if is_tree and args.quantity == "time-course":
+        if args.diameter or args.length:
+            raise InputError("give either --diameter/--length (one cable) or a tree, not both")
+        if not args.tree:
+            raise InputError("--quantity: time-course on a tree needs the morphology file; give --morphology FILE")
+        advice, inputs, names, read_labels = _tree_course(args, target, scheme, compare_step, soma_diameter,
+                                                          rule_fraction, rule_frequency)
+    elif is_tree:
         if args.diameter or args.length:
             raise InputError("give either --diameter/--length (one cable) or a tree, not both")
         if args.quantity not in TREE_QUANTITIES:
             raise InputError(f"--quantity: {args.quantity} is not available for a tree; choose "
-                             f"{' or '.join(TREE_QUANTITIES)}")
+                             f"{', '.join(TREE_QUANTITIES)} or (with --morphology) time-course")
         parents, lengths, diameters, file_soma_area, label, names = _tree_arrays(args)
         soma_area = math.pi * soma_diameter**2 if soma_diameter else (file_soma_area or 0.0)
         rm, ri, cm = read_membrane(args)
@@ -197,7 +260,8 @@ def run(args: argparse.Namespace) -> int:
     if soma_diameter:
         inputs.append(("soma diameter", format_quantity(soma_diameter, "length")))
     names_or_none = names if is_tree else None
-    print(dump_json(as_json(advice, names_or_none)) if args.json else as_text(advice, inputs, names_or_none))
+    print(dump_json(as_json(advice, names_or_none, read_labels)) if args.json
+          else as_text(advice, inputs, names_or_none, read_labels))
     return 0
 
 
@@ -223,7 +287,7 @@ def _exact_time_course(cylinder, soma_diameter, site):
     return course
 
 
-def as_json(a: Advice, names: list[str] | None = None) -> dict:
+def as_json(a: Advice, names: list[str] | None = None, read_at: list[str] | None = None) -> dict:
     out = {
         "quantity": a.output,
         "definition": OUTPUTS[a.output],
@@ -244,6 +308,9 @@ def as_json(a: Advice, names: list[str] | None = None) -> dict:
     }
     if a.site is not None:
         out["site"] = quantity(a.site, "length")
+    if read_at is not None and a.site_peaks is not None:
+        out["read_at"] = list(read_at)
+        out["peak_voltage_per_current"] = quantity(a.site_peaks, "resistance")
     if a.frequency is not None:
         out["frequency"] = quantity(a.frequency, "frequency")
     if a.time_step is not None:
@@ -292,7 +359,8 @@ def _percent(x: float) -> str:
     return f"{x * 100:.3g} %"
 
 
-def as_text(a: Advice, inputs: list[tuple[str, str]], names: list[str] | None = None) -> str:
+def as_text(a: Advice, inputs: list[tuple[str, str]], names: list[str] | None = None,
+            read_at: list[str] | None = None) -> str:
     blocks = [table(inputs, "Inputs")]
     what = OUTPUTS[a.output]
     if a.site is not None:
@@ -308,10 +376,15 @@ def as_text(a: Advice, inputs: list[tuple[str, str]], names: list[str] | None = 
         rows.append(("exact V(site)/V(0)", f"{a.exact_value.real:.6g}"))
     elif a.time_step is not None:
         s = a.time_step
-        rows += [("time window", f"0 to {format_quantity(s.last_time, 'time')}, {s.samples} sample times "
-                                 f"(common spacing {format_quantity(s.output_spacing, 'time')})"),
-                 ("exact peak V/I", f"{format_quantity(a.exact_value.real, 'resistance')} "
-                                    "(relative errors are per the peak voltage)")]
+        rows.append(("time window", f"0 to {format_quantity(s.last_time, 'time')}, {s.samples} sample times "
+                                    f"(common spacing {format_quantity(s.output_spacing, 'time')})"))
+        if read_at is not None and a.site_peaks is not None:
+            rows += [(f"exact peak V/I at {where}", format_quantity(float(peak), "resistance"))
+                     for where, peak in zip(read_at, a.site_peaks, strict=True)]
+            rows.append(("relative errors", "at each point, per that point's own peak voltage"))
+        else:
+            rows.append(("exact peak V/I", f"{format_quantity(a.exact_value.real, 'resistance')} "
+                                           "(relative errors are per the peak voltage)"))
     blocks.append(table(rows, "Question"))
     n_branches = a.compartments.size
     share = a.time_step.space_target if a.time_step is not None else a.target
@@ -339,14 +412,15 @@ def as_text(a: Advice, inputs: list[tuple[str, str]], names: list[str] | None = 
                          f"{a.rule_compartments[i]:15d}")
         lines.append(f"  {'total':>{width}}         {int(a.compartments.sum()):8d} "
                      f"{int(a.rule_compartments.sum()):15d}")
-        lines.append(f"  error at the root: needed {_percent(a.error)}, rule of thumb {_percent(a.rule_error)}")
+        where = "at the root" if read_at is None else "at the read points"
+        lines.append(f"  error {where}: needed {_percent(a.error)}, rule of thumb {_percent(a.rule_error)}")
         blocks.append("\n".join(lines))
     verdict = "meets" if a.rule_error <= share else "misses"
     goal = "the target" if a.time_step is None else "the space share"
     blocks.append(f"The rule of thumb {verdict} {goal} for this output. Compartment counts assume equal "
                   "compartments with nodes at both ends (second order in Δx); errors were measured, not guessed.")
     if a.time_step is not None:
-        blocks.append(_step_text(a.time_step, int(a.compartments[0]), a.target))
+        blocks.append(_step_text(a.time_step, int(a.compartments.sum()), a.target))
     blocks.append(PASSIVE_CAVEAT)
     return "\n\n".join(blocks)
 

@@ -15,7 +15,7 @@ verdict. A simulator with active conductances is outside what this package can c
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -25,6 +25,7 @@ from .. import cable as cb
 from .. import compartment as cp
 from ..errors import ConvergenceError, InputError
 from ..tree.geometry import input_admittances
+from ..tree_laplace import PassiveTree, Site, root_site
 
 __all__ = [
     "OUTPUTS",
@@ -32,6 +33,7 @@ __all__ = [
     "StepAdvice",
     "advise_cable",
     "advise_tree",
+    "advise_tree_course",
 ]
 
 Array = NDArray[np.float64]
@@ -106,6 +108,7 @@ class Advice:
     frequency: float | None = None  # Hz, for "impedance"
     step: float | None = None  # s, Δt used for the time course (fine enough to be negligible)
     time_step: StepAdvice | None = None  # for "time-course": the largest Δt for the time share
+    site_peaks: Array | None = None  # V per A, a tree's time course: the peak exact voltage at each read site
 
 
 def _root_admittance(parents: ArrayLike, lengths: ArrayLike, diameters: ArrayLike, membrane_resistivity: float,
@@ -308,8 +311,10 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
             raise InputError(f"time step to compare must be a finite positive time in s, got {compare_step!r}")
         t = np.asarray(times, dtype=float)
         spacing = _output_spacing(t)
-        v_exact = np.asarray(exact_time_course(t), dtype=float)
+        v_exact = np.asarray(exact_time_course(t), dtype=float).reshape(t.size, 1)
         peak = float(np.max(np.abs(v_exact)))
+        peaks = np.array([peak])
+        probe: Probe = ((0, where),)
         if not peak > 0:
             raise InputError(f"the exact voltage at the site ({where!r} m) stays at rest (a killed end?), so a "
                              "relative error means nothing there; choose another --read-at")
@@ -318,27 +323,132 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
         # a Crank–Nicolson Δt whose own time error is negligible beside both shares, found on a
         # probe grid (the time error hardly depends on the compartment count)
         negligible = min(space_target, target - space_target) / REFERENCE_MARGIN
-        probe = cp.discretise_cable(cylinder, int(np.clip(rule_n[0], 8, 400)), soma_area=soma_area or None)
+        grid = cp.discretise_cable(cylinder, int(np.clip(rule_n[0], 8, 400)), soma_area=soma_area or None)
         start = math.ceil(spacing / (cylinder.time_constant / 2000))  # first try: Δt near τm/2000
-        step = _time_converged(probe, where, t, spacing, start, peak, negligible)[1]
+        step = _time_converged(grid, probe, t, spacing, start, peaks, negligible)[1]
         fine = step
 
         def error_at(n: NDArray[np.int64]) -> float:
             c = cp.discretise_cable(cylinder, int(n[0]), soma_area=soma_area or None)
-            return float(np.max(np.abs(_step_course(c, where, t, fine, "crank-nicolson") - v_exact))) / peak
+            return _worst(_step_course(c, probe, t, fine, "crank-nicolson"), v_exact, peaks)
 
     electrotonic = np.array([cylinder.electrotonic_length])
     n, err = _search(error_at, electrotonic, space_target, 20_000 if output == "time-course" else MAX_COMPARTMENTS)
     time_step = None
     if output == "time-course":
         c = cp.discretise_cable(cylinder, int(n[0]), soma_area=soma_area or None)
-        time_step, err, step = _advise_step(c, where, t, v_exact, peak, spacing, round(spacing / fine), scheme,
+        time_step, err, step = _advise_step(c, probe, t, v_exact, peaks, spacing, round(spacing / fine), scheme,
                                             space_target, target - space_target, negligible, compare_step)
     return Advice(output=output, target=target, exact_value=exact, compartments=n, error=err, rule_compartments=rule_n,
                   rule_error=error_at(rule_n), rule_fraction=rule_fraction, rule_frequency=rule_frequency,
                   length_constants=lam, length_constants_at_frequency=lam_f, electrotonic_lengths=electrotonic,
                   site=where if output in ("attenuation", "time-course") else None,
                   frequency=frequency if output == "impedance" else None, step=step, time_step=time_step)
+
+
+def advise_tree_course(cell: PassiveTree, read: Sequence[Site], target: float, *, times: ArrayLike,
+                       scheme: str = "crank-nicolson", space_share: float = SPACE_SHARE,
+                       compare_step: float | None = None, rule_fraction: float = 0.1,
+                       rule_frequency: float = 100.0) -> Advice:
+    """Compartments per piece and the time step for a time course on a whole tree.
+
+    A current step at the root (soma) is read at the tree sites ``read``; the error is the largest
+    over the sample times and the sites of |compartmental − exact|, each site's error divided by
+    its own peak exact voltage, so every site meets the target. The exact course is the tree's
+    Laplace-domain solution inverted on a contour (:func:`cabletheory.tree_time.tree_response`;
+    Holmes 1986, Weideman & Trefethen 2007); the compartments are those of
+    :func:`cabletheory.compartment.discretise_tree`, one run of equal compartments per piece,
+    spread with equal electrotonic spacing, which is where the second-order error is even; the
+    time step is chosen as for one cable (:class:`StepAdvice`): ``space_share`` of the target to
+    the compartments, the rest to Δt, and the pair verified against the exact course.
+
+    Parameters
+    ----------
+    cell : the tree (cylindrical pieces of positive length; one Rm and one Cm for the whole cell)
+    read : the sites where the time course must be accurate (the root, points, or along pieces)
+    target : relative error, e.g. 0.01 for 1 %
+    times : s, sample times (>= 0, sharing a common step; the step is at t = 0)
+    scheme, space_share, compare_step, rule_fraction, rule_frequency : as for :func:`advise_cable`
+    """
+    from ..case import CurrentStep
+    from ..tree_time import tree_response
+
+    _check_target(target)
+    cp.expected_order(scheme)
+    if not (math.isfinite(space_share) and 0 < space_share < 1):
+        raise InputError(f"space share of the target must lie strictly between 0 and 1, got {space_share!r}")
+    if compare_step is not None and not (math.isfinite(compare_step) and compare_step > 0):
+        raise InputError(f"time step to compare must be a finite positive time in s, got {compare_step!r}")
+    tree = cell.tree
+    read = tuple(read)
+    if not read:
+        raise InputError("give at least one site to read the time course at")
+    if tree.geometry != "cylinders" or not np.allclose(tree.proximal_diameters, tree.distal_diameters, rtol=1e-12):
+        raise InputError(f"{tree.source}: the tree has tapered pieces (frusta); the compartments advised here are "
+                         "uniform cylinders (read the file without --taper)")
+    short = np.flatnonzero(np.asarray(tree.lengths) <= 0)
+    if short.size:
+        raise InputError(f"{tree.source}, line {int(tree.lines[short[0]])}: piece {tree.labels[short[0]]!r} has "
+                         "zero length; advice needs every piece longer than zero")
+    rm_all, cm_all = np.atleast_1d(cell.membrane_resistivity), np.atleast_1d(cell.membrane_capacitance)
+    if rm_all.size != 1 or cm_all.size != 1 or cell.soma_membrane_resistivity is not None \
+            or cell.soma_membrane_capacitance is not None:
+        raise InputError("advice on a tree needs one Rm and one Cm for the whole cell")
+    rm, ri, cmem = float(rm_all[0]), float(cell.axial_resistivity), float(cm_all[0])
+    parents = np.asarray(tree.parents, dtype=np.int64)
+    lengths = np.asarray(tree.lengths, dtype=float)
+    diameters = np.asarray(tree.distal_diameters, dtype=float)
+    ends = cell.tip_conductances()
+    soma = tree.soma_area or None
+
+    t = np.asarray(times, dtype=float)
+    spacing = _output_spacing(t)
+    v_exact = tree_response(cell, CurrentStep(1.0), t, root_site(), read, tolerance=1e-10).voltage
+    peaks = np.max(np.abs(v_exact), axis=0)
+    if not np.all(peaks > 0):
+        k = int(np.argmin(peaks))
+        raise InputError(f"the exact voltage at read site {k + 1} stays at rest (a killed tip?), so a relative "
+                         "error means nothing there; choose another site")
+    root_piece = int(np.flatnonzero(parents == -1)[0])
+
+    def probe_of(c: cp.Compartments) -> Probe:
+        out = []
+        for site in read:
+            if site.piece < 0:
+                out.append((root_piece, 0.0))
+            else:
+                assert c.proximal is not None
+                out.append((site.piece, float(c.distance[c.proximal[site.piece]]) + site.distance))
+        return tuple(out)
+
+    def discretise(n: NDArray[np.int64]) -> cp.Compartments:
+        return cp.discretise_tree(parents, lengths, diameters, rm, ri, cmem, n, soma_area=soma, end_conductances=ends)
+
+    rule_n, lam, lam_f = _rule(lengths, diameters, rm, ri, cmem, rule_fraction, rule_frequency)
+    electrotonic = lengths / lam
+    space_target = target * space_share
+    time_target = target - space_target
+    negligible = min(space_target, time_target) / REFERENCE_MARGIN
+    grid = discretise(np.maximum(rule_n, 1))
+    start = math.ceil(spacing / (rm * cmem / 2000))  # first try: Δt near τm/2000
+    fine = _time_converged(grid, probe_of(grid), t, spacing, start, peaks, negligible)[1]
+
+    def error_at(n: NDArray[np.int64]) -> float:
+        c = discretise(n)
+        return _worst(_step_course(c, probe_of(c), t, fine, "crank-nicolson"), v_exact, peaks)
+
+    n, err = _search(error_at, electrotonic, space_target, MAX_TREE_NODES)
+    c = discretise(n)
+    time_step, err, step = _advise_step(c, probe_of(c), t, v_exact, peaks, spacing, round(spacing / fine), scheme,
+                                        space_target, time_target, negligible, compare_step)
+    return Advice(output="time-course", target=target, exact_value=complex(float(np.max(peaks))), compartments=n,
+                  error=err, rule_compartments=rule_n, rule_error=error_at(rule_n), rule_fraction=rule_fraction,
+                  rule_frequency=rule_frequency, length_constants=np.asarray(lam, dtype=float),
+                  length_constants_at_frequency=np.asarray(lam_f, dtype=float), electrotonic_lengths=electrotonic,
+                  step=step, time_step=time_step, site_peaks=peaks)
+
+
+MAX_TREE_NODES = 50_000
 
 
 def _output_spacing(times: Array) -> float:
@@ -364,17 +474,27 @@ def _divides(step: float, times: Array) -> bool:
     return bool(np.all(np.abs(counts * step - times) <= 1e-6 * step + 1e-12 * np.abs(times)))
 
 
-def _step_course(c: cp.Compartments, where: float, times: Array, step: float, scheme: str) -> Array:
-    """Voltage (V) at ``where`` for a 1 A step at node 0, by ``compartment.integrate`` at Δt = ``step``."""
+Probe = tuple[tuple[int, float], ...]  # read sites: (branch of the discretisation, path distance from the root, m)
+
+
+def _worst(course: Array, other: Array, peak: Array) -> float:
+    """Largest |course − other| over times and sites, each site's error per its own peak voltage."""
+    return float(np.max(np.abs(course - other) / peak))
+
+
+def _step_course(c: cp.Compartments, where: Probe, times: Array, step: float, scheme: str) -> Array:
+    """Voltage (V) at the probe's sites for a 1 A step at node 0 (time × site), by
+    ``compartment.integrate`` at Δt = ``step``."""
     if times[-1] / step > MAX_TIME_STEPS:
         raise ConvergenceError(f"a time step of {step:.3g} s needs more than {MAX_TIME_STEPS} steps over "
                                f"{times[-1]:.3g} s; ask for a looser target or a shorter time course")
     current = np.zeros(c.size)
     current[0] = 1.0
-    return cp.sample(c, cp.integrate(c, current, times, scheme=scheme, step=step), [where])[:, 0]
+    v = cp.integrate(c, current, times, scheme=scheme, step=step)
+    return np.stack([cp.sample(c, v, [distance], branch)[:, 0] for branch, distance in where], axis=1)
 
 
-def _time_converged(c: cp.Compartments, where: float, times: Array, spacing: float, divisions: int, peak: float,
+def _time_converged(c: cp.Compartments, where: Probe, times: Array, spacing: float, divisions: int, peak: Array,
                     tolerance: float) -> tuple[Array, float, float, int]:
     """A Crank–Nicolson solve whose own time error is at most ``tolerance`` (relative to ``peak``).
 
@@ -387,7 +507,7 @@ def _time_converged(c: cp.Compartments, where: float, times: Array, spacing: flo
     for solves in range(2, 20, 2):
         h = spacing / divisions
         course = _step_course(c, where, times, h, "crank-nicolson")
-        estimate = float(np.max(np.abs(course - _step_course(c, where, times, 2 * h, "crank-nicolson")))) / 3 / peak
+        estimate = _worst(course, _step_course(c, where, times, 2 * h, "crank-nicolson"), peak) / 3
         if estimate <= tolerance:
             return course, h, estimate, solves
         # second order: the error falls as h²
@@ -395,7 +515,7 @@ def _time_converged(c: cp.Compartments, where: float, times: Array, spacing: flo
     raise ConvergenceError(f"no Crank–Nicolson step reached a time error of {tolerance:.3g}")  # pragma: no cover
 
 
-def _advise_step(c: cp.Compartments, where: float, times: Array, v_exact: Array, peak: float, spacing: float,
+def _advise_step(c: cp.Compartments, where: Probe, times: Array, v_exact: Array, peak: Array, spacing: float,
                  divisions: int, scheme: str, space_target: float, time_target: float, negligible: float,
                  compare_step: float | None) -> tuple[StepAdvice, float, float]:
     """The largest Δt = spacing/m (m a whole number) whose time error meets ``time_target``.
@@ -409,7 +529,7 @@ def _advise_step(c: cp.Compartments, where: float, times: Array, v_exact: Array,
     """
     order = cp.expected_order(scheme)[1]
     reference, ref_step, ref_error, solves = _time_converged(c, where, times, spacing, divisions, peak, negligible)
-    space_error = float(np.max(np.abs(reference - v_exact))) / peak
+    space_error = _worst(reference, v_exact, peak)
     # the reference is itself off by up to ref_error: keep the time error against a fully
     # converged run within the share (triangle inequality)
     budget = time_target - ref_error
@@ -417,7 +537,7 @@ def _advise_step(c: cp.Compartments, where: float, times: Array, v_exact: Array,
 
     def measure(m: int) -> float:
         course = _step_course(c, where, times, spacing / m, scheme)
-        tried[m] = (float(np.max(np.abs(course - reference))) / peak, course)
+        tried[m] = (_worst(course, reference, peak), course)
         return tried[m][0]
 
     def predicted(m: int) -> int:  # divisions for the budget if e ∝ (spacing/m)^p
@@ -440,14 +560,14 @@ def _advise_step(c: cp.Compartments, where: float, times: Array, v_exact: Array,
         else:
             lo = guess
     time_error, course = tried[m]
-    total = float(np.max(np.abs(course - v_exact))) / peak  # the verification: against the exact course
+    total = _worst(course, v_exact, peak)  # the verification: against the exact course
     e1 = tried[1][0]
     limited = m == 1
     estimate = spacing * (budget / e1) ** (1.0 / order) if limited and e1 > 0 else None
     compare_error = None
     if compare_step is not None and _divides(compare_step, times):
         fixed = _step_course(c, where, times, compare_step, scheme)
-        compare_error = float(np.max(np.abs(fixed - v_exact))) / peak
+        compare_error = _worst(fixed, v_exact, peak)
         solves += 1
     advice = StepAdvice(scheme=scheme, order=order, space_target=space_target, time_target=time_target,
                         step=spacing / m, divisions=m, output_spacing=spacing, last_time=float(times[-1]),
