@@ -181,6 +181,7 @@ class Derivation:
     laplace_point_source: Any
     soma_relation: Any = None
     shown_as: Derivation | None = None
+    derived: tuple[str, ...] = PARTS
 
     def parts(self, part: str = "all") -> list[tuple[str, Any]]:
         """(label, sympy Eq) pairs for ``part`` in ``PARTS`` or ``"all"``, in reading order."""
@@ -188,6 +189,9 @@ class Derivation:
 
         if part != "all" and part not in PARTS:
             raise InputError(f"part: {part!r} is not one of {', '.join((*PARTS, 'all'))}")
+        missing = [p for p in (PARTS if part == "all" else (part,)) if p not in self.derived]
+        if missing:
+            raise InputError(f"part: {', '.join(missing)} was not derived (derive(..., part=...) with that part)")
         if self.shown_as is not None:
             shown = self.shown_as.parts(part)
             return [*shown[:3], ("Rall's ρ = G_D/G_S gives ρ∞ = G∞/G_S as", self.soma_relation), *shown[3:]]
@@ -358,7 +362,8 @@ def to_numeric(expr: Any, variables: Sequence[Any], modules: str = "numpy") -> C
 # --------------------------------------------------------------------------------------
 # the derivations
 # --------------------------------------------------------------------------------------
-def derive(origin: str = "current", end: str = "sealed", *, soma_parameter: str = "rho") -> Derivation:
+def derive(origin: str = "current", end: str = "sealed", *, soma_parameter: str = "rho",
+           part: str = "all") -> Derivation:
     """Derive steady state, modes and Laplace-domain solution for one cylinder.
 
     Parameters
@@ -368,6 +373,9 @@ def derive(origin: str = "current", end: str = "sealed", *, soma_parameter: str 
     end : ``"sealed"``, ``"killed"`` or ``"leaky"`` (ratio B) at X = L
     soma_parameter : for a soma, express it through Rall's ``"rho"`` = G_D/G_S or through
         ``"rho_inf"`` = G∞/G_S (ignored otherwise)
+    part : one of :data:`PARTS` to derive only that part (the fields of the others are ``None``,
+        and :meth:`Derivation.parts` refuses them; ``"steady"`` takes a fifth of the time), or
+        ``"all"``
 
     Returns
     -------
@@ -383,11 +391,13 @@ def derive(origin: str = "current", end: str = "sealed", *, soma_parameter: str 
         raise InputError(f"origin: {origin!r} is not one of {', '.join(ORIGINS)}")
     if end not in ENDS:
         raise InputError(f"end: {end!r} is not one of {', '.join(ENDS)}")
+    if part != "all" and part not in PARTS:
+        raise InputError(f"part: {part!r} is not one of {', '.join((*PARTS, 'all'))}")
     if origin == "soma":
         if soma_parameter not in SOMA_PARAMETERS:
             raise InputError(f"soma_parameter: {soma_parameter!r} is not one of {', '.join(SOMA_PARAMETERS)}")
-        return _derive(origin, end, soma_parameter)
-    return _derive(origin, end, None)
+        return _derive(origin, end, soma_parameter, part)
+    return _derive(origin, end, None, part)
 
 
 class _Problem:
@@ -465,14 +475,17 @@ def _basis(general: Any, X: Any, functions: Sequence[Any], ode: Any, f: Any) -> 
 
 
 @functools.cache
-def _derive(origin: str, end: str, soma_parameter: str | None) -> Derivation:
+def _derive(origin: str, end: str, soma_parameter: str | None, part: str = "all") -> Derivation:
     import sympy as sp
 
     if soma_parameter == "rho":
-        return _rho_form(_derive(origin, end, "rho_inf"))
+        return _rho_form(_derive(origin, end, "rho_inf", part))
+    if part != "all" and (origin, end, soma_parameter, "all") in _ALL_DONE:
+        return _derive(origin, end, soma_parameter, "all")  # already derived in full: reuse it
+    wanted = PARTS if part == "all" else (part,)
     P = _Problem(origin, end)
     X, T, L = P.X, P.T, P.L
-    X0, a, s, q = (_symbol(n) for n in ("X0", "alpha", "s", "q"))
+    X0 = _symbol("X0")
     rho_inf = _symbol("rho_inf")
     k1, k2 = sp.symbols("k1 k2")
     soma_weight = 1 / rho_inf if origin == "soma" else 0  # soma capacitance / (c_m λ) = G_S/G∞
@@ -493,18 +506,62 @@ def _derive(origin: str, end: str, soma_parameter: str | None) -> Derivation:
 
     # ---- point source at X0 (steady Green's function) ----------------------------------
     k3, k4 = sp.symbols("k3 k4")
-    left = k1 * near[0] + k2 * near[1]
-    right = k3 * far[0] + k4 * far[1]
-    origin_hom = P.steady(P.origin_expr, w)
-    conditions = [
-        _eq_at(origin_hom, w, left, X, 0),
-        _eq_at(end_ss, w, right, X, L),
-        (left - right).subs(X, X0),  # continuity of V
-        (sp.diff(left, X) - sp.diff(right, X)).subs(X, X0) - 1,  # -[∂V/∂X] = injected current
-    ]
-    sol = sp.solve(conditions, [k1, k2, k3, k4], dict=True)[0]
-    point_source = _wronskian_form(sp.Piecewise((left.subs(sol), X <= X0), (right.subs(sol), True)))
+    point_source = None
+    if "point" in wanted:
+        left = k1 * near[0] + k2 * near[1]
+        right = k3 * far[0] + k4 * far[1]
+        origin_hom = P.steady(P.origin_expr, w)
+        conditions = [
+            _eq_at(origin_hom, w, left, X, 0),
+            _eq_at(end_ss, w, right, X, L),
+            (left - right).subs(X, X0),  # continuity of V
+            (sp.diff(left, X) - sp.diff(right, X)).subs(X, X0) - 1,  # -[∂V/∂X] = injected current
+        ]
+        sol = sp.solve(conditions, [k1, k2, k3, k4], dict=True)[0]
+        point_source = _wronskian_form(sp.Piecewise((left.subs(sol), X <= X0), (right.subs(sol), True)))
+    modes = _modes(P, steady_state, soma_weight) if "modes" in wanted else dict.fromkeys(
+        ("eigenfunction", "eigenvalue_equation", "zero_mode", "mode_norm", "coefficient",
+         "zero_mode_coefficient", "impulse_coefficient"))
+    laplace = laplace_point_source = None
+    if "laplace" in wanted or "point" in wanted:
+        laplace, laplace_point_source = _laplace(P, k1, k2, k3, k4)
 
+    # ---- time-domain statement of the problem, for display -----------------------------
+    drive_text = sp.Function("I")(T) if origin != "clamp" else sp.Function("V_c")(T)
+    origin_condition = sp.Eq(P.origin_expr, drive_text)
+    end_condition = sp.Eq(P.end_expr, 0)
+    equation = sp.Eq(sp.Derivative(P.V, T), sp.Derivative(P.V, (X, 2)) - P.V)
+
+    name = f"Passive cylinder: {_ORIGIN_TEXT[origin]}; {_END_TEXT[end]}"
+    assumptions = list(ASSUMPTIONS)
+    if origin == "soma":
+        assumptions.append("the soma is isopotential and has the same membrane time constant τm")
+    fields = {
+        "steady_state": steady_state, "point_source": point_source, **modes,
+        "laplace": laplace if "laplace" in wanted else None,
+        "laplace_point_source": laplace_point_source if "point" in wanted else None,
+        "origin_condition": origin_condition,
+    }
+    if soma_parameter == "rho_inf":
+        assumptions.append("ρ∞ = G∞/G_S")
+        name += " (parameter ρ∞ = G∞/G_S)"
+    if part == "all":
+        _ALL_DONE.add((origin, end, soma_parameter, "all"))
+    return Derivation(
+        origin=origin, end=end, soma_parameter=soma_parameter, name=name,
+        assumptions=tuple(assumptions), equation=equation, end_condition=end_condition, derived=wanted, **fields,
+    )
+
+
+_ALL_DONE: set[tuple[str, str, str | None, str]] = set()  # full derivations made (and cached) so far
+
+
+def _modes(P: _Problem, steady_state: Any, soma_weight: Any) -> dict[str, Any]:
+    """The modes: eigenfunction, eigenvalue equation, zero mode, norm and coefficients."""
+    import sympy as sp
+
+    X, L = P.X, P.L
+    X0, a = _symbol("X0"), _symbol("alpha")
     # ---- modes: V = φ(X) e^{-(1+α²)T}, φ'' + α² φ = 0 ------------------------------------
     phi = sp.Function("phi")
     ode_modes = P.separated(P.pde, phi)
@@ -544,6 +601,17 @@ def _derive(origin: str, end: str, soma_parameter: str | None) -> Derivation:
         projection0 = -bracket + soma_weight * steady_state.subs(X, 0) * zero_mode.subs(X, 0)
         zero_mode_coefficient = _tidy(projection0 * zero_mode / norm0)
 
+    return {"eigenfunction": eigenfunction, "eigenvalue_equation": eigenvalue_equation, "zero_mode": zero_mode,
+            "mode_norm": mode_norm, "coefficient": coefficient, "zero_mode_coefficient": zero_mode_coefficient,
+            "impulse_coefficient": impulse_coefficient}
+
+
+def _laplace(P: _Problem, k1: Any, k2: Any, k3: Any, k4: Any) -> tuple[Any, Any]:
+    """The Laplace-domain solutions: a unit step at the origin, and a unit impulse at X0."""
+    import sympy as sp
+
+    X, T, L = P.X, P.T, P.L
+    X0, s, q = _symbol("X0"), _symbol("s"), _symbol("q")
     # ---- Laplace domain: transform in T, then U'' - q² U = 0 ------------------------------
     u = sp.Function("u")
     ode_lt = P.laplace(P.pde, u, drive=False)
@@ -574,31 +642,8 @@ def _derive(origin: str, end: str, soma_parameter: str | None) -> Derivation:
     laplace_point_source = _wronskian_form(
         sp.Piecewise((left.subs(sol), X <= X0), (right.subs(sol), True))).subs(q, sp.sqrt(s + 1))
 
-    # ---- time-domain statement of the problem, for display -----------------------------
-    drive_text = sp.Function("I")(T) if origin != "clamp" else sp.Function("V_c")(T)
-    origin_condition = sp.Eq(P.origin_expr, drive_text)
-    end_condition = sp.Eq(P.end_expr, 0)
-    equation = sp.Eq(sp.Derivative(P.V, T), sp.Derivative(P.V, (X, 2)) - P.V)
+    return laplace, laplace_point_source
 
-    name = f"Passive cylinder: {_ORIGIN_TEXT[origin]}; {_END_TEXT[end]}"
-    assumptions = list(ASSUMPTIONS)
-    if origin == "soma":
-        assumptions.append("the soma is isopotential and has the same membrane time constant τm")
-    fields = {
-        "steady_state": steady_state, "point_source": point_source,
-        "eigenfunction": eigenfunction, "eigenvalue_equation": eigenvalue_equation,
-        "zero_mode": zero_mode, "mode_norm": mode_norm, "coefficient": coefficient,
-        "zero_mode_coefficient": zero_mode_coefficient, "impulse_coefficient": impulse_coefficient,
-        "laplace": laplace, "laplace_point_source": laplace_point_source,
-        "origin_condition": origin_condition,
-    }
-    if soma_parameter == "rho_inf":
-        assumptions.append("ρ∞ = G∞/G_S")
-        name += " (parameter ρ∞ = G∞/G_S)"
-    return Derivation(
-        origin=origin, end=end, soma_parameter=soma_parameter, name=name,
-        assumptions=tuple(assumptions), equation=equation, end_condition=end_condition, **fields,
-    )
 
 
 _SYMBOLIC_FIELDS = ("steady_state", "point_source", "eigenfunction", "eigenvalue_equation", "zero_mode",
@@ -617,11 +662,12 @@ def _rho_form(base: Derivation) -> Derivation:
     import sympy as sp
 
     X, a, rho, rho_inf = (_symbol(n) for n in ("X", "alpha", "rho", "rho_inf"))
-    r_in = _derive("current", base.end, None).steady_state.subs(X, 0)
+    r_in = _derive("current", base.end, None, "steady").steady_state.subs(X, 0)
     fields: dict[str, Any] = {
         k: (None if getattr(base, k) is None else _tidy(getattr(base, k).subs(rho_inf, rho * r_in)))
         for k in _SYMBOLIC_FIELDS}
-    fields["eigenvalue_equation"] = _clean_equation(fields["eigenvalue_equation"], a)
+    if fields["eigenvalue_equation"] is not None:
+        fields["eigenvalue_equation"] = _clean_equation(fields["eigenvalue_equation"], a)
     assumptions = [*base.assumptions[:-1], "ρ = G_D/G_S, G_D the steady input conductance of the cylinder"]
     return dataclasses.replace(
         base, **fields, soma_parameter="rho",

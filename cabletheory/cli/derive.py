@@ -59,7 +59,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def run(args: argparse.Namespace) -> int:
     parameter = args.soma_ratio.replace("-", "_")
-    derivation = derive(args.origin, args.end, soma_parameter=parameter)
+    derivation = derive(args.origin, args.end, soma_parameter=parameter, part=args.part)
     if args.json:
         data = derivation.as_json(args.part)
         data["caveat"] = PASSIVE_CAVEAT
