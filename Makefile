@@ -10,10 +10,10 @@ TESTS  := $(VENV)/.installed-test
 demo: $(BASE)            ## install and run the main job on bundled data
 	$(BIN)/cabletheory demo
 
-test: $(TESTS)           ## install with test extras, lint, type-check the core, run every test
+test: $(TESTS)           ## install with test extras, lint, type-check the core, run every test (one worker per core)
 	$(BIN)/ruff check cabletheory tests benchmarks worked scripts
 	$(BIN)/mypy
-	$(BIN)/python -m pytest -q
+	$(BIN)/python -m pytest -q -n auto --dist worksteal
 
 bench: $(BASE)           ## speed figures against their goals, one table (ROWS="startup app" for some)
 	$(BIN)/python benchmarks/run_all.py $(ROWS)
