@@ -4,7 +4,8 @@ The tree counterpart of :class:`cabletheory.case.Case`: the cell is a
 :class:`~cabletheory.tree_laplace.PassiveTree` (any reconstructed morphology, its tips sealed,
 killed or leaky), the stimulus one of the case model's (built by the same rules,
 :func:`cabletheory.case.build_stimulus`), and the sites are named by the morphology's own point
-labels (SWC ids or outline branch names; 'soma' or 'root' for the root). Every rule is checked on
+labels (SWC ids or outline branch names; 'soma' or 'root' for the root) or as distances along a
+branch ('branch 443 +25 um'; :mod:`cabletheory.tree_sites`). Every rule is checked on
 construction and each refusal names its field (:class:`~cabletheory.case.CaseFieldError`), so the
 command line can say ``--stimulus-at`` or ``--positions``.
 
@@ -35,7 +36,8 @@ from .case import (
     shape_of,
 )
 from .errors import InputError
-from .tree_laplace import PassiveTree, Site, site_at
+from .tree_laplace import PassiveTree, Site
+from .tree_sites import tree_site
 
 __all__ = ["TreeCase", "build_tree_case"]
 
@@ -70,7 +72,7 @@ class TreeCase:
 
     def _resolve(self, label: str, field: str) -> Site:
         try:
-            return site_at(self.cell.tree, label)
+            return tree_site(self.cell.tree, label)
         except InputError as exc:
             raise CaseFieldError(field, str(exc).split(": ", 1)[-1]) from None
 
@@ -81,11 +83,11 @@ class TreeCase:
 
     @property
     def stimulus_site(self) -> Site:
-        return site_at(self.cell.tree, self.stimulus_label)
+        return tree_site(self.cell.tree, self.stimulus_label)
 
     @property
     def sites(self) -> tuple[Site, ...]:
-        return tuple(site_at(self.cell.tree, label) for label in self.labels)
+        return tuple(tree_site(self.cell.tree, label) for label in self.labels)
 
     @property
     def membrane_time_constant(self) -> float:

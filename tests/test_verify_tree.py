@@ -287,3 +287,30 @@ def test_a_step_at_a_tip_matches_the_exact_tree(tmp_path):
     result = compare(read.recording, exact, 1e-6)
     direct = tree_response(cell, case.stimulus, times, case.stimulus_site, read.sites, tolerance=1e-12).voltage
     np.testing.assert_allclose(result.exact.reshape(times.size, 2), direct, rtol=1e-9, atol=1e-15)
+
+
+def test_points_along_branches_round_trip_through_reference_and_compare(tmp_path, capsys):
+    """reference --positions takes the same syntax; its rows read back with zero error."""
+    exact = tmp_path / "along.csv"
+    assert main(["reference", *CASE, "--morphology", str(LW1), "--stimulus-at", "branch 30 +100 um",
+                 "--times", "0:6:0.5 ms", "--positions", "soma, branch 30 +100 um, branch 434 +20 um",
+                 "--output", str(exact)]) == 0
+    capsys.readouterr()
+    report = _json(capsys, ["compare", str(exact), *CASE, "--morphology", str(LW1), "--stimulus-at",
+                            "branch 30 +100 um", "--pass-within", "1 fV"])
+    run = report["runs"][0]
+    assert run["sites"] == ["soma", "branch 30 +100 um", "branch 434 +20 um"]
+    assert run["max_abs_error"]["value"] <= 1e-18
+
+
+def test_the_core_reads_simple_length_units_without_a_unit_library():
+    from cabletheory.tree_sites import tree_site
+
+    tree = _tree(LW1)
+    want = site_on_branch(tree, 0, 100e-6)
+    for text in ("branch 30 +0.1 mm", "branch 30 +100 um", "branch 30 +100 µm", "branch 30 +100", "branch 30 +1e-4 m"):
+        got = tree_site(tree, text)
+        assert got.piece == want.piece, text
+        assert got.distance == pytest.approx(want.distance, rel=1e-12), text
+    with pytest.raises(InputError, match="cannot read '3 furlongs' as a distance"):
+        tree_site(tree, "branch 30 +3 furlongs")
