@@ -37,7 +37,7 @@ from .case import (
 )
 from .errors import InputError
 from .tree_laplace import PassiveTree, Site
-from .tree_sites import tree_site
+from .tree_sites import in_words, tree_site
 
 __all__ = ["TreeCase", "build_tree_case"]
 
@@ -99,7 +99,7 @@ class TreeCase:
         tree = self.cell.tree
         what = {"step": "current step", "pulse": "current pulse", "alpha": "alpha current",
                 "clamp": "voltage-clamp step"}[self.shape]
-        where = "the soma" if self.stimulus_site.piece == -1 else f"point {self.stimulus_label}"
+        where = in_words(self.stimulus_label, self.stimulus_site)
         return f"passive tree from {tree.source} ({len(tree)} pieces), {what} at {where}"
 
     def parameters(self) -> dict[str, tuple[float, str]]:

@@ -31,7 +31,7 @@ from .tree import Tree
 from .tree.geometry import branch_ids
 from .tree_laplace import Site, root_site, site_on_branch
 
-__all__ = ["ROOT_WORDS", "TreePoint", "TreeSites", "tree_site"]
+__all__ = ["ROOT_WORDS", "TreePoint", "TreeSites", "in_words", "tree_site"]
 
 # (text, kind, where) -> SI value: the unit parser of the command line (units.parse_quantity)
 LengthParser = Callable[[str, str, str], float]
@@ -179,3 +179,11 @@ class TreeSites:
 def tree_site(tree: Tree, text: str, parse: LengthParser | None = None) -> Site:
     """The site of ``tree`` that ``text`` names (a point label, 'soma', 'branch 443 +25 um')."""
     return TreeSites(tree, parse).point(text).site
+
+
+def in_words(label: str, site: Site | None = None) -> str:
+    """A site's text for a sentence: 'the soma', 'point 412', 'branch 443 +25 um'."""
+    text = label.strip()
+    if (site is not None and site.piece == -1) or text.lower() in ROOT_WORDS:
+        return "the soma" if text.lower() != "root" else "the root"
+    return text if text.lower().startswith(("branch ", "v@", "@")) else f"point {text}"

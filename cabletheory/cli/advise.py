@@ -379,7 +379,9 @@ def as_text(a: Advice, inputs: list[tuple[str, str]], names: list[str] | None = 
         rows.append(("time window", f"0 to {format_quantity(s.last_time, 'time')}, {s.samples} sample times "
                                     f"(common spacing {format_quantity(s.output_spacing, 'time')})"))
         if read_at is not None and a.site_peaks is not None:
-            rows += [(f"exact peak V/I at {where}", format_quantity(float(peak), "resistance"))
+            from ..tree_sites import in_words
+
+            rows += [(f"exact peak V/I at {in_words(where)}", format_quantity(float(peak), "resistance"))
                      for where, peak in zip(read_at, a.site_peaks, strict=True)]
             rows.append(("relative errors", "at each point, per that point's own peak voltage"))
         else:

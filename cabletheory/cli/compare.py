@@ -160,9 +160,9 @@ def _point(labels: tuple[str, ...], number: float) -> str:
 
 def _on_tree(label: str) -> str:
     """A tree point in words: 'the soma', 'point 412', 'branch 443 +25 um'."""
-    if label in ("soma", "root"):
-        return f"the {label}"
-    return label if label.startswith("branch ") else f"point {label}"
+    from ..tree_sites import in_words
+
+    return in_words(label)
 
 
 def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparison],

@@ -19,6 +19,7 @@ from ..case import CaseFieldError
 from ..errors import InputError
 from ..inputs import read_end, read_field, read_outline_value
 from ..output import dump_json, quantity, table
+from ..tree_sites import in_words
 from ..units import format_quantity
 from .case import OPTIONS
 from .common import read_membrane
@@ -126,7 +127,7 @@ def tree_table(args: argparse.Namespace, times: list[float] | None, form: str) -
     echo = [("morphology", f"{args.morphology} ({len(case.cell.tree)} pieces)")]
     echo += [(name.replace("_", " "), format_quantity(value, _KIND[unit], digits))
              for name, (value, unit) in case.parameters().items()]
-    echo += [("applied at", "the soma" if case.stimulus_site.piece == -1 else f"point {case.stimulus_label}"),
+    echo += [("applied at", in_words(case.stimulus_label, case.stimulus_site)),
              ("tips", "as in the file" if args.tips is None else args.tips)]
     header = ["t"] + [f"V at {label}" for label in case.labels]
     rows = [[format_quantity(time, "time", digits) if time else "0"]
