@@ -13,7 +13,7 @@ import subprocess
 import sys
 import time
 
-from _table import Row, report
+from _table import Row, compile_package, report
 
 RUNS = 11
 GOALS = {"cable, bare numbers": 1.5, "cable, unit strings": 2.5}
@@ -27,6 +27,7 @@ COMMANDS = {
 
 
 def main() -> int:
+    compile_package()
     times: dict[str, list[float]] = {name: [] for name in COMMANDS}
     for _ in range(RUNS):
         for name, argv in COMMANDS.items():

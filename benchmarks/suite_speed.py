@@ -14,7 +14,7 @@ import sys
 import time
 from pathlib import Path
 
-from _table import Row, report
+from _table import Row, compile_package, report
 
 GOAL = 60.0  # s
 ROOT = Path(__file__).resolve().parents[1]
@@ -29,6 +29,7 @@ def pytest_command() -> list[str]:
 
 
 def main() -> int:
+    compile_package()
     command = pytest_command()
     try:
         import pytest  # noqa: F401

@@ -15,7 +15,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from _table import Row, report
+from _table import Row, compile_package, report
 from tree_speed import generate_swc
 
 RUNS = 5
@@ -31,6 +31,7 @@ def timed(argv: list[str], out: Path) -> float:
 
 
 def main() -> int:
+    compile_package()
     with tempfile.TemporaryDirectory() as folder:
         swc = Path(folder) / "generated.swc"
         swc.write_text(generate_swc(POINTS))

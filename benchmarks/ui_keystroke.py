@@ -23,7 +23,7 @@ import sys
 import time
 from typing import ClassVar
 
-from _table import Row, p90, report
+from _table import Row, compile_package, p90, report
 
 GOAL_P90 = 0.100  # s
 
@@ -104,6 +104,7 @@ def summary(name: str, result: dict[str, list[tuple[float, float]]]) -> Row:
 
 
 def main() -> int:
+    compile_package()
     repeats = int(sys.argv[1]) if len(sys.argv) > 1 else 2
     print(f"keystroke -> new result on screen (headless, 120 × 36); load average {os.getloadavg()[0]:.1f} "
           f"on {os.cpu_count()} cores")
