@@ -219,3 +219,17 @@ def test_export_without_a_valid_result_says_so():
         assert "Nothing to save yet" in text_of(app, "#status")
 
     drive(script)
+
+
+def test_the_modules_imported_ahead_of_the_first_result_exist_and_name_views():
+    """The app imports what a view's first result needs while it draws the first frame; a module
+    renamed or a view removed would make that warm-up silently useless."""
+    import importlib.util
+
+    from cabletheory.tui.app import FIRST_RESULT_MODULES
+    from cabletheory.tui.keys import VIEWS
+
+    assert set(FIRST_RESULT_MODULES) <= set(VIEWS)
+    for modules in FIRST_RESULT_MODULES.values():
+        for name in modules:
+            assert importlib.util.find_spec(name) is not None, name

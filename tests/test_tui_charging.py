@@ -121,17 +121,38 @@ def test_charging_view_exports_csv(tmp_path):
     assert last_time.endswith(",s")
 
 
-def test_charging_view_shows_progress_while_the_worker_runs():
+def test_charging_view_says_computing_at_once_and_covers_the_plots_only_when_slow(monkeypatch):
+    """A quick result replaces the plots without a loading cover (putting one up and taking it down
+    lays the whole view out twice); a slow one covers the stale plots after COVER_AFTER."""
+    import time
+
+    from cabletheory.tui import charging_view
+    from cabletheory.tui import format as formatting
+
     async def script(app, pilot):
         await pilot.press("f3")
         await settle(app, pilot)
         view = app.query_one("#charging")
         results = app.query_one("#charging-results")
+        plots = app.query_one("#charging .plots")
         view.refresh_results(again=True)
         assert results.border_subtitle == "computing…"  # set before the worker is started
-        assert app.query_one("#charging .plots").loading
+        assert not plots.loading
         await settle(app, pilot)
         assert results.border_subtitle == ""
-        assert not app.query_one("#charging .plots").loading
+        assert not plots.loading
+
+        quick = formatting.charging_report
+        monkeypatch.setattr(charging_view, "COVER_AFTER", 0.05)
+        monkeypatch.setattr(formatting, "charging_report", lambda setup: (time.sleep(0.6), quick(setup))[1])
+        view.refresh_results(again=True)
+        assert not plots.loading
+        await pilot.pause(0.3)
+        assert plots.loading
+        assert results.border_subtitle == "computing…"
+        await settle(app, pilot)
+        assert results.border_subtitle == ""
+        assert not plots.loading
+        assert view.report is not None
 
     drive(script)

@@ -20,6 +20,26 @@ from .keys import GLOBAL_KEYS, VIEWS, key_label, typed_character
 __all__ = ["CableApp"]
 
 
+# what each view's first result needs beyond the app itself (numpy, the unit boundary, the core):
+# imported in a thread while textual builds and draws the first frame, so that the first result
+# does not start with them (the first frame itself needs none of them)
+FIRST_RESULT_MODULES: dict[str, tuple[str, ...]] = {
+    "cylinder": ("cabletheory.tui.format", "cabletheory.inputs"),
+    "charging": ("cabletheory.tui.format", "cabletheory.inputs", "cabletheory.transient"),
+    "tree": ("cabletheory.tui.format", "cabletheory.inputs", "cabletheory.tree"),
+}
+
+
+def _import_ahead(modules: tuple[str, ...]) -> None:
+    import importlib
+
+    for name in modules:
+        try:
+            importlib.import_module(name)
+        except Exception:  # the view imports it again, and reports any problem itself
+            return
+
+
 # the bottom strip: keys spelled out as the help panel writes them, short enough for 80 columns
 STATUS_KEYS = (("f1,question_mark", "keys"), ("ctrl+s", "save data"), ("ctrl+g", "save plot"), ("ctrl+o", "open"),
                ("ctrl+q", "quit"))
@@ -75,6 +95,10 @@ class CableApp(App[None]):
         # stderr would scribble over the screen, so the app does not print it
         warnings.filterwarnings("ignore", category=ImplausibleValueWarning)
         self.cell_texts: dict[str, str] = {}  # the shared cell (fields.SHARED_CELL) as last typed
+        if view in FIRST_RESULT_MODULES:
+            import threading
+
+            threading.Thread(target=_import_ahead, args=(FIRST_RESULT_MODULES[view],), daemon=True).start()
         self.start_view = view
         self.swc = swc
         self.simulation = simulation

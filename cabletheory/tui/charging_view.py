@@ -15,10 +15,13 @@ from .fields import CHARGING_FIELDS, charging_fields_used
 from .widgets import CaseChoices, CurvePlot, QuantityField, QuantityList, case_form, shared_texts, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
+    from textual.timer import Timer
+
     from .forms import ChargingSetup
     from .report import Report
 
 PREFIX = "ch-"
+COVER_AFTER = 0.3  # s: a result slower than this hides the stale plots under a loading cover
 CURVE_GROUP = ("span", "watch", "moments")
 _SPECS = {spec.name: spec for spec in CHARGING_FIELDS}
 
@@ -39,6 +42,7 @@ class ChargingView(CaseChoices, Vertical):
     report: Report | None = None
     active = False  # the solver first runs when the view is shown
     wanted: ChargingSetup | None = None  # the set-up the form holds now; a result of another is stale
+    _cover: Timer | None = None  # puts the loading cover up if the result is slow
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="columns"):
@@ -89,7 +93,8 @@ class ChargingView(CaseChoices, Vertical):
         used = charging_fields_used(model, stimulus)
         fields = {f.spec.name: f for f in self.query(QuantityField)}
         for name, field in fields.items():
-            field.display = name in used
+            if field.display != (name in used):  # setting it lays the form out, even to the same value
+                field.display = name in used
         setup, errors = read_charging_form({n: f.input.value for n, f in fields.items()}, model, stimulus)
         for name, field in fields.items():
             field.flag(errors.get(name))
@@ -109,9 +114,19 @@ class ChargingView(CaseChoices, Vertical):
         self.solve(setup)
 
     def _busy(self, busy: bool) -> None:
+        """Say "computing…" at once; cover the plots only if the result takes longer than
+        :data:`COVER_AFTER` (a cover put up and taken down lays the whole view out twice, which
+        costs more than most results)."""
         results = self.query_one("#charging-results", QuantityList)
         results.border_subtitle = "computing…" if busy else ""
-        self.query_one(".plots").loading = busy
+        if self._cover is not None:
+            self._cover.stop()
+            self._cover = None
+        plots = self.query_one(".plots")
+        if busy:
+            self._cover = self.set_timer(COVER_AFTER, lambda: setattr(plots, "loading", True))
+        elif plots.loading:
+            plots.loading = False
 
     @work(exclusive=True, thread=True, group="solve")
     def solve(self, setup: ChargingSetup) -> None:

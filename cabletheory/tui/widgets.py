@@ -85,10 +85,13 @@ class QuantityList(Static, can_focus=True):
     ]
 
     _shown: tuple[Sequence[Row], Sequence[str]] | None = None
+    _shape: tuple[int, tuple[int, ...]] | None = None  # width, and rows of each line once wrapped
 
     def show(self, rows: Sequence[Row], notes: Sequence[str] = ()) -> None:
         """Label and value on one line each; labels too long for a narrow panel are cut with '…'
         so that the values stay in one column (the whole label is in saved files and the help)."""
+        from rich.cells import cell_len
+
         from .report import row_text
 
         self._shown = (rows, notes)
@@ -108,11 +111,16 @@ class QuantityList(Static, can_focus=True):
             text.append("\n")
         for note in notes:
             text.append(f"{note}\n", style="italic")
-        self.update(text)
+        # as many lines as before, once wrapped to the panel's width: no layout of the whole
+        # view (a layout costs more than computing most results)
+        shape = (room, tuple(-(-cell_len(line) // room) if room > 0 else 0 for line in text.plain.split("\n")))
+        self.update(text, layout=shape != self._shape)
+        self._shape = shape
 
     def update(self, content="", *, layout: bool = True) -> None:  # type: ignore[no-untyped-def, override]
         if not isinstance(content, Text) or content.plain == "":
             self._shown = None  # a message, not rows: nothing to lay out again on resize
+            self._shape = None
         super().update(content, layout=layout)
 
     def on_resize(self) -> None:
@@ -133,6 +141,7 @@ class QuantityField(Widget):
         self.prefix = prefix
         self._label = label or spec.label
         self._value = spec.default if value is None else value
+        self._flagged: tuple[str | None, str] | None = None  # (message, text) the echo line shows
 
     def compose(self) -> ComposeResult:
         from textual.containers import Horizontal
@@ -155,6 +164,9 @@ class QuantityField(Widget):
     def flag(self, message: str | None) -> None:
         """Show ``message`` under the field and mark it, or clear both (``None``); without a
         message, the echo line says how the current text is read."""
+        if self._flagged == (message, self.input.value):
+            return  # the line under the field says this already (most fields, at each keystroke)
+        self._flagged = (message, self.input.value)
         echo = self.query_one(".field-echo", Static)
         self.set_class(bool(message), "bad")
         if message:
