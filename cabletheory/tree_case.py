@@ -21,9 +21,10 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+from numpy.typing import NDArray
 
 from .case import (
     STIMULUS_SHAPES,
@@ -38,6 +39,9 @@ from .case import (
 from .errors import InputError
 from .tree_laplace import PassiveTree, Site
 from .tree_sites import in_words, tree_site
+
+if TYPE_CHECKING:
+    from .waveform import Sampler
 
 __all__ = ["TreeCase", "build_tree_case"]
 
@@ -93,6 +97,26 @@ class TreeCase:
     def membrane_time_constant(self) -> float:
         """τm = Rm Cm of the first piece (the tree's membrane is uniform unless given per piece), s."""
         return float(np.asarray(self.cell.time_constants).ravel()[0])
+
+    def sampler(self, labels: Sequence[str] | None, tolerance: float) -> tuple[Sampler, list[str], float]:
+        """How :func:`cabletheory.waveform.response_features` reads this case (its ``SelfSampling``
+        protocol): ``run(times) -> (voltage at the points ``labels`` (default the case's) and, last,
+        the stimulus site; final voltages or None)`` by :func:`cabletheory.tree_time.tree_response`,
+        the labels, and the clamp step (0 for a current)."""
+        from dataclasses import replace
+
+        from .tree_time import tree_response
+
+        case = self if labels is None else replace(self, labels=tuple(labels))
+        at = case.stimulus_site
+        sites = [*case.sites, at]
+
+        def run(times: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.float64] | None]:
+            r = tree_response(case.cell, case.stimulus, times, at, sites, tolerance=tolerance)
+            return r.voltage, r.steady_state
+
+        clamp = case.stimulus.amplitude if isinstance(case.stimulus, VoltageStep) else 0.0
+        return run, list(case.labels), float(clamp)
 
     def describe(self) -> str:
         """The case in one line of words."""

@@ -2,6 +2,7 @@ r"""What one reads off a response: peak, time to peak, rise time, half-width and
 
 These are the figures an experimenter takes from a recorded EPSP-like response, here taken from
 the exact time course of a :class:`~cabletheory.case.Case` (:func:`cabletheory.transient.charge`)
+or of a whole tree's :class:`~cabletheory.tree_case.TreeCase` (:func:`cabletheory.tree_time.tree_response`),
 rather than from samples, so that they do not depend on an output grid:
 
 * **peak**: the extreme voltage (largest magnitude, with its sign). For a held stimulus (current
@@ -38,6 +39,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from typing import Protocol
 
 import numpy as np
 from numpy.typing import NDArray
@@ -55,13 +57,35 @@ ZOOM_POINTS = 48  # samples of each refinement round
 ZOOMS = 4  # refinement rounds
 
 
+Sampler = Callable[[Array], tuple[Array, Array | None]]
+
+
+class SelfSampling(Protocol):
+    """A case that evaluates its own exact response (a whole tree's
+    :class:`~cabletheory.tree_case.TreeCase`, a later layer than this module)."""
+
+    @property
+    def shape(self) -> str: ...
+
+    @property
+    def membrane_time_constant(self) -> float: ...
+
+    @property
+    def stimulus(self) -> object: ...
+
+    def sampler(self, labels: Sequence[str] | None, tolerance: float) -> tuple[Sampler, list[str], float]:
+        """(``run(times) -> (voltage (nT, n + 1), final voltage or None)`` at the ``n`` recorded points
+        and, last, the stimulus site; the ``n`` labels; the clamp step, or 0)."""
+        ...
+
+
 @dataclass(frozen=True, slots=True)
 class ResponseFeatures:
     """The features of the response at one position (SI; nan where a feature does not exist).
 
     Attributes
     ----------
-    position : m from the origin
+    position : m from the origin on a cable; the point label on a tree
     peak : V, the extreme voltage with its sign (the final voltage of a held stimulus)
     time_to_peak : s (nan for a held stimulus, whose peak is only reached as t → ∞)
     rise_time : s, from 10 % to 90 % of the peak
@@ -70,7 +94,7 @@ class ResponseFeatures:
     held : True for a step or clamp (monotone charging to a final value)
     """
 
-    position: float
+    position: float | str
     peak: float
     time_to_peak: float
     rise_time: float
@@ -79,7 +103,7 @@ class ResponseFeatures:
     held: bool
 
 
-def _window(case: Case) -> float:
+def _window(case: Case | SelfSampling) -> float:
     s = case.stimulus
     extra = getattr(s, "duration", 0.0) + 3.0 * getattr(s, "time_to_peak", 0.0)
     return WINDOW_TIME_CONSTANTS * case.membrane_time_constant + extra
@@ -119,48 +143,73 @@ def _bracket(t: Array, s: Array, level: float, after: int, rising: bool) -> tupl
     return (float(t[k - 1]), float(t[k])) if k > 0 else (float(t[0]), float(t[0]))
 
 
-def response_features(case: Case, positions: Sequence[float] | Array | None = None, *,
+def response_features(case: Case | SelfSampling, positions: Sequence[float] | Sequence[str] | Array | None = None, *,
                       tolerance: float = 1e-10) -> tuple[ResponseFeatures, ...]:
     """Peak, time to peak, 10–90 % rise time, half-width and attenuation of the exact response.
 
+    The same search serves every cell kind: a :class:`~cabletheory.case.Case` (cylinder, ball and
+    stick, semi-infinite or infinite cable; its exact solution is
+    :func:`cabletheory.transient.charge`) and a :class:`~cabletheory.tree_case.TreeCase` (a whole
+    tree; its solution is :func:`cabletheory.tree_time.tree_response`, whose values carry an error
+    estimate rather than a bound).
+
     Parameters
     ----------
-    case : the cell and stimulus (:class:`~cabletheory.case.Case`)
-    positions : m, where to read the response (default: the case's positions, else the stimulus site)
+    case : the cell and stimulus
+    positions : where to read the response: m from the origin on a cable (default: the case's
+        positions, else the stimulus site); point labels on a tree (default: the case's labels)
     tolerance : truncation error allowed in the exact solution, relative to the case's reference voltage
 
     Returns
     -------
-    One :class:`ResponseFeatures` per position, in order.
+    One :class:`ResponseFeatures` per position, in order (on a tree ``position`` is the label).
     """
-    x = np.asarray(case.positions if positions is None else positions, dtype=float).ravel()
-    if x.size == 0:
-        x = np.array([case.stimulus.position])
-    case.check_positions(x)
-    held = case.shape in ("step", "clamp")
-    everywhere = np.append(x, case.stimulus.position)  # the site last: the scale of every attenuation
+    if isinstance(case, Case):
+        x = np.asarray(case.positions if positions is None else positions, dtype=float).ravel()
+        if x.size == 0:
+            x = np.array([case.stimulus.position])
+        case.check_positions(x)
+        everywhere = np.append(x, case.stimulus.position)  # the site last: the scale of every attenuation
+
+        def sample(times: Array) -> tuple[Array, Array | None]:
+            r = charge(case.cell, case.stimulus, times, everywhere, tolerance=tolerance, modes=0)
+            return r.voltage, r.steady_state
+
+        run: Sampler = sample
+        where: Sequence[float | str] = [float(v) for v in x]
+        clamp = case.amplitude
+    else:
+        run, where, clamp = case.sampler(None if positions is None else [str(p) for p in positions], tolerance)
+    return _features(run, _window(case), case.shape, clamp, where)
+
+
+def _features(run: Sampler, window: float, shape: str, clamp: float,
+              where: Sequence[float | str]) -> tuple[ResponseFeatures, ...]:
+    """The features at ``len(where)`` sites from ``run(times) -> (voltage (nT, n), final voltage or None)``,
+    whose last column is the stimulus site (the scale of every attenuation; ``clamp`` for a clamp)."""
+    held = shape in ("step", "clamp")
 
     def evaluate(times: Array) -> Array:
-        return charge(case.cell, case.stimulus, times, everywhere, tolerance=tolerance, modes=0).voltage
+        return run(times)[0]
 
-    t = _grid(_window(case))
-    response = charge(case.cell, case.stimulus, t, everywhere, tolerance=tolerance, modes=0)
-    n = everywhere.size
+    t = _grid(window)
+    voltage, steady_state = run(t)
+    n = voltage.shape[1]
     if held:
-        final = response.steady_state if response.steady_state is not None else np.full(n, math.nan)
+        final = steady_state if steady_state is not None else np.full(n, math.nan)
         peak = np.asarray(final, dtype=float)
         time_to_peak = np.full(n, math.nan)
         k_peak = np.full(n, t.size - 1)
     else:
-        k_peak = np.argmax(np.abs(response.voltage), axis=0)
-        sign0 = np.sign(response.voltage[k_peak, np.arange(n)])
+        k_peak = np.argmax(np.abs(voltage), axis=0)
+        sign0 = np.sign(voltage[k_peak, np.arange(n)])
         lo = t[np.maximum(k_peak - 1, 0)]
         hi = t[np.minimum(k_peak + 1, t.size - 1)]
         time_to_peak = _refine(lambda tt: evaluate(tt) * sign0, lo, hi, lambda j, tt, vv: int(np.argmax(vv)))
         peak = np.array([evaluate(np.array([time_to_peak[j]]))[0, j] for j in range(n)])
     sign = np.where(peak < 0, -1.0, 1.0)
     size = np.abs(peak)
-    s = response.voltage * sign
+    s = voltage * sign
 
     def crossing(fraction: float, rising: bool, after: Array) -> Array:
         """When each response first crosses ``fraction`` of its peak after sample ``after``."""
@@ -178,8 +227,8 @@ def response_features(case: Case, positions: Sequence[float] | Array | None = No
     start = np.zeros(n, dtype=int)
     rise = crossing(0.9, True, start) - crossing(0.1, True, start)
     half_width = np.full(n, math.nan) if held else crossing(0.5, False, k_peak) - crossing(0.5, True, start)
-    site_peak = case.amplitude if case.shape == "clamp" else peak[-1]
+    site_peak = clamp if shape == "clamp" else peak[-1]
     return tuple(
-        ResponseFeatures(float(x[j]), float(peak[j]), float(time_to_peak[j]), float(rise[j]), float(half_width[j]),
+        ResponseFeatures(where[j], float(peak[j]), float(time_to_peak[j]), float(rise[j]), float(half_width[j]),
                          float(peak[j] / site_peak) if site_peak else math.nan, held)
-        for j in range(x.size))
+        for j in range(len(where)))

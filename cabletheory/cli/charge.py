@@ -18,6 +18,7 @@ from ..units import format_quantity, parse_series
 from ..waveform import ResponseFeatures, response_features
 from .case import add_case_options, read_case_options
 from .common import add_truncation_option, read_truncation, whole_number
+from .features import FEATURE_POSITIONS, features_json, features_table
 from .tree_charge import add_tree_options, run_tree
 
 
@@ -97,8 +98,6 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
-FEATURE_POSITIONS = 20  # response features are read off the exact solution at up to this many positions
-
 _CELL_NAMES = {"infinite": "infinite cable", "ball-and-stick": "ball and stick"}
 
 
@@ -154,15 +153,7 @@ def as_json(case: Case, r: Response, features: tuple[ResponseFeatures, ...] | No
     if r.notes:
         out["notes"] = list(r.notes)
     if features is not None:
-        out["features"] = [{
-            "position": quantity(f.position, "length"),
-            "peak": quantity(f.peak, "voltage"),
-            "time_to_peak": quantity(f.time_to_peak, "time"),
-            "rise_time_10_90": quantity(f.rise_time, "time"),
-            "half_width": quantity(f.half_width, "time"),
-            "attenuation": quantity(f.attenuation, "dimensionless"),
-            "held": f.held,
-        } for f in features]
+        out["features"] = features_json(features)
     return out
 
 
@@ -228,45 +219,13 @@ def as_text(case: Case, r: Response, digits: int = 4, features: tuple[ResponseFe
                     for n, (label, value) in enumerate(rows)]
         blocks.append(table(rows, title))
     if features:
-        blocks.append(_features_table(features, digits))
+        blocks.append(features_table(features, digits))
     blocks.append(f"Error bound: every voltage above is within {fmt(r.error_bound, 'voltage')} of the exact "
                   f"solution ({r.method}).")
     for note in r.notes:
         blocks.append(f"Note: {note}.")
     blocks.append(f"Note: {PASSIVE_CAVEAT}")
     return "\n\n".join(blocks)
-
-
-def _features_table(features: tuple[ResponseFeatures, ...], digits: int) -> str:
-    """The features as a table, one row per position (held stimuli: final value, no peak time)."""
-    held = features[0].held
-
-    def cell(value: float, kind: str) -> str:
-        return "—" if math.isnan(value) else format_quantity(value, kind, digits)
-
-    header = ["at", "final V" if held else "peak V", "rise 10–90 %"]
-    if not held:
-        header[2:2] = ["time to peak"]
-        header.append("half-width")
-    header.append("attenuation")
-    rows = []
-    for f in features:
-        row = [format_quantity(f.position, "length", digits) if f.position else "0", cell(f.peak, "voltage")]
-        if not held:
-            row.append(cell(f.time_to_peak, "time"))
-        row.append(cell(f.rise_time, "time"))
-        if not held:
-            row.append(cell(f.half_width, "time"))
-        row.append(cell(f.attenuation, "dimensionless"))
-        rows.append(row)
-    widths = [max(len(h), *(len(row[j]) for row in rows)) for j, h in enumerate(header)]
-    title = ("Response features (read off the exact solution, not the output grid; attenuation: V / V at the "
-             "stimulus site)")
-    out = [title, "-" * len(title), "  " + "  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
-    out += ["  " + "  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)) for row in rows]
-    if held:
-        out.append("  a held stimulus charges monotonically to its final value: no peak time or half-width")
-    return "\n".join(out)
 
 
 def _voltage_table(r: Response, digits: int) -> str:

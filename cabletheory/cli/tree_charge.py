@@ -77,14 +77,18 @@ def read_tree_case(args: argparse.Namespace):  # -> tree_case.TreeCase
 
 
 def run_tree(args: argparse.Namespace, times: list[float] | None) -> str:
-    """The text, JSON or CSV of a tree case's time course (``charge --morphology``)."""
-    return tree_table(args, times, "json" if args.json else "csv" if args.csv else "text")
+    """The text, JSON or CSV of a tree case's time course (``charge --morphology``), with the response
+    features of every point unless ``--no-features`` or ``--csv`` (as for a cylinder)."""
+    return tree_table(args, times, "json" if args.json else "csv" if args.csv else "text",
+                      features=args.features and not args.csv)
 
 
-def tree_table(args: argparse.Namespace, times: list[float] | None, form: str) -> str:
+def tree_table(args: argparse.Namespace, times: list[float] | None, form: str, *, features: bool = False) -> str:
     """A tree case's exact time course as ``form``: "text", "json" or "csv" (long rows), with the
     ``--truncation`` of the options (relative, or a voltage turned relative by the case's reference
-    voltage, as for every other cell)."""
+    voltage, as for every other cell); ``features``: also the response features
+    (:func:`cabletheory.waveform.response_features`, the same as a cylinder's) at up to
+    ``FEATURE_POSITIONS`` points."""
     from ..tree_time import tree_response
     from .common import _truncation
 
@@ -98,8 +102,15 @@ def tree_table(args: argparse.Namespace, times: list[float] | None, form: str) -
         value = value / probe.reference_voltage if probe.reference_voltage > 0 else 1e-10
     tolerance = min(max(value, 1e-14), 1e-2)
     response = tree_response(case.cell, case.stimulus, t, case.stimulus_site, case.sites, tolerance=tolerance)
+    found = None
+    if features:
+        from ..waveform import response_features
+        from .features import FEATURE_POSITIONS
+
+        if len(case.labels) <= FEATURE_POSITIONS:
+            found = response_features(case, tolerance=tolerance)
     if form == "json":
-        return dump_json({
+        out: dict = {
             "inputs": {"morphology": str(args.morphology), "case": case.describe(),
                        "stimulus_at": case.stimulus_label, "positions": list(case.labels),
                        "parameters": {k: {"value": v, "unit": u} for k, (v, u) in case.parameters().items()}},
@@ -111,7 +122,12 @@ def tree_table(args: argparse.Namespace, times: list[float] | None, form: str) -
             "steady_state": None if response.steady_state is None else quantity(response.steady_state, "voltage"),
             "method": response.method,
             "assumptions": PASSIVE_CAVEAT,
-        })
+        }
+        if found is not None:
+            from .features import features_json
+
+            out["features"] = features_json(found)
+        return dump_json(out)
     if form == "csv":
         buffer = io.StringIO()
         buffer.write(f"# cabletheory: exact voltage time course on a tree\n# case: {case.describe()}\n"
@@ -138,10 +154,14 @@ def tree_table(args: argparse.Namespace, times: list[float] | None, form: str) -
     lines = ["Voltage (deviation from rest)", "-" * 29,
              "  " + "  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
     lines += ["  " + "  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
-    blocks = [table(echo, "Inputs (whole tree)"), "\n".join(lines),
-              f"Error estimate: every voltage above is within {format_quantity(response.error_bound, 'voltage')} "
-              f"of the exact solution ({response.method}).",
-              *[f"Note: {note}." for note in response.notes], f"Note: {PASSIVE_CAVEAT}"]
+    blocks = [table(echo, "Inputs (whole tree)"), "\n".join(lines)]
+    if found:
+        from .features import features_table
+
+        blocks.append(features_table(found, digits))
+    blocks += [f"Error estimate: every voltage above is within {format_quantity(response.error_bound, 'voltage')} "
+               f"of the exact solution ({response.method}).",
+               *[f"Note: {note}." for note in response.notes], f"Note: {PASSIVE_CAVEAT}"]
     return "\n\n".join(blocks)
 
 
