@@ -42,12 +42,13 @@ def demo():
     return tree, cell, sites, exact
 
 
-def _solve(tree, sites, counts, step, scheme="crank-nicolson"):
-    """Our own run: the tree cut into ``counts`` compartments per piece, 1 A at the soma from t = 0."""
+def _solve(tree, sites, counts, step, scheme="crank-nicolson", source=None):
+    """Our own run: the tree cut into ``counts`` compartments per piece, 1 A from t = 0 at the soma or
+    at the far end of piece ``source``."""
     c = cp.discretise_tree(tree.parents, tree.lengths, tree.distal_diameters, RM, RI, CM, counts,
                            soma_area=tree.soma_area)
     current = np.zeros(c.size)
-    current[0] = 1.0
+    current[0 if source is None else cp.branch_nodes(c, source)[-1]] = 1.0
     v = cp.integrate(c, current, TIMES, scheme=scheme, step=step)
     out = []
     for s in sites:
@@ -100,6 +101,18 @@ def test_backward_euler_needs_a_smaller_step_than_crank_nicolson(demo, advice):
     assert euler.time_step.error <= 0.01
 
 
+def test_a_step_at_a_tip_is_advised_and_verified_in_our_own_solve(demo):
+    tree, cell, _sites, _exact = demo
+    tip = site_at(tree, "right.b")
+    read = (root_site(), tip)
+    exact = tree_response(cell, CurrentStep(1.0), TIMES, tip, read, tolerance=1e-11).voltage
+    a = advise_tree_course(cell, read, 0.01, times=TIMES, stimulus_at=tip)
+    error = _error(_solve(tree, read, a.compartments, a.time_step.step, source=tree.labels.index("right.b")), exact)
+    assert error <= 0.01
+    assert error == pytest.approx(a.time_step.error, rel=1e-6)
+    np.testing.assert_allclose(a.site_peaks, np.max(exact, axis=0), rtol=1e-9)  # exact values to 1e-10
+
+
 def test_the_command_line_reads_tree_points(capsys):
     status = main(["advise", "--Rm", "20000", "--Ri", "200", "--morphology", str(DEMO), "--quantity", "time-course",
                    "--read-at", "soma, left.a, branch right +150 um", "--times", "0:10:0.25 ms", "--target", "1%",
@@ -118,6 +131,10 @@ def test_the_command_line_reads_tree_points(capsys):
     (["--parents", "-1,0", "--lengths", "100,100", "--diameters", "2,1", "--quantity", "time-course"],
      "--morphology FILE"),
     (["--morphology", str(DEMO), "--tree", str(DEMO)], "--morphology"),
+    (["--morphology", str(DEMO), "--quantity", "time-course", "--stimulus-at", "branch right +150 um"],
+     "--stimulus-at: give the soma or a point"),
+    (["--diameter", "2", "--length", "500", "--quantity", "time-course", "--stimulus-at", "100"],
+     "--stimulus-at: only a time course on a tree"),
 ])
 def test_bad_tree_advice_is_one_line(capsys, argv, fragment):
     assert main(["advise", "--Rm", "20000", "--Ri", "200", *argv]) == 2

@@ -47,6 +47,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                       help="morphology read as the tree command reads it: SWC (pieces as cylinders, axon left "
                            "out, soma lumped) or a tree outline; tapered branches are not allowed")
     tree.add_argument("--tree", metavar="FILE", help="the same as --morphology (the older name)")
+    tree.add_argument("--stimulus-at", metavar="POINT",
+                      help="time-course on a tree: where the current step is applied, the soma (default) or a "
+                           "point of the file such as 412")
     tree.add_argument("--parents", metavar="LIST", help="parent of each branch, -1 for the root: '-1,0,0'")
     tree.add_argument("--lengths", metavar="LIST", help="branch lengths: '300,300,300 um'")
     tree.add_argument("--diameters", metavar="LIST", help="branch diameters: '4,2.52,2.52 um'")
@@ -138,6 +141,7 @@ def _tree_course(args: argparse.Namespace, target: float, scheme: str, compare_s
     import dataclasses
 
     from ..tree_laplace import PassiveTree
+    from ..tree_sites import in_words
     from ..verify.advice import advise_tree_course
     from ..verify.tree_reading import TreePoints
     from .reference import parser_for_quantities
@@ -148,6 +152,15 @@ def _tree_course(args: argparse.Namespace, target: float, scheme: str, compare_s
     rm, ri, cm = read_membrane(args)
     cell = PassiveTree(tree, rm, ri, cm, tips=parse_end(args.end))
     points = TreePoints(tree, parser_for_quantities)
+    source = None
+    if args.stimulus_at:
+        try:
+            source = points.point(args.stimulus_at).site
+        except InputError as exc:
+            raise InputError(f"--stimulus-at: {exc}") from None
+        if source.piece >= 0 and not math.isclose(source.distance, float(tree.lengths[source.piece]), rel_tol=1e-9):
+            raise InputError("--stimulus-at: give the soma or a point of the file (where every discretisation has "
+                             f"a node), not a place part way along a piece ({args.stimulus_at.strip()!r})")
     texts = [item.strip() for item in (args.read_at or "soma").split(",")]
     read, labels = [], []
     for text in texts:
@@ -159,11 +172,14 @@ def _tree_course(args: argparse.Namespace, target: float, scheme: str, compare_s
             read.append(point.site)
             labels.append(point.label)
     times = np.array(parse_series(args.times, "time", "--times"))
-    advice = advise_tree_course(cell, read, target, times=times, scheme=scheme, compare_step=compare_step,
+    advice = advise_tree_course(cell, read, target, times=times, stimulus_at=source, scheme=scheme,
+                                compare_step=compare_step,
                                 rule_fraction=rule_fraction, rule_frequency=rule_frequency)
     inputs = [("tree", label), ("Rm", format_quantity(rm, "membrane_resistivity")),
               ("Ri", format_quantity(ri, "axial_resistivity")), ("Cm", format_quantity(cm, "membrane_capacitance")),
-              ("tips", args.end), ("stimulus", "current step at the soma (root)"), ("read at", ", ".join(labels))]
+              ("tips", args.end), ("stimulus", "current step at " + ("the soma (root)" if args.stimulus_at is None
+                                                                     else in_words(args.stimulus_at.strip(), source))),
+              ("read at", ", ".join(labels))]
     if tree.soma_area and not soma_diameter:
         inputs.append(("soma area (from the file)", format_quantity(tree.soma_area, "area")))
     return advice, inputs, [str(name) for name in tree.labels], labels
@@ -212,6 +228,9 @@ def run(args: argparse.Namespace) -> int:
         soma_diameter = parse_quantity(args.soma_diameter, "length", "--soma-diameter")
     is_tree = bool(args.tree or args.parents or args.lengths or args.diameters)
     read_labels: list[str] | None = None
+    if args.stimulus_at is not None and not (is_tree and args.quantity == "time-course"):
+        raise InputError("--stimulus-at: only a time course on a tree (--morphology, --quantity time-course) takes "
+                         "a stimulus site; a cable's stimulus is at its origin")
     if is_tree and args.quantity == "time-course":
         if args.diameter or args.length:
             raise InputError("give either --diameter/--length (one cable) or a tree, not both")

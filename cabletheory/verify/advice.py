@@ -347,12 +347,14 @@ def advise_cable(cylinder: cb.Cylinder, output: str, target: float, *, site: flo
 
 
 def advise_tree_course(cell: PassiveTree, read: Sequence[Site], target: float, *, times: ArrayLike,
-                       scheme: str = "crank-nicolson", space_share: float = SPACE_SHARE,
+                       stimulus_at: Site | None = None, scheme: str = "crank-nicolson",
+                       space_share: float = SPACE_SHARE,
                        compare_step: float | None = None, rule_fraction: float = 0.1,
                        rule_frequency: float = 100.0) -> Advice:
     """Compartments per piece and the time step for a time course on a whole tree.
 
-    A current step at the root (soma) is read at the tree sites ``read``; the error is the largest
+    A current step at ``stimulus_at`` (default the root, the soma) is read at the tree sites
+    ``read``; the error is the largest
     over the sample times and the sites of |compartmental − exact|, each site's error divided by
     its own peak exact voltage, so every site meets the target. The exact course is the tree's
     Laplace-domain solution inverted on a contour (:func:`cabletheory.tree_time.tree_response`;
@@ -366,6 +368,8 @@ def advise_tree_course(cell: PassiveTree, read: Sequence[Site], target: float, *
     ----------
     cell : the tree (cylindrical pieces of positive length; one Rm and one Cm for the whole cell)
     read : the sites where the time course must be accurate (the root, points, or along pieces)
+    stimulus_at : where the current is applied: the root or a point of the file (the far end of a
+        piece, where every discretisation has a node); default the root
     target : relative error, e.g. 0.01 for 1 %
     times : s, sample times (>= 0, sharing a common step; the step is at t = 0)
     scheme, space_share, compare_step, rule_fraction, rule_frequency : as for :func:`advise_cable`
@@ -403,7 +407,11 @@ def advise_tree_course(cell: PassiveTree, read: Sequence[Site], target: float, *
 
     t = np.asarray(times, dtype=float)
     spacing = _output_spacing(t)
-    v_exact = tree_response(cell, CurrentStep(1.0), t, root_site(), read, tolerance=1e-10).voltage
+    source = root_site() if stimulus_at is None else stimulus_at
+    if source.piece >= 0 and not math.isclose(source.distance, float(lengths[source.piece]), rel_tol=1e-9):
+        raise InputError("the stimulus must be at the soma or at a point of the file (where every "
+                         "discretisation has a node), not part way along a piece")
+    v_exact = tree_response(cell, CurrentStep(1.0), t, source, read, tolerance=1e-10).voltage
     peaks = np.max(np.abs(v_exact), axis=0)
     if not np.all(peaks > 0):
         k = int(np.argmin(peaks))
@@ -421,6 +429,9 @@ def advise_tree_course(cell: PassiveTree, read: Sequence[Site], target: float, *
                 out.append((site.piece, float(c.distance[c.proximal[site.piece]]) + site.distance))
         return tuple(out)
 
+    def source_of(c: cp.Compartments) -> int:
+        return 0 if source.piece < 0 else int(cp.branch_nodes(c, source.piece)[-1])
+
     def discretise(n: NDArray[np.int64]) -> cp.Compartments:
         return cp.discretise_tree(parents, lengths, diameters, rm, ri, cmem, n, soma_area=soma, end_conductances=ends)
 
@@ -431,16 +442,16 @@ def advise_tree_course(cell: PassiveTree, read: Sequence[Site], target: float, *
     negligible = min(space_target, time_target) / REFERENCE_MARGIN
     grid = discretise(np.maximum(rule_n, 1))
     start = math.ceil(spacing / (rm * cmem / 2000))  # first try: Δt near τm/2000
-    fine = _time_converged(grid, probe_of(grid), t, spacing, start, peaks, negligible)[1]
+    fine = _time_converged(grid, probe_of(grid), t, spacing, start, peaks, negligible, source_of(grid))[1]
 
     def error_at(n: NDArray[np.int64]) -> float:
         c = discretise(n)
-        return _worst(_step_course(c, probe_of(c), t, fine, "crank-nicolson"), v_exact, peaks)
+        return _worst(_step_course(c, probe_of(c), t, fine, "crank-nicolson", source_of(c)), v_exact, peaks)
 
     n, err = _search(error_at, electrotonic, space_target, MAX_TREE_NODES)
     c = discretise(n)
     time_step, err, step = _advise_step(c, probe_of(c), t, v_exact, peaks, spacing, round(spacing / fine), scheme,
-                                        space_target, time_target, negligible, compare_step)
+                                        space_target, time_target, negligible, compare_step, source_of(c))
     return Advice(output="time-course", target=target, exact_value=complex(float(np.max(peaks))), compartments=n,
                   error=err, rule_compartments=rule_n, rule_error=error_at(rule_n), rule_fraction=rule_fraction,
                   rule_frequency=rule_frequency, length_constants=np.asarray(lam, dtype=float),
@@ -482,20 +493,20 @@ def _worst(course: Array, other: Array, peak: Array) -> float:
     return float(np.max(np.abs(course - other) / peak))
 
 
-def _step_course(c: cp.Compartments, where: Probe, times: Array, step: float, scheme: str) -> Array:
-    """Voltage (V) at the probe's sites for a 1 A step at node 0 (time × site), by
-    ``compartment.integrate`` at Δt = ``step``."""
+def _step_course(c: cp.Compartments, where: Probe, times: Array, step: float, scheme: str, source: int = 0) -> Array:
+    """Voltage (V) at the probe's sites for a 1 A step at node ``source`` (default the origin or root,
+    node 0), time × site, by ``compartment.integrate`` at Δt = ``step``."""
     if times[-1] / step > MAX_TIME_STEPS:
         raise ConvergenceError(f"a time step of {step:.3g} s needs more than {MAX_TIME_STEPS} steps over "
                                f"{times[-1]:.3g} s; ask for a looser target or a shorter time course")
     current = np.zeros(c.size)
-    current[0] = 1.0
+    current[source] = 1.0
     v = cp.integrate(c, current, times, scheme=scheme, step=step)
     return np.stack([cp.sample(c, v, [distance], branch)[:, 0] for branch, distance in where], axis=1)
 
 
 def _time_converged(c: cp.Compartments, where: Probe, times: Array, spacing: float, divisions: int, peak: Array,
-                    tolerance: float) -> tuple[Array, float, float, int]:
+                    tolerance: float, source: int = 0) -> tuple[Array, float, float, int]:
     """A Crank–Nicolson solve whose own time error is at most ``tolerance`` (relative to ``peak``).
 
     The error of the solve at Δt = h is estimated by Richardson's rule for a second-order
@@ -506,8 +517,8 @@ def _time_converged(c: cp.Compartments, where: Probe, times: Array, spacing: flo
     divisions = 2 * max(1, math.ceil(divisions / 2))
     for solves in range(2, 20, 2):
         h = spacing / divisions
-        course = _step_course(c, where, times, h, "crank-nicolson")
-        estimate = _worst(course, _step_course(c, where, times, 2 * h, "crank-nicolson"), peak) / 3
+        course = _step_course(c, where, times, h, "crank-nicolson", source)
+        estimate = _worst(course, _step_course(c, where, times, 2 * h, "crank-nicolson", source), peak) / 3
         if estimate <= tolerance:
             return course, h, estimate, solves
         # second order: the error falls as h²
@@ -517,7 +528,7 @@ def _time_converged(c: cp.Compartments, where: Probe, times: Array, spacing: flo
 
 def _advise_step(c: cp.Compartments, where: Probe, times: Array, v_exact: Array, peak: Array, spacing: float,
                  divisions: int, scheme: str, space_target: float, time_target: float, negligible: float,
-                 compare_step: float | None) -> tuple[StepAdvice, float, float]:
+                 compare_step: float | None, source: int = 0) -> tuple[StepAdvice, float, float]:
     """The largest Δt = spacing/m (m a whole number) whose time error meets ``time_target``.
 
     The time error of a run at Δt is its distance from a time-converged run with the same
@@ -528,7 +539,8 @@ def _advise_step(c: cp.Compartments, where: Probe, times: Array, v_exact: Array,
     spatial error re-measured with the reference, and the reference step.
     """
     order = cp.expected_order(scheme)[1]
-    reference, ref_step, ref_error, solves = _time_converged(c, where, times, spacing, divisions, peak, negligible)
+    reference, ref_step, ref_error, solves = _time_converged(c, where, times, spacing, divisions, peak, negligible,
+                                                             source)
     space_error = _worst(reference, v_exact, peak)
     # the reference is itself off by up to ref_error: keep the time error against a fully
     # converged run within the share (triangle inequality)
@@ -536,7 +548,7 @@ def _advise_step(c: cp.Compartments, where: Probe, times: Array, v_exact: Array,
     tried: dict[int, tuple[float, Array]] = {}
 
     def measure(m: int) -> float:
-        course = _step_course(c, where, times, spacing / m, scheme)
+        course = _step_course(c, where, times, spacing / m, scheme, source)
         tried[m] = (_worst(course, reference, peak), course)
         return tried[m][0]
 
@@ -566,7 +578,7 @@ def _advise_step(c: cp.Compartments, where: Probe, times: Array, v_exact: Array,
     estimate = spacing * (budget / e1) ** (1.0 / order) if limited and e1 > 0 else None
     compare_error = None
     if compare_step is not None and _divides(compare_step, times):
-        fixed = _step_course(c, where, times, compare_step, scheme)
+        fixed = _step_course(c, where, times, compare_step, scheme, source)
         compare_error = _worst(fixed, v_exact, peak)
         solves += 1
     advice = StepAdvice(scheme=scheme, order=order, space_target=space_target, time_target=time_target,
