@@ -6,8 +6,9 @@ Two kinds of check:
   inside functions and ``TYPE_CHECKING`` blocks included): no cycle; no arrow from the core to the
   unit boundary or a front end; no arrow between the command line and the app; and no arrow
   upward against the layer order of the table in DEVELOPERS.md, which every module must appear in;
-* the core imported in a fresh interpreter in which pint, textual, matplotlib and argparse cannot
-  be found, with sympy and scipy left unloaded (they are imported inside the functions that need
+* each core module imported afresh (in a child forked from one new interpreter that has loaded
+  only numpy) where pint, textual, matplotlib and argparse cannot be found, with sympy and scipy
+  left unloaded (they are imported inside the functions that need
   them, so that the command line starts fast).
 """
 
@@ -15,6 +16,7 @@ from __future__ import annotations
 
 import ast
 import builtins
+import os
 import pathlib
 import re
 import subprocess
@@ -220,10 +222,42 @@ class Block:
         return None
 sys.meta_path.insert(0, Block())
 import importlib
-importlib.import_module(sys.argv[1])
-heavy = sorted(m for m in ('sympy', 'scipy') if m in sys.modules)
-print(','.join(heavy))
+import json
+import os
+import traceback
+import numpy  # every core module uses it, and it loads none of the packages checked here
+
+for module in sys.argv[1:]:
+    read, write = os.pipe()
+    pid = os.fork()
+    if pid == 0:  # the child: a fresh import of the module, as in a new interpreter
+        os.close(read)
+        try:
+            importlib.import_module(module)
+            answer = {'heavy': sorted(m for m in ('sympy', 'scipy') if m in sys.modules)}
+        except BaseException:
+            answer = {'error': traceback.format_exc()}
+        os.write(write, json.dumps(answer).encode())
+        os._exit(0)
+    os.close(write)
+    with os.fdopen(read, 'rb') as pipe:
+        text = pipe.read().decode()
+    os.waitpid(pid, 0)
+    print(json.dumps({'module': module, **(json.loads(text) if text else {'error': 'no answer'})}))
 """
+
+
+@pytest.fixture(scope="module")
+def core_imports() -> dict[str, dict]:
+    """Each core module imported in a child forked from one interpreter that has loaded only the
+    import blocker and numpy: a fresh import per module, without starting an interpreter for each."""
+    proc = subprocess.run([sys.executable, "-c", BLOCKER, *(f"cabletheory.{m}" for m in CORE)],
+                          capture_output=True, text=True)
+    assert proc.returncode == 0, proc.stderr
+    import json
+
+    answers = [json.loads(line) for line in proc.stdout.splitlines()]
+    return {answer.pop("module").removeprefix("cabletheory."): answer for answer in answers}
 
 
 def test_the_core_list_is_not_empty():
@@ -232,11 +266,26 @@ def test_the_core_list_is_not_empty():
 
 
 @pytest.mark.parametrize("module", CORE)
-def test_core_module_imports_without_boundary_packages(module):
-    proc = subprocess.run([sys.executable, "-c", BLOCKER, f"cabletheory.{module}"], capture_output=True, text=True)
-    assert proc.returncode == 0, proc.stderr
+def test_core_module_imports_without_boundary_packages(core_imports, module):
+    answer = core_imports[module]
+    assert "error" not in answer, answer.get("error")
     # sympy and scipy are imported lazily, inside the functions that need them
-    assert proc.stdout.strip() == "", f"{module} imports {proc.stdout.strip()} at module level"
+    assert answer["heavy"] == [], f"{module} imports {','.join(answer['heavy'])} at module level"
+
+
+def test_the_fresh_import_check_sees_a_blocked_import_and_a_heavy_one(tmp_path):
+    """The forked check reports a module that imports a blocked package, and one that loads scipy."""
+    (tmp_path / "probe_blocked.py").write_text("import argparse\n", encoding="utf-8")
+    (tmp_path / "probe_heavy.py").write_text("import scipy\n", encoding="utf-8")
+    proc = subprocess.run([sys.executable, "-c", BLOCKER, "probe_blocked", "probe_heavy", "cabletheory.errors"],
+                          capture_output=True, text=True, cwd=tmp_path, env={**os.environ, "PYTHONPATH": str(tmp_path)})
+    assert proc.returncode == 0, proc.stderr
+    import json
+
+    blocked, heavy, fine = (json.loads(line) for line in proc.stdout.splitlines())
+    assert "core must not import argparse" in blocked["error"]
+    assert heavy["heavy"] == ["scipy"]
+    assert fine == {"module": "cabletheory.errors", "heavy": []}
 
 
 def test_cli_does_not_import_heavy_packages_at_start():
