@@ -171,14 +171,14 @@ def _decode(data: bytes, source: str) -> str:
     return text
 
 
-def _topological_order(parents: list[int], lines: list[int], labels: list[str], source: str,
-                       what: str) -> list[int]:
+def _topological_order(parents: Sequence[int] | NDArray, lines: Sequence[int] | NDArray,
+                       labels: Sequence[str] | _Labels, source: str, what: str) -> list[int]:
     """Order indices so that parents come first; ``parents[i] == -1`` marks a root.
 
     Raises for several roots, no root and cycles (naming the lines involved).
     """
     n = len(parents)
-    roots = [i for i in range(n) if parents[i] == -1]
+    roots = np.flatnonzero(np.asarray(parents, dtype=np.int64) == -1).tolist()
     if not roots:
         raise FileFormatError(f"{source}: no root {what} (every {what} has a parent), so the tree has a "
                               f"cycle; first {what} at line {lines[0]}")
@@ -187,15 +187,14 @@ def _topological_order(parents: list[int], lines: list[int], labels: list[str], 
         raise FileFormatError(f"{source}:{lines[roots[1]]}: several roots: {shown}"
                               f"{' ...' if len(roots) > 5 else ''}; expected exactly one {what} "
                               "without a parent")
-    children: list[list[int]] = [[] for _ in range(n)]
-    for i, p in enumerate(parents):
-        if p >= 0:
-            children[p].append(i)
+    # children grouped by parent, each group in file order (a stable sort): CSR lists
+    links = np.asarray(parents, dtype=np.int64)
+    child = np.flatnonzero(links >= 0)
+    grouped = child[np.argsort(links[child], kind="stable")].tolist()
+    starts = np.concatenate(([0], np.cumsum(np.bincount(links[child], minlength=n)))).tolist()
     order = [roots[0]]
-    k = 0
-    while k < len(order):  # breadth-first, iterative (deep trees would overflow recursion)
-        order.extend(children[order[k]])
-        k += 1
+    for p in order:  # breadth-first: the loop reaches what it appends (deep trees need no recursion)
+        order.extend(grouped[starts[p]:starts[p + 1]])
     if len(order) < n:
         seen = bytearray(n)
         for i in order:
@@ -206,7 +205,7 @@ def _topological_order(parents: list[int], lines: list[int], labels: list[str], 
         i = start
         while i not in path:
             path[i] = len(path)
-            i = parents[i]
+            i = int(parents[i])
         cycle = list(path)[path[i]:]
         shown = " -> ".join(labels[j] for j in cycle[:8])
         raise FileFormatError(f"{source}:{lines[min(cycle, key=lambda j: lines[j])]}: {what}s form a cycle "
@@ -243,32 +242,31 @@ def parse_swc(text: str, source: str = "<swc>") -> SwcPoints:
     fast = _parse_swc_fast(text)
     if fast is not None:
         ids, types, coords, parent_ids, lines = fast
-        index = {point_id: i for i, point_id in enumerate(ids.tolist())}
-        parents = [index[p] if p >= 0 else -1 for p in parent_ids.tolist()]
-        return _ordered_points(source, ids.tolist(), types.tolist(), coords, parents, lines.tolist())
+        by_id = np.argsort(ids, kind="stable")
+        found = by_id[np.searchsorted(ids[by_id], np.maximum(parent_ids, 0))]
+        parents = np.where(parent_ids >= 0, found, -1)
+        return _ordered_points(source, ids, types, coords, parents, lines)
     return _parse_swc_lines(text, source)
 
 
 def _parse_swc_fast(text: str) -> tuple[NDArray, NDArray, NDArray, NDArray, NDArray] | None:
-    """All points as arrays, or None if any line is not plainly valid (then the slow path reports)."""
-    rows: list[str] = []
-    numbers: list[int] = []
-    for number, raw in enumerate(text.splitlines(), start=1):
-        content = raw.split("#", 1)[0] if "#" in raw else raw
-        if content.strip():
-            rows.append(content)
-            numbers.append(number)
-    if not rows:
+    """All points as arrays, or None if any line is not plainly valid (then the slow path reports).
+
+    The numbers are read by numpy's text reader (``numpy.loadtxt``, in C) from the lines that hold
+    data; a line it cannot read, or with other than 7 fields, sends the file to the line parser,
+    which names the line of the first problem."""
+    lines = text.splitlines()
+    if "#" in text:
+        lines = [line.split("#", 1)[0] if "#" in line else line for line in lines]
+    numbers = [number for number, line in enumerate(lines, start=1) if line and not line.isspace()]
+    if not numbers:
         return None
-    tokens: list[str] = []
-    for row in rows:
-        fields = row.split()
-        if len(fields) != 7:
-            return None
-        tokens += fields
+    rows = [lines[number - 1] for number in numbers]
     try:
-        table = np.array(tokens, dtype=float).reshape(-1, 7)
+        table = np.loadtxt(rows, dtype=float, comments=None, ndmin=2)
     except ValueError:
+        return None
+    if table.shape != (len(rows), 7):
         return None
     if not np.all(np.isfinite(table)):
         return None
@@ -291,10 +289,20 @@ def _parse_swc_fast(text: str) -> tuple[NDArray, NDArray, NDArray, NDArray, NDAr
     return ids, types, table[:, 2:6], parents, np.asarray(numbers, dtype=np.int64)
 
 
-def _ordered_points(source: str, ids: list[int], types: list[int], coords, parents: list[int],
-                    lines: list[int]) -> SwcPoints:
+class _Labels:
+    """Point ids as the text of messages, made only when a message needs one."""
+
+    def __init__(self, ids: Sequence[int] | NDArray) -> None:
+        self.ids = ids
+
+    def __getitem__(self, i: int) -> str:
+        return str(self.ids[i])
+
+
+def _ordered_points(source: str, ids: Sequence[int] | NDArray, types: Sequence[int] | NDArray, coords: Any,
+                    parents: Sequence[int] | NDArray, lines: Sequence[int] | NDArray) -> SwcPoints:
     """Reorder so that parents come first (checking roots and cycles) and convert to SI."""
-    order = _topological_order(parents, lines, [str(i) for i in ids], source, "point")
+    order = _topological_order(parents, lines, _Labels(ids), source, "point")
     position_in_order = np.empty(len(order), dtype=np.int64)
     position_in_order[order] = np.arange(len(order))
     order_arr = np.asarray(order, dtype=np.int64)

@@ -69,6 +69,23 @@ def test_json_values_of_the_demo_tree(capsys):
     assert [bp["id"] for bp in data["branch_points"]] == ["trunk", "left", "right"]
 
 
+def test_json_equivalent_cable_is_averaged_over_the_bins_asked_for(capsys):
+    """A tree that meets Rall's conditions reduces to a cylinder: Σd^3/2 equals the trunk's D^3/2 at every
+    X up to the tips (Rall 1964 [Rall1964]), so every bin's mean is 1 relative to the trunk; the bins
+    cover 0 to the tips' electrotonic distance, as many as --bins asks for (the text table's rows)."""
+    _, out, _ = run(capsys, ["tree", str(DATA / "lumenia_demo.outline"), *MEMBRANE, "--json", "--bins", "5"])
+    data = json.loads(out)
+    cable = data["equivalent_cable"]
+    assert cable["bins"] == 5
+    starts, ends = cable["bin_start"]["value"], cable["bin_end"]["value"]
+    assert len(starts) == len(ends) == len(cable["diameter_sum"]["value"]) == 5
+    assert starts[0] == 0.0
+    assert starts[1:] == ends[:-1]
+    assert ends[-1] == pytest.approx(data["tip_distance"]["max"], rel=1e-12)
+    assert cable["relative"]["value"] == pytest.approx([1.0] * 5, rel=1e-9)
+    assert cable["diameter_sum"]["unit"] == "m**1.5"
+
+
 def test_swc_ids_are_integers_and_reasons_are_given(capsys):
     _, out, _ = run(capsys, ["tree", str(DATA / "lumenia_pv7_interneuron.swc"), *MEMBRANE, "--json"])
     data = json.loads(out)
