@@ -4,7 +4,8 @@ The ``fit`` command and the app's fitting view read the same files the same way 
 the same order, so that one recording gives one answer whichever front end is used:
 
 1. :func:`read_recordings` reads every file with :func:`cabletheory.verify.reading.read_sweeps`
-   (a time column and one voltage column per sweep; CSV or tab-separated) and pools their sweeps
+   (a time column and one voltage column per sweep; CSV or tab-separated), or an NWB file's
+   current-clamp sweeps (:func:`cabletheory.trace.read_nwb_sweeps`), and pools their sweeps
    (:func:`pool_sweeps`: the files must share one clock);
 2. :func:`fit_recording` lines the sweeps up on the onset and averages them
    (:func:`cabletheory.trace.prepare_trace`), fits a sum of exponentials
@@ -35,7 +36,8 @@ from numpy.typing import NDArray
 
 from .errors import InputError
 
-__all__ = ["FIT_MODELS", "FitRequest", "RecordingFit", "fit_recording", "pool_sweeps", "read_recordings"]
+__all__ = ["FIT_MODELS", "FitRequest", "RecordingFit", "complete_request", "fit_recording", "pool_sweeps",
+           "read_recordings", "stimulus_of"]
 
 Array = NDArray[np.float64]
 
@@ -116,9 +118,59 @@ def read_recordings(paths: Sequence[str | Path], parse: Any, *, time_unit: str |
         raise InputError("no recording given")
     files = []
     for path in paths:
+        if str(path).lower().endswith(".nwb"):
+            files.append(_nwb_sweeps(str(path)))
+            continue
         text = read_input_text(path, "recording")
         files.append(read_sweeps(text, str(path), parse, time_unit=time_unit, voltage_unit=voltage_unit))
     return files
+
+
+def _nwb_sweeps(path: str) -> Any:
+    """An NWB file's current-clamp sweeps (:func:`cabletheory.trace.read_nwb_sweeps`) as the
+    :class:`~cabletheory.verify.reading.Sweeps` a CSV file gives; the step read from the file's
+    stimulus series, if any, is kept in the metadata (:func:`stimulus_of`)."""
+    import os
+    import stat
+
+    from .errors import MissingFileError
+    from .trace import read_nwb_sweeps
+    from .verify.reading import Sweeps
+
+    try:
+        info = os.stat(path)
+    except OSError:
+        raise MissingFileError(f"recording {path!r} does not exist or cannot be read") from None
+    if not stat.S_ISREG(info.st_mode):
+        raise InputError(f"recording {path!r} is not a regular file; give a file")
+    nwb = read_nwb_sweeps(path)
+    metadata = {"nwb_notes": " | ".join(nwb.notes)}
+    if nwb.current is not None and nwb.onset is not None:
+        metadata |= {"stimulus_current": repr(nwb.current), "stimulus_onset": repr(nwb.onset)}
+    return Sweeps(name=path, times=nwb.times, voltages=nwb.voltages, labels=nwb.labels,
+                  lines=np.zeros(nwb.times.size, dtype=np.int64), units={"time": "s", "voltage": "V"}, assumed=(),
+                  metadata=metadata)
+
+
+def stimulus_of(files: Sequence[Any]) -> tuple[float | None, float | None]:
+    """(current A, onset s) of the step stored in the files (NWB stimulus series), when every file
+    stores the same one; (None, None) otherwise (a CSV file stores none)."""
+    found = {(f.metadata.get("stimulus_current"), f.metadata.get("stimulus_onset")) for f in files}
+    if len(found) != 1:
+        return None, None
+    current, onset = found.pop()
+    if current is None or onset is None:
+        return None, None
+    return float(current), float(onset)
+
+
+def complete_request(request: FitRequest, files: Sequence[Any]) -> FitRequest:
+    """The request with its current and onset taken from the files' stored step where not given."""
+    from dataclasses import replace
+
+    current, onset = stimulus_of(files)
+    return replace(request, current=request.current if request.current is not None else current,
+                   onset=request.onset if request.onset is not None else onset)
 
 
 def pool_sweeps(files: Sequence[Any]) -> tuple[Array, Array]:

@@ -32,13 +32,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .errors import InputError
 
-__all__ = ["DEPARTURE_RUN", "DEPARTURE_SIGMAS", "Trace", "detect_onset", "prepare_trace"]
+__all__ = ["DEPARTURE_RUN", "DEPARTURE_SIGMAS", "RecordedSweeps", "Trace", "detect_onset", "prepare_trace",
+           "read_nwb_sweeps"]
 
 Array = NDArray[np.float64]
 
@@ -253,3 +255,163 @@ def prepare_trace(times: ArrayLike, sweeps: ArrayLike, *, onset: float | None = 
     return Trace(times=t - start, voltage=mean, standard_error=se, spread=spread, sweeps=n, onset=start,
                  onset_detected=detected, baseline=float(baselines.mean()), baseline_source=source,
                  noise=_noise(mean), baseline_error=baseline_error, notes=tuple(notes))
+
+
+# --------------------------------------------------------------------------------------
+# NWB files (the optional extra 'nwb')
+# --------------------------------------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class RecordedSweeps:
+    """Current-clamp sweeps taken from an NWB file, in SI.
+
+    Attributes
+    ----------
+    name : the file (used in messages)
+    times : s from the start of each sweep (shared by every sweep)
+    voltages : V as recorded, shape (sweeps, times)
+    labels : the name of each sweep's series in the file
+    current : A, the step's amplitude read from the stimulus series recorded with the sweeps, or
+        None when the file holds none or the sweeps' stimuli differ
+    onset : s from each sweep's start, when the step switches on (same condition), or None
+    notes : plain-language remarks on what was read
+    """
+
+    name: str
+    times: Array
+    voltages: Array
+    labels: tuple[str, ...]
+    current: float | None
+    onset: float | None
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+
+def _series_times(series: Any, name: str, label: str) -> Array:
+    """Sample times from the start of one series: its timestamps, or its rate."""
+    stamps = getattr(series, "timestamps", None)
+    n = int(series.data.shape[0])
+    if stamps is not None:
+        t = np.asarray(stamps[:], dtype=float)
+        return t - t[0]
+    rate = getattr(series, "rate", None)
+    if not rate or not math.isfinite(float(rate)) or float(rate) <= 0:
+        raise InputError(f"{name}: series {label!r} has neither timestamps nor a sampling rate")
+    return np.arange(n) / float(rate)
+
+
+def _step(stimulus: Array, times: Array) -> tuple[float, float] | None:
+    """(amplitude A, onset s) of a current step in a stimulus series: the onset is the first sample
+    farther than half the largest departure from the first sample's level, the amplitude the median
+    departure of the samples beyond that half (a step held to the end, or a pulse)."""
+    base = float(stimulus[0])
+    departure = stimulus - base
+    largest = float(np.max(np.abs(departure)))
+    if not largest > 0:
+        return None
+    on = np.abs(departure) > 0.5 * largest
+    first = int(np.argmax(on))
+    return float(np.median(departure[on])), float(times[first])
+
+
+def read_nwb_sweeps(path: str) -> RecordedSweeps:
+    """The current-clamp sweeps of an NWB file (Neurodata Without Borders, an open standard).
+
+    Every current-clamp series of the file's acquisition group is one sweep (series of the
+    zero-current kind are left out), in the order of their sweep numbers, then names; their data
+    are scaled to volts by each series' ``conversion`` and ``offset``. The sweeps must share one
+    clock: the same number of samples at the same rate (or timestamps), each taken from its own
+    start. When a current-clamp stimulus series is stored for every sweep (matched by sweep
+    number, or by order) and they all hold the same step, its amplitude and onset are returned
+    as well. The file is read with ``pynwb`` (install the extra: ``pip install 'cabletheory[nwb]'``).
+
+    Raises
+    ------
+    InputError : pynwb missing, a file that is not NWB, no current-clamp sweeps, sweeps on
+        different clocks, data not in volts (one line naming the file and the series)
+
+    References
+    ----------
+    Rübel O et al. (2022) eLife 11:e78362 [Rubel2022] (the NWB standard).
+    """
+    import importlib.util
+    import warnings
+
+    if importlib.util.find_spec("pynwb") is None:
+        raise InputError(f"{path}: reading NWB files needs the optional package 'pynwb': "
+                         "pip install 'cabletheory[nwb]'")
+    from pynwb import NWBHDF5IO
+    from pynwb.icephys import CurrentClampSeries, CurrentClampStimulusSeries, IZeroClampSeries
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # the reader's notices about the file's schema version
+        try:
+            io = NWBHDF5IO(str(path), "r")
+            nwbfile = io.read()
+        except Exception as exc:  # h5py and hdmf raise many kinds; each becomes one line
+            first = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
+            raise InputError(f"{path}: not a readable NWB file ({exc.__class__.__name__}"
+                             f"{': ' + first[:160] if first else ''})") from None
+        try:
+            return _take_sweeps(str(path), nwbfile, CurrentClampSeries, CurrentClampStimulusSeries,
+                                IZeroClampSeries)
+        finally:
+            io.close()
+
+
+def _order(series: Any) -> tuple[int, str]:
+    number = getattr(series, "sweep_number", None)
+    return (int(number) if number is not None else -1, str(getattr(series, "name", "")))
+
+
+def _take_sweeps(path: str, nwbfile: Any, clamp: type, stimulus_kind: type, zero: type) -> RecordedSweeps:
+    acquired: list[Any] = [s for s in nwbfile.acquisition.values()
+                if isinstance(s, clamp) and not isinstance(s, zero)]
+    if not acquired:
+        raise InputError(f"{path}: no current-clamp sweeps in the file's acquisition group")
+    acquired.sort(key=_order)
+    times: Array | None = None
+    voltages = []
+    for s in acquired:
+        unit = str(getattr(s, "unit", "volts")).lower()
+        if unit not in ("volts", "volt", "v"):
+            raise InputError(f"{path}: series {s.name!r} is in {unit!r}; current-clamp data must be in volts")
+        t = _series_times(s, path, s.name)
+        if times is None:
+            times = t
+        elif t.size != times.size or not np.allclose(t, times, rtol=1e-9, atol=1e-12):
+            raise InputError(f"{path}: series {s.name!r} has {t.size} samples on another clock than "
+                             f"{acquired[0].name!r} ({times.size}); pooled sweeps must share one clock")
+        offset = float(getattr(s, "offset", 0.0) or 0.0)
+        voltages.append(np.asarray(s.data[:], dtype=float) * float(s.conversion) + offset)
+    assert times is not None
+    if times.size < 2 or np.any(np.diff(times) <= 0):
+        raise InputError(f"{path}: the sample times of {acquired[0].name!r} do not increase")
+    stimuli: list[Any] = [s for s in nwbfile.stimulus.values() if isinstance(s, stimulus_kind)]
+    by_number = {int(s.sweep_number): s for s in stimuli if getattr(s, "sweep_number", None) is not None}
+    notes: list[str] = []
+    current = onset = None
+    steps = []
+    for k, s in enumerate(acquired):
+        number = getattr(s, "sweep_number", None)
+        match: Any = by_number.get(int(number)) if number is not None else None
+        if match is None and len(stimuli) == len(acquired):
+            match = sorted(stimuli, key=_order)[k]
+        if match is None:
+            break
+        data = np.asarray(match.data[:], dtype=float) * float(match.conversion) + float(getattr(match, "offset", 0.0)
+                                                                                       or 0.0)
+        step = _step(data, _series_times(match, path, match.name)) if data.size else None
+        if step is None:
+            break
+        steps.append(step)
+    if steps and len(steps) == len(acquired):
+        amplitudes = np.array([a for a, _ in steps])
+        onsets = np.array([o for _, o in steps])
+        if np.all(np.abs(amplitudes - amplitudes[0]) <= 0.01 * abs(amplitudes[0])) and np.ptp(onsets) == 0:
+            current, onset = float(np.median(amplitudes)), float(onsets[0])
+            notes.append(f"the step ({current * 1e12:.4g} pA from {onset * 1e3:.6g} ms) is read from the "
+                         "stimulus series stored with the sweeps")
+        else:
+            notes.append("the sweeps' stimulus series differ, so the step is not taken from the file")
+    return RecordedSweeps(name=path, times=times, voltages=np.vstack(voltages),
+                          labels=tuple(str(s.name) for s in acquired), current=current, onset=onset,
+                          notes=tuple(notes))

@@ -34,8 +34,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         epilog=f"{FIT_CAVEAT} {PASSIVE_CAVEAT}",
     )
     parser.add_argument("recordings", nargs="+", metavar="RECORDING.csv",
-                        help="files with a time column and one voltage column per sweep; several files are "
-                             "pooled (same sample times)")
+                        help="files with a time column and one voltage column per sweep, or NWB files (their "
+                             "current-clamp sweeps; needs the extra 'nwb'); several files are pooled (same sample "
+                             "times)")
     layout = parser.add_argument_group("reading the recordings (bare numbers: ms, mV)")
     layout.add_argument("--time-unit", metavar="UNIT", help="unit of the time column if its header has none "
                                                            "(default ms)")
@@ -107,7 +108,7 @@ def _time(text: str | None, option: str, *, allow_zero: bool = True) -> float | 
 
 def read_inputs(args: argparse.Namespace) -> dict[str, Any]:
     """Every option as SI (or None), each checked with its option's name; and the pooled sweeps."""
-    from ..fit_recording import pool_sweeps, read_recordings
+    from ..fit_recording import pool_sweeps, read_recordings, stimulus_of
     from .reference import parser_for_quantities
 
     if args.figure is not None and Path(args.figure).suffix.lower() not in (".png", ".svg", ".pdf"):
@@ -132,7 +133,8 @@ def read_inputs(args: argparse.Namespace) -> dict[str, Any]:
         raise InputError(f"--morphology: the cell is fitted as a morphology, not as --model {model}; drop one")
     if args.soma_shunt and model != "morphology":
         raise InputError("--soma-shunt: only a morphology fit (--morphology FILE) takes a soma shunt")
-    if model == "morphology" and values["current"] is None:
+    stored = any(str(path).lower().endswith(".nwb") for path in args.recordings)  # may store the step
+    if model == "morphology" and values["current"] is None and not stored:
         raise InputError("--morphology: give the injected current (--current); Rm, Ri and Cm depend on it")
     values["model"] = model
     if args.morphology is not None:
@@ -149,6 +151,14 @@ def read_inputs(args: argparse.Namespace) -> dict[str, Any]:
                             voltage_unit=args.voltage_unit)
     values["files"] = files
     values["times"], values["sweeps"] = pool_sweeps(files)
+    current, onset = stimulus_of(files)  # the step an NWB file stores beside its sweeps
+    values["stimulus_from_file"] = [name for name, given, found in (("current", values["current"], current),
+                                                                    ("onset", values["onset"], onset))
+                                    if given is None and found is not None]
+    values["current"] = values["current"] if values["current"] is not None else current
+    values["onset"] = values["onset"] if values["onset"] is not None else onset
+    if model == "morphology" and values["current"] is None:
+        raise InputError("--morphology: give the injected current (--current); Rm, Ri and Cm depend on it")
     return values
 
 
@@ -210,10 +220,12 @@ def as_text(v: dict[str, Any], trace: Any, decomposition: Any, peel: Any, model:
     lines = [f"Recording: {', '.join(f.name for f in files)}: {trace.sweeps} sweep(s) of {n_samples} samples; "
              f"units time {units['time']}, voltage {units['voltage']}"
              + (f" (assumed: {', '.join(assumed)})" if assumed else "")]
-    how = "detected" if trace.onset_detected else "given"
+    how = "detected" if trace.onset_detected else ("from the file" if "onset" in v.get("stimulus_from_file", ())
+                                                   else "given")
     lines.append(f"  onset {_q(trace.onset, 'time', digits)} ({how}); baseline {_q(trace.baseline, 'voltage', digits)} "
                  f"({trace.baseline_source}); noise of the mean {_q(trace.noise, 'voltage', 3)}")
     lines += [f"  note: {n}" for n in trace.notes]
+    lines += [f"  note: {n}" for f in files for n in f.metadata.get("nwb_notes", "").split(" | ") if n]
     # exponentials
     d = decomposition
     f = d.fit

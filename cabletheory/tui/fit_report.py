@@ -38,7 +38,7 @@ FIT_CHOICES: dict[str, str] = {
 # typed in the other views. Blank optional fields mean what the fit command's missing option means.
 FIT_FIELDS: tuple[FieldSpec, ...] = (
     FieldSpec("file", "recordings", "dimensionless", "",
-              placeholder="sweeps as CSV or tab-separated text; several: a.csv; b.csv"),
+              placeholder="sweeps: CSV, tab-separated or NWB; several: a.csv; b.csv"),
     FieldSpec("morphology", "morphology", "dimensionless", "", blank_ok=True,
               placeholder="SWC or tree outline of the recorded cell"),
     FieldSpec("current", "injected current", "current", "", allow_negative=True, blank_ok=True,
@@ -129,7 +129,8 @@ def read_fit_form(texts: Mapping[str, str], model: str = "ball-and-stick", shunt
             errors["morphology"] = f"morphology: {text!r} does not exist or is not a file"
         else:
             morphology = Path(text).expanduser()
-        if values.get("current") is None and "current" not in errors:
+        stored = any(p.lower().endswith(".nwb") for p in paths)  # an NWB file may store the step
+        if values.get("current") is None and "current" not in errors and not stored:
             errors["current"] = "injected current: needed for a reconstructed cell (Rm, Ri and Cm depend on it)"
     if values.get("current") == 0:
         errors["current"] = "injected current: 0 gives no response; give the injected current, e.g. -40 pA"
@@ -163,6 +164,7 @@ class FitRun:
 
     files: tuple[Any, ...]
     result: RecordingFit
+    setup: FitSetup  # with the current and onset a file stored, where the form left them blank
 
 
 def run_fit(setup: FitSetup) -> FitRun:
@@ -173,7 +175,9 @@ def run_fit(setup: FitSetup) -> FitRun:
     FileProblem : a file that cannot be read (its message names the file and line)
     CableTheoryError : a fit that cannot be made (one line)
     """
-    from ..fit_recording import fit_recording, pool_sweeps, read_recordings
+    from dataclasses import replace
+
+    from ..fit_recording import complete_request, fit_recording, pool_sweeps, read_recordings
 
     try:
         files = read_recordings([str(p) for p in setup.paths], parse_file_quantity, time_unit=setup.time_unit,
@@ -189,7 +193,8 @@ def run_fit(setup: FitSetup) -> FitRun:
             tree = read_tree(setup.morphology)
         except CableTheoryError as exc:
             raise FileProblem("morphology", str(exc)) from None
-    return FitRun(tuple(files), fit_recording(times, sweeps, setup.request, tree))
+    request = complete_request(setup.request, files)  # the step an NWB file stores, where not typed
+    return FitRun(tuple(files), fit_recording(times, sweeps, request, tree), replace(setup, request=request))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -246,7 +251,7 @@ def fit_report(setup: FitSetup, run: FitRun) -> Report:
     with the fitted curves, and the residuals."""
     result = run.result
     trace, d, model = result.trace, result.decomposition, result.model
-    r = setup.request
+    r = result.request
     files = run.files
     assumed = sorted({a for f in files for a in f.assumed})
     inputs = [
@@ -259,6 +264,7 @@ def fit_report(setup: FitSetup, run: FitRun) -> Report:
     ]
     if setup.morphology is not None:
         inputs.append(Row("morphology", "morphology", str(setup.morphology)))
+    stored = [f.metadata.get("nwb_notes", "") for f in files]
     inputs += [
         Row("current", "injected current", r.current, "current", shown=None if r.current is not None else "unknown"),
         Row("onset", "stimulus onset (file's clock)", trace.onset, "time"),
@@ -310,7 +316,7 @@ def fit_report(setup: FitSetup, run: FitRun) -> Report:
     # the plain statements first: what the data cannot separate
     notes = [*fitted.condition.statements()]
     notes += [n for n in (model.notes if model is not None else d.notes) if n not in notes]
-    notes += list(trace.notes)
+    notes += list(trace.notes) + [n for text in stored for n in text.split(" | ") if n]
     notes.append(f"residuals: {check.describe()}")
     if model is not None and hasattr(model, "case"):
         notes.append(f"fitted cell: {model.case.describe()}")
