@@ -23,8 +23,8 @@ from .fields import FieldSpec
 from .forms import parse_file_quantity, read_form
 from .report import Column, PlotSpec, Report, Row, Series, Table
 
-__all__ = ["FIT_CHOICES", "FIT_FIELDS", "FileProblem", "FitSetup", "fit_fields_used", "fit_report",
-           "read_fit_form", "run_fit"]
+__all__ = ["FIT_CHOICES", "FIT_FIELDS", "FileProblem", "FitSetup", "fit_fields_used", "fit_in_child", "fit_outcome",
+           "fit_report", "read_fit_form", "run_fit"]
 
 # the cells the view fits (canonical words of the fit command's --model) and how the form names them
 FIT_CHOICES: dict[str, str] = {
@@ -195,6 +195,39 @@ def run_fit(setup: FitSetup) -> FitRun:
             raise FileProblem("morphology", str(exc)) from None
     request = complete_request(setup.request, files)  # the step an NWB file stores, where not typed
     return FitRun(tuple(files), fit_recording(times, sweeps, request, tree), replace(setup, request=request))
+
+
+def fit_outcome(setup: FitSetup) -> tuple[str, Any, str]:
+    """The fit's report, or what went wrong, as plain picklable data: ``("report", report, "")``,
+    ``("file", field, message)`` for a file that cannot be read, ``("error", "", message)``."""
+    try:
+        run = run_fit(setup)
+        return "report", fit_report(run.setup, run), ""
+    except FileProblem as exc:
+        return "file", exc.field, str(exc)
+    except CableTheoryError as exc:
+        return "error", "", str(exc)
+
+
+def fit_in_child(setup: FitSetup, pipe: Any) -> None:
+    """Run :func:`fit_outcome` in a child process and send its outcome back through ``pipe``.
+
+    The view fits in another process, not only another thread: a fit keeps the interpreter busy
+    for seconds, and in a thread it would starve the screen of the time it needs to answer keys."""
+    import os
+    import warnings
+
+    from ..errors import ImplausibleValueWarning
+
+    # the child shares the app's terminal: nothing it might print may scribble over the screen
+    quiet = os.open(os.devnull, os.O_WRONLY)
+    os.dup2(quiet, 1)
+    os.dup2(quiet, 2)
+    warnings.filterwarnings("ignore", category=ImplausibleValueWarning)
+    try:
+        pipe.send(fit_outcome(setup))
+    finally:
+        pipe.close()
 
 
 # ---------------------------------------------------------------------------------------------

@@ -29,8 +29,9 @@ class FitView(Vertical):
     """Files, cell and window on the left; fitted values, statements and the two plots on the right.
 
     Nothing is fitted at each keystroke: a fit takes from a fraction of a second (a ball and stick)
-    to many seconds (a large reconstructed cell), so it runs in a worker when asked (enter in a
-    field, or ctrl+r) and the form stays live meanwhile; a newer request cancels the older one.
+    to many seconds (a large reconstructed cell), so it runs when asked (enter in a field, or
+    ctrl+r) in a child process watched by a worker thread, and the form stays live meanwhile; a
+    newer request stops the older one.
     """
 
     BINDINGS: ClassVar[list[BindingType]] = [
@@ -187,37 +188,62 @@ class FitView(Vertical):
 
     @work(exclusive=True, thread=True, group="fit")
     def fit(self, setup: FitSetup) -> None:
-        from ..errors import CableTheoryError
-        from .fit_report import FileProblem, fit_report, run_fit
+        """Fit in a child process (see :func:`~cabletheory.tui.fit_report.fit_in_child`); this thread
+        only waits for it, and stops it when a newer request cancels the worker."""
+        import multiprocessing
+        import sys
+        from contextlib import suppress
+        from multiprocessing import resource_tracker
+
+        from .fit_report import fit_in_child
 
         worker = get_current_worker()
-        result: Report | FileProblem | str
+        # the helper process that multiprocessing starts once hands on the file number of stderr, which
+        # the app has swapped for its own (with none): it is started with the process's own stderr
+        swapped, sys.stderr = sys.stderr, sys.__stderr__
         try:
-            result = fit_report(setup, run_fit(setup))
-        except FileProblem as exc:
-            result = exc
-        except CableTheoryError as exc:
-            result = str(exc)
+            resource_tracker.ensure_running()
+        finally:
+            sys.stderr = swapped
+        context = multiprocessing.get_context("spawn")  # no fork of a process that runs threads
+        receiver, sender = context.Pipe(duplex=False)
+        child = context.Process(target=fit_in_child, args=(setup, sender), daemon=True)
+        child.start()
+        sender.close()
+        outcome: tuple[str, object, str] = ("error", "", "the fit stopped without an answer")
+        try:
+            while not worker.is_cancelled:
+                if receiver.poll(0.05):
+                    with suppress(EOFError):  # the child died while sending
+                        outcome = receiver.recv()
+                    break
+                if not child.is_alive() and not receiver.poll(0):
+                    break
+        finally:
+            if child.is_alive():
+                child.terminate()
+            child.join()
+            receiver.close()
         if not worker.is_cancelled:
-            self.app.call_from_thread(self._show, setup, result)
+            self.app.call_from_thread(self._show, setup, outcome)
 
-    def _show(self, setup: FitSetup, result: Report | Exception | str) -> None:
-        from .fit_report import FileProblem
-
+    def _show(self, setup: FitSetup, outcome: tuple[str, object, str]) -> None:
         if setup != self.wanted:
             return  # the form changed while the worker ran: a newer result is on its way
         self._busy(False)
-        if isinstance(result, FileProblem):
-            self.query_one(f"#field-{PREFIX}{result.field}", QuantityField).flag(str(result))
-            self._clear(f"The {'morphology' if result.field == 'morphology' else 'recording'} could not be read: "
-                        f"{result}")
-            self.app.set_status(str(result), error=True)  # type: ignore[attr-defined]
+        kind, payload, message = outcome
+        if kind == "file":
+            self.query_one(f"#field-{PREFIX}{payload}", QuantityField).flag(message)
+            self._clear(f"The {'morphology' if payload == 'morphology' else 'recording'} could not be read: "
+                        f"{message}")
+            self.app.set_status(message, error=True)  # type: ignore[attr-defined]
             return
-        if isinstance(result, str):
-            self._clear(f"No fit: {result}")
-            self.app.set_status(result, error=True)  # type: ignore[attr-defined]
+        if kind != "report":
+            self._clear(f"No fit: {message}")
+            self.app.set_status(message, error=True)  # type: ignore[attr-defined]
             return
-        self.report = result
-        self.query_one("#fit-results", QuantityList).show(result.results, result.notes)
-        self.query_one("#fit-plot", CurvePlot).spec = result.plots[0]
-        self.query_one("#fit-residual-plot", CurvePlot).spec = result.plots[1]
+        report: Report = payload  # type: ignore[assignment]
+        self.report = report
+        self.query_one("#fit-results", QuantityList).show(report.results, report.notes)
+        self.query_one("#fit-plot", CurvePlot).spec = report.plots[0]
+        self.query_one("#fit-residual-plot", CurvePlot).spec = report.plots[1]
