@@ -306,10 +306,18 @@ def _exact_time_course(cylinder, soma_diameter, site):
     return course
 
 
+TREE_COURSE = ("voltage at each read point of the tree during a current step at the stimulus point (max error over "
+               "time, relative to that point's peak)")
+
+
+def _definition(a: Advice, read_at: list[str] | None) -> str:
+    return TREE_COURSE if read_at is not None and a.output == "time-course" else OUTPUTS[a.output]
+
+
 def as_json(a: Advice, names: list[str] | None = None, read_at: list[str] | None = None) -> dict:
     out = {
         "quantity": a.output,
-        "definition": OUTPUTS[a.output],
+        "definition": _definition(a, read_at),
         "target_relative_error": a.target,
         "compartments": a.compartments.tolist(),
         **({"branches": list(names)} if names is not None else {}),
@@ -381,7 +389,7 @@ def _percent(x: float) -> str:
 def as_text(a: Advice, inputs: list[tuple[str, str]], names: list[str] | None = None,
             read_at: list[str] | None = None) -> str:
     blocks = [table(inputs, "Inputs")]
-    what = OUTPUTS[a.output]
+    what = _definition(a, read_at)
     if a.site is not None:
         what += f", site {format_quantity(a.site, 'length')}"
     if a.frequency is not None:
