@@ -185,14 +185,23 @@ def test_without_unnamed_files_the_named_temporary_is_removed_on_failure(tmp_pat
 # a kill at any moment of a write: the old file or the new one, nothing else
 # --------------------------------------------------------------------------------------
 WRITER = textwrap.dedent("""
+    import os
     import sys
     from cabletheory import output
     if sys.argv[2] == "named":
         output._open_unnamed = lambda folder: None
     new = b"N" * 8_000_000
-    print("ready", flush=True)
-    while True:
-        output.write_atomically(sys.argv[1], new)
+    while sys.stdin.readline():  # one round per line: a writer forked from this interpreter
+        pid = os.fork()
+        if pid == 0:
+            try:
+                while True:
+                    output.write_atomically(sys.argv[1], new)
+            finally:  # a writer that survived its signal (KeyboardInterrupt) never runs this loop
+                os._exit(1)
+        print(pid, flush=True)
+        os.waitpid(pid, 0)
+        print("done", flush=True)
 """)
 
 OLD = b"O" * 1000
@@ -212,18 +221,28 @@ def _default_interrupt() -> None:
 )
 def test_a_kill_at_a_random_moment_leaves_the_old_file_or_the_new(tmp_path, mode, signum):
     """SIGKILL cannot be caught: only the unnamed temporary file (O_TMPFILE) survives it without a
-    trace, so the named fallback is checked with the signals it can catch."""
+    trace, so the named fallback is checked with the signals it can catch.
+
+    Each of the eight writers is forked from one interpreter that has imported the package (the
+    signal dispositions of a new interpreter: Ctrl-C raises KeyboardInterrupt, the others their
+    default), so that starting Python is paid once per signal, not once per kill."""
     rng = random.Random(20261203 + signum)
     target = tmp_path / "result.bin"
-    for _ in range(8):
-        target.write_bytes(OLD)
-        child = subprocess.Popen([sys.executable, "-c", WRITER, str(target), mode], stdout=subprocess.PIPE,
-                                 preexec_fn=_default_interrupt)
-        assert child.stdout.readline() == b"ready\n"
-        time.sleep(rng.uniform(0.0, 0.15))
-        child.send_signal(signum)
-        child.wait(timeout=30)
-        child.stdout.close()
-        assert _listing(tmp_path) == ["result.bin"]
-        content = target.read_bytes()
-        assert content == OLD or (len(content) == NEW_SIZE and content == b"N" * NEW_SIZE)
+    server = subprocess.Popen([sys.executable, "-c", WRITER, str(target), mode], stdin=subprocess.PIPE,
+                              stdout=subprocess.PIPE, preexec_fn=_default_interrupt)
+    try:
+        for _ in range(8):
+            target.write_bytes(OLD)
+            server.stdin.write(b"go\n")
+            server.stdin.flush()
+            pid = int(server.stdout.readline())
+            time.sleep(rng.uniform(0.0, 0.15))
+            os.kill(pid, signum)
+            assert server.stdout.readline() == b"done\n"
+            assert _listing(tmp_path) == ["result.bin"]
+            content = target.read_bytes()
+            assert content == OLD or (len(content) == NEW_SIZE and content == b"N" * NEW_SIZE)
+    finally:
+        server.stdin.close()
+        server.wait(timeout=30)
+        server.stdout.close()
