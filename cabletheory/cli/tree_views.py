@@ -114,12 +114,14 @@ def chosen_view(args: argparse.Namespace) -> str | None:
 
 
 def _point(tree, label: str, option: str):  # -> Site
-    from ..tree_laplace import site_at
+    """A point label or 'branch 443 +25 um' (the one syntax of cabletheory.tree_sites)."""
+    from ..tree_sites import tree_site
+    from .reference import parser_for_quantities
 
     try:
-        return site_at(tree, label)
+        return tree_site(tree, label, parser_for_quantities)
     except InputError as exc:
-        raise InputError(f"{option}: {str(exc).split(': ', 1)[-1]}") from None
+        raise InputError(f"{option}: {exc}") from None
 
 
 def _labels(text: str, option: str) -> list[str]:
