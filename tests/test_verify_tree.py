@@ -206,6 +206,9 @@ def test_a_known_perturbation_is_reported_as_the_error(tmp_path, capsys):
     report = _json(capsys, ["compare", str(run), *CASE[:4], "--shape", "alpha", "--current", "100 pA",
                             "--time-to-peak", "0.5 ms", "--morphology", str(LW1), "--stimulus-at", "30",
                             "--pass-within", "1 uV"], status=1)
+    assert report["stimulus"]["position"] == "30"
+    assert report["stimulus"]["shape"] == "alpha"
+    assert report["morphology"] == str(LW1)
     r = report["runs"][0]
     k = int(np.argmax(np.abs(delta)))
     assert r["max_abs_error"]["value"] == pytest.approx(float(np.max(np.abs(delta))), rel=1e-6)

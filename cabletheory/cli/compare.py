@@ -93,13 +93,20 @@ def run(args: argparse.Namespace) -> int:
         if np.any(np.isfinite(dx)) or np.any(np.isfinite(dt)):
             order = convergence([c.max_abs_error for c in results], dx, dt, args.scheme)
     if args.report:
-        write_atomically(args.report, dump_json(as_json(case, recordings, results, order, points)),
+        write_atomically(args.report, dump_json(as_json(case, recordings, results, order, points, _tree_inputs(args))),
                          protected=[*args.runs, *([args.morphology] if args.morphology else [])])
     if args.json:
-        print(dump_json(as_json(case, recordings, results, order, points)))
+        print(dump_json(as_json(case, recordings, results, order, points, _tree_inputs(args))))
     else:
         print(as_text(case, recordings, results, order, points))
     return 0 if all(c.passed for c in results) else 1
+
+
+def _tree_inputs(args: argparse.Namespace) -> dict | None:
+    """The JSON's words for a tree case: the morphology file and where the stimulus is applied."""
+    if args.morphology is None:
+        return None
+    return {"morphology": str(args.morphology), "stimulus_at": (args.stimulus_at or "soma").strip()}
 
 
 def read_column_points(text: str) -> str | dict[str, str]:
@@ -166,9 +173,11 @@ def _on_tree(label: str) -> str:
 
 
 def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparison],
-            order: Convergence | None, points: list[tuple[str, ...]] | None = None) -> dict:
+            order: Convergence | None, points: list[tuple[str, ...]] | None = None,
+            tree: dict | None = None) -> dict:
     """The JSON report; on a tree (``points``: the labels of each run's sites) every position is the
-    point's text in the column syntax instead of a length."""
+    point's text in the column syntax instead of a length, the stimulus's ``position`` is its point
+    and ``morphology`` names the file (``tree``: those two words)."""
     runs = []
     for k, (r, c) in enumerate(zip(recordings, results, strict=True)):
         labels = points[k] if points is not None else None
@@ -199,7 +208,10 @@ def as_json(case: ExactCase, recordings: list[Recording], results: list[Comparis
             "exact_error_bound": quantity(c.reference_bound, "voltage"),
         })
     parameters, stimulus = split_stimulus(case.parameters, case.stimulus_shape)
+    if tree is not None:
+        stimulus["position"] = tree["stimulus_at"]
     out: dict = {
+        **({"morphology": tree["morphology"]} if tree is not None else {}),
         "case": case.description,
         "method": case.method,
         "parameters": parameters,
