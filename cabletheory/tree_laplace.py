@@ -66,6 +66,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -337,6 +338,9 @@ class _Network:
 
 
 def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
+    """The pieces of ``cell`` cut at every site inside a piece, zero-length pieces contracted into
+    their proximal node, with the node of each site; built with whole-array operations (linear in
+    the number of pieces and sites, apart from sorting the cuts)."""
     tree = cell.tree
     n = len(tree)
     lengths = np.asarray(tree.lengths, dtype=float)
@@ -346,84 +350,73 @@ def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
     rm = _per_piece(cell.membrane_resistivity, n, "membrane_resistivity")
     cm = _per_piece(cell.membrane_capacitance, n, "membrane_capacitance")
     ri = float(cell.axial_resistivity)
-    tip_g = cell.tip_conductances()
+    tip_g = np.asarray(cell.tip_conductances(), dtype=float)
     lam = np.asarray(length_constant(rm, ri, diam), dtype=float)
     ginf = np.asarray(semi_infinite_input_conductance(rm, ri, diam), dtype=float)
-    cuts: list[list[float]] = [[] for _ in range(n)]
-    for site in sites:
-        i, x = _check_site(tree, site)
-        if 0.0 < x < lengths[i]:
-            cuts[i].append(x)
-    parents = tree.parents.tolist()
-    end_node = [0] * n
-    start_node = [0] * n
-    cut_node: dict[tuple[int, float], int] = {}
-    new_par: list[int] = []
-    new_len: list[float] = []
-    new_d0: list[float] = []
-    new_d1: list[float] = []
-    src: list[int] = []
-    shunt_at: dict[int, float] = {}
-    killed_at: set[int] = set()
-    for i in range(n):
-        start = 0 if parents[i] < 0 else end_node[parents[i]]
-        start_node[i] = start
-        if lengths[i] == 0.0:
-            end_node[i] = start
-            g = float(tip_g[i])
-            if math.isinf(g):
-                raise InputError(f"{tree.source}: tip {tree.labels[i]} has zero length and is killed, which would "
-                                 "ground its parent point; give it a length or seal it")
-            if g > 0:
-                if start == 0:
-                    raise InputError(f"{tree.source}: tip {tree.labels[i]} has zero length at the root; a "
-                                     "conductance there is not a tip condition")
-                shunt_at[start] = shunt_at.get(start, 0.0) + g
-            continue
-        previous = 0.0
-        for x in [*sorted(set(cuts[i])), float(lengths[i])]:
-            new_par.append(start - 1)
-            new_len.append(x - previous)
-            new_d0.append(prox[i] + (diam[i] - prox[i]) * previous / lengths[i])
-            new_d1.append(prox[i] + (diam[i] - prox[i]) * x / lengths[i])
-            src.append(i)
-            start = len(new_par)
-            cut_node[(i, x)] = start
-            previous = x
-        end_node[i] = start
-        if math.isinf(tip_g[i]):
-            killed_at.add(start)
-        elif tip_g[i] > 0:
-            shunt_at[start] = shunt_at.get(start, 0.0) + float(tip_g[i])
-    m = len(new_par)
+    parents = np.asarray(tree.parents, dtype=np.int64)
+    site_piece, site_x = _check_sites(tree, sites)
+    # the cuts: distinct (piece, distance) strictly inside a piece, by piece then distance
+    inside = (site_piece >= 0) & (site_x > 0.0) & (site_x < lengths[np.maximum(site_piece, 0)])
+    pairs = np.column_stack((site_piece[inside].astype(float), site_x[inside]))
+    unique, which = np.unique(pairs, axis=0, return_inverse=True)
+    cut_piece, cut_x = unique[:, 0].astype(np.int64), unique[:, 1]
+    n_cuts = np.bincount(cut_piece, minlength=n)
+    cut_first = np.cumsum(n_cuts) - n_cuts  # index of each piece's first cut in cut_piece
+    positive = lengths != 0.0
+    counts = np.where(positive, n_cuts + 1, 0)  # new pieces made of each piece
+    ends = np.cumsum(counts)  # node at the distal end of a piece of positive length
+    first = ends - counts  # its first new piece
+    # a zero-length piece ends where it starts: at the end of its nearest ancestor of positive length
+    anchor = np.where(positive, np.arange(n), parents)
+    while True:
+        contracted = (anchor >= 0) & ~positive[np.maximum(anchor, 0)]
+        if not contracted.any():
+            break
+        anchor = np.where(contracted, anchor[np.maximum(anchor, 0)], anchor)  # pointer doubling
+    end_node = np.where(anchor >= 0, ends[np.maximum(anchor, 0)], 0)
+    start_node = np.where(parents >= 0, end_node[np.maximum(parents, 0)], 0)
+    _check_zero_length_tips(tree, positive, tip_g, start_node)
+    m = int(ends[-1]) if n else 0
     if m == 0:
         raise InputError(f"{tree.source}: the tree has no membrane (every piece has zero length)")
-    source = np.asarray(src, dtype=np.int64)
-    par = np.asarray(new_par, dtype=np.int64)
+    source = np.repeat(np.arange(n), counts)
+    par = np.arange(m, dtype=np.int64) - 1  # a cut piece's parent is the piece before it
+    starts = first[positive]
+    par[starts] = start_node[positive] - 1
+    x_end = lengths[source].copy()
+    cut_rank = np.arange(cut_piece.size) - cut_first[cut_piece]
+    x_end[first[cut_piece] + cut_rank] = cut_x
+    x_start = np.empty(m)
+    x_start[0] = 0.0
+    x_start[1:] = x_end[:-1]
+    x_start[starts] = 0.0
+    new_len = x_end - x_start
+    span = lengths[source]
+    d0 = prox[source] + (diam[source] - prox[source]) * x_start / span
+    d1 = prox[source] + (diam[source] - prox[source]) * x_end / span
+    # tip conditions: a zero-length tip's conductance at its (contracted) node, else at its distal end
     shunt = np.zeros(m)
-    for node, g in shunt_at.items():
-        shunt[node - 1] += g
+    zero_tip = ~positive & (tip_g > 0)
+    leaky = positive & (tip_g > 0) & np.isfinite(tip_g)
+    tip_nodes = np.concatenate((start_node[zero_tip], end_node[leaky]))
+    tip_values = np.concatenate((tip_g[zero_tip], tip_g[leaky]))
+    order = np.argsort(np.concatenate((np.flatnonzero(zero_tip), np.flatnonzero(leaky))), kind="stable")
+    np.add.at(shunt, tip_nodes[order] - 1, tip_values[order])  # summed in piece order
     killed = np.zeros(m, dtype=bool)
-    for node in killed_at:
-        killed[node - 1] = True
-    nodes = []
-    for site in sites:
-        i, x = _check_site(tree, site)
-        if i < 0 or x == 0.0:
-            nodes.append(0 if i < 0 else start_node[i])
-        elif x >= lengths[i]:
-            nodes.append(end_node[i])
-        else:
-            nodes.append(cut_node[(i, x)])
-    depth = np.zeros(m + 1, dtype=np.int64)
-    for k in range(m):
-        depth[k + 1] = depth[par[k] + 1] + 1
+    killed[end_node[positive & np.isinf(tip_g)] - 1] = True
+    # the node of every site: the root, a piece's ends, or a cut
+    safe = np.maximum(site_piece, 0)
+    nodes = np.where(site_piece < 0, 0, np.where(site_x == 0.0, start_node[safe], end_node[safe]))
+    cut_sites = np.flatnonzero(inside)
+    if cut_sites.size:
+        k = np.asarray(which).ravel()
+        nodes[cut_sites] = first[cut_piece[k]] + (k - cut_first[cut_piece[k]]) + 1
+    depth = _depths(par)
     order = np.argsort(depth[1:], kind="stable")
     bounds = np.searchsorted(depth[1:][order], np.arange(1, int(depth.max()) + 2))
     levels = tuple(order[bounds[j]:bounds[j + 1]] for j in range(bounds.size - 1))
     g_s, tau_s = cell.soma_constants()
-    piece_len = np.asarray(new_len)
-    d0, d1 = np.asarray(new_d0), np.asarray(new_d1)
+    piece_len = new_len
     tapered = np.flatnonzero(taper[source])
     # a frustum's steady electrotonic length, ∫dx/λ(x) (frustum_electrotonic_length of cabletheory.tree)
     electrotonic = piece_len / lam[source]
@@ -431,9 +424,61 @@ def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
     electrotonic[tapered] = piece_len[tapered] / np.asarray(length_constant(rm[source][tapered], ri, mean_root))
     return _Network(parents=par, electrotonic=electrotonic, g_inf=ginf[source],
                     tau=(rm * cm)[source], shunt=shunt, killed=killed, soma_conductance=g_s, soma_tau=tau_s,
-                    nodes=np.asarray(nodes, dtype=np.int64), levels=levels, depth=depth, parent_node=par + 1,
+                    nodes=nodes.astype(np.int64), levels=levels, depth=depth, parent_node=par + 1,
                     tapered=tapered, lengths=piece_len[tapered], proximal=d0[tapered], distal=d1[tapered],
                     membrane_resistivity=rm[source][tapered], axial_resistivity=ri)
+
+
+def _depths(parents: IntArray) -> IntArray:
+    """Depth of every node (node 0 the root, node k + 1 the distal end of piece k whose proximal node
+    is ``parents[k] + 1``), by pointer doubling: log2(depth) whole-array steps."""
+    up = np.concatenate(([0], parents + 1))
+    depth = np.ones(up.size, dtype=np.int64)
+    depth[0] = 0
+    while np.any(up != 0):
+        depth = depth + depth[up] * (up != 0)
+        up = up[up]
+    return depth
+
+
+def _check_zero_length_tips(tree: Tree, positive: NDArray[np.bool_], tip_g: Array, start_node: IntArray) -> None:
+    """Refuse a killed zero-length tip (it would ground its parent point) and a leaky one at the root."""
+    grounded = ~positive & np.isinf(tip_g)
+    at_root = ~positive & (tip_g > 0) & np.isfinite(tip_g) & (start_node == 0)
+    bad = np.flatnonzero(grounded | at_root)
+    if bad.size:
+        i = int(bad[0])
+        if grounded[i]:
+            raise InputError(f"{tree.source}: tip {tree.labels[i]} has zero length and is killed, which would "
+                             "ground its parent point; give it a length or seal it")
+        raise InputError(f"{tree.source}: tip {tree.labels[i]} has zero length at the root; a "
+                         "conductance there is not a tip condition")
+
+
+def _check_sites(tree: Tree, sites: Sequence[Site]) -> tuple[IntArray, Array]:
+    """(piece, distance) of every site, checked and snapped to a piece's ends as :func:`_check_site`
+    does one site (the first bad site, in order, raises its message)."""
+    sites = list(sites)
+    if not all(isinstance(site, Site) for site in sites):
+        _check_site(tree, next(site for site in sites if not isinstance(site, Site)))
+    try:
+        piece = np.fromiter((int(site.piece) for site in sites), dtype=np.int64, count=len(sites))
+        x = np.fromiter((float(site.distance) for site in sites), dtype=float, count=len(sites))
+    except (TypeError, ValueError, OverflowError):
+        for site in sites:
+            _check_site(tree, site)
+        raise
+    lengths = np.asarray(tree.lengths, dtype=float)
+    root = piece == -1
+    exists = (piece >= 0) & (piece < len(tree))
+    ell = lengths[np.where(exists, piece, 0)]
+    with np.errstate(invalid="ignore"):
+        within = np.isfinite(x) & (-1e-12 * ell <= x) & (x <= ell * (1 + 1e-12))
+    bad = np.flatnonzero(~root & ~(exists & within))
+    if bad.size:
+        _check_site(tree, sites[int(bad[0])])
+    x = np.where(root | (x <= 1e-12 * ell), 0.0, np.where(x >= ell * (1 - 1e-12), ell, x))
+    return piece, x
 
 
 def _check_site(tree: Tree, site: Site) -> tuple[int, float]:
@@ -502,8 +547,23 @@ def _frustum_two_port(net: _Network, q: ComplexArray) -> tuple[ComplexArray, ...
     return t11, t12, t21, t22, np.exp(-u_re) * np.ones_like(q)
 
 
-def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution:
-    """Both passes for a vector of complex s (1/s); see the module docstring."""
+@dataclass(frozen=True, slots=True)
+class _Inward:
+    """The tips-inward pass for a vector of s: what the outward pass and the pivots reuse."""
+
+    s: ComplexArray
+    gq: NDArray[Any]  # G∞·q of each piece (complex)
+    th: ComplexArray  # tanh u
+    sech: NDArray[Any]  # sech u (complex)
+    load: ComplexArray  # admittance hanging on each node from beyond it (tip shunts included)
+    y_in: ComplexArray
+    down: ComplexArray
+    row: IntArray  # row of each piece in the frusta's two-ports (-1 for a cylinder)
+    two_port: tuple[ComplexArray, ...] | None  # T11, T12, T21, T22, scale of the frusta
+
+
+def _inward(net: _Network, s: ComplexArray) -> _Inward:
+    """Tips inward: each piece's input admittance seen from its parent, and V(distal)/V(proximal)."""
     s = np.asarray(s, dtype=complex).ravel()
     n = net.size
     q = np.sqrt(1.0 + net.tau[:, None] * s[None, :])
@@ -519,8 +579,7 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
     killed = net.killed
     row = np.full(n, -1)
     row[net.tapered] = np.arange(net.tapered.size)
-    if net.tapered.size:
-        t11, t12, t21, t22, scale = _frustum_two_port(net, q[net.tapered])
+    two_port = _frustum_two_port(net, q[net.tapered]) if net.tapered.size else None
     with np.errstate(divide="ignore", invalid="ignore"):
         for idx in reversed(net.levels):
             yl = load[idx + 1]
@@ -534,6 +593,8 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
                 h[k] = 0.0
             f = np.flatnonzero(row[idx] >= 0)
             if f.size:  # frusta: the general two-port, (T21 + T22 Y_L)/(T11 + T12 Y_L)
+                assert two_port is not None
+                t11, t12, t21, t22, scale = two_port
                 r = row[idx[f]]
                 den_f = t11[r] + t12[r] * yl[f]
                 y[f] = (t21[r] + t22[r] * yl[f]) / den_f
@@ -545,6 +606,34 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
             down[idx] = h
             np.add.at(load, net.parent_node[idx], y)
         load[0] += net.soma_conductance * (1.0 + net.soma_tau * s)
+    return _Inward(s=s, gq=gq, th=th, sech=sech, load=load, y_in=y_in, down=down, row=row, two_port=two_port)
+
+
+def _pivots_of(net: _Network, w: _Inward) -> ComplexArray:
+    """The elimination pivot at each node (for counting): the load beyond it plus its piece's own end
+    stiffness; inf at a killed tip."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        piv = w.load.copy()
+        piv[1:] += w.gq / w.th  # the piece's own end stiffness G∞q·coth u
+        if w.two_port is not None:  # a frustum's: T11/T12 (current into the distal end, proximal end at rest)
+            t11, t12 = w.two_port[0], w.two_port[1]
+            piv[net.tapered + 1] += t11 / t12 - (w.gq / w.th)[net.tapered]
+        piv[1:][net.killed] = np.inf
+    return piv
+
+
+def _pivots(net: _Network, s: ComplexArray) -> ComplexArray:
+    """The elimination pivots alone (tips inward only; :func:`_solve` adds the outward pass)."""
+    return _pivots_of(net, _inward(net, s))
+
+
+def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution:
+    """Both passes for a vector of complex s (1/s); see the module docstring."""
+    w = _inward(net, s)
+    s, gq, th, sech, load, y_in, row = w.s, w.gq, w.th, w.sech, w.load, w.y_in, w.row
+    n = net.size
+    killed = net.killed
+    with np.errstate(divide="ignore", invalid="ignore"):
         total = np.empty_like(load)
         total[0] = load[0]
         up = np.empty((n, s.size), dtype=complex)
@@ -556,19 +645,14 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
             total[idx + 1] = load[idx + 1] + g * (back + g * t) / den
             f = np.flatnonzero(row[idx] >= 0)
             if f.size:  # frusta, seen from the distal end: T11 and T22 swap (a reciprocal two-port)
+                assert w.two_port is not None
+                t11, t12, t21, t22, scale = w.two_port
                 r = row[idx[f]]
                 den_f = t22[r] + t12[r] * back[f]
                 up[idx[f]] = scale[r] / den_f
                 total[idx[f] + 1] = load[idx[f] + 1] + (t21[r] + t11[r] * back[f]) / den_f
         total[1:][killed] = np.inf
-        piv = None
-        if pivots:
-            piv = load.copy()
-            piv[1:] += gq / th  # the piece's own end stiffness G∞q·coth u
-            if net.tapered.size:  # a frustum's: T11/T12 (current into the distal end, proximal end at rest)
-                piv[net.tapered + 1] += t11 / t12 - (gq / th)[net.tapered]
-            piv[1:][killed] = np.inf
-    return _Solution(y_in=y_in, total=total, down=down, up=up, pivots=piv)
+    return _Solution(y_in=y_in, total=total, down=w.down, up=up, pivots=_pivots_of(net, w) if pivots else None)
 
 
 def _chunks(net: _Network, s: ComplexArray) -> list[slice]:

@@ -36,6 +36,7 @@ from .tree_laplace import (
     _Network,
     _network,
     _per_piece,
+    _pivots,
     _solve,
     root_site,
     transfer_impedance,
@@ -50,9 +51,7 @@ IntArray = NDArray[np.int64]
 def _count(net: _Network, rates: Array) -> IntArray:
     """Number of decay rates of the tree (1/s) strictly below each of ``rates`` (Wittrick-Williams)."""
     rates = np.asarray(rates, dtype=float)
-    sol = _solve(net, -rates.astype(complex), pivots=True)
-    assert sol.pivots is not None
-    piv = sol.pivots
+    piv = _pivots(net, -rates.astype(complex))  # the tips-inward pass alone
     negative = (np.isfinite(piv) & (piv.real < 0)).sum(axis=0)
     k = np.sqrt(np.maximum(net.tau[:, None] * rates[None, :] - 1.0, 0.0))
     held = np.floor(net.electrotonic[:, None] * k / math.pi - 1e-15).clip(min=0)
@@ -128,23 +127,40 @@ class TreeModes:
     multiplicities: IntArray
 
 
-def _bisect_rates(net: _Network, indices: IntArray, high: float) -> Array:
-    lo = np.zeros(indices.size)
-    hi = np.full(indices.size, high)
+def _bisect_rates(net: _Network, indices: IntArray, lo: Array, hi: Array) -> tuple[Array, Array]:
+    """Brackets [lo, hi] of the decay rates number ``indices`` (0 the slowest), each narrowed by bisection
+    on the count until hi - lo <= 4e-16 hi; the given brackets must hold their rates
+    (count(lo) <= index < count(hi)). Only the brackets still open are counted at each step."""
+    lo, hi = lo.astype(float), hi.astype(float)
     for _ in range(200):
-        mid = 0.5 * (lo + hi)
-        above = _count(net, mid) > indices
-        hi = np.where(above, mid, hi)
-        lo = np.where(above, lo, mid)
-        if np.all(hi - lo <= 4e-16 * hi):
+        open_ = np.flatnonzero(hi - lo > 4e-16 * hi)
+        if open_.size == 0:
             break
-    return 0.5 * (lo + hi)
+        mid = 0.5 * (lo[open_] + hi[open_])
+        above = _count(net, mid) > indices[open_]
+        hi[open_] = np.where(above, mid, hi[open_])
+        lo[open_] = np.where(above, lo[open_], mid)
+    return lo, hi
 
 
-def _classified(net: _Network, modes: int, high: float, z0: float, tau_max: float
-                ) -> tuple[Array, IntArray, NDArray[np.bool_], Array]:
-    """The first ``modes`` distinct rates below ``high``: (rates, multiplicities, seen at the root, Y'(s_n))."""
-    rates = _bisect_rates(net, np.arange(modes), high) if modes else np.zeros(0)
+def _classified(net: _Network, modes: int, high: float, z0: float, tau_max: float,
+                known: tuple[Array, Array, float, int] | None = None
+                ) -> tuple[Array, IntArray, NDArray[np.bool_], Array, tuple[Array, Array]]:
+    """The first ``modes`` distinct rates below ``high``: (rates, multiplicities, seen at the root, Y'(s_n),
+    the brackets (lo, hi) of the rates counted). ``known``: (lo, hi, bound, count below the bound) of an
+    earlier call with a lower bound; the rates it bracketed keep their brackets, the others start above
+    that bound when they lie above it, below it otherwise."""
+    indices = np.arange(modes)
+    lo, hi = np.zeros(modes), np.full(modes, high)
+    if known is not None:
+        old_lo, old_hi, old_high, old_total = known
+        kept = min(old_lo.size, modes)
+        lo[:kept], hi[:kept] = old_lo[:kept], old_hi[:kept]
+        beyond = indices >= old_total  # count(old_high) = old_total <= index: the rate is >= old_high
+        lo[beyond & (indices >= kept)] = old_high
+        hi[(indices < old_total) & (indices >= kept)] = old_high
+    lo, hi = _bisect_rates(net, indices, lo, hi) if modes else (lo, hi)
+    rates = 0.5 * (lo + hi)
     distinct: list[float] = []
     mult: list[int] = []
     for r in rates.tolist():
@@ -163,7 +179,7 @@ def _classified(net: _Network, modes: int, high: float, z0: float, tau_max: floa
     # admittance has a pole there, so |Y| is huge: the steady conductance separates the two
     with np.errstate(invalid="ignore"):
         visible = np.abs(y.real) <= 1e-3 / z0
-    return rate, np.asarray(mult, dtype=np.int64), visible, y.imag / step
+    return rate, np.asarray(mult, dtype=np.int64), visible, y.imag / step, (lo, hi)
 
 
 def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeModes:
@@ -200,10 +216,12 @@ def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeM
     while total < min(search, 4 * count + 8) and high < 1e30:
         high *= 2.0
         net, total = counted(high)
+    known: tuple[Array, Array, float, int] | None = None
     while True:
-        rate, mult, visible, slope = _classified(net, min(total, search), high, z0, tau_max)
+        rate, mult, visible, slope, brackets = _classified(net, min(total, search), high, z0, tau_max, known)
         if int(visible.sum()) >= count or total >= search or high >= 1e30:
             break
+        known = (*brackets, high, total)  # the rates found so far keep their brackets
         high *= 2.0
         net, total = counted(high)
     taus = 1.0 / rate

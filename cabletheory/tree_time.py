@@ -366,7 +366,7 @@ class ReductionCost:
 
 
 def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
-                   tolerance: float = 1e-10) -> ReductionCost:
+                   tolerance: float = 1e-10, modes: TreeModes | None = None) -> ReductionCost:
     r"""Compare the root's response of a tree with that of its Rall reduction, in time.
 
     The reduction is the equivalent cylinder of :func:`cabletheory.tree.analyse_tree` (same
@@ -376,7 +376,8 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     :func:`cabletheory.transient.charge`. The stimulus is applied at the root of both (input
     at one dendritic site has no counterpart on the cylinder). τ0, τ1 and C1/C0 of the tree
     are those seen at the root (:func:`~cabletheory.tree_modes.root_modes`); the L and ρ that
-    peeling them would report come from :func:`cabletheory.inverse.estimate_from_peeling`.
+    peeling them would report come from :func:`cabletheory.inverse.estimate_from_peeling`;
+    ``modes``: the tree's root modes when already found (two or more), so they are not searched again.
 
     References
     ----------
@@ -417,7 +418,8 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     mine = tree_response(cell, stimulus, t, root_site(), [root_site()], tolerance=tolerance)
     diff = reduced.voltage[:, 0] - mine.voltage[:, 0]
     k = int(np.argmax(np.abs(diff))) if diff.size else 0
-    modes = root_modes(cell, 2)
+    if modes is None or modes.time_constants.size < 2:
+        modes = root_modes(cell, 2)
     notes = []
     peeled = math.nan
     solutions: tuple[tuple[float, float], ...] = ()

@@ -474,7 +474,7 @@ def modes_view(args: argparse.Namespace, cell, source: str, tips: str) -> str:
     modes = root_modes(cell, args.modes)
     tau_m = float(np.asarray(cell.time_constants).ravel()[0])
     # the reduction's τ and the peeled L, ρ (a unit step at one time: only its modes are used here)
-    cost = reduction_cost(cell, CurrentStep(1e-12), [tau_m])
+    cost = reduction_cost(cell, CurrentStep(1e-12), [tau_m], modes=modes)
     if args.json:
         return dump_json({
             "view": "modes", "inputs": _inputs_json(cell, source, tips),
