@@ -317,3 +317,27 @@ def test_the_core_reads_simple_length_units_without_a_unit_library():
         assert got.distance == pytest.approx(want.distance, rel=1e-12), text
     with pytest.raises(InputError, match="cannot read '3 furlongs' as a distance"):
         tree_site(tree, "branch 30 +3 furlongs")
+
+
+def test_reference_like_a_tree_run_reads_back_with_zero_error(tmp_path, capsys):
+    """reference --morphology --like FILE: the exact values at every sample of a simulator file, on the
+    file's own clock (at rest before --onset); compare with the same --onset finds no error, and the
+    simulator file itself differs from it by what compare reports for it."""
+    run = ROOT / "worked" / "tree_simulator_check" / "coarse.csv"
+    case = ["--Rm", "20000", "--Ri", "200", "--morphology", str(DEMO), "--shape", "alpha", "--current", "50 pA",
+            "--time-to-peak", "0.5 ms", "--stimulus-at", "right.b", "--onset", "1 ms"]
+    like = tmp_path / "like.csv"
+    assert main(["reference", *case, "--rest", "-62 mV", "--like", str(run), "--output", str(like)]) == 0
+    capsys.readouterr()
+    rows = [line.split(",") for line in like.read_text(encoding="utf-8").splitlines() if not line.startswith("#")]
+    assert rows[0] == ["time_s", "point", "voltage_V"]
+    assert float(rows[1][0]) == 0.0  # the file's clock: the onset is at 1 ms
+    assert {r[1] for r in rows[1:]} == {"soma", "right.b", "branch left +150 um"}
+    assert all(float(r[2]) == 0.0 for r in rows[1:] if float(r[0]) < 1e-3)
+    exact = _json(capsys, ["compare", str(like), *case, "--pass-within", "1 fV"])
+    assert exact["runs"][0]["max_abs_error"]["value"] == 0.0
+    simulated = _json(capsys, ["compare", str(run), *case, "--rest", "-62 mV", "--pass-within", "20 uV"], status=1)
+    by_row = {(round(float(r[0]) * 1e6), r[1]): float(r[2]) for r in rows[1:]}
+    worst = simulated["runs"][0]["worst"]
+    key = (round((worst["time"]["value"] + 1e-3) * 1e6), worst["position"])
+    assert by_row[key] == pytest.approx(worst["exact"]["value"], rel=1e-12)

@@ -23,6 +23,7 @@ from .reference import (
     check_recorded_positions,
     exact_from_options,
     parser_for_quantities,
+    read_column_points,
     read_run,
 )
 from .tree_charge import add_tree_options
@@ -107,24 +108,6 @@ def _tree_inputs(args: argparse.Namespace) -> dict | None:
     if args.morphology is None:
         return None
     return {"morphology": str(args.morphology), "stimulus_at": (args.stimulus_at or "soma").strip()}
-
-
-def read_column_points(text: str) -> str | dict[str, str]:
-    """``--column-at`` on a tree: one site ('412', 'branch 443 +25 um') for a file's single voltage
-    column, or column names mapped to sites ('v_soma=soma, v_tip=443'; names in any case)."""
-    if "=" not in text:
-        return text.strip()
-    mapping: dict[str, str] = {}
-    for item in text.split(","):
-        column, sep, where = item.partition("=")
-        column = column.strip().lower()
-        if not sep or not column or not where.strip():
-            raise InputError(f"--column-at: {item.strip()!r} is not NAME=POINT; expected e.g. 'v_soma=soma, "
-                             "v_tip=443'")
-        if column in mapping:
-            raise InputError(f"--column-at: column {column!r} is given twice")
-        mapping[column] = where.strip()
-    return mapping
 
 
 def _compare_tree(args: argparse.Namespace, tolerance: float, relative: bool

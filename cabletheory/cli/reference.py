@@ -52,6 +52,24 @@ def parser_for_quantities(text: str, kind: str, where: str) -> float:
     return parse_quantity(text, kind, where, allow_zero=True, allow_negative=True)
 
 
+def read_column_points(text: str) -> str | dict[str, str]:
+    """``--column-at`` on a tree: one site ('412', 'branch 443 +25 um') for a file's single voltage
+    column, or column names mapped to sites ('v_soma=soma, v_tip=443'; names in any case)."""
+    if "=" not in text:
+        return text.strip()
+    mapping: dict[str, str] = {}
+    for item in text.split(","):
+        column, sep, where = item.partition("=")
+        column = column.strip().lower()
+        if not sep or not column or not where.strip():
+            raise InputError(f"--column-at: {item.strip()!r} is not NAME=POINT; expected e.g. 'v_soma=soma, "
+                             "v_tip=443'")
+        if column in mapping:
+            raise InputError(f"--column-at: column {column!r} is given twice")
+        mapping[column] = where.strip()
+    return mapping
+
+
 def read_run(path: str, args: argparse.Namespace) -> Recording:
     """Read one simulator output file with the layout options of ``args``."""
     text = read_input_text(path, "simulator output")
@@ -111,7 +129,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     grid.add_argument("--like", metavar="FILE",
                       help="take the times and positions of an existing simulator output file instead; the "
                            "table keeps the file's own clock (onset at --onset, recorded as stimulus_onset) "
-                           "and rows at or before the onset are at rest (0)")
+                           "and rows at or before the onset are at rest (0); with --morphology the file's "
+                           "columns name tree points (V@412, V@branch 443 +25 um)")
     add_layout_options(parser)
     parser.add_argument("--output", "-o", metavar="FILE",
                         help="file to write (.csv, .json or .npz); default: CSV to standard output")
@@ -166,7 +185,18 @@ def _run_tree(args: argparse.Namespace) -> int:
     """``reference --morphology``: the exact table on a tree, long CSV rows (time_s, point, voltage_V)
     after '#' lines, or JSON; the points are the file's own labels."""
     if args.like:
-        raise InputError("--like: on a tree give --times and --positions (point labels)")
+        if args.times or args.positions:
+            raise InputError("give either --like FILE or --times/--positions, not both")
+        fmt = args.format or (Path(args.output).suffix.lstrip(".").lower() if args.output else "csv")
+        if fmt != "csv":
+            raise InputError(f"--output: with --like a tree's table is written as .csv, not {fmt!r}")
+        text = _tree_like(args)
+        if args.output is None:
+            print(text, end="")
+            return 0
+        write_atomically(args.output, text, protected=[args.like, args.morphology])
+        print(f"wrote {args.output} (CSV, exact time course on a tree at the samples of {args.like})")
+        return 0
     if not (args.times and args.positions):
         raise InputError("give --times and --positions (point labels such as 'soma, 412')")
     fmt = args.format or (Path(args.output).suffix.lstrip(".").lower() if args.output else "csv")
@@ -179,3 +209,46 @@ def _run_tree(args: argparse.Namespace) -> int:
     write_atomically(args.output, text + "\n")
     print(f"wrote {args.output} ({fmt.upper()}, exact time course on a tree)")
     return 0
+
+
+def _tree_like(args: argparse.Namespace) -> str:
+    """``reference --morphology --like FILE``: the exact voltage at every sample of a simulator file
+    recorded at tree points, as long CSV rows (time_s on the file's own clock, point, voltage_V; at
+    rest before the onset), readable by ``compare --morphology`` with the same --onset."""
+    import csv
+    import io
+
+    from .. import PASSIVE_CAVEAT as CAVEAT
+    from ..verify.exact import tree_exact_case
+    from ..verify.tree_reading import read_tree_recording
+    from .common import _truncation
+    from .tree_charge import read_tree_case
+
+    case = read_tree_case(args)
+    value, relative = _truncation(args.truncation)
+    if relative and not 0 < value < 1:
+        raise InputError(f"--truncation: {args.truncation.strip()!r} must lie between 0 and 1 (or be a voltage)")
+    rest: float | str = read_rest(args.rest, "--rest") if args.rest else 0.0
+    onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) if args.onset else 0.0
+    read = read_tree_recording(read_input_text(args.like, "simulator output"), args.like, parser_for_quantities,
+                               case.cell.tree, columns=read_column_points(args.column_at) if args.column_at else None,
+                               time_unit=args.time_unit, distance_unit=args.position_unit,
+                               voltage_unit=args.voltage_unit, resting_potential=rest, time_offset=onset)
+    exact = tree_exact_case(case, read.sites, value, relative=relative)
+    r = read.recording
+    after = r.times >= 0
+    voltage = np.zeros(r.times.size)
+    bound = np.zeros(r.times.size)
+    if np.any(after):
+        voltage[after], bound[after] = exact.evaluate(r.times[after], r.positions[after])
+    buffer = io.StringIO()
+    buffer.write(f"# cabletheory: exact voltage time course on a tree at the samples of {args.like}\n"
+                 f"# case: {exact.description}\n# method: {exact.method}\n"
+                 f"# stimulus onset: {onset!r} s on the file's clock (rows before it are at rest)\n"
+                 f"# largest error estimate: {float(np.max(bound, initial=0.0))!r} V\n# assumptions: {CAVEAT}\n")
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(["time_s", "point", "voltage_V"])
+    labels = read.labels
+    for k in np.lexsort((r.positions, r.times)):
+        writer.writerow([repr(float(r.times[k] + onset)), labels[int(r.positions[k])], repr(float(voltage[k]))])
+    return buffer.getvalue()
