@@ -65,15 +65,17 @@ def _alpha_mode(mu: Array, T: Array, a: float) -> Array:
     z = (mu - c) * T
     e_c = np.exp(-c * T)
     small = np.abs(z) < 1.0
-    zs = np.where(small, z, 0.0)
-    series = np.zeros_like(zs)
-    term = np.full_like(zs, 0.5)
-    for j in range(22):
-        series = series + term
-        term = term * (-zs) / (j + 3)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        direct = (e_c * (z - 1.0) + np.exp(-mu * T)) / np.where(small, 1.0, z * z)
-    return (math.e / a) * T * T * np.where(small, e_c * series, direct)
+        value = (e_c * (z - 1.0) + np.exp(-mu * T)) / np.where(small, 1.0, z * z)
+    if small.any():  # the series only where it is used (few modes and times lie near μ = 1/a)
+        zs = np.broadcast_to(z, value.shape)[small]
+        series = np.zeros_like(zs)
+        term = np.full_like(zs, 0.5)
+        for j in range(22):
+            series += term
+            term *= -zs / (j + 3)
+        value[small] = np.broadcast_to(e_c, value.shape)[small] * series
+    return (math.e / a) * T * T * value
 
 
 # --------------------------------------------------------------------------------------

@@ -154,6 +154,19 @@ def point_source_alpha(distance: ArrayLike, normalised_time: ArrayLike, time_to_
     formula; 32 nodes give rounding-level accuracy), which also covers a = 1 (b = 0) and b < 0
     (complex r, Faddeeva function :func:`scipy.special.wofz`).
 
+    For a < 1 (b < 0, the usual synaptic case) with :math:`s = \sqrt{1/a - 1}` and
+    :math:`x = s\sqrt T \ge 1`, the derivative is taken in closed form instead, with one Faddeeva
+    value :math:`W = w(x + iu)` (upper half plane, so bounded) and :math:`E = e^{-T-u^2}`:
+
+    .. math:: \frac{\partial\Psi}{\partial b} = E\left[\frac{T\,\mathrm{Im}W}{s}
+              + \frac{d\,\mathrm{Re}W - 2\sqrt{T/\pi}}{2s^2} + \frac{\mathrm{Im}W}{2s^3}\right]
+
+    (r = is turns the two erfc terms into complex conjugates, and the Gaussian terms of their
+    derivatives combine into :math:`2\sqrt{T/\pi}\,E`). Its terms cancel to a relative
+    :math:`\sim\max(x^2, u^2)\,\epsilon` (at most about 1e-11 where it is used; below x = 1 they
+    cancel as 1/x², so the circle is used there); one Faddeeva value instead of 64 makes an alpha
+    current's images 30 to 60 times faster.
+
     Parameters
     ----------
     distance : d = |X - X0|
@@ -180,10 +193,21 @@ def point_source_alpha(distance: ArrayLike, normalised_time: ArrayLike, time_to_
     if d.size == 0:
         return out
     b0 = 1.0 - 1.0 / a
-    theta = 2 * np.pi * (np.arange(_CIRCLE) + 0.5) / _CIRCLE
-    node = np.exp(1j * theta)[:, None]
     result = np.empty(d.size)
-    step = max(1, _CHUNK // (4 * _CIRCLE))
+    circle = np.arange(d.size)
+    if b0 < 0:
+        s_b = math.sqrt(-b0)
+        closed = s_b * np.sqrt(T) >= 1.0
+        if closed.any():
+            result[closed] = _alpha_closed_form(d[closed], T[closed], a, s_b)
+            circle = np.flatnonzero(~closed)
+    d, T = d[circle], T[circle]
+    # Ψ is real on the real axis, so Ψ(conj b) = conj Ψ(b): the nodes below the axis mirror those
+    # above it, and the mean of Re(Ψ e^{-iθ}) over the circle is its mean over the upper half
+    theta = 2 * np.pi * (np.arange(_CIRCLE // 2) + 0.5) / _CIRCLE
+    node = np.exp(1j * theta)[:, None]
+    on_circle = np.empty(d.size)
+    step = max(1, _CHUNK // (2 * _CIRCLE))
     for s in range(0, d.size, step):
         dd = d[s:s + step][None, :]
         tt = T[s:s + step][None, :]
@@ -193,18 +217,36 @@ def point_source_alpha(distance: ArrayLike, normalised_time: ArrayLike, time_to_
         r = np.sqrt(b)
         root = np.sqrt(tt)
         u = dd / (2 * root)
-        scale = np.exp(-(tt + u * u))
+        scale = np.broadcast_to(np.exp(-(tt + u * u)), b.shape)
         with np.errstate(over="ignore", invalid="ignore"):
             z1 = u - r * root
             z2 = u + r * root
-            first = np.where(z1.real >= 0, scale * wofz(1j * z1),
-                             2.0 * np.exp((b - 1.0) * tt - dd * r) - scale * wofz(-1j * z1))
+            right = z1.real >= 0  # each branch's Faddeeva value only where it is used
+            left = ~right
+            first = np.empty(b.shape, dtype=complex)
+            first[right] = scale[right] * wofz(1j * z1[right])
+            first[left] = (2.0 * np.exp((b[left] - 1.0) * np.broadcast_to(tt, b.shape)[left]
+                                        - np.broadcast_to(dd, b.shape)[left] * r[left])
+                           - scale[left] * wofz(-1j * z1[left]))
             second = scale * wofz(1j * z2)  # Re z2 ≥ 0 always
             psi = (first - second) / (2 * r)
-        derivative = np.mean(psi * np.conj(node), axis=0) / radius[0]
-        result[s:s + step] = (math.e / (2 * a)) * derivative.real
+        derivative = np.mean((psi * np.conj(node)).real, axis=0) / radius[0]
+        on_circle[s:s + step] = (math.e / (2 * a)) * derivative
+    result[circle] = on_circle
     out[positive] = result
     return out
+
+
+def _alpha_closed_form(d: Array, T: Array, a: float, s: float) -> Array:
+    r""":func:`point_source_alpha` for a < 1 where :math:`x = s\sqrt T \ge 1` (its closed form)."""
+    from scipy.special import wofz
+
+    root = np.sqrt(T)
+    u = d / (2 * root)
+    w = wofz(s * root + 1j * u)
+    gauss = np.exp(-(T + u * u))
+    bracket = T * w.imag / s + (d * w.real - 2 * np.sqrt(T / np.pi)) / (2 * s * s) + w.imag / (2 * s**3)
+    return (math.e / (2 * a)) * gauss * bracket
 
 
 # --------------------------------------------------------------------------------------

@@ -1,0 +1,54 @@
+"""The alpha-current point source of an infinite cable (kernels.point_source_alpha) against mpmath.
+
+For a < 1 and x = sqrt((1/a - 1) T) >= 1 the value comes from a closed-form derivative with one
+Faddeeva value; elsewhere from Cauchy's formula on half a circle (the other half is its mirror
+image). Both are checked against an independent route: ``precise.point_source_alpha``, which
+differentiates the erfc form with ``mpmath.diff`` at 30 guard digits (the mpmath development team
+2023 [mpmath2023]), on both sides of x = 1, at the source and away from it, for a below and above 1.
+"""
+
+from __future__ import annotations
+
+import math
+
+import mpmath as mp
+import numpy as np
+import pytest
+
+from cabletheory import precise
+from cabletheory.kernels import point_source_alpha
+
+
+def _cases():
+    for a in (0.004, 0.05, 0.3, 0.8, 1.0, 3.0):
+        s = math.sqrt(abs(1 / a - 1))
+        edge = 1.0 / (s * s) if s > 0 else 1.0  # x = 1 here (b < 0)
+        for T in sorted({1e-4, 0.3 * edge, 0.99 * edge, 1.01 * edge, 3 * edge, 0.5, 4.0}):
+            for d in (0.0, 0.3, 2.0, 6.0):
+                yield a, T, d
+
+
+CASES = list(_cases())
+
+
+@pytest.mark.parametrize("a", sorted({c[0] for c in CASES}))
+def test_point_source_alpha_matches_mpmath(a):
+    with mp.workdps(30):
+        for case_a, T, d in CASES:
+            if case_a != a:
+                continue
+            exact = float(precise.point_source_alpha(d, T, a))
+            value = float(point_source_alpha(np.array([d]), np.array([T]), a)[0])
+            # absolute: rounding of values of order 1 (the peak is 1 in units of I_peak R∞);
+            # relative: where the value is not negligible
+            assert abs(value - exact) <= 1e-14 + 1e-10 * abs(exact), (a, T, d, value, exact)
+
+
+def test_closed_form_and_circle_agree_across_x_equal_1():
+    """Just below and just above x = 1 the two routes give one smooth function (no step at the switch)."""
+    a = 0.05
+    edge = 1.0 / (1 / a - 1)
+    d = np.array([0.0, 0.5, 1.5])
+    below = point_source_alpha(d, np.full(3, edge * (1 - 1e-12)), a)
+    above = point_source_alpha(d, np.full(3, edge * (1 + 1e-12)), a)
+    np.testing.assert_allclose(below, above, rtol=1e-11, atol=1e-16)
