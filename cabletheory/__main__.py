@@ -13,11 +13,12 @@ from collections.abc import Sequence
 from .cli import main
 
 
-def open_app(*, view: str, swc: str | None, simulation: str | None) -> None:
-    """Open the terminal app on ``view`` (textual is imported here, never at start-up)."""
+def open_app(*, view: str, swc: str | None, simulation: str | None, **files: str) -> None:
+    """Open the terminal app on ``view`` (textual is imported here, never at start-up); ``files``:
+    ``recording``, ``morphology`` (the fitting view) and ``table`` (the survey view)."""
     from .tui import launch
 
-    launch(view=view, swc=swc, simulation=simulation)
+    launch(view=view, swc=swc, simulation=simulation, **files)
 
 
 def run(argv: Sequence[str] | None = None) -> int:

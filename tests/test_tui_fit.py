@@ -299,3 +299,38 @@ def test_survey_view_next_column_and_a_file_that_is_not_a_table(survey_table, tm
         assert app.query_one("#survey-cells", DataTable).row_count == 0
 
     drive(script, view="survey")
+
+
+# -- opened from the command line ------------------------------------------------------------------------
+def test_ui_opens_the_fitting_and_survey_views_on_their_files(monkeypatch, tmp_path, capsys):
+    import cabletheory.tui as tui
+    from cabletheory.__main__ import run
+
+    calls: list[dict] = []
+    monkeypatch.setattr(tui, "launch", lambda **options: calls.append(options))
+    assert run(["ui", "--fit", str(CELL), "--morphology", str(PV7)]) == 0
+    assert calls[-1] == {"view": "fit", "swc": None, "simulation": None, "recording": str(CELL),
+                         "morphology": str(PV7)}
+    table = tmp_path / "table.csv"
+    table.write_text("x\n", encoding="utf-8")
+    assert run(["ui", "--survey", str(table)]) == 0
+    assert calls[-1]["view"] == "survey"
+    assert calls[-1]["table"] == str(table)
+    for argv, message in ((["--fit", "no/such.csv"], "--fit: 'no/such.csv' does not exist"),
+                          (["--morphology", str(PV7)], "--morphology: give the recording")):
+        assert run(["ui", *argv]) == 2
+        err = capsys.readouterr().err
+        assert err.count("\n") == 1
+        assert message in err
+
+
+def test_a_recording_opened_with_the_app_is_fitted_at_once_and_a_missing_current_is_flagged():
+    async def script(app, pilot):
+        assert app.query_one("#ft-file", Input).value == str(CELL)
+        assert app.query_one("#ft-model-morphology").value  # a morphology given: its cell is fitted
+        field = app.query_one("#field-ft-current")
+        assert field.has_class("bad")
+        assert field.echo_text.startswith("injected current: needed for a reconstructed cell")
+        assert app.query_one("#fit").report is None
+
+    drive(script, view="fit", recording=str(CELL), morphology=str(PV7))

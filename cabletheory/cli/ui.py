@@ -27,8 +27,15 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                         help="a morphology to open in the tree view (.swc, or a .outline tree outline)")
     parser.add_argument("--check", metavar="CSV",
                         help="a simulator's output (CSV) to compare in the check view")
+    parser.add_argument("--fit", metavar="RECORDING",
+                        help="recorded sweeps (CSV, tab-separated or NWB) to fit in the fitting view")
+    parser.add_argument("--morphology", metavar="FILE",
+                        help="with --fit: the recorded cell (SWC or tree outline), whose Rm, Ri and Cm are fitted")
+    parser.add_argument("--survey", metavar="TABLE",
+                        help="a table written by 'cabletheory survey' (.csv or .parquet) to open in the survey view")
     parser.add_argument("--view", choices=VIEW_NAMES, default=None,
-                        help="view shown first (default: cylinder; tree when SWC is given; check with --check)")
+                        help="view shown first (default: cylinder; tree when SWC is given; check with --check, "
+                             "fit with --fit, survey with --survey)")
     parser.set_defaults(run=run)
 
 
@@ -45,12 +52,24 @@ def run(args: argparse.Namespace) -> int:
         if not path.is_file():
             raise MissingFileError(f"--check: {check!r} does not exist or is not a file")
         check = str(path)
-    view = args.view or ("tree" if swc else "check" if check else "cylinder")
+    files: dict[str, str] = {}
+    for option, key in (("fit", "recording"), ("morphology", "morphology"), ("survey", "table")):
+        text = getattr(args, option, None)
+        if text is not None:
+            path = Path(text).expanduser()
+            if not path.is_file():
+                raise MissingFileError(f"--{option}: {text!r} does not exist or is not a file")
+            files[key] = str(path)
+    if "morphology" in files and "recording" not in files:
+        raise InputError("--morphology: give the recording it goes with (--fit RECORDING)")
+    view = args.view or ("tree" if swc else "check" if check else "fit" if "recording" in files
+                         else "survey" if "table" in files else "cylinder")
     if view not in VIEW_NAMES:  # pragma: no cover - argparse checks choices
         raise InputError(f"--view: unknown view {view!r}")
     open_app = getattr(args, "open_app", None)
     if open_app is None:
         raise InputError("the terminal app opens from the cabletheory program ('cabletheory ui' or "
                          "'python -m cabletheory ui')")
-    open_app(view=view, swc=swc, simulation=check)  # the program passes it in: the CLI never imports the app
+    # the program passes it in: the command line never imports the app
+    open_app(view=view, swc=swc, simulation=check, **files)
     return 0

@@ -12,8 +12,9 @@ The app never imports the command line; :func:`launch` is how the ``cabletheory`
 from __future__ import annotations
 
 
-def launch(*, view: str, swc: str | None = None, simulation: str | None = None) -> None:
-    """Run the app on ``view`` until the user quits (textual is imported here, not at start-up)."""
+def launch(*, view: str, swc: str | None = None, simulation: str | None = None, **files: str) -> None:
+    """Run the app on ``view`` until the user quits (textual is imported here, not at start-up);
+    ``files``: ``recording`` and ``morphology`` for the fitting view, ``table`` for the survey view."""
     from .app import CableApp
 
-    CableApp(view=view, swc=swc, simulation=simulation).run()
+    CableApp(view=view, swc=swc, simulation=simulation, **files).run()

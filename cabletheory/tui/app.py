@@ -87,7 +87,8 @@ class CableApp(App[None]):
         Binding(key, k.action, k.description, priority=not typed_character(key), show=False)
         for k in GLOBAL_KEYS for key in k.key.split(",")]
 
-    def __init__(self, *, view: str = "cylinder", swc: str | None = None, simulation: str | None = None) -> None:
+    def __init__(self, *, view: str = "cylinder", swc: str | None = None, simulation: str | None = None,
+                 recording: str | None = None, morphology: str | None = None, table: str | None = None) -> None:
         super().__init__()
         if view not in VIEWS:
             raise ValueError(f"unknown view {view!r}")
@@ -102,6 +103,8 @@ class CableApp(App[None]):
         self.start_view = view
         self.swc = swc
         self.simulation = simulation
+        self.fit_files = (recording, morphology)  # the fitting view's recording and cell
+        self.table = table  # the survey view's table
 
     def compose(self) -> ComposeResult:
         yield ViewBar(id="view-bar")
@@ -137,7 +140,9 @@ class CableApp(App[None]):
             from .fit_view import FitView
             from .survey_view import SurveyView
 
-            return FitView(id="fit") if view == "fit" else SurveyView(id="survey")
+            if view == "fit":
+                return FitView(id="fit", file=self.fit_files[0], morphology=self.fit_files[1])
+            return SurveyView(id="survey", table=self.table)
         from .check_view import CheckView
 
         return CheckView(id="check", file=self.simulation)
