@@ -39,13 +39,31 @@ Equating them gives
           \qquad \text{error} \approx e^{-\pi(\pi - 2\alpha)/h},
 
 and α is chosen to minimise that error plus the rounding error
-:math:`\epsilon\,e^{\mu\Lambda t_0(1 - \sin\alpha)}`. The estimate of each value is that model
-times :data:`MODEL_SAFETY` times the scale the caller gives (for example the final voltage of a
-step), plus :data:`WINDOW_ROUNDING_FACTOR`·ε times the summed magnitudes of the terms. The times
-are grouped into windows, and N per window is the smallest that meets the tolerance (windows
-chosen to minimise the number of evaluations of F): a transform that is costly to evaluate, such
-as a whole tree's, is evaluated at a few dozen points for any number of times. The tree time
-courses use it.
+:math:`\epsilon\,e^{\mu\Lambda t_0(1 - \sin\alpha)}`. The model leaves out a constant that
+belongs to the transform (the size of :math:`e^{st}F(s)s'(u)` near the edges of the strip): a
+step-like transform, whose sF tends to the final value, has one of the order of that value, but
+a double pole near the origin (:math:`t e^{-at}`, an alpha current) or near the contour's edge
+has a larger one. It is measured at no further evaluation of F: the same values summed on every
+k-th node (k = 2, 3; step kh) have the model
+:math:`m_{kh}(t) = e^{\mu t - 2\pi\alpha/(kh)} + e^{-\pi(\pi - 2\alpha)/(kh)}`, far larger than the
+fine sum's, so their difference from the fine sum is their own error, and
+
+.. math:: C = \max_{k,\,t}\; k\,\frac{|f_h(t) - f_{kh}(t)|}{m_{kh}(t)}
+
+over the window's times (the factor k: a double pole's error term carries a factor 1/h; two
+strides, because one of them can sit where a pole's error term nearly vanishes). The estimate of
+each value is then
+
+.. math:: \text{MODEL\_SAFETY}\cdot\text{model}(N)\cdot\max(C, |\text{scale}|)
+          + \text{WINDOW\_ROUNDING\_FACTOR}\cdot\epsilon\sum_k|\text{terms}|,
+
+with the scale the caller gives (for example the final voltage of a step) as a floor. The times
+are grouped into windows (chosen to minimise the number of evaluations of F); N per window
+starts at the smallest whose model meets the tolerance with C equal to the scale (or to the
+previous window's C), and grows, the window evaluated again, until the estimate meets it or N
+reaches :data:`MAX_NODES`, which the result's notes then say. A transform that is costly to
+evaluate, such as a whole tree's, is evaluated at a few dozen points for any number of times.
+The tree time courses use it.
 
 Neither estimate is a proof. Both are checked against mpmath [mpmath2023] references at 30-40
 digits (Talbot's method [Talbot1979]) across their ranges in ``tests/test_contour.py``,
@@ -73,9 +91,9 @@ from numpy.typing import ArrayLike, NDArray
 
 from .errors import InputError
 
-__all__ = ["COARSE", "FINE", "MODEL_SAFETY", "ROUNDING_FACTOR", "SAFETY", "WINDOW_ROUNDING_FACTOR", "Contour",
-           "Inversion", "convergence_rate", "hyperbolic_contour", "invert", "invert_windowed",
-           "parabolic_contour"]
+__all__ = ["COARSE", "FINE", "MAX_NODES", "MODEL_SAFETY", "ROUNDING_FACTOR", "SAFETY", "STRIDES",
+           "WINDOW_ROUNDING_FACTOR", "Contour", "Inversion", "coarse_model", "convergence_rate",
+           "hyperbolic_contour", "invert", "invert_windowed", "parabolic_contour"]
 
 Array = NDArray[np.float64]
 ComplexArray = NDArray[np.complex128]
@@ -86,9 +104,10 @@ COARSE = 16  # parabolic: nodes of the comparison inversion
 FINE = 20  # parabolic: nodes of the returned inversion
 ROUNDING_FACTOR = 4.0  # parabolic: κ, ulps allowed per unit of the summed magnitudes
 SAFETY = 2.0  # parabolic: factor on the coarse-fine difference
-MODEL_SAFETY = 20.0  # hyperbolic: factor on the error model (its constants are not tracked); measured ratios < ~12
+MODEL_SAFETY = 20.0  # hyperbolic: factor on the error model times max(measured constant, scale)
 WINDOW_ROUNDING_FACTOR = 8.0  # hyperbolic: ulps allowed per unit of the summed magnitudes
-_MAX_NODES = 60  # hyperbolic: most nodes per window
+MAX_NODES = 80  # hyperbolic: most nodes per window
+_LEAST_NODES = 6  # hyperbolic: fewest nodes per window
 _CHUNK = 1 << 20  # transform values per call, and times × nodes per temporary array
 
 
@@ -212,13 +231,17 @@ class Inversion:
 
     ``values`` and ``error_estimate`` are in the units of f; times t ≤ 0 give 0 with estimate 0.
     ``nodes`` is the number of contour nodes N of the returned values (the largest, over
-    windows); ``method`` says how they were computed, in plain words.
+    windows); ``method`` says how they were computed, in plain words; ``notes`` names any window
+    whose estimate stayed above the tolerance asked for; ``evaluations`` counts the values of s
+    at which the transform was evaluated.
     """
 
     values: Array
     error_estimate: Array
     nodes: int
     method: str = ""
+    notes: tuple[str, ...] = ()
+    evaluations: int = 0
 
 
 def invert(transform: Transform, times: ArrayLike, *, coarse: int = COARSE, fine: int = FINE) -> Inversion:
@@ -256,14 +279,16 @@ def invert(transform: Transform, times: ArrayLike, *, coarse: int = COARSE, fine
         best, magnitude = _parabola_sum(transform, tl, fine)
         values[live] = best
         estimate[live] = SAFETY * np.abs(best - rough) + _rounding(magnitude, ROUNDING_FACTOR)
-    return Inversion(values=values, error_estimate=estimate, nodes=fine,
+    return Inversion(values=values, error_estimate=estimate, nodes=fine, evaluations=(coarse + fine + 2) * live.size,
                      method=f"Laplace transform inverted on parabolic contours ({fine + 1} nodes, "
                             f"checked against {coarse + 1})")
 
 
-def _nodes_needed(ratio: float, tolerance: float) -> int | None:
-    for count in range(6, _MAX_NODES + 1):
-        if MODEL_SAFETY * _hyperbolic_design(count, ratio)[3] <= tolerance:
+def _nodes_needed(ratio: float, target: float) -> int | None:
+    """The smallest N whose error model for windows of ratio Λ = ``ratio``, times
+    :data:`MODEL_SAFETY`, is at most ``target`` (relative); None beyond :data:`MAX_NODES`."""
+    for count in range(_LEAST_NODES, MAX_NODES + 1):
+        if MODEL_SAFETY * _hyperbolic_design(count, ratio)[3] <= target:
             return count
     return None
 
@@ -273,7 +298,7 @@ def _windows(times: Array, tolerance: float) -> list[tuple[Array, int]]:
     span = float(times[-1] / times[0])
     best: tuple[float, list[tuple[Array, int]]] | None = None
     for ratio in sorted({min(r, max(span, 1.0)) for r in (2.0, 4.0, 8.0, 16.0, 32.0, 64.0, 128.0)}):
-        count = _nodes_needed(ratio, tolerance) or _MAX_NODES
+        count = _nodes_needed(ratio, tolerance) or MAX_NODES
         groups = []
         start = 0
         while start < times.size:
@@ -287,8 +312,77 @@ def _windows(times: Array, tolerance: float) -> list[tuple[Array, int]]:
     return best[1]
 
 
+def coarse_model(first: float, last: float, count: int, times: ArrayLike, stride: int = 2) -> Array:
+    r"""The error model of the same window's sum on every ``stride``-th node (step kh), at each time.
+
+    .. math:: m_{kh}(t) = e^{\mu t - 2\pi\alpha/(kh)} + e^{-\pi(\pi - 2\alpha)/(kh)}
+
+    the two discretisation terms of Weideman & Trefethen (2007) [WeidemanTrefethen2007] with h
+    multiplied by k = ``stride`` (dimensionless; α, h, μ those of :func:`hyperbolic_contour` for
+    ``count`` nodes over [first, last] s; ``times`` s). Dividing the measured difference of the two
+    sums by it gives the transform's own constant in the model (module docstring).
+    """
+    alpha, h, mu_t0, _ = _hyperbolic_design(int(count), float(last / first))
+    t = np.asarray(times, dtype=float)
+    wide = stride * h
+    with np.errstate(over="ignore"):
+        return (np.exp((mu_t0 / first) * t - 2 * math.pi * alpha / wide)
+                + math.exp(-math.pi * (math.pi - 2 * alpha) / wide))
+
+
+STRIDES = (2, 3)  # hyperbolic: the coarser sums (every 2nd and every 3rd node) that measure the constant
+
+
+@dataclass(frozen=True, slots=True)
+class _Pass:
+    """One window summed on one contour: values and Σ|terms| (nt, m), the measured constant per
+    signal (m,), and the node count."""
+
+    values: Array
+    magnitude: Array
+    constant: Array
+    count: int
+    predicted: float
+
+
+def _window_pass(transform: Transform, window: Array, count: int) -> _Pass:
+    """Sum the window on N = ``count`` nodes (step h) and on every k-th one (kh, k in
+    :data:`STRIDES`), at the same values of F; the transform's constant is the largest ratio of
+    a coarse sum's difference from the fine one to that sum's error model, over times and strides."""
+    contour = hyperbolic_contour(float(window[0]), float(window[-1]), count)
+    weighted = contour.weights[:, None] * np.asarray(transform(contour.nodes))  # (N + 1, m)
+    models = [coarse_model(contour.first, contour.last, count, window, k) for k in STRIDES]
+    step = max(1, _CHUNK // contour.nodes.size)
+    values, magnitude, constant = [], [], np.zeros(weighted.shape[1])
+    for start in range(0, window.size, step):
+        part = window[start:start + step]
+        kernel = np.exp(np.outer(part, contour.nodes))  # (times, N + 1)
+        fine = (kernel @ weighted).imag
+        values.append(fine)
+        magnitude.append(np.abs(kernel) @ np.abs(weighted))
+        for k, model in zip(STRIDES, models, strict=True):
+            # every k-th node: weights k·w_j (w_0 stays halved), the trapezoid rule of step kh
+            coarse = k * (kernel[:, ::k] @ weighted[::k]).imag
+            # × k: a double pole's error term carries a factor 1/h, so step kh sees k times less of it
+            ratio = k * np.abs(fine - coarse) / model[start:start + step, None]
+            constant = np.maximum(constant, np.max(ratio, axis=0))
+    return _Pass(values=np.concatenate(values), magnitude=np.concatenate(magnitude), constant=constant,
+                 count=count, predicted=contour.predicted)
+
+
 def invert_windowed(transform: Transform, times: ArrayLike, *, tolerance: float, scale: float) -> Inversion:
     r"""Inverse Laplace transform on hyperbolas shared by windows of times, with an error estimate.
+
+    Each window is summed on N nodes and, at no further evaluation of F, on every other node;
+    the difference measures the transform's own constant C in the error model (module
+    docstring). The estimate of each value is
+
+    .. math:: \text{MODEL\_SAFETY}\cdot\text{model}(N)\cdot\max(C, |\text{scale}|)
+              + \text{rounding},
+
+    and N grows (the window is evaluated again) until that meets ``tolerance``·|scale| or
+    reaches :data:`MAX_NODES`; a window that stops at the cap is named in ``notes``, with the
+    estimate it has.
 
     Parameters
     ----------
@@ -296,12 +390,13 @@ def invert_windowed(transform: Transform, times: ArrayLike, *, tolerance: float,
         sharing the transform's singularities, all on the negative real axis)
     times : s; values at t <= 0 are 0 (the signals start from rest)
     tolerance : error allowed relative to ``scale``
-    scale : the reference size of the signals (e.g. the final voltage of a step at its site)
+    scale : the reference size of the signals (e.g. the final voltage of a step at its site),
+        in the units of f
 
     Returns
     -------
-    :class:`Inversion` with values and error estimates of shape (n_t, m) and a ``method`` that
-    lists the windows and their nodes.
+    :class:`Inversion` with values and error estimates of shape (n_t, m), a ``method`` that
+    lists the windows and their nodes, and ``notes``.
 
     References
     ----------
@@ -309,25 +404,42 @@ def invert_windowed(transform: Transform, times: ArrayLike, *, tolerance: float,
     """
     t = np.atleast_1d(np.asarray(times, dtype=float)).ravel()
     positive = np.unique(t[t > 0])
+    size = abs(float(scale))
+    goal = tolerance * size
     values: dict[float, Array] = {}
     errors: dict[float, Array] = {}
-    parts = []
+    parts: list[str] = []
+    notes: list[str] = []
     m = None
     most = 0
-    for window, count in (_windows(positive, tolerance) if positive.size else []):
-        contour = hyperbolic_contour(float(window[0]), float(window[-1]), count)
-        weighted = contour.weights[:, None] * np.asarray(transform(contour.nodes))  # (N + 1, m)
-        m = weighted.shape[1]
-        model = MODEL_SAFETY * contour.predicted * abs(scale)
-        step = max(1, _CHUNK // contour.nodes.size)
-        for start in range(0, window.size, step):
-            part = window[start:start + step]
-            v, magnitude = _window_sum(contour, weighted, part)
-            rounding = _rounding(magnitude, WINDOW_ROUNDING_FACTOR)
-            for j, tt in enumerate(part.tolist()):
-                values[tt] = v[j]
-                errors[tt] = rounding[j] + model
+    evaluations = 0
+    prior = 1.0  # the last window's constant over the scale: the next window starts from it
+    for window, first_count in (_windows(positive, tolerance) if positive.size else []):
+        ratio = float(window[-1] / window[0])
+        count = max(first_count, _nodes_needed(ratio, tolerance / prior) or MAX_NODES)
+        while True:
+            done = _window_pass(transform, window, count)
+            evaluations += count + 1
+            weight = np.maximum(done.constant, size)  # per signal: max(C, |scale|)
+            heaviest = float(weight.max(initial=0.0))
+            if MODEL_SAFETY * done.predicted * heaviest <= goal or count >= MAX_NODES:
+                break
+            # C belongs to the transform: take the count whose model meets the goal with it
+            wanted = _nodes_needed(ratio, goal / heaviest) or MAX_NODES
+            count = min(MAX_NODES, max(wanted, count + 1))
+        prior = max(1.0, heaviest / size) if size > 0 else 1.0
+        m = done.values.shape[1]
+        estimate = _rounding(done.magnitude, WINDOW_ROUNDING_FACTOR) + MODEL_SAFETY * done.predicted * weight
+        for j, tt in enumerate(window.tolist()):
+            values[tt] = done.values[j]
+            errors[tt] = estimate[j]
         parts.append(f"{window[0]:.3g}..{window[-1]:.3g} s: {count + 1} nodes")
+        reached = float(estimate.max(initial=0.0))
+        if reached > goal:
+            relative = f"{reached / size:.2g} of the scale" if size > 0 else f"{reached:.2g}"
+            cap = " (the most allowed)" if count >= MAX_NODES else ""
+            notes.append(f"times {window[0]:.3g}..{window[-1]:.3g} s: the error estimate, {relative}, exceeds the "
+                         f"tolerance {tolerance:.2g} with {count + 1} contour nodes{cap}")
         most = max(most, count)
     if m is None:
         m = np.asarray(transform(np.array([1.0 + 0j]))).shape[1]
@@ -336,9 +448,11 @@ def invert_windowed(transform: Transform, times: ArrayLike, *, tolerance: float,
     for i, tt in enumerate(t.tolist()):
         if tt > 0:
             out[i], err[i] = values[tt], errors[tt]
-    method = ("Laplace transform inverted on hyperbolic contours (Weideman & Trefethen 2007); windows "
+    method = ("Laplace transform inverted on hyperbolic contours (Weideman & Trefethen 2007), each window "
+              "checked against the sums on its every second and third node; windows "
               + ("; ".join(parts) if parts else "none (all times at rest)"))
-    return Inversion(values=out, error_estimate=err, nodes=most, method=method)
+    return Inversion(values=out, error_estimate=err, nodes=most, method=method, notes=tuple(notes),
+                     evaluations=evaluations)
 
 
 def convergence_rate(nodes: int) -> float:

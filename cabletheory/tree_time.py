@@ -4,9 +4,11 @@ The Laplace-domain solution of :mod:`cabletheory.tree_laplace` is turned into ti
 numerical inversion of the Bromwich integral on hyperbolic contours shared by windows of times
 (:func:`cabletheory.contour.invert_windowed`; Weideman & Trefethen 2007), so that the tree is
 evaluated at a few dozen values of s for any number of times. Each value's error estimate is the
-contour's error model times the reference voltage (the final voltage of a step of the same
-amplitude at the stimulus site), plus the rounding of the sum; tests/test_tree_time.py checks it
-against the same recursion in mpmath inverted with mpmath's own Talbot routine.
+contour's error model times the larger of the reference voltage (the final voltage of a step of
+the same amplitude at the stimulus site) and the transform's own constant, measured by summing
+each window again on every other node, plus the rounding of the sum; a window's nodes grow until
+the estimate meets the tolerance (or a cap, named in the notes). tests/test_tree_time.py checks
+it against the same recursion in mpmath inverted with mpmath's own Talbot routine.
 
 Every result assumes a passive, linear membrane (:data:`cabletheory.PASSIVE_CAVEAT`).
 
@@ -84,7 +86,8 @@ class TreeResponse:
     tolerance : requested error relative to ``reference_voltage``
     steady_state : V, the final voltage at each site for a step (None for a pulse or alpha)
     method : how the values were computed
-    notes : plain-language remarks
+    notes : plain-language remarks, including any times whose error estimate stayed above the
+        tolerance at the most contour nodes allowed
     """
 
     times: Array
@@ -188,9 +191,11 @@ def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: S
         voltage = both.values[:t.size] - both.values[t.size:]
         errors = both.error_estimate[:t.size] + both.error_estimate[t.size:]
         method = both.method
+        notes.extend(both.notes)
     else:
         inversion = invert_windowed(transform, t, tolerance=tolerance, scale=reference)
         voltage, errors, method = inversion.values, inversion.error_estimate, inversion.method
+        notes.extend(inversion.notes)
     return TreeResponse(times=t, sites=record, stimulus_site=at, voltage=voltage, errors=errors,
                         error_bound=float(np.max(errors, initial=0.0)), reference_voltage=float(reference),
                         tolerance=float(tolerance), steady_state=steady, method=method, notes=tuple(notes))

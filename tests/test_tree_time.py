@@ -184,6 +184,47 @@ def test_error_estimates_hold_at_the_edges(stimulus, tolerance):
     assert mine.error_bound <= tolerance * mine.reference_voltage
 
 
+@pytest.mark.parametrize("time_to_peak", [1e-3, 20e-3, 60e-3], ids=["1 ms", "tau", "3 tau"])
+@pytest.mark.parametrize("length", [300e-6, 1000e-6])
+@pytest.mark.parametrize("tolerance", [1e-6, 1e-10])
+def test_alpha_current_with_a_long_time_to_peak_on_a_cylinder(time_to_peak, length, tolerance):
+    """A one-piece tree (a sealed cylinder, 2 µm, τm = 20 ms) driven at its origin by an alpha
+    current whose double pole meets a decay rate of the cylinder: at 1 ms on the 1000 µm cylinder
+    (rate 1036/s beside 1000/s) and at τm, where it is a triple pole. Every value is within its
+    estimate of the cylinder's exact series (Rall 1969 [Rall1969]; cabletheory.transient) and of
+    the 30-digit recursion inverted by mpmath's Talbot routine [mpmath2023] [Talbot1979]; the
+    estimate meets the tolerance."""
+    cell = PassiveTree(outline_tree([-1], [length], [2 * UM]), RM, RI, CM)
+    alpha = case.AlphaCurrent(0.1 * NA, time_to_peak)
+    far = Site(0, length)
+    t = np.geomspace(1e-5, 1.0, 40)
+    mine = tree_response(cell, alpha, t, root_site(), [root_site(), far], tolerance=tolerance)
+    cyl = cable.Cylinder(RM, RI, CM, 2 * UM, length, 0.0)
+    series = transient.charge(cyl, alpha, t, [0.0, length], tolerance=1e-13)
+    assert np.all(np.abs(mine.voltage - series.voltage) <= mine.errors + series.error_bound)
+    picked = [0, 15, 22, 30]  # 10 µs, 0.8 ms, 3.6 ms, 20 ms
+    ref = np.array([_mp_reference(cell, alpha, root_site(), root_site(), t[i]) for i in picked])
+    assert np.all(np.abs(mine.voltage[picked, 0] - ref) <= mine.errors[picked, 0])
+    assert mine.error_bound <= tolerance * mine.reference_voltage
+    assert mine.notes == ()
+
+
+@pytest.mark.parametrize("time_to_peak", [8e-3, 20e-3, 60e-3])
+@pytest.mark.parametrize(("at", "record"), [(Site(3, 240e-6), Site(-1)), (Site(-1), Site(5, 30e-6))])
+def test_alpha_current_with_a_long_time_to_peak_on_a_tree(time_to_peak, at, record):
+    """The unreduced demo tree with a soma and leaky tips, alpha currents with times to peak from
+    8 ms to 3 τm (the double pole near the tree's slowest decay rates): within the estimate of the
+    30-digit recursion inverted by mpmath's Talbot routine [mpmath2023] [Talbot1979], which meets
+    the tolerance."""
+    cell = PassiveTree(demo(240.0, soma=20.0), RM, RI, CM, tips=0.2 * NA)
+    alpha = case.AlphaCurrent(0.1 * NA, time_to_peak)
+    t = np.array([1e-5, 3e-4, 2e-3, 1.1e-2, 0.05, 0.2])
+    mine = tree_response(cell, alpha, t, at, [record], tolerance=1e-10)
+    ref = np.array([_mp_reference(cell, alpha, at, record, tt) for tt in t])
+    assert np.all(np.abs(mine.voltage[:, 0] - ref) <= mine.errors[:, 0])
+    assert mine.error_bound <= 1e-10 * mine.reference_voltage
+
+
 def test_late_times_agree_with_the_slowest_modes():
     """Two independent routes on an unreduced tree: after 10 ms the inverted step response at the
     soma equals V∞(1 − Σ C_n e^{−t/τ_n}) over the six slowest modes seen there (Rall 1969
