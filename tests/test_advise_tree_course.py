@@ -141,3 +141,19 @@ def test_bad_tree_advice_is_one_line(capsys, argv, fragment):
     err = capsys.readouterr().err
     assert fragment in err
     assert err.count("\n") == 1
+
+
+def test_tips_sets_the_tree_tips_as_in_charge(capsys):
+    """--tips killed: a killed tip is held at rest, so reading at that tip is refused; read elsewhere it
+    gives a smaller soma peak than sealed tips (current leaks out of the tips)."""
+    base = ["advise", "--Rm", "20000", "--Ri", "200", "--morphology", str(DEMO), "--quantity", "time-course",
+            "--times", "0:5:0.25 ms", "--json"]
+    assert main([*base, "--tips", "killed", "--read-at", "left.a"]) == 2
+    assert "--read-at: left.a is a killed tip" in capsys.readouterr().err
+    peaks = []
+    for tips in ("sealed", "killed"):
+        assert main([*base, "--tips", tips]) == 0
+        peaks.append(json.loads(capsys.readouterr().out)["peak_voltage_per_current"]["value"][0])
+    assert peaks[1] < peaks[0]
+    assert main([*base[:-1], "--tips", "killed", "--end", "0.5 nS"]) == 2
+    assert "--tips" in capsys.readouterr().err

@@ -47,6 +47,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                       help="morphology read as the tree command reads it: SWC (pieces as cylinders, axon left "
                            "out, soma lumped) or a tree outline; tapered branches are not allowed")
     tree.add_argument("--tree", metavar="FILE", help="the same as --morphology (the older name)")
+    tree.add_argument("--tips", metavar="END",
+                      help="every tip of the tree: sealed, killed or a conductance such as 0.5nS (the word of "
+                           "charge and compare; --end also sets it; default sealed)")
     tree.add_argument("--stimulus-at", metavar="POINT",
                       help="time-course on a tree: where the current step is applied, the soma (default) or a "
                            "point of the file such as 412")
@@ -150,7 +153,7 @@ def _tree_course(args: argparse.Namespace, target: float, scheme: str, compare_s
     if soma_diameter:
         tree = dataclasses.replace(tree, soma_area=math.pi * soma_diameter**2)
     rm, ri, cm = read_membrane(args)
-    cell = PassiveTree(tree, rm, ri, cm, tips=parse_end(args.end))
+    cell = PassiveTree(tree, rm, ri, cm, tips=_tip_end(args))
     points = TreePoints(tree, parser_for_quantities)
     source = None
     if args.stimulus_at:
@@ -171,6 +174,11 @@ def _tree_course(args: argparse.Namespace, target: float, scheme: str, compare_s
         if point.label not in labels:
             read.append(point.site)
             labels.append(point.label)
+    held = np.isinf(cell.tip_conductances())
+    for site, label_text in zip(read, labels, strict=True):
+        if site.piece >= 0 and held[site.piece] and math.isclose(site.distance, float(tree.lengths[site.piece])):
+            raise InputError(f"--read-at: {label_text} is a killed tip, held at rest, so a relative error means "
+                             "nothing there; choose another point")
     times = np.array(parse_series(args.times, "time", "--times"))
     advice = advise_tree_course(cell, read, target, times=times, stimulus_at=source, scheme=scheme,
                                 compare_step=compare_step,
@@ -183,6 +191,13 @@ def _tree_course(args: argparse.Namespace, target: float, scheme: str, compare_s
     if tree.soma_area and not soma_diameter:
         inputs.append(("soma area (from the file)", format_quantity(tree.soma_area, "area")))
     return advice, inputs, [str(name) for name in tree.labels], labels
+
+
+def _tip_end(args: argparse.Namespace) -> float:
+    """The tips' end of a tree, from --tips (or --end, the cable's word), in S."""
+    from ..inputs import read_end
+
+    return read_end(args.tips, "--tips") if args.tips is not None else parse_end(args.end)
 
 
 def parse_parents(text: str) -> np.ndarray:
@@ -228,6 +243,12 @@ def run(args: argparse.Namespace) -> int:
         soma_diameter = parse_quantity(args.soma_diameter, "length", "--soma-diameter")
     is_tree = bool(args.tree or args.parents or args.lengths or args.diameters)
     read_labels: list[str] | None = None
+    if args.tips is not None:
+        if not is_tree:
+            raise InputError("--tips: a cable has one far end; give --end")
+        if args.end != "sealed":
+            raise InputError("--tips: give the tips' end once, with --tips or --end")
+        args.end = args.tips
     if args.stimulus_at is not None and not (is_tree and args.quantity == "time-course"):
         raise InputError("--stimulus-at: only a time course on a tree (--morphology, --quantity time-course) takes "
                          "a stimulus site; a cable's stimulus is at its origin")
@@ -247,7 +268,7 @@ def run(args: argparse.Namespace) -> int:
         parents, lengths, diameters, file_soma_area, label, names = _tree_arrays(args)
         soma_area = math.pi * soma_diameter**2 if soma_diameter else (file_soma_area or 0.0)
         rm, ri, cm = read_membrane(args)
-        end = parse_end(args.end)
+        end = _tip_end(args)
         tips = np.setdiff1d(np.arange(parents.size), parents[parents >= 0])
         ends = np.zeros(parents.size)
         ends[tips] = end
