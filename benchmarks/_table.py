@@ -10,7 +10,10 @@ from __future__ import annotations
 import compileall
 import json
 import os
+import resource
 import statistics
+import subprocess
+import time
 from collections.abc import Sequence
 from dataclasses import asdict, dataclass
 from pathlib import Path
@@ -35,6 +38,17 @@ class Row:
     measured: str
     goal: str
     met: bool | None
+
+
+def run_timed(argv: Sequence[str], stdout: int | object = subprocess.DEVNULL) -> tuple[float, float]:
+    """Wall-clock time of one command, and the CPU time (user + system) its process used: on a
+    busy machine the wall time includes waiting for a core, the CPU time does not."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    start = time.perf_counter()
+    subprocess.run(list(argv), check=True, stdout=stdout)  # type: ignore[call-overload]
+    wall = time.perf_counter() - start
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return wall, (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
 
 
 def median(values: Sequence[float]) -> float:

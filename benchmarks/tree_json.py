@@ -9,13 +9,11 @@ seed); the JSON goes to a file, as a user would redirect it. Median of interleav
 from __future__ import annotations
 
 import statistics
-import subprocess
 import sys
 import tempfile
-import time
 from pathlib import Path
 
-from _table import Row, compile_package, report
+from _table import Row, compile_package, report, run_timed
 from tree_speed import generate_swc
 
 RUNS = 5
@@ -23,11 +21,9 @@ POINTS = 100_000
 GOAL = 1.0  # s
 
 
-def timed(argv: list[str], out: Path) -> float:
-    start = time.perf_counter()
+def timed(argv: list[str], out: Path) -> tuple[float, float]:
     with out.open("wb") as sink:
-        subprocess.run(argv, check=True, stdout=sink)
-    return time.perf_counter() - start
+        return run_timed(argv, stdout=sink)
 
 
 def main() -> int:
@@ -39,17 +35,22 @@ def main() -> int:
         command = [sys.executable, "-m", "cabletheory", "tree", str(swc), "--Rm", "20000", "--Ri", "200", "--json"]
         numpy = [sys.executable, "-c", "import numpy"]
         times: list[float] = []
+        cpu: list[float] = []
         gauge: list[float] = []
         for _ in range(RUNS):
-            gauge.append(timed(numpy, out))
-            times.append(timed(command, out))
+            gauge.append(timed(numpy, out)[0])
+            wall, used = timed(command, out)
+            times.append(wall)
+            cpu.append(used)
         size = out.stat().st_size
-    t, g = statistics.median(times), statistics.median(gauge)
+    t, c, g = statistics.median(times), statistics.median(cpu), statistics.median(gauge)
     print(f"`cabletheory tree FILE --json`, {POINTS:,}-point generated SWC, JSON {size / 1e6:.1f} MB to a file")
-    print(f"  whole command: median {t:.3f} s of {RUNS} (runs {', '.join(f'{x:.2f}' for x in times)} s); "
+    print(f"  whole command: median {t:.3f} s of {RUNS} (runs {', '.join(f'{x:.2f}' for x in times)} s; "
+          f"CPU {c:.2f} s); "
           f"`import numpy` alongside: {g * 1e3:.0f} ms")
     return report([Row(f"`tree FILE --json`, {POINTS:,}-point SWC, whole command",
-                       f"{t:.2f} s (median of {RUNS}; `import numpy` {g:.2f} s)", f"≤ {GOAL:g} s", t <= GOAL)])
+                       f"{t:.2f} s (median of {RUNS}; CPU {c:.2f} s; `import numpy` {g:.2f} s)", f"≤ {GOAL:g} s",
+                       t <= GOAL)])
 
 
 if __name__ == "__main__":
