@@ -127,7 +127,8 @@ def test_ball_and_stick_view_shows_the_numbers_of_fit_model(tmp_path):
         await settle(app, pilot)
         text = results_text(app)
         assert "membrane time constant τm" in text
-        assert "24.91 ms   95 % [24.66 ms, 25.16 ms]" in text  # as worked/fitting/README.md reads it
+        assert "24.91 ms  [24.66 ms, 25.16 ms]" in text  # as worked/fitting/README.md reads it
+        assert re.search(r"intervals in brackets +95 % confidence", text)
         assert re.search(r"parameters told apart +yes", text)
         plot = app.query_one("#fit-plot").spec
         assert [s.label for s in plot.series] == ["mean of 8 sweep(s)", "ball and stick", "3 exponentials"]
@@ -251,8 +252,8 @@ def test_survey_view_lists_every_cell_with_its_errors_and_summarises_a_column(su
         table = app.query_one("#survey-cells", DataTable)
         assert table.row_count == 4
         cells = [[str(c) for c in table.get_row_at(i)] for i in range(4)]
-        broken = next(c for c in cells if c[0].endswith("broken.swc"))
-        assert broken[1] == "error"
+        broken = next(c for c in cells if c[-2].endswith("broken.swc"))
+        assert broken[0] == "error"
         assert broken[-1].endswith("broken.swc:2: field 'radius' is 'oops'; expected a number")
         text = str(app.query_one("#survey-results").render())
         assert "1 with an error" in text

@@ -7,6 +7,8 @@ cursor does not blink, so the pictures are deterministic.
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 
 pytest.importorskip("textual")
@@ -143,3 +145,46 @@ def test_views_at_80_by_24(snap_compare, view):
 def test_help_panel_at_80_by_24(snap_compare):
     """The help fits an 80×24 terminal and scrolls."""
     assert snap_compare(CableApp(), terminal_size=SMALL, press=["f1"], run_before=steady)
+
+
+# -- the fitting and survey views ------------------------------------------------------------------------
+ROOT = Path(__file__).resolve().parent.parent
+
+
+@pytest.mark.parametrize("size", [SIZE, SMALL], ids=["120x36", "80x24"])
+def test_fit_view_ball_and_stick(snap_compare, monkeypatch, size):
+    """worked/fitting's eight sweeps fitted as a ball and stick: values with 95 % intervals, the data
+    with the fitted curves, the residuals."""
+    monkeypatch.chdir(ROOT)  # the machine-independent path on the picture
+
+    async def fit(pilot) -> None:
+        app = pilot.app
+        app.query_one("#ft-current", Input).value = "-40 pA"
+        app.query_one("#ft-onset", Input).value = "20 ms"
+        app.query_one("#ft-assumed_Ri", Input).value = "150 Ω·cm"
+        await pilot.pause()
+        app.query_one("#fit").refresh_results(again=True)
+        await pilot.pause()
+        await steady(pilot)
+
+    app = CableApp(view="fit", recording="worked/fitting/lumenia_sweeps.csv")
+    assert snap_compare(app, terminal_size=size, run_before=fit)
+
+
+@pytest.mark.parametrize("size", [SIZE, SMALL], ids=["120x36", "80x24"])
+def test_survey_view_with_an_error_row(snap_compare, monkeypatch, tmp_path, size):
+    """Three bundled morphologies and one broken file: the broken one in red with its file:line reason,
+    the electrotonic length summarised."""
+    from cabletheory.inputs import read_outline_value
+    from cabletheory.survey import SurveySettings, audit_file, table_csv
+
+    broken = tmp_path / "broken.swc"
+    broken.write_text("1 1 0 0 0 5 -1\n2 3 0 0 10 oops 1\n", encoding="utf-8")
+    settings = SurveySettings(2.0, 1.5, read_value=read_outline_value)
+    folder = "cabletheory/data/morphologies"
+    rows = [audit_file(str(ROOT / folder / name), settings, name=f"{folder}/{name}")
+            for name in ("lumenia_demo.outline", "lumenia_lw1_conforming.swc", "lumenia_pv7_interneuron.swc")]
+    rows.append(audit_file(str(broken), settings, name="archive/broken.swc"))
+    (tmp_path / "table.csv").write_text(table_csv(rows, settings), encoding="utf-8")
+    monkeypatch.chdir(tmp_path)
+    assert snap_compare(CableApp(view="survey", table="table.csv"), terminal_size=size, run_before=steady)

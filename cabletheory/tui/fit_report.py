@@ -41,11 +41,11 @@ FIT_FIELDS: tuple[FieldSpec, ...] = (
               placeholder="sweeps: CSV, tab-separated or NWB; several: a.csv; b.csv"),
     FieldSpec("morphology", "morphology", "dimensionless", "", blank_ok=True,
               placeholder="SWC or tree outline of the recorded cell"),
-    FieldSpec("current", "injected current", "current", "", allow_negative=True, blank_ok=True,
+    FieldSpec("current", "current", "current", "", allow_negative=True, blank_ok=True,
               placeholder="e.g. -40 pA; blank: unknown (only V∞)"),
     FieldSpec("duration", "pulse length", "time", "", blank_ok=True,
               placeholder="blank: a step lasting past the record"),
-    FieldSpec("onset", "stimulus onset", "time", "", allow_zero=True, allow_negative=True, blank_ok=True,
+    FieldSpec("onset", "onset", "time", "", allow_zero=True, allow_negative=True, blank_ok=True,
               placeholder="in the file's clock; blank: found"),
     FieldSpec("rest", "resting V", "voltage", "", allow_zero=True, allow_negative=True, blank_ok=True,
               placeholder="blank: each sweep's mean before the onset"),
@@ -251,7 +251,7 @@ def _interval_text(value: float, lo: float, hi: float, kind: str) -> str:
 
     bounds = (f"[{cell_text(lo, kind)}, {cell_text(hi, kind)}]" if math.isfinite(lo) and math.isfinite(hi)
               else "[unbounded]")
-    return f"{cell_text(value, kind)}   95 % {bounds}"
+    return f"{cell_text(value, kind)}  {bounds}"
 
 
 def _estimates(result: RecordingFit) -> list[tuple[str, str, str, float, float, float]]:
@@ -313,7 +313,8 @@ def fit_report(setup: FitSetup, run: FitRun) -> Report:
             inputs.append(Row("assumed_axial_resistivity", "assumed Ri", r.axial_resistivity, "axial_resistivity"))
     fitted = model if model is not None else d.fit
     window = model.window if model is not None else d.window
-    results = [Row("window_start", "fitted from (after onset)", float(window[0]), "time"),
+    results = [Row("interval_level", "intervals in brackets", f"{100 * r.level:g} % confidence"),
+               Row("window_start", "fitted from (after onset)", float(window[0]), "time"),
                Row("window_end", "fitted until", float(window[1]), "time")]
     estimates = _estimates(result)
     for key, label, kind, value, lo, hi in estimates:

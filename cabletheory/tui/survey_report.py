@@ -29,9 +29,10 @@ _KIND_OF_UNIT = {"m": "length", "m²": "area", "Ω": "resistance"}
 NUMERIC: tuple[str, ...] = tuple(c.name for c in COLUMNS if c.kind in ("int", "float"))
 DEFAULT_COLUMN = "electrotonic_length"
 # the columns listed on screen, one line per cell (every column is in the saved table)
+# (the numbers first, so that a narrow screen shows them; the file and any error after them)
 LISTED: tuple[tuple[str, str], ...] = (
-    ("path", "file"), ("status", "status"), ("reducible", "reducible"), ("tips", "tips"),
-    ("electrotonic_length", "L"), ("input_resistance_ohm", "R_N exact"), ("difference_percent", "reduction cost"),
+    ("status", "status"), ("reducible", "reducible"), ("tips", "tips"), ("electrotonic_length", "L"),
+    ("input_resistance_ohm", "R_N exact"), ("difference_percent", "reduction cost"), ("path", "file"),
     ("error", "error"),
 )
 
