@@ -10,7 +10,8 @@ other. Everything is dimensionless: T = t/τm, L = ℓ/λ, voltages in units of 
   :math:`4e^{-(KL)^2/T}[\sqrt{T/\pi} + T/(4L)]` (:func:`image_tail`), the clamp images by
   :math:`2e^{-(KL)^2/T}[1 + \sqrt T/(L\sqrt\pi)]` (:func:`clamp_image_tail`);
 * eigen-series: the tail bounds of :func:`cabletheory.eigen.tail_bound`, combined for a pulse
-  and an alpha current in :func:`current_bound`.
+  and an alpha current in :func:`current_bound` (for an alpha current the smaller of two bounds:
+  the input's slope over [T/2, T], and its decay :func:`alpha_decay_rate`).
 
 References
 ----------
@@ -31,6 +32,7 @@ from . import eigen
 __all__ = [
     "MAX_MODES",
     "Shape",
+    "alpha_decay_rate",
     "clamp_image_tail",
     "current_bound",
     "image_tail",
@@ -107,12 +109,36 @@ def modes_needed(T: Array, tol: float, L: float, bound) -> tuple[Array, Array]:
     return need, achieved
 
 
+def alpha_decay_rate(first_excluded: int, T: Array, L: float, time_to_peak: float) -> Array:
+    r"""A factor R(T) such that the alpha current's modes ``n >= first_excluded`` are bounded by
+    :func:`cabletheory.eigen.tail_bound` ``(kind="smooth", rate=R)``; infinite where it does not apply.
+
+    After the quasi-steady part, mode n of an alpha current :math:`I(s) = (s/a)e^{1-s/a}` leaves
+    :math:`r_n\mu_n^{-1}\int_0^T I'(s)e^{-\mu_n(T-s)}ds` (integration by parts, I(0) = 0). With
+    :math:`|I'(s)| \le (e/a)(1 + s/a)e^{-s/a}` and :math:`k_n = \mu_n - 1/a > 0`,
+
+    .. math:: \left|\int_0^T I'(s)e^{-\mu_n(T-s)}dsight| \le rac{e}{a}\Big(1 + rac Ta\Big)
+              rac{e^{-T/a}}{k_n} \le rac{e}{a}\Big(1 + rac Ta\Big)rac{e^{-T/a}}{\mu_n(1 - 1/(a\mu_N))}
+
+    for n ≥ N (:math:`\mu_n \ge \mu_N \ge 1 + a_N^2`, the branch lower bound), so the tail is at most the
+    smooth-input tail with this rate: unlike the bound on the slope over [T/2, T] it decays as
+    :math:`e^{-T/a}` (not :math:`e^{-T/2a}`) and needs no separate term for [0, T/2].
+    """
+    a = float(time_to_peak)
+    lower = float(eigen.branch_lower_bounds(1, L, start=int(first_excluded))[0])
+    margin = 1.0 - 1.0 / (a * (1.0 + lower * lower))
+    if not margin > 0:
+        return np.full(np.shape(T), np.inf)
+    return (np.e / a) * (1.0 + T / a) * np.exp(-T / a) / margin
+
+
 def current_bound(shape: Shape, L: float):
     def bound(n: int, T: Array) -> Array:
         if shape.kind == "step":
             return eigen.tail_bound(n, T, L, kind="step")
         if shape.kind == "pulse":
             return eigen.tail_bound(n, np.where(T > shape.duration, T - shape.duration, T), L, kind="step")  # noqa: SIM300
-        return (2 * eigen.tail_bound(n, T / 2, L, kind="step")
-                + eigen.tail_bound(n, T, L, kind="smooth", rate=1.0) * shape.slope_bound(T))
+        smooth = eigen.tail_bound(n, T, L, kind="smooth", rate=1.0)
+        split = 2 * eigen.tail_bound(n, T / 2, L, kind="step") + smooth * shape.slope_bound(T)
+        return np.minimum(split, smooth * alpha_decay_rate(n, T, L, shape.time_to_peak))
     return bound
