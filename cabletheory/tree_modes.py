@@ -50,9 +50,24 @@ IntArray = NDArray[np.int64]
 
 def _count(net: _Network, rates: Array) -> IntArray:
     """Number of decay rates of the tree (1/s) strictly below each of ``rates`` (Wittrick-Williams)."""
+    return _count_and_slope(net, rates, slope=False)[0]
+
+
+def _count_and_slope(net: _Network, rates: Array, *, slope: bool = True) -> tuple[IntArray, Array]:
+    r"""The count of :func:`_count` at each rate and, for a tree of cylinders, :math:`d\ln|D|/ds` at
+    :math:`s = -\lambda`, where :math:`D = \prod_k p_k \prod_i \sinh(u_i)/u_i` is the product of the
+    elimination pivots and of every piece's determinant with both ends at rest: a function with no
+    poles whose zeros are the tree's decay rates, of sign :math:`(-1)^{count}` (Wittrick & Williams
+    1971 [MEM]). The pivots' slopes come from one complex step (Squire & Trapp 1998). The slope is
+    nan with ``slope=False`` and for a tree with frusta (their Bessel functions keep only absolute
+    accuracy in the imaginary part, too little for a step that leaves the count as it is).
+    """
     rates = np.asarray(rates, dtype=float)
-    piv = _pivots(net, -rates.astype(complex))  # the tips-inward pass alone
-    negative = (np.isfinite(piv) & (piv.real < 0)).sum(axis=0)
+    slope = slope and net.tapered.size == 0
+    eta = 1e-20 * np.maximum(rates, 1.0 / float(net.tau.max()))  # leaves the real parts (the count) as they are
+    piv = _pivots(net, -rates + 1j * eta if slope else -rates.astype(complex))  # tips inward only
+    finite = np.isfinite(piv)
+    negative = (finite & (piv.real < 0)).sum(axis=0)
     k = np.sqrt(np.maximum(net.tau[:, None] * rates[None, :] - 1.0, 0.0))
     held = np.floor(net.electrotonic[:, None] * k / math.pi - 1e-15).clip(min=0)
     if net.tapered.size:
@@ -60,7 +75,22 @@ def _count(net: _Network, rates: Array) -> IntArray:
         if np.any(np.max(rates) * net.tau[net.tapered] - 1.0 >= _held_floor(net)):
             raise ConvergenceError("a frustum is too long for the rates counted; cut it shorter")
         held[net.tapered] = 0.0
-    return (negative + held.sum(axis=0)).astype(np.int64)
+    count = (negative + held.sum(axis=0)).astype(np.int64)
+    if not slope:
+        return count, np.full(rates.size, math.nan)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        pivots = np.where(finite, piv.imag / (eta * piv.real), 0.0).sum(axis=0)
+        # d ln(sinh u / u)/ds = (coth u - 1/u) L τ/(2q), u = Lq, q = sqrt(1 + τs); a series near u = 0
+        tau, ell = net.tau[:, None], net.electrotonic[:, None]
+        q = np.sqrt(1.0 - tau * rates[None, :] + 0j)
+        u = ell * q  # the electrotonic length times q
+        small = np.abs(u) < 1e-2
+        u_safe = np.where(small, 1.0, u)
+        q_safe = np.where(small, 1.0, q)
+        exact = (1.0 / np.tanh(u_safe) - 1.0 / u_safe) * ell * tau / (2.0 * q_safe)
+        series = 0.5 * ell**2 * tau * (1.0 / 3.0 - u**2 / 45.0 + 2.0 * u**4 / 945.0)
+        pieces = np.where(small, series, exact).real.sum(axis=0)
+    return count, pivots + pieces
 
 
 def _held_floor(net: _Network) -> Array:
@@ -128,18 +158,52 @@ class TreeModes:
 
 
 def _bisect_rates(net: _Network, indices: IntArray, lo: Array, hi: Array) -> tuple[Array, Array]:
-    """Brackets [lo, hi] of the decay rates number ``indices`` (0 the slowest), each narrowed by bisection
-    on the count until hi - lo <= 4e-16 hi; the given brackets must hold their rates
-    (count(lo) <= index < count(hi)). Only the brackets still open are counted at each step."""
+    r"""Brackets [lo, hi] of the decay rates number ``indices`` (0 the slowest), each narrowed on the count
+    until hi - lo <= 4e-16 hi; the given brackets must hold their rates (count(lo) <= index < count(hi)).
+
+    Every bracket is narrowed by the count alone, so it always holds its rate: first on one grid of
+    the whole range, then, on a tree of cylinders, at points chosen by Newton's method on :math:`\ln|D|`
+    (:func:`_count_and_slope`) with a point on either side of the Newton point at the distance of the
+    last step, which closes the bracket as fast as Newton converges; a point far outside the bracket, or
+    a step that did not halve it, falls back to the midpoint (bisection). Only the brackets still open
+    are counted at each step.
+    """
     lo, hi = lo.astype(float), hi.astype(float)
-    for _ in range(200):
+    if lo.size:  # first, counts on one grid of the whole range, four points per rate sought
+        grid = np.linspace(float(lo.min()), float(hi.max()), 4 * lo.size + 2)[1:-1]
+        counts = _count(net, grid)
+        below = counts[None, :] <= indices[:, None]
+        start = np.where(below, grid[None, :], -np.inf).max(axis=1, initial=-np.inf)
+        end = np.where(~below, grid[None, :], np.inf).min(axis=1, initial=np.inf)
+        tighter = np.maximum(lo, start) < np.minimum(hi, end)  # (a count that is not monotone changes nothing)
+        lo = np.where(tighter, np.maximum(lo, start), lo)
+        hi = np.where(tighter, np.minimum(hi, end), hi)
+    guess = np.full(lo.size, math.nan)  # the Newton point for the next step
+    step = np.full(lo.size, math.inf)  # the size of the last Newton step
+    for _ in range(400):
         open_ = np.flatnonzero(hi - lo > 4e-16 * hi)
         if open_.size == 0:
             break
-        mid = 0.5 * (lo[open_] + hi[open_])
-        above = _count(net, mid) > indices[open_]
-        hi[open_] = np.where(above, mid, hi[open_])
-        lo[open_] = np.where(above, lo[open_], mid)
+        low, high, g = lo[open_], hi[open_], guess[open_]
+        # a Newton point on or just beyond an end of the bracket moves a few rounding units inside it
+        newton = np.isfinite(g) & (g > low - (high - low)) & (g < high + (high - low))
+        inside = np.minimum(2.3e-16 * high, 0.25 * (high - low))
+        centre = np.where(newton, np.clip(g, low + inside, high - inside), 0.5 * (low + high))
+        reach = np.where(newton, np.maximum(np.minimum(np.abs(step[open_]), 0.25 * (high - low)), 2.3e-16 * centre),
+                         0.0)
+        owner = np.concatenate((np.arange(open_.size), *(np.flatnonzero(newton),) * 2))
+        points = np.concatenate((centre, (centre - reach)[newton], (centre + reach)[newton]))
+        counts, slopes = _count_and_slope(net, points)
+        above = counts > indices[open_][owner]
+        new_lo, new_hi = low.copy(), high.copy()
+        np.minimum.at(new_hi, owner[above], points[above])
+        np.maximum.at(new_lo, owner[~above], points[~above])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ahead = centre + 1.0 / slopes[:open_.size]  # λ - D/(dD/dλ), with d/dλ = -d/ds
+        halved = new_hi - new_lo <= 0.5 * (high - low)
+        guess[open_] = np.where(halved | ~newton, ahead, math.nan)
+        step[open_] = np.abs(ahead - centre)
+        lo[open_], hi[open_] = new_lo, new_hi
     return lo, hi
 
 
