@@ -32,6 +32,7 @@ BENCHMARKS: dict[str, tuple[str, str]] = {
     "app-start": ("ui_start.py", "app first frame and first result"),
     "derive": ("derive_speed.py", "`derive --origin soma --end leaky --part steady`"),
     "tree-time": ("tree_time_speed.py", "exact time course of a 1,000-branch tree; compartmental ratio"),
+    "tree-views": ("tree_views_speed.py", "`tree --map` on a 100,000-point SWC and `tree PV-7 --modes 3`"),
     "fit": ("fit_speed.py", "ball-and-stick and morphology fits"),
     "tests": ("suite_speed.py", "the test suite on two cores"),
     # not in the default run (figures of older issues; long)
@@ -42,7 +43,8 @@ BENCHMARKS: dict[str, tuple[str, str]] = {
     "bad-input": ("bad_input.py", "the bad-input catalogue"),
     "app-large-tree": ("ui_large_tree.py", "tree view on an 82,000-point SWC"),
 }
-DEFAULT = ("startup", "tree-json", "transient", "app", "app-start", "derive", "tree-time", "fit", "tests")
+DEFAULT = ("startup", "tree-json", "transient", "app", "app-start", "derive", "tree-time", "tree-views", "fit",
+           "tests")
 
 
 def machine() -> str:
