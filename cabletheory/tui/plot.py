@@ -78,20 +78,47 @@ class Canvas:
     def line(self, xs: Sequence[float], ys: Sequence[float], curve: int = 0) -> None:
         """Join the points (xs[i], ys[i]) with straight dot lines; NaN/inf break the line.
 
-        Each curve has its own dash pattern (:data:`DASHES`), so that curves differ without colour."""
+        Each curve has its own dash pattern (:data:`DASHES`), so that curves differ without colour.
+        The points are mapped to dots at once; a point on the same dot as the one before it adds
+        nothing to the line, so it is dropped before the dots are joined (a curve of thousands
+        of samples on a plot of a hundred dot columns costs a hundred segments)."""
         pattern = DASHES[(curve // len(PALETTE) + curve) % len(DASHES)]
+        cols, rows, finite = self._dots(xs, ys)
+        # keep a point unless it repeats the dot of the finite point just before it
+        repeat = np.zeros(finite.shape, dtype=bool)
+        repeat[1:] = finite[1:] & finite[:-1] & (cols[1:] == cols[:-1]) & (rows[1:] == rows[:-1])
         drawn = 0
         previous: tuple[int, int] | None = None
-        for x, y in zip(xs, ys, strict=True):
-            if not (math.isfinite(x) and math.isfinite(y)):
+        for col0, row0, ok in zip(cols[~repeat].tolist(), rows[~repeat].tolist(), finite[~repeat].tolist(),
+                                  strict=True):
+            if not ok:
                 previous = None
                 continue
-            point = self._to_dots(x, y)
+            point = (col0, row0)
             for col, row in ([point] if previous is None else _segment(previous, point)[1:]):
                 if pattern[drawn % len(pattern)]:
                     self._dot(col, row, curve)
                 drawn += 1
             previous = point
+
+    def _dots(self, xs: Sequence[float], ys: Sequence[float]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """:meth:`_to_dots` of every point at once (the same arithmetic and rounding, half to even)
+        and which points are finite (the others get dot 0, 0)."""
+        x, y = np.asarray(xs, dtype=float).ravel(), np.asarray(ys, dtype=float).ravel()
+        if x.shape != y.shape:
+            raise ValueError("xs and ys differ in length")
+        finite = np.isfinite(x) & np.isfinite(y)
+        x, y = np.where(finite, x, 0.0), np.where(finite, y, 0.0)
+        (x0, x1), (y0, y1) = self.x_range, self.y_range
+        fx = np.full(x.shape, 0.5) if x1 == x0 else (x - x0) / (x1 - x0)
+        fy = np.full(y.shape, 0.5) if y1 == y0 else (y - y0) / (y1 - y0)
+        cols = np.rint(fx * (2 * self.width - 1))
+        rows = np.rint((1.0 - fy) * (4 * self.height - 1))
+        # far outside the canvas nothing is drawn; clip so that the integers stay small
+        limit = 1e6
+        cols = np.where(finite, np.clip(cols, -limit, limit), 0.0).astype(np.int64)
+        rows = np.where(finite, np.clip(rows, -limit, limit), 0.0).astype(np.int64)
+        return cols, rows, finite
 
     def text_rows(self) -> list[str]:
         # an empty cell is a plain space: some terminal fonts draw U+2800 as a box

@@ -18,6 +18,7 @@ from .keys import key_label
 from .widgets import CurvePlot, QuantityField, QuantityList, shared_text, waiting_message
 
 if TYPE_CHECKING:  # pragma: no cover
+    from textual.timer import Timer
     from textual.widgets.tree import TreeNode
 
     from ..tree import Tree as Morphology  # the core's tree; Tree here is the outline widget
@@ -26,6 +27,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from .report import Report
 
 PREFIX = "tr-"
+BUSY_AFTER = 0.25  # s: a result still on its way after this is announced in the panel's border
 _SPECS = {spec.name: spec for spec in TREE_FIELDS}
 
 
@@ -56,6 +58,9 @@ class TreeView(Vertical):
         self._tree_cache: tuple[tuple[str, int, int], Morphology] | None = None
         self._outline_shape: list[tuple[str, int]] = []  # (key, parent) of each outline line shown
         self._outline_nodes: list[TreeNode[str]] = []  # the widget's nodes of those lines, root excluded
+        self._outline_texts: list[str] = []  # the text of each outline line shown, root first
+        self._flagged: dict[str, tuple[str, str | None]] = {}  # field -> (text, message) it shows
+        self._busy_timer: Timer | None = None
 
     @property
     def open_folder(self) -> Path:
@@ -167,14 +172,23 @@ class TreeView(Vertical):
         self.wanted = setup
         for name, field in fields.items():
             if name != "file" or name in errors or not again:
-                field.flag(errors.get(name))
+                self._flag(field, errors.get(name))
         if setup is None:
             self.workers.cancel_group(self, "audit")
             self._clear(waiting_message(errors))
             return
-        self._busy(True)
         cached = self._tree_cache
-        self.audit(setup, cached[1] if cached is not None and cached[0] == _file_key(setup.path) else None)
+        tree = cached[1] if cached is not None and cached[0] == _file_key(setup.path) else None
+        self._busy(True, reading=tree is None)
+        self.audit(setup, tree)
+
+    def _flag(self, field: QuantityField, message: str | None) -> None:
+        """Flag a field or say how it reads, unless it already says so for the same text (each
+        update of a field's line costs a layout of the form: only the field typed into changes)."""
+        said = (field.input.value, message)
+        if self._flagged.get(field.spec.name) != said:
+            self._flagged[field.spec.name] = said
+            field.flag(message)
 
     def _clear(self, message: str) -> None:
         self._busy(False)
@@ -185,11 +199,24 @@ class TreeView(Vertical):
         outline = self.query_one("#tree-outline", Tree)
         outline.clear()
         outline.root.set_label("no tree")
-        self._outline_shape, self._outline_nodes = [], []
+        self._outline_shape, self._outline_nodes, self._outline_texts = [], [], []
 
-    def _busy(self, busy: bool) -> None:
-        self.query_one("#tree-results", QuantityList).border_subtitle = "reading and auditing…" if busy else ""
-        self.query_one("#tree-outline", Tree).loading = busy
+    def _busy(self, busy: bool, reading: bool = False) -> None:
+        """Say that a result is on its way. Only reading a file covers the outline with the loading
+        animation: re-auditing a tree already read takes milliseconds, and mounting the animation
+        would cost more than the audit."""
+        results = self.query_one("#tree-results", QuantityList)
+        if self._busy_timer is not None:
+            self._busy_timer.stop()
+            self._busy_timer = None
+        if busy and not reading:
+            # most audits are back before this fires: then the panel is not drawn twice
+            self._busy_timer = self.set_timer(BUSY_AFTER, lambda: setattr(results, "border_subtitle", "auditing…"))
+        else:
+            results.border_subtitle = "reading and auditing…" if busy else ""
+        outline = self.query_one("#tree-outline", Tree)
+        if outline.loading != (busy and reading):
+            outline.loading = busy and reading
 
     @work(exclusive=True, thread=True, group="audit")
     def audit(self, setup: TreeSetup, tree: Morphology | None) -> None:
@@ -231,12 +258,16 @@ class TreeView(Vertical):
     def _fill_outline(self, outline: list[OutlineNode]) -> None:
         widget = self.query_one("#tree-outline", Tree)
         shape = [(item.key, item.parent) for item in outline]
+        texts = [item.text for item in outline]
         if shape == self._outline_shape:
-            # the same tree audited again: relabel its lines in place (rebuilding thousands of
-            # lines costs seconds; the cursor and the folded branches stay where they were)
-            widget.root.set_label(Text(outline[0].text, style="bold"))
-            for node, item in zip(self._outline_nodes, outline[1:], strict=True):
-                node.set_label(Text(item.text, style="bold #ff6b6b" if item.flag else ""))
+            # the same tree audited again: relabel the lines whose text changed, in place (rebuilding
+            # thousands of lines costs seconds; the cursor and the folded branches stay where they were)
+            if texts[0] != self._outline_texts[0]:
+                widget.root.set_label(Text(outline[0].text, style="bold"))
+            for node, item, old in zip(self._outline_nodes, outline[1:], self._outline_texts[1:], strict=True):
+                if item.text != old:
+                    node.set_label(Text(item.text, style="bold #ff6b6b" if item.flag else ""))
+            self._outline_texts = texts
             return
         widget.clear()
         widget.root.set_label(Text(outline[0].text, style="bold"))
@@ -252,6 +283,7 @@ class TreeView(Vertical):
         widget.root.expand_all()
         self._outline_shape = shape
         self._outline_nodes = nodes[1:]
+        self._outline_texts = texts
 
 
 Shown = tuple["Report", "list[OutlineNode]", tuple[str | None, str | None], tuple[str, int, int], "Morphology"]
