@@ -18,6 +18,7 @@ import asyncio
 import statistics
 import sys
 import time
+from typing import ClassVar
 
 GOAL_P90 = 0.100  # s
 SWC = "lumenia_pv7_interneuron.swc"
@@ -40,7 +41,7 @@ async def _measure(repeats: int) -> dict[str, list[float]]:
     class Timed(CableApp):
         """Notes when each frame is handed to the terminal (as benchmarks/ui_start.py does)."""
 
-        frames: list[tuple[float, float]] = []  # (wall clock, CPU time of the process)
+        frames: ClassVar[list[tuple[float, float]]] = []  # (wall clock, CPU time of the process)
 
         def _display(self, screen, renderable):  # type: ignore[no-untyped-def]
             if renderable is not None:

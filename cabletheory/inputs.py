@@ -12,12 +12,18 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 from .case import FIELDS, Case, CaseFieldError, build_case, end_from_word
 from .errors import InputError
 from .units import parse_quantity, parse_series
 
-__all__ = ["CaseInputError", "read_case", "read_end", "read_field", "read_outline_value"]
+if TYPE_CHECKING:  # pragma: no cover
+    from .tree_case import TreeCase
+    from .tree_laplace import PassiveTree
+
+__all__ = ["CaseInputError", "read_case", "read_end", "read_field", "read_outline_value", "read_point_labels",
+           "read_tree_case"]
 
 Label = Callable[[str], str] | Mapping[str, str]
 
@@ -120,6 +126,65 @@ def read_case(texts: Mapping[str, str | None], label: Label) -> Case:
         raise CaseInputError(errors)
     try:
         return build_case(values)
+    except CaseFieldError as exc:
+        raise CaseInputError({exc.field: f"{name(exc.field)}: {exc}"}) from None
+
+
+TREE_STIMULUS_FIELDS = ("shape", "current", "voltage", "duration", "time_to_peak")
+
+
+def read_point_labels(text: str, label: str) -> list[str]:
+    """Point labels of a tree, comma separated ('soma, 412, 977'); an empty item is an error."""
+    labels = [item.strip() for item in text.split(",")]
+    if not all(labels):
+        raise InputError(f"{label}: empty point label in {text.strip()!r}; expected e.g. 'soma, 412, 977'")
+    return labels
+
+
+def read_tree_case(cell: PassiveTree, texts: Mapping[str, str | None], label: Label) -> TreeCase:
+    """The :class:`~cabletheory.tree_case.TreeCase` of a tree and the stimulus texts typed for it.
+
+    Parameters
+    ----------
+    cell : the tree with its membrane and tips (read from its file by the caller)
+    texts : canonical field -> text for the stimulus fields (``shape``, ``current``, ``voltage``,
+        ``duration``, ``time_to_peak``), ``stimulus_at`` (one point label; default the soma) and
+        ``positions`` (point labels, comma separated; default the stimulus point); None or a
+        missing key means "not given"
+    label : the front end's name for each field (used in messages)
+
+    Raises
+    ------
+    CaseInputError
+        with every field whose text cannot be read, or else the first rule of
+        :func:`cabletheory.tree_case.build_tree_case` broken (an unknown point names its field).
+    """
+    from .tree_case import build_tree_case
+
+    name = _labeller(label)
+    values: dict[str, object] = {}
+    errors: dict[str, str] = {}
+    for field in TREE_STIMULUS_FIELDS:
+        text = texts.get(field)
+        if text is not None:
+            try:
+                values[field] = read_field(field, text, name(field))
+            except InputError as exc:
+                errors[field] = str(exc)
+    where = texts.get("stimulus_at")
+    if where is not None and not where.strip():
+        where = None
+    labels: list[str] | None = None
+    text = texts.get("positions")
+    if text is not None and text.strip():
+        try:
+            labels = read_point_labels(text, name("positions"))
+        except InputError as exc:
+            errors["positions"] = str(exc)
+    if errors:
+        raise CaseInputError(errors)
+    try:
+        return build_tree_case(cell, values, where, labels)
     except CaseFieldError as exc:
         raise CaseInputError({exc.field: f"{name(exc.field)}: {exc}"}) from None
 

@@ -1,4 +1,9 @@
-"""The tree view: open a morphology, audit Rall's conditions, reduce to an equivalent cylinder."""
+"""The tree view: open a morphology, audit Rall's conditions, reduce to an equivalent cylinder; the
+exact time course at chosen points of the tree and its electrotonic map.
+
+Three output panels share one form: the audit (outline, verdict, equivalent cable), the time course
+(:mod:`cabletheory.tui.tree_panels`) and the electrotonic map. A keystroke computes the panel shown
+only, in a worker; the others catch up when shown."""
 
 from __future__ import annotations
 
@@ -10,12 +15,36 @@ from textual import work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
-from textual.widgets import Input, Label, RadioButton, RadioSet, Static, Tree
+from textual.reactive import reactive
+from textual.widget import Widget
+from textual.widgets import (
+    Checkbox,
+    ContentSwitcher,
+    DataTable,
+    Input,
+    Label,
+    RadioButton,
+    RadioSet,
+    Static,
+    Tab,
+    Tabs,
+    Tree,
+)
 from textual.worker import get_current_worker
 
-from .fields import DEMO_SWC, TREE_FIELDS, bundled_morphologies
+from .fields import DEMO_SWC, TREE_FIELDS, bundled_morphologies, charging_fields_used
 from .keys import key_label
-from .widgets import CurvePlot, QuantityField, QuantityList, shared_text, waiting_message
+from .tree_fields import PANELS, TIME_FIELDS, TREE_STIMULUS_GROUP
+from .widgets import (
+    CaseChoices,
+    ChoiceSet,
+    CurvePlot,
+    QuantityField,
+    QuantityList,
+    shared_text,
+    stimulus_form,
+    waiting_message,
+)
 
 if TYPE_CHECKING:  # pragma: no cover
     from textual.timer import Timer
@@ -25,26 +54,34 @@ if TYPE_CHECKING:  # pragma: no cover
     from .format import OutlineNode
     from .forms import TreeSetup
     from .report import Report
+    from .tree_panels import MapSetup, TimeSetup
 
 PREFIX = "tr-"
 BUSY_AFTER = 0.25  # s: a result still on its way after this is announced in the panel's border
 _SPECS = {spec.name: spec for spec in TREE_FIELDS}
+_TIME_SPECS = {spec.name: spec for spec in TIME_FIELDS}
 
 
-class TreeView(Vertical):
-    """Form on the left; the outline of branch points and tips, the verdict and the equivalent cable on the right.
+class TreeView(CaseChoices, Vertical):
+    """Form on the left; on the right one of three panels: the audit (outline of branch points and
+    tips, verdict, equivalent cable), the time course at chosen points, the electrotonic map.
 
-    Reading and auditing run in a worker thread (large trees take a moment).
+    Reading, auditing and solving run in worker threads (large trees take a moment).
     """
 
+    case_prefix = PREFIX
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("ctrl+r", "run", "audit again"),
         Binding("f6,b", "worst_branch_point", "worst branch point"),
         Binding("f7,t", "worst_tip", "worst tip"),
+        Binding("f8", "next_panel", "next panel"),
+        Binding("ctrl+n", "next_stimulus", "next stimulus"),
     ]
 
-    report: Report | None = None
     wanted: TreeSetup | None = None  # the set-up the form holds now; a result of another is stale
+    wanted_time: TimeSetup | None = None
+    wanted_map: MapSetup | None = None
+    panel = "audit"  # the output panel shown (a key of tree_fields.PANELS)
     worst: tuple[str | None, str | None] = (None, None)  # outline keys of the worst branch point and tip
     open_title = "Open a morphology (.swc, or a tree outline .outline)"
 
@@ -61,6 +98,14 @@ class TreeView(Vertical):
         self._outline_texts: list[str] = []  # the text of each outline line shown, root first
         self._flagged: dict[str, tuple[str, str | None]] = {}  # field -> (text, message) it shows
         self._busy_timer: Timer | None = None
+        self._reports: dict[str, Report | None] = dict.fromkeys(PANELS)
+        self._map_rows: list[list[object]] = []  # the map table's rows as values (for sorting)
+        self._map_sort: tuple[int, bool] = (-1, False)  # (column, descending); -1: the tree's order
+
+    @property
+    def report(self) -> Report | None:
+        """The result of the panel shown (what ctrl+s saves)."""
+        return self._reports[self.panel]
 
     @property
     def open_folder(self) -> Path:
@@ -92,11 +137,66 @@ class TreeView(Vertical):
                              f"{key_label('f6,b')} worst branch point, {key_label('f7,t')} worst tip.\n"
                              "✓ within tolerance · ✗ outside · ratio = Σd_child^3/2 / d_parent^3/2 · "
                              "X = electrotonic distance from the input site", classes="hint")
+                yield Static(f"time course  ({key_label('f8')}: next panel)", classes="form-title tree-group")
+                yield from stimulus_form(PREFIX, _TIME_SPECS, TREE_STIMULUS_GROUP)
+                for name in ("stimulus_at", "record_at", "span"):
+                    yield QuantityField(_TIME_SPECS[name], prefix=PREFIX)
+                yield Checkbox("beside its reduction (input at the soma)", id=f"{PREFIX}reduced", compact=True)
+                yield Static("electrotonic map", classes="form-title tree-group")
+                yield QuantityField(_TIME_SPECS["frequency"], prefix=PREFIX)
+                yield Static("points: SWC ids or outline names, 'soma' for the root; lists: 'soma, 412, 977'.\n"
+                             "÷ = attenuation (a ratio ≥ 1); delays are centroid delays", classes="hint")
             with Vertical(classes="output"):
-                with Horizontal(classes="tree-top"):
-                    yield Tree("no tree yet", id="tree-outline")
-                    yield QuantityList(id="tree-results")
-                yield CurvePlot(id="tree-plot")
+                yield Tabs(*(Tab(title, id=f"panel-{key}") for key, title in PANELS.items()), id="tree-panels")
+                with ContentSwitcher(initial="tree-audit", id="tree-panel-switch"):
+                    with Vertical(id="tree-audit"):
+                        with Horizontal(classes="tree-top"):
+                            yield Tree("no tree yet", id="tree-outline")
+                            yield QuantityList(id="tree-results")
+                        yield CurvePlot(id="tree-plot")
+                    with Vertical(id="tree-time"):
+                        with Horizontal(classes="tree-top"):
+                            yield QuantityList(id="tree-time-results")
+                            yield Static("", id="tree-time-features")
+                        yield CurvePlot(id="tree-time-plot")
+                    with Vertical(id="tree-map"):
+                        yield QuantityList(id="tree-map-results")
+                        yield DataTable(id="tree-map-table", cursor_type="row", zebra_stripes=True)
+                        yield MapDrawing(id="tree-map-drawing")
+
+    def on_mount(self) -> None:
+        self._show_stimulus_fields()
+
+    def _show_stimulus_fields(self) -> None:
+        used = charging_fields_used("cylinder", self.stimulus_choice)
+        for name in TREE_STIMULUS_GROUP:
+            self.query_one(f"#field-{PREFIX}{name}", QuantityField).display = name in used
+
+    # -- panels ------------------------------------------------------------------------------------
+    def show_panel(self, panel: str) -> None:
+        """Show one output panel ('audit', 'time' or 'map') and bring its result up to date."""
+        if panel not in PANELS:
+            raise ValueError(f"unknown panel {panel!r}")
+        tabs = self.query_one("#tree-panels", Tabs)
+        if tabs.active != f"panel-{panel}":
+            tabs.active = f"panel-{panel}"  # its TabActivated message comes back to _switch
+        self._switch(panel)
+
+    def _switch(self, panel: str) -> None:
+        if panel == self.panel:
+            return
+        self.panel = panel
+        self.query_one("#tree-panel-switch", ContentSwitcher).current = f"tree-{panel}"
+        if self.loaded:
+            self.refresh_results()
+
+    def on_tabs_tab_activated(self, event: Tabs.TabActivated) -> None:
+        event.stop()
+        self._switch((event.tab.id or "panel-audit").removeprefix("panel-"))
+
+    def action_next_panel(self) -> None:
+        keys = list(PANELS)
+        self.show_panel(keys[(keys.index(self.panel) + 1) % len(keys)])
 
     # -- opening -----------------------------------------------------------------------------------
     def activate(self) -> None:
@@ -123,11 +223,19 @@ class TreeView(Vertical):
         if event.input.id == f"{PREFIX}file":
             if event.value != self.opened:
                 self.query_one(f"#field-{PREFIX}file", QuantityField).flag(None)
+                self._flagged.pop("file", None)
             return  # a path is opened with enter, not at every keystroke
         if self.loaded and self.app.current_view == self.id:  # type: ignore[attr-defined]
             self.refresh_results()
 
     def on_radio_set_changed(self, event: RadioSet.Changed) -> None:
+        event.stop()
+        if isinstance(event.radio_set, ChoiceSet):
+            self._show_stimulus_fields()
+        if self.loaded:
+            self.refresh_results()
+
+    def on_checkbox_changed(self, event: Checkbox.Changed) -> None:
         event.stop()
         if self.loaded:
             self.refresh_results()
@@ -163,24 +271,86 @@ class TreeView(Vertical):
         return "killed" if pressed is not None and pressed.id == "tips-killed" else "sealed"
 
     def refresh_results(self, again: bool = False) -> None:
+        """Check the form at once; hand the panel shown a worker if its inputs changed (the file is
+        read first if it is not read yet; the other panels catch up when shown)."""
         from .forms import read_tree_form
 
-        fields = {f.spec.name: f for f in self.query(QuantityField)}
+        fields = {f.spec.name: f for f in self.query(QuantityField) if f.spec.name in _SPECS}
         setup, errors = read_tree_form({n: f.input.value for n, f in fields.items()}, self.tips_choice)
-        if setup is not None and setup == self.wanted and not again:
-            return
-        self.wanted = setup
         for name, field in fields.items():
             if name != "file" or name in errors or not again:
                 self._flag(field, errors.get(name))
         if setup is None:
-            self.workers.cancel_group(self, "audit")
+            self.wanted = self.wanted_time = self.wanted_map = None
+            for group in ("audit", "time", "map"):
+                self.workers.cancel_group(self, group)
             self._clear(waiting_message(errors))
             return
         cached = self._tree_cache
         tree = cached[1] if cached is not None and cached[0] == _file_key(setup.path) else None
-        self._busy(True, reading=tree is None)
-        self.audit(setup, tree)
+        if tree is None or self.panel == "audit":
+            if setup != self.wanted or again:
+                self.wanted = setup
+                self._busy(True, reading=tree is None)
+                self.audit(setup, tree)
+            if tree is None:
+                return  # the other panels follow once the file is read
+        if self.panel != "audit" and cached is not None:
+            self._refresh_panel(setup, cached, again)
+
+    def _panel_texts(self) -> dict[str, str]:
+        return {f.spec.name: f.input.value for f in self.query(QuantityField) if f.spec.name in _TIME_SPECS}
+
+    def _refresh_panel(self, setup: TreeSetup, cached: tuple[tuple[str, int, int], Morphology],
+                       again: bool = False) -> None:
+        """Read the time-course or map fields against the tree read, and start their worker."""
+        from .tree_panels import read_map_form, read_time_form
+
+        key, tree = cached
+        texts = self._panel_texts()
+        fields = {f.spec.name: f for f in self.query(QuantityField) if f.spec.name in _TIME_SPECS}
+        if self.panel == "time":
+            reduced = self.query_one(f"#{PREFIX}reduced", Checkbox).value
+            wanted, errors = read_time_form(texts, self.stimulus_choice, tree, setup, key, reduced)
+            for name in ("stimulus_at", "record_at", "span", *TREE_STIMULUS_GROUP):
+                self._flag(fields[name], errors.get(name))
+            results = self.query_one("#tree-time-results", QuantityList)
+            if wanted is None:
+                self.wanted_time = None
+                self.workers.cancel_group(self, "time")
+                self._reports["time"] = None
+                results.update(waiting_message(errors))
+                self.query_one("#tree-time-features", Static).update("")
+                self.query_one("#tree-time-plot", CurvePlot).spec = None
+                return
+            if wanted != self.wanted_time or again:
+                self.wanted_time = wanted
+                self._announce(results, "solving…")
+                self.time_course(wanted)
+            return
+        wanted_map, errors = read_map_form(texts, setup, key)
+        self._flag(fields["frequency"], errors.get("frequency"))
+        results = self.query_one("#tree-map-results", QuantityList)
+        if wanted_map is None:
+            self.wanted_map = None
+            self.workers.cancel_group(self, "map")
+            self._reports["map"] = None
+            results.update(waiting_message(errors))
+            return
+        if wanted_map != self.wanted_map or again:
+            self.wanted_map = wanted_map
+            self._announce(results, "mapping…")
+            self.electrotonic(wanted_map, tree)
+
+    def _announce(self, panel: QuantityList, what: str) -> None:
+        """Say in the panel's border that a result is on its way, unless it comes within BUSY_AFTER."""
+        if self._busy_timer is not None:
+            self._busy_timer.stop()
+
+        def say() -> None:
+            panel.border_subtitle = what
+
+        self._busy_timer = self.set_timer(BUSY_AFTER, say)
 
     def _flag(self, field: QuantityField, message: str | None) -> None:
         """Flag a field or say how it reads, unless it already says so for the same text (each
@@ -192,10 +362,15 @@ class TreeView(Vertical):
 
     def _clear(self, message: str) -> None:
         self._busy(False)
-        self.report = None
+        self._reports = dict.fromkeys(PANELS)
         self.worst = (None, None)
-        self.query_one("#tree-results", QuantityList).update(message)
-        self.query_one(CurvePlot).spec = None
+        for results in ("#tree-results", "#tree-time-results", "#tree-map-results"):
+            self.query_one(results, QuantityList).update(message)
+        for plot in self.query(CurvePlot):
+            plot.spec = None
+        self.query_one("#tree-time-features", Static).update("")
+        self.query_one("#tree-map-table", DataTable).clear(columns=True)
+        self.query_one(MapDrawing).data = None
         outline = self.query_one("#tree-outline", Tree)
         outline.clear()
         outline.root.set_label("no tree")
@@ -244,16 +419,162 @@ class TreeView(Vertical):
             self._tree_cache = None
             self.opened = self.query_one(f"#{PREFIX}file", Input).value
             self.query_one(f"#field-{PREFIX}file", QuantityField).flag(result)
+            self._flagged.pop("file", None)
             self._clear("The file could not be read; see the message under the file field.")
             return
         report, outline, self.worst, key, tree = result
         self._tree_cache = (key, tree)
         self.opened = self.query_one(f"#{PREFIX}file", Input).value
         self.query_one(f"#field-{PREFIX}file", QuantityField).flag(None)
-        self.report = report
+        self._flagged.pop("file", None)
+        self._reports["audit"] = report
         self.query_one("#tree-results", QuantityList).show(report.results, report.notes[:3])
-        self.query_one(CurvePlot).spec = report.plots[0]
+        self.query_one("#tree-plot", CurvePlot).spec = report.plots[0]
         self._fill_outline(outline)
+        if self.panel != "audit":
+            self._refresh_panel(setup, self._tree_cache)
+
+    @work(exclusive=True, thread=True, group="time")
+    def time_course(self, setup: TimeSetup) -> None:
+        """The exact time course first (shown at once), then its features, then the reduction's
+        response when asked (each shown when it comes, while the set-up is still the one wanted)."""
+        from ..errors import CableTheoryError
+        from ..tree_time import reduction_cost, tree_response
+        from .tree_panels import TOLERANCE, features, time_report
+
+        worker = get_current_worker()
+        case = setup.case
+        try:
+            response = tree_response(case.cell, case.stimulus, setup.times, case.stimulus_site, case.sites,
+                                     tolerance=TOLERANCE)
+            shown: Report | str = time_report(setup, response)
+        except CableTheoryError as exc:
+            shown = str(exc)
+        if worker.is_cancelled:
+            return
+        self.app.call_from_thread(self._show_time, setup, shown, False)
+        if isinstance(shown, str):
+            return
+        try:
+            found = features(setup)
+        except CableTheoryError:
+            found = None
+        cost: object = None
+        if setup.reduced and not worker.is_cancelled:
+            try:
+                cost = reduction_cost(case.cell, case.stimulus, setup.times, tolerance=TOLERANCE)
+            except CableTheoryError as exc:
+                cost = f"no reduction shown: {exc}"
+        if not worker.is_cancelled:
+            report = time_report(setup, response, found, cost)  # type: ignore[arg-type]
+            self.app.call_from_thread(self._show_time, setup, report, True)
+
+    def _show_time(self, setup: TimeSetup, report: Report | str, complete: bool) -> None:
+        if setup != self.wanted_time:
+            return
+        from .tree_panels import features_lines
+
+        results = self.query_one("#tree-time-results", QuantityList)
+        if complete or isinstance(report, str):
+            self._stop_announcing(results)
+        features = self.query_one("#tree-time-features", Static)
+        if isinstance(report, str):
+            self._reports["time"] = None
+            results.update(report)
+            features.update("")
+            self.query_one("#tree-time-plot", CurvePlot).spec = None
+            return
+        self._reports["time"] = report
+        results.show([r for r in report.results if r.key != "method"], report.notes[:2])  # saved, not shown
+        lines = features_lines(report)
+        if lines:
+            text = Text(lines[0] + "\n", style="bold #9aa5b1")
+            text.append("\n".join(lines[1:]))
+            features.update(text)
+        elif not complete:
+            features.update(Text("features: computing…", style="dim"))
+        self.query_one("#tree-time-plot", CurvePlot).spec = report.plots[0]
+
+    def _stop_announcing(self, panel: QuantityList) -> None:
+        if self._busy_timer is not None:
+            self._busy_timer.stop()
+            self._busy_timer = None
+        panel.border_subtitle = ""
+
+    @work(exclusive=True, thread=True, group="map")
+    def electrotonic(self, setup: MapSetup, tree: Morphology) -> None:
+        from ..errors import CableTheoryError
+        from .tree_panels import compute_map, map_report
+
+        worker = get_current_worker()
+        try:
+            emap = compute_map(tree, setup)
+            result: tuple[Report, Morphology, object] | str = (map_report(tree, setup, emap), tree,
+                                                               emap.attenuation_to_root)
+        except CableTheoryError as exc:
+            result = str(exc)
+        if not worker.is_cancelled:
+            self.app.call_from_thread(self._show_map, setup, result)
+
+    def _show_map(self, setup: MapSetup, result: tuple[Report, Morphology, object] | str) -> None:
+        if setup != self.wanted_map:
+            return
+        results = self.query_one("#tree-map-results", QuantityList)
+        self._stop_announcing(results)
+        table = self.query_one("#tree-map-table", DataTable)
+        if isinstance(result, str):
+            self._reports["map"] = None
+            results.update(result)
+            table.clear(columns=True)
+            self.query_one(MapDrawing).data = None
+            return
+        report, tree, values = result
+        self._reports["map"] = report
+        results.show(report.results)
+        self._fill_map_table(report)
+        self.query_one(MapDrawing).data = (tree, values)
+
+    def _fill_map_table(self, report: Report) -> None:
+        from .report import cell_text
+
+        columns = report.tables[0].columns
+        table = self.query_one("#tree-map-table", DataTable)
+        if [str(c.label) for c in table.columns.values()] != [c.label for c in columns]:
+            table.clear(columns=True)
+            table.add_columns(*(c.label for c in columns))
+        self._map_rows = [[c.values[i] for c in columns] for i in range(report.tables[0].length)]
+        self._map_cells = [[cell_text(c.values[i], c.kind) for c in columns] for i in range(report.tables[0].length)]
+        self._order_map_table()
+
+    def _order_map_table(self) -> None:
+        """Fill the table in the order chosen: the tree's (parents first), or by a column clicked."""
+        table = self.query_one("#tree-map-table", DataTable)
+        column, descending = self._map_sort
+        order = list(range(len(self._map_rows)))
+        if column >= 0:
+            def key(i: int) -> tuple[int, object]:
+                value = self._map_rows[i][column]
+                if isinstance(value, str):
+                    return (0, value)
+                number = float(value)  # type: ignore[arg-type]
+                return (1 if number != number else 0, number)  # nan last
+
+            order.sort(key=key, reverse=descending)
+        table.clear()
+        table.add_rows([self._map_cells[i] for i in order])
+
+    def on_data_table_header_selected(self, event: DataTable.HeaderSelected) -> None:
+        """A click on a column's header orders the map by it (largest first); again: smallest first;
+        a third time: the tree's order."""
+        event.stop()
+        column, descending = self._map_sort
+        if event.column_index != column:
+            self._map_sort = (event.column_index, True)
+        elif descending:
+            self._map_sort = (column, False)
+        else:
+            self._map_sort = (-1, False)
+        self._order_map_table()
 
     def _fill_outline(self, outline: list[OutlineNode]) -> None:
         widget = self.query_one("#tree-outline", Tree)
@@ -287,6 +608,36 @@ class TreeView(Vertical):
 
 
 Shown = tuple["Report", "list[OutlineNode]", tuple[str | None, str | None], tuple[str, int, int], "Morphology"]
+
+
+class MapDrawing(Widget):
+    """The tree drawn as a dendrogram whose branches are coloured by their attenuation to the soma
+    (:func:`cabletheory.tui.tree_panels.dendrogram`), with the colour key beneath."""
+
+    data: reactive[tuple[object, object] | None] = reactive(None, layout=False)
+
+    def watch_data(self, data: tuple[object, object] | None) -> None:
+        self.border_title = "attenuation to the soma" if data is not None else ""
+        self.border_subtitle = "soma at left · path distance across · one row per tip" if data is not None else ""
+
+    def render(self) -> Text:
+        width, height = self.content_size.width, self.content_size.height
+        if self.data is None or width < 12 or height < 3:
+            return Text("no map yet", style="dim")
+        from .tree_panels import MAP_COLOURS, bin_labels, dendrogram
+
+        tree, values = self.data
+        rows, owners = dendrogram(tree, values, width, height - 1)  # type: ignore[arg-type]
+        out = Text(no_wrap=True, overflow="crop")
+        for line, owner in zip(rows, owners, strict=True):
+            for char, colour in zip(line, owner, strict=True):
+                out.append(char, style=MAP_COLOURS[colour] if colour >= 0 else "")
+            out.append("\n")
+        out.append("÷ ", style="bold")
+        for colour, label in zip(MAP_COLOURS, bin_labels(), strict=True):
+            out.append("━━ ", style=colour)
+            out.append(f"{label}  ")
+        return out
 
 
 def _file_key(path: Path) -> tuple[str, int, int]:

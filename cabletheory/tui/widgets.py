@@ -247,9 +247,15 @@ def case_form(prefix: str, specs: Mapping[str, FieldSpec], values: Mapping[str, 
     yield ChoiceSet(MODEL_CHOICES, "cylinder", id=f"{prefix}model")
     for name in CABLE_GROUP:
         yield QuantityField(specs[name], prefix=prefix, value=values.get(name))
+    yield from stimulus_form(prefix, specs)
+
+
+def stimulus_form(prefix: str, specs: Mapping[str, FieldSpec], names: Sequence[str] = STIMULUS_GROUP) -> ComposeResult:
+    """The stimulus part of a form: the stimulus choice and the fields ``names`` (the tree view
+    composes it without the stimulus position, which is a point label on a tree)."""
     yield Label(f"stimulus  ({key_label('ctrl+n')} cycles)", classes="group-label")
     yield ChoiceSet(STIMULUS_CHOICES, "step", id=f"{prefix}stimulus")
-    for name in STIMULUS_GROUP:
+    for name in names:
         yield QuantityField(specs[name], prefix=prefix)
 
 
