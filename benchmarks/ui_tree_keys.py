@@ -32,6 +32,20 @@ TYPED: tuple[tuple[str, str, tuple[str, ...]], ...] = (
 )
 
 
+async def _idle(app, pilot) -> None:  # type: ignore[no-untyped-def]
+    """Let every worker finish (a worker replaced by a newer one ends cancelled)."""
+    from textual.worker import WorkerCancelled
+
+    await pilot.pause()
+    for _ in range(3):
+        try:
+            await app.workers.wait_for_complete()
+            break
+        except WorkerCancelled:
+            await pilot.pause()
+    await pilot.pause()
+
+
 async def _measure(repeats: int) -> dict[str, list[float]]:
     from textual.widgets import Input
 
@@ -54,6 +68,7 @@ async def _measure(repeats: int) -> dict[str, list[float]]:
         view = app.query_one("#tree")
         while view.report is None:
             await pilot.pause(0.01)
+        await _idle(app, pilot)
         for panel, field, texts in TYPED:
             if not app.query(f"#{field}"):
                 continue  # a panel this version of the view does not have
@@ -62,14 +77,13 @@ async def _measure(repeats: int) -> dict[str, list[float]]:
                 continue
             if show is not None:
                 show(panel)
+                await _idle(app, pilot)
             times = out.setdefault(f"{panel}: {field}", [])
             for _ in range(repeats):
                 for text in texts:
                     box = app.query_one(f"#{field}", Input)
                     box.value = text[:-1]
-                    await pilot.pause()
-                    await app.workers.wait_for_complete()
-                    await pilot.pause()
+                    await _idle(app, pilot)
                     shown = view.report
                     box.focus()
                     await pilot.press("end")  # a focused field selects its text; typing would replace it
@@ -91,7 +105,7 @@ async def _measure(repeats: int) -> dict[str, list[float]]:
     return out
 
 
-def keystroke_times(repeats: int = 2) -> dict[str, list[tuple[float, float]]]:
+def keystroke_times(repeats: int = 1) -> dict[str, list[tuple[float, float]]]:
     """Seconds from each timed keystroke to the new result on screen, by 'panel: field': pairs of
     (wall-clock time, CPU time the process spent meanwhile, worker threads included). On a loaded
     machine the wall time includes waiting for a core; the CPU time does not."""
@@ -110,7 +124,7 @@ def p90(values: list[float]) -> float:
 def main() -> int:
     import os
 
-    repeats = int(sys.argv[1]) if len(sys.argv) > 1 else 2
+    repeats = int(sys.argv[1]) if len(sys.argv) > 1 else 1
     result = keystroke_times(repeats)
     print(f"tree view, bundled {SWC} (headless, 120 × 36): keystroke -> new result on screen")
     print(f"  load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores; wall clock, and CPU time of the process")

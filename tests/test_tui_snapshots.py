@@ -89,6 +89,35 @@ def test_tree_view_failing_morphology(snap_compare):
     assert snap_compare(CableApp(view="tree", swc=swc), terminal_size=SIZE, run_before=steady)
 
 
+def test_tree_view_time_course_panel(snap_compare):
+    """F8 on the bundled demo outline: an alpha current at tip left.a, V(t) at the soma and at the tip,
+    the error estimate and the response's features."""
+    from cabletheory.tui.fields import bundled_morphologies
+
+    async def alpha_at_tip(pilot) -> None:
+        await steady(pilot)
+        await pilot.press("f8", "ctrl+n", "ctrl+n")
+        pilot.app.query_one("#tr-stimulus_at", Input).value = "left.a"
+        await steady(pilot)
+        await steady(pilot)
+
+    swc = str(bundled_morphologies() / "lumenia_demo.outline")
+    assert snap_compare(CableApp(view="tree", swc=swc), terminal_size=SIZE, run_before=alpha_at_tip)
+
+
+def test_tree_view_electrotonic_map_panel(snap_compare):
+    """F8 twice on the bundled demo outline: the map's table (soma row 1) and the coloured dendrogram."""
+    from cabletheory.tui.fields import bundled_morphologies
+
+    async def to_map(pilot) -> None:
+        await steady(pilot)
+        await pilot.press("f8", "f8")
+        await steady(pilot)
+
+    swc = str(bundled_morphologies() / "lumenia_demo.outline")
+    assert snap_compare(CableApp(view="tree", swc=swc), terminal_size=SIZE, run_before=to_map)
+
+
 def test_check_view_coarse_run(snap_compare):
     """F5 with the coarse simulator run of worked/simulator_check: flagged, worst point, error over time."""
     from pathlib import Path

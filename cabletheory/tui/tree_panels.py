@@ -165,9 +165,9 @@ def time_report(setup: TimeSetup, response: TreeResponse, found: Sequence[Respon
         Row("truncation", "truncation (share of the reference voltage)", response.tolerance, "dimensionless"),
     ]
     results = [
-        Row("membrane_time_constant", "τm  membrane time constant", case.membrane_time_constant, "time"),
+        Row("membrane_time_constant", "τm = Rm·Cm", case.membrane_time_constant, "time"),
         Row("reference_voltage", "reference voltage", response.reference_voltage, "voltage"),
-        Row("error_bound", "error estimate of every value", response.error_bound, "voltage"),
+        Row("error_bound", "error of each V ≤", response.error_bound, "voltage"),
     ]
     if response.steady_state is not None:
         results += [Row(f"final_voltage_{j + 1}", f"final V at {name}", float(v), "voltage")
@@ -184,12 +184,12 @@ def time_report(setup: TimeSetup, response: TreeResponse, found: Sequence[Respon
     if found is not None:
         held = case.shape in ("step", "clamp")
         tables.append(Table("features", "Response features", (
-            Column("point", "point", names),
+            Column("point", "point", [n.removeprefix("point ") for n in names]),
             Column("peak", "final V" if held else "peak", [f.peak for f in found], "voltage"),
             Column("time_to_peak", "time to peak", [f.time_to_peak for f in found], "time"),
             Column("rise_time", "10–90 % rise", [f.rise_time for f in found], "time"),
             Column("half_width", "half-width", [f.half_width for f in found], "time"),
-            Column("attenuation", "share of site's peak", [f.attenuation for f in found], "dimensionless"))))
+            Column("attenuation", "relative peak", [f.attenuation for f in found], "dimensionless"))))
     if isinstance(cost, str):
         notes.append(cost)
     elif cost is not None:

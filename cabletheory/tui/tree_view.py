@@ -15,7 +15,6 @@ from textual import work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
-from textual.reactive import reactive
 from textual.widget import Widget
 from textual.widgets import (
     Checkbox,
@@ -318,6 +317,7 @@ class TreeView(CaseChoices, Vertical):
             if wanted is None:
                 self.wanted_time = None
                 self.workers.cancel_group(self, "time")
+                self._stop_announcing(results)
                 self._reports["time"] = None
                 results.update(waiting_message(errors))
                 self.query_one("#tree-time-features", Static).update("")
@@ -334,6 +334,7 @@ class TreeView(CaseChoices, Vertical):
         if wanted_map is None:
             self.wanted_map = None
             self.workers.cancel_group(self, "map")
+            self._stop_announcing(results)
             self._reports["map"] = None
             results.update(waiting_message(errors))
             return
@@ -370,7 +371,7 @@ class TreeView(CaseChoices, Vertical):
             plot.spec = None
         self.query_one("#tree-time-features", Static).update("")
         self.query_one("#tree-map-table", DataTable).clear(columns=True)
-        self.query_one(MapDrawing).data = None
+        self.query_one(MapDrawing).show(None)
         outline = self.query_one("#tree-outline", Tree)
         outline.clear()
         outline.root.set_label("no tree")
@@ -488,7 +489,7 @@ class TreeView(CaseChoices, Vertical):
         results.show([r for r in report.results if r.key != "method"], report.notes[:2])  # saved, not shown
         lines = features_lines(report)
         if lines:
-            text = Text(lines[0] + "\n", style="bold #9aa5b1")
+            text = Text(lines[0] + "\n", style="bold #9aa5b1", no_wrap=True, overflow="crop")
             text.append("\n".join(lines[1:]))
             features.update(text)
         elif not complete:
@@ -526,13 +527,13 @@ class TreeView(CaseChoices, Vertical):
             self._reports["map"] = None
             results.update(result)
             table.clear(columns=True)
-            self.query_one(MapDrawing).data = None
+            self.query_one(MapDrawing).show(None)
             return
         report, tree, values = result
         self._reports["map"] = report
         results.show(report.results)
         self._fill_map_table(report)
-        self.query_one(MapDrawing).data = (tree, values)
+        self.query_one(MapDrawing).show((tree, values))
 
     def _fill_map_table(self, report: Report) -> None:
         from .report import cell_text
@@ -614,11 +615,13 @@ class MapDrawing(Widget):
     """The tree drawn as a dendrogram whose branches are coloured by their attenuation to the soma
     (:func:`cabletheory.tui.tree_panels.dendrogram`), with the colour key beneath."""
 
-    data: reactive[tuple[object, object] | None] = reactive(None, layout=False)
+    data: tuple[object, object] | None = None  # (the tree, attenuation to the soma at each node)
 
-    def watch_data(self, data: tuple[object, object] | None) -> None:
+    def show(self, data: tuple[object, object] | None) -> None:
+        self.data = data
         self.border_title = "attenuation to the soma" if data is not None else ""
         self.border_subtitle = "soma at left · path distance across · one row per tip" if data is not None else ""
+        self.refresh()
 
     def render(self) -> Text:
         width, height = self.content_size.width, self.content_size.height
