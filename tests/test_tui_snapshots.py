@@ -90,13 +90,13 @@ def test_tree_view_failing_morphology(snap_compare):
 
 
 def test_tree_view_time_course_panel(snap_compare):
-    """F8 on the bundled demo outline: an alpha current at tip left.a, V(t) at the soma and at the tip,
+    """ctrl+p on the bundled demo outline: an alpha current at tip left.a, V(t) at the soma and at the tip,
     the error estimate and the response's features."""
     from cabletheory.tui.fields import bundled_morphologies
 
     async def alpha_at_tip(pilot) -> None:
         await steady(pilot)
-        await pilot.press("f8", "ctrl+n", "ctrl+n")
+        await pilot.press("ctrl+p", "ctrl+n", "ctrl+n")
         pilot.app.query_one("#tr-stimulus_at", Input).value = "left.a"
         await steady(pilot)
         await steady(pilot)
@@ -106,12 +106,12 @@ def test_tree_view_time_course_panel(snap_compare):
 
 
 def test_tree_view_electrotonic_map_panel(snap_compare):
-    """F8 twice on the bundled demo outline: the map's table (soma row 1) and the coloured dendrogram."""
+    """ctrl+p twice on the bundled demo outline: the map's table (soma row 1) and the coloured dendrogram."""
     from cabletheory.tui.fields import bundled_morphologies
 
     async def to_map(pilot) -> None:
         await steady(pilot)
-        await pilot.press("f8", "f8")
+        await pilot.press("ctrl+p", "ctrl+p")
         await steady(pilot)
 
     swc = str(bundled_morphologies() / "lumenia_demo.outline")

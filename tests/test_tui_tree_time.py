@@ -200,7 +200,7 @@ def test_the_map_table_has_attenuation_one_at_the_soma_and_follows_the_frequency
 
     async def script(app, pilot) -> None:
         view = app.query_one("#tree")
-        await pilot.press("f8", "f8")  # audit -> time course -> map
+        await pilot.press("ctrl+p", "ctrl+p")  # audit -> time course -> map
         await settle(app, pilot)
         seen["panel"] = view.panel
         seen["steady"] = view.report

@@ -48,7 +48,7 @@ VIEW_KEYS: dict[str, tuple[Key, ...]] = {
     "tree": (Key("ctrl+r", "run", "audit the tree again with the current membrane values"),
              Key("f6,b", "worst_branch_point", "jump to the branch point furthest from the 3/2 rule"),
              Key("f7,t", "worst_tip", "jump to the tip furthest from the others' X"),
-             Key("f8", "next_panel", "next panel: audit, time course, electrotonic map"),
+             Key("ctrl+p", "next_panel", "next panel: audit, time course, electrotonic map"),
              Key("ctrl+n", "next_stimulus", "next stimulus of the time course")),
     "check": (Key("ctrl+l", "next_model", "next model"),
               Key("ctrl+n", "next_stimulus", "next stimulus"),

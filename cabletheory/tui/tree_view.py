@@ -73,7 +73,7 @@ class TreeView(CaseChoices, Vertical):
         Binding("ctrl+r", "run", "audit again"),
         Binding("f6,b", "worst_branch_point", "worst branch point"),
         Binding("f7,t", "worst_tip", "worst tip"),
-        Binding("f8", "next_panel", "next panel"),
+        Binding("ctrl+p", "next_panel", "next panel"),
         Binding("ctrl+n", "next_stimulus", "next stimulus"),
     ]
 
@@ -136,7 +136,7 @@ class TreeView(CaseChoices, Vertical):
                              f"{key_label('f6,b')} worst branch point, {key_label('f7,t')} worst tip.\n"
                              "✓ within tolerance · ✗ outside · ratio = Σd_child^3/2 / d_parent^3/2 · "
                              "X = electrotonic distance from the input site", classes="hint")
-                yield Static(f"time course  ({key_label('f8')}: next panel)", classes="form-title tree-group")
+                yield Static(f"time course  ({key_label('ctrl+p')}: next panel)", classes="form-title tree-group")
                 yield from stimulus_form(PREFIX, _TIME_SPECS, TREE_STIMULUS_GROUP)
                 for name in ("stimulus_at", "record_at", "span"):
                     yield QuantityField(_TIME_SPECS[name], prefix=PREFIX)
