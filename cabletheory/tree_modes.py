@@ -6,10 +6,13 @@ piece, the number of its own rates with both ends held at rest,
 :math:`\#\{n \ge 1: (1 + (n\pi/L)^2)/\tau < \lambda\}` for a cylinder (Wittrick & Williams 1971
 [WittrickWilliams1971], recalled from memory [MEM]). Frusta, whose held rates have no closed form,
 are first cut short enough that they have none below the largest rate counted (a Rayleigh bound).
-Bisection on that integer count brackets every rate, repeated ones included, with no poles to step
-over; a rate is seen at the root (soma) when the root admittance vanishes there, and its residue,
-hence the coefficient of a current step at the soma, follows from the admittance's slope (a
-complex step, Squire & Trapp 1998 [SquireTrapp1998]).
+That integer count brackets every rate, repeated ones included, with no poles to step over; the
+points counted are chosen by Newton's method on the pole-free product of the pivots and the held
+determinants (on trees of cylinders), with bisection as the fallback, so a bracket closes in a few
+counts but is only ever moved by the count (:func:`_bisect_rates`). A rate is seen at the root
+(soma) when the root admittance vanishes there, and its residue, hence the coefficient of a current
+step at the soma, follows from the admittance's slope (a complex step, Squire & Trapp 1998
+[SquireTrapp1998]).
 
 The model is passive, linear and uniform within each piece (:data:`cabletheory.PASSIVE_CAVEAT`).
 
