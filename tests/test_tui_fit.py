@@ -335,3 +335,27 @@ def test_a_recording_opened_with_the_app_is_fitted_at_once_and_a_missing_current
         assert app.query_one("#fit").report is None
 
     drive(script, view="fit", recording=str(CELL), morphology=str(PV7))
+
+
+def test_an_nwb_recording_brings_its_step_when_the_current_and_onset_are_blank(tmp_path):
+    """An NWB file written by pynwb (Rübel et al. 2022 [Rubel2022]) with its stimulus series: the
+    view fits it with the stored -50 pA step, as the command does (tests/test_trace_nwb.py)."""
+    pytest.importorskip("pynwb")
+    from test_trace_nwb import CURRENT, TRUTH, sweeps_mv, write_nwb
+
+    path = tmp_path / "cell.nwb"
+    write_nwb(path, sweeps_mv()[1])
+    saved = {}
+
+    async def script(app, pilot):
+        await settle(app, pilot)
+        assert app.query_one("#fit").report is not None
+        saved.update(await save_json(app, pilot, tmp_path / "nwb.json"))
+
+    drive(script, view="fit", recording=str(path))
+    assert saved["inputs"]["current"]["value"] == pytest.approx(CURRENT, rel=1e-12)
+    assert saved["inputs"]["onset_detected"] == "no (from the file)"
+    assert any("read from the stimulus series" in n for n in saved["notes"])
+    table = saved["tables"]["parameters"]
+    for name, low, high in zip(table["parameter"], table["low"], table["high"], strict=True):
+        assert low < TRUTH[name] < high, name

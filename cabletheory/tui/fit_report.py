@@ -165,6 +165,7 @@ class FitRun:
     files: tuple[Any, ...]
     result: RecordingFit
     setup: FitSetup  # with the current and onset a file stored, where the form left them blank
+    from_file: tuple[str, ...] = ()  # which of "current" and "onset" came from the file
 
 
 def run_fit(setup: FitSetup) -> FitRun:
@@ -194,7 +195,10 @@ def run_fit(setup: FitSetup) -> FitRun:
         except CableTheoryError as exc:
             raise FileProblem("morphology", str(exc)) from None
     request = complete_request(setup.request, files)  # the step an NWB file stores, where not typed
-    return FitRun(tuple(files), fit_recording(times, sweeps, request, tree), replace(setup, request=request))
+    from_file = tuple(name for name in ("current", "onset")
+                      if getattr(setup.request, name) is None and getattr(request, name) is not None)
+    return FitRun(tuple(files), fit_recording(times, sweeps, request, tree), replace(setup, request=request),
+                  from_file)
 
 
 def fit_outcome(setup: FitSetup) -> tuple[str, Any, str]:
@@ -299,9 +303,11 @@ def fit_report(setup: FitSetup, run: FitRun) -> Report:
         inputs.append(Row("morphology", "morphology", str(setup.morphology)))
     stored = [f.metadata.get("nwb_notes", "") for f in files]
     inputs += [
-        Row("current", "injected current", r.current, "current", shown=None if r.current is not None else "unknown"),
+        Row("current", "injected current" + (" (from the file)" if "current" in run.from_file else ""), r.current,
+            "current", shown=None if r.current is not None else "unknown"),
         Row("onset", "stimulus onset (file's clock)", trace.onset, "time"),
-        Row("onset_detected", "onset found in the trace", "yes" if trace.onset_detected else "no (given)"),
+        Row("onset_detected", "onset found in the trace",
+            "yes" if trace.onset_detected else "no (from the file)" if "onset" in run.from_file else "no (given)"),
         Row("baseline", f"baseline ({trace.baseline_source})", trace.baseline, "voltage"),
         Row("noise", "noise of the mean trace", trace.noise, "voltage"),
         Row("confidence_level", "confidence level", r.level, None, shown=f"{100 * r.level:g} %"),
