@@ -59,11 +59,12 @@ each value is then
 
 with the scale the caller gives (for example the final voltage of a step) as a floor. The times
 are grouped into windows (chosen to minimise the number of evaluations of F); N per window
-starts at the smallest whose model meets the tolerance with C equal to the scale (or to the
-previous window's C), and grows, the window evaluated again, until the estimate meets it or N
-reaches :data:`MAX_NODES`, which the result's notes then say. A transform that is costly to
-evaluate, such as a whole tree's, is evaluated at a few dozen points for any number of times.
-The tree time courses use it.
+starts at the smallest whose model meets the tolerance with C equal to :data:`FIRST_ALLOWANCE`
+times the scale (step-like transforms measure 2 to 8 times, so they need one evaluation per
+window), or to the previous window's C if larger, and grows, the window evaluated again, until
+the estimate meets it or N reaches :data:`MAX_NODES`, which the result's notes then say. A
+transform that is costly to evaluate, such as a whole tree's, is evaluated at a few dozen points
+for any number of times. The tree time courses use it.
 
 Neither estimate is a proof. Both are checked against mpmath [mpmath2023] references at 30-40
 digits (Talbot's method [Talbot1979]) across their ranges in ``tests/test_contour.py``,
@@ -91,7 +92,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from .errors import InputError
 
-__all__ = ["COARSE", "FINE", "MAX_NODES", "MODEL_SAFETY", "ROUNDING_FACTOR", "SAFETY", "STRIDES",
+__all__ = ["COARSE", "FINE", "FIRST_ALLOWANCE", "MAX_NODES", "MODEL_SAFETY", "ROUNDING_FACTOR", "SAFETY", "STRIDES",
            "WINDOW_ROUNDING_FACTOR", "Contour", "Inversion", "coarse_model", "convergence_rate",
            "hyperbolic_contour", "invert", "invert_windowed", "parabolic_contour"]
 
@@ -107,6 +108,7 @@ SAFETY = 2.0  # parabolic: factor on the coarse-fine difference
 MODEL_SAFETY = 20.0  # hyperbolic: factor on the error model times max(measured constant, scale)
 WINDOW_ROUNDING_FACTOR = 8.0  # hyperbolic: ulps allowed per unit of the summed magnitudes
 MAX_NODES = 80  # hyperbolic: most nodes per window
+FIRST_ALLOWANCE = 10.0  # hyperbolic: the constant over the scale that a first node count allows for (steps: 2-8)
 _LEAST_NODES = 6  # hyperbolic: fewest nodes per window
 _CHUNK = 1 << 20  # transform values per call, and times × nodes per temporary array
 
@@ -413,7 +415,7 @@ def invert_windowed(transform: Transform, times: ArrayLike, *, tolerance: float,
     m = None
     most = 0
     evaluations = 0
-    prior = 1.0  # the last window's constant over the scale: the next window starts from it
+    prior = FIRST_ALLOWANCE  # the constant over the scale that a window's first node count allows for
     for window, first_count in (_windows(positive, tolerance) if positive.size else []):
         ratio = float(window[-1] / window[0])
         count = max(first_count, _nodes_needed(ratio, tolerance / prior) or MAX_NODES)
@@ -427,7 +429,7 @@ def invert_windowed(transform: Transform, times: ArrayLike, *, tolerance: float,
             # C belongs to the transform: take the count whose model meets the goal with it
             wanted = _nodes_needed(ratio, goal / heaviest) or MAX_NODES
             count = min(MAX_NODES, max(wanted, count + 1))
-        prior = max(1.0, heaviest / size) if size > 0 else 1.0
+        prior = max(FIRST_ALLOWANCE, heaviest / size) if size > 0 else FIRST_ALLOWANCE
         m = done.values.shape[1]
         estimate = _rounding(done.magnitude, WINDOW_ROUNDING_FACTOR) + MODEL_SAFETY * done.predicted * weight
         for j, tt in enumerate(window.tolist()):
