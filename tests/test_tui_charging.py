@@ -121,9 +121,10 @@ def test_charging_view_exports_csv(tmp_path):
     assert last_time.endswith(",s")
 
 
-def test_charging_view_says_computing_at_once_and_covers_the_plots_only_when_slow(monkeypatch):
-    """A quick result replaces the plots without a loading cover (putting one up and taking it down
-    lays the whole view out twice); a slow one covers the stale plots after COVER_AFTER."""
+def test_charging_view_announces_and_covers_only_a_slow_result(monkeypatch):
+    """A quick result replaces the old one without "computing…" or a loading cover (a word shown
+    and taken away flickers; a cover put up and taken down lays the whole view out twice); a slow
+    one is announced after SAY_AFTER and covers the stale plots after COVER_AFTER."""
     import time
 
     from cabletheory.tui import charging_view
@@ -135,23 +136,25 @@ def test_charging_view_says_computing_at_once_and_covers_the_plots_only_when_slo
         view = app.query_one("#charging")
         results = app.query_one("#charging-results")
         plots = app.query_one("#charging .plots")
+        shown = view.report
         view.refresh_results(again=True)
-        assert results.border_subtitle == "computing…"  # set before the worker is started
-        assert not plots.loading
         await settle(app, pilot)
-        assert results.border_subtitle == ""
+        assert view.report is not shown
+        assert not results.border_subtitle
         assert not plots.loading
 
         quick = formatting.charging_report
+        monkeypatch.setattr(charging_view, "SAY_AFTER", 0.02)
         monkeypatch.setattr(charging_view, "COVER_AFTER", 0.05)
         monkeypatch.setattr(formatting, "charging_report", lambda setup: (time.sleep(0.6), quick(setup))[1])
         view.refresh_results(again=True)
+        assert not results.border_subtitle
         assert not plots.loading
         await pilot.pause(0.3)
-        assert plots.loading
         assert results.border_subtitle == "computing…"
+        assert plots.loading
         await settle(app, pilot)
-        assert results.border_subtitle == ""
+        assert not results.border_subtitle
         assert not plots.loading
         assert view.report is not None
 

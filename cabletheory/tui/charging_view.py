@@ -21,6 +21,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from .report import Report
 
 PREFIX = "ch-"
+SAY_AFTER = 0.1  # s: a result slower than this is announced ("computing…" under the results)
 COVER_AFTER = 0.3  # s: a result slower than this hides the stale plots under a loading cover
 CURVE_GROUP = ("span", "watch", "moments")
 _SPECS = {spec.name: spec for spec in CHARGING_FIELDS}
@@ -42,7 +43,8 @@ class ChargingView(CaseChoices, Vertical):
     report: Report | None = None
     active = False  # the solver first runs when the view is shown
     wanted: ChargingSetup | None = None  # the set-up the form holds now; a result of another is stale
-    _cover: Timer | None = None  # puts the loading cover up if the result is slow
+    _slow_timers: tuple[Timer, ...] = ()  # announce a result that is slow to come
+    _waiting = False  # a result is on its way
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="columns"):
@@ -114,18 +116,30 @@ class ChargingView(CaseChoices, Vertical):
         self.solve(setup)
 
     def _busy(self, busy: bool) -> None:
-        """Say "computing…" at once; cover the plots only if the result takes longer than
-        :data:`COVER_AFTER` (a cover put up and taken down lays the whole view out twice, which
-        costs more than most results)."""
+        """Say "computing…" if the result takes longer than :data:`SAY_AFTER`, and cover the plots
+        if it takes longer than :data:`COVER_AFTER`. Most results come sooner: a word shown and
+        taken away would only flicker and draw the list twice, and a cover put up and taken down
+        lays the whole view out twice, which costs more than most results."""
         results = self.query_one("#charging-results", QuantityList)
-        results.border_subtitle = "computing…" if busy else ""
-        if self._cover is not None:
-            self._cover.stop()
-            self._cover = None
         plots = self.query_one(".plots")
+        for timer in self._slow_timers:
+            timer.stop()
+        self._slow_timers = ()
+        self._waiting = busy
         if busy:
-            self._cover = self.set_timer(COVER_AFTER, lambda: setattr(plots, "loading", True))
-        elif plots.loading:
+            def say() -> None:  # a timer stopped just after it fired still calls: check
+                if self._waiting:
+                    results.border_subtitle = "computing…"
+
+            def cover() -> None:
+                if self._waiting:
+                    plots.loading = True
+
+            self._slow_timers = (self.set_timer(SAY_AFTER, say), self.set_timer(COVER_AFTER, cover))
+            return
+        if results.border_subtitle:
+            results.border_subtitle = ""
+        if plots.loading:
             plots.loading = False
 
     @work(exclusive=True, thread=True, group="solve")
