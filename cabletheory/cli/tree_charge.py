@@ -15,9 +15,8 @@ import io
 import numpy as np
 
 from .. import PASSIVE_CAVEAT
-from ..case import CaseFieldError
 from ..errors import InputError
-from ..inputs import read_end, read_field, read_outline_value
+from ..inputs import read_end, read_outline_value
 from ..output import dump_json, quantity, table
 from ..tree_sites import in_words
 from ..units import format_quantity
@@ -38,20 +37,12 @@ def add_tree_options(parser: argparse.ArgumentParser) -> None:
                             "(default: as the file says, else sealed)")
 
 
-def _labels(text: str | None) -> list[str] | None:
-    if text is None:
-        return None
-    labels = [item.strip() for item in text.split(",")]
-    if not all(labels):
-        raise InputError(f"--positions: empty point label in {text!r}; expected e.g. 'soma, 412, 977'")
-    return labels
-
-
 def read_tree_case(args: argparse.Namespace):  # -> tree_case.TreeCase
     """The tree case of the options (every value checked; messages name the option)."""
+    from ..inputs import TREE_STIMULUS_FIELDS
+    from ..inputs import read_tree_case as read_case_texts
     from ..morphology import read_morphology
     from ..tree import build_tree
-    from ..tree_case import build_tree_case
     from ..tree_laplace import PassiveTree
 
     for field, option in CYLINDER_ONLY.items():
@@ -65,15 +56,9 @@ def read_tree_case(args: argparse.Namespace):  # -> tree_case.TreeCase
     tree = build_tree(read_morphology(args.morphology, read_outline_value))
     tips = read_end(args.tips, "--tips") if args.tips is not None else None
     cell = PassiveTree(tree, rm, ri, cm, tips=tips)
-    values: dict[str, object] = {}
-    for field in ("shape", "current", "voltage", "duration", "time_to_peak"):
-        text = getattr(args, field)
-        if text is not None:
-            values[field] = read_field(field, text, OPTIONS[field])
-    try:
-        return build_tree_case(cell, values, args.stimulus_at, _labels(args.positions))
-    except CaseFieldError as exc:
-        raise InputError(f"{OPTIONS.get(exc.field, exc.field)}: {exc}") from None
+    # the one reader of a tree's stimulus texts, shared with the app (its error names the option)
+    texts = {field: getattr(args, field) for field in TREE_STIMULUS_FIELDS}
+    return read_case_texts(cell, {**texts, "stimulus_at": args.stimulus_at, "positions": args.positions}, OPTIONS)
 
 
 def run_tree(args: argparse.Namespace, times: list[float] | None) -> str:
