@@ -231,6 +231,10 @@ def _run(arguments: list[str], open_app: Callable[..., None] | None = None) -> i
     if getattr(args, "run", None) is None:
         raise InputError(f"no command given; choose one of {', '.join(COMMANDS)} ('cabletheory --help' "
                          "describes them)")
+    for key, value in vars(args).items():
+        # argparse turns '--option=--' into an empty list (it drops the '--'); no option takes that
+        if isinstance(value, list) and not value:
+            raise InputError(f"--{key.replace('_', '-')}: '--' is not a value; give the option its value")
     args.open_app = open_app
     _check_outputs(args)
     limit = getattr(args, "max_file_size", None)
