@@ -37,7 +37,8 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..tree_time import ElectrotonicMap, ReductionCost, TreeResponse
     from ..waveform import ResponseFeatures
 
-__all__ = ["MapSetup", "TimeSetup", "dendrogram", "map_report", "read_map_form", "read_time_form", "time_report"]
+__all__ = ["MapSetup", "TimeSetup", "dendrogram", "dendrogram_layout", "map_report", "read_map_form", "read_time_form",
+           "time_report"]
 
 TOLERANCE = 1e-8  # error allowed in each value of a time course, relative to the reference voltage
 # the map's colours: attenuation to the soma (a ratio >= 1) in bins by its log10; the last is open
@@ -345,17 +346,28 @@ def bin_labels() -> list[str]:
 _BITS = ((0x01, 0x08), (0x02, 0x10), (0x04, 0x20), (0x40, 0x80))  # braille dot (row, column) -> bit
 
 
-def dendrogram(tree: Tree, values: Sequence[float] | np.ndarray, width: int, height: int
-               ) -> tuple[list[str], list[list[int]]]:
+def dendrogram(tree: Tree, values: Sequence[float] | np.ndarray, width: int, height: int,
+               layout: tuple[list[str], list[list[int]]] | None = None) -> tuple[list[str], list[list[int]]]:
     """A coarse drawing of the tree in braille dots: path distance from the soma across, each tip on
     its own row of dots (branch points midway between their children), each piece drawn in the
     colour bin of ``values`` at its distal node (``values[i + 1]`` for piece i, ``values[0]`` the
-    root). Returns the text rows and, per cell, the bin that coloured it (-1: blank)."""
+    root). Returns the text rows and, per cell, the bin that coloured it (-1: blank). ``layout``
+    is :func:`dendrogram_layout` of the same tree and size, when the caller keeps it (the drawing
+    does not depend on the values, only its colours do)."""
+    rows, nodes = layout if layout is not None else dendrogram_layout(tree, width, height)
+    bins = [attenuation_bin(float(v)) for v in np.asarray(values, dtype=float)]
+    return rows, [[bins[k] if k >= 0 else -1 for k in line] for line in nodes]
+
+
+def dendrogram_layout(tree: Tree, width: int, height: int) -> tuple[list[str], list[list[int]]]:
+    """The drawing of :func:`dendrogram` and, per cell, the node whose value colours it (0 the root,
+    i + 1 the distal node of piece i; -1 blank)."""
     parents = np.asarray(tree.parents)
     n = len(tree)
-    cols, rows = 2 * max(width, 1), 4 * max(height, 1)
-    bits = [[0] * max(width, 1) for _ in range(max(height, 1))]
-    owner = [[-1] * max(width, 1) for _ in range(max(height, 1))]
+    width, height = max(width, 1), max(height, 1)
+    cols, rows = 2 * width, 4 * height
+    bits = [[0] * width for _ in range(height)]
+    owner = [[-1] * width for _ in range(height)]
     if n == 0:
         return [" " * width] * height, owner
     lengths = np.asarray(tree.lengths, dtype=float)
@@ -383,10 +395,10 @@ def dendrogram(tree: Tree, values: Sequence[float] | np.ndarray, width: int, hei
     span_x = float(reach.max()) or 1.0
     span_y = max(len(tips) - 1, 1)
 
-    def dot(c: int, r: int, colour: int) -> None:
+    def dot(c: int, r: int, node: int) -> None:
         if 0 <= c < cols and 0 <= r < rows:
             bits[r // 4][c // 2] |= _BITS[r % 4][c % 2]
-            owner[r // 4][c // 2] = colour
+            owner[r // 4][c // 2] = node
 
     def col(x: float) -> int:
         return round(x / span_x * (cols - 1))
@@ -394,16 +406,14 @@ def dendrogram(tree: Tree, values: Sequence[float] | np.ndarray, width: int, hei
     def row(v: float) -> int:
         return round(v / span_y * (rows - 1)) if len(tips) > 1 else rows // 2
 
-    vals = np.asarray(values, dtype=float)
     for i in order:
-        colour = attenuation_bin(float(vals[i + 1]))
         start = reach[parents[i]] if parents[i] >= 0 else 0.0
         r = row(y[i])
         for c in range(col(start), col(reach[i]) + 1):
-            dot(c, r, colour)
+            dot(c, r, i + 1)
         if parents[i] >= 0:  # the joint: a vertical run at the parent's end from its row to this one
             c0, r0 = col(start), row(y[parents[i]])
             for rr in range(min(r0, r), max(r0, r) + 1):
-                dot(c0, rr, attenuation_bin(float(vals[parents[i] + 1])))
+                dot(c0, rr, int(parents[i]) + 1)
     text = ["".join(chr(0x2800 + b) if b else " " for b in line) for line in bits]
     return text, owner

@@ -616,6 +616,7 @@ class MapDrawing(Widget):
     (:func:`cabletheory.tui.tree_panels.dendrogram`), with the colour key beneath."""
 
     data: tuple[object, object] | None = None  # (the tree, attenuation to the soma at each node)
+    _layout: tuple[tuple[int, int, int], tuple[list[str], list[list[int]]]] | None = None
 
     def show(self, data: tuple[object, object] | None) -> None:
         self.data = data
@@ -627,14 +628,20 @@ class MapDrawing(Widget):
         width, height = self.content_size.width, self.content_size.height
         if self.data is None or width < 12 or height < 3:
             return Text("no map yet", style="dim")
-        from .tree_panels import MAP_COLOURS, bin_labels, dendrogram
+        from .tree_panels import MAP_COLOURS, bin_labels, dendrogram, dendrogram_layout
 
         tree, values = self.data
-        rows, owners = dendrogram(tree, values, width, height - 1)  # type: ignore[arg-type]
+        key = (id(tree), width, height - 1)
+        if self._layout is None or self._layout[0] != key:  # the drawing depends on the tree and size only
+            self._layout = (key, dendrogram_layout(tree, width, height - 1))  # type: ignore[arg-type]
+        rows, owners = dendrogram(tree, values, width, height - 1, self._layout[1])  # type: ignore[arg-type]
         out = Text(no_wrap=True, overflow="crop")
         for line, owner in zip(rows, owners, strict=True):
-            for char, colour in zip(line, owner, strict=True):
-                out.append(char, style=MAP_COLOURS[colour] if colour >= 0 else "")
+            start = 0  # one span per run of cells of one colour
+            for end in range(1, len(line) + 1):
+                if end == len(line) or owner[end] != owner[start]:
+                    out.append(line[start:end], style=MAP_COLOURS[owner[start]] if owner[start] >= 0 else "")
+                    start = end
             out.append("\n")
         out.append("÷ ", style="bold")
         for colour, label in zip(MAP_COLOURS, bin_labels(), strict=True):
