@@ -130,7 +130,7 @@ def test_the_command_line_reads_tree_points(capsys):
     (["--morphology", str(DEMO), "--quantity", "time-course", "--read-at", "soma, 9999"], "--read-at: no point '9999'"),
     (["--parents", "-1,0", "--lengths", "100,100", "--diameters", "2,1", "--quantity", "time-course"],
      "--morphology FILE"),
-    (["--morphology", str(DEMO), "--tree", str(DEMO)], "--morphology"),
+    (["--morphology", str(DEMO), "--end", "killed"], "--end: a tree has tips"),
     (["--morphology", str(DEMO), "--quantity", "time-course", "--stimulus-at", "branch right +150 um"],
      "--stimulus-at: give the soma or a point"),
     (["--diameter", "2", "--length", "500", "--quantity", "time-course", "--stimulus-at", "100"],

@@ -89,7 +89,7 @@ def test_tree_advice_reads_swc_as_the_tree_command_does(tmp_path, capsys) -> Non
     44.86760779 MΩ (computed), the same as the --parents/--lengths/--diameters form above."""
     swc = tmp_path / "cell.swc"
     swc.write_text(SWC_TREE, encoding="utf-8")
-    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(swc), "--quantity", "impedance",
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--morphology", str(swc), "--quantity", "impedance",
                  "--target", "0.5%"]) == 0
     out = capsys.readouterr().out
     assert "exact |Z|              44.87 MΩ" in out
@@ -98,7 +98,7 @@ def test_tree_advice_reads_swc_as_the_tree_command_does(tmp_path, capsys) -> Non
 
 def test_tree_advice_on_the_bundled_swc(capsys) -> None:
     """The bundled interneuron (SWC) is advisable; its soma (from the file) is lumped at the root."""
-    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree",
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--morphology",
                  "cabletheory/data/morphologies/lumenia_pv7_interneuron.swc", "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["relative_error"] <= 0.01
@@ -113,7 +113,7 @@ def test_tree_advice_on_the_bundled_swc(capsys) -> None:
 def test_tree_quantity_errors_name_the_option(tmp_path, capsys, extra: list[str], message: str) -> None:
     swc = tmp_path / "cell.swc"
     swc.write_text(SWC_TREE, encoding="utf-8")
-    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(swc), *extra]) == 2
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--morphology", str(swc), *extra]) == 2
     err = capsys.readouterr().err
     assert err.startswith(f"cabletheory: error: {message}")
     assert err.count("\n") == 1
@@ -122,9 +122,9 @@ def test_tree_quantity_errors_name_the_option(tmp_path, capsys, extra: list[str]
 def test_tapered_tree_is_refused_in_one_line(tmp_path, capsys) -> None:
     outline = tmp_path / "cell.outline"
     outline.write_text("trunk length=300 diameter=4..2\n", encoding="utf-8")
-    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(outline)]) == 2
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--morphology", str(outline)]) == 2
     err = capsys.readouterr().err
-    assert err.startswith("cabletheory: error: --tree: ")
+    assert err.startswith("cabletheory: error: --morphology: ")
     assert "tapered" in err
     assert err.count("\n") == 1
 
@@ -137,11 +137,12 @@ def test_tree_rows_are_named_by_the_file(capsys):
 
     outline = pathlib.Path(__file__).resolve().parents[1] / "cabletheory" / "data" / "morphologies" / (
         "lumenia_demo.outline")
-    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(outline), "--target", "1%"]) == 0
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--morphology", str(outline), "--target", "1%"]) == 0
     out = capsys.readouterr().out
     assert "    trunk  0.3000" in out
     assert "  right.b  0.3175" in out
-    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--tree", str(outline), "--target", "1%", "--json"]) == 0
+    assert main(["advise", "--Rm", "20000", "--Ri", "200", "--morphology", str(outline), "--target", "1%",
+                 "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["branches"] == ["trunk", "left", "left.a", "left.b", "right", "right.a", "right.b"]
     assert len(data["branches"]) == len(data["compartments"])

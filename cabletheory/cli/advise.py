@@ -40,16 +40,15 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     group.add_argument("--diameter", metavar="D", help="cable diameter, e.g. 2um")
     group.add_argument("--length", metavar="LEN", help="cable length, e.g. 500um (finite)")
     group.add_argument("--end", default="sealed", metavar="END",
-                       help="far end of the cable, or of every tip of a tree: sealed, killed or a "
-                            "conductance such as 0.5nS (default sealed)")
+                       help="far end of the cable: sealed, killed or a conductance such as 0.5nS "
+                            "(default sealed; a tree's tips: --tips)")
     tree = parser.add_argument_group("tree instead of one cable")
     tree.add_argument("--morphology", metavar="FILE",
                       help="morphology read as the tree command reads it: SWC (pieces as cylinders, axon left "
                            "out, soma lumped) or a tree outline; tapered branches are not allowed")
-    tree.add_argument("--tree", metavar="FILE", help="the same as --morphology (the older name)")
     tree.add_argument("--tips", metavar="END",
-                      help="every tip of the tree: sealed, killed or a conductance such as 0.5nS (the word of "
-                           "charge and compare; --end also sets it; default sealed)")
+                      help="every tip of the tree: sealed, killed or a conductance such as 0.5nS (as in "
+                           "charge and compare; default sealed)")
     tree.add_argument("--stimulus-at", metavar="POINT",
                       help="time-course on a tree: where the current step is applied, the soma (default) or a "
                            "point of the file such as 412")
@@ -121,7 +120,7 @@ def _read_tree(args: argparse.Namespace):  # -> tuple[tree.Tree, str]
     from ..morphology import Outline, read_morphology
     from ..tree import build_tree
 
-    option = args.tree_option
+    option = "--morphology"
     morphology = read_morphology(args.tree, read_outline_value)
     tree = build_tree(morphology)
     tapered = np.flatnonzero(~np.isclose(tree.proximal_diameters, tree.distal_diameters, rtol=1e-12))
@@ -222,10 +221,7 @@ def parse_parents(text: str) -> np.ndarray:
 
 
 def run(args: argparse.Namespace) -> int:
-    if args.morphology and args.tree:
-        raise InputError("--morphology: give the tree once, with --morphology (--tree is its older name)")
-    args.tree_option = "--tree" if args.tree else "--morphology"
-    args.tree = args.morphology or args.tree
+    args.tree = args.morphology
     target = parse_relative(args.target, "--target")
     if not 1e-9 <= target < 1:
         raise InputError(f"--target: {args.target!r} must lie between 1e-7 % and 100 % (e.g. 1%)")
@@ -243,11 +239,11 @@ def run(args: argparse.Namespace) -> int:
         soma_diameter = parse_quantity(args.soma_diameter, "length", "--soma-diameter")
     is_tree = bool(args.tree or args.parents or args.lengths or args.diameters)
     read_labels: list[str] | None = None
+    if is_tree and args.end != "sealed":
+        raise InputError("--end: a tree has tips, not one far end; give --tips")
     if args.tips is not None:
         if not is_tree:
             raise InputError("--tips: a cable has one far end; give --end")
-        if args.end != "sealed":
-            raise InputError("--tips: give the tips' end once, with --tips or --end")
         args.end = args.tips
     if args.stimulus_at is not None and not (is_tree and args.quantity == "time-course"):
         raise InputError("--stimulus-at: only a time course on a tree (--morphology, --quantity time-course) takes "
