@@ -187,6 +187,7 @@ def test_without_unnamed_files_the_named_temporary_is_removed_on_failure(tmp_pat
 WRITER = textwrap.dedent("""
     import os
     import sys
+    import time
     from cabletheory import output
     if sys.argv[2] == "named":
         output._open_unnamed = lambda folder: None
@@ -195,13 +196,21 @@ WRITER = textwrap.dedent("""
         pid = os.fork()
         if pid == 0:
             try:
+                # ready only now: a signal that came before the fork had returned here would be lost
+                print(os.getpid(), flush=True)
                 while True:
                     output.write_atomically(sys.argv[1], new)
             finally:  # a writer that survived its signal (KeyboardInterrupt) never runs this loop
                 os._exit(1)
-        print(pid, flush=True)
-        os.waitpid(pid, 0)
-        print("done", flush=True)
+        for _ in range(3000):  # 30 s, a hang guard
+            if os.waitpid(pid, os.WNOHANG)[0]:
+                print("done", flush=True)
+                break
+            time.sleep(0.01)
+        else:
+            os.kill(pid, 9)
+            os.waitpid(pid, 0)
+            print("still writing 30 s after the signal", flush=True)
 """)
 
 OLD = b"O" * 1000
