@@ -240,17 +240,20 @@ def _replace(folder: Path, target: Path, payload: bytes, mode: int, owner: tuple
     fd = _open_unnamed(folder)
     try:
         if fd is None:  # no O_TMPFILE here: a named temporary file, removed on failure
-            tmp_name, fd = _open_named(folder)
+            with _signals_held():
+                tmp_name, fd = _open_named(folder)
         _fill(fd, payload, mode, owner)
         if tmp_name is None:  # give the unnamed file a name (atomically, without replacing anything)
             try:
-                tmp_name = _link_unnamed(fd, folder)
+                with _signals_held():
+                    tmp_name = _link_unnamed(fd, folder)
             except OSError as exc:
                 if exc.errno not in (errno.ENOENT, errno.EPERM, errno.EOPNOTSUPP, errno.EXDEV):
                     raise
                 os.close(fd)  # no /proc to link through: write a named file instead
                 fd = None
-                tmp_name, fd = _open_named(folder)
+                with _signals_held():
+                    tmp_name, fd = _open_named(folder)
                 _fill(fd, payload, mode, owner)
         os.replace(tmp_name, target)
         tmp_name = None
@@ -287,6 +290,22 @@ def _open_unnamed(folder: Path) -> int | None:
 
 def _temporary_name(folder: Path) -> Path:
     return folder / f".cabletheory-{os.urandom(6).hex()}.tmp"  # (not `secrets`: its import costs 20 ms)
+
+
+@contextlib.contextmanager
+def _signals_held() -> Iterator[None]:
+    """Ctrl-C, SIGTERM and SIGHUP wait while a temporary file is created and its name recorded: a
+    signal handled between the two (Python raises at the first check after a call returns) would
+    leave a file that the clean-up cannot name."""
+    if not hasattr(signal, "pthread_sigmask"):
+        yield
+        return
+    wanted = {getattr(signal, name) for name in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, name)}
+    previous = signal.pthread_sigmask(signal.SIG_BLOCK, wanted)
+    try:
+        yield
+    finally:
+        signal.pthread_sigmask(signal.SIG_SETMASK, previous)
 
 
 def _open_named(folder: Path) -> tuple[Path, int]:
