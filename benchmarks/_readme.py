@@ -27,8 +27,9 @@ def main(log: str) -> int:
     section = readme[start:stop]
     section = re.sub(r"printed on\s.*? UTC on a", f"printed on\n{found.group(1)} on a", section, count=1,
                      flags=re.DOTALL)
-    low, high = sorted((float(found.group(2)), float(end.group(1))))
-    section = re.sub(r"load average [\d.–-]+:", f"load average {low:g}–{high:g}:", section, count=1)
+    section = re.sub(r"load\s+average [\d.]+ at the start, [\d.]+ at the end",
+                     f"load\naverage {float(found.group(2)):g} at the start, {float(end.group(1)):g} at the end",
+                     section, count=1)
     section = re.sub(r"^\| what \| measured \| goal \| met\? \|\n(?:\|.*\n)+", table.group(0).rstrip("\n") + "\n",
                      section, count=1, flags=re.MULTILINE)
     README.write_text(readme[:start] + section + readme[stop:])

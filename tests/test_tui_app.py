@@ -7,14 +7,14 @@ needed). Expected numbers are the demo cable's values of docs/sources.md
 
 from __future__ import annotations
 
-import asyncio
 import json
-from collections.abc import Awaitable, Callable
+from functools import partial
 
 import pytest
 
 pytest.importorskip("textual")
 
+import app_driver
 from textual.widgets import Input
 
 from cabletheory import PASSIVE_CAVEAT
@@ -23,20 +23,8 @@ from cabletheory.tui.dialogs import HelpScreen, SaveScreen
 from cabletheory.tui.keys import GLOBAL_KEYS, VIEW_KEYS, key_label
 from cabletheory.tui.widgets import QuantityField
 
-SIZE = (120, 36)
-
-
-def drive(script: Callable[[CableApp, object], Awaitable[None]], **app_options) -> CableApp:
-    """Run ``script(app, pilot)`` against a headless app and return the app afterwards."""
-    app = CableApp(**app_options)
-
-    async def main() -> None:
-        async with app.run_test(size=SIZE) as pilot:
-            await pilot.pause()
-            await script(app, pilot)
-
-    asyncio.run(main())
-    return app
+# the scripts here start after the first frame, before the first results are in
+drive = partial(app_driver.drive, settled=False)
 
 
 def text_of(app, selector: str) -> str:

@@ -6,29 +6,18 @@ and Rall (1969) [Rall1969] for τ0 = τm of a sealed cylinder.
 
 from __future__ import annotations
 
-import asyncio
+from functools import partial
 
 import pytest
 
 pytest.importorskip("textual")
 
+import app_driver
+from app_driver import settle
 from textual.widgets import Input
 
-from cabletheory.tui.app import CableApp
-
-SIZE = (120, 36)
-
-
-def drive(script, **options) -> CableApp:
-    app = CableApp(**options)
-
-    async def main() -> None:
-        async with app.run_test(size=SIZE) as pilot:
-            await pilot.pause()
-            await script(app, pilot)
-
-    asyncio.run(main())
-    return app
+# the scripts here start after the first frame, before the first results are in
+drive = partial(app_driver.drive, settled=False)
 
 
 def text_of(node, selector: str) -> str:
@@ -40,13 +29,6 @@ async def type_into(pilot, app, field: str, text: str) -> None:
     box.focus()
     await pilot.press("end", "ctrl+u")
     await pilot.press(*text)
-    await pilot.pause()
-
-
-async def settle(app, pilot) -> None:
-    """Let the solver workers finish and the screen catch up."""
-    await pilot.pause()
-    await app.workers.wait_for_complete()
     await pilot.pause()
 
 

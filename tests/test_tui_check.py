@@ -10,12 +10,12 @@ the view reports are known in advance: the perturbed sample, its time, position 
 
 from __future__ import annotations
 
-import asyncio
 import json
 import math
 
 import numpy as np
 import pytest
+from app_driver import drive, settle
 
 from cabletheory import transient as tr
 from cabletheory.cable import Cylinder
@@ -133,28 +133,6 @@ def test_report_and_export_carry_the_cases_parameters(tmp_path):
 
 
 # -- the view, by keyboard -------------------------------------------------------------------------------
-SIZE = (120, 36)
-
-
-def drive(script, **options):
-    from cabletheory.tui.app import CableApp
-
-    app = CableApp(**options)
-
-    async def main() -> None:
-        async with app.run_test(size=SIZE) as pilot:
-            await settle(app, pilot)
-            await script(app, pilot)
-
-    asyncio.run(main())
-    return app
-
-
-async def settle(app, pilot) -> None:
-    await pilot.pause()
-    await app.workers.wait_for_complete()
-    await pilot.pause()
-
 
 def test_killed_end_and_pulse_chosen_by_keys_find_the_perturbed_sample(tmp_path):
     pytest.importorskip("textual")

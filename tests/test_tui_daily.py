@@ -8,7 +8,6 @@ Reference values: the demo dendrite of docs/sources.md (λ = 707.1 µm for Rm 20
 
 from __future__ import annotations
 
-import asyncio
 import json
 import math
 from pathlib import Path
@@ -18,32 +17,14 @@ import pytest
 
 pytest.importorskip("textual")
 
+from app_driver import drive, settle
 from textual.widgets import Input, Tree
 
-from cabletheory.tui.app import CableApp
 from cabletheory.tui.dialogs import HelpScreen, SaveScreen
 from cabletheory.tui.fields import bundled_morphologies
 from cabletheory.tui.widgets import QuantityField
 
 PV7 = bundled_morphologies() / "lumenia_pv7_interneuron.swc"
-
-
-def drive(script, size=(120, 36), **options) -> CableApp:
-    app = CableApp(**options)
-
-    async def main() -> None:
-        async with app.run_test(size=size) as pilot:
-            await settle(app, pilot)
-            await script(app, pilot)
-
-    asyncio.run(main())
-    return app
-
-
-async def settle(app, pilot) -> None:
-    await pilot.pause()
-    await app.workers.wait_for_complete()
-    await pilot.pause()
 
 
 async def type_into(pilot, app, field: str, text: str) -> None:

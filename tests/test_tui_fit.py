@@ -11,7 +11,6 @@ module (an independent implementation).
 
 from __future__ import annotations
 
-import asyncio
 import json
 import re
 import statistics
@@ -22,36 +21,17 @@ import pytest
 
 pytest.importorskip("textual")
 
+from app_driver import drive, settle
 from textual.widgets import DataTable, Input
 
-from cabletheory.tui.app import CableApp
 from cabletheory.tui.fit_report import read_fit_form
 
-SIZE = (120, 36)
 ROOT = Path(__file__).resolve().parent.parent
 BALL = ROOT / "worked" / "fitting" / "lumenia_sweeps.csv"
 CELL = ROOT / "worked" / "fitting_cell" / "pv7_sweeps.csv"
 PV7 = ROOT / "cabletheory" / "data" / "morphologies" / "lumenia_pv7_interneuron.swc"
 # worked/fitting_cell/make_recording.py: the membrane behind the recording (SI)
 CELL_TRUTH = {"membrane_resistivity": 2.0, "axial_resistivity": 1.5, "membrane_capacitance": 0.009}
-
-
-def drive(script, **options) -> CableApp:
-    app = CableApp(**options)
-
-    async def main() -> None:
-        async with app.run_test(size=SIZE) as pilot:
-            await settle(app, pilot)
-            await script(app, pilot)
-
-    asyncio.run(main())
-    return app
-
-
-async def settle(app, pilot) -> None:
-    await pilot.pause()
-    await app.workers.wait_for_complete()
-    await pilot.pause()
 
 
 async def fill(app, pilot, texts: dict[str, str], model: str | None = None) -> None:

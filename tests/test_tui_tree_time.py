@@ -11,7 +11,6 @@ D(to soma) = D(transfer) - D(local) (Agmon-Snir & Segev 1993 [AgmonSnirSegev1993
 
 from __future__ import annotations
 
-import asyncio
 import math
 
 import numpy as np
@@ -19,35 +18,30 @@ import pytest
 
 pytest.importorskip("textual")
 
+from app_driver import drive as drive_app
+from app_driver import settle as settle_app
 from textual.widgets import DataTable, Input
 
 from cabletheory.tui.app import CableApp
 from cabletheory.tui.fields import bundled_morphologies
 
-SIZE = (120, 36)
 DEMO_TREE = bundled_morphologies() / "lumenia_demo.outline"
 PV7 = bundled_morphologies() / "lumenia_pv7_interneuron.swc"
 # the form's default membrane (fields.TREE_FIELDS), SI
 RM, RI, CM = 2.0, 2.0, 0.01
 
 
-def drive(script, swc=DEMO_TREE) -> CableApp:
-    app = CableApp(view="tree", swc=str(swc))
-
-    async def main() -> None:
-        async with app.run_test(size=SIZE) as pilot:
-            await settle(app, pilot)
-            await script(app, pilot)
-
-    asyncio.run(main())
-    return app
-
-
 async def settle(app, pilot) -> None:
-    for _ in range(3):
-        await pilot.pause()
-        await app.workers.wait_for_complete()
-    await pilot.pause()
+    """Three rounds: a time course is followed by its features, then by the reduction's response."""
+    await settle_app(app, pilot, rounds=3)
+
+
+def drive(script, swc=DEMO_TREE) -> CableApp:
+    async def settled(app, pilot) -> None:
+        await settle(app, pilot)
+        await script(app, pilot)
+
+    return drive_app(settled, view="tree", swc=str(swc))
 
 
 async def type_into(pilot, box_id: str, text: str) -> None:

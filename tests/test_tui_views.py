@@ -7,7 +7,6 @@ worked/simulator_check (its expected.txt, from ``cabletheory compare``).
 
 from __future__ import annotations
 
-import asyncio
 import json
 from pathlib import Path
 
@@ -15,35 +14,16 @@ import pytest
 
 pytest.importorskip("textual")
 
+from app_driver import drive, settle
 from textual.widgets import Input, Tree
 
-from cabletheory.tui.app import CableApp
 from cabletheory.tui.dialogs import OpenScreen, SaveScreen
 from cabletheory.tui.fields import bundled_morphologies
 
-SIZE = (120, 36)
 ROOT = Path(__file__).resolve().parent.parent
 SIMULATOR = ROOT / "worked" / "simulator_check"
 PV7 = bundled_morphologies() / "lumenia_pv7_interneuron.swc"
 DEMO_TREE = bundled_morphologies() / "lumenia_demo.outline"
-
-
-def drive(script, **options) -> CableApp:
-    app = CableApp(**options)
-
-    async def main() -> None:
-        async with app.run_test(size=SIZE) as pilot:
-            await settle(app, pilot)
-            await script(app, pilot)
-
-    asyncio.run(main())
-    return app
-
-
-async def settle(app, pilot) -> None:
-    await pilot.pause()
-    await app.workers.wait_for_complete()
-    await pilot.pause()
 
 
 def text_of(node, selector: str) -> str:
