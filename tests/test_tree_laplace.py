@@ -35,9 +35,9 @@ from cabletheory.tree_laplace import (
     site_on_branch,
     sites_along,
     transfer_impedance,
-    transfer_impedance_precise,
 )
 from cabletheory.tree_modes import eigenvalue_count, root_modes
+from cabletheory.tree_precise import transfer_impedance_precise
 
 RM, RI, CM = 2.0, 2.0, 0.01  # 20 kΩ·cm², 200 Ω·cm, 1 µF/cm² (τm = 20 ms)
 TAU = RM * CM

@@ -31,8 +31,9 @@ from cabletheory.contour import hyperbolic_contour, invert_windowed
 from cabletheory.errors import InputError
 from cabletheory.morphology import Outline
 from cabletheory.tree import Tree, analyse_tree, exact_input_conductances, tree_from_outline
-from cabletheory.tree_laplace import PassiveTree, Site, root_site, site_at, transfer_impedance_precise
+from cabletheory.tree_laplace import PassiveTree, Site, root_site, site_at
 from cabletheory.tree_modes import root_modes
+from cabletheory.tree_precise import transfer_impedance_precise
 from cabletheory.tree_time import (
     electrotonic_map,
     frequency_response,

@@ -36,7 +36,7 @@ def _import_ahead(modules: tuple[str, ...]) -> None:
     for name in modules:
         try:
             importlib.import_module(name)
-        except Exception:  # the view imports it again, and reports any problem itself
+        except ImportError:  # the view imports it again, and reports the problem itself
             return
 
 
