@@ -21,11 +21,12 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from tree_fixtures import demo, outline_tree, stepped_cylinders, tapered_tree
 
 from cabletheory import cable, case, transient
 from cabletheory.errors import InputError
-from cabletheory.morphology import Outline, read_swc
-from cabletheory.tree import Tree, build_tree, exact_input_conductances, tree_from_outline
+from cabletheory.morphology import read_swc
+from cabletheory.tree import Tree, build_tree, exact_input_conductances
 from cabletheory.tree_laplace import (
     PassiveTree,
     Site,
@@ -44,23 +45,6 @@ TAU = RM * CM
 UM = 1e-6
 MOHM = 1e6
 DATA = Path(__file__).resolve().parent.parent / "cabletheory" / "data" / "morphologies"
-
-
-def outline_tree(parents, lengths, diameters, soma_diameter=None) -> Tree:
-    n = len(parents)
-    d = np.asarray(diameters, dtype=float)
-    return tree_from_outline(Outline(
-        source="test", names=tuple(f"s{i}" for i in range(n)), parents=np.asarray(parents, dtype=np.int64),
-        lengths=np.asarray(lengths, dtype=float), diameters=d, end_diameters=d,
-        lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=soma_diameter))
-
-
-def demo(granddaughter_1=200.0, soma=None) -> Tree:
-    """The demo tree of docs/sources.md (µm in, SI out)."""
-    d0, d1, d2 = 4.0, 4.0 * 2 ** (-2 / 3), 4.0 * 4 ** (-2 / 3)
-    lengths = np.array([300, 300, 300, granddaughter_1, 200, 200, 200]) * UM
-    return outline_tree([-1, 0, 0, 1, 1, 2, 2], lengths, np.array([d0, d1, d1, d2, d2, d2, d2]) * UM,
-                         None if soma is None else soma * UM)
 
 
 def pv7() -> Tree:
@@ -335,17 +319,6 @@ def test_sites_along_a_path():
 # --------------------------------------------------------------------------------------
 # frusta
 # --------------------------------------------------------------------------------------
-def tapered_tree(soma=15.0) -> Tree:
-    """Four frusta, three narrowing and one widening, on a soma (µm in, SI out)."""
-    n = 4
-    return Tree(source="tapered", labels=tuple(f"f{i}" for i in range(n)), parents=np.array([-1, 0, 0, 1]),
-                lengths=np.array([200.0, 300.0, 150.0, 400.0]) * UM,
-                proximal_diameters=np.array([4.0, 2.5, 1.0, 1.5]) * UM,
-                distal_diameters=np.array([3.0, 1.5, 2.0, 0.4]) * UM, types=np.full(n, 3),
-                lines=np.arange(1, n + 1), soma_area=None if soma is None else math.pi * (soma * UM) ** 2,
-                geometry="frusta")
-
-
 @pytest.mark.parametrize("tips", ["sealed", "killed"])
 @pytest.mark.parametrize("make", [tapered_tree, lambda: build_tree(read_swc(DATA / "lumenia_pv7_interneuron.swc"),
                                                                    taper=True)])
@@ -384,19 +357,8 @@ def test_frusta_are_the_limit_of_fine_cylinder_chains():
     exact = transfer_impedance(cell, s, Site(3, 400e-6), [root_site()])[:, 0]
     errors = []
     for k in (8, 16, 32):
-        parents, lengths, diameters, last = [], [], [], {-1: -1}
-        for i in range(len(tree)):
-            parent = last[int(tree.parents[i])]
-            a, b = tree.proximal_diameters[i], tree.distal_diameters[i]
-            for j in range(k):
-                parents.append(parent)
-                lengths.append(tree.lengths[i] / k)
-                diameters.append(a + (b - a) * (j + 0.5) / k)
-                parent = len(parents) - 1
-            last[i] = parent
-        chain = outline_tree(parents, lengths, diameters, 15e-6)
-        z = transfer_impedance(PassiveTree(chain, RM, RI, CM), s, Site(len(chain) - 1, lengths[-1]),
-                               [root_site()])[:, 0]
+        chain, last = stepped_cylinders(tree, k, 15e-6)
+        z = transfer_impedance(PassiveTree(chain, RM, RI, CM), s, Site(len(chain) - 1, last), [root_site()])[:, 0]
         errors.append(np.abs(z / exact - 1))
     ratios = np.asarray(errors[0]) / np.asarray(errors[1]), np.asarray(errors[1]) / np.asarray(errors[2])
     assert np.all((np.array(ratios) > 3.4) & (np.array(ratios) < 4.4)), (errors, ratios)
@@ -433,17 +395,7 @@ def test_frusta_modes():
         assert eigenvalue_count(cell, [0.999 / tau])[0] + 1 == eigenvalue_count(cell, [1.001 / tau])[0]
     errors = []
     for k in (8, 16, 32):
-        parents, lengths, diameters, last = [], [], [], {-1: -1}
-        for i in range(len(tree)):
-            parent = last[int(tree.parents[i])]
-            a, b = tree.proximal_diameters[i], tree.distal_diameters[i]
-            for j in range(k):
-                parents.append(parent)
-                lengths.append(tree.lengths[i] / k)
-                diameters.append(a + (b - a) * (j + 0.5) / k)
-                parent = len(parents) - 1
-            last[i] = parent
-        chain = root_modes(PassiveTree(outline_tree(parents, lengths, diameters, 15e-6), RM, RI, CM), 3)
+        chain = root_modes(PassiveTree(stepped_cylinders(tree, k, 15e-6)[0], RM, RI, CM), 3)
         errors.append(np.concatenate((chain.time_constants / modes.time_constants - 1,
                                       chain.coefficients / modes.coefficients - 1))[[1, 2, 4, 5]])
     ratios = np.abs(errors[0] / errors[1]), np.abs(errors[1] / errors[2])

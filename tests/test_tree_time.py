@@ -25,12 +25,12 @@ import mpmath
 import numpy as np
 import pytest
 from scipy.special import erf
+from tree_fixtures import demo, outline_tree, stepped_cylinders, tapered_tree
 
 from cabletheory import cable, case, compartment, transient
 from cabletheory.contour import hyperbolic_contour, invert_windowed
 from cabletheory.errors import InputError
-from cabletheory.morphology import Outline
-from cabletheory.tree import Tree, analyse_tree, exact_input_conductances, tree_from_outline
+from cabletheory.tree import analyse_tree, exact_input_conductances
 from cabletheory.tree_laplace import PassiveTree, Site, root_site, site_at
 from cabletheory.tree_modes import root_modes
 from cabletheory.tree_precise import transfer_impedance_precise
@@ -45,23 +45,6 @@ RM, RI, CM = 2.0, 2.0, 0.01  # τm = 20 ms
 TAU = RM * CM
 UM = 1e-6
 NA = 1e-9
-
-
-def outline_tree(parents, lengths, diameters, soma_diameter=None) -> Tree:
-    n = len(parents)
-    d = np.asarray(diameters, dtype=float)
-    return tree_from_outline(Outline(
-        source="test", names=tuple(f"s{i}" for i in range(n)), parents=np.asarray(parents, dtype=np.int64),
-        lengths=np.asarray(lengths, dtype=float), diameters=d, end_diameters=d,
-        lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=soma_diameter))
-
-
-def demo(granddaughter_1=200.0, soma=None) -> Tree:
-    """The demo tree of docs/sources.md: 3/2 rule at both branch points, equal tip distances."""
-    d0, d1, d2 = 4.0, 4.0 * 2 ** (-2 / 3), 4.0 * 4 ** (-2 / 3)
-    lengths = np.array([300, 300, 300, granddaughter_1, 200, 200, 200]) * UM
-    return outline_tree([-1, 0, 0, 1, 1, 2, 2], lengths, np.array([d0, d1, d1, d2, d2, d2, d2]) * UM,
-                         None if soma is None else soma * UM)
 
 
 TIMES = np.concatenate(([0.0, -1e-3], np.geomspace(2e-5, 0.1, 17)))
@@ -487,30 +470,16 @@ def test_tapered_time_course_is_the_limit_of_cylinder_chains():
     of k cylinders with midpoint diameters converge to it at second order in 1/k (the stepped
     cable, common practice [CP]); the delays of the electrotonic map agree with mpmath's
     derivative of the 40-digit Bessel recursion [mpmath2023]."""
-    n = 4
-    tree = Tree(source="tapered", labels=tuple(f"f{i}" for i in range(n)), parents=np.array([-1, 0, 0, 1]),
-                lengths=np.array([200.0, 300.0, 150.0, 400.0]) * UM,
-                proximal_diameters=np.array([4.0, 2.5, 1.0, 1.5]) * UM,
-                distal_diameters=np.array([3.0, 1.5, 2.0, 0.4]) * UM, types=np.full(n, 3),
-                lines=np.arange(1, n + 1), soma_area=math.pi * (15 * UM) ** 2, geometry="frusta")
+    tree = tapered_tree()
     cell = PassiveTree(tree, RM, RI, CM)
     times = np.array([2e-4, 1e-3, 5e-3, 2e-2])
     alpha = case.AlphaCurrent(0.05 * NA, 0.3e-3)
     exact = tree_response(cell, alpha, times, Site(3, 400e-6), [Site(3, 400e-6), root_site()]).voltage
     errors = []
     for k in (16, 32, 64):
-        parents, lengths, diameters, last = [], [], [], {-1: -1}
-        for i in range(n):
-            parent = last[int(tree.parents[i])]
-            a, b = tree.proximal_diameters[i], tree.distal_diameters[i]
-            for j in range(k):
-                parents.append(parent)
-                lengths.append(tree.lengths[i] / k)
-                diameters.append(a + (b - a) * (j + 0.5) / k)
-                parent = len(parents) - 1
-            last[i] = parent
-        chain = PassiveTree(outline_tree(parents, lengths, diameters, 15e-6), RM, RI, CM)
-        tip = Site(len(parents) - 1, lengths[-1])
+        stepped, last = stepped_cylinders(tree, k, 15e-6)
+        chain = PassiveTree(stepped, RM, RI, CM)
+        tip = Site(len(stepped) - 1, last)
         v = tree_response(chain, alpha, times, tip, [tip, root_site()]).voltage
         errors.append(np.max(np.abs(v - exact)))
     ratios = [a / b for a, b in itertools.pairwise(errors)]
