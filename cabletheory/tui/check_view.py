@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar
 
 from textual import work
@@ -14,7 +13,16 @@ from textual.worker import get_current_worker
 
 from .fields import CHECK_FIELDS, check_fields_used
 from .keys import key_label
-from .widgets import CaseChoices, CurvePlot, QuantityField, QuantityList, case_form, shared_texts, waiting_message
+from .widgets import (
+    CaseChoices,
+    CurvePlot,
+    OneFileForm,
+    QuantityField,
+    QuantityList,
+    case_form,
+    shared_texts,
+    waiting_message,
+)
 
 if TYPE_CHECKING:  # pragma: no cover
     from .forms import CheckSetup
@@ -24,14 +32,14 @@ PREFIX = "ck-"
 _SPECS = {spec.name: spec for spec in CHECK_FIELDS}
 
 
-class CheckView(CaseChoices, Vertical):
+class CheckView(OneFileForm, CaseChoices, Vertical):
     """Simulator file and exact case on the left; verdict, worst point and error plot on the right.
 
     The model and stimulus are chosen as in the charging view (same fields, same keys) and mean
     what the ``compare`` command's case options mean.
     """
 
-    case_prefix = PREFIX
+    case_prefix = file_prefix = PREFIX
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("ctrl+l", "next_model", "next model"),
         Binding("ctrl+n", "next_stimulus", "next stimulus"),
@@ -46,18 +54,6 @@ class CheckView(CaseChoices, Vertical):
     def __init__(self, *, id: str, file: str | None = None) -> None:
         super().__init__(id=id)
         self.initial_file = file or ""
-
-    @property
-    def open_folder(self) -> Path:
-        return Path.cwd()
-
-    @property
-    def open_suggestion(self) -> str:
-        return self.query_one(f"#{PREFIX}file", Input).value
-
-    @property
-    def input_files(self) -> tuple[str, ...]:
-        return (self.query_one(f"#{PREFIX}file", Input).value,)
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="columns"):

@@ -15,7 +15,7 @@ from textual.worker import get_current_worker
 
 from .fields import FieldSpec
 from .keys import key_label
-from .widgets import QuantityField, QuantityList
+from .widgets import OneFileForm, QuantityField, QuantityList
 
 if TYPE_CHECKING:  # pragma: no cover
     from .report import Report
@@ -25,7 +25,7 @@ TABLE_FIELD = FieldSpec("file", "survey table", "dimensionless", "",
                         placeholder="a table of 'cabletheory survey' (.csv, .parquet)")
 
 
-class SurveyView(Vertical):
+class SurveyView(OneFileForm, Vertical):
     """The table's file and the column to summarise on the left; the summary and the cells on the right."""
 
     BINDINGS: ClassVar[list[BindingType]] = [
@@ -34,6 +34,7 @@ class SurveyView(Vertical):
     ]
 
     report: Report | None = None
+    file_prefix = PREFIX
     open_title = "Open a survey table (.csv or .parquet, as 'cabletheory survey' writes it)"
 
     def __init__(self, *, id: str, table: str | None = None) -> None:
@@ -43,18 +44,6 @@ class SurveyView(Vertical):
         self.description: list[str] = []
         self.path = ""
         self.asked = ""  # the text of the file field last read
-
-    @property
-    def open_folder(self) -> Path:
-        return Path.cwd()
-
-    @property
-    def open_suggestion(self) -> str:
-        return self.query_one(f"#{PREFIX}file", Input).value
-
-    @property
-    def input_files(self) -> tuple[str, ...]:
-        return (self.query_one(f"#{PREFIX}file", Input).value,)
 
     def compose(self) -> ComposeResult:
         from .survey_report import DEFAULT_COLUMN, NUMERIC

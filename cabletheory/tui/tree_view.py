@@ -38,6 +38,7 @@ from .widgets import (
     CaseChoices,
     ChoiceSet,
     CurvePlot,
+    OneFileForm,
     QuantityField,
     QuantityList,
     shared_text,
@@ -61,14 +62,14 @@ _SPECS = {spec.name: spec for spec in TREE_FIELDS}
 _TIME_SPECS = {spec.name: spec for spec in TIME_FIELDS}
 
 
-class TreeView(CaseChoices, Vertical):
+class TreeView(OneFileForm, CaseChoices, Vertical):
     """Form on the left; on the right one of three panels: the audit (outline of branch points and
     tips, verdict, equivalent cable), the time course at chosen points, the electrotonic map.
 
     Reading, auditing and solving run in worker threads (large trees take a moment).
     """
 
-    case_prefix = PREFIX
+    case_prefix = file_prefix = PREFIX
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("ctrl+r", "run", "audit again"),
         Binding("f6,b", "worst_branch_point", "worst branch point"),
@@ -109,14 +110,6 @@ class TreeView(CaseChoices, Vertical):
     @property
     def open_folder(self) -> Path:
         return bundled_morphologies()
-
-    @property
-    def open_suggestion(self) -> str:
-        return self.query_one(f"#{PREFIX}file", Input).value
-
-    @property
-    def input_files(self) -> tuple[str, ...]:
-        return (self.query_one(f"#{PREFIX}file", Input).value,)
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="columns"):

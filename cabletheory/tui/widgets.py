@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar, Protocol, runtime_checkable
 
 from rich.text import Text
@@ -217,6 +218,25 @@ class ChoiceSet(RadioSet):
         keys = list(self.choices)
         following = keys[(keys.index(self.choice) + 1) % len(keys)]
         self.query_one(f"#{self.id}-{following}", RadioButton).value = True
+
+
+class OneFileForm:
+    """A view whose one input file is its ``file_prefix + "file"`` field: what the app's open dialog
+    suggests and where it starts, and the file a save must never overwrite."""
+
+    file_prefix: str = ""
+
+    @property
+    def open_folder(self) -> Path:
+        return Path.cwd()
+
+    @property
+    def open_suggestion(self) -> str:
+        return self.query_one(f"#{self.file_prefix}file", Input).value  # type: ignore[attr-defined]
+
+    @property
+    def input_files(self) -> tuple[str, ...]:
+        return (self.open_suggestion,)
 
 
 class CaseChoices:
