@@ -12,7 +12,15 @@ from textual.widgets import Input, Label, RadioSet, Static
 from textual.worker import get_current_worker
 
 from .fields import CHARGING_FIELDS, charging_fields_used
-from .widgets import CaseChoices, CurvePlot, QuantityField, QuantityList, case_form, shared_texts, waiting_message
+from .widgets import (
+    CaseChoices,
+    CurvePlot,
+    LatestRequest,
+    QuantityField,
+    QuantityList,
+    case_form,
+    shared_texts,
+)
 
 if TYPE_CHECKING:  # pragma: no cover
     from textual.timer import Timer
@@ -27,13 +35,14 @@ CURVE_GROUP = ("span", "watch", "moments")
 _SPECS = {spec.name: spec for spec in CHARGING_FIELDS}
 
 
-class ChargingView(CaseChoices, Vertical):
+class ChargingView(LatestRequest, CaseChoices, Vertical):
     """Model and stimulus on the left; time constants, error bound, V(t) and V(X) on the right.
 
     The solver runs in a worker thread; the result panel says "computing" meanwhile.
     """
 
     case_prefix = PREFIX
+    request_group = "solve"
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("ctrl+l", "next_model", "next model"),
         Binding("ctrl+n", "next_stimulus", "next stimulus"),
@@ -100,20 +109,17 @@ class ChargingView(CaseChoices, Vertical):
         setup, errors = read_charging_form({n: f.input.value for n, f in fields.items()}, model, stimulus)
         for name, field in fields.items():
             field.flag(errors.get(name))
-        results = self.query_one("#charging-results", QuantityList)
-        if setup is not None and setup == self.wanted and not again:
-            return
-        self.wanted = setup
-        if setup is None:
-            self.workers.cancel_group(self, "solve")
-            self.report = None
-            self._busy(False)
-            results.update(waiting_message(errors))
-            for plot in self.query(CurvePlot):
-                plot.spec = None
-            return
-        self._busy(True)
+        self.submit(setup, errors, again)
+
+    def _start(self, setup: ChargingSetup) -> None:
         self.solve(setup)
+
+    def _clear(self, message: str) -> None:
+        self._busy(False)
+        self.report = None
+        self.query_one("#charging-results", QuantityList).update(message)
+        for plot in self.query(CurvePlot):
+            plot.spec = None
 
     def _busy(self, busy: bool) -> None:
         """Say "computing…" if the result takes longer than :data:`SAY_AFTER`, and cover the plots

@@ -16,12 +16,12 @@ from .keys import key_label
 from .widgets import (
     CaseChoices,
     CurvePlot,
+    LatestRequest,
     OneFileForm,
     QuantityField,
     QuantityList,
     case_form,
     shared_texts,
-    waiting_message,
 )
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -32,7 +32,7 @@ PREFIX = "ck-"
 _SPECS = {spec.name: spec for spec in CHECK_FIELDS}
 
 
-class CheckView(OneFileForm, CaseChoices, Vertical):
+class CheckView(LatestRequest, OneFileForm, CaseChoices, Vertical):
     """Simulator file and exact case on the left; verdict, worst point and error plot on the right.
 
     The model and stimulus are chosen as in the charging view (same fields, same keys) and mean
@@ -40,6 +40,7 @@ class CheckView(OneFileForm, CaseChoices, Vertical):
     """
 
     case_prefix = file_prefix = PREFIX
+    request_group = "compare"
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("ctrl+l", "next_model", "next model"),
         Binding("ctrl+n", "next_stimulus", "next stimulus"),
@@ -145,14 +146,9 @@ class CheckView(OneFileForm, CaseChoices, Vertical):
                 field.flag(None)
         for name, field in fields.items():
             field.flag(errors.get(name))
-        if setup is not None and setup == self.wanted and not again:
-            return
-        self.wanted = setup
-        if setup is None:
-            self.workers.cancel_group(self, "compare")
-            self._clear(waiting_message(errors))
-            return
-        self._busy(True)
+        self.submit(setup, errors, again)
+
+    def _start(self, setup: CheckSetup) -> None:
         self.compare(setup)
 
     def _clear(self, message: str) -> None:

@@ -13,7 +13,7 @@ from textual.widgets import Checkbox, Input, Label, RadioButton, RadioSet, Stati
 from textual.worker import get_current_worker
 
 from .keys import key_label
-from .widgets import ChoiceSet, CurvePlot, QuantityField, QuantityList, waiting_message
+from .widgets import ChoiceSet, CurvePlot, LatestRequest, QuantityField, QuantityList
 
 if TYPE_CHECKING:  # pragma: no cover
     from .fit_report import FitSetup
@@ -25,7 +25,7 @@ PREFIX = "ft-"
 _FILE_FIELDS = ("file", "morphology")
 
 
-class FitView(Vertical):
+class FitView(LatestRequest, Vertical):
     """Files, cell and window on the left; fitted values, statements and the two plots on the right.
 
     Nothing is fitted at each keystroke: a fit takes from a fraction of a second (a ball and stick)
@@ -39,6 +39,7 @@ class FitView(Vertical):
         Binding("ctrl+r", "run", "fit again"),
     ]
 
+    request_group = "fit"
     report: Report | None = None
     wanted: FitSetup | None = None
     open_title = "Open recorded sweeps (CSV or tab-separated; a morphology when its field has the focus)"
@@ -165,14 +166,9 @@ class FitView(Vertical):
                                       self.query_one(f"#{PREFIX}shunt", Checkbox).value)
         for name, field in fields.items():
             field.flag(errors.get(name))
-        if setup is not None and setup == self.wanted and not again:
-            return
-        self.wanted = setup
-        if setup is None:
-            self.workers.cancel_group(self, "fit")
-            self._clear(waiting_message(errors))
-            return
-        self._busy(True)
+        self.submit(setup, errors, again)
+
+    def _start(self, setup: FitSetup) -> None:
         self.fit(setup)
 
     def _clear(self, message: str) -> None:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING, ClassVar, Protocol, runtime_checkable
+from typing import TYPE_CHECKING, Any, ClassVar, Protocol, runtime_checkable
 
 from rich.text import Text
 from textual.app import ComposeResult
@@ -237,6 +237,36 @@ class OneFileForm:
     @property
     def input_files(self) -> tuple[str, ...]:
         return (self.open_suggestion,)
+
+
+class LatestRequest:
+    """A view that hands the latest valid set-up of its form to one worker group: a set-up equal to
+    the one on its way (or on screen) is not asked again unless ``again``; an invalid form cancels
+    the group and clears the results with :func:`waiting_message`. The view supplies ``_clear``,
+    ``_busy`` and ``_start`` (which starts its worker of ``request_group``)."""
+
+    request_group: str = ""
+    wanted: Any = None  # the set-up the form holds now; a result of another is stale
+
+    def submit(self, setup: Any, errors: Mapping[str, str], again: bool = False) -> None:
+        if setup is not None and setup == self.wanted and not again:
+            return
+        self.wanted = setup
+        if setup is None:
+            self.workers.cancel_group(self, self.request_group)  # type: ignore[attr-defined]
+            self._clear(waiting_message(errors))
+            return
+        self._busy(True)
+        self._start(setup)
+
+    def _clear(self, message: str) -> None:
+        raise NotImplementedError
+
+    def _busy(self, busy: bool) -> None:
+        raise NotImplementedError
+
+    def _start(self, setup: Any) -> None:
+        raise NotImplementedError
 
 
 class CaseChoices:
