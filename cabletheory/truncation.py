@@ -97,16 +97,30 @@ def reflections_needed(T: Array, L: float, tol: float, tail) -> Array:
 
 
 def modes_needed(T: Array, tol: float, L: float, bound) -> tuple[Array, Array]:
-    """Smallest mode count N per T with bound(N, T) ≤ tol (N ≤ MAX_MODES), and that bound."""
-    candidates = np.unique(np.round(np.geomspace(1, MAX_MODES, 90)).astype(int))
+    """Smallest mode count N per T with bound(N, T) ≤ tol (N ≤ MAX_MODES), and that bound.
+
+    The candidate counts (about 90, spaced geometrically up to :data:`MAX_MODES`) are tried from
+    the smallest, each only at the times that no smaller one has satisfied, so a grid whose late
+    times need a few modes evaluates the bound a few times there (``bound`` need not decrease
+    with N: the first candidate that satisfies a time is its count)."""
+    T = np.asarray(T, dtype=float)
     need = np.full(T.shape, MAX_MODES + 1)
     achieved = np.full(T.shape, np.inf)
-    for n in candidates[::-1]:
-        b = bound(int(n), T)
+    flat_T = T.ravel()
+    todo = np.arange(flat_T.size)
+    need_flat, achieved_flat = need.reshape(-1), achieved.reshape(-1)
+    for n in _CANDIDATES:
+        if todo.size == 0:
+            break
+        b = np.broadcast_to(bound(int(n), flat_T[todo]), todo.shape)
         ok = b <= tol
-        need = np.where(ok, n, need)
-        achieved = np.where(ok, b, achieved)
+        need_flat[todo[ok]] = n
+        achieved_flat[todo[ok]] = b[ok]
+        todo = todo[~ok]
     return need, achieved
+
+
+_CANDIDATES = np.unique(np.round(np.geomspace(1, MAX_MODES, 90)).astype(int))
 
 
 def alpha_decay_rate(first_excluded: int, T: Array, L: float, time_to_peak: float) -> Array:
@@ -117,7 +131,8 @@ def alpha_decay_rate(first_excluded: int, T: Array, L: float, time_to_peak: floa
     :math:`r_n\mu_n^{-1}\int_0^T I'(s)e^{-\mu_n(T-s)}ds` (integration by parts, I(0) = 0). With
     :math:`|I'(s)| \le (e/a)(1 + s/a)e^{-s/a}` and :math:`k_n = \mu_n - 1/a > 0`,
 
-    .. math:: \left|\int_0^T I'(s)e^{-\mu_n(T-s)}dsight| \le rac{e}{a}\Big(1 + rac Ta\Big)
+    .. math:: \left|\int_0^T I'(s)e^{-\mu_n(T-s)}ds
+ight| \le rac{e}{a}\Big(1 + rac Ta\Big)
               rac{e^{-T/a}}{k_n} \le rac{e}{a}\Big(1 + rac Ta\Big)rac{e^{-T/a}}{\mu_n(1 - 1/(a\mu_N))}
 
     for n ≥ N (:math:`\mu_n \ge \mu_N \ge 1 + a_N^2`, the branch lower bound), so the tail is at most the
