@@ -8,7 +8,9 @@ error, and report the bound:
 * **images** (small T): sums of infinite-cable solutions (Hodgkin & Rushton 1946) reflected at
   sealed (+) or killed (-) ends;
 * **eigen-series** (large T): :math:`\sum_n r_n(X,X_0)\,h_n(T)` over the modes of
-  :mod:`cabletheory.eigen`, with the steady state subtracted;
+  :mod:`cabletheory.eigen`, with the steady state subtracted; for an alpha current the residues
+  of its transform at the input's double pole and at the modes (:func:`_alpha_by_residues`), a
+  series that needs as few modes as the step's, so that it takes all but the very earliest times;
 * a **leaky end** (0 < B < ∞) at small T is bracketed between the killed-end and sealed-end image
   sums (comparison principle), so their mean is used when half their difference is within the
   tolerance; otherwise the eigen-series.
@@ -24,6 +26,7 @@ Jack JJB, Noble D & Tsien RW (1975) ch. 3 (recalled from memory).
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -35,6 +38,7 @@ from .kernels import clamp_steady, end_weights, point_source_alpha, point_source
 from .truncation import (
     MAX_MODES,
     Shape,
+    alpha_residue_tail,
     clamp_image_tail,
     current_bound,
     image_tail,
@@ -47,7 +51,7 @@ __all__ = ["CONTOUR_MODES", "EARLY_REFLECTIONS", "clamp_response", "current_resp
 Array = NDArray[np.float64]
 
 _IMAGE_COST = 25.0  # cost of one image term relative to one eigen term (erfcx vs multiply-add)
-EARLY_REFLECTIONS = 4  # images with at most this many reflections per side are always preferred
+EARLY_REFLECTIONS = 4  # images with at most this many reflections per side are always preferred (step, pulse)
 CONTOUR_MODES = 4000  # eigen-series needing more modes than this give way to the contour inversion
 
 
@@ -189,10 +193,13 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
     (eigen-series; :math:`h_n = e^{-\mu_n T}/\mu_n` for a step, :math:`\mu_n = 1+\alpha_n^2`) or the
     image sum of :func:`point_source_step` / :func:`point_source_alpha`, per T, whichever needs
     fewer operations for a truncation error ≤ ``tolerance`` (absolute, in units of
-    :math:`IR_\infty`); images are also preferred at early times whenever they need at most
-    :data:`EARLY_REFLECTIONS` reflections, because they are then accurate relative to each value
-    (the eigen-series subtracts from the steady state). A soma, or a leaky end whose bracket is
-    too wide, at times whose eigen-series would need more than :data:`CONTOUR_MODES` modes,
+    :math:`IR_\infty`); for a step or pulse, images are also preferred at early times whenever they
+    need at most :data:`EARLY_REFLECTIONS` reflections, because they are then accurate relative to
+    each value (the eigen-series subtracts from the steady state). An alpha current's series
+    (:func:`_alpha_by_residues`) takes every time at which it needs fewer operations than the
+    images; its values are within the tolerance in absolute terms, not relative to values far
+    below it (a far point just after the onset, where the images would keep digits). A soma, or
+    a leaky end whose bracket is too wide, at times whose eigen-series would need more than :data:`CONTOUR_MODES` modes,
     uses the Laplace-domain solution inverted on a contour (:func:`cabletheory.laplace.current_inversion`),
     whose error estimate is the bound there.
 
@@ -250,7 +257,11 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
         n_need, _ = modes_needed(effective, tol, L, mode_bound)
     else:
         effective = Tl
-        mode_bound = current_bound(shp, L)
+        if shp.kind == "alpha":
+            def mode_bound(n: int, t: Array) -> Array:
+                return alpha_residue_tail(n, t, L, shp.time_to_peak)
+        else:
+            mode_bound = current_bound(shp, L)
         n_need, _ = modes_needed(Tl, tol, L, mode_bound)
     use_eigen = np.ones(Tl.size, dtype=bool)
     if images_exact or leaky:
@@ -258,7 +269,8 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
         reflections = reflections_needed(Tl, L, tol / (2 if shp.kind == "pulse" else 1), tails[0])
         cost_images = (2 * reflections + 1) * 2 * _IMAGE_COST * (2 if leaky else 1) * (2 if shp.kind == "pulse" else 1)
         cost_images *= 16 if shp.kind == "alpha" else 1
-        prefer = (cost_images < n_need) | (reflections <= EARLY_REFLECTIONS)
+        # the alpha current's residue series needs as few modes as a step's: images only where cheaper
+        prefer = (cost_images < n_need) | ((reflections <= EARLY_REFLECTIONS) & (shp.kind != "alpha"))
         for k in np.unique(reflections[prefer]).astype(int):
             idx = np.flatnonzero(prefer & (reflections == k))
             Tk = Tl[idx]
@@ -320,13 +332,77 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
 
             _series(out, rows, counts, pulse_factor, residues, steady, np.where(after, 0.0, 1.0))
         else:
-            a = shp.time_to_peak
-            f = shp.value(Te)
-            _series(out, rows, counts,
-                    lambda s, r: f[r, None] / mu[s] - _alpha_mode(mu[s], Te[r, None], a), residues, steady, f)
+            factor, spatial = _alpha_by_residues(X, X0, L, B, y, shp.time_to_peak, alpha, residues)
+            # the series sums steady - Σ factor·spatial: no steady part, and the terms' sign turned
+            _series(out, rows, np.full(idx.size, spatial.shape[0]), lambda s, r: factor(s, Te[r]), -spatial,
+                    np.zeros(X.size))
         bound[_rows_of(rows)] = mode_bound(count, effective[idx])[:, None]
         plan.add("eigen-series", Te, count, "modes")
     return out, bound, plan.text()
+
+
+def _alpha_by_residues(X: Array, X0: float, L: float, B: float, y: float, a: float, alpha: Array,
+                       residues: Array) -> tuple[Callable[[slice, Array], Array], Array]:
+    r"""An alpha current's response from the residues of its transform, as a sum of products.
+
+    The transform of :math:`I(T) = (T/a)e^{1-T/a}` is :math:`(e/a)/(s + c)^2` with c = 1/a, and
+    the cable's is :math:`\hat G(s) = \sum_n r_n/(s + \mu_n)` (:func:`cabletheory.laplace.green`),
+    so the residue theorem gives the exact
+
+    .. math:: V(X,T) = \frac ea\Big[e^{-cT}\big(T\tilde G(-c) + \tilde G'(-c)\big)
+              + \sum_{n\notin R}\frac{r_n e^{-\mu_nT}}{(\mu_n - c)^2}\Big] + \sum_{n\in R} r_n A_n(T)
+
+    where R holds the modes with :math:`|\mu_n - c| <` 2 max(1, √c) (their poles are near the double
+    pole), :math:`\tilde G` is :math:`\hat G` without them (:func:`cabletheory.laplace.green_near_real`)
+    and :math:`A_n` = :func:`_alpha_mode`, the same mode's exact convolution, stable for
+    :math:`\mu_n` = c. The series' terms fall like :math:`e^{-\mu_nT}/\mu_n^2`, so it needs as
+    many modes as the step's (bound: :func:`cabletheory.truncation.alpha_residue_tail`); the
+    first ``alpha.size`` modes are summed (``residues`` their :math:`r_n(X, X_0)`).
+
+    Returns ``(factor, spatial)``: V on the grid T × X is ``factor(slice(0, k), T) @ spatial``
+    with k = len(spatial), and ``factor(s, T)`` gives the columns in slice s only (the double
+    pole's two, the modes in R, then the others).
+
+    References
+    ----------
+    Rall W (1969) Biophys. J. 9:1483 (Laplace transform of the cable equation); Jack, Noble &
+    Tsien (1975) ch. 3 and 7 (the cable's transfer impedance, recalled from memory); the residue
+    theorem for inverting a rational-like transform (common practice).
+    """
+    from . import laplace
+
+    count = alpha.size
+    c = 1.0 / a
+    clear = 2.0 * max(1.0, math.sqrt(c))
+    # modes with μ_n < c + clear have α_n ≥ (n - 1/2)π/L below √(c + clear - 1)
+    last = int(L * math.sqrt(c + clear - 1.0) / math.pi + 0.5) + 1
+    if last > count:
+        alpha = eigen._eigenvalues(L, B, last, "sealed", y)
+        residues = eigen.mode_residues(alpha, X, X0, L, soma_ratio=y)
+    mu = 1.0 + alpha**2
+    near = np.abs(mu - c) < clear
+    kept = ~near & (np.arange(mu.size) < count)
+    value, slope = laplace.green_near_real(-c, X, X0, L, B, y, poles=mu[near], residues=residues[near], clear=clear)
+    mu_near, mu_kept = mu[near], mu[kept]
+    spatial = np.vstack([value[None, :], slope[None, :], residues[near], residues[kept]])
+    scale = math.e / a
+    first = 2 + mu_near.size  # columns before the kept modes
+
+    def factor(s: slice, T: Array) -> Array:
+        Tc = T[:, None]
+        parts = []
+        if s.start < first:
+            decay = np.exp(-c * Tc)
+            head = [scale * Tc * decay, scale * decay]
+            if mu_near.size:
+                head.append(_alpha_mode(mu_near[None, :], Tc, a))
+            parts.append(np.hstack(head)[:, s.start:min(s.stop, first)])
+        if s.stop > first:
+            m = mu_kept[max(0, s.start - first):s.stop - first]
+            parts.append(np.exp(-m * Tc) * (scale / (m - c) ** 2))
+        return parts[0] if len(parts) == 1 else np.hstack(parts)
+
+    return factor, spatial
 
 
 def _inverted(shp: Shape, X: Array, X0: float, T: Array, delayed: Array, L: float, B: float,

@@ -11,7 +11,9 @@ other. Everything is dimensionless: T = t/τm, L = ℓ/λ, voltages in units of 
   :math:`2e^{-(KL)^2/T}[1 + \sqrt T/(L\sqrt\pi)]` (:func:`clamp_image_tail`);
 * eigen-series: the tail bounds of :func:`cabletheory.eigen.tail_bound`, combined for a pulse
   and an alpha current in :func:`current_bound` (for an alpha current the smaller of two bounds:
-  the input's slope over [T/2, T], and its decay :func:`alpha_decay_rate`).
+  the input's slope over [T/2, T], and its decay :func:`alpha_decay_rate`; the mpmath path sums
+  that series), and for the float path's residue series of an alpha current in
+  :func:`alpha_residue_tail`.
 
 References
 ----------
@@ -33,6 +35,7 @@ __all__ = [
     "MAX_MODES",
     "Shape",
     "alpha_decay_rate",
+    "alpha_residue_tail",
     "clamp_image_tail",
     "current_bound",
     "image_tail",
@@ -145,6 +148,41 @@ ight| \le rac{e}{a}\Big(1 + rac Ta\Big)
     if not margin > 0:
         return np.full(np.shape(T), np.inf)
     return (np.e / a) * (1.0 + T / a) * np.exp(-T / a) / margin
+
+
+def alpha_residue_tail(first_excluded: int, T: Array, L: float, time_to_peak: float) -> Array:
+    r"""Bound on the modes n ≥ N of an alpha current's residue series (in :mod:`cabletheory.finite_cable`).
+
+    With :math:`c = 1/a`, the series left after the input's double pole at s = -c is
+    :math:`(e/a)\sum_n r_n e^{-\mu_nT}/(\mu_n - c)^2`. For n ≥ N the modes lie above
+    :math:`m = 1 + a_N^2` (:math:`a_N` the lower end of branch N, :func:`cabletheory.eigen.branch_lower_bounds`);
+    when m > c, :math:`\mu_n - c \ge \mu_n(1 - c/m)`, and with :math:`|r_n| \le 4/L` and the integral test
+    on the lattice of spacing π/L (as in :func:`cabletheory.eigen.tail_bound`)
+
+    .. math:: \sum_{n\ge N} \frac{|r_n|e^{-\mu_nT}}{(\mu_n - c)^2} \le
+              \frac{4/L}{(1 - c/m)^2}\,e^{-mT}\Big[\frac1{m^2} + \frac L\pi\min\Big(
+              \frac{\sqrt\pi\,\mathrm{erfcx}(a_N\sqrt T)}{2\sqrt T\,m^2}, \frac1{3a_N^3}\Big)\Big]
+
+    (the integral of :math:`e^{-(1+\alpha^2)T}/(1+\alpha^2)^2` from :math:`a_N`, bounded once with
+    :math:`(1+\alpha^2)^{-2} \le m^{-2}` and once with :math:`e^{-\alpha^2T} \le e^{-a_N^2T}`,
+    :math:`(1+\alpha^2)^{-2} \le \alpha^{-4}`), times e/a. Infinite where m ≤ c (more modes are needed).
+    Unlike the bounds of :func:`current_bound` it decays like :math:`e^{-\mu_NT}/\mu_N^2`, as the
+    step's series does.
+    """
+    from scipy.special import erfcx
+
+    a = float(time_to_peak)
+    c = 1.0 / a
+    lower = float(eigen.branch_lower_bounds(1, L, start=int(first_excluded))[0])
+    m = 1.0 + lower * lower
+    T = np.asarray(T, dtype=float)
+    if not (m > c and lower > 0):
+        return np.full(T.shape, np.inf)
+    root = np.sqrt(T)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        gaussian = np.where(T > 0, np.sqrt(np.pi) * erfcx(lower * root) / (2 * root * m * m), np.inf)
+    integral = np.minimum(gaussian, 1.0 / (3 * lower**3))
+    return (np.e / a) * (4.0 / L) / (1.0 - c / m) ** 2 * np.exp(-m * T) * (1.0 / (m * m) + (L / np.pi) * integral)
 
 
 def current_bound(shape: Shape, L: float):

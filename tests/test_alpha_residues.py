@@ -1,0 +1,126 @@
+"""An alpha current on a finite cylinder from the residues of its transform, against mpmath.
+
+The float path (``finite_cable._alpha_by_residues``: the input's double pole at s = -1/a through
+``laplace.green_near_real``, the modes near it exactly, the rest as a series cut by
+``truncation.alpha_residue_tail``) is compared with an independent route: the transform
+:math:`(e/a)/(s + 1/a)^2\\cdot\\hat G(X, X_0; s)` inverted by mpmath's Talbot method
+(``mpmath.invertlaplace``; the mpmath development team 2023 [mpmath2023], Talbot 1979
+[Talbot1979]) at 30 digits, with :math:`\\hat G` written here in mpmath from its hyperbolic closed
+form (Rall 1969 [Rall1969]; Jack, Noble & Tsien 1975 [JackNobleTsien1975] ch. 7, recalled from
+memory), and its slope in s by ``mpmath.diff``.
+"""
+
+from __future__ import annotations
+
+import math
+
+import mpmath as mp
+import numpy as np
+import pytest
+
+from cabletheory import eigen, laplace
+from cabletheory.finite_cable import _alpha_by_residues, current_response
+from cabletheory.truncation import alpha_residue_tail
+
+DIGITS = 30
+ROUNDING = 2e-14  # float rounding of sums of terms of order e/a times the residues (measured: below 5e-15)
+
+
+def _green(s, X: float, X0: float, L: float, B: float, y: float):
+    """Ĝ(X, X0; s) in mpmath: φ(X<)ψ(X>)/(y(1+s)ψ(0) - ψ'(0)), hyperbolic functions of q = √(1+s)."""
+    q = mp.sqrt(1 + s)
+    near, far = min(X, X0), max(X, X0)
+    phi = mp.cosh(q * near) + y * q * mp.sinh(q * near)
+    if math.isinf(B):
+        psi_far, psi_0, slope_0 = mp.sinh(q * (L - far)) / q, mp.sinh(q * L) / q, -mp.cosh(q * L)
+    else:
+        psi_far = mp.cosh(q * (L - far)) + B / q * mp.sinh(q * (L - far))
+        psi_0 = mp.cosh(q * L) + B / q * mp.sinh(q * L)
+        slope_0 = -q * mp.sinh(q * L) - B * mp.cosh(q * L)
+    return phi * psi_far / (y * q * q * psi_0 - slope_0)
+
+
+def _talbot(X: float, X0: float, T: float, L: float, B: float, y: float, a: float) -> float:
+    c = 1 / mp.mpf(a)
+    with mp.workdps(DIGITS):
+        return float(mp.invertlaplace(lambda s: mp.e * c / (s + c) ** 2 * _green(s, X, X0, L, B, y), T,
+                                      method="talbot"))
+
+
+@pytest.mark.parametrize(("L", "B", "y", "c"), [
+    (1.0, 0.0, 0.0, 10.0), (1.3, 0.7, 0.4, 3.0), (0.6, math.inf, 0.0, 0.4), (2.0, 0.0, 1.2, 250.0),
+])
+def test_value_and_slope_near_a_real_point_match_mpmath(L, B, y, c):
+    """G̃(-c) and dG̃/ds(-c), with the modes within the clearance taken out, against mpmath.diff."""
+    X = np.array([0.0, 0.45 * L, L])
+    X0 = 0.3 * L
+    clear = 2 * max(1.0, math.sqrt(c))
+    alpha = eigen._eigenvalues(L, B, 40, "sealed", y)
+    mu = 1 + alpha**2
+    near = np.abs(mu - c) < clear
+    residues = eigen.mode_residues(alpha, X, X0, L, soma_ratio=y)
+    value, slope = laplace.green_near_real(-c, X, X0, L, B, y, poles=mu[near], residues=residues[near], clear=clear)
+    with mp.workdps(DIGITS):
+        for j, x in enumerate(X):
+            def tilde(s, x=x, j=j):
+                return mp.re(_green(s, float(x), X0, L, B, y)) - sum(  # real on the real axis
+                    mp.mpf(r) / (s + mp.mpf(m)) for m, r in zip(mu[near], residues[near, j], strict=True))
+            exact_value = float(tilde(mp.mpf(-c)))
+            exact_slope = float(mp.diff(tilde, mp.mpf(-c)))
+            assert abs(value[j] - exact_value) <= 1e-14 * max(1.0, abs(exact_value)), (x, value[j], exact_value)
+            assert abs(slope[j] - exact_slope) <= 1e-14 * max(1.0, abs(exact_slope)), (x, slope[j], exact_slope)
+
+
+# (L, B, y, X0, time to peak): short and long times to peak, a mode exactly at the input's pole
+# (a = 1/μ1 on the sealed cylinder, a = 1 = 1/μ0), killed and leaky ends, somas
+CASES = [
+    (1.0, 0.0, 0.0, 0.0, 0.1),
+    (1.0, 0.0, 0.0, 0.0, 1.0 / (1.0 + math.pi**2)),
+    (1.0, 0.0, 0.0, 0.5, 1.0),
+    (0.8, math.inf, 0.0, 0.2, 0.001),
+    (0.5, 0.6, 0.0, 0.1, 3.0),
+    (1.5, 0.0, 0.8, 0.0, 0.05),
+    (2.0, 0.3, 0.4, 0.7, 30.0),
+]
+
+
+@pytest.mark.parametrize(("L", "B", "y", "X0", "a"), CASES)
+def test_alpha_current_within_its_bound_of_talbot(L, B, y, X0, a):
+    X = np.array([0.0, 0.6 * L])
+    T = np.array([1e-3, 0.04, 1.7])
+    v, bound, method = current_response(X, X0, T, L, B, y, shape="alpha", time_to_peak=a, tolerance=1e-10)
+    assert "eigen-series" in method
+    assert np.all(bound <= 1e-10)
+    for i, t in enumerate(T):
+        for j, x in enumerate(X):
+            exact = _talbot(float(x), X0, float(t), L, B, y, a)
+            assert abs(v[i, j] - exact) <= bound[i, j] + ROUNDING, (t, x, v[i, j], exact, bound[i, j])
+
+
+@pytest.mark.parametrize(("L", "B", "y", "a"), [
+    (1.0, 0.0, 0.0, 0.1), (0.7, math.inf, 0.0, 0.002), (1.2, 0.5, 0.6, 2.0), (3.0, 0.0, 0.0, 0.3),
+])
+def test_alpha_residue_tail_bounds_the_modes_left_out(L, B, y, a):
+    """The series cut after N modes stays within alpha_residue_tail(N) of the Talbot value, and the
+    bound is not loose by more than 50 times somewhere (so a wrong bound would fail)."""
+    X = np.array([0.0, 0.5 * L])
+    X0 = 0.0
+    T = np.array([0.0005, 0.002, 0.03, 0.4])
+    exact = np.array([[_talbot(float(x), X0, float(t), L, B, y, a) for x in X] for t in T])
+    alpha = eigen._eigenvalues(L, B, 400, "sealed", y)
+    residues = eigen.mode_residues(alpha, X, X0, L, soma_ratio=y)
+    tightest = 0.0
+    checked = 0
+    for N in (2, 3, 4, 6, 8, 11, 16, 23, 32, 45, 64):
+        stated = alpha_residue_tail(N, T, L, a)
+        factor, spatial = _alpha_by_residues(X, X0, L, B, y, a, alpha[:N], residues[:N])
+        values = factor(slice(0, spatial.shape[0]), T) @ spatial
+        for i in range(T.size):
+            if not 1e-13 < stated[i] < 1.0:
+                continue  # the bound does not apply yet (modes below the input's rate) or is at rounding level
+            error = np.abs(values[i] - exact[i]).max()
+            assert error <= stated[i] + ROUNDING, (N, T[i], error, stated[i])
+            tightest = max(tightest, error / stated[i])
+            checked += 1
+    assert checked >= 4
+    assert tightest >= 0.02
