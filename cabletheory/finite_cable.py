@@ -332,17 +332,16 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
 
             _series(out, rows, counts, pulse_factor, residues, steady, np.where(after, 0.0, 1.0))
         else:
-            factor, spatial = _alpha_by_residues(X, X0, L, B, y, shp.time_to_peak, alpha, residues)
+            factor, spatial = _alpha_by_residues(X, X0, Te, L, B, y, shp.time_to_peak, alpha, residues)
             # the series sums steady - Σ factor·spatial: no steady part, and the terms' sign turned
-            _series(out, rows, np.full(idx.size, spatial.shape[0]), lambda s, r: factor(s, Te[r]), -spatial,
-                    np.zeros(X.size))
+            _series(out, rows, np.full(idx.size, spatial.shape[0]), factor, -spatial, np.zeros(X.size))
         bound[_rows_of(rows)] = mode_bound(count, effective[idx])[:, None]
         plan.add("eigen-series", Te, count, "modes")
     return out, bound, plan.text()
 
 
-def _alpha_by_residues(X: Array, X0: float, L: float, B: float, y: float, a: float, alpha: Array,
-                       residues: Array) -> tuple[Callable[[slice, Array], Array], Array]:
+def _alpha_by_residues(X: Array, X0: float, T: Array, L: float, B: float, y: float, a: float, alpha: Array,
+                       residues: Array) -> tuple[Callable[[slice, NDArray[np.intp]], Array], Array]:
     r"""An alpha current's response from the residues of its transform, as a sum of products.
 
     The transform of :math:`I(T) = (T/a)e^{1-T/a}` is :math:`(e/a)/(s + c)^2` with c = 1/a, and
@@ -352,15 +351,15 @@ def _alpha_by_residues(X: Array, X0: float, L: float, B: float, y: float, a: flo
     .. math:: V(X,T) = \frac ea\Big[e^{-cT}\big(T\tilde G(-c) + \tilde G'(-c)\big)
               + \sum_{n\notin R}\frac{r_n e^{-\mu_nT}}{(\mu_n - c)^2}\Big] + \sum_{n\in R} r_n A_n(T)
 
-    where R holds the modes with :math:`|\mu_n - c| <` 2 max(1, √c) (their poles are near the double
+    where R holds the modes with :math:`|\mu_n - c| <` 3 max(1, √c) (their poles are near the double
     pole), :math:`\tilde G` is :math:`\hat G` without them (:func:`cabletheory.laplace.green_near_real`)
     and :math:`A_n` = :func:`_alpha_mode`, the same mode's exact convolution, stable for
     :math:`\mu_n` = c. The series' terms fall like :math:`e^{-\mu_nT}/\mu_n^2`, so it needs as
     many modes as the step's (bound: :func:`cabletheory.truncation.alpha_residue_tail`); the
     first ``alpha.size`` modes are summed (``residues`` their :math:`r_n(X, X_0)`).
 
-    Returns ``(factor, spatial)``: V on the grid T × X is ``factor(slice(0, k), T) @ spatial``
-    with k = len(spatial), and ``factor(s, T)`` gives the columns in slice s only (the double
+    Returns ``(factor, spatial)``: V at the times ``T[r]`` is ``factor(slice(0, k), r) @ spatial``
+    with k = len(spatial), and ``factor(s, r)`` gives the columns in slice s only (the double
     pole's two, the modes in R, then the others).
 
     References
@@ -373,7 +372,7 @@ def _alpha_by_residues(X: Array, X0: float, L: float, B: float, y: float, a: flo
 
     count = alpha.size
     c = 1.0 / a
-    clear = 2.0 * max(1.0, math.sqrt(c))
+    clear = 3.0 * max(1.0, math.sqrt(c))
     # modes with μ_n < c + clear have α_n ≥ (n - 1/2)π/L below √(c + clear - 1)
     last = int(L * math.sqrt(c + clear - 1.0) / math.pi + 0.5) + 1
     if last > count:
@@ -387,19 +386,17 @@ def _alpha_by_residues(X: Array, X0: float, L: float, B: float, y: float, a: flo
     spatial = np.vstack([value[None, :], slope[None, :], residues[near], residues[kept]])
     scale = math.e / a
     first = 2 + mu_near.size  # columns before the kept modes
+    Tc = T[:, None]
+    decay = np.exp(-c * Tc)
+    head = np.hstack([scale * Tc * decay, scale * decay, _alpha_mode(mu_near[None, :], Tc, a)])
 
-    def factor(s: slice, T: Array) -> Array:
-        Tc = T[:, None]
+    def factor(s: slice, r: NDArray[np.intp]) -> Array:
         parts = []
         if s.start < first:
-            decay = np.exp(-c * Tc)
-            head = [scale * Tc * decay, scale * decay]
-            if mu_near.size:
-                head.append(_alpha_mode(mu_near[None, :], Tc, a))
-            parts.append(np.hstack(head)[:, s.start:min(s.stop, first)])
+            parts.append(head[r, s.start:min(s.stop, first)])
         if s.stop > first:
             m = mu_kept[max(0, s.start - first):s.stop - first]
-            parts.append(np.exp(-m * Tc) * (scale / (m - c) ** 2))
+            parts.append(np.exp(-m * Tc[r]) * (scale / (m - c) ** 2))
         return parts[0] if len(parts) == 1 else np.hstack(parts)
 
     return factor, spatial
