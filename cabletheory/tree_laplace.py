@@ -64,8 +64,9 @@ Squire W & Trapp G (1998) SIAM Rev. 40:110 [SquireTrapp1998] (complex-step deriv
 from __future__ import annotations
 
 import math
+import threading
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -321,7 +322,7 @@ class _Network:
     soma_conductance: float
     soma_tau: float
     nodes: IntArray  # node of each requested site
-    levels: tuple[IntArray, ...]  # pieces by depth, root side first
+    levels: tuple[IntArray, ...]  # pieces by depth, root side first (each a run of consecutive pieces)
     depth: IntArray  # depth of each node (root 0)
     parent_node: IntArray  # node at the proximal end of each piece
     tapered: IntArray  # pieces that are frusta (the rest are cylinders)
@@ -330,6 +331,11 @@ class _Network:
     distal: Array  # m, distal diameter of the tapered pieces
     membrane_resistivity: Array  # Ω·m², of the tapered pieces
     axial_resistivity: float  # Ω·m
+    spans: tuple[tuple[int, int], ...] = ()  # (first, end) of each level's pieces, root side first
+    # per level, the positions within it of its killed tips and of its frusta (None: there are none)
+    level_killed: tuple[IntArray | None, ...] = ()
+    level_frusta: tuple[IntArray | None, ...] = ()
+    fingerprint: bytes = b""  # digest of everything the solution depends on (not the sites' nodes)
 
     @property
     def size(self) -> int:
@@ -411,9 +417,19 @@ def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
         k = np.asarray(which).ravel()
         nodes[cut_sites] = first[cut_piece[k]] + (k - cut_first[cut_piece[k]]) + 1
     depth = _depths(par)
+    # number the pieces level by level (parents still come before their children), so that each
+    # level is a run of consecutive pieces and the two passes work on slices, not gathered copies
     order = np.argsort(depth[1:], kind="stable")
-    bounds = np.searchsorted(depth[1:][order], np.arange(1, int(depth.max()) + 2))
-    levels = tuple(order[bounds[j]:bounds[j + 1]] for j in range(bounds.size - 1))
+    rank = np.empty(m, dtype=np.int64)
+    rank[order] = np.arange(m)
+    par = np.where(par[order] >= 0, rank[np.maximum(par[order], 0)], -1)
+    source, new_len, d0, d1 = source[order], new_len[order], d0[order], d1[order]
+    shunt, killed = shunt[order], killed[order]
+    nodes = np.where(nodes > 0, rank[np.maximum(nodes - 1, 0)] + 1, 0)
+    depth = np.concatenate(([0], depth[1:][order]))
+    bounds = np.searchsorted(depth[1:], np.arange(1, int(depth.max()) + 2))
+    spans = tuple((int(bounds[j]), int(bounds[j + 1])) for j in range(bounds.size - 1))
+    levels = tuple(np.arange(a, b) for a, b in spans)
     g_s, tau_s = cell.soma_constants()
     piece_len = new_len
     tapered = np.flatnonzero(taper[source])
@@ -421,11 +437,45 @@ def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
     electrotonic = piece_len / lam[source]
     mean_root = (0.5 * (np.sqrt(d0[tapered]) + np.sqrt(d1[tapered]))) ** 2  # L = ℓ/λ(d̄), cabletheory.tree
     electrotonic[tapered] = piece_len[tapered] / np.asarray(length_constant(rm[source][tapered], ri, mean_root))
-    return _Network(parents=par, electrotonic=electrotonic, g_inf=ginf[source],
-                    tau=(rm * cm)[source], shunt=shunt, killed=killed, soma_conductance=g_s, soma_tau=tau_s,
-                    nodes=nodes.astype(np.int64), levels=levels, depth=depth, parent_node=par + 1,
-                    tapered=tapered, lengths=piece_len[tapered], proximal=d0[tapered], distal=d1[tapered],
-                    membrane_resistivity=rm[source][tapered], axial_resistivity=ri)
+    frustum = np.zeros(m, dtype=bool)
+    frustum[tapered] = True
+    level_killed = _within_levels(killed, spans)
+    level_frusta = _within_levels(frustum, spans)
+    net = _Network(parents=par, electrotonic=electrotonic, g_inf=ginf[source],
+                   tau=(rm * cm)[source], shunt=shunt, killed=killed, soma_conductance=g_s, soma_tau=tau_s,
+                   nodes=nodes.astype(np.int64), levels=levels, depth=depth, parent_node=par + 1,
+                   tapered=tapered, lengths=piece_len[tapered], proximal=d0[tapered], distal=d1[tapered],
+                   membrane_resistivity=rm[source][tapered], axial_resistivity=ri, spans=spans,
+                   level_killed=level_killed, level_frusta=level_frusta)
+    return replace(net, fingerprint=_fingerprint(net))
+
+
+def _within_levels(mask: NDArray[np.bool_], spans: tuple[tuple[int, int], ...]) -> tuple[IntArray | None, ...]:
+    """Per level, the positions within it where ``mask`` holds (None where it holds nowhere)."""
+    hits = np.flatnonzero(mask)
+    if hits.size == 0:
+        return (None,) * len(spans)
+    starts = np.array([a for a, _ in spans])
+    level = np.searchsorted(starts, hits, side="right") - 1
+    out: list[IntArray | None] = [None] * len(spans)
+    for j in np.unique(level).tolist():
+        out[j] = hits[level == j] - spans[j][0]
+    return tuple(out)
+
+
+def _fingerprint(net: _Network) -> bytes:
+    """A digest of every number the network's solution depends on: equal digests, equal solutions
+    at equal s (the sites' nodes aside, which only say where to read it)."""
+    import hashlib
+
+    digest = hashlib.blake2b(digest_size=20)
+    for part in (net.parents, net.electrotonic, net.g_inf, net.tau, net.shunt, net.killed, net.tapered,
+                 net.lengths, net.proximal, net.distal, net.membrane_resistivity,
+                 np.array([net.soma_conductance, net.soma_tau, net.axial_resistivity, net.size])):
+        array = np.ascontiguousarray(part)
+        digest.update(str((array.dtype.str, array.shape)).encode())
+        digest.update(array.tobytes())
+    return digest.digest()
 
 
 def _depths(parents: IntArray) -> IntArray:
@@ -565,7 +615,8 @@ def _inward(net: _Network, s: ComplexArray) -> _Inward:
     """Tips inward: each piece's input admittance seen from its parent, and V(distal)/V(proximal)."""
     s = np.asarray(s, dtype=complex).ravel()
     n = net.size
-    q = np.sqrt(1.0 + net.tau[:, None] * s[None, :])
+    taus, which = np.unique(net.tau, return_inverse=True)  # one membrane: q is the same on every piece
+    q = np.sqrt(1.0 + taus[:, None] * s[None, :])[which.ravel()]
     u = net.electrotonic[:, None] * q
     th = np.tanh(u)
     e = np.exp(-u)
@@ -575,35 +626,38 @@ def _inward(net: _Network, s: ComplexArray) -> _Inward:
     load[1:] += net.shunt[:, None]
     y_in = np.empty((n, s.size), dtype=complex)
     down = np.empty((n, s.size), dtype=complex)
-    killed = net.killed
     row = np.full(n, -1)
     row[net.tapered] = np.arange(net.tapered.size)
     two_port = _frustum_two_port(net, q[net.tapered]) if net.tapered.size else None
+    parent_node = net.parent_node
     with np.errstate(divide="ignore", invalid="ignore"):
-        for idx in reversed(net.levels):
-            yl = load[idx + 1]
-            g, t = gq[idx], th[idx]
+        for j in range(len(net.spans) - 1, -1, -1):
+            a, b = net.spans[j]  # the level's pieces; their distal nodes are a + 1 .. b
+            yl = load[a + 1:b + 1]
+            g, t = gq[a:b], th[a:b]
             den = g + yl * t
-            y = g * (yl + g * t) / den
-            h = g * sech[idx] / den
-            k = killed[idx]
-            if np.any(k):
+            y = y_in[a:b]
+            np.multiply(g, yl + g * t, out=y)
+            y /= den
+            h = down[a:b]
+            np.multiply(g, sech[a:b], out=h)
+            h /= den
+            k = net.level_killed[j]
+            if k is not None:
                 y[k] = g[k] / t[k]
                 h[k] = 0.0
-            f = np.flatnonzero(row[idx] >= 0)
-            if f.size:  # frusta: the general two-port, (T21 + T22 Y_L)/(T11 + T12 Y_L)
+            f = net.level_frusta[j]
+            if f is not None:  # frusta: the general two-port, (T21 + T22 Y_L)/(T11 + T12 Y_L)
                 assert two_port is not None
                 t11, t12, t21, t22, scale = two_port
-                r = row[idx[f]]
+                r = row[a + f]
                 den_f = t11[r] + t12[r] * yl[f]
                 y[f] = (t21[r] + t22[r] * yl[f]) / den_f
                 h[f] = scale[r] / den_f
-                kf = killed[idx[f]]
+                kf = net.killed[a + f]
                 y[f[kf]] = t22[r[kf]] / t12[r[kf]]
                 h[f[kf]] = 0.0
-            y_in[idx] = y
-            down[idx] = h
-            np.add.at(load, net.parent_node[idx], y)
+            np.add.at(load, parent_node[a:b], y)
         load[0] += net.soma_conductance * (1.0 + net.soma_tau * s)
     return _Inward(s=s, gq=gq, th=th, sech=sech, load=load, y_in=y_in, down=down, row=row, two_port=two_port)
 
@@ -636,22 +690,62 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
         total = np.empty_like(load)
         total[0] = load[0]
         up = np.empty((n, s.size), dtype=complex)
-        for idx in net.levels:
-            g, t = gq[idx], th[idx]
-            back = total[net.parent_node[idx]] - y_in[idx]
+        parent_node = net.parent_node
+        for j, (a, b) in enumerate(net.spans):
+            g, t = gq[a:b], th[a:b]
+            back = total[parent_node[a:b]]
+            back -= y_in[a:b]
             den = g + back * t
-            up[idx] = g * sech[idx] / den
-            total[idx + 1] = load[idx + 1] + g * (back + g * t) / den
-            f = np.flatnonzero(row[idx] >= 0)
-            if f.size:  # frusta, seen from the distal end: T11 and T22 swap (a reciprocal two-port)
+            np.multiply(g, sech[a:b], out=up[a:b])
+            up[a:b] /= den
+            beyond = total[a + 1:b + 1]
+            np.multiply(g, back + g * t, out=beyond)
+            beyond /= den
+            beyond += load[a + 1:b + 1]
+            f = net.level_frusta[j]
+            if f is not None:  # frusta, seen from the distal end: T11 and T22 swap (a reciprocal two-port)
                 assert w.two_port is not None
                 t11, t12, t21, t22, scale = w.two_port
-                r = row[idx[f]]
+                r = row[a + f]
                 den_f = t22[r] + t12[r] * back[f]
-                up[idx[f]] = scale[r] / den_f
-                total[idx[f] + 1] = load[idx[f] + 1] + (t21[r] + t11[r] * back[f]) / den_f
+                up[a + f] = scale[r] / den_f
+                total[a + f + 1] = load[a + f + 1] + (t21[r] + t11[r] * back[f]) / den_f
         total[1:][killed] = np.inf
     return _Solution(y_in=y_in, total=total, down=w.down, up=up, pivots=_pivots_of(net, w) if pivots else None)
+
+
+# solutions kept for reuse (:func:`_solve_kept`): digest of the network and of s -> solution
+_KEPT: dict[bytes, _Solution] = {}
+_KEPT_VALUES = 3_000_000  # complex values kept at most, about 50 MB
+_KEPT_LOCK = threading.Lock()
+
+
+def _solve_kept(net: _Network, s: ComplexArray) -> _Solution:
+    """:func:`_solve`, keeping the solution for a later call on a network with the same fingerprint
+    (the same pieces, membrane and tips, wherever its sites are) at the same s: a time course
+    whose stimulus or reading points moved, but not the tree or its membrane, is solved once.
+    The least recently used solutions go first once more than :data:`_KEPT_VALUES` are kept;
+    the arrays kept are read-only."""
+    s = np.asarray(s, dtype=complex).ravel()
+    key = net.fingerprint + s.tobytes()
+    with _KEPT_LOCK:
+        found = _KEPT.pop(key, None)
+        if found is not None:
+            _KEPT[key] = found  # the most recently used last
+            return found
+    sol = _solve(net, s)
+    size = sol.total.size * 4
+    if size > _KEPT_VALUES:
+        return sol
+    for array in (sol.y_in, sol.total, sol.down, sol.up):
+        array.flags.writeable = False
+    with _KEPT_LOCK:
+        _KEPT[key] = sol
+        kept = sum(v.total.size * 4 for v in _KEPT.values())
+        while kept > _KEPT_VALUES:
+            oldest = next(iter(_KEPT))
+            kept -= _KEPT.pop(oldest).total.size * 4
+    return sol
 
 
 def _chunks(net: _Network, s: ComplexArray) -> list[slice]:

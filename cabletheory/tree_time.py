@@ -43,6 +43,7 @@ from .tree_laplace import (
     _path,
     _Solution,
     _solve,
+    _solve_kept,
     _transfer,
     node_sites,
     root_site,
@@ -114,7 +115,7 @@ def _current_shape(stimulus: Stimulus) -> tuple[float, Callable[[ComplexArray], 
 
 
 def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: Site,
-                  record: Sequence[Site], *, tolerance: float = 1e-10) -> TreeResponse:
+                  record: Sequence[Site], *, tolerance: float = 1e-10, reuse: bool = False) -> TreeResponse:
     r"""Voltage at ``record`` sites for a current step, pulse or alpha current at ``at`` (or a clamp).
 
     .. math:: V_b(s) = Z_{ab}(s)\,I(s),\qquad I(s) = \frac{I_0}{s}\ \text{(step)},\quad
@@ -133,6 +134,10 @@ def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: S
     at : stimulus site (:class:`~cabletheory.tree_laplace.Site`); the root for a clamp
     record : recording sites
     tolerance : error allowed, relative to the reference voltage, in (1e-14, 0.1)
+    reuse : keep the tree's solution at the contour's nodes for later calls with the same tree,
+        membrane and times (the stimulus, its site and the reading points may differ): an
+        interactive view whose user moves the stimulus then inverts without solving the tree again.
+        The values are the same either way.
 
     References
     ----------
@@ -152,6 +157,8 @@ def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: S
     nodes = net.nodes[:-1].tolist()
     source = int(net.nodes[-1])
     notes: list[str] = []
+    solve = _solve_kept if reuse else _solve
+    rest = solve(net, np.zeros(1, dtype=complex))  # s = 0: the steady state and the reference
     if isinstance(stimulus, VoltageStep):
         if source != 0:
             raise InputError("a voltage clamp on a tree is applied at the root (soma)")
@@ -159,24 +166,23 @@ def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: S
         reference = abs(amplitude)
 
         def transform(s: ComplexArray) -> ComplexArray:
-            sol = _solve(net, s)
+            sol = solve(net, s)
             out = np.empty((s.size, len(nodes)), dtype=complex)
             for j, b in enumerate(nodes):
                 out[:, j] = _ratio_from_root(net, sol, b)
             return out * (amplitude / s)[:, None]
 
-        rest = _solve(net, np.zeros(1, dtype=complex))
         steady = amplitude * np.array([_ratio_from_root(net, rest, b)[0].real for b in nodes])
         notes.append("the clamp fixes the root voltage, so the soma's membrane plays no part")
     else:
         amplitude, shape = _current_shape(stimulus)
-        z_source = transfer_impedance(cell, [0.0], at, [at])[0, 0].real
+        z_source = _transfer(net, rest, source, source)[0].real
         if z_source == 0.0:
             raise InputError("the stimulus site is a killed tip, held at rest; choose another site")
         reference = abs(amplitude) * z_source
 
         def transform(s: ComplexArray) -> ComplexArray:
-            sol = _solve(net, s)
+            sol = solve(net, s)
             out = np.empty((s.size, len(nodes)), dtype=complex)
             for j, b in enumerate(nodes):
                 out[:, j] = _transfer(net, sol, source, b)
@@ -184,7 +190,7 @@ def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: S
 
         steady = None
         if isinstance(stimulus, CurrentStep):
-            steady = amplitude * transfer_impedance(cell, [0.0], at, record)[0].real
+            steady = amplitude * np.array([_transfer(net, rest, source, b)[0].real for b in nodes])
     if isinstance(stimulus, CurrentPulse):
         later = t - stimulus.duration
         both = invert_windowed(transform, np.concatenate((t, later)), tolerance=tolerance / 2, scale=reference)

@@ -7,6 +7,7 @@ only, in a worker; the others catch up when shown."""
 
 from __future__ import annotations
 
+import threading
 from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar
 
@@ -101,6 +102,8 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
         self._reports: dict[str, Report | None] = dict.fromkeys(PANELS)
         self._map_rows: list[list[object]] = []  # the map table's rows as values (for sorting)
         self._map_sort: tuple[int, bool] = (-1, False)  # (column, descending); -1: the tree's order
+        self._field_cache: dict[str, dict[str, QuantityField]] = {}
+        self._input_cache: dict[str, Input] = {}
 
     @property
     def report(self) -> Report | None:
@@ -267,8 +270,8 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
         read first if it is not read yet; the other panels catch up when shown)."""
         from .forms import read_tree_form
 
-        fields = {f.spec.name: f for f in self.query(QuantityField) if f.spec.name in _SPECS}
-        setup, errors = read_tree_form({n: f.input.value for n, f in fields.items()}, self.tips_choice)
+        fields = self._fields("audit")
+        setup, errors = read_tree_form(self._texts(fields), self.tips_choice)
         for name, field in fields.items():
             if name != "file" or name in errors or not again:
                 self._flag(field, errors.get(name))
@@ -290,8 +293,26 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
         if self.panel != "audit" and cached is not None:
             self._refresh_panel(setup, cached, again)
 
-    def _panel_texts(self) -> dict[str, str]:
-        return {f.spec.name: f.input.value for f in self.query(QuantityField) if f.spec.name in _TIME_SPECS}
+    def _fields(self, group: str) -> dict[str, QuantityField]:
+        """The form's fields by name: the audit's ('audit') or the time course's and map's ('panel').
+        Looked up once: a query of the view's widgets at every keystroke costs milliseconds."""
+        found = self._field_cache.get(group)
+        if found is None:
+            specs = _SPECS if group == "audit" else _TIME_SPECS
+            found = {f.spec.name: f for f in self.query(QuantityField) if f.spec.name in specs}
+            self._field_cache[group] = found
+        return found
+
+    def _texts(self, fields: dict[str, QuantityField]) -> dict[str, str]:
+        """The text of each field (its input looked up once)."""
+        inputs = self._input_cache
+        texts = {}
+        for name, f in fields.items():
+            box = inputs.get(name)
+            if box is None:
+                box = inputs[name] = f.input
+            texts[name] = box.value
+        return texts
 
     def _refresh_panel(self, setup: TreeSetup, cached: tuple[tuple[str, int, int], Morphology],
                        again: bool = False) -> None:
@@ -299,8 +320,8 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
         from .tree_panels import read_map_form, read_time_form
 
         key, tree = cached
-        texts = self._panel_texts()
-        fields = {f.spec.name: f for f in self.query(QuantityField) if f.spec.name in _TIME_SPECS}
+        fields = self._fields("panel")
+        texts = self._texts(fields)
         if self.panel == "time":
             reduced = self.query_one(f"#{PREFIX}reduced", Checkbox).value
             wanted, errors = read_time_form(texts, self.stimulus_choice, tree, setup, key, reduced)
@@ -439,16 +460,23 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
         worker = get_current_worker()
         case = setup.case
         try:
+            # reuse: a stimulus or reading point moved on the same tree and membrane is not solved again
             response = tree_response(case.cell, case.stimulus, setup.times, case.stimulus_site, case.sites,
-                                     tolerance=TOLERANCE)
+                                     tolerance=TOLERANCE, reuse=True)
             shown: Report | str = time_report(setup, response)
         except CableTheoryError as exc:
             shown = str(exc)
         if worker.is_cancelled:
             return
-        self.app.call_from_thread(self._show_time, setup, shown, False)
+        drawn = threading.Event()
+        self.app.call_from_thread(self._show_time, setup, shown, False, drawn)
         if isinstance(shown, str):
             return
+        # the features and the reduction wait until the time course is on the screen: computed
+        # beside the drawing, they would hold it up (they take longer than the time course itself)
+        while not drawn.wait(0.05):
+            if worker.is_cancelled:
+                return
         try:
             found = features(setup)
         except CableTheoryError:
@@ -463,7 +491,12 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
             report = time_report(setup, response, found, cost)  # type: ignore[arg-type]
             self.app.call_from_thread(self._show_time, setup, report, True)
 
-    def _show_time(self, setup: TimeSetup, report: Report | str, complete: bool) -> None:
+    def _show_time(self, setup: TimeSetup, report: Report | str, complete: bool,
+                   drawn: threading.Event | None = None) -> None:
+        """Show a time course (``complete``: with its features and reduction); ``drawn`` is set once
+        the screen shows it (at once when it is no longer wanted)."""
+        if drawn is not None:
+            self.call_after_refresh(drawn.set)
         if setup != self.wanted_time:
             return
         from .tree_panels import features_lines
@@ -481,12 +514,13 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
         self._reports["time"] = report
         results.show([r for r in report.results if r.key != "method"], report.notes[:2])  # saved, not shown
         lines = features_lines(report)
+        # the features' box has a fixed size: a new text needs no layout of the view
         if lines:
             text = Text(lines[0] + "\n", style="bold #9aa5b1", no_wrap=True, overflow="crop")
             text.append("\n".join(lines[1:]))
-            features.update(text)
+            features.update(text, layout=False)
         elif not complete:
-            features.update(Text("features: computing…", style="dim"))
+            features.update(Text("features: computing…", style="dim"), layout=False)
         self.query_one("#tree-time-plot", CurvePlot).spec = report.plots[0]
 
     def _stop_announcing(self, panel: QuantityList) -> None:

@@ -1,0 +1,119 @@
+"""The tree's solutions kept between time courses (tree_response(..., reuse=True)).
+
+A kept solution serves a later call only on the same pieces, membrane and tips at the same s; the
+values are those of a fresh solve. The reference values are fresh solves (reuse=False) and, for the
+changed membrane, the mpmath recursion of cabletheory.tree_precise (an independent evaluation).
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import mpmath
+import numpy as np
+import pytest
+from tree_fixtures import demo, tapered_tree
+
+from cabletheory import case, tree_laplace
+from cabletheory.tree_laplace import PassiveTree, _network, _solve_kept, root_site, site_at
+from cabletheory.tree_precise import transfer_impedance_precise
+from cabletheory.tree_time import tree_response
+
+TIMES = np.linspace(0.0, 0.03, 61)
+S = np.array([-10.0 + 300j, 50.0 - 20j, 0.0])
+
+
+@pytest.fixture(autouse=True)
+def _empty_store():
+    tree_laplace._KEPT.clear()
+    yield
+    tree_laplace._KEPT.clear()
+
+
+def _cell(tree=None, rm=2.0, tips=None):
+    return PassiveTree(demo(soma=20.0) if tree is None else tree, rm, 1.5, 0.01, tips=tips)
+
+
+def test_moved_stimulus_and_reading_points_reuse_the_solution():
+    cell = _cell()
+    tree = cell.tree
+    first = _solve_kept(_network(cell, [root_site(), site_at(tree, "s3")]), S)
+    again = _solve_kept(_network(cell, [site_at(tree, "s5"), site_at(tree, "s6"), root_site()]), S)
+    assert again is first
+    assert not first.total.flags.writeable  # a caller cannot spoil what the next one reads
+
+
+@pytest.mark.parametrize("change", ["membrane", "axial", "diameter", "length", "tips", "soma", "cut"])
+def test_a_changed_tree_or_membrane_is_solved_again(change):
+    cell = _cell()
+    tree = cell.tree
+    sites = [root_site(), site_at(tree, "s3")]
+    kept = _solve_kept(_network(cell, sites), S)
+    if change == "membrane":
+        other = replace(cell, membrane_resistivity=2.5)
+    elif change == "axial":
+        other = replace(cell, axial_resistivity=1.2)
+    elif change == "diameter":
+        d = np.array(tree.distal_diameters)
+        d[4] *= 1.01
+        other = replace(cell, tree=replace(tree, distal_diameters=d, proximal_diameters=d))
+    elif change == "length":
+        ell = np.array(tree.lengths)
+        ell[1] *= 0.99
+        other = replace(cell, tree=replace(tree, lengths=ell))
+    elif change == "tips":
+        other = replace(cell, tips="killed")
+    elif change == "soma":
+        other = replace(cell, tree=replace(tree, soma_area=tree.soma_area * 1.1))
+    else:  # a site inside a piece cuts it: another network, though the tree is the same
+        other = cell
+        sites = [tree_laplace.Site(2, 1e-4)]
+    fresh = _solve_kept(_network(other, sites), S)
+    assert fresh is not kept
+    if change == "cut":  # one piece more; the same root admittance, up to rounding
+        assert fresh.total.shape[0] == kept.total.shape[0] + 1
+        np.testing.assert_allclose(fresh.total[0], kept.total[0], rtol=1e-12)
+    else:
+        assert not np.allclose(fresh.total[0], kept.total[0], rtol=1e-9, atol=0.0)
+
+
+def test_a_changed_membrane_gives_the_precise_values_not_the_kept_ones():
+    """After a solve at Rm = 2 Ω·m² is kept, Rm = 3 Ω·m² reads its own input impedance (mpmath
+    recursion of cabletheory.tree_precise, 30 digits)."""
+    s = np.array([20.0 + 100j])
+    _solve_kept(_network(_cell(rm=2.0), [root_site()]), s)
+    cell = _cell(rm=3.0)
+    sol = _solve_kept(_network(cell, [root_site()]), s)
+    with mpmath.workdps(30):
+        precise = complex(transfer_impedance_precise(cell, complex(s[0]), None, root_site(), digits=30))
+    assert 1.0 / sol.total[0, 0] == pytest.approx(precise, rel=1e-12)
+
+
+@pytest.mark.parametrize("make", [lambda: _cell(), lambda: PassiveTree(tapered_tree(), 2.0, 1.5, 0.01)])
+@pytest.mark.parametrize("stimulus", [case.CurrentStep(1e-10), case.AlphaCurrent(2e-10, 1e-3),
+                                      case.CurrentPulse(1e-10, 2e-3)])
+def test_reused_time_courses_equal_fresh_ones(make, stimulus):
+    cell = make()
+    tree = cell.tree
+    label = tree.labels[-1]
+    for at, record in ((root_site(), [root_site(), site_at(tree, label)]),
+                       (site_at(tree, label), [root_site()]),  # the stimulus moved: solutions reused
+                       (site_at(tree, tree.labels[1]), [site_at(tree, label), root_site()])):
+        kept = tree_response(cell, stimulus, TIMES, at, record, tolerance=1e-9, reuse=True)
+        fresh = tree_response(cell, stimulus, TIMES, at, record, tolerance=1e-9)
+        np.testing.assert_array_equal(kept.voltage, fresh.voltage)
+        np.testing.assert_array_equal(kept.errors, fresh.errors)
+    assert tree_laplace._KEPT  # the reused calls did keep their solutions
+
+
+def test_the_store_keeps_a_bounded_number_of_values(monkeypatch):
+    cell = _cell()
+    net = _network(cell, [root_site()])
+    per_solution = 4 * (net.size + 1) * S.size
+    monkeypatch.setattr(tree_laplace, "_KEPT_VALUES", 3 * per_solution)
+    for k in range(6):
+        _solve_kept(net, S + k)
+    assert sum(v.total.size * 4 for v in tree_laplace._KEPT.values()) <= 3 * per_solution
+    assert len(tree_laplace._KEPT) == 3
+    first = _solve_kept(net, S + 5)  # the most recent is still there
+    assert _solve_kept(net, S + 5) is first
