@@ -100,15 +100,19 @@ class _Plan:
 
 def _point_images(kernel, X: Array, X0: float, T: Array, L: float, sign: float, K: int) -> Array:
     """Σ_k sign^|k| [kernel(|X - X0 - 2kL|) + kernel(|X + X0 - 2kL|)] on the grid T × X."""
-    Tc = T[:, None]
-    total = np.zeros((T.size, X.size))
+    return _images_at(kernel, X[None, :], X0, T[:, None], L, sign, K)
+
+
+def _images_at(kernel, X: Array, X0: float, T: Array, L: float, sign: float, K: int) -> Array:
+    """:func:`_point_images` at X and T that broadcast (a grid, or pairs of equal-length vectors)."""
+    total = np.zeros(np.broadcast_shapes(X.shape, T.shape))
     for k in range(-K, K + 1):
         s = sign ** abs(k)
         shift = 2 * k * L if k else 0.0
         if X0 == 0.0:
-            total += 2 * s * kernel(np.abs(X - shift)[None, :], Tc)
+            total += 2 * s * kernel(np.abs(X - shift), T)
         else:
-            total += s * (kernel(np.abs(X - X0 - shift)[None, :], Tc) + kernel(np.abs(X + X0 - shift)[None, :], Tc))
+            total += s * (kernel(np.abs(X - X0 - shift), T) + kernel(np.abs(X + X0 - shift), T))
     return total
 
 
@@ -126,17 +130,26 @@ def _clamp_images(X: Array, T: Array, L: float, sigma: float, K: int) -> Array:
 def _shape_images(shape: Shape, X: Array, X0: float, T: Array, L: float, sign: float, K: int,
                   delayed: Array | None = None) -> Array:
     """Image sums of a step, pulse (a step minus the step delayed to ``delayed`` = T - D, formed
-    by the caller without cancellation) or alpha current."""
+    by the caller without cancellation) or alpha current at X and T (and ``delayed``), which
+    broadcast: :func:`_grid_images` on a grid, or pairs of equal-length vectors."""
     if shape.kind == "alpha":
         a = shape.time_to_peak
-        return _point_images(lambda d, t: point_source_alpha(d, t, a), X, X0, T, L, sign, K)
-    values = _point_images(point_source_step, X, X0, T, L, sign, K)
+        return _images_at(lambda d, t: point_source_alpha(d, t, a), X, X0, T, L, sign, K)
+    values = _images_at(point_source_step, X, X0, T, L, sign, K)
     if shape.kind == "pulse":
         later = T - shape.duration if delayed is None else delayed
-        values = values - _point_images(point_source_step, X, X0, later, L, sign, K)
+        values = values - _images_at(point_source_step, X, X0, later, L, sign, K)
     return values
 
 
+def _grid_images(shape: Shape, X: Array, X0: float, T: Array, L: float, sign: float, K: int,
+                 delayed: Array | None = None) -> Array:
+    """:func:`_shape_images` on the grid T × X."""
+    return _shape_images(shape, X[None, :], X0, T[:, None], L, sign, K, None if delayed is None else delayed[:, None])
+
+
+_SMALL = 1.0 / 16  # early values below this fraction of the largest steady voltage take images
+_FLOOR = 4 * float(np.finfo(float).eps)  # ... and the eigen-series is carried below this fraction of it
 _PRODUCT = 1 << 18  # multiply-adds per matrix product in the series sums (see _series)
 
 
@@ -195,13 +208,17 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
     fewer operations for a truncation error ≤ ``tolerance`` (absolute, in units of
     :math:`IR_\infty`); for a step or pulse, images are also preferred at early times whenever they
     need at most :data:`EARLY_REFLECTIONS` reflections, because they are then accurate relative to
-    each value (the eigen-series subtracts from the steady state). An alpha current's series
+    each value (the eigen-series subtracts from the steady state); such times whose eigen-series
+    costs at most a quarter of the images take that series carried until its tail is below 4ε of
+    the largest steady voltage g(X0, X0) (so its error is rounding, relative to that voltage), and
+    images only where a value is under 1/16 of it: every value keeps its digits, and the images,
+    an erfcx pair per term and point, are summed where they are needed. An alpha current's series
     (:func:`_alpha_by_residues`) takes every time at which it needs fewer operations than the
     images; its values are within the tolerance in absolute terms, not relative to values far
     below it (a far point just after the onset, where the images would keep digits). A soma, or
-    a leaky end whose bracket is too wide, at times whose eigen-series would need more than :data:`CONTOUR_MODES` modes,
-    uses the Laplace-domain solution inverted on a contour (:func:`cabletheory.laplace.current_inversion`),
-    whose error estimate is the bound there.
+    a leaky end whose bracket is too wide, at times whose eigen-series would need more than
+    :data:`CONTOUR_MODES` modes, uses the Laplace-domain solution inverted on a contour
+    (:func:`cabletheory.laplace.current_inversion`), whose error estimate is the bound there.
 
     ``delayed_time`` (pulse only): T - D for each T, formed by the caller from the SI times
     (``(t - duration)/τm``) so that the moments just after the pulse ends keep their digits;
@@ -236,7 +253,7 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
         if y != 0:
             raise InputError("a soma needs a finite cylinder")
         Tl = T[live]
-        out[live] = _shape_images(shp, X, X0, Tl, math.inf, 1.0, 0, delayed[live])
+        out[live] = _grid_images(shp, X, X0, Tl, math.inf, 1.0, 0, delayed[live])
         return out, bound, "closed form (semi-infinite cable: source and its image in the sealed end)"
     w_s, w_k = end_weights(B)
     images_exact = y == 0 and (w_k == 0 or w_s == 0)
@@ -264,6 +281,8 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
             mode_bound = current_bound(shp, L)
         n_need, _ = modes_needed(Tl, tol, L, mode_bound)
     use_eigen = np.ones(Tl.size, dtype=bool)
+    fine = np.zeros(0, dtype=np.intp)  # rows of the eigen-series to rounding level (below)
+    fine_count, fine_bound = np.zeros(0, dtype=int), np.zeros(0)
     if images_exact or leaky:
         tails = [image_tail]
         reflections = reflections_needed(Tl, L, tol / (2 if shp.kind == "pulse" else 1), tails[0])
@@ -271,6 +290,18 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
         cost_images *= 16 if shp.kind == "alpha" else 1
         # the alpha current's residue series needs as few modes as a step's: images only where cheaper
         prefer = (cost_images < n_need) | ((reflections <= EARLY_REFLECTIONS) & (shp.kind != "alpha"))
+        if images_exact and shp.kind != "alpha":
+            # early times whose images were chosen for their digits, not their cost: the eigen-series
+            # carried to rounding level where it is cheap, images only where a value is small
+            scale = float(steady_green(X0, X0, L, B, y))  # the largest steady voltage
+            floor = min(tol, _FLOOR * scale)
+            maybe = np.flatnonzero(prefer & (cost_images >= n_need))
+            if maybe.size and floor > 0:
+                counts, reached = modes_needed(effective[maybe], floor, L, mode_bound,
+                                               most=int(cost_images[maybe].max()) // 4)
+                take = 4 * counts <= cost_images[maybe]
+                fine, fine_count, fine_bound = maybe[take], counts[take], reached[take]
+                prefer[fine] = False
         for k in np.unique(reflections[prefer]).astype(int):
             idx = np.flatnonzero(prefer & (reflections == k))
             Tk = Tl[idx]
@@ -279,12 +310,12 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
             if shp.kind == "pulse":
                 tail = tail + image_tail(np.float64(k), Dk, L)
             if images_exact:
-                values = _shape_images(shp, X, X0, Tk, L, sign, k, Dk)
+                values = _grid_images(shp, X, X0, Tk, L, sign, k, Dk)
                 err = np.broadcast_to(tail[:, None], values.shape)
                 accepted = np.ones(idx.size, dtype=bool)
             else:
-                upper = _shape_images(shp, X, X0, Tk, L, 1.0, k, Dk)
-                lower = _shape_images(shp, X, X0, Tk, L, -1.0, k, Dk)
+                upper = _grid_images(shp, X, X0, Tk, L, 1.0, k, Dk)
+                lower = _grid_images(shp, X, X0, Tk, L, -1.0, k, Dk)
                 values = 0.5 * (upper + lower)
                 err = 0.5 * np.abs(upper - lower) + tail[:, None]
                 accepted = np.all(err <= tol, axis=1)
@@ -292,9 +323,10 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
             out[rows] = values[accepted]
             bound[rows] = err[accepted]
             use_eigen[idx[accepted]] = False
-        img_T = Tl[~use_eigen]
-        plan.add("sealed/killed bracket of images" if leaky else "images", img_T,
-                 int(reflections[~use_eigen].max()) if img_T.size else 0, "reflections per side")
+        imaged = ~use_eigen
+        plan.add("sealed/killed bracket of images" if leaky else "images", Tl[imaged],
+                 int(reflections[imaged].max(initial=0)), "reflections per side")
+        use_eigen[fine] = False
     # early times the images cannot take (a soma, or a leaky end near the end): contour inversion
     early = np.flatnonzero(use_eigen & (n_need > CONTOUR_MODES))
     if early.size:
@@ -305,38 +337,52 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
         use_eigen[early[accepted]] = False
         plan.add("Laplace-domain solution inverted on a contour", Tl[early[accepted]], contour.FINE, "nodes")
     idx = np.flatnonzero(use_eigen)
-    if idx.size:
-        Te = Tl[idx]
-        if np.any(n_need[idx] > MAX_MODES):  # pragma: no cover - the contour takes these times
-            worst = Te[n_need[idx] > MAX_MODES].min()
-            raise ConvergenceError(f"the eigen-series needs more than {MAX_MODES} modes at T = {worst:.3g} "
-                                   f"for tolerance {tol:.3g}; choose a later time or a looser truncation")
-        count = int(n_need[idx].max())
-        counts = np.full(idx.size, count)  # one count for all: every row's bound is that count's
-        alpha = eigen._eigenvalues(L, B, count, "sealed", y)
+    if idx.size and np.any(n_need[idx] > MAX_MODES):  # pragma: no cover - the contour takes these times
+        worst = Tl[idx][n_need[idx] > MAX_MODES].min()
+        raise ConvergenceError(f"the eigen-series needs more than {MAX_MODES} modes at T = {worst:.3g} "
+                               f"for tolerance {tol:.3g}; choose a later time or a looser truncation")
+    if idx.size or fine.size:
+        count = int(n_need[idx].max(initial=0))
+        alpha = eigen._eigenvalues(L, B, max(count, int(fine_count.max(initial=0)) if fine.size else 0), "sealed", y)
         mu = 1.0 + alpha**2
-        residues = eigen.mode_residues(alpha, X, X0, L, soma_ratio=y)  # (count, nX)
+        residues = eigen.mode_residues(alpha, X, X0, L, soma_ratio=y)  # (modes, nX)
         steady = steady_green(X, X0, L, B, y)
-        rows = live[idx]
+        row_scale: Array | None = None
         if shp.kind == "step":
-            _series(out, rows, counts, lambda s, r: np.exp(-mu[s] * Te[r, None]) / mu[s], residues, steady)
+            def time_factor(s: slice, p: NDArray[np.intp]) -> Array:
+                return np.exp(-mu[s] * Tl[p, None]) / mu[s]
         elif shp.kind == "pulse":
             D = shp.duration
-            De = Dl[idx]
-            after = De > 0
+            after = Dl > 0
+            row_scale = np.where(after, 0.0, 1.0)
 
-            def pulse_factor(s: slice, r: NDArray[np.intp]) -> Array:
-                later = after[r, None]
-                return np.where(later, np.expm1(-mu[s] * D) * np.exp(-mu[s] * np.where(later, De[r, None], 0.0)),
-                                np.exp(-mu[s] * Te[r, None])) / mu[s]
-
-            _series(out, rows, counts, pulse_factor, residues, steady, np.where(after, 0.0, 1.0))
+            def time_factor(s: slice, p: NDArray[np.intp]) -> Array:
+                later = after[p, None]
+                return np.where(later, np.expm1(-mu[s] * D) * np.exp(-mu[s] * np.where(later, Dl[p, None], 0.0)),
+                                np.exp(-mu[s] * Tl[p, None])) / mu[s]
         else:
-            factor, spatial = _alpha_by_residues(X, X0, Te, L, B, y, shp.time_to_peak, alpha, residues)
-            # the series sums steady - Σ factor·spatial: no steady part, and the terms' sign turned
-            _series(out, rows, np.full(idx.size, spatial.shape[0]), factor, -spatial, np.zeros(X.size))
-        bound[_rows_of(rows)] = mode_bound(count, effective[idx])[:, None]
-        plan.add("eigen-series", Te, count, "modes")
+            factor, spatial = _alpha_by_residues(X, X0, Tl[idx], L, B, y, shp.time_to_peak, alpha, residues)
+
+        def summed(which: NDArray[np.intp], counts: NDArray[np.int_]) -> None:
+            _series(out, live[which], counts, lambda s, r: time_factor(s, which[r]), residues, steady,
+                    None if row_scale is None else row_scale[which])
+
+        if fine.size:
+            summed(fine, fine_count)
+            bound[_rows_of(live[fine])] = fine_bound[:, None]
+            largest = _small_values_by_images(out, bound, shp, X, X0, Tl, Dl, live, fine, reflections[fine], L, sign,
+                                              _SMALL * scale)
+            plan.add("eigen-series to rounding level and images where a value is small", Tl[fine],
+                     int(fine_count.max()),
+                     f"modes, {largest} reflections per side" if largest else "modes")
+        if idx.size:
+            if shp.kind == "alpha":
+                # the series sums steady - Σ factor·spatial: no steady part, and the terms' sign turned
+                _series(out, live[idx], np.full(idx.size, spatial.shape[0]), factor, -spatial, np.zeros(X.size))
+            else:
+                summed(idx, np.full(idx.size, count))  # one count for all: every row's bound is that count's
+            bound[_rows_of(live[idx])] = mode_bound(count, effective[idx])[:, None]
+            plan.add("eigen-series", Tl[idx], count, "modes")
     return out, bound, plan.text()
 
 
@@ -404,6 +450,31 @@ def _alpha_by_residues(X: Array, X0: float, T: Array, L: float, B: float, y: flo
         return parts[0] if len(parts) == 1 else np.hstack(parts)
 
     return factor, spatial
+
+
+def _small_values_by_images(out: Array, bound: Array, shp: Shape, X: Array, X0: float, T: Array, D: Array,
+                            live: NDArray[np.intp], rows: NDArray[np.intp], reflections: Array, L: float,
+                            sign: float, small: float) -> int:
+    """Replace the series values below ``small`` in absolute value on the given rows (indices into
+    T, D and ``live``) by image sums with their reflection counts, and their bounds by the image
+    tails; return the most reflections used (0 if no value was small)."""
+    block = out[_rows_of(live[rows])]
+    used = 0
+    for k in np.unique(reflections).astype(int):
+        mine = np.flatnonzero(reflections == k)
+        r, c = np.nonzero(np.abs(block[mine]) < small)
+        if r.size == 0:
+            continue
+        p = rows[mine[r]]
+        Tp, Dp = T[p], D[p]
+        values = _shape_images(shp, X[c], X0, Tp, L, sign, k, Dp)
+        tail = image_tail(np.float64(k), Tp, L)
+        if shp.kind == "pulse":
+            tail = tail + image_tail(np.float64(k), Dp, L)
+        out[live[p], c] = values
+        bound[live[p], c] = tail
+        used = max(used, k)
+    return used
 
 
 def _inverted(shp: Shape, X: Array, X0: float, T: Array, delayed: Array, L: float, B: float,

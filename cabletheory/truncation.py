@@ -99,8 +99,9 @@ def reflections_needed(T: Array, L: float, tol: float, tail) -> Array:
     return K
 
 
-def modes_needed(T: Array, tol: float, L: float, bound) -> tuple[Array, Array]:
-    """Smallest mode count N per T with bound(N, T) ≤ tol (N ≤ MAX_MODES), and that bound.
+def modes_needed(T: Array, tol: float, L: float, bound, most: int = MAX_MODES) -> tuple[Array, Array]:
+    """Smallest mode count N per T with bound(N, T) ≤ tol (N ≤ ``most`` ≤ MAX_MODES), and that
+    bound; MAX_MODES + 1 and inf where no count up to ``most`` will do.
 
     The candidate counts (about 90, spaced geometrically up to :data:`MAX_MODES`) are tried from
     the smallest, each only at the times that no smaller one has satisfied, so a grid whose late
@@ -113,7 +114,7 @@ def modes_needed(T: Array, tol: float, L: float, bound) -> tuple[Array, Array]:
     todo = np.arange(flat_T.size)
     need_flat, achieved_flat = need.reshape(-1), achieved.reshape(-1)
     for n in _CANDIDATES:
-        if todo.size == 0:
+        if todo.size == 0 or n > most:
             break
         b = np.broadcast_to(bound(int(n), flat_T[todo]), todo.shape)
         ok = b <= tol
