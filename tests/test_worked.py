@@ -1,5 +1,8 @@
 """Worked examples in worked/: each run.py prints exactly its expected.txt.
 
+Each example runs inside the test process (tests/worked_runner.py: as ``__main__``, from the
+project root, output captured); one runs as a script in a fresh interpreter, as users run them.
+
 The expected outputs are also checked against values computed outside the project, so that
 regenerating expected.txt cannot hide a wrong number.
 """
@@ -11,6 +14,7 @@ import subprocess
 import sys
 
 import pytest
+from worked_runner import run_worked
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 EXAMPLES = sorted(p.parent for p in (ROOT / "worked").glob("*/expected.txt") if (p.parent / "run.py").exists())
@@ -20,11 +24,22 @@ def test_there_are_worked_examples():
     assert "single_cable" in {p.name for p in EXAMPLES}
 
 
+def _expected_status(folder: pathlib.Path) -> int:
+    return int((folder / "status").read_text()) if (folder / "status").exists() else 0
+
+
 @pytest.mark.parametrize("folder", EXAMPLES, ids=lambda p: p.name)
 def test_worked_example_output_is_as_documented(folder):
+    run = run_worked(folder.name)
+    assert run.returncode == _expected_status(folder), run.stderr
+    assert run.stdout == (folder / "expected.txt").read_text(encoding="utf-8")
+
+
+def test_a_worked_example_runs_as_a_script_in_a_fresh_interpreter():
+    """As the README runs them: `python worked/NAME/run.py` from the project root."""
+    folder = ROOT / "worked" / "single_cable"
     proc = subprocess.run([sys.executable, str(folder / "run.py")], capture_output=True, text=True, cwd=ROOT)
-    expected_status = int((folder / "status").read_text()) if (folder / "status").exists() else 0
-    assert proc.returncode == expected_status, proc.stderr
+    assert proc.returncode == _expected_status(folder), proc.stderr
     assert proc.stdout == (folder / "expected.txt").read_text(encoding="utf-8")
 
 

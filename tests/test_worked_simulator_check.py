@@ -8,11 +8,10 @@ from __future__ import annotations
 
 import math
 import pathlib
-import subprocess
-import sys
 
 import numpy as np
 import pytest
+from worked_runner import run_worked
 
 from cabletheory import verify as vf
 from cabletheory.cable import Cylinder
@@ -23,9 +22,9 @@ FOLDER = ROOT / "worked" / "simulator_check"
 
 @pytest.fixture(scope="module")
 def output() -> str:
-    proc = subprocess.run([sys.executable, str(FOLDER / "run.py")], capture_output=True, text=True, cwd=ROOT)
-    assert proc.returncode == 0, proc.stderr  # coarse run flagged, refined run passed
-    return proc.stdout
+    run = run_worked(FOLDER.name)  # in this process (tests/worked_runner.py), shared with test_worked.py
+    assert run.returncode == 0, run.stderr  # coarse run flagged, refined run passed
+    return run.stdout
 
 
 def test_coarse_run_is_flagged_and_refined_run_passes(output: str) -> None:

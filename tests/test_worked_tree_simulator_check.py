@@ -10,11 +10,10 @@ independent general-purpose library [mpmath2023]), not with the package's tree s
 from __future__ import annotations
 
 import pathlib
-import subprocess
-import sys
 
 import mpmath as mp
 import pytest
+from worked_runner import run_worked
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 FOLDER = ROOT / "worked" / "tree_simulator_check"
@@ -72,9 +71,9 @@ def _alpha_at_tip(t):
 
 @pytest.fixture(scope="module")
 def output() -> str:
-    proc = subprocess.run([sys.executable, str(FOLDER / "run.py")], capture_output=True, text=True, cwd=ROOT)
-    assert proc.returncode == 0, proc.stderr  # coarse run flagged, finest run passed, advice given
-    return proc.stdout
+    run = run_worked(FOLDER.name)  # in this process (tests/worked_runner.py), shared with test_worked.py
+    assert run.returncode == 0, run.stderr  # coarse run flagged, finest run passed, advice given
+    return run.stdout
 
 
 def test_the_exact_tip_voltages_of_the_story_are_mpmaths(output):
