@@ -160,28 +160,35 @@ def test_tab_moves_through_the_fields_in_reading_order():
 
 
 # -- export ---------------------------------------------------------------------------------------------------
-@pytest.mark.parametrize("suffix", ["json", "csv", "md", "svg"])
-def test_export_writes_the_file_the_user_names(tmp_path, suffix):
-    target = tmp_path / f"cable.{suffix}"
+SUFFIXES = ("json", "csv", "md", "svg")
+
+
+def test_export_writes_the_file_the_user_names(tmp_path):
+    """Each format in turn from one app (saving leaves the view as it was): the dialog closes, the
+    status names the file, and the file holds the result in its format."""
+    targets = {suffix: tmp_path / f"cable.{suffix}" for suffix in SUFFIXES}
 
     async def script(app, pilot):
-        await pilot.press("ctrl+g" if suffix == "svg" else "ctrl+s")
-        assert isinstance(app.screen, SaveScreen)
-        box = app.screen.query_one("#save-path", Input)
-        box.value = str(target)
-        await pilot.press("enter")
-        await pilot.pause()
-        assert not isinstance(app.screen, SaveScreen)
-        assert f"Saved {target}" in text_of(app, "#status")
+        for suffix, target in targets.items():
+            await pilot.press("ctrl+g" if suffix == "svg" else "ctrl+s")
+            assert isinstance(app.screen, SaveScreen), suffix
+            box = app.screen.query_one("#save-path", Input)
+            box.value = str(target)
+            await pilot.press("enter")
+            await pilot.pause()
+            assert not isinstance(app.screen, SaveScreen), suffix
+            assert f"Saved {target}" in text_of(app, "#status")
 
     drive(script)
-    content = target.read_text(encoding="utf-8")
-    if suffix == "json":
-        assert json.loads(content)["results"]["input_resistance"]["unit"] == "ohm"
-    elif suffix == "svg":
-        assert "<svg" in content
-    else:
-        assert "input_resistance" in content or "input resistance" in content
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(t.name for t in targets.values())
+    for suffix, target in targets.items():
+        content = target.read_text(encoding="utf-8")
+        if suffix == "json":
+            assert json.loads(content)["results"]["input_resistance"]["unit"] == "ohm"
+        elif suffix == "svg":
+            assert "<svg" in content
+        else:
+            assert "input_resistance" in content or "input resistance" in content, suffix
 
 
 def test_export_with_a_bad_name_keeps_the_dialog_open_with_a_message(tmp_path):
