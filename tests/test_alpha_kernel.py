@@ -1,10 +1,12 @@
 """The alpha-current point source of an infinite cable (kernels.point_source_alpha) against mpmath.
 
 For a < 1 and x = sqrt((1/a - 1) T) >= 1 the value comes from a closed-form derivative with one
-Faddeeva value; elsewhere from Cauchy's formula on half a circle (the other half is its mirror
-image). Both are checked against an independent route: ``precise.point_source_alpha``, which
-differentiates the erfc form with ``mpmath.diff`` at 30 guard digits (the mpmath development team
-2023 [mpmath2023]), on both sides of x = 1, at the source and away from it, for a below and above 1.
+Faddeeva value, for a > 1 and x = sqrt((1 - 1/a) T) >= 1 from its real form with two scaled erfc
+values; elsewhere from Cauchy's formula on half a circle (the other half is its mirror image).
+All are checked against an independent route: ``precise.point_source_alpha``, which
+differentiates the erfc form with ``mpmath.diff`` at 30 guard digits (the mpmath development
+team 2023 [mpmath2023]), on both sides of x = 1, at the source and away from it, for a below and
+above 1.
 """
 
 from __future__ import annotations
@@ -20,7 +22,7 @@ from cabletheory.kernels import point_source_alpha
 
 
 def _cases():
-    for a in (0.004, 0.05, 0.3, 0.8, 1.0, 3.0):
+    for a in (0.004, 0.05, 0.3, 0.8, 1.0, 3.0, 40.0):
         s = math.sqrt(abs(1 / a - 1))
         edge = 1.0 / (s * s) if s > 0 else 1.0  # x = 1 here (b < 0)
         for T in sorted({1e-4, 0.3 * edge, 0.99 * edge, 1.01 * edge, 3 * edge, 0.5, 4.0}):
@@ -44,10 +46,11 @@ def test_point_source_alpha_matches_mpmath(a):
             assert abs(value - exact) <= 1e-14 + 1e-10 * abs(exact), (a, T, d, value, exact)
 
 
-def test_closed_form_and_circle_agree_across_x_equal_1():
-    """Just below and just above x = 1 the two routes give one smooth function (no step at the switch)."""
-    a = 0.05
-    edge = 1.0 / (1 / a - 1)
+@pytest.mark.parametrize("a", [0.05, 3.0])
+def test_closed_form_and_circle_agree_across_x_equal_1(a):
+    """Just below and just above x = 1 the two routes give one smooth function (no step at the
+    switch), for a < 1 (Faddeeva form) and a > 1 (real scaled-erfc form)."""
+    edge = 1.0 / abs(1 / a - 1)
     d = np.array([0.0, 0.5, 1.5])
     below = point_source_alpha(d, np.full(3, edge * (1 - 1e-12)), a)
     above = point_source_alpha(d, np.full(3, edge * (1 + 1e-12)), a)
