@@ -154,8 +154,9 @@ _PRODUCT = 1 << 18  # multiply-adds per matrix product in the series sums (see _
 
 
 def _rows_of(index: NDArray[np.intp]) -> slice | NDArray[np.intp]:
-    """A slice for ascending consecutive row indices (a view, no copy), else the indices."""
-    if index.size and int(index[-1]) - int(index[0]) + 1 == index.size and bool(np.all(np.diff(index) == 1)):
+    """A slice for consecutive row indices (a view, no copy), else the indices, which must
+    increase strictly (every caller's do: they come from ``np.flatnonzero``)."""
+    if index.size and int(index[-1]) - int(index[0]) + 1 == index.size:
         return slice(int(index[0]), int(index[-1]) + 1)
     return index
 

@@ -82,8 +82,8 @@ def point_source_step(distance: ArrayLike, normalised_time: ArrayLike) -> Array:
     with np.errstate(over="ignore", invalid="ignore"):
         _, z, w, big_e, e_d = _erfc_parts(distance, Tp)
         neg = z < 0
-        za = np.abs(z)
-        value = np.where(neg, 2.0 * e_d - big_e * (erfcx(za) + erfcx(w)), big_e * (erfcx(za) - erfcx(w)))
+        first, second = erfcx(np.abs(z)), erfcx(w)  # each once: np.where evaluates both of its forms
+        value = np.where(neg, 2.0 * e_d - big_e * (first + second), big_e * (first - second))
         near = (z < 0.5) & (Tp < 1.0)
         if near.any():
             from scipy.special import erf
