@@ -41,56 +41,72 @@ async def type_into(pilot, app: CableApp, field: str, text: str) -> None:
 
 
 # -- shell ---------------------------------------------------------------------------------------------
-def test_starts_on_the_cylinder_view_with_caveat_and_results():
+# The shell's checks run in turn from one app start (each leaves the app where the next expects it:
+# the first three on the cylinder view, then the view keys, then a click on the view bar).
+async def starts_on_the_cylinder_view_with_caveat_and_results(app, pilot):
+    assert app.current_view == "cylinder"
+    assert PASSIVE_CAVEAT in text_of(app, "#caveat")
+    results = text_of(app, "#cylinder-results")
+    assert "707.1 µm" in results  # λ of the demo cable
+    assert "739.3 MΩ" in results  # R∞ coth L, sealed
+    assert app.focused is app.query_one("#Rm")  # focus starts on the first field
+
+
+async def tab_moves_through_the_fields_in_reading_order(app, pilot):
+    app.query_one("#Rm").focus()
+    order = [app.focused.id]
+    for _ in range(5):
+        await pilot.press("tab")
+        order.append(app.focused.id)
+    assert order == ["Rm", "Ri", "Cm", "diameter", "length", "end"]
+
+
+async def help_panel_lists_every_key_and_closes_with_escape(app, pilot):
+    await pilot.press("f1")
+    assert isinstance(app.screen, HelpScreen)
+    shown = str(app.screen.query_one("#help-text").render())
+    for key in (*GLOBAL_KEYS, *VIEW_KEYS["cylinder"]):
+        assert key_label(key.key) in shown
+        assert key.description in shown
+    await pilot.press("escape")
+    assert not isinstance(app.screen, HelpScreen)
+    await pilot.press("f1", "f1")  # F1 toggles
+    assert not isinstance(app.screen, HelpScreen)
+
+
+async def function_keys_and_ctrl_t_switch_views(app, pilot):
+    seen = []
+    for key in ("f3", "f4", "f5", "f2"):
+        await pilot.press(key)
+        seen.append(app.current_view)
+    assert seen == ["charging", "tree", "check", "cylinder"]
+    await pilot.press("ctrl+t")
+    assert app.current_view == "charging"
+
+
+async def clicking_a_view_name_switches_view(app, pilot):
+    bar = str(app.query_one("#view-bar").render())
+    column = bar.index("F4 Tree")
+    await pilot.click("#view-bar", offset=(column + 1, 0))
+    await pilot.pause()
+    assert app.current_view == "tree"
+
+
+SHELL_CHECKS = (starts_on_the_cylinder_view_with_caveat_and_results, tab_moves_through_the_fields_in_reading_order,
+                help_panel_lists_every_key_and_closes_with_escape, function_keys_and_ctrl_t_switch_views,
+                clicking_a_view_name_switches_view)
+
+
+def test_the_shell_starts_on_the_cylinder_view_and_its_keys_and_clicks_work():
+    done = []
+
     async def script(app, pilot):
-        assert app.current_view == "cylinder"
-        assert PASSIVE_CAVEAT in text_of(app, "#caveat")
-        results = text_of(app, "#cylinder-results")
-        assert "707.1 µm" in results  # λ of the demo cable
-        assert "739.3 MΩ" in results  # R∞ coth L, sealed
-        assert app.focused is app.query_one("#Rm")  # focus starts on the first field
+        for check in SHELL_CHECKS:
+            await check(app, pilot)
+            done.append(check.__name__)
 
     drive(script)
-
-
-def test_function_keys_and_ctrl_t_switch_views():
-    async def script(app, pilot):
-        seen = []
-        for key in ("f3", "f4", "f5", "f2"):
-            await pilot.press(key)
-            seen.append(app.current_view)
-        assert seen == ["charging", "tree", "check", "cylinder"]
-        await pilot.press("ctrl+t")
-        assert app.current_view == "charging"
-
-    drive(script)
-
-
-def test_clicking_a_view_name_switches_view():
-    async def script(app, pilot):
-        bar = str(app.query_one("#view-bar").render())
-        column = bar.index("F4 Tree")
-        await pilot.click("#view-bar", offset=(column + 1, 0))
-        await pilot.pause()
-        assert app.current_view == "tree"
-
-    drive(script)
-
-
-def test_help_panel_lists_every_key_and_closes_with_escape():
-    async def script(app, pilot):
-        await pilot.press("f1")
-        assert isinstance(app.screen, HelpScreen)
-        shown = str(app.screen.query_one("#help-text").render())
-        for key in (*GLOBAL_KEYS, *VIEW_KEYS["cylinder"]):
-            assert key_label(key.key) in shown
-            assert key.description in shown
-        await pilot.press("escape")
-        assert not isinstance(app.screen, HelpScreen)
-        await pilot.press("f1", "f1")  # F1 toggles
-        assert not isinstance(app.screen, HelpScreen)
-
-    drive(script)
+    assert done == [check.__name__ for check in SHELL_CHECKS]
 
 
 # -- cylinder view ---------------------------------------------------------------------------------------
@@ -144,17 +160,6 @@ def test_blank_frequency_drops_the_sinusoidal_rows():
         await type_into(pilot, app, "frequency", "")
         assert "input impedance phase" not in text_of(app, "#cylinder-results")
         assert len(app.query_one("#cylinder-plot").spec.series) == 1
-
-    drive(script)
-
-
-def test_tab_moves_through_the_fields_in_reading_order():
-    async def script(app, pilot):
-        order = [app.focused.id]
-        for _ in range(5):
-            await pilot.press("tab")
-            order.append(app.focused.id)
-        assert order == ["Rm", "Ri", "Cm", "diameter", "length", "end"]
 
     drive(script)
 
