@@ -151,7 +151,7 @@ def parabolic_contour(times: ArrayLike, count: int) -> Contour:
                    last=float(t.max(initial=-math.inf)), predicted=math.nan)
 
 
-@functools.lru_cache(maxsize=256)
+@functools.lru_cache(maxsize=4096)  # a few hundred (N, Λ) per tolerance; too few and they evict each other
 def _hyperbolic_design(count: int, ratio: float) -> tuple[float, float, float, float]:
     """(α, h, μ·t0, predicted error) for N = ``count`` and Λ = ``ratio`` (Weideman & Trefethen 2007)."""
     alpha = np.linspace(math.pi / 4 + 1e-4, math.pi / 2 - 1e-4, 4000)
@@ -286,6 +286,7 @@ def invert(transform: Transform, times: ArrayLike, *, coarse: int = COARSE, fine
                             f"checked against {coarse + 1})")
 
 
+@functools.lru_cache(maxsize=1024)
 def _nodes_needed(ratio: float, target: float) -> int | None:
     """The smallest N whose error model for windows of ratio Λ = ``ratio``, times
     :data:`MODEL_SAFETY`, is at most ``target`` (relative); None beyond :data:`MAX_NODES`."""

@@ -176,9 +176,21 @@ class TreeSites:
         return piece, distance
 
 
+# the reader of the tree last asked about: a case names its points one at a time, and indexing a
+# tree's labels costs more than reading a label (held by identity: a Tree is frozen)
+_LAST: tuple[Tree, LengthParser | None, TreeSites] | None = None
+
+
 def tree_site(tree: Tree, text: str, parse: LengthParser | None = None) -> Site:
     """The site of ``tree`` that ``text`` names (a point label, 'soma', 'branch 443 +25 um')."""
-    return TreeSites(tree, parse).point(text).site
+    global _LAST
+    last = _LAST
+    if last is not None and last[0] is tree and last[1] is parse:
+        sites = last[2]
+    else:
+        sites = TreeSites(tree, parse)
+        _LAST = (tree, parse, sites)
+    return sites.point(text).site
 
 
 def in_words(label: str, site: Site | None = None) -> str:

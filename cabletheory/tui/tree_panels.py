@@ -338,6 +338,12 @@ def attenuation_bin(value: float) -> int:
     return int(np.searchsorted(ATTENUATION_BINS, value, side="right"))
 
 
+def attenuation_bins(values: Sequence[float] | np.ndarray) -> np.ndarray:
+    """:func:`attenuation_bin` of every value at once."""
+    v = np.asarray(values, dtype=float)
+    return np.where(np.isfinite(v), np.searchsorted(ATTENUATION_BINS, v, side="right"), len(ATTENUATION_BINS))
+
+
 def bin_labels() -> list[str]:
     edges = ("1", *(f"{b:g}" for b in ATTENUATION_BINS))
     return [f"{lo}–{hi}" for lo, hi in itertools.pairwise(edges)] + [f"> {edges[-1]}"]
@@ -355,7 +361,7 @@ def dendrogram(tree: Tree, values: Sequence[float] | np.ndarray, width: int, hei
     is :func:`dendrogram_layout` of the same tree and size, when the caller keeps it (the drawing
     does not depend on the values, only its colours do)."""
     rows, nodes = layout if layout is not None else dendrogram_layout(tree, width, height)
-    bins = [attenuation_bin(float(v)) for v in np.asarray(values, dtype=float)]
+    bins = attenuation_bins(values).tolist()
     return rows, [[bins[k] if k >= 0 else -1 for k in line] for line in nodes]
 
 

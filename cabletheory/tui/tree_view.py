@@ -16,6 +16,7 @@ from textual import work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.coordinate import Coordinate
 from textual.widget import Widget
 from textual.widgets import (
     Checkbox,
@@ -101,6 +102,8 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
         self._busy_timer: Timer | None = None
         self._reports: dict[str, Report | None] = dict.fromkeys(PANELS)
         self._map_rows: list[list[object]] = []  # the map table's rows as values (for sorting)
+        self._map_cells: list[list[str]] = []  # ... and as the texts shown
+        self._map_order: list[int] = []  # the row shown on each line of the table
         self._map_sort: tuple[int, bool] = (-1, False)  # (column, descending); -1: the tree's order
         self._field_cache: dict[str, dict[str, QuantityField]] = {}
         self._input_cache: dict[str, Input] = {}
@@ -563,20 +566,37 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
         self.query_one(MapDrawing).show((tree, values))
 
     def _fill_map_table(self, report: Report) -> None:
+        """Show the map's rows. The same points in the same order as shown (a new frequency or
+        membrane on the same tree): only the cells whose text changed are rewritten; rebuilding the
+        table measures and draws every cell again, which costs more than computing the map."""
+        from rich.cells import cell_len
+
         from .report import cell_text
 
         columns = report.tables[0].columns
         table = self.query_one("#tree-map-table", DataTable)
-        if [str(c.label) for c in table.columns.values()] != [c.label for c in columns]:
+        count = report.tables[0].length
+        shown_cells, shown_order = self._map_cells, self._map_order
+        self._map_rows = [[c.values[i] for c in columns] for i in range(count)]
+        self._map_cells = [[cell_text(c.values[i], c.kind) for c in columns] for i in range(count)]
+        labels = [c.label for c in columns]
+        same_columns = [str(c.label) for c in table.columns.values()] == labels
+        order = self._map_order_now()
+        if same_columns and table.row_count == count and len(shown_cells) == count and order == shown_order:
+            widths = [c.content_width for c in table.ordered_columns]
+            for r, i in enumerate(order):
+                new, old = self._map_cells[i], shown_cells[i]
+                for c, text in enumerate(new):
+                    if text != old[c]:
+                        table.update_cell_at(Coordinate(r, c), text, update_width=cell_len(text) > widths[c])
+            return
+        if not same_columns:
             table.clear(columns=True)
-            table.add_columns(*(c.label for c in columns))
-        self._map_rows = [[c.values[i] for c in columns] for i in range(report.tables[0].length)]
-        self._map_cells = [[cell_text(c.values[i], c.kind) for c in columns] for i in range(report.tables[0].length)]
+            table.add_columns(*labels)
         self._order_map_table()
 
-    def _order_map_table(self) -> None:
-        """Fill the table in the order chosen: the tree's (parents first), or by a column clicked."""
-        table = self.query_one("#tree-map-table", DataTable)
+    def _map_order_now(self) -> list[int]:
+        """The rows' order chosen: the tree's (parents first), or by a column clicked."""
         column, descending = self._map_sort
         order = list(range(len(self._map_rows)))
         if column >= 0:
@@ -588,8 +608,14 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
                 return (1 if number != number else 0, number)  # nan last
 
             order.sort(key=key, reverse=descending)
+        return order
+
+    def _order_map_table(self) -> None:
+        """Fill the table in the order chosen."""
+        table = self.query_one("#tree-map-table", DataTable)
+        self._map_order = self._map_order_now()
         table.clear()
-        table.add_rows([self._map_cells[i] for i in order])
+        table.add_rows([self._map_cells[i] for i in self._map_order])
 
     def on_data_table_header_selected(self, event: DataTable.HeaderSelected) -> None:
         """A click on a column's header orders the map by it (largest first); again: smallest first;
