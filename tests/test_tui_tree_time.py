@@ -73,7 +73,9 @@ def table(report, key: str):
 # -- the time course ---------------------------------------------------------------------------------
 def test_typing_a_stimulus_point_shows_the_time_course_that_tree_response_gives():
     """An alpha current typed at tip 'left.a': the values on screen are tree_response's at every time
-    and reading point (the soma and the stimulus point), within the error estimate shown."""
+    and reading point (the soma and the stimulus point), within the error estimate shown. Then, in
+    the same app, an unknown point label gets a one-line error naming the field
+    (:func:`check_unknown_point_labels`)."""
     seen = {}
 
     async def script(app, pilot) -> None:
@@ -86,8 +88,10 @@ def test_typing_a_stimulus_point_shows_the_time_course_that_tree_response_gives(
         seen["report"] = view.report
         seen["plot"] = app.query_one("#tree-time-plot").spec
         seen["features"] = str(app.query_one("#tree-time-features").render())
+        await unknown_point_labels(app, pilot, seen)
 
     drive(script)
+    check_unknown_point_labels(seen)
     report = seen["report"]
     assert report is not None
     assert report.view == "tree_time_course"
@@ -113,10 +117,38 @@ def test_typing_a_stimulus_point_shows_the_time_course_that_tree_response_gives(
     assert "ms" in seen["features"]
 
 
+async def unknown_point_labels(app, pilot, seen: dict) -> None:
+    """Type a stimulus point and a reading point that the tree does not have, then fix each."""
+    view = app.query_one("#tree")
+    await type_into(pilot, "tr-stimulus_at", "nowhere")
+    seen["stimulus"] = app.query_one("#field-tr-stimulus_at").echo_text
+    seen["unknown report"] = view.report
+    seen["results"] = str(app.query_one("#tree-time-results").render())
+    await type_into(pilot, "tr-stimulus_at", "left.b")
+    await type_into(pilot, "tr-record_at", "soma, 9999")
+    seen["record"] = app.query_one("#field-tr-record_at").echo_text
+    await type_into(pilot, "tr-record_at", "soma, right.b")
+    seen["fixed"] = view.report
+
+
+def check_unknown_point_labels(seen: dict) -> None:
+    """An unknown point label gets a one-line error naming the field; fixed, the result is back."""
+    assert seen["stimulus"].startswith("stimulus at: no point 'nowhere' in ")  # the tree or its file
+    assert "\n" not in seen["stimulus"]
+    assert seen["unknown report"] is None
+    assert "flagged" in seen["results"]
+    assert seen["record"].startswith("V(t) at: no point '9999' in ")
+    assert "\n" not in seen["record"]
+    assert seen["fixed"] is not None
+    assert [c.label for c in table(seen["fixed"], "time_course").columns[1:3]] == ["V at soma", "V at point right.b"]
+
+
 def test_the_tree_time_course_of_the_demo_tree_is_its_ball_and_stick():
     """The demo tree obeys Rall's conditions: a current step at the soma charges the soma exactly as
     the ball and stick of its equivalent cylinder does (Rall 1959 [Rall1959]; that solution from
-    cabletheory.transient, an eigenfunction series independent of the tree's contour inversion)."""
+    cabletheory.transient, an eigenfunction series independent of the tree's contour inversion).
+    Then, in the same app, the reduction is shown beside the tree when asked
+    (:func:`check_the_reduction_beside_the_tree`)."""
     from cabletheory.cable import Cylinder
     from cabletheory.case import BallAndStick, CurrentStep
     from cabletheory.transient import charge
@@ -128,8 +160,12 @@ def test_the_tree_time_course_of_the_demo_tree_is_its_ball_and_stick():
         view.show_panel("time")
         await settle(app, pilot)
         seen["report"] = view.report
+        app.query_one("#tr-reduced").value = True
+        await settle(app, pilot)
+        seen["reduced"] = view.report
 
     drive(script)
+    check_the_reduction_beside_the_tree(seen["reduced"])
     course = table(seen["report"], "time_course")
     times = np.asarray(course.columns[0].values)
     # equivalent cylinder of the demo tree: d = 4 µm, ℓ/λ summed along a path (300/λ4 + 300/λ2.52 + 200/λ1.59)
@@ -141,47 +177,8 @@ def test_the_tree_time_course_of_the_demo_tree_is_its_ball_and_stick():
     np.testing.assert_allclose(np.asarray(course.columns[1].values), reduced.voltage[:, 0], rtol=0, atol=1e-9 * 0.1)
 
 
-def test_an_unknown_point_label_gets_a_one_line_error_naming_the_field():
-    seen = {}
-
-    async def script(app, pilot) -> None:
-        view = app.query_one("#tree")
-        view.show_panel("time")
-        await settle(app, pilot)
-        await type_into(pilot, "tr-stimulus_at", "nowhere")
-        seen["stimulus"] = app.query_one("#field-tr-stimulus_at").echo_text
-        seen["report"] = view.report
-        seen["results"] = str(app.query_one("#tree-time-results").render())
-        await type_into(pilot, "tr-stimulus_at", "left.b")
-        await type_into(pilot, "tr-record_at", "soma, 9999")
-        seen["record"] = app.query_one("#field-tr-record_at").echo_text
-        await type_into(pilot, "tr-record_at", "soma, right.b")
-        seen["fixed"] = view.report
-
-    drive(script)
-    assert seen["stimulus"].startswith("stimulus at: no point 'nowhere' in ")  # the tree or its file
-    assert "\n" not in seen["stimulus"]
-    assert seen["report"] is None
-    assert "flagged" in seen["results"]
-    assert seen["record"].startswith("V(t) at: no point '9999' in ")
-    assert "\n" not in seen["record"]
-    assert seen["fixed"] is not None
-    assert [c.label for c in table(seen["fixed"], "time_course").columns[1:3]] == ["V at soma", "V at point right.b"]
-
-
-def test_the_reduction_is_shown_beside_the_tree_when_asked():
-    seen = {}
-
-    async def script(app, pilot) -> None:
-        view = app.query_one("#tree")
-        view.show_panel("time")
-        await settle(app, pilot)
-        app.query_one("#tr-reduced").value = True
-        await settle(app, pilot)
-        seen["report"] = view.report
-
-    drive(script)
-    report = seen["report"]
+def check_the_reduction_beside_the_tree(report) -> None:
+    """The reduction's curve beside the tree's, and their largest difference."""
     labels = [s.label for s in report.plots[0].series]
     assert labels == ["at soma", "soma, soma and equivalent cylinder"]
     difference = next(r for r in report.results if r.key == "reduction_largest_difference")
