@@ -386,6 +386,8 @@ def mode_shapes(alpha: ArrayLike, position: ArrayLike, *, origin: str = "sealed"
     x = np.asarray(position, dtype=float)
     if origin == "clamped":
         return np.sin(a * x)
+    if soma_ratio == 0:
+        return np.cos(a * x)
     return np.cos(a * x) - soma_ratio * a * np.sin(a * x)
 
 
@@ -427,10 +429,16 @@ def mode_residues(alpha: ArrayLike, position: ArrayLike, source: ArrayLike, elec
     \cos(n\pi X/L)\cos(n\pi X_0/L)`); Bluman & Tuckwell (1987) J. Neurosci. Methods 20:151
     (Green's function with a lumped soma).
     """
-    x, x0 = np.broadcast_arrays(np.asarray(position, dtype=float), np.asarray(source, dtype=float))
+    x, x0 = np.asarray(position, dtype=float), np.asarray(source, dtype=float)
     a = np.asarray(alpha, dtype=float)
+    if x0.ndim == 0:  # one source: its shapes once per mode, not once per position
+        x = np.asarray(x)
+        at_source = mode_shapes(a, x0, soma_ratio=soma_ratio)[(...,) + (None,) * x.ndim]
+    else:
+        x, x0 = np.broadcast_arrays(x, x0)
+        at_source = mode_shapes(a, x0, soma_ratio=soma_ratio)
     norms = mode_norms(a, electrotonic_length, soma_ratio=soma_ratio)[(...,) + (None,) * x.ndim]
-    return (mode_shapes(a, x, soma_ratio=soma_ratio) * mode_shapes(a, x0, soma_ratio=soma_ratio)) / norms
+    return (mode_shapes(a, x, soma_ratio=soma_ratio) * at_source) / norms
 
 
 def clamp_mode_coefficients(alpha: ArrayLike, position: ArrayLike, electrotonic_length: float) -> Array:
@@ -493,9 +501,11 @@ def ball_and_stick_coefficients(electrotonic_length: float, conductance_ratio: f
 # --------------------------------------------------------------------------------------
 # truncation bounds
 # --------------------------------------------------------------------------------------
-def tail_bound(first_excluded: int, normalised_time: ArrayLike, electrotonic_length: float, *,
+def tail_bound(first_excluded: int | ArrayLike, normalised_time: ArrayLike, electrotonic_length: float, *,
                kind: str = "step", origin: str = "sealed", rate: float = 0.0) -> Array:
-    r"""Rigorous bound on the modes ``n >= first_excluded`` of a series, per time T.
+    r"""Rigorous bound on the modes ``n >= first_excluded`` of a series, per time T (an array of
+    counts broadcasts against the times: :func:`cabletheory.truncation.modes_needed` tries several
+    counts in one call).
 
     With :math:`a_n` the branch lower bounds (:math:`\alpha_n \ge a_n \ge 1/L` for n ≥ 1), the
     residue bound :math:`|r_n| \le 4/L`, and the integral test for decreasing terms on a lattice
@@ -518,10 +528,16 @@ def tail_bound(first_excluded: int, normalised_time: ArrayLike, electrotonic_len
     """
     T = np.asarray(normalised_time, dtype=float)
     L = float(electrotonic_length)
-    N = int(first_excluded)
-    if N < 1:
-        raise InputError("tail bounds need first_excluded >= 1")
-    a = float(branch_lower_bounds(1, L, origin=origin, start=N)[0])
+    if np.ndim(first_excluded) == 0:
+        N = int(first_excluded)  # type: ignore[arg-type]
+        if N < 1:
+            raise InputError("tail bounds need first_excluded >= 1")
+        a: float | Array = float(branch_lower_bounds(1, L, origin=origin, start=N)[0])
+    else:  # several counts at once (a column against a row of times, say): the same lower ends
+        counts = np.asarray(first_excluded, dtype=float)
+        if np.any(counts < 1):
+            raise InputError("tail bounds need first_excluded >= 1")
+        a = counts * np.pi / L if origin == "clamped" else np.maximum(0.0, (counts - 0.5) * np.pi / L)
     k = 4.0 / L
     lattice = L / np.pi
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
@@ -537,14 +553,14 @@ def tail_bound(first_excluded: int, normalised_time: ArrayLike, electrotonic_len
 
             gaussian = np.where(T > 0, np.exp(-T) * np.sqrt(np.pi) * erfc(a * np.sqrt(T))
                                 / (2 * np.sqrt(T) * (1 + a * a)), np.inf)
-            integral = np.minimum(gaussian, np.pi / 2 - math.atan(a))
+            integral = np.minimum(gaussian, np.pi / 2 - np.arctan(a))
             out = k * (decay / (1 + a * a) + lattice * integral)
         elif kind == "clamp":
             # α/(1+α²) ≤ min(1/2, 1/α), which decreases; ∫ e^{-α²T}/α ≤ e^{-a²T}/(2Ta²) for a ≥ 1
-            m = max(a, 1.0)
-            integral = np.where(T > 0, np.exp(-T) * (max(0.0, 1.0 - a) / 2 + np.exp(-m * m * T) / (2 * T * m * m)),
-                                np.inf)
-            out = k * (min(0.5, 1.0 / a) * decay + lattice * integral)
+            m = np.maximum(a, 1.0)
+            integral = np.where(T > 0, np.exp(-T) * (np.maximum(0.0, 1.0 - a) / 2
+                                                     + np.exp(-m * m * T) / (2 * T * m * m)), np.inf)
+            out = k * (np.minimum(0.5, 1.0 / a) * decay + lattice * integral)
         elif kind == "smooth":
             out = k * rate * (1.0 / (1 + a * a) ** 2 + lattice / (3 * a**3)) * np.ones_like(T)
         else:

@@ -272,7 +272,7 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
         def mode_bound(n: int, t: Array) -> Array:
             return eigen.tail_bound(n, t, L, kind="step")
 
-        n_need, _ = modes_needed(effective, tol, L, mode_bound)
+        n_need, _ = modes_needed(effective, tol, L, mode_bound, several=True)
     else:
         effective = Tl
         if shp.kind == "alpha":
@@ -280,7 +280,7 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
                 return alpha_residue_tail(n, t, L, shp.time_to_peak)
         else:
             mode_bound = current_bound(shp, L)
-        n_need, _ = modes_needed(Tl, tol, L, mode_bound)
+        n_need, _ = modes_needed(Tl, tol, L, mode_bound, several=shp.kind != "alpha")
     use_eigen = np.ones(Tl.size, dtype=bool)
     fine = np.zeros(0, dtype=np.intp)  # rows of the eigen-series to rounding level (below)
     fine_count, fine_bound = np.zeros(0, dtype=int), np.zeros(0)
@@ -299,7 +299,7 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
             maybe = np.flatnonzero(prefer & (cost_images >= n_need))
             if maybe.size and floor > 0:
                 counts, reached = modes_needed(effective[maybe], floor, L, mode_bound,
-                                               most=int(cost_images[maybe].max()) // 4)
+                                               most=int(cost_images[maybe].max()) // 4, several=True)
                 take = 4 * counts <= cost_images[maybe]
                 fine, fine_count, fine_bound = maybe[take], counts[take], reached[take]
                 prefer[fine] = False
@@ -533,7 +533,7 @@ def clamp_response(position: ArrayLike, normalised_time: ArrayLike, electrotonic
     def mode_bound(n: int, t: Array) -> Array:
         return eigen.tail_bound(n, t, L, kind="clamp", origin="clamped")
 
-    n_need, _ = modes_needed(Tl, tol, L, mode_bound)
+    n_need, _ = modes_needed(Tl, tol, L, mode_bound, several=True)
     reflections = reflections_needed(Tl, L, tol, clamp_image_tail)
     prefer = 2 * reflections * _IMAGE_COST * (2 if leaky else 1) < n_need
     use_eigen = np.ones(Tl.size, dtype=bool)

@@ -99,28 +99,39 @@ def reflections_needed(T: Array, L: float, tol: float, tail) -> Array:
     return K
 
 
-def modes_needed(T: Array, tol: float, L: float, bound, most: int = MAX_MODES) -> tuple[Array, Array]:
+def modes_needed(T: Array, tol: float, L: float, bound, most: int = MAX_MODES, *,
+                 several: bool = False) -> tuple[Array, Array]:
     """Smallest mode count N per T with bound(N, T) ≤ tol (N ≤ ``most`` ≤ MAX_MODES), and that
     bound; MAX_MODES + 1 and inf where no count up to ``most`` will do.
 
     The candidate counts (about 90, spaced geometrically up to :data:`MAX_MODES`) are tried from
     the smallest, each only at the times that no smaller one has satisfied, so a grid whose late
     times need a few modes evaluates the bound a few times there (``bound`` need not decrease
-    with N: the first candidate that satisfies a time is its count)."""
+    with N: the first candidate that satisfies a time is its count). With ``several``, ``bound``
+    accepts a column of counts against a row of times, and eight candidates are tried per call."""
     T = np.asarray(T, dtype=float)
     need = np.full(T.shape, MAX_MODES + 1)
     achieved = np.full(T.shape, np.inf)
     flat_T = T.ravel()
     todo = np.arange(flat_T.size)
     need_flat, achieved_flat = need.reshape(-1), achieved.reshape(-1)
-    for n in _CANDIDATES:
-        if todo.size == 0 or n > most:
+    candidates = _CANDIDATES[:int(np.searchsorted(_CANDIDATES, most, side="right"))]
+    per = 8 if several else 1
+    for first in range(0, candidates.size, per):
+        if todo.size == 0:
             break
-        b = np.broadcast_to(bound(int(n), flat_T[todo]), todo.shape)
+        block = candidates[first:first + per]
+        if several:
+            b = np.broadcast_to(bound(block[:, None], flat_T[todo][None, :]), (block.size, todo.size))
+        else:
+            b = np.broadcast_to(bound(int(block[0]), flat_T[todo]), todo.shape)[None, :]
         ok = b <= tol
-        need_flat[todo[ok]] = n
-        achieved_flat[todo[ok]] = b[ok]
-        todo = todo[~ok]
+        met = ok.any(axis=0)
+        which = ok.argmax(axis=0)[met]  # the first candidate of the block that will do
+        done = np.flatnonzero(met)
+        need_flat[todo[done]] = block[which]
+        achieved_flat[todo[done]] = b[which, done]
+        todo = todo[~met]
     return need, achieved
 
 

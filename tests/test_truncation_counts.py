@@ -4,6 +4,7 @@ candidate count whose tail bound meets the tolerance, and the bound reported is 
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
 from cabletheory import eigen
 from cabletheory.truncation import _CANDIDATES, MAX_MODES, modes_needed
@@ -41,3 +42,27 @@ def test_a_bound_that_does_not_fall_with_the_count_still_gets_its_first_success(
     need, achieved = modes_needed(T, 1.0, 1.0, bound)
     np.testing.assert_array_equal(need, np.where(T > 1.0, 1, 5))
     np.testing.assert_array_equal(achieved, np.full(T.shape, 0.5))
+
+
+@pytest.mark.parametrize(("kind", "origin"), [("step", "sealed"), ("clamp", "clamped"), ("impulse", "sealed")])
+def test_counts_tried_eight_at_a_time_are_the_counts_tried_one_at_a_time(kind, origin):
+    T = np.concatenate((np.geomspace(1e-6, 40.0, 60), [0.0]))
+    L = 0.7
+
+    def bound(n, t):
+        return eigen.tail_bound(n, t, L, kind=kind, origin=origin)
+
+    one = modes_needed(T, 1e-9, L, bound)
+    several = modes_needed(T, 1e-9, L, bound, several=True)
+    np.testing.assert_array_equal(several[0], one[0])
+    np.testing.assert_allclose(several[1], one[1], rtol=1e-14)
+    capped = modes_needed(T, 1e-9, L, bound, most=40, several=True)
+    np.testing.assert_array_equal(capped[0], np.where(one[0] <= 40, one[0], MAX_MODES + 1))
+
+
+def test_a_tail_bound_of_several_counts_is_each_count_s_bound():
+    T = np.array([0.0, 1e-3, 0.2, 3.0])
+    counts = np.array([1, 2, 7, 50])
+    together = eigen.tail_bound(counts[:, None], T[None, :], 2.0, kind="step")
+    for i, n in enumerate(counts):
+        np.testing.assert_allclose(together[i], eigen.tail_bound(int(n), T, 2.0, kind="step"), rtol=1e-14)
