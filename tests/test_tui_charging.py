@@ -32,21 +32,58 @@ async def type_into(pilot, app, field: str, text: str) -> None:
     await pilot.pause()
 
 
-def test_charging_view_solves_in_a_worker_and_lists_time_constants():
-    async def script(app, pilot):
+# The first result, its export and a flagged position run in turn from one app start (in this order:
+# the first two read the default case, the last leaves the form with a flagged field).
+async def solves_in_a_worker_and_lists_time_constants(app, pilot):
+    await pilot.press("f3")
+    await settle(app, pilot)
+    view = app.query_one("#charging")
+    results = text_of(app, "#charging-results")
+    assert "τ0  slowest time constant" in results
+    assert "20.00 ms" in results  # τ0 = τm for a sealed cylinder (Rall 1969)
+    assert "error bound of every value" in results
+    assert "73.93 mV" in results  # I R∞ coth L for 100 pA (computed)
+    assert view.report is not None
+    assert [len(p.spec.series) for p in app.query("#charging CurvePlot")] == [3, 3]
+    assert not app.query_one("#charging .plots").loading
+
+
+async def flags_a_position_beyond_the_cable(app, pilot):
+    await pilot.press("f3")
+    await settle(app, pilot)
+    await type_into(pilot, app, "ch-watch", "0, 900")
+    await settle(app, pilot)
+    assert app.query_one("#field-ch-watch").has_class("bad")
+    assert "900.0 µm lies outside the cable" in text_of(app, "#field-ch-watch .field-echo")
+    assert app.query_one("#charging").report is None
+
+
+def test_charging_view_solves_in_a_worker_exports_csv_and_flags_a_position_beyond_the_cable(tmp_path):
+    target = tmp_path / "charging.csv"
+    done = []
+
+    async def exports_csv(app, pilot):
         await pilot.press("f3")
         await settle(app, pilot)
-        view = app.query_one("#charging")
-        results = text_of(app, "#charging-results")
-        assert "τ0  slowest time constant" in results
-        assert "20.00 ms" in results  # τ0 = τm for a sealed cylinder (Rall 1969)
-        assert "error bound of every value" in results
-        assert "73.93 mV" in results  # I R∞ coth L for 100 pA (computed)
-        assert view.report is not None
-        assert [len(p.spec.series) for p in app.query("#charging CurvePlot")] == [3, 3]
-        assert not app.query_one("#charging .plots").loading
+        await pilot.press("ctrl+s")
+        app.screen.query_one("#save-path", Input).value = str(target)
+        await pilot.press("enter")
+        await pilot.pause()
+
+    checks = (solves_in_a_worker_and_lists_time_constants, exports_csv, flags_a_position_beyond_the_cable)
+
+    async def script(app, pilot):
+        for check in checks:
+            await check(app, pilot)
+            done.append(check.__name__)
 
     drive(script)
+    assert done == [check.__name__ for check in checks]
+    lines = target.read_text(encoding="utf-8").splitlines()
+    assert lines[0] == "part,quantity,index,value,unit"
+    last_time = next(line for line in lines if line.startswith("time_course,time,240,"))
+    assert float(last_time.split(",")[3]) == pytest.approx(0.06)  # the "V(t) until" field
+    assert last_time.endswith(",s")
 
 
 def test_charging_view_keys_switch_model_and_stimulus():
@@ -69,38 +106,6 @@ def test_charging_view_keys_switch_model_and_stimulus():
         assert "clamp fixes the soma voltage" in " ".join(view.report.notes)
 
     drive(script)
-
-
-def test_charging_view_flags_a_position_beyond_the_cable():
-    async def script(app, pilot):
-        await pilot.press("f3")
-        await settle(app, pilot)
-        await type_into(pilot, app, "ch-watch", "0, 900")
-        await settle(app, pilot)
-        assert app.query_one("#field-ch-watch").has_class("bad")
-        assert "900.0 µm lies outside the cable" in text_of(app, "#field-ch-watch .field-echo")
-        assert app.query_one("#charging").report is None
-
-    drive(script)
-
-
-def test_charging_view_exports_csv(tmp_path):
-    target = tmp_path / "charging.csv"
-
-    async def script(app, pilot):
-        await pilot.press("f3")
-        await settle(app, pilot)
-        await pilot.press("ctrl+s")
-        app.screen.query_one("#save-path", Input).value = str(target)
-        await pilot.press("enter")
-        await pilot.pause()
-
-    drive(script)
-    lines = target.read_text(encoding="utf-8").splitlines()
-    assert lines[0] == "part,quantity,index,value,unit"
-    last_time = next(line for line in lines if line.startswith("time_course,time,240,"))
-    assert float(last_time.split(",")[3]) == pytest.approx(0.06)  # the "V(t) until" field
-    assert last_time.endswith(",s")
 
 
 def test_charging_view_announces_and_covers_only_a_slow_result(monkeypatch):

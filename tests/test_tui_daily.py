@@ -63,42 +63,36 @@ def test_the_cell_typed_in_one_view_is_the_cell_of_every_view():
 
 
 # -- item 2: echo of every value, warnings under the field --------------------------------------------------
-def test_each_field_echoes_the_value_it_was_read_as_and_warns_of_an_implausible_one():
-    async def script(app, pilot):
-        field = app.query_one("#field-diameter", QuantityField)
-        await type_into(pilot, app, "diameter", "15")  # bare number: µm
-        assert field.echo_text == "= 15.00 µm"
-        rm = app.query_one("#field-Rm", QuantityField)
-        await type_into(pilot, app, "Rm", "3")  # read as 3 Ω·cm², far below any membrane
-        assert rm.echo_text.startswith("= 0.003000 kΩ·cm²")
-        assert "⚠" in rm.echo_text
-        assert rm.has_class("warned")
-        assert not rm.has_class("bad")
-        assert app.query_one("#cylinder").report is not None  # used as typed
-        await type_into(pilot, app, "diameter", "1,5 µm")  # a decimal comma is refused with a hint
-        assert field.has_class("bad")
-        assert "1.5" in field.echo_text
-
-    drive(script)
+async def each_field_echoes_the_value_it_was_read_as_and_warns_of_an_implausible_one(app, pilot):
+    field = app.query_one("#field-diameter", QuantityField)
+    await type_into(pilot, app, "diameter", "15")  # bare number: µm
+    assert field.echo_text == "= 15.00 µm"
+    rm = app.query_one("#field-Rm", QuantityField)
+    await type_into(pilot, app, "Rm", "3")  # read as 3 Ω·cm², far below any membrane
+    assert rm.echo_text.startswith("= 0.003000 kΩ·cm²")
+    assert "⚠" in rm.echo_text
+    assert rm.has_class("warned")
+    assert not rm.has_class("bad")
+    assert app.query_one("#cylinder").report is not None  # used as typed
+    await type_into(pilot, app, "diameter", "1,5 µm")  # a decimal comma is refused with a hint
+    assert field.has_class("bad")
+    assert "1.5" in field.echo_text
 
 
 # -- item 5: no stale result ------------------------------------------------------------------------------
-def test_a_result_for_inputs_no_longer_on_screen_is_dropped():
-    async def script(app, pilot):
-        await pilot.press("f3")
-        await settle(app, pilot)
-        view = app.query_one("#charging")
-        old = view.wanted
-        assert view.report is not None
-        await type_into(pilot, app, "ch-current", "200")
-        assert view.wanted != old
-        shown = view.report
-        view._show(old, "a late result of the earlier inputs")  # a worker that started before the edit
-        assert view.report is shown  # still the result of the inputs on screen
-        current = [row.value for row in view.report.inputs if row.key == "current"]
-        assert current == [pytest.approx(200e-12)]
-
-    drive(script)
+async def a_result_for_inputs_no_longer_on_screen_is_dropped(app, pilot):
+    await pilot.press("f3")
+    await settle(app, pilot)
+    view = app.query_one("#charging")
+    old = view.wanted
+    assert view.report is not None
+    await type_into(pilot, app, "ch-current", "200")
+    assert view.wanted != old
+    shown = view.report
+    view._show(old, "a late result of the earlier inputs")  # a worker that started before the edit
+    assert view.report is shown  # still the result of the inputs on screen
+    current = [row.value for row in view.report.inputs if row.key == "current"]
+    assert current == [pytest.approx(200e-12)]
 
 
 def test_a_broken_file_opened_with_ctrl_o_is_explained_and_clears_the_previous_outline(tmp_path: Path):
@@ -123,33 +117,53 @@ def test_a_broken_file_opened_with_ctrl_o_is_explained_and_clears_the_previous_o
 
 
 # -- item 6: keys ----------------------------------------------------------------------------------------
-def test_question_mark_opens_the_help_when_not_typing_and_types_in_a_field():
+async def question_mark_opens_the_help_when_not_typing_and_types_in_a_field(app, pilot):
+    app.query_one("#Rm", Input).focus()
+    await pilot.press("?")
+    assert not isinstance(app.screen, HelpScreen)
+    assert app.query_one("#Rm", Input).value.endswith("?")
+    app.query_one("#cylinder-results").focus()
+    await pilot.press("?")
+    assert isinstance(app.screen, HelpScreen)
+    await pilot.press("?")
+    assert not isinstance(app.screen, HelpScreen)
+
+
+async def global_keys_are_inert_under_a_dialog(app, pilot):
+    await pilot.press("ctrl+s")
+    assert isinstance(app.screen, SaveScreen)
+    await pilot.press("f3", "ctrl+t", "ctrl+g", "f1")
+    assert isinstance(app.screen, SaveScreen)
+    assert app.current_view == "cylinder"
+    await pilot.press("escape")
+    await pilot.press("f3")
+    assert app.current_view == "charging"
+
+
+async def back_to_the_cylinder_view(app, pilot):
+    await pilot.press("f2")
+    await settle(app, pilot)
+    assert app.current_view == "cylinder"
+
+
+# in this order from one app start: the dialog needs a result to save, the stale-result check reads
+# the charging view the key check ends on, the last two type into the cylinder view's fields
+DEFAULT_APP_CHECKS = (global_keys_are_inert_under_a_dialog, a_result_for_inputs_no_longer_on_screen_is_dropped,
+                      back_to_the_cylinder_view,
+                      each_field_echoes_the_value_it_was_read_as_and_warns_of_an_implausible_one,
+                      question_mark_opens_the_help_when_not_typing_and_types_in_a_field)
+
+
+def test_keys_dialogs_stale_results_and_echoes_in_turn_from_one_app_start():
+    done = []
+
     async def script(app, pilot):
-        app.query_one("#Rm", Input).focus()
-        await pilot.press("?")
-        assert not isinstance(app.screen, HelpScreen)
-        assert app.query_one("#Rm", Input).value.endswith("?")
-        app.query_one("#cylinder-results").focus()
-        await pilot.press("?")
-        assert isinstance(app.screen, HelpScreen)
-        await pilot.press("?")
-        assert not isinstance(app.screen, HelpScreen)
+        for check in DEFAULT_APP_CHECKS:
+            await check(app, pilot)
+            done.append(check.__name__)
 
     drive(script)
-
-
-def test_global_keys_are_inert_under_a_dialog():
-    async def script(app, pilot):
-        await pilot.press("ctrl+s")
-        assert isinstance(app.screen, SaveScreen)
-        await pilot.press("f3", "ctrl+t", "ctrl+g", "f1")
-        assert isinstance(app.screen, SaveScreen)
-        assert app.current_view == "cylinder"
-        await pilot.press("escape")
-        await pilot.press("f3")
-        assert app.current_view == "charging"
-
-    drive(script)
+    assert done == [check.__name__ for check in DEFAULT_APP_CHECKS]
 
 
 # -- item 9: the worst points of a tree -----------------------------------------------------------------------
