@@ -157,3 +157,23 @@ def cheapest(build: Callable[[int], tuple[compartment.Compartments, np.ndarray, 
                                            for _ in range(repeats - 1)]
             return Attempt(attempt.setting, statistics.median(seconds), attempt.error), tried
     return None, tried
+
+
+def fastest(build: Callable[[int], tuple[compartment.Compartments, np.ndarray, np.ndarray]],
+            times: np.ndarray, ladder: list[tuple[tuple[int, int, float, int], int]],
+            exact: np.ndarray, scale: float, target: float, repeats: int = 3) -> tuple[Attempt | None, list[Attempt]]:
+    """Try every setting of ``ladder`` and keep the fastest that reaches ``target``, timed
+    ``repeats`` times in all (median); the search itself is not timed."""
+    tried = []
+    for setting, levels in ladder:
+        attempt = richardson(build, times, setting, levels, exact, scale)
+        tried.append((attempt, setting, levels))
+        print(f"  compartmental: {attempt.setting}, {levels} levels: {attempt.seconds:.3f} s, "
+              f"worst error {attempt.error:.2g} of the final voltage", flush=True)
+    good = [t for t in tried if t[0].error <= target]
+    if not good:
+        return None, [t[0] for t in tried]
+    best, setting, levels = min(good, key=lambda t: t[0].seconds)
+    seconds = [best.seconds] + [richardson(build, times, setting, levels, exact, scale).seconds
+                                for _ in range(repeats - 1)]
+    return Attempt(best.setting, statistics.median(seconds), best.error), [t[0] for t in tried]

@@ -6,9 +6,27 @@ most 25 ms (median of several runs, the API warm); an alpha current on the same 
 equal accuracy (every value within 1e-8 of the final voltage), at
 least 1,000× faster than a compartmental solve tuned as a careful user would (``_careful.py``:
 the package's own discretisation, banded LU factorised once, graded steps, Richardson
-extrapolation; the cheapest setting that reaches the error is timed, median of 3, its search is not).
-Also printed: the worst error against mpmath at 30 digits on a sample of points (it must stay
-below the reported bound), and the peak memory.
+extrapolation; the cheapest setting that reaches the error is timed, median of 3, its search is not;
+the error is measured at every point with T > 0, all 1,000 positions, the earliest time beside the
+input included). Also printed: the step's CPU time, the worst error against mpmath at 30 digits on a
+sample of points (it must stay below the reported bound), and the peak memory.
+
+The 1,000× ratio is out of reach on this grid for a reason outside the exact evaluator:
+returning 10^6 values and their 10^6 bounds means writing two 8 MB arrays, which alone takes
+4.3-6.4 ms on the shared two-core machine (printed as the write floor), so 1,000× would need a
+compartmental solve of 4.3-6.4 s, while the careful one reaches 1e-8 at every point in
+0.84-1.03 s (999→1998 compartments, graded steps from 512, two levels): at most 130-240×,
+whatever the exact side does. Measured: the step in 20-28 ms wall, 18-19 ms of CPU, a ratio of
+22-46× (three runs at load average 3-7, 11:45-12:00 UTC).
+
+Added row (beside that one, not instead of it): simulator checks compare traces at a few
+recording sites, so the exact trace at X = 0, L/2 and L on the same 1,000 times is set against
+the fastest careful compartmental solve that reaches 1e-8 of the final voltage at those sites and
+times (every setting of ``SITES_LADDER`` is tried untimed; the fastest that reaches the error is
+timed again, median of 3). Its goal, ≥ 100×, comes from our measurements, not from the issue:
+the exact trace takes 1.7 ms of CPU and the fastest careful solve 0.20-0.48 s (50→100→200
+compartments, three levels), about 120× when wall time equals CPU time as on an idle machine;
+on the loaded machine the wall-clock ratio came out 69×, 94× and 176× in three runs (load 3-7).
 """
 
 from __future__ import annotations
@@ -20,7 +38,7 @@ import tracemalloc
 
 import mpmath as mp
 import numpy as np
-from _careful import cheapest
+from _careful import cheapest, fastest
 from _table import Row, report
 
 from cabletheory import precise
@@ -37,6 +55,11 @@ STEP_GOAL, ALPHA_GOAL, RATIO_GOAL = 25e-3, 2.0, 1000.0
 # compartmental settings, cheapest first: ((compartments, first, power, least), levels); the
 # compartments are a multiple of 999 so that nodes fall on the 1,000 requested positions
 LADDER = [((999, 128, 1.0, 1), 2), ((999, 256, 1.0, 1), 2), ((999, 512, 1.0, 1), 2), ((999, 128, 1.0, 1), 3)]
+# the added row: a trace at a few recording sites, as simulator checks use it
+SITES = np.array([0.0, 0.5 * L, L])
+SITES_GOAL = 100.0  # measured (module docstring), not the issue's
+SITES_LADDER = [((c, first, 1.0, 1), levels) for c in (50, 100, 200, 400) for first in (64, 128, 256)
+                for levels in (2, 3)]
 
 
 def timed(function, runs: int = RUNS, budget: float = 10.0) -> tuple[float, int, object]:
@@ -49,20 +72,39 @@ def timed(function, runs: int = RUNS, budget: float = 10.0) -> tuple[float, int,
     return statistics.median(times), len(times), result
 
 
-def compartmental(exact: np.ndarray) -> tuple[float | None, str]:
-    """Time of the cheapest careful compartmental solve within TARGET on the grid (T > 0)."""
+def _builder(every: int):
+    """The careful user's cylinder (λ = 1 mm, ℓ = 1 mm so L = 1, τm = 20 ms, a current of 1/R∞ into
+    the sealed origin so that V comes out in units of I·R∞), recorded at every ``n // every``-th
+    node of n compartments (the same places at every n), and the cylinder."""
     from cabletheory import compartment
     from cabletheory.cable import Cylinder
 
-    cylinder = Cylinder(2.0, 1.0, 0.01, 2e-6, 1e-3)  # λ = 1 mm, ℓ = 1 mm (L = 1), τm = 20 ms
-    unit = 1.0 / cylinder.semi_infinite_input_resistance  # so that V comes out in units of I·R∞
+    cylinder = Cylinder(2.0, 1.0, 0.01, 2e-6, 1e-3)
+    unit = 1.0 / cylinder.semi_infinite_input_resistance
 
     def build(n: int):
         c = compartment.discretise_cable(cylinder, n)
         current = np.zeros(c.size)
         current[0] = unit
-        return c, current, np.arange(0, n + 1, n // (X.size - 1))
+        return c, current, np.arange(0, n + 1, n // every)
 
+    return build, cylinder
+
+
+def cpu_median(function, runs: int = RUNS) -> float:
+    """Median CPU time of ``runs`` calls (the machine is shared: wall time includes waiting)."""
+    times = []
+    for _ in range(runs):
+        start = time.process_time()
+        function()
+        times.append(time.process_time() - start)
+    return statistics.median(times)
+
+
+def compartmental(exact: np.ndarray) -> tuple[float | None, str]:
+    """Time of the cheapest careful compartmental solve within TARGET at every point of the grid
+    with T > 0 (all 999 times, all 1,000 positions, the earliest time beside the input included)."""
+    build, cylinder = _builder(X.size - 1)
     final = 1.0 / np.tanh(L)  # V(0, ∞) in units of I·R∞
     found, tried = cheapest(build, T[1:] * cylinder.time_constant, LADDER, exact[1:], final, TARGET, repeats=3)
     if found is None:
@@ -104,13 +146,43 @@ def alpha_check(values: np.ndarray, bound: np.ndarray, count: int = 12) -> bool:
     return within
 
 
+def write_floor() -> float:
+    """Median time to write 10⁶ values and 10⁶ bounds (two fresh 8 MB arrays, each filled once):
+    no evaluator on this grid can return faster."""
+    row = np.linspace(0.0, 1.0, X.size)
+
+    def fill():
+        values, bounds = np.empty((T.size, X.size)), np.empty((T.size, X.size))
+        values[:] = row
+        bounds[:] = row
+        return values, bounds
+
+    return timed(fill)[0]
+
+
+def sites() -> tuple[float, float, float | None, str]:
+    """The added row: the exact trace at SITES on the 1,000 times (T > 0) against the fastest
+    careful compartmental solve that reaches TARGET at those sites and times; also the exact
+    trace's CPU time."""
+    exact_time, _, (values, _, _) = timed(lambda: current_response(SITES, 0.0, T, L, B))
+    exact_cpu = cpu_median(lambda: current_response(SITES, 0.0, T, L, B))
+    build, cylinder = _builder(SITES.size - 1)
+    final = 1.0 / np.tanh(L)
+    found, tried = fastest(build, T[1:] * cylinder.time_constant, SITES_LADDER, values[1:], final, TARGET)
+    if found is None:
+        best = min(tried, key=lambda a: a.error)
+        return exact_time, exact_cpu, None, f"did not reach {TARGET:g} (best {best.error:.1g} in {best.seconds:.2f} s)"
+    return exact_time, exact_cpu, found.seconds, f"{found.setting}; worst error {found.error:.1g}"
+
+
 def main() -> int:
     current_response(X[:10], 0.0, T[:10], L, B)  # warm-up (imports)
     current_response(X[:10], 0.0, T[:10], L, B, shape="alpha", time_to_peak=ALPHA_PEAK)
     step_time, step_runs, (values, bound, method) = timed(lambda: current_response(X, 0.0, T, L, B))
+    step_cpu = cpu_median(lambda: current_response(X, 0.0, T, L, B))
     alpha_ratio, alpha_time, alpha_runs, (alpha_values, alpha_bound, alpha_method) = against_step(ALPHA_PEAK)
     print(f"step response, sealed cylinder L = {L}: {values.size:,} points, median {step_time * 1e3:.1f} ms "
-          f"of {step_runs} ({method})")
+          f"of {step_runs}, {step_cpu * 1e3:.1f} ms of CPU ({method})")
     print(f"  reported truncation bound: {bound.max():.2e} (units of I·R∞; tolerance 1e-10)")
     print(f"alpha current (peak at {ALPHA_PEAK} τm), same grid: median {alpha_time * 1e3:.1f} ms of CPU of "
           f"{alpha_runs}, {alpha_ratio:.2f}x the step run just before it ({alpha_method}); "
@@ -141,15 +213,30 @@ def main() -> int:
     print(f"  compartmental solve within {TARGET:g} of the final voltage: "
           f"{'-' if other is None else f'{other:.2f} s'} ({how})")
     ratio = None if other is None else other / step_time
+    floor = write_floor()
+    print(f"  writing the 10⁶ values and their bounds alone takes {floor * 1e3:.1f} ms (median of {RUNS}): "
+          f"{RATIO_GOAL:,.0f}× would need a compartmental solve of at least {RATIO_GOAL * floor:.1f} s"
+          + ("" if other is None else f", and the careful one takes {other:.2f} s, so the goal is out of reach "
+             f"on this grid whatever the exact side does (at most {other / floor:.0f}×)"))
+    site_time, site_cpu, site_other, site_how = sites()
+    site_ratio = None if site_other is None else site_other / site_time
+    print(f"added: exact trace at X = {', '.join(f'{x:g}' for x in SITES)} on {T.size:,} times: median "
+          f"{site_time * 1e3:.2f} ms ({site_cpu * 1e3:.2f} ms of CPU); the fastest careful compartmental solve "
+          f"within {TARGET:g} there: "
+          f"{'-' if site_other is None else f'{site_other:.3f} s'} ({site_how})")
     table = [
         Row("10⁶-point step response (API)", f"{step_time * 1e3:.0f} ms (median of {step_runs})",
-            f"≤ {STEP_GOAL * 1e3:.0f} ms", step_time <= STEP_GOAL and within),
+            f"≤ {STEP_GOAL * 1e3:.0f} ms", bool(step_time <= STEP_GOAL and within)),
         Row("alpha current on 10⁶ points, against the step", f"{alpha_ratio:.1f}× "
             f"({alpha_time * 1e3:.0f} ms of CPU, median of {alpha_runs} pairs)", f"≤ {ALPHA_GOAL:g}×",
-            alpha_ratio <= ALPHA_GOAL and alpha_within),
+            bool(alpha_ratio <= ALPHA_GOAL and alpha_within)),
         Row(f"10⁶-point step, compartmental solve at equal accuracy ({TARGET:g} of the final voltage), against exact",
             f"{ratio:.0f}× ({other:.2f} s / {step_time * 1e3:.0f} ms)" if ratio is not None and other is not None
-            else how, f"≥ {RATIO_GOAL:,.0f}×", None if ratio is None else ratio >= RATIO_GOAL),
+            else how, f"≥ {RATIO_GOAL:,.0f}×", None if ratio is None else bool(ratio >= RATIO_GOAL)),
+        Row(f"(added) trace at {SITES.size} sites on {T.size:,} times, compartmental solve at equal accuracy, "
+            "against exact", f"{site_ratio:.0f}× ({site_other:.2f} s / {site_time * 1e3:.1f} ms)"
+            if site_ratio is not None and site_other is not None else site_how,
+            f"≥ {SITES_GOAL:,.0f}× (measured)", None if site_ratio is None else bool(site_ratio >= SITES_GOAL)),
     ]
     return report(table)
 
