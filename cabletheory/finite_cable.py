@@ -150,6 +150,7 @@ def _grid_images(shape: Shape, X: Array, X0: float, T: Array, L: float, sign: fl
 
 _SMALL = 1.0 / 16  # early values below this fraction of the largest steady voltage take images
 _FLOOR = 4 * float(np.finfo(float).eps)  # ... and the eigen-series is carried below this fraction of it
+_ALPHA_SMALL = 1e-5  # an alpha current's early values below this fraction of g(X0, X0) take images
 _PRODUCT = 1 << 18  # multiply-adds per matrix product in the series sums (see _series)
 
 
@@ -215,8 +216,11 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
     images only where a value is under 1/16 of it: every value keeps its digits, and the images,
     an erfcx pair per term and point, are summed where they are needed. An alpha current's series
     (:func:`_alpha_by_residues`) takes every time at which it needs fewer operations than the
-    images; its values are within the tolerance in absolute terms, not relative to values far
-    below it (a far point just after the onset, where the images would keep digits). A soma, or
+    images; its rounding is about ε of the largest steady voltage g(X0, X0), so at times whose
+    images need at most :data:`EARLY_REFLECTIONS` reflections the values below 1e-5 of g (far
+    points just after the onset) are replaced by their images, each point summing only the
+    images that are not negligible beside its nearest one (:func:`_alpha_small_values`): every
+    value keeps about 10 digits. A soma, or
     a leaky end whose bracket is too wide, at times whose eigen-series would need more than
     :data:`CONTOUR_MODES` modes, uses the Laplace-domain solution inverted on a contour
     (:func:`cabletheory.laplace.current_inversion`), whose error estimate is the bound there.
@@ -384,6 +388,15 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
                 summed(idx, np.full(idx.size, count))  # one count for all: every row's bound is that count's
             bound[_rows_of(live[idx])] = mode_bound(count, effective[idx])[:, None]
             plan.add("eigen-series", Tl[idx], count, "modes")
+            if shp.kind == "alpha" and images_exact:
+                # the residue series' rounding is about ε of the largest voltage: early values far
+                # below it take images, which keep their digits
+                few = idx[reflections[idx] <= EARLY_REFLECTIONS]
+                tiny = _ALPHA_SMALL * float(steady_green(X0, X0, L, B, y))
+                if few.size and _alpha_small_values(out, bound, shp.time_to_peak, X, X0, Tl, live, few,
+                                                    reflections[few], L, sign, tiny):
+                    plan.add(f"images where a value is below {_ALPHA_SMALL:g} of the largest steady voltage",
+                             Tl[few], int(reflections[few].max()), "reflections per side")
     return out, bound, plan.text()
 
 
@@ -476,6 +489,42 @@ def _small_values_by_images(out: Array, bound: Array, shp: Shape, X: Array, X0: 
         bound[live[p], c] = tail
         used = max(used, k)
     return used
+
+
+_NEGLIGIBLE = 40.0  # an image whose Gaussian factor is e^{-40} (4e-18) of the nearest one's is left out
+
+
+def _alpha_small_values(out: Array, bound: Array, a: float, X: Array, X0: float, T: Array,
+                        live: NDArray[np.intp], rows: NDArray[np.intp], reflections: Array, L: float, sign: float,
+                        small: float) -> bool:
+    """Replace an alpha current's series values below ``small`` on the given rows (indices into T
+    and ``live``) by image sums with the rows' reflection counts, each point summing only the
+    images within a factor e^{-40} of its nearest one (:func:`point_source_alpha` is at most
+    √(T/π)·e^{-d²/4T}, the step's bound, so the ones left out are added to the bound); True if any."""
+    block = out[_rows_of(live[rows])]
+    r, c = np.nonzero(np.abs(block) < small)
+    if r.size == 0:
+        return False
+    p = rows[r]
+    t, x, most = T[p], X[c], reflections[r]
+    top = int(most.max())
+    sources = [X0] if X0 == 0.0 else [X0, -X0]
+    shifts = [(k, source + 2 * k * L) for k in range(-top, top + 1) for source in sources]
+    distances = np.array([np.abs(x - at) for _, at in shifts])
+    allowed = np.array([np.abs(k) <= most for k, _ in shifts])
+    nearest = np.min(np.where(allowed, distances, np.inf), axis=0)
+    total = np.zeros(p.size)
+    left_out = np.zeros(p.size)
+    for (k, _), d, ok in zip(shifts, distances, allowed, strict=True):
+        keep = ok & ((d * d - nearest * nearest) <= 4 * _NEGLIGIBLE * t)
+        if keep.any():
+            total[keep] += sign ** abs(k) * point_source_alpha(d[keep], t[keep], a)
+        drop = ok & ~keep
+        left_out[drop] += np.sqrt(t[drop] / np.pi) * np.exp(-d[drop] ** 2 / (4 * t[drop]))
+    weight = 2.0 if X0 == 0.0 else 1.0
+    out[live[p], c] = weight * total
+    bound[live[p], c] = image_tail(most, t, L) + weight * left_out
+    return True
 
 
 def _inverted(shp: Shape, X: Array, X0: float, T: Array, delayed: Array, L: float, B: float,

@@ -138,7 +138,8 @@ def semi_infinite_clamp(distance: ArrayLike, normalised_time: ArrayLike) -> Arra
 
 _SERIES_TERMS = 19  # terms of the series in b of point_source_alpha (x ≤ 1: the last is below 1e-18)
 _FORWARD_UP_TO = 1.5  # u up to which the repeated erfc integrals are recurred upwards (beyond: downwards)
-_DOWNWARD_EXTRA = 80  # start of the downward recurrence above the highest order needed
+_DOWNWARD_EXTRA = 80  # start of the downward recurrence above the highest order needed ...
+_QUICKER_FROM, _DOWNWARD_EXTRA_FAR = 4.0, 24  # ... and above this u, where it converges faster
 
 
 def point_source_alpha(distance: ArrayLike, normalised_time: ArrayLike, time_to_peak: float) -> Array:
@@ -227,7 +228,9 @@ def _repeated_erfc_scaled(u: Array, highest: int) -> Array:
 
     Upwards from :math:`i^{-1}\mathrm{erfc} = (2/\sqrt\pi)e^{-u^2}` and :math:`\mathrm{erfcx}(u)`
     where u ≤ :data:`_FORWARD_UP_TO`; downwards from order ``highest`` + :data:`_DOWNWARD_EXTRA`
-    (zero and one) elsewhere, rescaled on the way and normalised by :math:`\mathrm{erfcx}(u)`.
+    (zero and one) elsewhere (+ :data:`_DOWNWARD_EXTRA_FAR` above u = :data:`_QUICKER_FROM`: the
+    unwanted solution then fades faster), rescaled on the way and normalised by
+    :math:`\mathrm{erfcx}(u)`.
     """
     from scipy.special import erfcx
 
@@ -239,13 +242,15 @@ def _repeated_erfc_scaled(u: Array, highest: int) -> Array:
     for n in range(1, highest + 1):
         previous, current = current, (0.5 * previous - u * current) / n
         table[n] = current
-    far = np.flatnonzero(u > _FORWARD_UP_TO)
-    if far.size:
+    for far, extra in ((np.flatnonzero((u > _FORWARD_UP_TO) & (u <= _QUICKER_FROM)), _DOWNWARD_EXTRA),
+                       (np.flatnonzero(u > _QUICKER_FROM), _DOWNWARD_EXTRA_FAR)):
+        if far.size == 0:
+            continue
         uf = u[far]
         upper = np.zeros(far.size)  # order m + 1
         current = np.ones(far.size)  # order m
         down = np.empty((highest + 1, far.size))
-        for m in range(highest + _DOWNWARD_EXTRA, 0, -1):
+        for m in range(highest + extra, 0, -1):
             upper, current = current, 2 * (m + 1) * upper + 2 * uf * current  # order m - 1
             if m - 1 <= highest:
                 down[m - 1] = current
