@@ -256,9 +256,48 @@ def site_on_branch(tree: Tree, branch: int, distance: float) -> Site:
     return Site(int(pieces[k]), length if at_end else min(max(x - start, 0.0), length))
 
 
-def node_sites(tree: Tree) -> tuple[Site, ...]:
+def node_sites(tree: Tree) -> NodeSites:
     """The root and the distal node of every piece, in the tree's order (root first)."""
-    return (root_site(), *(Site(i, float(ell)) for i, ell in enumerate(np.asarray(tree.lengths))))
+    return NodeSites(tuple(np.asarray(tree.lengths, dtype=float).tolist()))
+
+
+class NodeSites(Sequence[Site]):
+    """The root's site, then ``Site(i, lengths[i])`` for every piece i: a sequence whose sites are
+    made when read (a tree of 100,000 points need not make them all to be mapped)."""
+
+    __slots__ = ("lengths",)
+
+    def __init__(self, lengths: tuple[float, ...]) -> None:
+        self.lengths = lengths
+
+    def __len__(self) -> int:
+        return len(self.lengths) + 1
+
+    def __getitem__(self, index):  # type: ignore[no-untyped-def, override]
+        if isinstance(index, slice):
+            return tuple(self[k] for k in range(*index.indices(len(self))))
+        k = int(index) + (len(self) if int(index) < 0 else 0)
+        if k == 0:
+            return root_site()
+        if k < 0:
+            k = len(self)  # out of range: the lengths' own IndexError
+        return Site(k - 1, self.lengths[k - 1])
+
+    def __iter__(self):  # type: ignore[no-untyped-def]
+        yield root_site()
+        for i, ell in enumerate(self.lengths):
+            yield Site(i, ell)
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, NodeSites):
+            return self.lengths == other.lengths
+        return isinstance(other, Sequence) and tuple(self) == tuple(other)
+
+    def __hash__(self) -> int:
+        return hash(self.lengths)
+
+    def __repr__(self) -> str:
+        return f"NodeSites({len(self)} sites)"
 
 
 def _chain(tree: Tree, piece: int) -> list[int]:
@@ -342,10 +381,11 @@ class _Network:
         return int(self.parents.size)
 
 
-def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
+def _network(cell: PassiveTree, sites: Sequence[Site] | None) -> _Network:
     """The pieces of ``cell`` cut at every site inside a piece, zero-length pieces contracted into
     their proximal node, with the node of each site; built with whole-array operations (linear in
-    the number of pieces and sites, apart from sorting the cuts)."""
+    the number of pieces and sites, apart from sorting the cuts). ``sites=None``: the sites of
+    :func:`node_sites` (the root and every piece's distal node), without making them one by one."""
     tree = cell.tree
     n = len(tree)
     lengths = np.asarray(tree.lengths, dtype=float)
@@ -359,7 +399,11 @@ def _network(cell: PassiveTree, sites: Sequence[Site]) -> _Network:
     lam = np.asarray(length_constant(rm, ri, diam), dtype=float)
     ginf = np.asarray(semi_infinite_input_conductance(rm, ri, diam), dtype=float)
     parents = np.asarray(tree.parents, dtype=np.int64)
-    site_piece, site_x = _check_sites(tree, sites)
+    if sites is None:
+        site_piece = np.arange(-1, n, dtype=np.int64)
+        site_x = np.concatenate(([0.0], lengths))
+    else:
+        site_piece, site_x = _check_sites(tree, sites)
     # the cuts: distinct (piece, distance) strictly inside a piece, by piece then distance
     inside = (site_piece >= 0) & (site_x > 0.0) & (site_x < lengths[np.maximum(site_piece, 0)])
     pairs = np.column_stack((site_piece[inside].astype(float), site_x[inside]))

@@ -83,16 +83,19 @@ def _count_and_slope(net: _Network, rates: Array, *, slope: bool = True) -> tupl
         return count, np.full(rates.size, math.nan)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         pivots = np.where(finite, piv.imag / (eta * piv.real), 0.0).sum(axis=0)
-        # d ln(sinh u / u)/ds = (coth u - 1/u) L τ/(2q), u = Lq, q = sqrt(1 + τs); a series near u = 0
+        # d ln(sinh u / u)/ds = (coth u - 1/u) L τ/(2q), u = Lq, q = sqrt(1 + τs); a series near u = 0.
+        # At s = -λ, q² = x = 1 - τλ is real: q = √x real for x > 0, q = i√(-x) for x < 0, where
+        # with θ = L√(-x) the term is -(cot θ - 1/θ) L τ/(2√(-x)); all in real arithmetic
         tau, ell = net.tau[:, None], net.electrotonic[:, None]
-        q = np.sqrt(1.0 - tau * rates[None, :] + 0j)
-        u = ell * q  # the electrotonic length times q
-        small = np.abs(u) < 1e-2
-        u_safe = np.where(small, 1.0, u)
-        q_safe = np.where(small, 1.0, q)
-        exact = (1.0 / np.tanh(u_safe) - 1.0 / u_safe) * ell * tau / (2.0 * q_safe)
-        series = 0.5 * ell**2 * tau * (1.0 / 3.0 - u**2 / 45.0 + 2.0 * u**4 / 945.0)
-        pieces = np.where(small, series, exact).real.sum(axis=0)
+        x = 1.0 - tau * rates[None, :]
+        u2 = ell**2 * x  # u² (real)
+        small = np.abs(u2) < 1e-4  # |u| < 1e-2
+        root = np.sqrt(np.where(small, 1.0, np.abs(x)))
+        u = ell * root  # |u| away from the series' range
+        grows = x > 0
+        exact = np.where(grows, 1.0 / np.tanh(u) - 1.0 / u, -(1.0 / np.tan(u) - 1.0 / u)) * ell * tau / (2.0 * root)
+        series = 0.5 * ell**2 * tau * (1.0 / 3.0 - u2 / 45.0 + 2.0 * u2**2 / 945.0)
+        pieces = np.where(small, series, exact).sum(axis=0)
     return count, pivots + pieces
 
 

@@ -255,7 +255,8 @@ class ElectrotonicMap:
 
     Attributes
     ----------
-    sites : the root, then the distal node of every piece (:func:`~cabletheory.tree_laplace.node_sites`)
+    sites : the root, then the distal node of every piece (:func:`~cabletheory.tree_laplace.node_sites`,
+        a sequence that makes each site when read)
     frequency : Hz at which the attenuations are taken (0: steady state)
     input_impedance : |Z_ii|, Ω
     transfer_impedance : |Z_i0| (= |Z_0i|), Ω, to the root
@@ -268,7 +269,7 @@ class ElectrotonicMap:
     delay_from_root : transfer_delay - local delay at the root (root → i), s
     """
 
-    sites: tuple[Site, ...]
+    sites: Sequence[Site]
     frequency: float
     input_impedance: Array
     transfer_impedance: Array
@@ -316,7 +317,7 @@ def electrotonic_map(cell: PassiveTree, frequency: float = 0.0) -> ElectrotonicM
     if not (math.isfinite(f) and f >= 0):
         raise InputError(f"frequency must be finite and >= 0 Hz, got {frequency!r}")
     sites = node_sites(cell.tree)
-    net = _network(cell, list(sites))
+    net = _network(cell, None)  # the sites of node_sites
     tau = max(float(net.tau.max()), net.soma_tau)
     eta = 1e-12 / tau
     z_in, z_root = _all_nodes(net, np.array([2j * math.pi * f, 1j * eta]))

@@ -117,3 +117,40 @@ def test_the_store_keeps_a_bounded_number_of_values(monkeypatch):
     assert len(tree_laplace._KEPT) == 3
     first = _solve_kept(net, S + 5)  # the most recent is still there
     assert _solve_kept(net, S + 5) is first
+
+
+# -- the sites of every node, made when read -------------------------------------------------------
+def test_node_sites_read_as_the_sites_they_stand_for():
+    from cabletheory.tree_laplace import Site, node_sites
+
+    tree = demo(soma=20.0)
+    explicit = (root_site(), *(Site(i, float(ell)) for i, ell in enumerate(tree.lengths)))
+    sites = node_sites(tree)
+    assert len(sites) == len(explicit) == len(tree) + 1
+    assert tuple(sites) == explicit
+    assert sites == explicit
+    assert sites[-1] == explicit[-1]
+    assert sites[0] == root_site()
+    assert sites[2:5] == explicit[2:5]
+    with pytest.raises(IndexError):
+        sites[len(tree) + 1]
+
+
+@pytest.mark.parametrize("make", [lambda: demo(soma=20.0), tapered_tree])
+def test_the_node_network_made_from_arrays_equals_the_one_made_from_sites(make):
+    from cabletheory.tree_laplace import _solve, node_sites
+
+    cell = PassiveTree(make(), 2.0, 1.5, 0.01, tips="killed")
+    from_arrays = _network(cell, None)
+    from_sites = _network(cell, list(node_sites(cell.tree)))
+    np.testing.assert_array_equal(from_arrays.nodes, from_sites.nodes)
+    assert from_arrays.fingerprint == from_sites.fingerprint
+    np.testing.assert_array_equal(_solve(from_arrays, S).total, _solve(from_sites, S).total)
+
+
+def test_path_distances_are_the_sums_of_lengths_from_the_root():
+    from cabletheory.cli.tree_views import _path_distances
+
+    tree = demo()
+    d = _path_distances(tree) * 1e6  # µm: s0 300, s1 and s2 300 each, s3 200 (default), s4..s6 200
+    np.testing.assert_allclose(d, [0, 300, 600, 600, 800, 800, 800, 800], rtol=1e-12)

@@ -189,17 +189,15 @@ def _quantity_or_zero(value: float, kind: str, digits: int) -> str:
     return "0" if value == 0 else format_quantity(value, kind, digits)
 
 
-def _name(tree, site) -> str:
-    return tree.root_label if site.piece < 0 else tree.labels[site.piece]
-
-
 def _path_distances(tree) -> np.ndarray:
     """Path distance (m) from the root to the root and to every piece's distal node."""
-    parents = np.asarray(tree.parents)
-    lengths = np.asarray(tree.lengths, dtype=float)
-    out = np.zeros(len(tree) + 1)
-    for i in range(len(tree)):
-        out[i + 1] = out[parents[i] + 1] + lengths[i]
+    # pointer doubling: each node adds what its current ancestor has summed, then jumps to that
+    # ancestor's ancestor (log2 of the depth whole-array steps)
+    up = np.concatenate(([0], np.asarray(tree.parents, dtype=np.int64) + 1))
+    out = np.concatenate(([0.0], np.asarray(tree.lengths, dtype=float)))
+    while np.any(up != 0):
+        out = out + np.where(up != 0, out[up], 0.0)
+        up = up[up]
     return out
 
 
@@ -215,7 +213,7 @@ def map_view(args: argparse.Namespace, cell, source: str, tips: str, points) -> 
                                                                   allow_zero=True)
     m = electrotonic_map(cell, frequency)
     tree = cell.tree
-    names = [_name(tree, s) for s in m.sites]
+    names = [tree.root_label, *tree.labels]  # the map's sites: the root, then each piece's distal node
     distance = _path_distances(tree)
     if args.plot is not None:
         colouring = map_colouring(m, args.colour_by or COLOURINGS[0])
