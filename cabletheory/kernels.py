@@ -236,12 +236,17 @@ def _repeated_erfc_scaled(u: Array, highest: int) -> Array:
 
     table = np.empty((highest + 1, u.size))
     scaled = erfcx(u)
-    previous = np.full(u.size, 2.0 / math.sqrt(math.pi))
-    current = scaled.copy()
-    table[0] = current
-    for n in range(1, highest + 1):
-        previous, current = current, (0.5 * previous - u * current) / n
-        table[n] = current
+    near = np.flatnonzero(u <= _FORWARD_UP_TO)
+    if near.size:
+        un = u[near]
+        previous = np.full(near.size, 2.0 / math.sqrt(math.pi))
+        current = scaled[near]
+        up = np.empty((highest + 1, near.size))
+        up[0] = current
+        for n in range(1, highest + 1):
+            previous, current = current, (0.5 * previous - un * current) / n
+            up[n] = current
+        table[:, near] = up
     for far, extra in ((np.flatnonzero((u > _FORWARD_UP_TO) & (u <= _QUICKER_FROM)), _DOWNWARD_EXTRA),
                        (np.flatnonzero(u > _QUICKER_FROM), _DOWNWARD_EXTRA_FAR)):
         if far.size == 0:
