@@ -655,21 +655,25 @@ class _Inward:
     two_port: tuple[ComplexArray, ...] | None  # T11, T12, T21, T22, scale of the frusta
 
 
-def _inward(net: _Network, s: ComplexArray) -> _Inward:
-    """Tips inward: each piece's input admittance seen from its parent, and V(distal)/V(proximal)."""
+def _inward(net: _Network, s: ComplexArray, *, ratios: bool = True) -> _Inward:
+    """Tips inward: each piece's input admittance seen from its parent, and V(distal)/V(proximal)
+    (``ratios=False``: the admittances only, as counting needs; ``down`` and ``sech`` are then nan)."""
     s = np.asarray(s, dtype=complex).ravel()
     n = net.size
     taus, which = np.unique(net.tau, return_inverse=True)  # one membrane: q is the same on every piece
     q = np.sqrt(1.0 + taus[:, None] * s[None, :])[which.ravel()]
     u = net.electrotonic[:, None] * q
     th = np.tanh(u)
-    e = np.exp(-u)
-    sech = 2.0 * e / (1.0 + e * e)
+    if ratios:
+        e = np.exp(-u)
+        sech = 2.0 * e / (1.0 + e * e)
+    else:
+        sech = np.full((1, 1), np.nan + 0j)
     gq = net.g_inf[:, None] * q
     load = np.zeros((n + 1, s.size), dtype=complex)
     load[1:] += net.shunt[:, None]
     y_in = np.empty((n, s.size), dtype=complex)
-    down = np.empty((n, s.size), dtype=complex)
+    down = np.empty((n, s.size), dtype=complex) if ratios else np.full((n, s.size), np.nan + 0j)
     row = np.full(n, -1)
     row[net.tapered] = np.arange(net.tapered.size)
     two_port = _frustum_two_port(net, q[net.tapered]) if net.tapered.size else None
@@ -684,8 +688,9 @@ def _inward(net: _Network, s: ComplexArray) -> _Inward:
             np.multiply(g, yl + g * t, out=y)
             y /= den
             h = down[a:b]
-            np.multiply(g, sech[a:b], out=h)
-            h /= den
+            if ratios:
+                np.multiply(g, sech[a:b], out=h)
+                h /= den
             k = net.level_killed[j]
             if k is not None:
                 y[k] = g[k] / t[k]
@@ -721,7 +726,7 @@ def _pivots_of(net: _Network, w: _Inward) -> ComplexArray:
 
 def _pivots(net: _Network, s: ComplexArray) -> ComplexArray:
     """The elimination pivots alone (tips inward only; :func:`_solve` adds the outward pass)."""
-    return _pivots_of(net, _inward(net, s))
+    return _pivots_of(net, _inward(net, s, ratios=False))
 
 
 def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution:
