@@ -5,9 +5,9 @@ The float path (``finite_cable._alpha_by_residues``: the input's double pole at 
 ``truncation.alpha_residue_tail``) is compared with an independent route: the transform
 :math:`(e/a)/(s + 1/a)^2\\cdot\\hat G(X, X_0; s)` inverted by mpmath's Talbot method
 (``mpmath.invertlaplace``; the mpmath development team 2023 [mpmath2023], Talbot 1979
-[Talbot1979]) at 30 digits, with :math:`\\hat G` written here in mpmath from its hyperbolic closed
-form (Rall 1969 [Rall1969]; Jack, Noble & Tsien 1975 [JackNobleTsien1975] ch. 7, recalled from
-memory), and its slope in s by ``mpmath.diff``.
+[Talbot1979]), with :math:`\\hat G` solved by hand in ``tests/laplace_reference.py`` (Rall 1969
+[Rall1969]; Jack, Noble & Tsien 1975 [JackNobleTsien1975] ch. 7), and its slope in s by
+``mpmath.diff``.
 """
 
 from __future__ import annotations
@@ -17,34 +17,20 @@ import math
 import mpmath as mp
 import numpy as np
 import pytest
+from laplace_reference import DIGITS, Case, green
 
 from cabletheory import eigen, laplace
 from cabletheory.finite_cable import _alpha_by_residues, current_response
 from cabletheory.truncation import alpha_residue_tail
 
-DIGITS = 30
-ROUNDING = 2e-14  # float rounding of sums of terms of order e/a times the residues (measured: below 5e-15)
-
-
-def _green(s, X: float, X0: float, L: float, B: float, y: float):
-    """Ĝ(X, X0; s) in mpmath: φ(X<)ψ(X>)/(y(1+s)ψ(0) - ψ'(0)), hyperbolic functions of q = √(1+s)."""
-    q = mp.sqrt(1 + s)
-    near, far = min(X, X0), max(X, X0)
-    phi = mp.cosh(q * near) + y * q * mp.sinh(q * near)
-    if math.isinf(B):
-        psi_far, psi_0, slope_0 = mp.sinh(q * (L - far)) / q, mp.sinh(q * L) / q, -mp.cosh(q * L)
-    else:
-        psi_far = mp.cosh(q * (L - far)) + B / q * mp.sinh(q * (L - far))
-        psi_0 = mp.cosh(q * L) + B / q * mp.sinh(q * L)
-        slope_0 = -q * mp.sinh(q * L) - B * mp.cosh(q * L)
-    return phi * psi_far / (y * q * q * psi_0 - slope_0)
+ROUNDING = 2e-14  # float rounding of sums of terms of order e/a times the residues (measured: below 1e-14)
 
 
 def _talbot(X: float, X0: float, T: float, L: float, B: float, y: float, a: float) -> float:
-    c = 1 / mp.mpf(a)
-    with mp.workdps(DIGITS):
-        return float(mp.invertlaplace(lambda s: mp.e * c / (s + c) ** 2 * _green(s, X, X0, L, B, y), T,
-                                      method="talbot"))
+    """The alpha current's voltage by Talbot inversion of the hand-solved transform (laplace_reference)."""
+    case = Case("ball" if y else "cylinder", "alpha", L=L, B=mp.inf if math.isinf(B) else B, y=y, source=X0,
+                time_to_peak=a)
+    return float(case.value(T, X))
 
 
 @pytest.mark.parametrize(("L", "B", "y", "c"), [
@@ -63,7 +49,7 @@ def test_value_and_slope_near_a_real_point_match_mpmath(L, B, y, c):
     with mp.workdps(DIGITS):
         for j, x in enumerate(X):
             def tilde(s, x=x, j=j):
-                return mp.re(_green(s, float(x), X0, L, B, y)) - sum(  # real on the real axis
+                return mp.re(green(s, mp.mpf(float(x)), X0, L, mp.inf if math.isinf(B) else B, y)) - sum(
                     mp.mpf(r) / (s + mp.mpf(m)) for m, r in zip(mu[near], residues[near, j], strict=True))
             exact_value = float(tilde(mp.mpf(-c)))
             exact_slope = float(mp.diff(tilde, mp.mpf(-c)))
