@@ -588,7 +588,7 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
                 new, old = self._map_cells[i], shown_cells[i]
                 for c, text in enumerate(new):
                     if text != old[c]:
-                        table.update_cell_at(Coordinate(r, c), text, update_width=cell_len(text) > widths[c])
+                        table.update_cell_at(Coordinate(r, c), Text(text), update_width=cell_len(text) > widths[c])
             return
         if not same_columns:
             table.clear(columns=True)
@@ -615,7 +615,8 @@ class TreeView(OneFileForm, CaseChoices, Vertical):
         table = self.query_one("#tree-map-table", DataTable)
         self._map_order = self._map_order_now()
         table.clear()
-        table.add_rows([self._map_cells[i] for i in self._map_order])
+        # as Text, not str: a str cell is parsed as markup each time the table draws it
+        table.add_rows([[Text(text) for text in self._map_cells[i]] for i in self._map_order])
 
     def on_data_table_header_selected(self, event: DataTable.HeaderSelected) -> None:
         """A click on a column's header orders the map by it (largest first); again: smallest first;
