@@ -217,8 +217,30 @@ def survey_table(tmp_path_factory):
     return path, rows
 
 
+async def next_column_and_a_file_that_is_not_a_table(app, pilot, path: Path, other: Path) -> None:
+    view = app.query_one("#survey")
+    view.open_path(str(path))
+    await settle(app, pilot)
+    before = view.column
+    await pilot.press("ctrl+l")
+    await pilot.pause()
+    assert view.column != before
+    assert view.report.inputs[-1].value == view.column
+    view.open_path(str(other))
+    await settle(app, pilot)
+    field = app.query_one("#field-sv-file")
+    assert field.has_class("bad")
+    assert "not a survey table" in field.echo_text
+    assert view.report is None
+    assert app.query_one("#survey-cells", DataTable).row_count == 0
+
+
 def test_survey_view_lists_every_cell_with_its_errors_and_summarises_a_column(survey_table, tmp_path):
+    """Then, in the same app: the next column, and a file that is not a survey table
+    (:func:`next_column_and_a_file_that_is_not_a_table`)."""
     path, rows = survey_table
+    other = tmp_path / "other.csv"
+    other.write_text("a,b\n1,2\n", encoding="utf-8")
     ok = [r for r in rows if r["status"] == "ok"]
     assert len(ok) == 3
     assert len(rows) == 4
@@ -242,8 +264,11 @@ def test_survey_view_lists_every_cell_with_its_errors_and_summarises_a_column(su
         await pilot.press("enter")
         await pilot.pause()
         saved.update(json.loads((tmp_path / "survey.json").read_text(encoding="utf-8")))
+        await next_column_and_a_file_that_is_not_a_table(app, pilot, path, other)
+        saved["next column checked"] = True
 
     drive(script)
+    assert saved.pop("next column checked")
     values = [r["electrotonic_length"] for r in ok]
     results = saved["results"]
     assert results["count"] == 3
@@ -255,31 +280,6 @@ def test_survey_view_lists_every_cell_with_its_errors_and_summarises_a_column(su
     assert results["lower_quartile"]["value"] == pytest.approx(q1, rel=1e-12)
     assert saved["inputs"]["errors"] == 1
     assert saved["tables"]["cells"]["status"].count("error") == 1
-
-
-def test_survey_view_next_column_and_a_file_that_is_not_a_table(survey_table, tmp_path):
-    path, _ = survey_table
-    other = tmp_path / "other.csv"
-    other.write_text("a,b\n1,2\n", encoding="utf-8")
-
-    async def script(app, pilot):
-        view = app.query_one("#survey")
-        view.open_path(str(path))
-        await settle(app, pilot)
-        before = view.column
-        await pilot.press("ctrl+l")
-        await pilot.pause()
-        assert view.column != before
-        assert view.report.inputs[-1].value == view.column
-        view.open_path(str(other))
-        await settle(app, pilot)
-        field = app.query_one("#field-sv-file")
-        assert field.has_class("bad")
-        assert "not a survey table" in field.echo_text
-        assert view.report is None
-        assert app.query_one("#survey-cells", DataTable).row_count == 0
-
-    drive(script, view="survey")
 
 
 # -- opened from the command line ------------------------------------------------------------------------
