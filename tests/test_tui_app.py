@@ -110,58 +110,84 @@ def test_the_shell_starts_on_the_cylinder_view_and_its_keys_and_clicks_work():
 
 
 # -- cylinder view ---------------------------------------------------------------------------------------
-def test_typing_a_wrong_unit_flags_the_field_and_fixing_it_restores_results():
+# The cylinder view's checks run in turn from one app start: after each, the fields it typed into
+# are set back to their defaults and the results must read exactly as at the start, so every check
+# starts from the default cable as it would in a fresh app.
+DEFAULTS = {"Rm": "20 kΩ·cm²", "diameter": "2 µm", "end": "sealed", "frequency": "100 Hz"}
+
+
+async def typing_a_wrong_unit_flags_the_field_and_fixing_it_restores_results(app, pilot):
+    await type_into(pilot, app, "Rm", "5uF")
+    field = app.query_one("#field-Rm", QuantityField)
+    assert field.has_class("bad")
+    message = text_of(app, "#field-Rm .field-echo")
+    assert message == "Rm: '5uF' is a capacitance, expected a specific membrane resistance such as 20 kΩ·cm²"
+    assert "wait for valid inputs" in text_of(app, "#cylinder-results")
+    assert app.query_one("#cylinder").report is None
+    await type_into(pilot, app, "Rm", "40000")  # bare number: Ω·cm²
+    assert not field.has_class("bad")
+    # λ ∝ √Rm: doubling Rm multiplies 707.1 µm by √2 -> 1.000 mm (λ = √(Rm d / 4 Ri))
+    assert "1.000 mm" in text_of(app, "#cylinder-results")
+
+
+async def results_follow_each_keystroke(app, pilot):
+    await type_into(pilot, app, "diameter", "8")
+    # λ ∝ √d: 707.1 µm × 2 = 1.414 mm
+    assert "1.414 mm" in text_of(app, "#cylinder-results")
+
+
+async def the_far_end_is_typed_as_in_every_view_and_its_reading_is_echoed(app, pilot):
+    await type_into(pilot, app, "end", "killed")
+    assert "274.1 MΩ" in text_of(app, "#cylinder-results")  # R∞ tanh L, computed
+    assert "killed" in app.query_one("#field-end", QuantityField).echo_text
+    # B = 1: G_end = G∞ = 1/450.158 MΩ gives R_in = R∞ for every L (Rall 1959 [Rall1959])
+    await type_into(pilot, app, "end", "2.2214411")  # bare number: nS
+    results = text_of(app, "#cylinder-results")
+    assert "input resistance R_in (leaky end)" in results
+    assert "450.2 MΩ" in results
+    assert app.query_one("#field-end", QuantityField).echo_text == "= 2.221 nS to rest"
+    await type_into(pilot, app, "end", "open")
+    assert app.query_one("#field-end", QuantityField).has_class("bad")
+    assert "is not 'sealed', 'killed' or a conductance" in text_of(app, "#field-end .field-echo")
+
+
+async def blank_frequency_drops_the_sinusoidal_rows(app, pilot):
+    assert "input impedance phase" in text_of(app, "#cylinder-results")
+    await type_into(pilot, app, "frequency", "")
+    assert "input impedance phase" not in text_of(app, "#cylinder-results")
+    assert len(app.query_one("#cylinder-plot").spec.series) == 1
+
+
+async def export_without_a_valid_result_says_so(app, pilot):
+    await type_into(pilot, app, "length", "-1")
+    await pilot.press("ctrl+s")
+    assert not isinstance(app.screen, SaveScreen)
+    assert "Nothing to save yet" in text_of(app, "#status")
+
+
+CYLINDER_CHECKS = (results_follow_each_keystroke, typing_a_wrong_unit_flags_the_field_and_fixing_it_restores_results,
+                   the_far_end_is_typed_as_in_every_view_and_its_reading_is_echoed,
+                   blank_frequency_drops_the_sinusoidal_rows, export_without_a_valid_result_says_so)
+
+
+def test_the_cylinder_view_follows_typed_values_flags_bad_ones_and_saves_only_a_result():
+    done = []
+
     async def script(app, pilot):
-        await type_into(pilot, app, "Rm", "5uF")
-        field = app.query_one("#field-Rm", QuantityField)
-        assert field.has_class("bad")
-        message = text_of(app, "#field-Rm .field-echo")
-        assert message == "Rm: '5uF' is a capacitance, expected a specific membrane resistance such as 20 kΩ·cm²"
-        assert "wait for valid inputs" in text_of(app, "#cylinder-results")
-        assert app.query_one("#cylinder").report is None
-        await type_into(pilot, app, "Rm", "40000")  # bare number: Ω·cm²
-        assert not field.has_class("bad")
-        # λ ∝ √Rm: doubling Rm multiplies 707.1 µm by √2 -> 1.000 mm (λ = √(Rm d / 4 Ri))
-        assert "1.000 mm" in text_of(app, "#cylinder-results")
+        await pilot.pause()
+        start = text_of(app, "#cylinder-results")
+        assert "707.1 µm" in start  # λ of the demo cable
+        for check in CYLINDER_CHECKS:
+            await check(app, pilot)
+            done.append(check.__name__)
+            for name, default in DEFAULTS.items():
+                app.query_one(f"#{name}", Input).value = default
+            await pilot.pause()
+            if check is not CYLINDER_CHECKS[-1]:
+                assert text_of(app, "#cylinder-results") == start, f"not the default cable after {check.__name__}"
 
     drive(script)
-
-
-def test_results_follow_each_keystroke():
-    async def script(app, pilot):
-        await type_into(pilot, app, "diameter", "8")
-        # λ ∝ √d: 707.1 µm × 2 = 1.414 mm
-        assert "1.414 mm" in text_of(app, "#cylinder-results")
-
-    drive(script)
-
-
-def test_the_far_end_is_typed_as_in_every_view_and_its_reading_is_echoed():
-    async def script(app, pilot):
-        await type_into(pilot, app, "end", "killed")
-        assert "274.1 MΩ" in text_of(app, "#cylinder-results")  # R∞ tanh L, computed
-        assert "killed" in app.query_one("#field-end", QuantityField).echo_text
-        # B = 1: G_end = G∞ = 1/450.158 MΩ gives R_in = R∞ for every L (Rall 1959 [Rall1959])
-        await type_into(pilot, app, "end", "2.2214411")  # bare number: nS
-        results = text_of(app, "#cylinder-results")
-        assert "input resistance R_in (leaky end)" in results
-        assert "450.2 MΩ" in results
-        assert app.query_one("#field-end", QuantityField).echo_text == "= 2.221 nS to rest"
-        await type_into(pilot, app, "end", "open")
-        assert app.query_one("#field-end", QuantityField).has_class("bad")
-        assert "is not 'sealed', 'killed' or a conductance" in text_of(app, "#field-end .field-echo")
-
-    drive(script)
-
-
-def test_blank_frequency_drops_the_sinusoidal_rows():
-    async def script(app, pilot):
-        assert "input impedance phase" in text_of(app, "#cylinder-results")
-        await type_into(pilot, app, "frequency", "")
-        assert "input impedance phase" not in text_of(app, "#cylinder-results")
-        assert len(app.query_one("#cylinder-plot").spec.series) == 1
-
-    drive(script)
+    assert done == [check.__name__ for check in CYLINDER_CHECKS]
 
 
 # -- export ---------------------------------------------------------------------------------------------------
@@ -209,16 +235,6 @@ def test_export_with_a_bad_name_keeps_the_dialog_open_with_a_message(tmp_path):
 
     drive(script)
     assert list(tmp_path.iterdir()) == []
-
-
-def test_export_without_a_valid_result_says_so():
-    async def script(app, pilot):
-        await type_into(pilot, app, "length", "-1")
-        await pilot.press("ctrl+s")
-        assert not isinstance(app.screen, SaveScreen)
-        assert "Nothing to save yet" in text_of(app, "#status")
-
-    drive(script)
 
 
 def test_the_modules_imported_ahead_of_the_first_result_exist_and_name_views():
