@@ -112,24 +112,25 @@ class Attempt:
 
 def richardson(build: Callable[[int], tuple[compartment.Compartments, np.ndarray, np.ndarray]],
                times: np.ndarray, setting: tuple[int, int, float, int], levels: int,
-               exact: np.ndarray, scale: float) -> Attempt:
+               exact: np.ndarray, scale: float, clock: Callable[[], float] = time.perf_counter) -> Attempt:
     """Solve at ``levels`` refinements (every compartment and step halved each time), extrapolate
     repeatedly (orders 2, 4, ...), and give the time of all the solves and the worst error / scale.
 
     ``build(k)`` gives the discretisation with ``k`` compartments (per cylinder, or in all), the
     current per node and the recorded nodes (the same places at every k); ``setting`` is
-    ``(k, first, power, least)`` of the coarsest level (see :func:`graded_steps`).
+    ``(k, first, power, least)`` of the coarsest level (see :func:`graded_steps`); ``clock`` times
+    the solves (wall clock by default, ``time.process_time`` for CPU time).
     """
     compartments, first, power, least = setting
     table: list[np.ndarray] = []
     seconds = 0.0
     for level in range(levels):
         scale_up = 2**level
-        start = time.perf_counter()
+        start = clock()
         c, current, record = build(compartments * scale_up)
         steps, marks = graded_steps(times, first * scale_up, power, least * scale_up)
         table.append(march(c, current, steps, marks, record))
-        seconds += time.perf_counter() - start
+        seconds += clock() - start
     for order in range(1, levels):  # Richardson's table, column by column
         factor = 4.0**order
         table = [(factor * fine - coarse) / (factor - 1.0) for coarse, fine in itertools.pairwise(table)]
@@ -161,12 +162,13 @@ def cheapest(build: Callable[[int], tuple[compartment.Compartments, np.ndarray, 
 
 def fastest(build: Callable[[int], tuple[compartment.Compartments, np.ndarray, np.ndarray]],
             times: np.ndarray, ladder: list[tuple[tuple[int, int, float, int], int]],
-            exact: np.ndarray, scale: float, target: float, repeats: int = 3) -> tuple[Attempt | None, list[Attempt]]:
+            exact: np.ndarray, scale: float, target: float, repeats: int = 3,
+            clock: Callable[[], float] = time.perf_counter) -> tuple[Attempt | None, list[Attempt]]:
     """Try every setting of ``ladder`` and keep the fastest that reaches ``target``, timed
-    ``repeats`` times in all (median); the search itself is not timed."""
+    ``repeats`` times in all (median) with ``clock``; the search itself is not timed."""
     tried = []
     for setting, levels in ladder:
-        attempt = richardson(build, times, setting, levels, exact, scale)
+        attempt = richardson(build, times, setting, levels, exact, scale, clock)
         tried.append((attempt, setting, levels))
         print(f"  compartmental: {attempt.setting}, {levels} levels: {attempt.seconds:.3f} s, "
               f"worst error {attempt.error:.2g} of the final voltage", flush=True)
@@ -174,6 +176,6 @@ def fastest(build: Callable[[int], tuple[compartment.Compartments, np.ndarray, n
     if not good:
         return None, [t[0] for t in tried]
     best, setting, levels = min(good, key=lambda t: t[0].seconds)
-    seconds = [best.seconds] + [richardson(build, times, setting, levels, exact, scale).seconds
+    seconds = [best.seconds] + [richardson(build, times, setting, levels, exact, scale, clock).seconds
                                 for _ in range(repeats - 1)]
     return Attempt(best.setting, statistics.median(seconds), best.error), [t[0] for t in tried]
