@@ -216,11 +216,11 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
     images only where a value is under 1/16 of it: every value keeps its digits, and the images,
     an erfcx pair per term and point, are summed where they are needed. An alpha current's series
     (:func:`_alpha_by_residues`) takes every time at which it needs fewer operations than the
-    images; its rounding is about ε of the largest steady voltage g(X0, X0), so at times whose
-    images need at most :data:`EARLY_REFLECTIONS` reflections the values below 1e-5 of g (far
-    points just after the onset) are replaced by their images, each point summing only the
-    images that are not negligible beside its nearest one (:func:`_alpha_small_values`): every
-    value keeps about 10 digits. A soma, or
+    images; its rounding is about ε of the largest steady voltage g(X0, X0), so with a sealed or
+    killed end, at times whose images need at most :data:`EARLY_REFLECTIONS` reflections, the
+    values below 1e-5 of g (far points just after the onset) are replaced by their images, each
+    point summing only the images that are not negligible beside its nearest one
+    (:func:`_alpha_small_values`): every value keeps about 10 digits. A soma, or
     a leaky end whose bracket is too wide, at times whose eigen-series would need more than
     :data:`CONTOUR_MODES` modes, uses the Laplace-domain solution inverted on a contour
     (:func:`cabletheory.laplace.current_inversion`), whose error estimate is the bound there.
