@@ -86,6 +86,7 @@ def test_alpha_current_within_its_bound_of_talbot(L, B, y, X0, a):
 
 @pytest.mark.parametrize(("L", "B", "y", "a"), [
     (1.0, 0.0, 0.0, 0.1), (0.7, math.inf, 0.0, 0.002), (1.2, 0.5, 0.6, 2.0), (3.0, 0.0, 0.0, 0.3),
+    (0.2, 0.0, 0.0, 30.0), (5.0, math.inf, 0.0, 0.01),
 ])
 def test_alpha_residue_tail_bounds_the_modes_left_out(L, B, y, a):
     """The series cut after N modes stays within alpha_residue_tail(N) of the Talbot value, and the
