@@ -104,7 +104,15 @@ def _point_images(kernel, X: Array, X0: float, T: Array, L: float, sign: float, 
 
 
 def _images_at(kernel, X: Array, X0: float, T: Array, L: float, sign: float, K: int) -> Array:
-    """:func:`_point_images` at X and T that broadcast (a grid, or pairs of equal-length vectors)."""
+    """:func:`_point_images` at X and T that broadcast (a grid, or pairs of equal-length vectors;
+    at most :data:`_FEW_PAIRS` pairs take every image in one call of the kernel)."""
+    if X.ndim == 1 and T.ndim == 1 and X.size <= _FEW_PAIRS and math.isfinite(L):
+        order = np.arange(-K, K + 1)
+        shifts = (2 * order * L)[:, None]
+        weights = (sign ** np.abs(order))[:, None]
+        if X0 == 0.0:
+            return np.sum(2 * weights * kernel(np.abs(X - shifts), T), axis=0)
+        return np.sum(weights * (kernel(np.abs(X - X0 - shifts), T) + kernel(np.abs(X + X0 - shifts), T)), axis=0)
     total = np.zeros(np.broadcast_shapes(X.shape, T.shape))
     for k in range(-K, K + 1):
         s = sign ** abs(k)
@@ -148,6 +156,7 @@ def _grid_images(shape: Shape, X: Array, X0: float, T: Array, L: float, sign: fl
     return _shape_images(shape, X[None, :], X0, T[:, None], L, sign, K, None if delayed is None else delayed[:, None])
 
 
+_FEW_PAIRS = 4096  # image sums at this many (X, T) pairs or fewer stack their images in one call
 _SMALL = 1.0 / 16  # early values below this fraction of the largest steady voltage take images
 _FLOOR = 4 * float(np.finfo(float).eps)  # ... and the eigen-series is carried below this fraction of it
 _ALPHA_SMALL = 1e-5  # an alpha current's early values below this fraction of g(X0, X0) take images

@@ -57,3 +57,18 @@ def test_the_early_series_is_not_used_where_it_would_cost_more_than_the_images()
     _, _, method = finite_cable.current_response(X, 0.0, np.array([0.05, 0.2]), 30.0, 0.0)
     assert "rounding level" not in method
     assert method.startswith("images")
+
+
+@pytest.mark.parametrize(("X0", "sign"), [(0.0, 1.0), (0.3, -1.0)])
+def test_image_sums_at_a_few_pairs_are_those_of_the_grid(X0, sign):
+    """A few (X, T) pairs take all their images in one call of the kernel; the values are the
+    grid's, term by term (the same kernel, numpy's arithmetic)."""
+    from cabletheory.kernels import point_source_step
+
+    X = np.linspace(0.0, 1.2, 13)
+    T = np.array([0.003, 0.05, 0.4])
+    grid = finite_cable._point_images(point_source_step, X, X0, T, 1.2, sign, 3)
+    rows, cols = np.meshgrid(np.arange(T.size), np.arange(X.size), indexing="ij")
+    pairs = finite_cable._images_at(point_source_step, X[cols.ravel()], X0, T[rows.ravel()], 1.2, sign, 3)
+    assert pairs.size <= finite_cable._FEW_PAIRS
+    np.testing.assert_allclose(pairs, grid.ravel(), rtol=1e-14, atol=1e-300)
