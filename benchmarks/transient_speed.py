@@ -13,21 +13,21 @@ sample of points (it must stay below the reported bound), and the peak memory.
 
 The 1,000× ratio is out of reach on this grid for a reason outside the exact evaluator:
 returning 10^6 values and their 10^6 bounds means writing two 8 MB arrays, which alone takes
-3.5-6.4 ms on the shared two-core machine (printed as the write floor), so 1,000× would need a
-compartmental solve of 3.5-6.4 s, while the careful one reaches 1e-8 at every point in
-0.84-1.25 s (999→1998 compartments, graded steps from 512, two levels): at most 130-300×,
-whatever the exact side does. Measured: the step in 15-28 ms wall, 13-19 ms of CPU, a ratio of
-22-84× (five runs at load average 3-7, 11:45-12:05 UTC).
+1.1-6.4 ms on the shared two-core machine (printed as the write floor; it varies with the load),
+so 1,000× would need a compartmental solve of 1.1-6.4 s, while the careful one reaches 1e-8 at
+every point in 0.84-1.25 s (999→1998 compartments, graded steps from 512, two levels): at most
+130-790×, whatever the exact side does. Measured: the step in 15-28 ms wall, 13-19 ms of CPU, a
+ratio of 22-84× (six runs at load average 3-7, 11:45-12:10 UTC).
 
 Added row (beside that one, not instead of it): simulator checks compare traces at a few
 recording sites, so the exact trace at X = 0, L/2 and L on the same 1,000 times is set against
 the fastest careful compartmental solve that reaches 1e-8 of the final voltage at those sites and
 times (every setting of ``SITES_LADDER`` is tried untimed; the fastest that reaches the error is
 timed again, median of 3), both sides in CPU time, since the machine is shared. Its goal, ≥ 50×,
-comes from our measurements, not from the issue: the exact trace takes 1.8-2.4 ms of CPU and the
-fastest careful solve 0.12-0.15 s of CPU (50→100→200 compartments, graded steps from 128, three
-levels), 56-63× in three runs at load average 4.3 (12:08 UTC); inside the whole benchmark, after
-the 10^6-point runs, one run gave 3.6 ms and 33×.
+comes from our measurements, not from the issue: the exact trace takes 1.6-2.8 ms of CPU and the
+fastest careful solve 0.13-0.15 s of CPU (50→100→200 compartments, graded steps from 128, three
+levels), 49-94× in three runs at load average 4 (12:10 UTC); inside a whole benchmark run one
+gave 36× (the trace at 4.1 ms).
 """
 
 from __future__ import annotations
