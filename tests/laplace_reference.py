@@ -94,11 +94,17 @@ def clamp_transfer(s, X, L, B=0):
     return mp.exp(-q * X) * _psi_scaled(q, L - X, B) / _psi_scaled(q, L, B)
 
 
-def invert(transform, T) -> mp.mpf:
-    """f(T) from its transform by mpmath's Talbot inversion at :data:`DIGITS` digits (0 for T ≤ 0)."""
+def _digits(digits: int | None) -> int:
+    """The working digits asked for, or :data:`DIGITS` (read when called, so it can be set)."""
+    return DIGITS if digits is None else digits
+
+
+def invert(transform, T, digits: int | None = None) -> mp.mpf:
+    """f(T) from its transform by mpmath's Talbot inversion at :data:`DIGITS` digits, or ``digits``
+    (0 for T ≤ 0)."""
     if T <= 0:
         return mp.mpf(0)
-    with mp.workdps(DIGITS):
+    with mp.workdps(_digits(digits)):
         value = mp.invertlaplace(transform, T, method="talbot")
     return mp.re(value)
 
@@ -136,23 +142,23 @@ class Case:
             return mp.e / a / (s + 1 / a) ** 2
         return 1 / s
 
-    def value(self, T, X, delayed=None) -> mp.mpf:
+    def value(self, T, X, delayed=None, digits: int | None = None) -> mp.mpf:
         """Dimensionless voltage at T (τm) and X (λ); ``delayed`` = T - D formed by the caller
         for a pulse (defaults to T - duration)."""
-        with mp.workdps(DIGITS):
+        with mp.workdps(_digits(digits)):
             X = mp.mpf(X)
 
             def F(s):
                 return self.input_transform(s) * self.transfer(s, X)
 
-            v = invert(F, T)
+            v = invert(F, T, digits)
             if self.stimulus == "pulse":
                 later = T - self.duration if delayed is None else delayed
-                v -= invert(F, later)
+                v -= invert(F, later, digits)
             return v
 
 
-def si_case(model, stimulus):
+def si_case(model, stimulus, digits: int | None = None):
     """The dimensionless :class:`Case` of a cabletheory model and stimulus, and the SI scales
     (λ in m, τm in s, voltage unit in V). Only the models' plain attributes are read (membrane
     constants, diameter, length, end conductance, soma diameter) and λ, τm, R∞ are recomputed
@@ -160,7 +166,7 @@ def si_case(model, stimulus):
     Rall 1959 [Rall1959], [CP])."""
     kind = type(model).__name__
     cyl = model.cylinder if kind == "BallAndStick" else model
-    with mp.workdps(DIGITS):
+    with mp.workdps(_digits(digits)):
         rm, ri, cm, d = (mp.mpf(cyl.membrane_resistivity), mp.mpf(cyl.axial_resistivity),
                          mp.mpf(cyl.membrane_capacitance), mp.mpf(cyl.diameter))
         lam = mp.sqrt(rm * d / (4 * ri))
@@ -186,11 +192,12 @@ def si_case(model, stimulus):
     return case, lam, tau, unit
 
 
-def si_voltage(model, stimulus, t: float, x: float) -> mp.mpf:
+def si_voltage(model, stimulus, t: float, x: float, digits: int | None = None) -> mp.mpf:
     """Voltage (V, from rest) of a cabletheory model at time t (s) and position x (m), from the
-    Laplace-domain solution above; t and x are taken as exact binary numbers."""
-    case, lam, tau, unit = si_case(model, stimulus)
-    with mp.workdps(DIGITS):
+    Laplace-domain solution above; t and x are taken as exact binary numbers. ``digits`` (default
+    :data:`DIGITS`) sets the working digits; fewer are enough only where a test has measured it."""
+    case, lam, tau, unit = si_case(model, stimulus, digits)
+    with mp.workdps(_digits(digits)):
         t = mp.mpf(t)
         delayed = (t - mp.mpf(stimulus.duration)) / tau if case.stimulus == "pulse" else None
-        return unit * case.value(t / tau, mp.mpf(x) / lam, delayed)
+        return unit * case.value(t / tau, mp.mpf(x) / lam, delayed, digits)
