@@ -5,6 +5,12 @@ the result of the new text. Headless at 120 × 36 (textual's ``App.run_test``); 
 types the last character of a new value into a field that holds the rest of it, and the clock
 stops at the first frame drawn after the view holds the report of that value.
 
+"The result" is the report of the panel shown, the one ctrl+s saves: the audit's verdict and
+equivalent cable with the outline relabelled; the time course's voltages at every reading point
+with their error estimate, drawn as curves (its response features and the comparison with the
+reduction are computed after that frame, and the panel says "features: computing…" until they
+come); the map's table of attenuations and delays with the dendrogram recoloured.
+
 Measured per field: Rm (the audit, and the time course and map when shown), the time-course
 panel's stimulus point and the map's frequency. :func:`keystroke_times` returns the times so
 that ``make bench``'s table can call it; run this file for the figures.

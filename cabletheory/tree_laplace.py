@@ -645,6 +645,7 @@ class _Inward:
     """The tips-inward pass for a vector of s: what the outward pass and the pivots reuse."""
 
     s: ComplexArray
+    q: ComplexArray  # sqrt(1 + sτ) of each piece
     gq: NDArray[Any]  # G∞·q of each piece (complex)
     th: ComplexArray  # tanh u
     sech: NDArray[Any]  # sech u (complex)
@@ -708,7 +709,8 @@ def _inward(net: _Network, s: ComplexArray, *, ratios: bool = True) -> _Inward:
                 h[f[kf]] = 0.0
             np.add.at(load, parent_node[a:b], y)
         load[0] += net.soma_conductance * (1.0 + net.soma_tau * s)
-    return _Inward(s=s, gq=gq, th=th, sech=sech, load=load, y_in=y_in, down=down, row=row, two_port=two_port)
+    return _Inward(s=s, q=q, gq=gq, th=th, sech=sech, load=load, y_in=y_in, down=down, row=row,
+                   two_port=two_port)
 
 
 def _pivots_of(net: _Network, w: _Inward) -> ComplexArray:
@@ -763,18 +765,23 @@ def _solve(net: _Network, s: ComplexArray, *, pivots: bool = False) -> _Solution
     return _Solution(y_in=y_in, total=total, down=w.down, up=up, pivots=_pivots_of(net, w) if pivots else None)
 
 
-# solutions kept for reuse (:func:`_solve_kept`): digest of the network and of s -> solution
-_KEPT: dict[bytes, _Solution] = {}
+# tips-inward passes kept for reuse (:func:`_inward_kept`): digest of the network and of s -> pass
+_KEPT: dict[bytes, _Inward] = {}
 _KEPT_VALUES = 3_000_000  # complex values kept at most, about 50 MB
 _KEPT_LOCK = threading.Lock()
 
 
-def _solve_kept(net: _Network, s: ComplexArray) -> _Solution:
-    """:func:`_solve`, keeping the solution for a later call on a network with the same fingerprint
-    (the same pieces, membrane and tips, wherever its sites are) at the same s: a time course
-    whose stimulus or reading points moved, but not the tree or its membrane, is solved once.
-    The least recently used solutions go first once more than :data:`_KEPT_VALUES` are kept;
-    the arrays kept are read-only."""
+def _kept_size(w: _Inward) -> int:
+    return w.load.size + 4 * w.y_in.size
+
+
+def _inward_kept(net: _Network, s: ComplexArray) -> _Inward:
+    """The tips-inward pass without the voltage ratios (:func:`_inward`), kept for a later call on
+    a network with the same fingerprint (the same pieces, membrane and tips, wherever its sites
+    are) at the same s: a time course whose stimulus or reading points moved, but not the tree or
+    its membrane, does not run it again (:func:`_along` then reads the sites). The least recently
+    used passes go first once more than :data:`_KEPT_VALUES` values are kept; the arrays kept are
+    read-only."""
     s = np.asarray(s, dtype=complex).ravel()
     key = net.fingerprint + s.tobytes()
     with _KEPT_LOCK:
@@ -782,19 +789,84 @@ def _solve_kept(net: _Network, s: ComplexArray) -> _Solution:
         if found is not None:
             _KEPT[key] = found  # the most recently used last
             return found
-    sol = _solve(net, s)
-    size = sol.total.size * 4
+    w = _inward(net, s, ratios=False)
+    size = _kept_size(w)
     if size > _KEPT_VALUES:
-        return sol
-    for array in (sol.y_in, sol.total, sol.down, sol.up):
+        return w
+    for array in (w.q, w.gq, w.th, w.load, w.y_in):
         array.flags.writeable = False
     with _KEPT_LOCK:
-        _KEPT[key] = sol
-        kept = sum(v.total.size * 4 for v in _KEPT.values())
+        _KEPT[key] = w
+        kept = sum(_kept_size(v) for v in _KEPT.values())
         while kept > _KEPT_VALUES:
             oldest = next(iter(_KEPT))
-            kept -= _KEPT.pop(oldest).total.size * 4
-    return sol
+            kept -= _kept_size(_KEPT.pop(oldest))
+    return w
+
+
+def _on_paths(net: _Network, nodes: IntArray) -> IntArray:
+    """The pieces on the paths from the root to ``nodes``, in the network's order (parents first)."""
+    mark = np.zeros(net.size, dtype=bool)
+    current = np.unique(np.asarray(nodes, dtype=np.int64))
+    current = current[current > 0]
+    while current.size:
+        mark[current - 1] = True
+        up = net.parent_node[current - 1]
+        current = np.unique(up[(up > 0) & ~mark[np.maximum(up - 1, 0)]])
+    return np.flatnonzero(mark)
+
+
+def _along(net: _Network, w: _Inward, pieces: IntArray) -> _Solution:
+    """The outward pass and the voltage ratios on ``pieces`` only (closed under parents, e.g.
+    :func:`_on_paths` of the sites read): what :func:`_transfer` and :func:`_ratio_from_root`
+    need between nodes on those paths, at a fraction of :func:`_solve`'s cost on a large tree.
+    Entries off the paths are nan. The same formulas as :func:`_inward` and :func:`_solve`."""
+    n, m = net.size, w.s.size
+    killed = net.killed
+    down = np.full((n, m), np.nan + 0j)
+    up = np.full((n, m), np.nan + 0j)
+    total = np.full((n + 1, m), np.nan + 0j)
+    total[0] = w.load[0]
+    if pieces.size == 0:
+        return _Solution(y_in=w.y_in, total=total, down=down, up=up, pivots=None)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        u = net.electrotonic[pieces, None] * w.q[pieces]
+        e = np.exp(-u)
+        sech = 2.0 * e / (1.0 + e * e)
+        g, t = w.gq[pieces], w.th[pieces]
+        yl = w.load[pieces + 1]
+        h = g * sech / (g + yl * t)  # V(distal)/V(proximal), as in _inward
+        h[killed[pieces]] = 0.0
+        rows = w.row[pieces]
+        f = np.flatnonzero(rows >= 0)
+        if f.size:
+            assert w.two_port is not None
+            t11, t12, t21, t22, scale = w.two_port
+            r = rows[f]
+            h[f] = scale[r] / (t11[r] + t12[r] * yl[f])
+            h[f[killed[pieces[f]]]] = 0.0
+        down[pieces] = h
+        # root outward, level by level along the paths (as in _solve)
+        depth = net.depth[pieces + 1]
+        bounds = np.flatnonzero(np.diff(depth)) + 1
+        for group in np.split(np.arange(pieces.size), bounds):
+            idx = pieces[group]
+            gg, tt = g[group], t[group]
+            back = total[net.parent_node[idx]] - w.y_in[idx]
+            den = gg + back * tt
+            up[idx] = gg * sech[group] / den
+            total[idx + 1] = w.load[idx + 1] + gg * (back + gg * tt) / den
+            fr = np.flatnonzero(rows[group] >= 0)
+            if fr.size:  # frusta, seen from the distal end: T11 and T22 swap (a reciprocal two-port)
+                assert w.two_port is not None
+                t11, t12, t21, t22, scale = w.two_port
+                r = rows[group][fr]
+                den_f = t22[r] + t12[r] * back[fr]
+                up[idx[fr]] = scale[r] / den_f
+                total[idx[fr] + 1] = w.load[idx[fr] + 1] + (t21[r] + t11[r] * back[fr]) / den_f
+        path_killed = pieces[killed[pieces]]
+        total[path_killed + 1] = np.inf
+    return _Solution(y_in=w.y_in, total=total, down=down, up=up, pivots=None)
 
 
 def _chunks(net: _Network, s: ComplexArray) -> list[slice]:

@@ -38,12 +38,15 @@ from .errors import InputError
 from .tree_laplace import (
     PassiveTree,
     Site,
+    _along,
+    _inward,
+    _inward_kept,
     _Network,
     _network,
+    _on_paths,
     _path,
     _Solution,
     _solve,
-    _solve_kept,
     _transfer,
     node_sites,
     root_site,
@@ -157,8 +160,13 @@ def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: S
     nodes = net.nodes[:-1].tolist()
     source = int(net.nodes[-1])
     notes: list[str] = []
-    solve = _solve_kept if reuse else _solve
-    rest = solve(net, np.zeros(1, dtype=complex))  # s = 0: the steady state and the reference
+    paths = _on_paths(net, net.nodes)  # the pieces between the root and the sites
+
+    def solve(s: ComplexArray) -> _Solution:
+        """The tree's solution at s where the sites need it (the tips-inward pass kept with reuse)."""
+        return _along(net, _inward_kept(net, s) if reuse else _inward(net, s, ratios=False), paths)
+
+    rest = solve(np.zeros(1, dtype=complex))  # s = 0: the steady state and the reference
     if isinstance(stimulus, VoltageStep):
         if source != 0:
             raise InputError("a voltage clamp on a tree is applied at the root (soma)")
@@ -166,7 +174,7 @@ def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: S
         reference = abs(amplitude)
 
         def transform(s: ComplexArray) -> ComplexArray:
-            sol = solve(net, s)
+            sol = solve(s)
             out = np.empty((s.size, len(nodes)), dtype=complex)
             for j, b in enumerate(nodes):
                 out[:, j] = _ratio_from_root(net, sol, b)
@@ -182,7 +190,7 @@ def tree_response(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, at: S
         reference = abs(amplitude) * z_source
 
         def transform(s: ComplexArray) -> ComplexArray:
-            sol = solve(net, s)
+            sol = solve(s)
             out = np.empty((s.size, len(nodes)), dtype=complex)
             for j, b in enumerate(nodes):
                 out[:, j] = _transfer(net, sol, source, b)

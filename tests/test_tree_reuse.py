@@ -1,6 +1,7 @@
-"""The tree's solutions kept between time courses (tree_response(..., reuse=True)).
+"""The tree's tips-inward passes kept between time courses (tree_response(..., reuse=True)), and the
+solution along the paths to the sites only (_along) that tree_response reads.
 
-A kept solution serves a later call only on the same pieces, membrane and tips at the same s; the
+A kept pass serves a later call only on the same pieces, membrane and tips at the same s; the
 values are those of a fresh solve. The reference values are fresh solves (reuse=False) and, for the
 changed membrane, the mpmath recursion of cabletheory.tree_precise (an independent evaluation).
 """
@@ -15,7 +16,7 @@ import pytest
 from tree_fixtures import demo, tapered_tree
 
 from cabletheory import case, tree_laplace
-from cabletheory.tree_laplace import PassiveTree, _network, _solve_kept, root_site, site_at
+from cabletheory.tree_laplace import PassiveTree, _inward_kept, _network, root_site, site_at
 from cabletheory.tree_precise import transfer_impedance_precise
 from cabletheory.tree_time import tree_response
 
@@ -37,10 +38,10 @@ def _cell(tree=None, rm=2.0, tips=None):
 def test_moved_stimulus_and_reading_points_reuse_the_solution():
     cell = _cell()
     tree = cell.tree
-    first = _solve_kept(_network(cell, [root_site(), site_at(tree, "s3")]), S)
-    again = _solve_kept(_network(cell, [site_at(tree, "s5"), site_at(tree, "s6"), root_site()]), S)
+    first = _inward_kept(_network(cell, [root_site(), site_at(tree, "s3")]), S)
+    again = _inward_kept(_network(cell, [site_at(tree, "s5"), site_at(tree, "s6"), root_site()]), S)
     assert again is first
-    assert not first.total.flags.writeable  # a caller cannot spoil what the next one reads
+    assert not first.load.flags.writeable  # a caller cannot spoil what the next one reads
 
 
 @pytest.mark.parametrize("change", ["membrane", "axial", "diameter", "length", "tips", "soma", "cut"])
@@ -48,7 +49,7 @@ def test_a_changed_tree_or_membrane_is_solved_again(change):
     cell = _cell()
     tree = cell.tree
     sites = [root_site(), site_at(tree, "s3")]
-    kept = _solve_kept(_network(cell, sites), S)
+    kept = _inward_kept(_network(cell, sites), S)
     if change == "membrane":
         other = replace(cell, membrane_resistivity=2.5)
     elif change == "axial":
@@ -68,25 +69,25 @@ def test_a_changed_tree_or_membrane_is_solved_again(change):
     else:  # a site inside a piece cuts it: another network, though the tree is the same
         other = cell
         sites = [tree_laplace.Site(2, 1e-4)]
-    fresh = _solve_kept(_network(other, sites), S)
+    fresh = _inward_kept(_network(other, sites), S)
     assert fresh is not kept
     if change == "cut":  # one piece more; the same root admittance, up to rounding
-        assert fresh.total.shape[0] == kept.total.shape[0] + 1
-        np.testing.assert_allclose(fresh.total[0], kept.total[0], rtol=1e-12)
+        assert fresh.load.shape[0] == kept.load.shape[0] + 1
+        np.testing.assert_allclose(fresh.load[0], kept.load[0], rtol=1e-12)
     else:
-        assert not np.allclose(fresh.total[0], kept.total[0], rtol=1e-9, atol=0.0)
+        assert not np.allclose(fresh.load[0], kept.load[0], rtol=1e-9, atol=0.0)
 
 
 def test_a_changed_membrane_gives_the_precise_values_not_the_kept_ones():
     """After a solve at Rm = 2 Ω·m² is kept, Rm = 3 Ω·m² reads its own input impedance (mpmath
     recursion of cabletheory.tree_precise, 30 digits)."""
     s = np.array([20.0 + 100j])
-    _solve_kept(_network(_cell(rm=2.0), [root_site()]), s)
+    _inward_kept(_network(_cell(rm=2.0), [root_site()]), s)
     cell = _cell(rm=3.0)
-    sol = _solve_kept(_network(cell, [root_site()]), s)
+    sol = _inward_kept(_network(cell, [root_site()]), s)
     with mpmath.workdps(30):
         precise = complex(transfer_impedance_precise(cell, complex(s[0]), None, root_site(), digits=30))
-    assert 1.0 / sol.total[0, 0] == pytest.approx(precise, rel=1e-12)
+    assert 1.0 / sol.load[0, 0] == pytest.approx(precise, rel=1e-12)  # the root's total admittance
 
 
 @pytest.mark.parametrize("make", [lambda: _cell(), lambda: PassiveTree(tapered_tree(), 2.0, 1.5, 0.01)])
@@ -109,14 +110,14 @@ def test_reused_time_courses_equal_fresh_ones(make, stimulus):
 def test_the_store_keeps_a_bounded_number_of_values(monkeypatch):
     cell = _cell()
     net = _network(cell, [root_site()])
-    per_solution = 4 * (net.size + 1) * S.size
+    per_solution = (net.size + 1) * S.size + 4 * net.size * S.size
     monkeypatch.setattr(tree_laplace, "_KEPT_VALUES", 3 * per_solution)
     for k in range(6):
-        _solve_kept(net, S + k)
-    assert sum(v.total.size * 4 for v in tree_laplace._KEPT.values()) <= 3 * per_solution
+        _inward_kept(net, S + k)
+    assert sum(tree_laplace._kept_size(v) for v in tree_laplace._KEPT.values()) <= 3 * per_solution
     assert len(tree_laplace._KEPT) == 3
-    first = _solve_kept(net, S + 5)  # the most recent is still there
-    assert _solve_kept(net, S + 5) is first
+    first = _inward_kept(net, S + 5)  # the most recent is still there
+    assert _inward_kept(net, S + 5) is first
 
 
 # -- the sites of every node, made when read -------------------------------------------------------
@@ -154,3 +155,28 @@ def test_path_distances_are_the_sums_of_lengths_from_the_root():
     tree = demo()
     d = _path_distances(tree) * 1e6  # µm: s0 300, s1 and s2 300 each, s3 200 (default), s4..s6 200
     np.testing.assert_allclose(d, [0, 300, 600, 600, 800, 800, 800, 800], rtol=1e-12)
+
+
+@pytest.mark.parametrize("make", [lambda: demo(soma=20.0), tapered_tree])
+@pytest.mark.parametrize("tips", [None, "killed", 2e-10])
+def test_the_solution_along_the_paths_equals_the_whole_solution(make, tips):
+    """_along solves only between the root and the sites; each transfer impedance and voltage ratio
+    it gives equals the whole tree's two passes (_solve), killed tips and frusta included."""
+    from cabletheory.tree_laplace import Site, _along, _inward, _on_paths, _solve, _transfer
+
+    cell = PassiveTree(make(), 2.0, 1.5, 0.01, tips=tips)
+    tree = cell.tree
+    sites = [root_site(), Site(3, 0.4 * float(tree.lengths[3])), site_at(tree, tree.labels[-1]),
+             site_at(tree, tree.labels[1])]
+    net = _network(cell, sites)
+    s = np.array([0.0, -10.0 + 300j, 2e3 - 5e2j])
+    whole = _solve(net, s)
+    paths = _along(net, _inward(net, s, ratios=False), _on_paths(net, net.nodes))
+    nodes = net.nodes.tolist()
+    for a in nodes:
+        for b in nodes:
+            np.testing.assert_allclose(_transfer(net, paths, a, b), _transfer(net, whole, a, b), rtol=1e-13,
+                                       atol=1e-300)
+    on = _on_paths(net, net.nodes)
+    assert on.size < net.size  # some pieces lie off every path, and were not solved
+    np.testing.assert_allclose(paths.down[on], whole.down[on], rtol=1e-13, atol=1e-300)
