@@ -3,10 +3,11 @@ r"""High-precision (mpmath) evaluation of the transient solutions of :mod:`cable
 The same closed forms, image sums and eigen-series are evaluated point by point with
 ``mpmath`` at a chosen number of decimal digits (``mp.workdps``): eigenvalues are re-solved
 with ``mpmath.findroot`` in a bracket around the float root, erfc is mpmath's, and the alpha
-convolution is differentiated with ``mpmath.diff`` at raised precision. Truncation counts come
-from the same rigorous tail bounds as the float path (:mod:`cabletheory.truncation`, so neither
-path imports the other). It is slow (a few ms per point) and meant for checks, the benchmark and
-``charge(..., precision=digits)``.
+convolution is differentiated with ``mpmath.diff`` at raised precision (on a finite cable, the
+Laplace-domain solution's slope at the input's double pole, as in the float path's residue
+series). Truncation counts come from the same rigorous tail bounds as the float path
+(:mod:`cabletheory.truncation`, so neither path imports the other). It is slow (a few ms per
+point) and meant for checks, the benchmark and ``charge(..., precision=digits)``.
 
 All quantities are dimensionless: X = x/λ, T = t/τm, L = ℓ/λ, voltage in units of
 :math:`IR_\infty` (current) or of the clamp step.
@@ -25,7 +26,7 @@ import numpy as np
 
 from . import eigen
 from .errors import ConvergenceError
-from .truncation import Shape, clamp_image_tail, current_bound, image_tail
+from .truncation import Shape, alpha_residue_tail, clamp_image_tail, current_bound, image_tail
 
 __all__ = [
     "clamp_grid",
@@ -180,6 +181,10 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
     if math.isinf(L):
         return kern(X - X0, T) + kern(X + X0, T), 0.0
     Lm = mp.mpf(L)
+    if kind == "alpha":  # the residue series, a few ms per point, before the images (mpmath.diff of erfc forms)
+        done = _alpha_by_residues(X, X0, T, Lm, B, y, a, tol, _cache)
+        if done is not None:
+            return done
     # images for sealed/killed ends when few reflections suffice
     if y == 0 and (B == 0 or math.isinf(B)):
         sign = 1 if B == 0 else -1
@@ -236,6 +241,75 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
         else:
             total += r * (f / mu - _alpha_mode(mu, T, a))
     return f * g - total, float(bound(n, tf)[0])
+
+
+_RESONANCE = mp.mpf(10) ** -6  # a mode this close to 1/a leaves the alpha current to the quasi-steady series
+_ALPHA_MODES = 4096  # residue series longer than this leave the alpha current to the images or that series
+
+
+def _green(s, X, X0, L, B, y):
+    """The Laplace-domain voltage at X for a unit current at X0 (cabletheory.laplace.green) in mpmath."""
+    q = mp.sqrt(1 + s)
+    near, far = min(X, X0), max(X, X0)
+    w_s, w_k = _weights(B)
+    phi = mp.cosh(q * near) + y * q * mp.sinh(q * near)
+    psi = w_s * mp.cosh(q * (L - far)) + w_k * mp.sinh(q * (L - far)) / q
+    wronskian = y * q * q * (w_s * mp.cosh(q * L) + w_k * mp.sinh(q * L) / q) + w_s * q * mp.sinh(q * L) \
+        + w_k * mp.cosh(q * L)
+    return phi * psi / wronskian
+
+
+def _alpha_by_residues(X, X0, T, L, B, y, a, tol, cache):
+    r"""An alpha current on a finite cable from the residues of its transform (the float path's
+    :func:`cabletheory.finite_cable._alpha_by_residues`, without taking modes out):
+
+    .. math:: V = \frac ea\Big[e^{-cT}\big(T\hat G(-c) + \hat G'(-c)\big)
+              + \sum_n\frac{r_n e^{-\mu_nT}}{(\mu_n - c)^2}\Big],\quad c = 1/a,
+
+    :math:`\hat G'` by ``mpmath.diff``, cut by :func:`cabletheory.truncation.alpha_residue_tail`;
+    (value, bound), or None where a mode lies within 1e-6 of c or more than 4,096 modes are needed
+    (the caller's images or quasi-steady series take it).
+    """
+    tf = np.array([float(T)])
+    n = 1
+    while float(alpha_residue_tail(n, tf, float(L), float(a))[0]) > tol:
+        n *= 2
+        if n > _ALPHA_MODES:
+            return None
+    key = (float(L), float(B), float(y), n)
+    if cache is not None and key in cache:
+        alphas = cache[key]
+    else:
+        alphas = eigenvalues(L, B, n, "sealed", y)
+        if cache is not None:
+            cache[key] = alphas
+    c = 1 / a
+    if any(abs(1 + al * al - c) < _RESONANCE for al in alphas):
+        return None
+    pole_key = ("alpha pole", float(X), float(X0), float(L), float(B), float(y), float(a), mp.mp.dps)
+    if cache is not None and pole_key in cache:
+        value, slope = cache[pole_key]
+    else:
+        with mp.extradps(20):
+            def transform(s):
+                return mp.re(_green(s, X, X0, L, B, mp.mpf(y)))
+
+            value, slope = transform(-c), mp.diff(transform, -c)
+        if cache is not None:
+            cache[pole_key] = (value, slope)
+    ym = mp.mpf(y)
+    with mp.extradps(20):
+        total = mp.exp(-c * T) * (T * value + slope)
+        for al in alphas:
+            mu = 1 + al * al
+            if al == 0:
+                norm = L + ym
+            else:
+                norm = L / 2 * (1 + (ym * al) ** 2) + (1 - (ym * al) ** 2) * mp.sin(2 * al * L) / (4 * al) \
+                    + ym * mp.cos(al * L) ** 2
+            r = (mp.cos(al * X) - ym * al * mp.sin(al * X)) * (mp.cos(al * X0) - ym * al * mp.sin(al * X0)) / norm
+            total += r * mp.exp(-mu * T) / (mu - c) ** 2
+        return +(mp.e / a * total), float(alpha_residue_tail(n, tf, float(L), float(a))[0])
 
 
 def _inverted(X, X0, T, Td, L, B, y, kind, a):

@@ -131,3 +131,20 @@ def test_small_early_values_keep_their_digits():
                 assert abs(v[i, j] - exact) <= 1e-9 * abs(exact), (t, x, v[i, j], exact)
                 checked += 1
     assert checked >= 3
+
+
+@pytest.mark.parametrize(("L", "B", "y", "a"), [
+    (1.0, 0.0, 0.0, 0.1), (0.8, 0.6, 0.3, 2.0), (1.0, math.inf, 0.0, 0.001), (1.0, 0.0, 0.0, 1 / (1 + math.pi**2)),
+])
+def test_mpmath_path_matches_talbot(L, B, y, a):
+    """cabletheory.precise (30 digits: the residue series, or where a mode meets 1/a the images and
+    the quasi-steady series) within its bound plus float rounding of the Talbot value."""
+    from cabletheory import precise
+
+    X = np.array([0.0, 0.4 * L])
+    T = np.array([1e-3, 2.0])
+    values, bound, _ = precise.current_grid(X, 0.0, T, L, B, y, "alpha", 0.0, a, 1e-16, 30)
+    for i, t in enumerate(T):
+        for j, x in enumerate(X):
+            exact = _talbot(float(x), 0.0, float(t), L, B, y, a)
+            assert abs(values[i, j] - exact) <= bound[i, j] + 1e-16, (t, x, values[i, j], exact)
