@@ -167,21 +167,18 @@ def test_keys_dialogs_stale_results_and_echoes_in_turn_from_one_app_start():
 
 
 # -- item 9: the worst points of a tree -----------------------------------------------------------------------
-def test_keys_jump_to_the_worst_branch_point_and_the_worst_tip():
-    async def script(app, pilot):
-        view = app.query_one("#tree")
-        worst_branch, worst_tip = view.worst
-        assert worst_branch
-        assert worst_tip
-        outline = app.query_one("#tree-outline", Tree)
-        await pilot.press("f6")
-        assert outline.cursor_node.data == worst_branch
-        assert app.focused is outline
-        await pilot.press("t")  # the outline has focus: a plain letter works
-        assert outline.cursor_node.data == worst_tip
-        assert "tip" in str(outline.cursor_node.label)
-
-    drive(script, view="tree", swc=str(PV7))
+async def keys_jump_to_the_worst_branch_point_and_the_worst_tip(app, pilot):
+    view = app.query_one("#tree")
+    worst_branch, worst_tip = view.worst
+    assert worst_branch
+    assert worst_tip
+    outline = app.query_one("#tree-outline", Tree)
+    await pilot.press("f6")
+    assert outline.cursor_node.data == worst_branch
+    assert app.focused is outline
+    await pilot.press("t")  # the outline has focus: a plain letter works
+    assert outline.cursor_node.data == worst_tip
+    assert "tip" in str(outline.cursor_node.label)
 
 
 # -- item 3: every view at 80×24 ------------------------------------------------------------------------
@@ -249,7 +246,8 @@ def test_a_killed_end_curve_of_the_charging_view_stays_flat():
 
 
 # -- item 8: a file is read once; a membrane edit re-audits the tree already read -----------------------------
-def test_a_membrane_edit_re_audits_without_reading_the_file_again(monkeypatch):
+def test_keys_jump_to_the_worst_points_and_a_membrane_edit_re_audits_without_reading_the_file_again(monkeypatch):
+    """On PV-7, after the keys that jump to its worst points (item 9, which read nothing)."""
     from cabletheory.tui import format as formatting
 
     reads = []
@@ -263,6 +261,8 @@ def test_a_membrane_edit_re_audits_without_reading_the_file_again(monkeypatch):
 
     async def script(app, pilot):
         assert len(reads) == 1
+        await keys_jump_to_the_worst_branch_point_and_the_worst_tip(app, pilot)
+        assert len(reads) == 1
         before = text_of(app, "#tree-results")
         await type_into(pilot, app, "tr-Rm", "40000")  # Ω·cm²: λ × √2, every X ÷ √2
         await type_into(pilot, app, "tr-ratio_tolerance", "0.1")
@@ -271,5 +271,8 @@ def test_a_membrane_edit_re_audits_without_reading_the_file_again(monkeypatch):
         await pilot.press("ctrl+r")  # computing again on request reads the file again (it may have changed)
         await settle(app, pilot)
         assert len(reads) == 2
+        done.append(True)
 
+    done = []
     drive(script, view="tree", swc=str(PV7))
+    assert done == [True]
