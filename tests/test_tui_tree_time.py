@@ -245,6 +245,60 @@ def check_the_order_by_a_clicked_column(rows: list[str]) -> None:
     assert rows[0] in ("left.a", "left.b", "right.a", "right.b")
 
 
+def test_the_map_table_shows_each_new_map_cell_for_cell():
+    """A new frequency on the same tree rewrites the table in place (the same lines, only the cells
+    whose text changed); after a click on a column the lines follow the new values' order. Either
+    way every line holds the report's cells (the report is the core's map, tested above)."""
+    from cabletheory.tui.report import cell_text
+
+    seen = {}
+
+    def expected(report, column=None):
+        columns = report.tables[0].columns
+        cells = [[cell_text(c.values[i], c.kind) for c in columns] for i in range(report.tables[0].length)]
+        order = list(range(len(cells)))
+        if column is not None:  # largest first, as the first click orders
+            order.sort(key=lambda i: float(columns[column].values[i]), reverse=True)
+        return [cells[i] for i in order]
+
+    async def script(app, pilot) -> None:
+        view = app.query_one("#tree")
+        view.show_panel("map")
+        await settle(app, pilot)
+        grid = app.query_one("#tree-map-table", DataTable)
+
+        def lines():
+            return [[str(c) for c in grid.get_row_at(i)] for i in range(grid.row_count)]
+
+        keys = list(grid.rows)
+        await type_into(pilot, "tr-frequency", "300")
+        seen["in place"] = (lines(), expected(view.report), list(grid.rows) == keys)
+        column = list(grid.columns)[3]  # ÷ to soma
+        grid.post_message(DataTable.HeaderSelected(grid, column, 3, grid.columns[column].label))
+        await settle(app, pilot)
+        await type_into(pilot, "tr-frequency", "2000")
+        seen["ordered"] = (lines(), expected(view.report, 3), view.report)
+        await type_into(pilot, "tr-frequency", "0")
+        seen["ordered again"] = (lines(), expected(view.report, 3))
+
+    drive(script)
+    shown, wanted, kept = seen["in place"]
+    assert shown == wanted
+    assert kept  # the same lines, rewritten
+    shown, wanted, report = seen["ordered"]
+    assert shown == wanted
+    assert report.inputs[-1].value == pytest.approx(2000.0)
+    shown, wanted = seen["ordered again"]
+    assert shown == wanted
+
+
+def test_attenuation_bins_of_an_array_are_those_of_each_value():
+    from cabletheory.tui.tree_panels import ATTENUATION_BINS, attenuation_bin, attenuation_bins
+
+    values = [1.0, *ATTENUATION_BINS, *(np.nextafter(b, 0) for b in ATTENUATION_BINS), 1e9, math.inf, math.nan, 0.5]
+    assert attenuation_bins(values).tolist() == [attenuation_bin(v) for v in values]
+
+
 # -- plain helpers --------------------------------------------------------------------------------------
 def test_the_dendrogram_gives_each_tip_a_row_and_colours_by_attenuation():
     from cabletheory.tui.format import read_tree
