@@ -36,11 +36,11 @@ from .tree_laplace import (
     _TAPER_THRESHOLD,
     PassiveTree,
     Site,
+    _inward,
     _Network,
     _network,
     _per_piece,
     _pivots,
-    _solve,
     root_site,
     transfer_impedance,
 )
@@ -244,7 +244,7 @@ def _classified(net: _Network, modes: int, high: float, z0: float, tau_max: floa
     # frustum near the imaginary axis keep only absolute accuracy in their imaginary part, so there
     # the step is 1e-7 (its O(step²) error is below 1e-13)
     step = (1e-7 if net.tapered.size else 1e-20) * np.maximum(rate, 1.0 / tau_max)
-    y = _solve(net, -rate + 1j * step).total[0]
+    y = _inward(net, -rate + 1j * step, ratios=False).load[0]  # the root's total admittance
     # at a visible rate Y vanishes (to the bisection's precision); at a hidden one a branch's
     # admittance has a pole there, so |Y| is huge: the steady conductance separates the two
     with np.errstate(invalid="ignore"):
