@@ -159,7 +159,7 @@ def _grid_images(shape: Shape, X: Array, X0: float, T: Array, L: float, sign: fl
 _FEW_PAIRS = 4096  # image sums at this many (X, T) pairs or fewer stack their images in one call
 _SMALL = 1.0 / 16  # early values below this fraction of the largest steady voltage take images
 _FLOOR = 4 * float(np.finfo(float).eps)  # ... and the eigen-series is carried below this fraction of it
-_ALPHA_SMALL = 1e-5  # an alpha current's early values below this fraction of g(X0, X0) take images
+_ALPHA_SMALL = 1e-5  # an alpha current's early values below this fraction of its rounding scale take images
 _PRODUCT = 1 << 18  # multiply-adds per matrix product in the series sums (see _series)
 
 
@@ -225,11 +225,12 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
     images only where a value is under 1/16 of it: every value keeps its digits, and the images,
     an erfcx pair per term and point, are summed where they are needed. An alpha current's series
     (:func:`_alpha_by_residues`) takes every time at which it needs fewer operations than the
-    images; its rounding is about ε of the largest steady voltage g(X0, X0), so with a sealed or
-    killed end, at times whose images need at most :data:`EARLY_REFLECTIONS` reflections, the
-    values below 1e-5 of g (far points just after the onset) are replaced by their images, each
-    point summing only the images that are not negligible beside its nearest one
-    (:func:`_alpha_small_values`): every value keeps about 10 digits. A soma, or
+    images; its rounding is about ε·g·min(1, e·a, e/a), with g = g(X0, X0) the largest steady
+    voltage (measured), so with a sealed or killed end, at times whose images need at most
+    :data:`EARLY_REFLECTIONS` reflections, the series is carried until its tail is below 4ε of
+    that scale and the values below 1e-5 of it (far points just after the onset) are replaced by
+    their images, each point summing only the images that are not negligible beside its nearest
+    one (:func:`_alpha_small_values`): every value keeps about 10 digits. A soma, or
     a leaky end whose bracket is too wide, at times whose eigen-series would need more than
     :data:`CONTOUR_MODES` modes, uses the Laplace-domain solution inverted on a contour
     (:func:`cabletheory.laplace.current_inversion`), whose error estimate is the bound there.
@@ -302,6 +303,14 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
         reflections = reflections_needed(Tl, L, tol / (2 if shp.kind == "pulse" else 1), tails[0])
         cost_images = (2 * reflections + 1) * 2 * _IMAGE_COST * (2 if leaky else 1) * (2 if shp.kind == "pulse" else 1)
         cost_images *= 16 if shp.kind == "alpha" else 1
+        if shp.kind == "alpha" and images_exact:
+            # early times: the residue series carried to its rounding level, so that early values keep
+            # their digits (the smallest take images below), unless the images are cheaper then
+            early_rows = np.flatnonzero(reflections <= EARLY_REFLECTIONS)
+            floor = min(tol, _FLOOR * _alpha_rounding_scale(X0, L, B, y, shp.time_to_peak))
+            if early_rows.size and floor > 0:
+                fine_need, _ = modes_needed(Tl[early_rows], floor, L, mode_bound)
+                n_need[early_rows] = np.maximum(n_need[early_rows], fine_need)
         # the alpha current's residue series needs as few modes as a step's: images only where cheaper
         prefer = (cost_images < n_need) | ((reflections <= EARLY_REFLECTIONS) & (shp.kind != "alpha"))
         if images_exact and shp.kind != "alpha":
@@ -398,14 +407,15 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
             bound[_rows_of(live[idx])] = mode_bound(count, effective[idx])[:, None]
             plan.add("eigen-series", Tl[idx], count, "modes")
             if shp.kind == "alpha" and images_exact:
-                # the residue series' rounding is about ε of the largest voltage: early values far
-                # below it take images, which keep their digits
+                # the residue series' rounding is about ε·g·min(1, e·a, e/a) (measured against Talbot
+                # inversion, L = 1, a = 0.001 ... 1000): early values far below it take images,
+                # which keep their digits
                 few = idx[reflections[idx] <= EARLY_REFLECTIONS]
-                tiny = _ALPHA_SMALL * float(steady_green(X0, X0, L, B, y))
+                tiny = _ALPHA_SMALL * _alpha_rounding_scale(X0, L, B, y, shp.time_to_peak)
                 if few.size and _alpha_small_values(out, bound, shp.time_to_peak, X, X0, Tl, live, few,
                                                     reflections[few], L, sign, tiny):
-                    plan.add(f"images where a value is below {_ALPHA_SMALL:g} of the largest steady voltage",
-                             Tl[few], int(reflections[few].max()), "reflections per side")
+                    plan.add("images where a value is small", Tl[few], int(reflections[few].max()),
+                             "reflections per side")
     return out, bound, plan.text()
 
 
@@ -498,6 +508,12 @@ def _small_values_by_images(out: Array, bound: Array, shp: Shape, X: Array, X0: 
         bound[live[p], c] = tail
         used = max(used, k)
     return used
+
+
+def _alpha_rounding_scale(X0: float, L: float, B: float, y: float, a: float) -> float:
+    """g(X0, X0)·min(1, e·a, e/a): the residue series' rounding is about ε times this (measured
+    against Talbot inversion for times to peak of 0.001 to 1000 τm)."""
+    return float(steady_green(X0, X0, L, B, y)) * min(1.0, math.e * min(a, 1.0 / a))
 
 
 _NEGLIGIBLE = 40.0  # an image whose Gaussian factor is e^{-40} (4e-18) of the nearest one's is left out
