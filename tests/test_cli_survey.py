@@ -130,14 +130,25 @@ def test_a_missing_optional_package_is_one_line_naming_the_extra(capsys, monkeyp
     assert list(tmp_path.iterdir()) == []
 
 
-@pytest.mark.slow  # waits for the connection to time out
-def test_an_unreachable_scheduler_is_named(capsys, tmp_path):
-    pytest.importorskip("distributed")
+def test_an_unreachable_scheduler_is_named(capsys, tmp_path, monkeypatch):
+    """The command asks for a bounded wait (no hang); here the wait is cut to 1 s (the connection is
+    refused at once and retried until the wait ends, so only the waiting is shorter)."""
+    distributed = pytest.importorskip("distributed")
+    real, asked = distributed.Client, []
+
+    def client(*args, **options):
+        asked.append(options.get("timeout"))
+        return real(*args, **{**options, "timeout": 1})
+
+    monkeypatch.setattr(distributed, "Client", client)
     status, _, err = run(capsys, ["survey", str(ARCHIVE / "south_pool"), *MEMBRANE, "--output",
                                   str(tmp_path / "t.csv"), "--scheduler", "tcp://127.0.0.1:1"])
     assert status == 2
     assert "cannot reach a Dask scheduler at 'tcp://127.0.0.1:1'" in err
     assert not (tmp_path / "t.csv").exists()
+    assert len(asked) == 1
+    assert asked[0] is not None
+    assert 0 < asked[0] <= 60
 
 
 def test_survey_reads_tree_outlines_with_their_tip_ends(capsys, tmp_path):
