@@ -182,21 +182,33 @@ async def keys_jump_to_the_worst_branch_point_and_the_worst_tip(app, pilot):
 
 
 # -- item 3: every view at 80×24 ------------------------------------------------------------------------
-@pytest.mark.parametrize("view", ["cylinder", "charging", "tree", "check"])
-def test_every_view_shows_its_main_answer_at_80_by_24(view):
-    async def script(app, pilot):
-        results = app.query_one({"cylinder": "#cylinder-results", "charging": "#charging-results",
-                                 "tree": "#tree-results", "check": "#check-results"}[view])
-        assert results.focusable
-        assert results.region.width >= 30
-        assert results.region.height >= 3
-        if view == "cylinder":
-            results.focus()
-            await pilot.press("pagedown")
-            await pilot.pause()
-            assert "input resistance R_in" in text_of(app, "#cylinder-results")
+# One app at 80×24 shows each view in turn (its key, then its first result); starting on each view at
+# 80×24 is pictured by tests/test_tui_snapshots.py.
+VIEW_RESULTS = {"cylinder": ("f2", "#cylinder-results"), "charging": ("f3", "#charging-results"),
+                "tree": ("f4", "#tree-results"), "check": ("f5", "#check-results")}
 
-    drive(script, size=(80, 24), view=view)
+
+def test_every_view_shows_its_main_answer_at_80_by_24():
+    seen = []
+
+    async def script(app, pilot):
+        for view, (key, selector) in VIEW_RESULTS.items():
+            await pilot.press(key)
+            await settle(app, pilot)
+            assert app.current_view == view
+            results = app.query_one(selector)
+            assert results.focusable, view
+            assert results.region.width >= 30, view
+            assert results.region.height >= 3, view
+            if view == "cylinder":
+                results.focus()
+                await pilot.press("pagedown")
+                await pilot.pause()
+                assert "input resistance R_in" in text_of(app, "#cylinder-results")
+            seen.append(view)
+
+    drive(script, size=(80, 24))
+    assert seen == list(VIEW_RESULTS)
 
 
 # -- item 4: saved files say which curve is which ---------------------------------------------------------
