@@ -111,7 +111,11 @@ def test_charging_view_keys_switch_model_and_stimulus():
 def test_charging_view_announces_and_covers_only_a_slow_result(monkeypatch):
     """A quick result replaces the old one without "computing…" or a loading cover (a word shown
     and taken away flickers; a cover put up and taken down lays the whole view out twice); a slow
-    one is announced after SAY_AFTER and covers the stale plots after COVER_AFTER."""
+    one is announced after SAY_AFTER and covers the stale plots after COVER_AFTER.
+
+    "Quick" and "slow" are made independent of the machine's load: the quick result is timed
+    against a SAY_AFTER of a minute, and the slow one waits for the test to release it."""
+    import threading
     import time
 
     from cabletheory.tui import charging_view
@@ -124,6 +128,8 @@ def test_charging_view_announces_and_covers_only_a_slow_result(monkeypatch):
         results = app.query_one("#charging-results")
         plots = app.query_one("#charging .plots")
         shown = view.report
+        monkeypatch.setattr(charging_view, "SAY_AFTER", 60.0)
+        monkeypatch.setattr(charging_view, "COVER_AFTER", 60.0)
         view.refresh_results(again=True)
         await settle(app, pilot)
         assert view.report is not shown
@@ -131,15 +137,19 @@ def test_charging_view_announces_and_covers_only_a_slow_result(monkeypatch):
         assert not plots.loading
 
         quick = formatting.charging_report
+        release = threading.Event()
         monkeypatch.setattr(charging_view, "SAY_AFTER", 0.02)
         monkeypatch.setattr(charging_view, "COVER_AFTER", 0.05)
-        monkeypatch.setattr(formatting, "charging_report", lambda setup: (time.sleep(0.6), quick(setup))[1])
+        monkeypatch.setattr(formatting, "charging_report", lambda setup: (release.wait(60), quick(setup))[1])
         view.refresh_results(again=True)
         assert not results.border_subtitle
         assert not plots.loading
-        await pilot.pause(0.3)
+        deadline = time.monotonic() + 30
+        while not (results.border_subtitle and plots.loading) and time.monotonic() < deadline:
+            await pilot.pause(0.02)
         assert results.border_subtitle == "computing…"
         assert plots.loading
+        release.set()
         await settle(app, pilot)
         assert not results.border_subtitle
         assert not plots.loading
