@@ -160,6 +160,7 @@ _FEW_PAIRS = 4096  # image sums at this many (X, T) pairs or fewer stack their i
 _SMALL = 1.0 / 16  # early values below this fraction of the largest steady voltage take images
 _FLOOR = 4 * float(np.finfo(float).eps)  # ... and the eigen-series is carried below this fraction of it
 _ALPHA_SMALL = 1e-5  # an alpha current's early values below this fraction of its rounding scale take images
+_ROUNDING = 4.0  # an alpha residue sum's rounding bound, in ε times the sizes it is summed from
 _PRODUCT = 1 << 18  # multiply-adds per matrix product in the series sums (see _series)
 
 
@@ -384,7 +385,8 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
                 return np.where(later, np.expm1(-mu[s] * D) * np.exp(-mu[s] * np.where(later, Dl[p, None], 0.0)),
                                 np.exp(-mu[s] * Tl[p, None])) / mu[s]
         else:
-            factor, spatial = _alpha_by_residues(X, X0, Tl[idx], L, B, y, shp.time_to_peak, alpha, residues)
+            factor, spatial, rounding = _alpha_by_residues(X, X0, Tl[idx], L, B, y, shp.time_to_peak, alpha,
+                                                           residues)
 
         def summed(which: NDArray[np.intp], counts: NDArray[np.int_]) -> None:
             _series(out, live[which], counts, lambda s, r: time_factor(s, which[r]), residues, steady,
@@ -404,7 +406,10 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
                 _series(out, live[idx], np.full(idx.size, spatial.shape[0]), factor, -spatial, np.zeros(X.size))
             else:
                 summed(idx, np.full(idx.size, count))  # one count for all: every row's bound is that count's
-            bound[_rows_of(live[idx])] = mode_bound(count, effective[idx])[:, None]
+            tail = mode_bound(count, effective[idx])
+            if shp.kind == "alpha":  # its parts may cancel far below their own size: their rounding
+                tail = tail + rounding(np.arange(idx.size))
+            bound[_rows_of(live[idx])] = tail[:, None]
             plan.add("eigen-series", Tl[idx], count, "modes")
             if shp.kind == "alpha" and images_exact:
                 # the residue series' rounding is about ε·g·min(1, e·a, e/a) (measured against Talbot
@@ -420,7 +425,8 @@ def current_response(position: ArrayLike, source: float, normalised_time: ArrayL
 
 
 def _alpha_by_residues(X: Array, X0: float, T: Array, L: float, B: float, y: float, a: float, alpha: Array,
-                       residues: Array) -> tuple[Callable[[slice, NDArray[np.intp]], Array], Array]:
+                       residues: Array) -> tuple[Callable[[slice, NDArray[np.intp]], Array], Array,
+                                                 Callable[[NDArray[np.intp]], Array]]:
     r"""An alpha current's response from the residues of its transform, as a sum of products.
 
     The transform of :math:`I(T) = (T/a)e^{1-T/a}` is :math:`(e/a)/(s + c)^2` with c = 1/a, and
@@ -437,9 +443,12 @@ def _alpha_by_residues(X: Array, X0: float, T: Array, L: float, B: float, y: flo
     many modes as the step's (bound: :func:`cabletheory.truncation.alpha_residue_tail`); the
     first ``alpha.size`` modes are summed (``residues`` their :math:`r_n(X, X_0)`).
 
-    Returns ``(factor, spatial)``: V at the times ``T[r]`` is ``factor(slice(0, k), r) @ spatial``
-    with k = len(spatial), and ``factor(s, r)`` gives the columns in slice s only (the double
-    pole's two, the modes in R, then the others).
+    Returns ``(factor, spatial, rounding)``: V at the times ``T[r]`` is
+    ``factor(slice(0, k), r) @ spatial`` with k = len(spatial), and ``factor(s, r)`` gives the
+    columns in slice s only (the double pole's two, the modes in R, then the others);
+    ``rounding(r)`` bounds the float rounding of those sums at any X, :data:`_ROUNDING`·ε times
+    Σ|factor|·(the largest size each column is summed from): near the source's far side at early
+    times the parts cancel to a value far below their own size.
 
     References
     ----------
@@ -464,7 +473,9 @@ def _alpha_by_residues(X: Array, X0: float, T: Array, L: float, B: float, y: flo
     mu = 1.0 + alpha**2
     near = np.abs(mu - c) < clear
     kept = ~near & (np.arange(mu.size) < count)
-    value, slope = laplace.green_near_real(-c, X, X0, L, B, y, poles=mu[near], residues=residues[near], clear=clear)
+    value, slope, value_size, slope_size = laplace.green_near_real(-c, X, X0, L, B, y, poles=mu[near],
+                                                                   residues=residues[near], clear=clear,
+                                                                   magnitudes=True)
     mu_near, mu_kept = mu[near], mu[kept]
     spatial = np.vstack([value[None, :], slope[None, :], residues[near], residues[kept]])
     scale = math.e / a
@@ -482,7 +493,15 @@ def _alpha_by_residues(X: Array, X0: float, T: Array, L: float, B: float, y: flo
             parts.append(np.exp(-m * Tc[r]) * (scale / (m - c) ** 2))
         return parts[0] if len(parts) == 1 else np.hstack(parts)
 
-    return factor, spatial
+    # the sizes the value at a point is summed from, per column: its rounding scales on them
+    # (a mode's shape cos(α_n X) loses its last bits in proportion to the phase α_n X ≤ α_n L)
+    phases = 1.0 + L * np.concatenate([alpha[near], alpha[kept]])
+    sizes = np.concatenate([[value_size.max(), slope_size.max()], np.abs(spatial[2:]).max(axis=1) * phases])
+
+    def rounding(r: NDArray[np.intp]) -> Array:
+        return _ROUNDING * np.finfo(float).eps * (np.abs(factor(slice(0, sizes.size), r)) @ sizes)
+
+    return factor, spatial, rounding
 
 
 def _small_values_by_images(out: Array, bound: Array, shp: Shape, X: Array, X0: float, T: Array, D: Array,

@@ -88,7 +88,7 @@ _SLOPE_NODES = 24  # trapezoid nodes on the circle of green_near_real (half of t
 def green_near_real(s0: float, position: ArrayLike, source: float, electrotonic_length: float,
                     end_conductance_ratio: float = 0.0, soma_ratio: float = 0.0, *,
                     poles: ArrayLike = (), residues: ArrayLike | None = None,
-                    clear: float = 1.0) -> tuple[Array, Array]:
+                    clear: float = 1.0, magnitudes: bool = False) -> tuple[Array, ...]:
     r"""Value and slope in s of :math:`\tilde G(s) = \hat G(X,X_0;s) - \sum_k r_k/(s + \mu_k)` at a real s0.
 
     :math:`\hat G = \sum_n r_n/(s + \mu_n)` is :func:`green` (its poles are the cable's modes).
@@ -112,7 +112,11 @@ def green_near_real(s0: float, position: ArrayLike, source: float, electrotonic_
     Returns
     -------
     (value, slope), each of shape (len(X),): :math:`\tilde G(s_0)` in units of :math:`IR_\infty\tau_m`
-    and :math:`d\tilde G/ds` in units of :math:`IR_\infty\tau_m^2`.
+    and :math:`d\tilde G/ds` in units of :math:`IR_\infty\tau_m^2`. With ``magnitudes``, also the
+    largest size of the numbers each was summed from (per X: the largest :math:`|\hat G|` plus
+    :math:`\sum_k|r_k/(s+\mu_k)|` on the circle, times :math:`1 + |\sqrt{1+s}|L` for the
+    rounding of the phases, and that over the radius), on which their rounding scales (the value
+    and slope may be far smaller than the parts that cancel in them).
 
     References
     ----------
@@ -131,12 +135,16 @@ def green_near_real(s0: float, position: ArrayLike, source: float, electrotonic_
     theta = 2 * np.pi * (np.arange(_SLOPE_NODES // 2) + 0.5) / _SLOPE_NODES
     turn = np.exp(1j * theta)
     s = s0 + radius * turn
-    values = green(s, X, source, electrotonic_length, end_conductance_ratio, soma_ratio)
-    if mu.size:
-        values = values - (1.0 / (s[:, None] + mu[None, :])) @ r
+    whole = green(s, X, source, electrotonic_length, end_conductance_ratio, soma_ratio)
+    values = whole - (1.0 / (s[:, None] + mu[None, :])) @ r if mu.size else whole
     value = np.mean(values.real, axis=0)
     slope = np.mean((values * np.conj(turn)[:, None]).real, axis=0) / radius
-    return value, slope
+    if not magnitudes:
+        return value, slope
+    size = np.abs(whole) + np.abs(1.0 / (s[:, None] + mu[None, :])) @ np.abs(r) if mu.size else np.abs(whole)
+    # the phases √(1+s)·X lose their last bits in proportion to their size
+    largest = np.max(size * (1.0 + np.abs(np.sqrt(1.0 + s)) * float(electrotonic_length))[:, None], axis=0)
+    return value, slope, largest, largest / radius
 
 
 def current_inversion(position: ArrayLike, source: float, normalised_time: ArrayLike, electrotonic_length: float,
