@@ -225,14 +225,7 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
     g = _steady(X, X0, Lm, B, ym)
     for al in alphas:
         mu = 1 + al * al
-        if al == 0:
-            norm = Lm + ym
-        else:
-            norm = Lm / 2 * (1 + (ym * al) ** 2) + (1 - (ym * al) ** 2) * mp.sin(2 * al * Lm) / (4 * al) \
-                + ym * mp.cos(al * Lm) ** 2
-        shape_x = mp.cos(al * X) - ym * al * mp.sin(al * X)
-        shape_x0 = mp.cos(al * X0) - ym * al * mp.sin(al * X0)
-        r = shape_x * shape_x0 / norm
+        r = _residue(al, X, X0, Lm, ym)
         if kind == "step":
             total += r * mp.exp(-mu * T) / mu
         elif kind == "pulse":
@@ -241,6 +234,17 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
         else:
             total += r * (f / mu - _alpha_mode(mu, T, a))
     return f * g - total, float(bound(n, tf)[0])
+
+
+def _residue(al, X, X0, L, y):
+    """A mode's residue r_n(X, X0) = φ_n(X)φ_n(X0)/‖φ_n‖² in mpmath, φ_n = cos α_nX - yα_n sin α_nX
+    (Rall 1969 [Rall1969]; the norm with the soma's share, as cabletheory.eigen.mode_norms)."""
+    if al == 0:
+        norm = L + y
+    else:
+        norm = L / 2 * (1 + (y * al) ** 2) + (1 - (y * al) ** 2) * mp.sin(2 * al * L) / (4 * al) \
+            + y * mp.cos(al * L) ** 2
+    return (mp.cos(al * X) - y * al * mp.sin(al * X)) * (mp.cos(al * X0) - y * al * mp.sin(al * X0)) / norm
 
 
 _RESONANCE = mp.mpf(10) ** -6  # a mode this close to 1/a leaves the alpha current to the quasi-steady series
@@ -302,13 +306,7 @@ def _alpha_by_residues(X, X0, T, L, B, y, a, tol, cache):
         total = mp.exp(-c * T) * (T * value + slope)
         for al in alphas:
             mu = 1 + al * al
-            if al == 0:
-                norm = L + ym
-            else:
-                norm = L / 2 * (1 + (ym * al) ** 2) + (1 - (ym * al) ** 2) * mp.sin(2 * al * L) / (4 * al) \
-                    + ym * mp.cos(al * L) ** 2
-            r = (mp.cos(al * X) - ym * al * mp.sin(al * X)) * (mp.cos(al * X0) - ym * al * mp.sin(al * X0)) / norm
-            total += r * mp.exp(-mu * T) / (mu - c) ** 2
+            total += _residue(al, X, X0, L, ym) * mp.exp(-mu * T) / (mu - c) ** 2
         return +(mp.e / a * total), float(alpha_residue_tail(n, tf, float(L), float(a))[0])
 
 
