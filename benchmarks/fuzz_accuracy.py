@@ -8,7 +8,7 @@ inside, times a few ulps after a pulse ends) runs ``transient.charge`` and compa
 with the Laplace-domain reference of ``tests/laplace_reference.py`` (mpmath Talbot; 20 digits here,
 40 in the tests: a value needs only a few digits beyond float64 to judge a bound of 1e-12).
 Prints the number of cases, exceptions, bound violations and the worst error/bound ratio per
-model and stimulus; exits 1 on any exception or violation. Not part of ``make test`` (about ten
+model and stimulus; exits 1 on any exception or violation. Not part of ``make test`` (about four
 minutes on two cores for 10,000 cases).
 """
 

@@ -38,7 +38,7 @@ BENCHMARKS: dict[str, tuple[str, str]] = {
     # not in the default run (figures of older issues; long)
     "tree-audit": ("tree_speed.py", "audit of generated trees of 25,000-200,000 points"),
     "survey": ("survey_speed.py", "survey of 1,000 invented cells (long)"),
-    "fuzz": ("fuzz_accuracy.py", "10,000 random exact time courses against mpmath (about 12 min)"),
+    "fuzz": ("fuzz_accuracy.py", "10,000 random exact time courses against mpmath (about 4 min)"),
     "hostile": ("hostile_text.py", "hostile unit text"),
     "bad-input": ("bad_input.py", "the bad-input catalogue"),
     "app-large-tree": ("ui_large_tree.py", "tree view on an 82,000-point SWC"),
