@@ -28,6 +28,9 @@ Wald A & Wolfowitz J (1940) On a test whether two samples are from the same popu
 Stat. 11:147-162 [MEM].
 Rall W, Burke RE, Holmes WR, Jack JJB, Redman SJ & Segev I (1992) Matching dendritic neuron models
 to experimental data. Physiol. Rev. 72:S159-S186 [MEM].
+Raue A, Kreutz C, Maiwald T, Bachmann J, Schilling M, Klingmüller U & Timmer J (2009) Structural and
+practical identifiability analysis of partially observed dynamical models by exploiting the profile
+likelihood. Bioinformatics 25:1923-1929 [MEM].
 """
 
 from __future__ import annotations
@@ -53,6 +56,7 @@ __all__ = [
     "lag_one_autocorrelation",
     "linearised_covariance",
     "log_scale_fit",
+    "profile_interval",
     "runs_test",
     "t_interval",
     "t_quantile",
@@ -227,6 +231,60 @@ class ResidualCheck:
             return (f"{head}: the residuals run in long stretches of one sign, so the model misses part of "
                     f"the response (or the noise is correlated, e.g. filtered); read the intervals as too narrow")
         return f"{head}: no structure left in the residuals"
+
+
+def profile_interval(grid: Array, chi_square: Array, best: float, dof: int,
+                     level: float) -> tuple[float, float, bool, bool, float]:
+    r"""The profile interval of one parameter from χ² minimised over the others on a grid of its values.
+
+    With :math:`S(\theta)` the smallest χ² at a fixed value θ and :math:`s^2 = \hat\chi^2/(N - p)`,
+    the interval is the set of θ with
+
+    .. math:: S(\theta) - \hat\chi^2 \le s^2\, t^2_{(1+\text{level})/2,\,N-p}
+
+    (the profile t statistic of Bates & Watts 1988, ch. 6; equivalently a likelihood-ratio bound
+    with the noise scale estimated). Its ends are found by linear interpolation between grid
+    points. When :math:`S` stays below the threshold up to an end of the grid, that side is open:
+    the data do not bound the parameter there, the practical non-identifiability of Raue et al.
+    (2009).
+
+    Parameters
+    ----------
+    grid : increasing values of the parameter (any monotone scale, e.g. its logarithm)
+    chi_square : :math:`S` at each grid value
+    best : :math:`\hat\chi^2`, the smallest χ² found (≤ every entry of ``chi_square``)
+    dof : N - p of the full fit
+    level : confidence level
+
+    Returns
+    -------
+    (low, high, low_open, high_open, threshold): the interval's ends on the grid's scale, whether
+    each end is the grid's own (no crossing found on that side), and the χ² threshold above ``best``.
+
+    References
+    ----------
+    Bates & Watts (1988) ch. 6 [BatesWatts1988]; Raue et al. (2009) [Raue2009].
+    """
+    x = np.asarray(grid, dtype=float)
+    s = np.asarray(chi_square, dtype=float)
+    threshold = float(best) / max(int(dof), 1) * t_quantile(level, dof) ** 2
+    inside = s - float(best) <= threshold
+    if not inside.any():  # the grid missed the minimum's neighbourhood: take the best point alone
+        k = int(np.argmin(s))
+        return float(x[k]), float(x[k]), False, False, threshold
+    first = int(np.argmax(inside))
+    last = len(inside) - 1 - int(np.argmax(inside[::-1]))
+    level_line = float(best) + threshold
+
+    def crossing(a: int, b: int) -> float:  # where S crosses the threshold between grid points a (inside), b
+        sa, sb = s[a], s[b]
+        share = (level_line - sa) / (sb - sa) if sb != sa else 0.0
+        return float(x[a] + min(max(share, 0.0), 1.0) * (x[b] - x[a]))
+
+    low_open, high_open = first == 0, last == len(x) - 1
+    low = float(x[0]) if low_open else crossing(first, first - 1)
+    high = float(x[-1]) if high_open else crossing(last, last + 1)
+    return low, high, low_open, high_open, threshold
 
 
 def check_residuals(residuals: Array) -> ResidualCheck:

@@ -27,7 +27,7 @@ Bates DM & Watts DG (1988) [BatesWatts1988] (intervals).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -37,7 +37,7 @@ from . import fit_stats
 from .errors import ConvergenceError, InputError
 from .fit_exponentials import _prepare, decompose
 
-__all__ = ["MorphologyFit", "fit_morphology"]
+__all__ = ["MorphologyFit", "ShuntProfile", "fit_morphology"]
 
 Array = NDArray[np.float64]
 
@@ -45,6 +45,9 @@ TOLERANCE = 1e-8  # error of the exact tree time course, relative to its referen
 MAX_STEPS = 15  # trial points of the search (each with p more courses for its Jacobian)
 _BOUNDS = {"membrane_resistivity": (0.01, 100.0), "axial_resistivity": (0.05, 50.0),
            "membrane_capacitance": (1e-4, 0.1), "soma_shunt": (1e-13, 1e-6)}
+PROFILE_DECADES = (-3.0, 2.0)  # the shunt's profile grid, decades of the soma's own membrane conductance
+PROFILE_STEP = 0.5  # decades between the profile's points
+PROFILE_REFINE = 4  # bisections of each closed end of the profile interval
 _SYMBOLS = {"membrane_resistivity": "Rm", "axial_resistivity": "Ri", "membrane_capacitance": "Cm",
             "soma_shunt": "g_shunt"}
 
@@ -90,12 +93,65 @@ class MorphologyFit(fit_stats.NamedEstimates):
     cell: Any
     notes: tuple[str, ...] = field(default_factory=tuple)
     method: str = ""
+    shunt_profile: ShuntProfile | None = None
 
     @property
     def model(self) -> str:
         """The kind of cell fitted, in the words of :class:`cabletheory.fit_model.ModelFit`."""
         return "reconstructed-cell"
 
+
+
+@dataclass(frozen=True, slots=True)
+class ShuntProfile:
+    """χ² over the soma shunt with Rm, Ri and Cm re-fitted at each value (a profile).
+
+    Attributes
+    ----------
+    shunts : S, the grid (log-spaced, in decades of the soma's membrane conductance)
+    chi_square : the smallest χ² over Rm, Ri, Cm at each shunt
+    membrane_resistivity : Ω·m², Rm at each point of the profile
+    threshold : χ² above the best fit that the interval admits (:func:`fit_stats.profile_interval`)
+    interval : S, the shunts whose profile lies within the threshold (an end of the grid where open)
+    low_open, high_open : whether the profile stays under the threshold up to that end of the grid
+    level : confidence level of the threshold
+    fixed : S, the shunt the reported Rm, Ri, Cm were fitted at: the profile's minimum, or the grid's
+        low end when shunts down to it fit as well (no shunt to speak of)
+    """
+
+    shunts: Array
+    chi_square: Array
+    membrane_resistivity: Array
+    threshold: float
+    interval: tuple[float, float]
+    low_open: bool
+    high_open: bool
+    level: float
+    fixed: float
+
+    @property
+    def determined(self) -> bool:
+        """True when the profile rises above the threshold on both sides inside the grid."""
+        return not (self.low_open or self.high_open)
+
+    def statement(self) -> str:
+        """One sentence on what the data say about the shunt (and at which shunt Rm, Ri, Cm are given)."""
+        lo, hi = (f"{1e9 * g:.3g}" for g in self.interval)
+        pct = f"{100 * self.level:g} %"
+        inside = (self.shunts >= self.interval[0] * (1 - 1e-9)) & (self.shunts <= self.interval[1] * (1 + 1e-9))
+        rm = self.membrane_resistivity[inside] if inside.any() else self.membrane_resistivity
+        rm_span = f"Rm moves from {10 * float(rm.min()):.4g} to {10 * float(rm.max()):.4g} kΩ·cm² across it"
+        where = "the low end" if self.low_open else "the profile's minimum"
+        fixed = (f"Rm, Ri and Cm are given with the shunt fixed at {1e9 * self.fixed:.3g} nS ({where}), their "
+                 f"intervals for that shunt")
+        if self.determined:
+            return (f"the data determine the soma shunt g_shunt: {pct} profile interval {lo} to {hi} nS (outside "
+                    f"it χ² rises by more than {self.threshold:.3g} with Rm, Ri and Cm re-fitted at each shunt); "
+                    f"{rm_span}; {fixed}")
+        span = float(np.ptp(self.chi_square[inside])) if inside.any() else 0.0
+        return (f"the data do not determine the soma shunt g_shunt within {lo} to {hi} nS: over that range χ² "
+                f"changes by only {span:.3g}, less than the {pct} profile threshold {self.threshold:.3g}, with Rm, Ri "
+                f"and Cm re-fitted at each shunt; {rm_span}; {fixed}")
 
 
 def _cell(tree: Any, p: dict[str, float]) -> Any:
@@ -194,6 +250,17 @@ def fit_morphology(times: ArrayLike, voltage: ArrayLike, tree: Any, current: flo
                            xtol=1e-8, ftol=1e-8, gtol=1e-8, max_nfev=MAX_STEPS)
     symbols = tuple(_SYMBOLS[n] for n in names)
     stats = fit_stats.log_scale_fit(result, names, symbols, (lo, hi), level)
+    profile = None
+    if shunt:
+        searched = counter[0]
+        profile, fixed_fit = _shunt_profile(result, stats, tree, course, y, w, lo, hi, level)
+        if not result.status > 0:
+            notes.append(f"the search over all four parameters stopped after {searched} exact time courses "
+                         "without meeting its tolerance, along the shunt; the values below come from the profile")
+        result = fixed_fit  # Rm, Ri, Cm fitted with the shunt fixed at the stated value
+        stats = _with_fixed_shunt(fit_stats.log_scale_fit(fixed_fit, names[:-1], symbols[:-1], (lo[:-1], hi[:-1]),
+                                                          level), profile)
+        notes.append(profile.statement())
     dof = stats.dof
     for n in stats.at_bounds:
         notes.append(f"{_SYMBOLS[n]} ended at the edge of its search range {_BOUNDS[n]} (SI): the estimate and "
@@ -217,4 +284,91 @@ def fit_morphology(times: ArrayLike, voltage: ArrayLike, tree: Any, current: flo
         fitted=y + stats.residuals / w, standard_error=1.0 / w, chi_square=stats.chi_square, dof=dof,
         noise_scale=stats.noise_scale, level=level, converged=bool(result.status > 0), evaluations=counter[0],
         window=(float(t[0]), float(t[-1])), at_bounds=stats.at_bounds, cell=_cell(tree, p), notes=tuple(notes),
-        method=method)
+        method=method, shunt_profile=profile)
+
+
+def _shunt_profile(result: Any, stats: fit_stats.LogScaleFit, tree: Any, course: Any, y: Array, w: Array,
+                   lo: Array, hi: Array, level: float) -> tuple[ShuntProfile, Any]:
+    """χ² over a log grid of the shunt with Rm, Ri, Cm re-fitted at each point (warm-started from the
+    neighbouring point, outward from the full fit), its interval, and the fit at the profile's best point.
+
+    References: Bates & Watts (1988) ch. 6 [BatesWatts1988]; Raue et al. (2009) [Raue2009].
+    """
+    from scipy.optimize import least_squares
+
+    x_full = np.asarray(result.x, dtype=float)
+    soma = float(tree.soma_area) / float(np.exp(x_full[0]))  # the soma's own membrane conductance, S
+    decades = np.arange(PROFILE_DECADES[0], PROFILE_DECADES[1] + 1e-9, PROFILE_STEP)
+    grid = np.unique(np.clip(np.log(soma) + decades * math.log(10.0), lo[-1], hi[-1]))
+
+    def fit_at(g: float, x0: Array) -> Any:
+        def fixed(x: Array) -> Array:
+            return (course(np.append(x, g)) - y) * w
+
+        return least_squares(fixed, np.clip(x0, lo[:-1] + 1e-6, hi[:-1] - 1e-6), bounds=(lo[:-1], hi[:-1]),
+                             method="trf", x_scale=1.0, diff_step=1e-5, xtol=1e-8, ftol=1e-8, gtol=1e-8,
+                             max_nfev=MAX_STEPS)
+
+    def chi(f: Any) -> float:
+        return float(f.fun @ f.fun)
+
+    fits: list[Any] = [None] * grid.size
+    nearest = int(np.argmin(np.abs(grid - x_full[-1])))
+    for order in (range(nearest, grid.size), range(nearest - 1, -1, -1)):
+        x0 = x_full[:-1]
+        for k in order:
+            fits[k] = fit_at(float(grid[k]), x0)
+            x0 = fits[k].x
+    values = np.array([chi(f) for f in fits])
+    best = min(float(values.min()), stats.chi_square)
+    threshold = fit_stats.profile_interval(grid, values, best, stats.dof, level)[4]
+    points = list(zip(grid.tolist(), fits, strict=True))
+    inside = np.flatnonzero(values - best <= threshold)
+    if inside.size:  # each closed end: bisect between the last point inside and the first outside
+        for a, b in ((int(inside[0]), int(inside[0]) - 1), (int(inside[-1]), int(inside[-1]) + 1)):
+            if not 0 <= b < grid.size:
+                continue
+            g_in, g_out, x_in = float(grid[a]), float(grid[b]), fits[a].x
+            for _ in range(PROFILE_REFINE):
+                g_mid = 0.5 * (g_in + g_out)
+                f_mid = fit_at(g_mid, x_in)
+                points.append((g_mid, f_mid))
+                if chi(f_mid) - best <= threshold:
+                    g_in, x_in = g_mid, f_mid.x
+                else:
+                    g_out = g_mid
+    points.sort(key=lambda item: item[0])
+    grid = np.array([g for g, _ in points])
+    fits = [f for _, f in points]
+    values = np.array([chi(f) for f in fits])
+    best = min(float(values.min()), stats.chi_square)
+    g_low, g_high, low_open, high_open, threshold = fit_stats.profile_interval(grid, values, best, stats.dof, level)
+    k = int(np.argmin(values))
+    if low_open:  # no shunt to speak of fits as well as any: fix it at the low end
+        k_fit, g_fixed = fits[0], float(grid[0])
+    else:
+        k_fit, g_fixed = fits[k], float(grid[k])
+        if 0 < k < grid.size - 1:  # the minimum of the parabola through the best point and its neighbours
+            c = np.polyfit(grid[k - 1:k + 2], values[k - 1:k + 2], 2)
+            if c[0] > 0:
+                g_vertex = float(np.clip(-c[1] / (2 * c[0]), grid[k - 1], grid[k + 1]))
+                f_vertex = fit_at(g_vertex, fits[k].x)
+                if chi(f_vertex) <= values[k]:
+                    k_fit, g_fixed = f_vertex, g_vertex
+    profile = ShuntProfile(shunts=np.exp(grid), chi_square=values, membrane_resistivity=np.array(
+        [math.exp(f.x[0]) for f in fits]), threshold=threshold, interval=(math.exp(g_low), math.exp(g_high)),
+        low_open=low_open, high_open=high_open, level=level, fixed=math.exp(g_fixed))
+    return profile, k_fit
+
+
+def _with_fixed_shunt(stats: fit_stats.LogScaleFit, profile: ShuntProfile) -> fit_stats.LogScaleFit:
+    """The statistics of Rm, Ri, Cm fitted at a fixed shunt, with the shunt appended as a fourth
+    parameter: its value the fixed one, its interval the profile's range, no correlations."""
+    p = stats.estimates.size
+    covariance = np.full((p + 1, p + 1), np.nan)
+    covariance[:p, :p] = stats.covariance
+    correlation = np.full((p + 1, p + 1), np.nan)
+    correlation[:p, :p] = stats.correlation
+    correlation[p, p] = 1.0
+    return replace(stats, covariance=covariance, estimates=np.append(stats.estimates, profile.fixed),
+                   intervals=np.vstack([stats.intervals, profile.interval]), correlation=correlation)

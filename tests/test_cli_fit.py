@@ -215,9 +215,8 @@ a length=150 diameter=3
 """
 
 
-def test_morphology_fit(capsys, tmp_path):
-    """A reconstructed cell's Rm, Ri and Cm come back within their intervals from a recording made
-    by the exact tree time course (cabletheory.tree_time; Rall 1959 [Rall1959]) with noise."""
+def _morphology_recording(tmp_path, truth):
+    """The outline cell and a recording of it (three noisy sweeps of the exact tree time course, onset 10 ms)."""
     from cabletheory.fit_tree import _cell
     from cabletheory.inputs import read_outline_value
     from cabletheory.morphology import read_morphology
@@ -229,7 +228,6 @@ def test_morphology_fit(capsys, tmp_path):
     outline = tmp_path / "cell.outline"
     outline.write_text(OUTLINE, encoding="utf-8")
     tree = build_tree(read_morphology(outline, read_outline_value))
-    truth = {"membrane_resistivity": 2.5, "axial_resistivity": 1.2, "membrane_capacitance": 0.009}
     t = np.arange(700) * 0.1e-3
     v = np.zeros(t.size)
     after = t > 0.01
@@ -241,6 +239,14 @@ def test_morphology_fit(capsys, tmp_path):
         f"{t[i] * 1e3:.1f}," + ",".join(f"{x * 1e3:.5f}" for x in data[:, i]) for i in range(t.size)]
     rec = tmp_path / "rec.csv"
     rec.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    return outline, rec
+
+
+def test_morphology_fit(capsys, tmp_path):
+    """A reconstructed cell's Rm, Ri and Cm come back within their intervals from a recording made
+    by the exact tree time course (cabletheory.tree_time; Rall 1959 [Rall1959]) with noise."""
+    truth = {"membrane_resistivity": 2.5, "axial_resistivity": 1.2, "membrane_capacitance": 0.009}
+    outline, rec = _morphology_recording(tmp_path, truth)
     status, out, err = run(capsys, str(rec), "--morphology", str(outline), "--current", "-40 pA", "--onset",
                            "10 ms", "--bootstrap", "0", "--json")
     assert status == 0, err
@@ -253,6 +259,32 @@ def test_morphology_fit(capsys, tmp_path):
     assert status == 0, err
     assert "Reconstructed cell fitted to the trace" in out
     assert "specific membrane resistance Rm" in out
+
+
+def test_morphology_fit_states_an_undetermined_shunt(capsys, tmp_path):
+    """A cell without a shunt fitted with --soma-shunt: the text and the JSON say in one sentence that
+    the data do not determine the shunt (its χ² profile, Raue et al. 2009 [Raue2009]), and give Rm, Ri,
+    Cm at the stated shunt, converged."""
+    truth = {"membrane_resistivity": 2.5, "axial_resistivity": 1.2, "membrane_capacitance": 0.009}
+    outline, rec = _morphology_recording(tmp_path, truth)
+    args = (str(rec), "--morphology", str(outline), "--current", "-40 pA", "--onset", "10 ms", "--bootstrap", "0",
+            "--soma-shunt")
+    status, out, err = run(capsys, *args, "--json")
+    assert status == 0, err
+    fit = json.loads(out)["morphology_fit"]
+    profile = fit["soma_shunt_profile"]
+    assert fit["converged"] is True
+    assert profile["determined"] is False
+    assert profile["statement"].startswith("the data do not determine the soma shunt")
+    assert profile["statement"] in fit["notes"]
+    assert profile["fixed_at"]["unit"] == "S"
+    assert fit["parameters"]["soma_shunt"]["estimate"]["value"] == pytest.approx(profile["fixed_at"]["value"])
+    assert len(profile["points"]) >= 11
+    status, out, err = run(capsys, *args)
+    assert status == 0, err
+    assert "soma shunt: the data do not determine the soma shunt" in out
+    assert "profile range" in out
+    assert "nan" not in out
 
 
 @pytest.mark.parametrize(("args", "message"), [

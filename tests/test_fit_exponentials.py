@@ -58,6 +58,40 @@ def test_linearised_covariance_matches_scipy_linear_regression():
     assert math.sqrt(cov[0, 0]) == pytest.approx(fit.intercept_stderr, rel=1e-10)
 
 
+def test_profile_interval_of_a_straight_line_is_the_t_interval():
+    """For a model linear in its parameters the profile interval equals the linearised Student-t interval
+    (Bates & Watts 1988, ch. 6 [BatesWatts1988]): profiled over the slope (the intercept re-fitted at each
+    slope), the ends match scipy.stats.linregress's slope ± t·stderr [SciPy2020]; a grid that stops inside
+    the interval leaves that side open."""
+    from scipy.stats import linregress, t
+
+    rng = np.random.default_rng(5)
+    x = np.linspace(0, 1, 40)
+    y = 1.0 - 2.0 * x + rng.normal(0, 0.2, x.size)
+    fit = linregress(x, y)
+    half = float(t.ppf(0.975, x.size - 2)) * fit.stderr
+    best = float(np.sum((fit.intercept + fit.slope * x - y) ** 2))
+
+    def profile(slope):
+        intercept = np.mean(y - slope * x)
+        return float(np.sum((intercept + slope * x - y) ** 2))
+
+    grid = np.linspace(fit.slope - 3 * half, fit.slope + 3 * half, 2001)
+    chi = np.array([profile(b) for b in grid])
+    lo, hi, low_open, high_open, threshold = fit_stats.profile_interval(grid, chi, best, x.size - 2, 0.95)
+    assert not low_open
+    assert not high_open
+    assert lo == pytest.approx(fit.slope - half, abs=1e-4 * half)
+    assert hi == pytest.approx(fit.slope + half, abs=1e-4 * half)
+    assert threshold == pytest.approx(best / (x.size - 2) * float(t.ppf(0.975, x.size - 2)) ** 2)
+    short = grid[grid < fit.slope + 0.5 * half]
+    lo2, hi2, low_open2, high_open2, _ = fit_stats.profile_interval(short, chi[:short.size], best, x.size - 2, 0.95)
+    assert high_open2
+    assert not low_open2
+    assert hi2 == short[-1]
+    assert lo2 == pytest.approx(lo)
+
+
 def test_aicc_formula():
     """AICc = N ln(χ²/N) + 2k + 2k(k+1)/(N-k-1), k = p + 1 (Hurvich & Tsai 1989 [HurvichTsai1989]),
     evaluated by hand for N = 20, p = 2, χ² = 5."""

@@ -74,3 +74,54 @@ def test_refusals():
         fit_morphology(t, y, tree, -40e-12, shunt=True)
     with pytest.raises(InputError, match="current"):
         fit_morphology(t, y, tree, 0.0)
+
+
+def test_a_cell_without_shunt_ends_converged_with_the_shunt_stated_as_undetermined():
+    """Fitted with a shunt, a recording of a cell that has none: the search over all four stops in a flat
+    valley, so the shunt is profiled (Raue et al. 2009 [Raue2009]: a profile that stays under the threshold
+    up to the grid's end means the data do not bound it there), fixed at the low end, and Rm, Ri, Cm are
+    fitted to convergence and come back within their intervals."""
+    tree = unequal_tree(soma=12.0)
+    t, y = recording(tree, TRUTH)
+    f = fit_morphology(t, y, tree, -40e-12, shunt=True, window=(0.0, None))
+    profile = f.shunt_profile
+    assert f.converged
+    assert profile is not None
+    assert not profile.determined
+    assert profile.low_open
+    assert not profile.high_open
+    assert f.value("soma_shunt") == profile.fixed == pytest.approx(profile.shunts[0])
+    assert f.interval("soma_shunt") == profile.interval
+    assert profile.interval[1] > 0.3e-9  # the flat valley reaches past the soma's own conductance
+    assert any(n.startswith("the data do not determine the soma shunt") for n in f.notes)
+    assert not any("stopped after" in n and "without meeting" in n and "values are the best" in n for n in f.notes)
+    for name, value in TRUTH.items():
+        lo, hi = f.interval(name)
+        assert lo < value < hi, name
+    inside = (profile.shunts >= profile.interval[0]) & (profile.shunts <= profile.interval[1])
+    assert np.ptp(profile.chi_square[inside]) <= profile.threshold
+
+
+def test_a_strong_shunt_is_determined_by_its_profile():
+    """A shunt twenty times the soma's own membrane conductance changes the charging curve beyond what
+    Rm, Ri and Cm can make up: the profile rises above its threshold on both sides, and its interval holds
+    the true shunt (Bates & Watts 1988, ch. 6 [BatesWatts1988])."""
+    tree = unequal_tree(soma=12.0)
+    truth = dict(TRUTH, soma_shunt=3e-9)
+    t, y = recording(tree, truth)
+    f = fit_morphology(t, y, tree, -40e-12, shunt=True, window=(0.0, None))
+    profile = f.shunt_profile
+    assert profile is not None
+    assert profile.determined
+    assert f.converged
+    lo, hi = f.interval("soma_shunt")
+    assert lo < 3e-9 < hi
+    assert hi / lo < 10
+    assert lo < f.value("soma_shunt") < hi
+    assert any(n.startswith("the data determine the soma shunt") for n in f.notes)
+
+
+def test_no_profile_without_a_shunt():
+    tree = unequal_tree(soma=12.0)
+    t, y = recording(tree, TRUTH, samples=200)
+    assert fit_morphology(t, y, tree, -40e-12, window=(0.0, None)).shunt_profile is None

@@ -266,20 +266,26 @@ def as_text(v: dict[str, Any], trace: Any, decomposition: Any, peel: Any, model:
         lines += ["", f"Reconstructed cell fitted to the trace from {_q(model.window[0], 'time', digits)} to "
                       f"{_q(model.window[1], 'time', digits)} after the onset (uniform membrane):"]
         rows = []
+        profile = model.shunt_profile
         for k, name in enumerate(model.names):
             label, kind, _ = _TREE[name]
-            rows.append((label, f"{_q(model.estimates[k], kind, digits)}  {pct} "
+            how = pct
+            if name == "soma_shunt" and profile is not None:
+                label, how = f"{label}, fixed", f"{pct} profile {'interval' if profile.determined else 'range'}"
+            rows.append((label, f"{_q(model.estimates[k], kind, digits)}  {how} "
                                 f"{_iv(model.intervals[k, 0], model.intervals[k, 1], kind, digits)}"))
         rows.append(("membrane time constant Rm·Cm", _q(model.membrane_time_constant, "time", digits)))
         lines.append(table(rows))
         symbols = [_TREE[n][2] for n in model.names]
         lines.append("  correlations: " + "; ".join(
             f"{symbols[i]}-{symbols[j]} {model.correlation[i, j]:+.2f}"
-            for i in range(len(symbols)) for j in range(i + 1, len(symbols))))
+            for i in range(len(symbols)) for j in range(i + 1, len(symbols)) if math.isfinite(model.correlation[i, j])))
+        if profile is not None:
+            lines.append(f"  soma shunt: {profile.statement()}")
         lines.append(f"  residuals: {model.residual_check.describe()}")
-        if model.condition.separable:
+        if model.condition.separable and (profile is None or profile.determined):
             lines.append("  the data separate every fitted parameter (no correlation beyond 0.95, no flat direction)")
-        lines += [f"  note: {n}" for n in model.notes]
+        lines += [f"  note: {n}" for n in model.notes if profile is None or n != profile.statement()]
     elif model is not None:
         lines += ["", f"{model.model.replace('-', ' ').capitalize()} fitted to the trace from "
                       f"{_q(model.window[0], 'time', digits)} to {_q(model.window[1], 'time', digits)} "
@@ -390,6 +396,21 @@ def as_json(v: dict[str, Any], trace: Any, decomposition: Any, peel: Any, model:
             "evaluations": model.evaluations,
             "notes": list(model.notes),
         }
+        profile = model.shunt_profile
+        if profile is not None:
+            out["morphology_fit"]["soma_shunt_profile"] = {
+                "determined": profile.determined,
+                "statement": profile.statement(),
+                "level": profile.level,
+                "interval": _interval(profile.interval[0], profile.interval[1], "conductance"),
+                "interval_open": {"low": profile.low_open, "high": profile.high_open},
+                "fixed_at": quantity(profile.fixed, "conductance"),
+                "chi_square_threshold": profile.threshold,
+                "points": [{"shunt": quantity(float(g), "conductance"), "chi_square": float(c),
+                            "membrane_resistivity": quantity(float(r), "membrane_resistivity")}
+                           for g, c, r in zip(profile.shunts, profile.chi_square, profile.membrane_resistivity,
+                                              strict=True)],
+            }
     elif model is not None:
         params = {}
         for k, name in enumerate(model.names):

@@ -338,7 +338,8 @@ def fit_report(setup: FitSetup, run: FitRun) -> Report:
                 results.append(Row("soma_diameter", "soma diameter (sphere)", props.soma_diameter, "length"))
     if model is None:
         results.append(Row("components", "exponentials (chosen by AICc)", d.fit.components))
-    separable = fitted.condition.separable
+    profile = getattr(model, "shunt_profile", None)  # a soma shunt the data may leave undetermined
+    separable = fitted.condition.separable and (profile is None or profile.determined)
     results.append(Row("separable", "parameters told apart",
                        "yes" if separable else "NO: read the sentences below", flag=not separable))
     check = fitted.residual_check
@@ -350,7 +351,8 @@ def fit_report(setup: FitSetup, run: FitRun) -> Report:
     names = list(getattr(fitted, "names", ()))
     symbols = [PARAMETERS[n][2] for n in names] if model is not None else []
     correlations = [f"{symbols[i]}-{symbols[j]} {fitted.correlation[i, j]:+.2f}"
-                    for i in range(len(symbols)) for j in range(i + 1, len(symbols))]
+                    for i in range(len(symbols)) for j in range(i + 1, len(symbols))
+                    if math.isfinite(fitted.correlation[i, j])]
     if correlations:
         results.append(Row("correlations", "correlations", "; ".join(correlations)))
     # the plain statements first: what the data cannot separate
