@@ -13,6 +13,9 @@ This module holds what both need:
   choose how many exponentials a trace supports;
 * :func:`runs_test` (Wald & Wolfowitz 1940) and :func:`lag_one_autocorrelation`: whether the
   residuals look like independent noise or still carry structure the model missed;
+* :func:`profile_interval`: the interval of one parameter from χ² minimised over the others at
+  fixed values of it (Bates & Watts 1988, ch. 6), open on a side where the profile stays flat
+  (Raue et al. 2009);
 * :func:`identifiability`: pairs of parameters whose estimates are correlated beyond a threshold
   and the flattest direction of the Jacobian, the warning signs Rall et al. (1992) describe for
   parameter estimates of neuron models.

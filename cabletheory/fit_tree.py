@@ -12,6 +12,12 @@ al. 1992: with a shunt in particular, Rm and the shunt trade off).
 
 The soma shunt enters as the soma's own membrane resistivity
 :math:`R_{m,S} = A_S/(A_S/R_m + g_{sh})` (same Cm), so a tree without a soma cannot take one.
+One charging curve often leaves the shunt in a flat valley of χ² where the search over all four
+parameters cannot meet its tolerance, so a fit with a shunt also profiles χ² over it
+(:class:`ShuntProfile`: Rm, Ri, Cm re-fitted on a log grid of shunts, the interval's ends from the
+profile t threshold of Bates & Watts 1988, ch. 6). Where the profile stays under the threshold up
+to an end of the grid the data do not determine the shunt there (Raue et al. 2009); Rm, Ri and Cm
+are then reported for the shunt fixed at a stated value, and ``converged`` is that fit's own.
 
 Every result assumes a passive, linear membrane, uniform over the dendrites, and a morphology
 whose diameters and lengths are right: errors there go straight into Rm, Ri and Cm.
@@ -21,7 +27,8 @@ References
 Major G, Larkman AU, Jonas P, Sakmann B & Jack JJB (1994) J. Neurosci. 14:4613 [Major1994] (fitting
 the transient of a reconstructed cell; the soma shunt) [MEM].
 Rall W et al. (1992) Physiol. Rev. 72:S159 [Rall1992] (non-uniqueness) [MEM].
-Bates DM & Watts DG (1988) [BatesWatts1988] (intervals).
+Bates DM & Watts DG (1988) [BatesWatts1988] (intervals; the profile t statistic, ch. 6).
+Raue A et al. (2009) Bioinformatics 25:1923 [Raue2009] (a flat profile: not determined by the data) [MEM].
 """
 
 from __future__ import annotations
@@ -69,6 +76,8 @@ class MorphologyFit(fit_stats.NamedEstimates):
     level, converged, evaluations, window, at_bounds, notes, method : as in
         :class:`cabletheory.fit_model.ModelFit`
     cell : the fitted :class:`~cabletheory.tree_laplace.PassiveTree`
+    shunt_profile : :class:`ShuntProfile` of a fit with a shunt (the shunt's value is the fixed one,
+        its interval the profile's), else None
     """
 
     names: tuple[str, ...]
@@ -141,7 +150,7 @@ class ShuntProfile:
         inside = (self.shunts >= self.interval[0] * (1 - 1e-9)) & (self.shunts <= self.interval[1] * (1 + 1e-9))
         rm = self.membrane_resistivity[inside] if inside.any() else self.membrane_resistivity
         rm_span = f"Rm moves from {10 * float(rm.min()):.4g} to {10 * float(rm.max()):.4g} kΩ·cm² across it"
-        where = "the low end" if self.low_open else "the profile's minimum"
+        where = "the range's low end: no shunt to speak of" if self.low_open else "the profile's minimum"
         fixed = (f"Rm, Ri and Cm are given with the shunt fixed at {1e9 * self.fixed:.3g} nS ({where}), their "
                  f"intervals for that shunt")
         if self.determined:
@@ -180,7 +189,8 @@ def fit_morphology(times: ArrayLike, voltage: ArrayLike, tree: Any, current: flo
     tree : :class:`cabletheory.tree.model.Tree` of cylinders (as read for the tree commands)
     current : A, the step's amplitude (sign included)
     standard_error : V per sample (relative weights), or None
-    shunt : also fit a conductance from the soma to rest (the tree needs a soma)
+    shunt : also fit a conductance from the soma to rest (the tree needs a soma); the result then
+        carries its χ² profile (``shunt_profile``), and Rm, Ri, Cm are given at the stated shunt
     window : (start, end) s since onset; a None start is chosen by the rule of
         :func:`cabletheory.fit_exponentials.decompose` (and moved past an electrode term)
     level : confidence level
@@ -256,7 +266,7 @@ def fit_morphology(times: ArrayLike, voltage: ArrayLike, tree: Any, current: flo
         profile, fixed_fit = _shunt_profile(result, stats, tree, course, y, w, lo, hi, level)
         if not result.status > 0:
             notes.append(f"the search over all four parameters stopped after {searched} exact time courses "
-                         "without meeting its tolerance, along the shunt; the values below come from the profile")
+                         "without meeting its tolerance, along the shunt; the values given come from its profile")
         result = fixed_fit  # Rm, Ri, Cm fitted with the shunt fixed at the stated value
         stats = _with_fixed_shunt(fit_stats.log_scale_fit(fixed_fit, names[:-1], symbols[:-1], (lo[:-1], hi[:-1]),
                                                           level), profile)
