@@ -339,3 +339,26 @@ def test_an_nwb_recording_brings_its_step_when_the_current_and_onset_are_blank(t
     table = saved["tables"]["parameters"]
     for name, low, high in zip(table["parameter"], table["low"], table["high"], strict=True):
         assert low < TRUTH[name] < high, name
+
+
+def test_the_report_of_a_shunt_fit_says_the_shunt_is_undetermined(tmp_path):
+    """A cell without a shunt, fitted with one in the app's recipe: the report does not say the
+    parameters are told apart, shows no correlation of the fixed shunt (none was fitted), and carries
+    the sentence of its χ² profile (Raue et al. 2009 [Raue2009])."""
+    from test_cli_fit import _morphology_recording
+
+    from cabletheory.tui.fit_report import fit_outcome
+
+    outline, rec = _morphology_recording(tmp_path, {"membrane_resistivity": 2.5, "axial_resistivity": 1.2,
+                                                    "membrane_capacitance": 0.009})
+    setup, errors = read_fit_form({"file": str(rec), "current": "-40 pA", "onset": "10 ms",
+                                   "morphology": str(outline)}, "morphology", shunt=True)
+    assert errors == {}
+    kind, report, message = fit_outcome(setup)
+    assert kind == "report", message
+    results = {row.key: row for row in report.results}
+    assert results["separable"].value == "NO: read the sentences below"
+    assert results["converged"].value == "yes"
+    assert "nan" not in str(results["correlations"].value)
+    assert "g_shunt" not in str(results["correlations"].value)
+    assert any(n.startswith("the data do not determine the soma shunt") for n in report.notes)
