@@ -50,6 +50,8 @@ __all__ = ["TreeModes", "eigenvalue_count", "root_modes"]
 Array = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
+_SAME_RATE = 1e-9  # rates closer than this (relative) are one rate of several modes
+
 
 def _count(net: _Network, rates: Array) -> IntArray:
     """Number of decay rates of the tree (1/s) strictly below each of ``rates`` (Wittrick-Williams)."""
@@ -213,28 +215,15 @@ def _bisect_rates(net: _Network, indices: IntArray, lo: Array, hi: Array) -> tup
     return lo, hi
 
 
-def _classified(net: _Network, modes: int, high: float, z0: float, tau_max: float,
-                known: tuple[Array, Array, float, int] | None = None
-                ) -> tuple[Array, IntArray, NDArray[np.bool_], Array, tuple[Array, Array]]:
-    """The first ``modes`` distinct rates below ``high``: (rates, multiplicities, seen at the root, Y'(s_n),
-    the brackets (lo, hi) of the rates counted). ``known``: (lo, hi, bound, count below the bound) of an
-    earlier call with a lower bound; the rates it bracketed keep their brackets, the others start above
-    that bound when they lie above it, below it otherwise."""
-    indices = np.arange(modes)
-    lo, hi = np.zeros(modes), np.full(modes, high)
-    if known is not None:
-        old_lo, old_hi, old_high, old_total = known
-        kept = min(old_lo.size, modes)
-        lo[:kept], hi[:kept] = old_lo[:kept], old_hi[:kept]
-        beyond = indices >= old_total  # count(old_high) = old_total <= index: the rate is >= old_high
-        lo[beyond & (indices >= kept)] = old_high
-        hi[(indices < old_total) & (indices >= kept)] = old_high
-    lo, hi = _bisect_rates(net, indices, lo, hi) if modes else (lo, hi)
+def _classified(net: _Network, lo: Array, hi: Array, z0: float, tau_max: float
+                ) -> tuple[Array, IntArray, NDArray[np.bool_], Array]:
+    """The distinct rates bracketed by [lo, hi] (the slowest rates of the tree, in order): (rates,
+    multiplicities, seen at the root, Y'(s_n))."""
     rates = 0.5 * (lo + hi)
     distinct: list[float] = []
     mult: list[int] = []
     for r in rates.tolist():
-        if distinct and abs(r - distinct[-1]) <= 1e-9 * r:
+        if distinct and abs(r - distinct[-1]) <= _SAME_RATE * r:
             mult[-1] += 1
         else:
             distinct.append(r)
@@ -249,14 +238,16 @@ def _classified(net: _Network, modes: int, high: float, z0: float, tau_max: floa
     # admittance has a pole there, so |Y| is huge: the steady conductance separates the two
     with np.errstate(invalid="ignore"):
         visible = np.abs(y.real) <= 1e-3 / z0
-    return rate, np.asarray(mult, dtype=np.int64), visible, y.imag / step, (lo, hi)
+    return rate, np.asarray(mult, dtype=np.int64), visible, y.imag / step
 
 
 def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeModes:
     r"""The ``count`` slowest modes with a voltage at the root: τ_n, step coefficients, residues.
 
-    Every decay rate of the tree is bracketed by bisection on :func:`eigenvalue_count` (so
-    multiple rates of symmetric trees are found, each once per multiplicity). A rate is seen at
+    The slowest decay rates of the tree are bracketed on :func:`eigenvalue_count` (so multiple
+    rates of symmetric trees are found, each once per multiplicity): first ``count`` of them, then,
+    while fewer than ``count`` are seen at the root, twice as many (the brackets found are kept); a
+    rate shared by several modes is always taken whole. A rate is seen at
     the root when the root admittance :math:`Y(s)` vanishes at :math:`s = -1/\tau_n`; the root
     impedance's residue there is :math:`r_n = 1/Y'(s_n)` (Y' by a complex step, Squire &
     Trapp 1998), and the coefficient of a current step at the root is
@@ -283,17 +274,36 @@ def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeM
         return net, int(_count(net, np.array([rate]))[0])
 
     net, total = counted(high)
-    while total < min(search, 4 * count + 8) and high < 1e30:
-        high *= 2.0
-        net, total = counted(high)
-    known: tuple[Array, Array, float, int] | None = None
+    lo, hi = np.zeros(0), np.zeros(0)  # brackets of the slowest rates, slowest first
+    wanted = min(count, search)  # how many of the slowest rates to bracket, hidden ones included
     while True:
-        rate, mult, visible, slope, brackets = _classified(net, min(total, search), high, z0, tau_max, known)
-        if int(visible.sum()) >= count or total >= search or high >= 1e30:
+        while True:
+            while total < wanted and high < 1e30:
+                high *= 2.0
+                net, total = counted(high)
+            wanted = min(wanted, total)
+            if wanted > lo.size:  # the new rates lie above those bracketed already, below `high`
+                new = np.arange(lo.size, wanted)
+                start = np.full(new.size, lo[-1] if lo.size else 0.0)
+                more_lo, more_hi = _bisect_rates(net, new, start, np.full(new.size, high))
+                lo, hi = np.concatenate((lo, more_lo)), np.concatenate((hi, more_hi))
+            # a multiple rate is taken whole: the rates within _SAME_RATE of the last one join it
+            edge = float(hi[-1]) / (1.0 - _SAME_RATE) if hi.size else 0.0
+            if edge >= high:
+                if high >= 1e30:
+                    break
+                high *= 2.0
+                net, total = counted(high)
+                continue
+            within = min(int(_count(net, np.array([edge]))[0]), search)
+            if within <= wanted:
+                break
+            wanted = within
+        rate, mult, visible, slope = _classified(net, lo, hi, z0, tau_max)
+        seen = int(visible.sum())
+        if seen >= count or wanted >= search or high >= 1e30:
             break
-        known = (*brackets, high, total)  # the rates found so far keep their brackets
-        high *= 2.0
-        net, total = counted(high)
+        wanted = min(search, max(2 * wanted, wanted + count - seen))  # hidden modes: look further
     taus = 1.0 / rate
     vis = np.flatnonzero(visible)[:count]
     residues = 1.0 / slope[vis]
@@ -301,5 +311,3 @@ def root_modes(cell: PassiveTree, count: int = 3, *, search: int = 400) -> TreeM
     return TreeModes(time_constants=taus[vis], coefficients=residues * taus[vis] / z0, residues=residues,
                      hidden=hidden[hidden >= (taus[vis].min() if vis.size else 0.0)],
                      multiplicities=np.asarray(mult, dtype=np.int64)[vis])
-
-

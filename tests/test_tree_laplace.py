@@ -258,6 +258,24 @@ def test_two_equal_branches_hide_their_odd_modes():
     assert eigenvalue_count(cell, rates).tolist() == [0, 1, 2, 3]
 
 
+@pytest.mark.parametrize("count", [1, 2, 3])
+def test_three_equal_branches_hide_a_double_rate(count):
+    """Three equal sealed branches from a root without soma: the modes with equal branches are the single
+    cylinder's, nπ/L (visible); those with the root at rest, (n + ½)π/L, belong to a plane of branch
+    voltages whose currents cancel at the root, so each such rate is shared by two modes, both hidden
+    and listed twice. Sturm-Liouville facts of the cable equation [CP]. Only the slowest rates are
+    searched, so the double rate lies at the edge of the first search (count 2) and must be taken whole."""
+    d, big_l = 1e-6, 0.8
+    ell = big_l * float(cable.length_constant(RM, RI, d))
+    cell = PassiveTree(outline_tree([-1, -1, -1], [ell, ell, ell], [d, d, d]), RM, RI, CM)
+    modes = root_modes(cell, count)
+    np.testing.assert_allclose(modes.time_constants, TAU / (1 + (np.arange(count) * math.pi / big_l) ** 2),
+                               rtol=1e-12)
+    assert modes.multiplicities.tolist() == [1] * count
+    hidden = np.repeat(TAU / (1 + ((np.arange(count - 1) + 0.5) * math.pi / big_l) ** 2), 2)
+    np.testing.assert_allclose(modes.hidden, hidden, rtol=1e-12)
+
+
 # --------------------------------------------------------------------------------------
 # refusals
 # --------------------------------------------------------------------------------------
