@@ -28,6 +28,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -54,14 +55,21 @@ from .tree_laplace import (
 )
 from .tree_modes import TreeModes, root_modes
 
+if TYPE_CHECKING:
+    from .cable import Cylinder
+    from .case import BallAndStick
+    from .tree import TreeReport
+
 __all__ = [
     "ElectrotonicMap",
     "FrequencyResponse",
     "ReductionCost",
+    "ReductionModes",
     "TreeResponse",
     "electrotonic_map",
     "frequency_response",
     "reduction_cost",
+    "reduction_modes",
     "tree_response",
 ]
 
@@ -385,6 +393,102 @@ class ReductionCost:
     notes: tuple[str, ...] = field(default_factory=tuple)
 
 
+@dataclass(frozen=True, slots=True)
+class ReductionModes:
+    """The slowest modes seen at the root of a tree beside those of its reduction, SI.
+
+    Attributes
+    ----------
+    reduced_model : "equivalent cylinder" or "soma and equivalent cylinder"
+    electrotonic_length, conductance_ratio : L and ρ of the reduction (ρ None without a soma)
+    tree_modes : τ_n and C_n of the tree at the root (:func:`~cabletheory.tree_modes.root_modes`)
+    reduced_time_constants, reduced_coefficients : τ0, τ1 (s) and C0, C1 of the reduction
+    peeled_length : L a sealed cylinder would need for the tree's τ0/τ1 (Rall 1969)
+    peeled_ball_and_stick : (L, ρ) of a ball and stick with the tree's τ0/τ1 and C1/C0, if any
+    notes : plain-language remarks
+    """
+
+    reduced_model: str
+    electrotonic_length: float
+    conductance_ratio: float | None
+    tree_modes: TreeModes
+    reduced_time_constants: Array
+    reduced_coefficients: Array
+    peeled_length: float
+    peeled_ball_and_stick: tuple[tuple[float, float], ...]
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+
+def _reduction(cell: PassiveTree) -> tuple[TreeReport, Cylinder | BallAndStick, str]:
+    """The tree's analysis, its reduction (a cylinder, with the soma when the tree has one) and its name."""
+    from .cable import Cylinder
+    from .case import BallAndStick
+    from .tree import analyse_tree
+
+    tree = cell.tree
+    rm = np.asarray(cell.membrane_resistivity, dtype=float).ravel()
+    cm = np.asarray(cell.membrane_capacitance, dtype=float).ravel()
+    if rm.size != 1 or cm.size != 1:
+        raise InputError("the reduction needs one membrane resistivity and capacitance for the whole tree")
+    if tree.soma_area is not None:
+        g_s, tau_s = cell.soma_constants()
+        if not math.isclose(tau_s, float(rm[0] * cm[0]), rel_tol=1e-12) or not math.isclose(
+                g_s, tree.soma_area / float(rm[0]), rel_tol=1e-12):
+            raise InputError("the reduction needs the soma's membrane to be the dendrites'")
+    # the tips as this cell has them; the cylinder's far end leaks what the tips leak together
+    report = analyse_tree(replace(tree, ends=cell.tip_conductances()), float(rm[0]), float(cell.axial_resistivity),
+                          float(cm[0]))
+    eq = report.equivalent_cylinder
+    end = report.end_conductance_ratio / eq.semi_infinite_input_resistance
+    cylinder = Cylinder(float(rm[0]), float(cell.axial_resistivity), float(cm[0]), eq.diameter, eq.length,
+                        math.inf if math.isinf(report.end_conductance_ratio) else end)
+    if tree.soma_area is not None:
+        return report, BallAndStick(cylinder, math.sqrt(tree.soma_area / math.pi)), "soma and equivalent cylinder"
+    return report, cylinder, "equivalent cylinder"
+
+
+def _peeled(modes: TreeModes) -> tuple[float, tuple[tuple[float, float], ...], list[str]]:
+    """What peeling the tree's τ0/τ1 and C1/C0 would report: (L of a sealed cylinder, the (L, ρ) of a
+    ball and stick, notes)."""
+    from .inverse import estimate_from_peeling
+
+    if modes.time_constants.size < 2:
+        return math.nan, (), ["fewer than two modes are seen at the root; nothing to peel"]
+    ratio = float(modes.time_constants[0] / modes.time_constants[1])
+    coef = float(modes.coefficients[1] / modes.coefficients[0])
+    estimate = estimate_from_peeling(ratio, coef)
+    return (estimate.cylinder_length,
+            tuple((s.electrotonic_length, s.conductance_ratio) for s in estimate.solutions), [])
+
+
+def reduction_modes(cell: PassiveTree, *, modes: TreeModes | None = None) -> ReductionModes:
+    r"""The two slowest modes seen at the root of a tree beside those of its Rall reduction, and the L
+    and ρ that peeling the tree's would report; :func:`reduction_cost` without the time courses.
+
+    The reduction is that of :func:`reduction_cost`; its τ_n and the C_n of a current step at its
+    origin are those of :func:`cabletheory.transient.charge`. ``modes``: the tree's root modes when
+    already found (two or more), so they are not searched again.
+
+    References
+    ----------
+    Rall W (1959) Exp. Neurol. 1:491; Rall W (1969) Biophys. J. 9:1483 (τ0/τ1, C1/C0 and peeling).
+    """
+    from .transient import charge
+
+    report, model, name = _reduction(cell)
+    reduced = charge(model, CurrentStep(1e-12), np.zeros(0), [0.0], modes=2)  # no times: its modes only
+    if modes is None or modes.time_constants.size < 2:
+        modes = root_modes(cell, 2)
+    peeled, solutions, notes = _peeled(modes)
+    if not report.reducible:
+        notes.append("the tree does not meet Rall's conditions, so its reduction is approximate")
+    return ReductionModes(reduced_model=name, electrotonic_length=report.equivalent_cylinder.electrotonic_length,
+                          conductance_ratio=report.conductance_ratio, tree_modes=modes,
+                          reduced_time_constants=reduced.time_constants[:2],
+                          reduced_coefficients=reduced.coefficients[:2, 0], peeled_length=peeled,
+                          peeled_ball_and_stick=solutions, notes=tuple(notes))
+
+
 def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
                    tolerance: float = 1e-10, modes: TreeModes | None = None) -> ReductionCost:
     r"""Compare the root's response of a tree with that of its Rall reduction, in time.
@@ -403,36 +507,11 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     ----------
     Rall W (1959) Exp. Neurol. 1:491; Rall W (1969) Biophys. J. 9:1483 (τ0/τ1, C1/C0 and peeling).
     """
-    from .cable import Cylinder
-    from .case import BallAndStick
-    from .inverse import estimate_from_peeling
     from .transient import charge
-    from .tree import analyse_tree
 
-    tree = cell.tree
-    rm = np.asarray(cell.membrane_resistivity, dtype=float).ravel()
-    cm = np.asarray(cell.membrane_capacitance, dtype=float).ravel()
-    if rm.size != 1 or cm.size != 1:
-        raise InputError("the reduction needs one membrane resistivity and capacitance for the whole tree")
-    if tree.soma_area is not None:
-        g_s, tau_s = cell.soma_constants()
-        if not math.isclose(tau_s, float(rm[0] * cm[0]), rel_tol=1e-12) or not math.isclose(
-                g_s, tree.soma_area / float(rm[0]), rel_tol=1e-12):
-            raise InputError("the reduction needs the soma's membrane to be the dendrites'")
     if isinstance(stimulus, VoltageStep):
         raise InputError("the cost of reduction is computed for current stimuli at the root")
-    # the tips as this cell has them; the cylinder's far end leaks what the tips leak together
-    report = analyse_tree(replace(tree, ends=cell.tip_conductances()), float(rm[0]), float(cell.axial_resistivity),
-                          float(cm[0]))
-    eq = report.equivalent_cylinder
-    end = report.end_conductance_ratio / eq.semi_infinite_input_resistance
-    cylinder = Cylinder(float(rm[0]), float(cell.axial_resistivity), float(cm[0]), eq.diameter, eq.length,
-                        math.inf if math.isinf(report.end_conductance_ratio) else end)
-    model: Cylinder | BallAndStick = cylinder
-    name = "equivalent cylinder"
-    if tree.soma_area is not None:
-        model = BallAndStick(cylinder, math.sqrt(tree.soma_area / math.pi))
-        name = "soma and equivalent cylinder"
+    report, model, name = _reduction(cell)
     t = np.atleast_1d(np.asarray(times, dtype=float)).ravel()
     reduced = charge(model, stimulus, t, [0.0], tolerance=tolerance, modes=2)
     mine = tree_response(cell, stimulus, t, root_site(), [root_site()], tolerance=tolerance)
@@ -440,24 +519,15 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     k = int(np.argmax(np.abs(diff))) if diff.size else 0
     if modes is None or modes.time_constants.size < 2:
         modes = root_modes(cell, 2)
-    notes = []
-    peeled = math.nan
-    solutions: tuple[tuple[float, float], ...] = ()
-    if modes.time_constants.size >= 2:
-        ratio = float(modes.time_constants[0] / modes.time_constants[1])
-        coef = float(modes.coefficients[1] / modes.coefficients[0])
-        estimate = estimate_from_peeling(ratio, coef)
-        peeled = estimate.cylinder_length
-        solutions = tuple((s.electrotonic_length, s.conductance_ratio) for s in estimate.solutions)
-    else:
-        notes.append("fewer than two modes are seen at the root; nothing to peel")
+    peeled, solutions, notes = _peeled(modes)
     if not report.reducible:
         notes.append("the tree does not meet Rall's conditions, so its reduction is approximate")
     return ReductionCost(times=t, tree_voltage=mine.voltage[:, 0], reduced_voltage=reduced.voltage[:, 0],
                          largest_difference=float(abs(diff[k])) if diff.size else 0.0,
                          when=float(t[k]) if diff.size else math.nan, tree_error_bound=mine.error_bound,
                          reduced_error_bound=reduced.error_bound, reduced_model=name,
-                         electrotonic_length=eq.electrotonic_length, conductance_ratio=report.conductance_ratio,
+                         electrotonic_length=report.equivalent_cylinder.electrotonic_length,
+                         conductance_ratio=report.conductance_ratio,
                          tree_modes=modes, reduced_time_constants=reduced.time_constants[:2],
                          reduced_coefficients=reduced.coefficients[:2, 0], peeled_length=peeled,
                          peeled_ball_and_stick=solutions, notes=tuple(notes))

@@ -38,6 +38,7 @@ from cabletheory.tree_time import (
     electrotonic_map,
     frequency_response,
     reduction_cost,
+    reduction_modes,
     tree_response,
 )
 
@@ -340,6 +341,30 @@ def test_reduction_costs_nothing_on_a_conforming_tree():
     (length, rho), = cost.peeled_ball_and_stick
     assert length == pytest.approx(0.9954565254, rel=1e-7)
     assert rho == pytest.approx(7.596794008, rel=1e-6)
+
+
+@pytest.mark.parametrize(("tree", "conforming"), [(demo(soma=20.0), True), (demo(400.0, soma=20.0), False),
+                                                  (demo(400.0), False)], ids=["conforming", "unreduced", "no soma"])
+def test_reduction_modes_are_those_of_the_cost_of_reduction(tree, conforming):
+    """The modes alone (no time courses) give what the cost of reduction gives; on the conforming tree
+    they are Rall's (1959, 1969) [Rall1959] [Rall1969]: the tree's τ0, τ1, C0, C1 are the reduction's and
+    peeling returns L = 0.9954565254, ρ = 7.596794008 (as in the test above)."""
+    cell = PassiveTree(tree, RM, RI, CM)
+    modes = reduction_modes(cell)
+    cost = reduction_cost(cell, case.CurrentStep(0.1 * NA), [0.01])
+    for name in ("reduced_model", "electrotonic_length", "conductance_ratio", "peeled_length",
+                 "peeled_ball_and_stick", "notes"):
+        assert getattr(modes, name) == getattr(cost, name), name
+    for name in ("reduced_time_constants", "reduced_coefficients"):
+        np.testing.assert_array_equal(getattr(modes, name), getattr(cost, name))
+    np.testing.assert_array_equal(modes.tree_modes.time_constants, cost.tree_modes.time_constants)
+    assert (not modes.notes) == conforming
+    if conforming:
+        np.testing.assert_allclose(modes.tree_modes.time_constants, modes.reduced_time_constants, rtol=1e-10)
+        np.testing.assert_allclose(modes.tree_modes.coefficients, modes.reduced_coefficients, rtol=1e-7)
+        (length, rho), = modes.peeled_ball_and_stick
+        assert length == pytest.approx(0.9954565254, rel=1e-7)
+        assert rho == pytest.approx(7.596794008, rel=1e-6)
 
 
 def test_leaky_tips_reduce_to_a_leaky_cylinder():

@@ -465,14 +465,11 @@ def _cost_json(cost) -> dict:
 
 def modes_view(args: argparse.Namespace, cell, source: str, tips: str) -> str:
     """The N slowest time constants seen at the soma, and what peeling them would report."""
-    from ..case import CurrentStep
     from ..tree_modes import root_modes
-    from ..tree_time import reduction_cost
+    from ..tree_time import reduction_modes
 
     modes = root_modes(cell, args.modes)
-    tau_m = float(np.asarray(cell.time_constants).ravel()[0])
-    # the reduction's τ and the peeled L, ρ (a unit step at one time: only its modes are used here)
-    cost = reduction_cost(cell, CurrentStep(1e-12), [tau_m], modes=modes)
+    cost = reduction_modes(cell, modes=modes)  # the reduction's τ and C, the peeled L and ρ
     if args.json:
         return dump_json({
             "view": "modes", "inputs": _inputs_json(cell, source, tips),
