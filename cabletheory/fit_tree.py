@@ -330,6 +330,28 @@ def _shunt_profile(result: Any, stats: fit_stats.LogScaleFit, tree: Any, course:
             fits[k] = fit_at(float(grid[k]), x0)
             x0 = fits[k].x
     values = np.array([chi(f) for f in fits])
+    k = int(np.argmin(values))  # narrow the profile's minimum down before its threshold is taken
+    if 0 < k < grid.size - 1:
+        extra_g, extra_f = [], []
+        left, centre, right = float(grid[k - 1]), float(grid[k]), float(grid[k + 1])
+        f_centre = fits[k]
+        for _ in range(PROFILE_REFINE):
+            g_left, g_right = 0.5 * (left + centre), 0.5 * (centre + right)
+            f_left, f_right = fit_at(g_left, f_centre.x), fit_at(g_right, f_centre.x)
+            extra_g += [g_left, g_right]
+            extra_f += [f_left, f_right]
+            trio = [(chi(f_left), g_left, f_left), (chi(f_centre), centre, f_centre), (chi(f_right), g_right, f_right)]
+            j = min(range(3), key=lambda i: trio[i][0])
+            if j == 0:
+                left, centre, right, f_centre = left, g_left, centre, f_left
+            elif j == 1:
+                left, right = g_left, g_right
+            else:
+                left, centre, right, f_centre = centre, g_right, right, f_right
+        merged = np.argsort(np.concatenate([grid, extra_g]))
+        grid = np.concatenate([grid, extra_g])[merged]
+        fits = [(fits + extra_f)[int(i)] for i in merged]
+        values = np.array([chi(f) for f in fits])
     best = min(float(values.min()), stats.chi_square)
     threshold = fit_stats.profile_interval(grid, values, best, stats.dof, level)[4]
     points = list(zip(grid.tolist(), fits, strict=True))
