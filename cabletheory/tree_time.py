@@ -28,7 +28,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field, replace
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -58,6 +58,7 @@ from .tree_modes import TreeModes, root_modes
 if TYPE_CHECKING:
     from .cable import Cylinder
     from .case import BallAndStick
+    from .transient import Response
     from .tree import TreeReport
 
 __all__ = [
@@ -354,46 +355,6 @@ def electrotonic_map(cell: PassiveTree, frequency: float = 0.0) -> ElectrotonicM
 # the cost of reduction, in time
 # --------------------------------------------------------------------------------------
 @dataclass(frozen=True, slots=True)
-class ReductionCost:
-    """The root's response of a tree and of its reduction to the same stimulus at the root, SI.
-
-    Attributes
-    ----------
-    times : s
-    tree_voltage, reduced_voltage : V at the root, (nT,)
-    largest_difference : V, max |reduced - tree| over ``times``
-    when : s, the time of that largest difference (on the grid given)
-    tree_error_bound : V, error estimate of the tree's values; the reduction's values are exact
-        series (cabletheory.transient) with their own bound ``reduced_error_bound``
-    reduced_error_bound : V
-    reduced_model : "equivalent cylinder" or "soma and equivalent cylinder"
-    electrotonic_length, conductance_ratio : L and ρ of the reduction (ρ None without a soma)
-    tree_modes : τ_n and C_n of the tree at the root (:func:`~cabletheory.tree_modes.root_modes`)
-    reduced_time_constants, reduced_coefficients : τ0, τ1 (s) and C0, C1 of the reduction
-    peeled_length : L a sealed cylinder would need for the tree's τ0/τ1 (Rall 1969)
-    peeled_ball_and_stick : (L, ρ) of a ball and stick with the tree's τ0/τ1 and C1/C0, if any
-    notes : plain-language remarks
-    """
-
-    times: Array
-    tree_voltage: Array
-    reduced_voltage: Array
-    largest_difference: float
-    when: float
-    tree_error_bound: float
-    reduced_error_bound: float
-    reduced_model: str
-    electrotonic_length: float
-    conductance_ratio: float | None
-    tree_modes: TreeModes
-    reduced_time_constants: Array
-    reduced_coefficients: Array
-    peeled_length: float
-    peeled_ball_and_stick: tuple[tuple[float, float], ...]
-    notes: tuple[str, ...] = field(default_factory=tuple)
-
-
-@dataclass(frozen=True, slots=True)
 class ReductionModes:
     """The slowest modes seen at the root of a tree beside those of its reduction, SI.
 
@@ -417,6 +378,31 @@ class ReductionModes:
     peeled_length: float
     peeled_ball_and_stick: tuple[tuple[float, float], ...]
     notes: tuple[str, ...] = field(default_factory=tuple)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ReductionCost(ReductionModes):
+    """The root's response of a tree and of its reduction to the same stimulus at the root, SI:
+    every attribute of :class:`ReductionModes`, and
+
+    Attributes
+    ----------
+    times : s
+    tree_voltage, reduced_voltage : V at the root, (nT,)
+    largest_difference : V, max |reduced - tree| over ``times``
+    when : s, the time of that largest difference (on the grid given)
+    tree_error_bound : V, error estimate of the tree's values; the reduction's values are exact
+        series (cabletheory.transient) with their own bound ``reduced_error_bound``
+    reduced_error_bound : V
+    """
+
+    times: Array
+    tree_voltage: Array
+    reduced_voltage: Array
+    largest_difference: float
+    when: float
+    tree_error_bound: float
+    reduced_error_bound: float
 
 
 def _reduction(cell: PassiveTree) -> tuple[TreeReport, Cylinder | BallAndStick, str]:
@@ -461,6 +447,22 @@ def _peeled(modes: TreeModes) -> tuple[float, tuple[tuple[float, float], ...], l
             tuple((s.electrotonic_length, s.conductance_ratio) for s in estimate.solutions), [])
 
 
+def _modes_part(cell: PassiveTree, report: TreeReport, name: str, reduced: Response,
+                modes: TreeModes | None) -> dict[str, Any]:
+    """The fields of :class:`ReductionModes` from the tree's analysis, its reduction's series
+    (``reduced``, of :func:`cabletheory.transient.charge` with two modes) and the tree's root modes
+    (searched here unless two or more are given)."""
+    if modes is None or modes.time_constants.size < 2:
+        modes = root_modes(cell, 2)
+    peeled, solutions, notes = _peeled(modes)
+    if not report.reducible:
+        notes.append("the tree does not meet Rall's conditions, so its reduction is approximate")
+    return {"reduced_model": name, "electrotonic_length": report.equivalent_cylinder.electrotonic_length,
+            "conductance_ratio": report.conductance_ratio, "tree_modes": modes,
+            "reduced_time_constants": reduced.time_constants[:2], "reduced_coefficients": reduced.coefficients[:2, 0],
+            "peeled_length": peeled, "peeled_ball_and_stick": solutions, "notes": tuple(notes)}
+
+
 def reduction_modes(cell: PassiveTree, *, modes: TreeModes | None = None) -> ReductionModes:
     r"""The two slowest modes seen at the root of a tree beside those of its Rall reduction, and the L
     and ρ that peeling the tree's would report; :func:`reduction_cost` without the time courses.
@@ -477,16 +479,7 @@ def reduction_modes(cell: PassiveTree, *, modes: TreeModes | None = None) -> Red
 
     report, model, name = _reduction(cell)
     reduced = charge(model, CurrentStep(1e-12), np.zeros(0), [0.0], modes=2)  # no times: its modes only
-    if modes is None or modes.time_constants.size < 2:
-        modes = root_modes(cell, 2)
-    peeled, solutions, notes = _peeled(modes)
-    if not report.reducible:
-        notes.append("the tree does not meet Rall's conditions, so its reduction is approximate")
-    return ReductionModes(reduced_model=name, electrotonic_length=report.equivalent_cylinder.electrotonic_length,
-                          conductance_ratio=report.conductance_ratio, tree_modes=modes,
-                          reduced_time_constants=reduced.time_constants[:2],
-                          reduced_coefficients=reduced.coefficients[:2, 0], peeled_length=peeled,
-                          peeled_ball_and_stick=solutions, notes=tuple(notes))
+    return ReductionModes(**_modes_part(cell, report, name, reduced, modes))
 
 
 def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
@@ -517,17 +510,7 @@ def reduction_cost(cell: PassiveTree, stimulus: Stimulus, times: ArrayLike, *,
     mine = tree_response(cell, stimulus, t, root_site(), [root_site()], tolerance=tolerance)
     diff = reduced.voltage[:, 0] - mine.voltage[:, 0]
     k = int(np.argmax(np.abs(diff))) if diff.size else 0
-    if modes is None or modes.time_constants.size < 2:
-        modes = root_modes(cell, 2)
-    peeled, solutions, notes = _peeled(modes)
-    if not report.reducible:
-        notes.append("the tree does not meet Rall's conditions, so its reduction is approximate")
     return ReductionCost(times=t, tree_voltage=mine.voltage[:, 0], reduced_voltage=reduced.voltage[:, 0],
                          largest_difference=float(abs(diff[k])) if diff.size else 0.0,
                          when=float(t[k]) if diff.size else math.nan, tree_error_bound=mine.error_bound,
-                         reduced_error_bound=reduced.error_bound, reduced_model=name,
-                         electrotonic_length=report.equivalent_cylinder.electrotonic_length,
-                         conductance_ratio=report.conductance_ratio,
-                         tree_modes=modes, reduced_time_constants=reduced.time_constants[:2],
-                         reduced_coefficients=reduced.coefficients[:2, 0], peeled_length=peeled,
-                         peeled_ball_and_stick=solutions, notes=tuple(notes))
+                         reduced_error_bound=reduced.error_bound, **_modes_part(cell, report, name, reduced, modes))
