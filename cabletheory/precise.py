@@ -212,13 +212,7 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
         n *= 2
         if n > MAX_PRECISE_MODES:
             return _inverted(float(X), float(X0), float(T), float(Td), float(L), float(B), float(y), kind, float(a))
-    key = (float(L), float(B), float(y), n)
-    if _cache is not None and key in _cache:
-        alphas = _cache[key]
-    else:
-        alphas = eigenvalues(L, B, n, "sealed", y)
-        if _cache is not None:
-            _cache[key] = alphas
+    alphas = _eigenvalues_kept(L, B, y, n, _cache)
     ym = mp.mpf(y)
     total = mp.mpf(0)
     f = (mp.mpf(1) if Td <= 0 else mp.mpf(0)) if kind == "pulse" else _shape_value(kind, T, D, a)
@@ -234,6 +228,18 @@ def current_value(X, X0, T, L, B, y, kind, D, a, tol, infinite=False, _cache=Non
         else:
             total += r * (f / mu - _alpha_mode(mu, T, a))
     return f * g - total, float(bound(n, tf)[0])
+
+
+def _eigenvalues_kept(L, B, y, n, cache):
+    """The first n eigenvalues of a sealed-origin cable (with a soma y), kept in ``cache`` (a dict, or
+    None) for the other points of a table."""
+    key = (float(L), float(B), float(y), n)
+    if cache is not None and key in cache:
+        return cache[key]
+    alphas = eigenvalues(L, B, n, "sealed", y)
+    if cache is not None:
+        cache[key] = alphas
+    return alphas
 
 
 def _residue(al, X, X0, L, y):
@@ -280,13 +286,7 @@ def _alpha_by_residues(X, X0, T, L, B, y, a, tol, cache):
         n *= 2
         if n > _ALPHA_MODES:
             return None
-    key = (float(L), float(B), float(y), n)
-    if cache is not None and key in cache:
-        alphas = cache[key]
-    else:
-        alphas = eigenvalues(L, B, n, "sealed", y)
-        if cache is not None:
-            cache[key] = alphas
+    alphas = _eigenvalues_kept(L, B, y, n, cache)
     c = 1 / a
     if any(abs(1 + al * al - c) < _RESONANCE for al in alphas):
         return None
