@@ -76,6 +76,15 @@ from .cable import length_constant, semi_infinite_input_conductance
 from .case import end_from_word
 from .errors import InputError
 from .tree import Tree
+from .tree_sites import (
+    Site,
+    _check_site,
+    node_sites,
+    root_site,
+    site_at,
+    site_on_branch,
+    sites_along,
+)
 
 __all__ = [
     "PassiveTree",
@@ -198,153 +207,6 @@ def _tips(parents: IntArray) -> NDArray[np.bool_]:
     p = np.asarray(parents)
     has_child[p[p >= 0]] = True
     return ~has_child
-
-
-@dataclass(frozen=True, slots=True)
-class Site:
-    """A point of a tree: ``distance`` (m) from the proximal end of piece ``piece``.
-
-    ``piece = -1`` is the root node (the soma, or the root point without a soma); the distal
-    node of piece i is ``Site(i, tree.lengths[i])``.
-    """
-
-    piece: int
-    distance: float = 0.0
-
-
-def root_site() -> Site:
-    """The root node (soma)."""
-    return Site(-1, 0.0)
-
-
-def site_at(tree: Tree, label: str) -> Site:
-    """The site named by a point label (SWC id or piece name) or by the root's label, 'root' or 'soma'."""
-    text = str(label).strip()
-    if text in ("root", "soma", tree.root_label):
-        return root_site()
-    try:
-        i = tree.labels.index(text)
-    except ValueError:
-        raise InputError(f"{tree.source}: no point {text!r} in the tree") from None
-    return Site(i, float(tree.lengths[i]))
-
-
-def site_on_branch(tree: Tree, branch: int, distance: float) -> Site:
-    """The site ``distance`` (m) from the proximal end of branch ``branch``.
-
-    Branches are the unbranched runs of pieces between the root, branch points and tips,
-    numbered as :func:`cabletheory.tree.geometry.branch_ids` numbers them (parents first).
-    """
-    from .tree.geometry import branch_ids
-
-    parents = np.asarray(tree.parents)
-    children = np.bincount(parents[parents >= 0], minlength=len(tree))
-    ids = branch_ids(parents, children)
-    pieces = np.flatnonzero(ids == int(branch))
-    if not (isinstance(branch, int | np.integer) and pieces.size):
-        raise InputError(f"{tree.source}: branch {branch!r} does not exist (0..{int(ids.max())})")
-    ends = np.cumsum(np.asarray(tree.lengths)[pieces])
-    x = float(distance)
-    if not (math.isfinite(x) and 0.0 <= x <= ends[-1] * (1 + 1e-12)):
-        raise InputError(f"{tree.source}: distance {x!r} m lies outside branch {branch} (0..{float(ends[-1])!r} m)")
-    k = min(int(np.searchsorted(ends, x, side="left")), pieces.size - 1)
-    if k and x - float(ends[k - 1]) <= 1e-12 * float(ends[-1]):
-        k -= 1  # on the node between two pieces: the end of the first
-    start = float(ends[k - 1]) if k else 0.0
-    length = float(tree.lengths[pieces[k]])
-    at_end = abs(float(ends[k]) - x) <= 1e-12 * float(ends[-1])
-    return Site(int(pieces[k]), length if at_end else min(max(x - start, 0.0), length))
-
-
-def node_sites(tree: Tree) -> NodeSites:
-    """The root and the distal node of every piece, in the tree's order (root first)."""
-    return NodeSites(tuple(np.asarray(tree.lengths, dtype=float).tolist()))
-
-
-class NodeSites(Sequence[Site]):
-    """The root's site, then ``Site(i, lengths[i])`` for every piece i: a sequence whose sites are
-    made when read (a tree of 100,000 points need not make them all to be mapped)."""
-
-    __slots__ = ("lengths",)
-
-    def __init__(self, lengths: tuple[float, ...]) -> None:
-        self.lengths = lengths
-
-    def __len__(self) -> int:
-        return len(self.lengths) + 1
-
-    def __getitem__(self, index):  # type: ignore[no-untyped-def, override]
-        if isinstance(index, slice):
-            return tuple(self[k] for k in range(*index.indices(len(self))))
-        k = int(index) + (len(self) if int(index) < 0 else 0)
-        if k == 0:
-            return root_site()
-        if k < 0:
-            k = len(self)  # out of range: the lengths' own IndexError
-        return Site(k - 1, self.lengths[k - 1])
-
-    def __iter__(self):  # type: ignore[no-untyped-def]
-        yield root_site()
-        for i, ell in enumerate(self.lengths):
-            yield Site(i, ell)
-
-    def __eq__(self, other: object) -> bool:
-        if isinstance(other, NodeSites):
-            return self.lengths == other.lengths
-        return isinstance(other, Sequence) and tuple(self) == tuple(other)
-
-    def __hash__(self) -> int:
-        return hash(self.lengths)
-
-    def __repr__(self) -> str:
-        return f"NodeSites({len(self)} sites)"
-
-
-def _chain(tree: Tree, piece: int) -> list[int]:
-    out = []
-    while piece >= 0:
-        out.append(piece)
-        piece = int(tree.parents[piece])
-    return out
-
-
-def sites_along(tree: Tree, start: Site, end: Site, count: int) -> tuple[tuple[Site, ...], Array]:
-    """``count`` sites equally spaced along the tree's path from ``start`` to ``end``, ends included.
-
-    Returns the sites and their path distance from ``start`` (m). The path is the unique one
-    through the tree (up to the nearest common point, then down).
-    """
-    if not (isinstance(count, int) and count >= 2):
-        raise InputError(f"count must be a whole number >= 2, got {count!r}")
-    (i, xa), (j, xb) = _check_site(tree, start), _check_site(tree, end)
-    ell = np.asarray(tree.lengths, dtype=float)
-    ca, cb = _chain(tree, i), _chain(tree, j)
-    common = next((k for k in ca if k in set(cb)), None)
-    if common is None:
-        ia, ib = len(ca), len(cb)
-    else:
-        ia, ib = ca.index(common), cb.index(common)
-    if common is not None and ia == 0 and ib == 0:
-        legs = [(i, xa, xb)]
-    elif common is not None and ia == 0:
-        legs = [(i, xa, ell[i]), *((k, 0.0, ell[k]) for k in reversed(cb[1:ib])), (j, 0.0, xb)]
-    elif common is not None and ib == 0:
-        legs = [(i, xa, 0.0), *((k, ell[k], 0.0) for k in ca[1:ia]), (j, ell[j], xb)]
-    else:
-        legs = ([(i, xa, 0.0)] if i >= 0 else []) + [(k, ell[k], 0.0) for k in ca[1:ia]]
-        legs += [(k, 0.0, ell[k]) for k in reversed(cb[1:ib])] + ([(j, 0.0, xb)] if j >= 0 else [])
-    if not legs:
-        return (start,) * count, np.zeros(count)
-    spans = np.array([abs(b - a) for _, a, b in legs])
-    edges = np.concatenate(([0.0], np.cumsum(spans)))
-    wanted = np.linspace(0.0, edges[-1], count)
-    sites = []
-    for d in wanted.tolist():
-        k = min(int(np.searchsorted(edges, d, side="right")) - 1, len(legs) - 1)
-        piece, a, b = legs[k]
-        x = a + math.copysign(min(d - edges[k], spans[k]), b - a)
-        sites.append(Site(int(piece), float(min(max(x, 0.0), ell[piece]))))
-    return tuple(sites), wanted
 
 
 # --------------------------------------------------------------------------------------
@@ -572,24 +434,6 @@ def _check_sites(tree: Tree, sites: Sequence[Site]) -> tuple[IntArray, Array]:
         _check_site(tree, sites[int(bad[0])])
     x = np.where(root | (x <= 1e-12 * ell), 0.0, np.where(x >= ell * (1 - 1e-12), ell, x))
     return piece, x
-
-
-def _check_site(tree: Tree, site: Site) -> tuple[int, float]:
-    if not isinstance(site, Site):
-        raise InputError(f"a site must be a Site (piece, distance), got {site!r}")
-    i, x = int(site.piece), float(site.distance)
-    if i == -1:
-        return -1, 0.0
-    if not 0 <= i < len(tree):
-        raise InputError(f"{tree.source}: piece {i} does not exist (0..{len(tree) - 1})")
-    ell = float(tree.lengths[i])
-    if not (math.isfinite(x) and -1e-12 * ell <= x <= ell * (1 + 1e-12)):
-        raise InputError(f"{tree.source}: distance {x!r} m lies outside piece {tree.labels[i]} (0..{ell!r} m)")
-    if x <= 1e-12 * ell:
-        return i, 0.0
-    if x >= ell * (1 - 1e-12):
-        return i, ell
-    return i, x
 
 
 # --------------------------------------------------------------------------------------
