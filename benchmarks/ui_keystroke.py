@@ -20,9 +20,8 @@ import asyncio
 import os
 import statistics
 import sys
-import time
-from typing import ClassVar
 
+from _keys import timed_app, timed_keystroke
 from _table import Row, compile_package, p90, report
 
 GOAL_P90 = 0.100  # s
@@ -36,21 +35,7 @@ TYPED: tuple[tuple[str, tuple[str, ...]], ...] = (
 
 
 async def _measure(repeats: int) -> dict[str, list[tuple[float, float]]]:
-    from textual.widgets import Input
-
-    from cabletheory.tui.app import CableApp
-
-    class Timed(CableApp):
-        """Notes when each frame is handed to the terminal (as benchmarks/ui_start.py does)."""
-
-        frames: ClassVar[list[tuple[float, float]]] = []  # (wall clock, CPU time of the process)
-
-        def _display(self, screen, renderable):  # type: ignore[no-untyped-def]
-            if renderable is not None:
-                self.frames.append((time.perf_counter(), time.process_time()))
-            super()._display(screen, renderable)
-
-    app = Timed(view="charging")
+    app = timed_app(view="charging")
     out: dict[str, list[tuple[float, float]]] = {}
     async with app.run_test(size=(120, 36)) as pilot:
         view = app.query_one("#charging")
@@ -60,27 +45,7 @@ async def _measure(repeats: int) -> dict[str, list[tuple[float, float]]]:
             times = out.setdefault(field, [])
             for _ in range(repeats):
                 for text in texts:
-                    box = app.query_one(f"#{field}", Input)
-                    box.value = text[:-1]
-                    await pilot.pause()
-                    await app.workers.wait_for_complete()
-                    await pilot.pause()
-                    shown = view.report
-                    box.focus()
-                    await pilot.press("end")  # a focused field selects its text; typing would replace it
-                    await pilot.pause()
-                    began, cpu = time.perf_counter(), time.process_time()
-                    # the press runs beside the clock: Pilot.press returns only once every widget is idle
-                    pressing = asyncio.ensure_future(pilot.press(text[-1]))
-                    while view.report is shown or view.report is None:
-                        if time.perf_counter() - began > 60:
-                            raise SystemExit(f"no new result within 60 s after typing into {field}")
-                        await asyncio.sleep(0.001)
-                    ready = time.perf_counter()
-                    while not app.frames or app.frames[-1][0] < ready:  # the first frame that shows it
-                        await asyncio.sleep(0.001)
-                    times.append((app.frames[-1][0] - began, app.frames[-1][1] - cpu))
-                    await pressing
+                    times.append(await timed_keystroke(app, pilot, view, field, text))
     return out
 
 

@@ -23,8 +23,8 @@ from __future__ import annotations
 import asyncio
 import statistics
 import sys
-import time
-from typing import ClassVar
+
+from _keys import idle, timed_app, timed_keystroke
 
 GOAL_P90 = 0.100  # s
 SWC = "lumenia_pv7_interneuron.swc"
@@ -38,43 +38,16 @@ TYPED: tuple[tuple[str, str, tuple[str, ...]], ...] = (
 )
 
 
-async def _idle(app, pilot) -> None:  # type: ignore[no-untyped-def]
-    """Let every worker finish (a worker replaced by a newer one ends cancelled)."""
-    from textual.worker import WorkerCancelled
-
-    await pilot.pause()
-    for _ in range(3):
-        try:
-            await app.workers.wait_for_complete()
-            break
-        except WorkerCancelled:
-            await pilot.pause()
-    await pilot.pause()
-
-
-async def _measure(repeats: int) -> dict[str, list[float]]:
-    from textual.widgets import Input
-
-    from cabletheory.tui.app import CableApp
+async def _measure(repeats: int) -> dict[str, list[tuple[float, float]]]:
     from cabletheory.tui.fields import bundled_morphologies
 
-    class Timed(CableApp):
-        """Notes when each frame is handed to the terminal (as benchmarks/ui_start.py does)."""
-
-        frames: ClassVar[list[tuple[float, float]]] = []  # (wall clock, CPU time of the process)
-
-        def _display(self, screen, renderable):  # type: ignore[no-untyped-def]
-            if renderable is not None:
-                self.frames.append((time.perf_counter(), time.process_time()))
-            super()._display(screen, renderable)
-
-    app = Timed(view="tree", swc=str(bundled_morphologies() / SWC))
+    app = timed_app(view="tree", swc=str(bundled_morphologies() / SWC))
     out: dict[str, list[tuple[float, float]]] = {}
     async with app.run_test(size=(120, 36)) as pilot:
         view = app.query_one("#tree")
         while view.report is None:
             await pilot.pause(0.01)
-        await _idle(app, pilot)
+        await idle(app, pilot)
         for panel, field, texts in TYPED:
             if not app.query(f"#{field}"):
                 continue  # a panel this version of the view does not have
@@ -83,31 +56,11 @@ async def _measure(repeats: int) -> dict[str, list[float]]:
                 continue
             if show is not None:
                 show(panel)
-                await _idle(app, pilot)
+                await idle(app, pilot)
             times = out.setdefault(f"{panel}: {field}", [])
             for _ in range(repeats):
                 for text in texts:
-                    box = app.query_one(f"#{field}", Input)
-                    box.value = text[:-1]
-                    await _idle(app, pilot)
-                    shown = view.report
-                    box.focus()
-                    await pilot.press("end")  # a focused field selects its text; typing would replace it
-                    await pilot.pause()
-                    began, cpu = time.perf_counter(), time.process_time()
-                    # the press runs beside the clock: Pilot.press returns only once every widget is
-                    # idle, which is later than the frame that shows the result
-                    pressing = asyncio.ensure_future(pilot.press(text[-1]))
-                    # poll without pilot.pause (which walks every widget and would slow the app)
-                    while view.report is shown or view.report is None:
-                        if time.perf_counter() - began > 60:
-                            raise SystemExit(f"no new result within 60 s after typing into {field}")
-                        await asyncio.sleep(0.001)
-                    ready = time.perf_counter()
-                    while not app.frames or app.frames[-1][0] < ready:  # the first frame that shows it
-                        await asyncio.sleep(0.001)
-                    times.append((app.frames[-1][0] - began, app.frames[-1][1] - cpu))
-                    await pressing
+                    times.append(await timed_keystroke(app, pilot, view, field, text))
     return out
 
 
