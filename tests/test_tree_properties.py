@@ -15,21 +15,11 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from tree_fixtures import UM, outline_tree
 
-from cabletheory.morphology import Outline
-from cabletheory.tree import Tree, analyse_tree, scale_lengths, tree_from_outline
+from cabletheory.tree import analyse_tree, scale_lengths
 
 RM, RI = 2.0, 2.0
-UM = 1e-6
-
-
-def make_tree(parents, lengths, diameters, soma=None) -> Tree:
-    n = len(parents)
-    d = np.asarray(diameters, dtype=float)
-    return tree_from_outline(Outline(
-        source="prop", names=tuple(f"s{i}" for i in range(n)), parents=np.asarray(parents, dtype=np.int64),
-        lengths=np.asarray(lengths, dtype=float), diameters=d, end_diameters=d,
-        lines=np.arange(1, n + 1, dtype=np.int64), soma_diameter=soma))
 
 
 @st.composite
@@ -48,8 +38,8 @@ def test_zero_length_branch_changes_nothing(spec, data):
     parents, lengths, diameters, soma = spec
     where = data.draw(st.integers(-1, len(parents) - 1), label="attach to")
     width = data.draw(st.floats(0.2, 6.0), label="diameter (µm)") * UM
-    before = analyse_tree(make_tree(parents, lengths, diameters, soma), RM, RI)
-    after = analyse_tree(make_tree([*parents, where], [*lengths, 0.0], [*diameters, width], soma), RM, RI)
+    before = analyse_tree(outline_tree(parents, lengths, diameters, soma), RM, RI)
+    after = analyse_tree(outline_tree([*parents, where], [*lengths, 0.0], [*diameters, width], soma), RM, RI)
     assert after.input_resistance == pytest.approx(before.input_resistance, rel=1e-13)
     assert after.reduced_input_resistance == pytest.approx(before.reduced_input_resistance, rel=1e-13)
     assert after.equivalent_cylinder.electrotonic_length == pytest.approx(
@@ -65,7 +55,7 @@ def test_zero_length_branch_changes_nothing(spec, data):
 @given(trees(), st.floats(0.01, 100.0))
 def test_scaling_lengths_scales_electrotonic_lengths(spec, factor):
     parents, lengths, diameters, soma = spec
-    tree = make_tree(parents, lengths, diameters, soma)
+    tree = outline_tree(parents, lengths, diameters, soma)
     base = analyse_tree(tree, RM, RI)
     scaled = analyse_tree(scale_lengths(tree, factor), RM, RI)
     np.testing.assert_allclose(scaled.tips.electrotonic_distances, factor * base.tips.electrotonic_distances,
@@ -86,7 +76,7 @@ def test_exact_resistance_lies_between_bounds(spec):
     """Sealed tips: the input resistance is at least that of all membrane lumped at the root
     (no axial drop) [CP]; killed tips lower it (Rall 1959 [Rall1959])."""
     parents, lengths, diameters, soma = spec
-    tree = make_tree(parents, lengths, diameters, soma)
+    tree = outline_tree(parents, lengths, diameters, soma)
     sealed = analyse_tree(tree, RM, RI)
     killed = analyse_tree(tree, RM, RI, killed_tips=True)
     lumped = RM / (sealed.membrane_area + ((soma is not None and math.pi * soma**2) or 0.0))
@@ -98,7 +88,7 @@ def test_long_chain_is_one_cylinder_and_needs_no_recursion():
     """50,000 pieces in series (far deeper than Python's recursion limit) equal one cylinder."""
     n = 50_000
     d, ell = 1.2 * UM, 0.03 * UM
-    tree = make_tree(np.arange(-1, n - 1), np.full(n, ell), np.full(n, d))
+    tree = outline_tree(np.arange(-1, n - 1), np.full(n, ell), np.full(n, d))
     report = analyse_tree(tree, RM, RI)
     lam = math.sqrt(RM * d / (4 * RI))
     r_inf = 2 / math.pi * math.sqrt(RM * RI) * d**-1.5
