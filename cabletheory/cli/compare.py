@@ -23,8 +23,8 @@ from .reference import (
     check_recorded_positions,
     exact_from_options,
     parser_for_quantities,
-    read_column_points,
     read_run,
+    read_tree_run,
 )
 from .tree_charge import add_tree_options
 
@@ -114,28 +114,15 @@ def _compare_tree(args: argparse.Namespace, tolerance: float, relative: bool
                   ) -> tuple[ExactCase, list[Recording], list[Comparison], list[tuple[str, ...]]]:
     """``compare --morphology``: every run read at tree points (docs/verify.md, "On a whole tree") and
     compared with the exact solution of the tree case at exactly its points."""
-    from ..inputs import read_rest
-    from ..textfile import read_input_text
-    from ..units import parse_quantity
     from ..verify.exact import tree_exact_case
-    from ..verify.tree_reading import read_tree_recording
-    from .common import _truncation
-    from .tree_charge import read_tree_case
+    from .tree_charge import read_tree_case, read_tree_truncation
 
     tree_case = read_tree_case(args)
-    value, relative_truncation = _truncation(args.truncation)
-    if relative_truncation and not 0 < value < 1:
-        raise InputError(f"--truncation: {args.truncation.strip()!r} must lie between 0 and 1 (or be a voltage)")
-    rest: float | str = read_rest(args.rest, "--rest") if args.rest else 0.0
-    onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) if args.onset else 0.0
-    columns = read_column_points(args.column_at) if args.column_at else None
+    value, relative_truncation = read_tree_truncation(args)
     recordings, results, points = [], [], []
     case: ExactCase | None = None
     for path in args.runs:
-        text = read_input_text(path, "simulator output")
-        read = read_tree_recording(text, path, parser_for_quantities, tree_case.cell.tree, columns=columns,
-                                   time_unit=args.time_unit, distance_unit=args.position_unit,
-                                   voltage_unit=args.voltage_unit, resting_potential=rest, time_offset=onset)
+        read = read_tree_run(path, args, tree_case.cell.tree)
         case = tree_exact_case(tree_case, read.sites, value, relative=relative_truncation)
         recordings.append(read.recording)
         results.append(compare(read.recording, case, tolerance, relative=relative, skip_onset=args.skip_onset_sample))

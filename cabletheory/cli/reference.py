@@ -83,6 +83,19 @@ def read_run(path: str, args: argparse.Namespace) -> Recording:
                           allow_negative_positions=True)
 
 
+def read_tree_run(path: str, args: argparse.Namespace, tree):  # -> verify.tree_reading.TreeReading
+    """Read one simulator output file recorded at points of ``tree`` (columns ``V@412``, a long
+    table's ``point`` column, or ``--column-at``) with the layout options of ``args``."""
+    from ..verify.tree_reading import read_tree_recording
+
+    rest: float | str = read_rest(args.rest, "--rest") if args.rest else 0.0
+    onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) if args.onset else 0.0
+    return read_tree_recording(read_input_text(path, "simulator output"), path, parser_for_quantities, tree,
+                               columns=read_column_points(args.column_at) if args.column_at else None,
+                               time_unit=args.time_unit, distance_unit=args.position_unit,
+                               voltage_unit=args.voltage_unit, resting_potential=rest, time_offset=onset)
+
+
 def add_layout_options(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("reading simulator files (see docs/verify.md for the layouts)")
     group.add_argument("--time-unit", metavar="UNIT", help="unit of the time column if its header has none "
@@ -220,20 +233,12 @@ def _tree_like(args: argparse.Namespace) -> str:
 
     from .. import PASSIVE_CAVEAT as CAVEAT
     from ..verify.exact import tree_exact_case
-    from ..verify.tree_reading import read_tree_recording
-    from .common import _truncation
-    from .tree_charge import read_tree_case
+    from .tree_charge import read_tree_case, read_tree_truncation
 
     case = read_tree_case(args)
-    value, relative = _truncation(args.truncation)
-    if relative and not 0 < value < 1:
-        raise InputError(f"--truncation: {args.truncation.strip()!r} must lie between 0 and 1 (or be a voltage)")
-    rest: float | str = read_rest(args.rest, "--rest") if args.rest else 0.0
+    value, relative = read_tree_truncation(args)
     onset = parse_quantity(args.onset, "time", "--onset", allow_zero=True, allow_negative=True) if args.onset else 0.0
-    read = read_tree_recording(read_input_text(args.like, "simulator output"), args.like, parser_for_quantities,
-                               case.cell.tree, columns=read_column_points(args.column_at) if args.column_at else None,
-                               time_unit=args.time_unit, distance_unit=args.position_unit,
-                               voltage_unit=args.voltage_unit, resting_potential=rest, time_offset=onset)
+    read = read_tree_run(args.like, args, case.cell.tree)
     exact = tree_exact_case(case, read.sites, value, relative=relative)
     r = read.recording
     after = r.times >= 0

@@ -37,6 +37,17 @@ def add_tree_options(parser: argparse.ArgumentParser) -> None:
                             "(default: as the file says, else sealed)")
 
 
+def read_tree_truncation(args: argparse.Namespace) -> tuple[float, bool]:
+    """``--truncation`` on a tree: (value, relative); a voltage, or a fraction in (0, 1) of the
+    case's reference voltage."""
+    from .common import _truncation
+
+    value, relative = _truncation(args.truncation)
+    if relative and not 0 < value < 1:
+        raise InputError(f"--truncation: {args.truncation.strip()!r} must lie between 0 and 1 (or be a voltage)")
+    return value, relative
+
+
 def read_tree_case(args: argparse.Namespace):  # -> tree_case.TreeCase
     """The tree case of the options (every value checked; messages name the option)."""
     from ..inputs import TREE_STIMULUS_FIELDS
@@ -75,13 +86,10 @@ def tree_table(args: argparse.Namespace, times: list[float] | None, form: str, *
     (:func:`cabletheory.waveform.response_features`, the same as a cylinder's) at up to
     ``FEATURE_POSITIONS`` points."""
     from ..tree_time import tree_response
-    from .common import _truncation
 
     case = read_tree_case(args)
     t = np.linspace(0.0, 2 * case.membrane_time_constant, 11) if times is None else np.asarray(times)
-    value, relative = _truncation(args.truncation)
-    if relative and not 0 < value < 1:
-        raise InputError(f"--truncation: {args.truncation.strip()!r} must lie between 0 and 1 (or be a voltage)")
+    value, relative = read_tree_truncation(args)
     if not relative:
         probe = tree_response(case.cell, case.stimulus, [0.0], case.stimulus_site, case.sites[:1])
         value = value / probe.reference_voltage if probe.reference_voltage > 0 else 1e-10
